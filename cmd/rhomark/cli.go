@@ -1,0 +1,175 @@
+package main
+
+import (
+	"errors"
+	"flag"
+	"fmt"
+	"io"
+	"runtime/debug"
+	"sort"
+	"strings"
+)
+
+// Exit statuses.
+const (
+	exitOK      = 0
+	exitFailure = 1 // the work failed or was interrupted
+	exitUsage   = 2 // bad command line or bad input
+)
+
+// version is the release of this build; module build information adds the
+// VCS revision when there is one.
+const version = "0.1.0-dev"
+
+// env is what a command can touch: its streams.
+type env struct {
+	stdin          io.Reader
+	stdout, stderr io.Writer
+}
+
+// command is one subcommand.
+type command struct {
+	name    string
+	summary string
+	run     func(e env, args []string) error
+}
+
+func commands() []command {
+	return []command{
+		{"run", "run a Monte Carlo scenario and summarise the estimators", runCmd},
+		{"fit", "fit estimators to a CSV file of your own", fitCmd},
+		{"scenarios", "list the shipped scenarios, or print one as a starting point", scenariosCmd},
+	}
+}
+
+// usageError marks an error as the user's: bad flags or bad input (exit 2).
+type usageError struct{ err error }
+
+func (u usageError) Error() string { return u.err.Error() }
+func (u usageError) Unwrap() error { return u.err }
+
+func usagef(format string, args ...any) error { return usageError{fmt.Errorf(format, args...)} }
+
+// run dispatches a command line and returns the exit status.
+func run(args []string, stdin io.Reader, stdout, stderr io.Writer) int {
+	e := env{stdin: stdin, stdout: stdout, stderr: stderr}
+	if len(args) == 0 || args[0] == "help" || args[0] == "-h" || args[0] == "--help" || args[0] == "-help" {
+		if len(args) > 1 {
+			return run([]string{args[1], "--help"}, stdin, stdout, stderr)
+		}
+		writeHelp(stdout)
+		if len(args) == 0 {
+			return exitUsage
+		}
+		return exitOK
+	}
+	if args[0] == "--version" || args[0] == "-version" || args[0] == "version" {
+		fmt.Fprintln(stdout, versionText())
+		return exitOK
+	}
+	for _, c := range commands() {
+		if c.name == args[0] {
+			err := c.run(e, args[1:])
+			return report(stderr, c.name, err)
+		}
+	}
+	fmt.Fprintf(stderr, "rhomark: unknown command %q; run 'rhomark help' for the list\n", args[0])
+	return exitUsage
+}
+
+// report prints err, if any, as one line per problem and returns the exit
+// status.
+func report(stderr io.Writer, cmd string, err error) int {
+	if err == nil || errors.Is(err, flag.ErrHelp) {
+		return exitOK
+	}
+	var cancelled interrupted
+	status := exitFailure
+	var u usageError
+	switch {
+	case errors.As(err, &u), isInputError(err):
+		status = exitUsage
+	case errors.As(err, &cancelled):
+		status = exitFailure
+	}
+	for _, line := range strings.Split(strings.TrimRight(err.Error(), "\n"), "\n") {
+		fmt.Fprintf(stderr, "rhomark %s: %s\n", cmd, line)
+	}
+	return status
+}
+
+// interrupted is returned when a run was stopped by a signal.
+type interrupted struct{ msg string }
+
+func (i interrupted) Error() string { return i.msg }
+
+func writeHelp(w io.Writer) {
+	fmt.Fprintf(w, "rhomark %s: Monte Carlo benchmarks for robust regression estimators\n\n", version)
+	fmt.Fprintln(w, "Usage: rhomark <command> [options] [arguments]")
+	fmt.Fprintln(w, "\nCommands:")
+	cs := commands()
+	sort.Slice(cs, func(i, j int) bool { return cs[i].name < cs[j].name })
+	for _, c := range cs {
+		fmt.Fprintf(w, "  %-11s %s\n", c.name, c.summary)
+	}
+	fmt.Fprintln(w, "\nrhomark <command> --help shows a command's options; rhomark --version its build.")
+	fmt.Fprintln(w, "Exit status: 0 success, 1 failure or interruption, 2 bad usage or input.")
+}
+
+// versionText returns the version line and the build information.
+func versionText() string {
+	var b strings.Builder
+	fmt.Fprintf(&b, "rhomark %s", version)
+	if bi, ok := debug.ReadBuildInfo(); ok {
+		fmt.Fprintf(&b, " (%s", bi.GoVersion)
+		for _, s := range bi.Settings {
+			switch s.Key {
+			case "vcs.revision":
+				rev := s.Value
+				if len(rev) > 12 {
+					rev = rev[:12]
+				}
+				fmt.Fprintf(&b, ", revision %s", rev)
+			case "vcs.modified":
+				if s.Value == "true" {
+					b.WriteString(", modified")
+				}
+			case "GOOS", "GOARCH":
+				fmt.Fprintf(&b, ", %s=%s", s.Key, s.Value)
+			}
+		}
+		b.WriteString(")")
+	}
+	return b.String()
+}
+
+// newFlags returns a flag set whose usage text starts with synopsis.
+func newFlags(e env, name, synopsis, about string) *flag.FlagSet {
+	fs := flag.NewFlagSet(name, flag.ContinueOnError)
+	fs.SetOutput(e.stderr)
+	fs.Usage = func() {
+		fmt.Fprintf(e.stderr, "Usage: rhomark %s %s\n\n%s\n\nOptions:\n", name, synopsis, about)
+		fs.PrintDefaults()
+	}
+	return fs
+}
+
+// parseFlags parses args, allowing flags after positional arguments, and
+// returns the positional arguments.
+func parseFlags(fs *flag.FlagSet, args []string) ([]string, error) {
+	var pos []string
+	for {
+		if err := fs.Parse(args); err != nil {
+			if errors.Is(err, flag.ErrHelp) {
+				return nil, err
+			}
+			return nil, usageError{err}
+		}
+		args = fs.Args()
+		if len(args) == 0 {
+			return pos, nil
+		}
+		pos = append(pos, args[0])
+		args = args[1:]
+	}
+}

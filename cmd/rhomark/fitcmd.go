@@ -1,0 +1,301 @@
+package main
+
+import (
+	"encoding/json"
+	"flag"
+	"fmt"
+	"os"
+	"strconv"
+	"strings"
+
+	"gonum.org/v1/gonum/mat"
+
+	"github.com/rhomark/rhomark/estimators"
+	"github.com/rhomark/rhomark/internal/csvdata"
+	"github.com/rhomark/rhomark/scenarios"
+)
+
+// dataError is a problem with a user's data file (exit status 2).
+type dataError struct{ err error }
+
+func (d dataError) Error() string { return d.err.Error() }
+func (d dataError) Unwrap() error { return d.err }
+
+// fitOutput is the JSON form of fit's results.
+type fitOutput struct {
+	Estimator fitEstimator `json:"estimator"`
+	Fits      []fitJSON    `json:"fits"`
+}
+
+type fitEstimator struct {
+	Method string    `json:"method"`
+	Psi    string    `json:"psi,omitempty"`
+	Tuning []float64 `json:"tuning,omitempty"`
+	Scale  string    `json:"scale,omitempty"`
+}
+
+type fitJSON struct {
+	Group        string             `json:"group"`
+	Rows         int                `json:"rows"`
+	Coefficients map[string]float64 `json:"coefficients,omitempty"`
+	Order        []string           `json:"coefficient_order"`
+	Scale        float64            `json:"scale"`
+	Iterations   int                `json:"iterations"`
+	Status       string             `json:"status"`
+	Converged    bool               `json:"converged"`
+	EquationNorm float64            `json:"equation_norm"`
+	Objective    float64            `json:"objective"`
+	Error        string             `json:"error,omitempty"`
+}
+
+func fitCmd(e env, args []string) error {
+	fs := newFlags(e, "fit", "DATA.csv --y COLUMN [options]",
+		"Fits a regression to a CSV file (a header row, then one row per observation),\nonce per group if --group is given.")
+	yCol := fs.String("y", "", "response `column` (required)")
+	xCols := fs.String("x", "", "predictor `columns`, comma-separated (default: every other numeric column)")
+	group := fs.String("group", "", "fit once per value of this `column`")
+	noIntercept := fs.Bool("no-intercept", false, "fit without an intercept")
+	method := fs.String("method", "irls", "`method`: ls, irls or newton")
+	psiName := fs.String("psi", "huber", "psi `family`: "+strings.Join(estimators.FamilyNames(), ", "))
+	tuning := fs.String("tuning", "", "tuning constant(s) `C`, comma-separated (default: the family's)")
+	scale := fs.String("scale", "mad", "scale `rule`: mad, or fixed:S for a known scale S")
+	tol := fs.Float64("tol", estimators.DefaultChangeTol, "stop when the relative change in coefficients is below `T`")
+	maxIter := fs.Int("max-iter", estimators.DefaultMaxIterations, "iteration cap `N`")
+	asJSON := fs.Bool("json", false, "print JSON instead of a table")
+	pos, err := parseFlags(fs, args)
+	if err != nil {
+		return err
+	}
+	if len(pos) != 1 {
+		return usagef("want one CSV file, got %d arguments", len(pos))
+	}
+	if *yCol == "" {
+		return usagef("--y is required: the name of the response column")
+	}
+	given := map[string]bool{}
+	fs.Visit(func(f *flagValue) { given[f.Name] = true })
+
+	est, desc, err := buildFitEstimator(*method, *psiName, *tuning, *scale, *tol, *maxIter, given)
+	if err != nil {
+		return err
+	}
+	f, err := os.Open(pos[0])
+	if err != nil {
+		return err
+	}
+	defer f.Close()
+	t, err := csvdata.Read(pos[0], f)
+	if err != nil {
+		return dataError{err}
+	}
+	design, err := chooseColumns(t, *yCol, *xCols, *group)
+	if err != nil {
+		return dataError{err}
+	}
+	names := design.names
+	if !*noIntercept {
+		names = append([]string{"intercept"}, names...)
+	}
+	out := fitOutput{Estimator: desc}
+	failed := 0
+	for _, g := range design.groups {
+		x := mat.NewDense(len(g.rows), len(names), nil)
+		y := make([]float64, len(g.rows))
+		for r, i := range g.rows {
+			off := 0
+			if !*noIntercept {
+				x.Set(r, 0, 1)
+				off = 1
+			}
+			for k, j := range design.x {
+				v, err := t.Float(i, j)
+				if err != nil {
+					return dataError{err}
+				}
+				x.Set(r, off+k, v)
+			}
+			if y[r], err = t.Float(i, design.y); err != nil {
+				return dataError{err}
+			}
+		}
+		fj := fitJSON{Group: g.name, Rows: len(g.rows), Order: names}
+		res, err := estimators.Fit(est, x, y)
+		if err != nil {
+			fj.Status, fj.Error = "not-fitted", err.Error()
+			failed++
+		} else {
+			fj.Coefficients = map[string]float64{}
+			for k, n := range names {
+				fj.Coefficients[n] = res.Coefficients[k]
+			}
+			fj.Scale, fj.Iterations, fj.Status = res.Scale, res.Iterations, res.Status.String()
+			fj.Converged, fj.EquationNorm, fj.Objective = res.Status.Converged(), res.EquationNorm, res.Objective
+		}
+		out.Fits = append(out.Fits, fj)
+	}
+	if *asJSON {
+		enc := json.NewEncoder(e.stdout)
+		enc.SetIndent("", "  ")
+		if err := enc.Encode(out); err != nil {
+			return err
+		}
+	} else {
+		writeFitTable(e, out)
+	}
+	if failed > 0 {
+		return fmt.Errorf("%d of %d group(s) could not be fitted (see the error of each)", failed, len(out.Fits))
+	}
+	return nil
+}
+
+// flagValue is the flag type Visit passes.
+type flagValue = flag.Flag
+
+// buildFitEstimator turns fit's options into an estimator.
+func buildFitEstimator(method, psiName, tuning, scale string, tol float64, maxIter int, given map[string]bool) (estimators.Estimator, fitEstimator, error) {
+	m, ok := estimators.ParseMethod(method)
+	if !ok {
+		return estimators.Estimator{}, fitEstimator{}, usagef("--method %q: want ls, irls or newton", method)
+	}
+	desc := fitEstimator{Method: m.String()}
+	if m == estimators.MethodLS {
+		for _, name := range []string{"psi", "tuning", "scale", "tol", "max-iter"} {
+			if given[name] {
+				return estimators.Estimator{}, desc, usagef("--%s is not used with --method ls", name)
+			}
+		}
+		return estimators.Estimator{}, desc, nil
+	}
+	fam, ok := estimators.LookupFamily(psiName)
+	if !ok {
+		return estimators.Estimator{}, desc, usagef("--psi %q: unknown family; valid: %s", psiName, strings.Join(estimators.FamilyNames(), ", "))
+	}
+	var tc []float64
+	if tuning != "" {
+		for _, s := range strings.Split(tuning, ",") {
+			v, err := strconv.ParseFloat(strings.TrimSpace(s), 64)
+			if err != nil {
+				return estimators.Estimator{}, desc, usagef("--tuning %q: %q is not a number", tuning, s)
+			}
+			tc = append(tc, v)
+		}
+	}
+	psi, err := fam.New(tc)
+	if err != nil {
+		return estimators.Estimator{}, desc, usageError{err}
+	}
+	if len(tc) == 0 {
+		tc = fam.Defaults
+	}
+	sc, err := scenarios.ParseScale(scale)
+	if err != nil {
+		return estimators.Estimator{}, desc, usagef("--scale: %v", err)
+	}
+	if !(tol > 0) {
+		return estimators.Estimator{}, desc, usagef("--tol must be a positive number, got %v", tol)
+	}
+	if maxIter < 1 {
+		return estimators.Estimator{}, desc, usagef("--max-iter must be at least 1, got %d", maxIter)
+	}
+	est := estimators.Estimator{Method: m, Psi: psi,
+		Settings: estimators.Settings{Rules: estimators.RuleChange, ChangeTol: tol, MaxIterations: maxIter}}
+	if sc.Fixed {
+		est.Scale = estimators.Scale{Rule: estimators.ScaleFixed, Value: sc.Value}
+	}
+	desc.Psi, desc.Tuning, desc.Scale = psiName, tc, sc.String()
+	return est, desc, nil
+}
+
+// design is the columns and groups chosen for a fit.
+type design struct {
+	y      int
+	x      []int
+	names  []string
+	groups []fitGroup
+}
+
+type fitGroup struct {
+	name string
+	rows []int
+}
+
+// chooseColumns resolves the response, predictor and group columns.
+func chooseColumns(t *csvdata.Table, yName, xList, groupName string) (design, error) {
+	var d design
+	var err error
+	if d.y, err = t.Column(yName); err != nil {
+		return d, err
+	}
+	gcol := -1
+	if groupName != "" {
+		if gcol, err = t.Column(groupName); err != nil {
+			return d, err
+		}
+	}
+	if xList != "" {
+		for _, name := range strings.Split(xList, ",") {
+			name = strings.TrimSpace(name)
+			j, err := t.Column(name)
+			if err != nil {
+				return d, err
+			}
+			if j == d.y || j == gcol {
+				return d, fmt.Errorf("%s: column %q cannot be both a predictor and the response or group", t.File, name)
+			}
+			d.x = append(d.x, j)
+			d.names = append(d.names, name)
+		}
+	} else {
+		for j, name := range t.Names {
+			if j != d.y && j != gcol && t.Numeric(j) {
+				d.x = append(d.x, j)
+				d.names = append(d.names, name)
+			}
+		}
+	}
+	for _, n := range d.names {
+		if n == "intercept" {
+			return d, fmt.Errorf("%s: a column is named \"intercept\"; rename it or use --no-intercept", t.File)
+		}
+	}
+	if gcol < 0 {
+		rows := make([]int, len(t.Cells))
+		for i := range rows {
+			rows[i] = i
+		}
+		d.groups = []fitGroup{{name: "all", rows: rows}}
+		return d, nil
+	}
+	index := map[string]int{}
+	for i, rec := range t.Cells {
+		g := rec[gcol]
+		k, ok := index[g]
+		if !ok {
+			k = len(d.groups)
+			index[g] = k
+			d.groups = append(d.groups, fitGroup{name: g})
+		}
+		d.groups[k].rows = append(d.groups[k].rows, i)
+	}
+	return d, nil
+}
+
+// writeFitTable prints fits for a terminal.
+func writeFitTable(e env, out fitOutput) {
+	desc := out.Estimator.Method
+	if out.Estimator.Psi != "" {
+		desc += fmt.Sprintf(" · %s %v · scale %s", out.Estimator.Psi, out.Estimator.Tuning, out.Estimator.Scale)
+	}
+	fmt.Fprintf(e.stdout, "fit: %s\n", desc)
+	for _, f := range out.Fits {
+		fmt.Fprintf(e.stdout, "\n ▸ group %s · %d rows · %s", f.Group, f.Rows, f.Status)
+		if f.Error != "" {
+			fmt.Fprintf(e.stdout, ": %s\n", f.Error)
+			continue
+		}
+		fmt.Fprintf(e.stdout, " after %d iterations · scale %.6g\n", f.Iterations, f.Scale)
+		for _, n := range f.Order {
+			fmt.Fprintf(e.stdout, "   %-20s %14.8g\n", n, f.Coefficients[n])
+		}
+	}
+}

@@ -1,0 +1,105 @@
+package estimators
+
+import (
+	"fmt"
+	"math"
+	"sort"
+	"strings"
+)
+
+// Family describes a named psi family: its tuning constants, their defaults
+// and how to build the psi. Families are looked up by name with
+// [LookupFamily]; adding a family means writing its type in a file of its own
+// and one entry in familyTable.
+type Family struct {
+	// Name is the family's name in scenario files and on the command line.
+	Name string
+	// Params names the tuning constants in order, for example ["k"].
+	Params []string
+	// Defaults holds the default value of each tuning constant.
+	Defaults []float64
+	// About says in one line what the default achieves, with its source.
+	About string
+	// build makes the psi from validated tuning constants.
+	build func(t []float64) Psi
+	// check validates tuning constants beyond positivity; nil if none.
+	check func(t []float64) error
+}
+
+// New returns the family's psi with the given tuning constants; nil or empty
+// tuning means the defaults. It reports an error naming the valid form when
+// the number or values of the constants are wrong.
+func (f Family) New(tuning []float64) (Psi, error) {
+	if len(tuning) == 0 {
+		tuning = f.Defaults
+	}
+	if len(tuning) != len(f.Params) {
+		if len(f.Params) == 0 {
+			return nil, fmt.Errorf("psi family %q takes no tuning constant", f.Name)
+		}
+		return nil, fmt.Errorf("psi family %q takes %d tuning constant(s) (%s), got %d",
+			f.Name, len(f.Params), strings.Join(f.Params, ", "), len(tuning))
+	}
+	for i, t := range tuning {
+		if !(t > 0) || math.IsInf(t, 0) {
+			return nil, fmt.Errorf("psi family %q: tuning constant %s = %v must be a positive finite number",
+				f.Name, f.Params[i], t)
+		}
+	}
+	if f.check != nil {
+		if err := f.check(tuning); err != nil {
+			return nil, fmt.Errorf("psi family %q: %w", f.Name, err)
+		}
+	}
+	return f.build(tuning), nil
+}
+
+// familyTable lists the built-in families. It is returned by value from a
+// function so that no package-level state can be changed by callers.
+func familyTable() []Family {
+	return []Family{
+		{
+			Name:  "ls",
+			About: "least squares: fully efficient at the normal model, breakdown point 0",
+			build: func([]float64) Psi { return LeastSquares{} },
+		},
+		{
+			Name: "huber", Params: []string{"k"}, Defaults: []float64{1.345},
+			About: "k = 1.345 gives 95% efficiency at the normal (Holland & Welsch 1977)",
+			build: func(t []float64) Psi { return Huber{K: t[0]} },
+		},
+		{
+			Name: "bisquare", Params: []string{"c"}, Defaults: []float64{4.685},
+			About: "c = 4.685 gives 95% efficiency at the normal (Holland & Welsch 1977)",
+			build: func(t []float64) Psi { return Bisquare{C: t[0]} },
+		},
+	}
+}
+
+// LookupFamily returns the built-in family with the given name.
+func LookupFamily(name string) (Family, bool) {
+	for _, f := range familyTable() {
+		if f.Name == name {
+			return f, true
+		}
+	}
+	return Family{}, false
+}
+
+// Families returns every built-in family, sorted by name.
+func Families() []Family {
+	fs := familyTable()
+	sort.Slice(fs, func(i, j int) bool { return fs[i].Name < fs[j].Name })
+	return fs
+}
+
+// FamilyNames returns the names of the built-in families, sorted, for
+// messages that list the valid choices.
+func FamilyNames() []string {
+	fs := Families()
+	names := make([]string, len(fs))
+	for i, f := range fs {
+		names[i] = f.Name
+	}
+	return names
+}

@@ -1,0 +1,187 @@
+package estimators
+
+import (
+	"errors"
+	"fmt"
+	"math"
+
+	"gonum.org/v1/gonum/blas/blas64"
+	"gonum.org/v1/gonum/mat"
+)
+
+// Estimator specifies a regression fit: the method, and for M-estimation the
+// psi, the scale rule, the start and the stopping rules. It is a small value
+// type; the zero value is least squares.
+type Estimator struct {
+	// Method is the algorithm.
+	Method Method
+	// Psi is the psi function of an M-estimator; ignored by MethodLS.
+	Psi Psi
+	// Scale is the scale rule of an M-estimator; the zero value is ScaleMAD.
+	Scale Scale
+	// Start is the starting coefficient vector; nil means the least-squares
+	// fit. Its length must equal the number of columns of X.
+	Start []float64
+	// Settings holds the stopping rules.
+	Settings Settings
+	// Trace, if not nil, is called after every iteration of an iterative
+	// fit with the state reached. The slices it sees belong to the
+	// workspace and are valid only during the call.
+	Trace func(Iteration)
+}
+
+// Iteration describes one iteration of an iterative fit, for tracing.
+type Iteration struct {
+	// Index counts iterations from 1.
+	Index int
+	// Coefficients are the coefficients after the step.
+	Coefficients []float64
+	// Scale is the scale used for the step.
+	Scale float64
+	// Objective is Σ rho(r_i/Scale) before the step.
+	Objective float64
+	// EquationNorm is the estimating-equation norm before the step.
+	EquationNorm float64
+	// StepLength is the fraction of the full step taken (1 unless halved).
+	StepLength float64
+	// Change is the relative change in coefficients, ‖Δβ‖/‖β‖.
+	Change float64
+	// Halvings and Fallback report the safeguards fired in this iteration:
+	// step halvings, and whether an IRLS step replaced a Newton step.
+	Halvings int
+	Fallback bool
+	// QR reports that the weighted solve fell back from Cholesky to QR.
+	QR bool
+	// MinWeight and MaxWeight are the extreme IRLS weights (or psi'
+	// values for a Newton step) of the step.
+	MinWeight, MaxWeight float64
+}
+
+// Result is the outcome of a fit. A Result may be reused across fits: its
+// Coefficients slice is overwritten in place when large enough.
+type Result struct {
+	// Coefficients are the fitted coefficients, one per column of X.
+	Coefficients []float64
+	// Scale is the residual scale: the M-estimator's sigma at the end of the
+	// fit, or for least squares sqrt(RSS/(n-p)) (zero when n = p).
+	Scale float64
+	// Iterations is the number of steps taken (0 for least squares).
+	Iterations int
+	// Status says which stopping rule ended the fit or which failure did.
+	Status Status
+	// EquationNorm is the norm of the estimating equations at the end (see
+	// RuleEquations).
+	EquationNorm float64
+	// Objective is Σ rho(r_i/Scale) at the end; for least squares RSS/2.
+	Objective float64
+	// Halvings counts Newton step halvings over the fit.
+	Halvings int
+	// Fallbacks counts Newton iterations that took an IRLS step instead,
+	// because psi' gave a Jacobian that was not positive definite or the
+	// Newton direction did not lower the objective.
+	Fallbacks int
+	// QRSolves counts weighted solves that fell back from the Cholesky
+	// factorisation of the normal equations to QR because of conditioning.
+	QRSolves int
+}
+
+// Fit fits e to the design x (n×p) and response y, writing the outcome to
+// res. ws holds the buffers of the fit; reusing it across fits of one shape
+// makes Fit allocate nothing. ws and res may not be used concurrently.
+//
+// Fit returns an error, and leaves res unspecified, only on misuse: mismatched
+// dimensions, fewer rows than columns, NaN or infinite data, a missing psi,
+// a bad start, scale or settings. Every other outcome is a Status in res.
+func (e Estimator) Fit(x *mat.Dense, y []float64, ws *Workspace, res *Result) error {
+	raw := x.RawMatrix()
+	n, p := raw.Rows, raw.Cols
+	if err := e.check(raw, y); err != nil {
+		return err
+	}
+	ws.reserve(n, p)
+	if cap(res.Coefficients) < p {
+		res.Coefficients = make([]float64, p)
+	}
+	*res = Result{Coefficients: res.Coefficients[:p]}
+	beta := res.Coefficients
+
+	// The least-squares fit is the result of MethodLS and the default start.
+	if e.Method == MethodLS || e.Start == nil {
+		if !ws.leastSquares(raw, y, beta, e.Method == MethodLS) {
+			res.Status = SingularDesign
+			return nil
+		}
+	} else {
+		copy(beta, e.Start)
+	}
+	ws.residuals(raw, y, beta)
+	if e.Method == MethodLS {
+		ws.finishLS(raw, res)
+		return nil
+	}
+	ws.iterate(e, raw, y, res)
+	return nil
+}
+
+// Fit fits e to x and y with a fresh workspace. It is a convenience for
+// one-off fits; loops should reuse a Workspace with Estimator.Fit.
+func Fit(e Estimator, x *mat.Dense, y []float64) (Result, error) {
+	var ws Workspace
+	var res Result
+	err := e.Fit(x, y, &ws, &res)
+	return res, err
+}
+
+// ErrNonFinite is wrapped by the error Fit returns for NaN or infinite data.
+var ErrNonFinite = errors.New("data contain NaN or infinite values")
+
+// check validates the arguments of Fit.
+func (e Estimator) check(raw blas64.General, y []float64) error {
+	n, p := raw.Rows, raw.Cols
+	switch {
+	case len(y) != n:
+		return fmt.Errorf("response has %d values, design has %d rows", len(y), n)
+	case p == 0:
+		return errors.New("design has no columns")
+	case n < p:
+		return fmt.Errorf("design has %d rows, fewer than its %d columns", n, p)
+	case e.Method != MethodLS && e.Method != MethodIRLS && e.Method != MethodNewton:
+		return fmt.Errorf("unknown method %d", e.Method)
+	case e.Method != MethodLS && e.Psi == nil:
+		return fmt.Errorf("method %v needs a psi function", e.Method)
+	case e.Start != nil && len(e.Start) != p:
+		return fmt.Errorf("start has %d coefficients, design has %d columns", len(e.Start), p)
+	}
+	if err := e.Settings.Validate(); err != nil {
+		return err
+	}
+	if e.Method != MethodLS {
+		switch e.Scale.Rule {
+		case ScaleMAD:
+		case ScaleFixed:
+			if !(e.Scale.Value > 0) || math.IsInf(e.Scale.Value, 0) {
+				return fmt.Errorf("fixed scale %v must be a positive finite number", e.Scale.Value)
+			}
+		default:
+			return fmt.Errorf("unknown scale rule %d", e.Scale.Rule)
+		}
+	}
+	for i, v := range y {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			return fmt.Errorf("response row %d is %v: %w", i+1, v, ErrNonFinite)
+		}
+	}
+	for i := 0; i < n; i++ {
+		for j, v := range raw.Data[i*raw.Stride : i*raw.Stride+p] {
+			if math.IsNaN(v) || math.IsInf(v, 0) {
+				return fmt.Errorf("design row %d column %d is %v: %w", i+1, j+1, v, ErrNonFinite)
+			}
+		}
+	}
+	for j, v := range e.Start {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			return fmt.Errorf("start coefficient %d is %v: %w", j+1, v, ErrNonFinite)
+		}
+	}
+	return nil
+}

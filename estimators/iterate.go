@@ -1,0 +1,395 @@
+package estimators
+
+import (
+	"math"
+
+	"gonum.org/v1/gonum/blas"
+	"gonum.org/v1/gonum/blas/blas64"
+)
+
+// iterate runs IRLS or Newton from the coefficients in res.Coefficients,
+// whose residuals are in ws.r, and fills res.
+func (ws *Workspace) iterate(e Estimator, x blas64.General, y []float64, res *Result) {
+	s := e.Settings.withDefaults()
+	beta := res.Coefficients
+	ws.columnRMS(x)
+	startNorm := norm2(beta)
+	change := math.Inf(1) // relative change of the last step; none yet
+	newton := e.Method == MethodNewton
+
+	for {
+		// The scale, psi values, objective and equation norm at β.
+		sigma := e.Scale.Value
+		if e.Scale.Rule == ScaleMAD {
+			sigma = MAD(ws.r, ws.buf)
+		}
+		res.Scale = sigma
+		if sigma == 0 {
+			res.Status = ZeroScale
+			if allZero(ws.r) {
+				res.Status = ExactFit
+			}
+			return
+		}
+		if math.IsNaN(sigma) || math.IsInf(sigma, 0) {
+			res.Status = NonFinite
+			return
+		}
+		wsum := ws.evaluate(e.Psi, sigma, newton)
+		ws.psiSums(x)
+		res.EquationNorm = ws.equationFromH()
+		if math.IsNaN(res.EquationNorm) || math.IsNaN(wsum) {
+			res.Status = NonFinite
+			return
+		}
+		if st, done := stopped(s, change, res.EquationNorm); done {
+			res.Status = st
+			res.Objective = ws.objective(e.Psi, sigma)
+			return
+		}
+		if res.Iterations >= s.MaxIterations {
+			res.Status = IterationLimit
+			res.Objective = ws.objective(e.Psi, sigma)
+			return
+		}
+		// The objective is needed for Newton's line search and for tracing.
+		obj := math.NaN()
+		if newton || e.Trace != nil {
+			obj = ws.objective(e.Psi, sigma)
+			res.Objective = obj
+		}
+		if !newton && wsum == 0 {
+			res.Status = ZeroWeights
+			return
+		}
+
+		// The step.
+		var it Iteration
+		status, ok := ws.step(e.Psi, x, sigma, newton, wsum, &it)
+		if e.Trace != nil {
+			it.MinWeight, it.MaxWeight = extremes(ws.c)
+		}
+		if !ok {
+			res.Status = status
+			return
+		}
+		if it.Fallback {
+			res.Fallbacks++
+		}
+		if it.QR {
+			res.QRSolves++
+		}
+		t := 1.0
+		if newton {
+			var descent bool
+			t, descent = ws.lineSearch(e.Psi, x, sigma, obj, &it)
+			if !descent && !it.Fallback {
+				// The Newton direction failed: take an IRLS step instead.
+				it.Fallback = true
+				res.Fallbacks++
+				wsum = ws.weights(e.Psi, sigma)
+				if wsum == 0 {
+					res.Status = ZeroWeights
+					return
+				}
+				ws.normalMatrix(x)
+				if st, ok := ws.weightedStep(x, sigma, &it); !ok {
+					res.Status = st
+					return
+				}
+				if it.QR {
+					res.QRSolves++
+				}
+				t, descent = ws.lineSearch(e.Psi, x, sigma, obj, &it)
+			}
+			res.Halvings += it.Halvings
+			if !descent {
+				res.Status = NoDescent
+				return
+			}
+		}
+		for j := range beta {
+			beta[j] += t * ws.delta[j]
+		}
+		res.Iterations++
+		bn := norm2(beta)
+		change = t * norm2(ws.delta) / math.Max(bn, math.SmallestNonzeroFloat64)
+		if math.IsNaN(bn) || math.IsInf(bn, 0) {
+			res.Status = NonFinite
+			return
+		}
+		if startNorm > 0 && bn > divergeFactor*startNorm {
+			res.Status = Diverged
+			return
+		}
+		ws.residuals(x, y, beta)
+		if e.Trace != nil {
+			it.Index = res.Iterations
+			it.Coefficients = beta
+			it.Scale = sigma
+			it.Objective = obj
+			it.EquationNorm = res.EquationNorm
+			it.StepLength = t
+			it.Change = change
+			e.Trace(it)
+		}
+	}
+}
+
+// stopped applies the stopping rules to the last relative change and the
+// current equation norm.
+func stopped(s Settings, change, eqNorm float64) (Status, bool) {
+	useChange := s.Rules&RuleChange != 0
+	useEq := s.Rules&RuleEquations != 0
+	okChange := useChange && change <= s.ChangeTol
+	okEq := useEq && eqNorm <= s.EquationTol
+	if s.RequireAll {
+		if (okChange || !useChange) && (okEq || !useEq) {
+			if useChange && useEq {
+				return ConvergedAll, true
+			}
+			if useEq {
+				return ConvergedEquations, true
+			}
+			return ConvergedChange, true
+		}
+		return NotRun, false
+	}
+	switch {
+	case okChange:
+		return ConvergedChange, true
+	case okEq:
+		return ConvergedEquations, true
+	}
+	return NotRun, false
+}
+
+// allZero reports whether every value of r is zero.
+func allZero(r []float64) bool {
+	for _, v := range r {
+		if v != 0 {
+			return false
+		}
+	}
+	return true
+}
+
+// evaluate computes, at the residuals ws.r and scale sigma, ws.psi =
+// psi(u) and ws.c = the IRLS weights (psi'(u) when newton), counts in
+// ws.nOff the rows where ws.c differs from 1, and returns the sum of |ws.c|.
+// Huber and bisquare have loops written for their concrete types (see
+// fastpath.go), which save two interface calls per residual; any other Psi
+// takes the general loop.
+func (ws *Workspace) evaluate(psi Psi, sigma float64, newton bool) float64 {
+	if !newton {
+		switch p := psi.(type) {
+		case Huber:
+			return ws.evaluateHuber(p, sigma)
+		case Bisquare:
+			return ws.evaluateBisquare(p, sigma)
+		}
+	}
+	return ws.evaluateAny(psi, sigma, newton)
+}
+
+// evaluateAny is evaluate for any Psi.
+func (ws *Workspace) evaluateAny(psi Psi, sigma float64, newton bool) (csum float64) {
+	r := ws.r
+	c, ps := ws.c[:len(r)], ws.psi[:len(r)]
+	off := 0
+	for i, ri := range r {
+		u := ri / sigma
+		ps[i] = psi.Psi(u)
+		var ci float64
+		if newton {
+			ci = psi.Deriv(u)
+		} else {
+			ci = psi.Weight(u)
+		}
+		c[i] = ci
+		if ci != 1 {
+			off++
+		}
+		csum += math.Abs(ci)
+	}
+	ws.nOff = off
+	return csum
+}
+
+// objective returns Σ rho(r_i/sigma) at the residuals ws.r.
+func (ws *Workspace) objective(psi Psi, sigma float64) float64 {
+	var f float64
+	for _, r := range ws.r {
+		f += psi.Rho(r / sigma)
+	}
+	return f
+}
+
+// weights sets ws.c to the IRLS weights at ws.r and sigma and returns their
+// sum.
+func (ws *Workspace) weights(psi Psi, sigma float64) float64 {
+	var sum float64
+	off := 0
+	for i, r := range ws.r {
+		ci := psi.Weight(r / sigma)
+		ws.c[i] = ci
+		if ci != 1 {
+			off++
+		}
+		sum += ci
+	}
+	ws.nOff = off
+	return sum
+}
+
+// equationFromH returns the equation norm max_j |Σ_i psi_i x_ij| / (n rms_j).
+// It must follow psiSums, which leaves Σ_i psi_i x_ij in ws.h.
+func (ws *Workspace) equationFromH() float64 {
+	var worst float64
+	for j, hj := range ws.h {
+		if ws.rms[j] > 0 {
+			if v := math.Abs(hj) / (float64(ws.n) * ws.rms[j]); v > worst || v != v {
+				worst = v
+			}
+		}
+	}
+	return worst
+}
+
+// psiSums sets ws.h to Σ psi_i x_i = Xᵀψ.
+func (ws *Workspace) psiSums(x blas64.General) {
+	blas64.Gemv(blas.Trans, 1, x, blas64.Vector{N: ws.n, Data: ws.psi, Inc: 1}, 0, blas64.Vector{N: ws.p, Data: ws.h, Inc: 1})
+}
+
+// normalMatrix sets ws.m (upper triangle) to Σ c_i x_i x_iᵀ. When fewer than half the rows have c_i ≠ 1 (Huber's psi leaves
+// most weights at exactly 1), it starts from XᵀX, computed once per fit, and
+// adds (c_i − 1) x_i x_iᵀ for those rows only.
+func (ws *Workspace) normalMatrix(x blas64.General) {
+	p, n := ws.p, ws.n
+	if 2*ws.nOff < n {
+		if !ws.baseOK {
+			clear(ws.base)
+			for i := 0; i < n; i++ {
+				rankOne(ws.base, x, i, p, 1)
+			}
+			ws.baseOK = true
+		}
+		copy(ws.m, ws.base)
+		for i := 0; i < n; i++ {
+			if ci := ws.c[i]; ci != 1 {
+				rankOne(ws.m, x, i, p, ci-1)
+			}
+		}
+		return
+	}
+	clear(ws.m)
+	for i := 0; i < n; i++ {
+		if ci := ws.c[i]; ci != 0 {
+			rankOne(ws.m, x, i, p, ci)
+		}
+	}
+}
+
+// rankOne adds c x_i x_iᵀ to the upper triangle of the p×p matrix m.
+func rankOne(m []float64, x blas64.General, i, p int, c float64) {
+	off := i * x.Stride
+	xi := x.Data[off : off+p : off+p]
+	for j, xj := range xi {
+		cx := c * xj
+		mj := m[j*p+j : j*p+p]
+		xk := xi[j:]
+		for k, v := range xk {
+			mj[k] += cx * v
+		}
+	}
+}
+
+// step computes the full step ws.delta: a Newton step σ (Σψ'xxᵀ)⁻¹ Σψx when
+// newton and the Jacobian is positive definite, otherwise an IRLS step
+// (XᵀWX)⁻¹ XᵀW r. It reports a failure status when no step exists.
+func (ws *Workspace) step(psi Psi, x blas64.General, sigma float64, newton bool, wsum float64, it *Iteration) (Status, bool) {
+	ws.normalMatrix(x)
+	if newton {
+		for j, hj := range ws.h {
+			ws.delta[j] = sigma * hj
+		}
+		if wsum > 0 && choleskySolve(ws.m, ws.p, ws.delta, ws.pscale) {
+			return NotRun, true
+		}
+		// psi' gives no positive definite Jacobian: an IRLS step instead.
+		it.Fallback = true
+		if ws.weights(psi, sigma) == 0 {
+			return ZeroWeights, false
+		}
+		ws.normalMatrix(x)
+	}
+	return ws.weightedStep(x, sigma, it)
+}
+
+// weightedStep solves (XᵀWX) Δ = XᵀW r = σ Σ psi_i x_i for the weights in
+// ws.c, with ws.m and ws.h already accumulated for those weights. It uses the
+// Cholesky factor of the normal equations and falls back to QR of W^½X when
+// they are ill-conditioned.
+func (ws *Workspace) weightedStep(x blas64.General, sigma float64, it *Iteration) (Status, bool) {
+	for j, hj := range ws.h {
+		ws.delta[j] = sigma * hj
+	}
+	if choleskySolve(ws.m, ws.p, ws.delta, ws.pscale) {
+		return NotRun, true
+	}
+	it.QR = true
+	n, p := ws.n, ws.p
+	for i := 0; i < n; i++ {
+		sw := math.Sqrt(ws.c[i])
+		for j, v := range row(x, i) {
+			ws.qa[j*n+i] = sw * v
+		}
+		ws.qy[i] = sw * ws.r[i]
+	}
+	if !householderSolve(ws.qa, n, p, ws.qy, ws.delta, ws.rdiag, ws.pscale) {
+		return SingularDesign, false
+	}
+	return NotRun, true
+}
+
+// extremes returns the smallest and largest values of c.
+func extremes(c []float64) (lo, hi float64) {
+	lo, hi = math.Inf(1), math.Inf(-1)
+	for _, v := range c {
+		if v < lo {
+			lo = v
+		}
+		if v > hi {
+			hi = v
+		}
+	}
+	return lo, hi
+}
+
+// lineSearch halves the step ws.delta until the objective at the fixed scale
+// sigma is no larger than obj0 (up to rounding). It returns the accepted
+// step length and whether one was found.
+func (ws *Workspace) lineSearch(psi Psi, x blas64.General, sigma, obj0 float64, it *Iteration) (float64, bool) {
+	// q = XΔ, so the trial residuals are r − tq.
+	for i := range ws.q {
+		var s float64
+		for j, v := range row(x, i) {
+			s += v * ws.delta[j]
+		}
+		ws.q[i] = s
+	}
+	slack := 8 * epsilon * math.Abs(obj0)
+	t := 1.0
+	for h := 0; h <= maxHalvings; h++ {
+		var f float64
+		for i, r := range ws.r {
+			f += psi.Rho((r - t*ws.q[i]) / sigma)
+		}
+		if f <= obj0+slack {
+			return t, true
+		}
+		t /= 2
+		it.Halvings++
+	}
+	return 0, false
+}

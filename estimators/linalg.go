@@ -1,0 +1,194 @@
+package estimators
+
+import "math"
+
+// This file holds the small dense kernels of a fit. They work on flat slices
+// owned by a Workspace and allocate nothing.
+
+// norm2 returns the Euclidean norm of x without overflow or underflow for
+// any finite input. The plain sum of squares is used when it is safely inside
+// the normal range; otherwise the values are rescaled by a power of two.
+func norm2(x []float64) float64 {
+	var s float64
+	for _, v := range x {
+		s += v * v
+	}
+	if s > 0x1p-900 && s < 0x1p900 {
+		return math.Sqrt(s)
+	}
+	var big float64
+	for _, v := range x {
+		if a := math.Abs(v); a > big || a != a {
+			big = a
+		}
+	}
+	if big == 0 || math.IsInf(big, 0) || math.IsNaN(big) {
+		return big
+	}
+	// Scale by a power of two near 1/big: exact, and a product not a division.
+	_, e := math.Frexp(big)
+	inv := math.Ldexp(1, -e)
+	s = 0
+	for _, v := range x {
+		t := v * inv
+		s += t * t
+	}
+	return math.Ldexp(math.Sqrt(s), e)
+}
+
+// householderSolve solves min ‖A b − y‖₂ by Householder QR. a holds the n×p
+// matrix A column by column (column j is a[j*n:(j+1)*n]) and is overwritten
+// with the factorisation; y (length n) is overwritten with Qᵀy. rdiag and
+// colScale (length p) receive the diagonal of R and the column scales, which
+// qrSolve needs to solve again with the same factorisation. It reports
+// false, leaving b undefined, when A is numerically rank deficient.
+func householderSolve(a []float64, n, p int, y, b, rdiag, colScale []float64) bool {
+	if !householderFactor(a, n, p, rdiag, colScale) {
+		return false
+	}
+	qrSolve(a, n, p, rdiag, colScale, y, b)
+	return true
+}
+
+// householderFactor computes the QR factorisation of A (layout as in
+// householderSolve). The columns are first scaled to unit norm, which makes
+// the rank test independent of the units of the columns. It reports false
+// when a diagonal element of R is below n·eps relative to the largest.
+func householderFactor(a []float64, n, p int, rdiag, colScale []float64) bool {
+	for j := 0; j < p; j++ {
+		col := a[j*n : (j+1)*n]
+		s := norm2(col)
+		if s == 0 || math.IsInf(s, 0) || math.IsNaN(s) {
+			return false
+		}
+		colScale[j] = s
+		inv := 1 / s
+		for i := range col {
+			col[i] *= inv
+		}
+	}
+	for k := 0; k < p; k++ {
+		col := a[k*n : (k+1)*n]
+		normx := norm2(col[k:])
+		if normx == 0 {
+			return false
+		}
+		alpha := -math.Copysign(normx, col[k])
+		col[k] -= alpha // v = x − alpha e_k, stored in place of x
+		v := col[k:]
+		for j := k + 1; j < p; j++ {
+			reflect(v, a[j*n+k:(j+1)*n], alpha)
+		}
+		rdiag[k] = alpha
+	}
+	var rmax float64
+	for k := 0; k < p; k++ {
+		rmax = math.Max(rmax, math.Abs(rdiag[k]))
+	}
+	tol := float64(n) * epsilon * rmax
+	for k := 0; k < p; k++ {
+		if !(math.Abs(rdiag[k]) > tol) {
+			return false
+		}
+	}
+	return true
+}
+
+// reflect applies the Householder reflector I − vvᵀ/(|α|·|v₀|) to c, where
+// v = x − αe₁ and α = −sign(x₀)‖x‖; then vᵀv/2 = |α|(|α| + |x₀|) = |α|·|v₀|.
+func reflect(v, c []float64, alpha float64) {
+	var s float64
+	for i, vi := range v {
+		s += vi * c[i]
+	}
+	s /= math.Abs(alpha) * math.Abs(v[0])
+	for i, vi := range v {
+		c[i] -= s * vi
+	}
+}
+
+// qrSolve solves R b = (Qᵀy)[:p] with a factorisation from householderFactor,
+// overwriting y with Qᵀy, and undoes the column scaling.
+func qrSolve(a []float64, n, p int, rdiag, colScale, y, b []float64) {
+	for k := 0; k < p; k++ {
+		reflect(a[k*n+k:(k+1)*n], y[k:], rdiag[k])
+	}
+	// Back substitution; R's strict upper part is a[j*n+i], i < j.
+	for k := p - 1; k >= 0; k-- {
+		s := y[k]
+		for j := k + 1; j < p; j++ {
+			s -= a[j*n+k] * b[j]
+		}
+		b[k] = s / rdiag[k]
+	}
+	for j := 0; j < p; j++ {
+		b[j] /= colScale[j]
+	}
+}
+
+// epsilon is the float64 machine epsilon, 2^-52.
+const epsilon = 0x1p-52
+
+// minCholeskyPivot is the smallest squared pivot accepted when factorising a
+// unit-diagonal (equilibrated) normal matrix. Below it the condition number
+// of the normal equations exceeds about 1e10 and the solve falls back to QR.
+const minCholeskyPivot = 1e-10
+
+// choleskySolve solves M d = g for a symmetric p×p matrix M whose upper
+// triangle is stored row-major in m (m[i*p+j], j ≥ i); m is overwritten with
+// the factor and g with the solution. The system is first equilibrated to a
+// unit diagonal with scale (length p, scratch). It reports false when M is
+// not positive definite or too ill-conditioned for the normal equations.
+func choleskySolve(m []float64, p int, g, scale []float64) bool {
+	for i := 0; i < p; i++ {
+		d := m[i*p+i]
+		if !(d > 0) || math.IsInf(d, 0) {
+			return false
+		}
+		scale[i] = 1 / math.Sqrt(d)
+	}
+	for i := 0; i < p; i++ {
+		for j := i; j < p; j++ {
+			m[i*p+j] *= scale[i] * scale[j]
+		}
+		g[i] *= scale[i]
+	}
+	// Upper Cholesky: M = UᵀU, U stored over the upper triangle.
+	for i := 0; i < p; i++ {
+		s := m[i*p+i]
+		for k := 0; k < i; k++ {
+			s -= m[k*p+i] * m[k*p+i]
+		}
+		if !(s > minCholeskyPivot) {
+			return false
+		}
+		uii := math.Sqrt(s)
+		m[i*p+i] = uii
+		for j := i + 1; j < p; j++ {
+			t := m[i*p+j]
+			for k := 0; k < i; k++ {
+				t -= m[k*p+i] * m[k*p+j]
+			}
+			m[i*p+j] = t / uii
+		}
+	}
+	// Solve Uᵀz = g, then U d = z.
+	for i := 0; i < p; i++ {
+		s := g[i]
+		for k := 0; k < i; k++ {
+			s -= m[k*p+i] * g[k]
+		}
+		g[i] = s / m[i*p+i]
+	}
+	for i := p - 1; i >= 0; i-- {
+		s := g[i]
+		for k := i + 1; k < p; k++ {
+			s -= m[i*p+k] * g[k]
+		}
+		g[i] = s / m[i*p+i]
+	}
+	for i := 0; i < p; i++ {
+		g[i] *= scale[i]
+	}
+	return true
+}

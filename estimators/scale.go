@@ -1,0 +1,160 @@
+package estimators
+
+import "math"
+
+// MADConsistency is Φ⁻¹(3/4), the median of |Z| for a standard normal Z.
+// Dividing the median absolute residual by it gives a scale estimate that is
+// consistent for sigma at the normal model. The digits are those of the
+// exact value (a test checks the constant against the normal quantile
+// function); it is not the rounded 0.6745 or 1/1.4826.
+const MADConsistency = 0.67448975019608174320
+
+// ScaleRule says how the residual scale sigma of an M-estimator is set.
+type ScaleRule int
+
+const (
+	// ScaleMAD re-estimates sigma at every iteration as the median of the
+	// absolute residuals divided by MADConsistency. The residuals of a model
+	// with an intercept centre near zero, so no recentring is done.
+	ScaleMAD ScaleRule = iota
+	// ScaleFixed holds sigma at a known value throughout the fit.
+	ScaleFixed
+)
+
+// String returns the rule's name as used in scenario files.
+func (s ScaleRule) String() string {
+	switch s {
+	case ScaleMAD:
+		return "mad"
+	case ScaleFixed:
+		return "fixed"
+	}
+	return "unknown-scale-rule"
+}
+
+// Scale is the scale rule of an M-estimator; Value is used by ScaleFixed.
+type Scale struct {
+	Rule  ScaleRule
+	Value float64
+}
+
+// MAD returns the normalised median absolute value of r, median|r_i| /
+// Φ⁻¹(3/4). buf must have len(r) elements; it is overwritten.
+func MAD(r, buf []float64) float64 {
+	for i, v := range r {
+		buf[i] = math.Abs(v)
+	}
+	return median(buf) / MADConsistency
+}
+
+// median returns the median of a, reordering a. For even length it is the
+// mean of the two middle order statistics. a must not contain NaN.
+func median(a []float64) float64 {
+	n := len(a)
+	if n == 0 {
+		return math.NaN()
+	}
+	k := n / 2
+	hi := selectKth(a, k)
+	if n%2 == 1 {
+		return hi
+	}
+	lo := a[0]
+	for _, v := range a[1:k] {
+		if v > lo {
+			lo = v
+		}
+	}
+	return lo/2 + hi/2
+}
+
+// selectKth partially sorts a so that a[k] holds the k-th smallest value
+// (0-based), every a[i] ≤ a[k] for i < k and every a[i] ≥ a[k] for i > k, and
+// returns a[k]. Quickselect with a median-of-three pivot; when a partition
+// goes badly too often it switches to heap selection, so the worst case stays
+// O(n log n).
+func selectKth(a []float64, k int) float64 {
+	lo, hi := 0, len(a)-1
+	budget := 2 * bitsLen(len(a))
+	for hi > lo {
+		if budget == 0 {
+			heapSelect(a[lo:hi+1], k-lo)
+			return a[k]
+		}
+		budget--
+		mid := lo + (hi-lo)/2
+		// Order a[lo], a[mid], a[hi]; the median goes to a[mid].
+		if a[mid] < a[lo] {
+			a[mid], a[lo] = a[lo], a[mid]
+		}
+		if a[hi] < a[lo] {
+			a[hi], a[lo] = a[lo], a[hi]
+		}
+		if a[hi] < a[mid] {
+			a[hi], a[mid] = a[mid], a[hi]
+		}
+		pivot := a[mid]
+		i, j := lo, hi
+		for i <= j {
+			for a[i] < pivot {
+				i++
+			}
+			for a[j] > pivot {
+				j--
+			}
+			if i <= j {
+				a[i], a[j] = a[j], a[i]
+				i++
+				j--
+			}
+		}
+		switch {
+		case k <= j:
+			hi = j
+		case k >= i:
+			lo = i
+		default:
+			return a[k]
+		}
+	}
+	return a[k]
+}
+
+// bitsLen returns the number of bits needed to represent n.
+func bitsLen(n int) int {
+	b := 0
+	for ; n > 0; n >>= 1 {
+		b++
+	}
+	return b
+}
+
+// heapSelect places the k-th smallest element of a at a[k] with the
+// partition property of selectKth, by heapsort. O(n log n), no allocation.
+func heapSelect(a []float64, k int) {
+	n := len(a)
+	sift := func(root, end int) {
+		for {
+			child := 2*root + 1
+			if child >= end {
+				return
+			}
+			if child+1 < end && a[child+1] > a[child] {
+				child++
+			}
+			if a[root] >= a[child] {
+				return
+			}
+			a[root], a[child] = a[child], a[root]
+			root = child
+		}
+	}
+	for i := n/2 - 1; i >= 0; i-- {
+		sift(i, n)
+	}
+	for end := n - 1; end > 0; end-- {
+		a[0], a[end] = a[end], a[0]
+		sift(0, end)
+	}
+	_ = k // a is fully sorted, so every k holds
+}

@@ -1,0 +1,160 @@
+package estimators
+
+import (
+	"math"
+
+	"gonum.org/v1/gonum/blas"
+	"gonum.org/v1/gonum/blas/blas64"
+)
+
+// Workspace holds the buffers of a fit. The zero value is ready to use; it
+// grows to the largest shape it has seen and then allocates nothing. A
+// Workspace must not be used by two fits at once.
+type Workspace struct {
+	n, p int
+
+	qa     []float64 // n×p column-major copy for QR
+	qy     []float64 // n, right-hand side for QR
+	r      []float64 // n, residuals y − Xβ
+	q      []float64 // n, XΔ for the line search
+	psi    []float64 // n, psi(u_i)
+	c      []float64 // n, IRLS weights or psi'(u_i)
+	buf    []float64 // n, scratch for the median
+	m      []float64 // p×p normal matrix (upper triangle)
+	h      []float64 // p, Σ psi(u_i) x_i
+	delta  []float64 // p, the step
+	trial  []float64 // p, trial coefficients
+	rms    []float64 // p, root mean square of each column
+	pscale []float64 // p, column scales of a QR factorisation, or scratch
+	rdiag  []float64 // p, diagonal of R of a QR factorisation
+	base   []float64 // p×p, XᵀX (upper triangle) once baseOK
+	baseOK bool      // base holds XᵀX of the current fit
+	nOff   int       // rows whose weight in ws.c differs from 1
+}
+
+// reserve sizes the buffers for an n×p problem.
+func (ws *Workspace) reserve(n, p int) {
+	grow := func(s *[]float64, k int) {
+		if cap(*s) < k {
+			*s = make([]float64, k)
+		}
+		*s = (*s)[:k]
+	}
+	ws.n, ws.p = n, p
+	grow(&ws.qa, n*p)
+	for _, s := range []*[]float64{&ws.qy, &ws.r, &ws.q, &ws.psi, &ws.c, &ws.buf} {
+		grow(s, n)
+	}
+	grow(&ws.m, p*p)
+	grow(&ws.base, p*p)
+	ws.baseOK = false
+	for _, s := range []*[]float64{&ws.h, &ws.delta, &ws.trial, &ws.rms, &ws.pscale, &ws.rdiag} {
+		grow(s, p)
+	}
+}
+
+// row returns row i of x.
+func row(x blas64.General, i int) []float64 {
+	return x.Data[i*x.Stride : i*x.Stride+x.Cols]
+}
+
+// leastSquares writes the least-squares fit of y on x to beta, reporting
+// false when x is numerically rank deficient. With refine set it takes one
+// step of iterative refinement: the residuals of the first solution are
+// computed with compensated (twice-working-precision) dot products and
+// regressed on x with the same factorisation, which recovers digits lost to
+// ill-conditioning.
+func (ws *Workspace) leastSquares(x blas64.General, y, beta []float64, refine bool) bool {
+	n, p := ws.n, ws.p
+	for i := 0; i < n; i++ {
+		for j, v := range row(x, i) {
+			ws.qa[j*n+i] = v
+		}
+	}
+	copy(ws.qy, y)
+	if !householderSolve(ws.qa, n, p, ws.qy, beta, ws.rdiag, ws.pscale) {
+		return false
+	}
+	if refine {
+		for i := 0; i < n; i++ {
+			ws.q[i] = residualDot2(row(x, i), beta, y[i])
+		}
+		qrSolve(ws.qa, n, p, ws.rdiag, ws.pscale, ws.q, ws.delta)
+		for j := range beta {
+			beta[j] += ws.delta[j]
+		}
+	}
+	return true
+}
+
+// residualDot2 returns y − x·b evaluated in about twice the working
+// precision (compensated summation of error-free products; Ogita, Rump &
+// Oishi (2005), SIAM J. Sci. Comput. 26:1955-1988, algorithm Dot2).
+func residualDot2(x, b []float64, y float64) float64 {
+	s, c := y, 0.0
+	for j, v := range x {
+		prod := -v * b[j]
+		perr := math.FMA(-v, b[j], -prod)
+		t := s + prod
+		z := t - s
+		c += (s - (t - z)) + (prod - z) + perr
+		s = t
+	}
+	return s + c
+}
+
+// residuals sets ws.r = y − Xβ.
+func (ws *Workspace) residuals(x blas64.General, y, beta []float64) {
+	copy(ws.r, y)
+	blas64.Gemv(blas.NoTrans, -1, x, blas64.Vector{N: ws.p, Data: beta, Inc: 1}, 1, blas64.Vector{N: ws.n, Data: ws.r, Inc: 1})
+}
+
+// finishLS fills the scale, objective and equation norm of a least-squares
+// fit from the residuals.
+func (ws *Workspace) finishLS(x blas64.General, res *Result) {
+	n, p := ws.n, ws.p
+	ss := norm2(ws.r)
+	res.Objective = ss * ss / 2
+	if n > p {
+		res.Scale = ss / math.Sqrt(float64(n-p))
+	}
+	res.Status = Solved
+	ws.columnRMS(x)
+	if res.Scale > 0 {
+		for i, v := range ws.r {
+			ws.psi[i] = v / res.Scale
+		}
+		res.EquationNorm = ws.equationNorm(x)
+	}
+}
+
+// columnRMS sets ws.rms to the root mean square of each column of x.
+func (ws *Workspace) columnRMS(x blas64.General) {
+	for j := range ws.rms {
+		ws.rms[j] = 0
+	}
+	for i := 0; i < ws.n; i++ {
+		for j, v := range row(x, i) {
+			ws.rms[j] += v * v
+		}
+	}
+	for j := range ws.rms {
+		ws.rms[j] = math.Sqrt(ws.rms[j] / float64(ws.n))
+	}
+}
+
+// equationNorm returns max_j |Σ_i psi_i x_ij| / (n rms_j) for the values in
+// ws.psi, without touching ws.h.
+func (ws *Workspace) equationNorm(x blas64.General) float64 {
+	var worst float64
+	for j := 0; j < ws.p; j++ {
+		var s float64
+		for i := 0; i < ws.n; i++ {
+			s += ws.psi[i] * x.Data[i*x.Stride+j]
+		}
+		if ws.rms[j] > 0 {
+			worst = math.Max(worst, math.Abs(s)/(float64(ws.n)*ws.rms[j]))
+		}
+	}
+	return worst
+}

@@ -1,0 +1,269 @@
+package harness
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"math/rand/v2"
+	"runtime"
+	"sync"
+	"sync/atomic"
+	"time"
+
+	"gonum.org/v1/gonum/mat"
+
+	"github.com/rhomark/rhomark/estimators"
+	"github.com/rhomark/rhomark/results"
+	"github.com/rhomark/rhomark/scenarios"
+)
+
+// Options control a run. The zero value runs the scenario as written on
+// every core.
+type Options struct {
+	// Workers is the number of goroutines fitting in parallel; zero means
+	// GOMAXPROCS.
+	Workers int
+	// Replicates, if positive, replaces the scenario's replicate count.
+	Replicates int
+	// Seed, if not nil, replaces the scenario's seed.
+	Seed *uint64
+	// Progress, if not nil, is called from time to time with the replicates
+	// finished and the total. It must be safe for concurrent use.
+	Progress func(done, total int64)
+	// Tool names the program for the results' provenance.
+	Tool results.Tool
+}
+
+// blockSize is the number of consecutive replicates of one cell in a unit
+// of work.
+const blockSize = 32
+
+// cellPlan is everything a worker needs to run one cell.
+type cellPlan struct {
+	cell       scenarios.Cell
+	gen        *scenarios.Generator
+	ests       []estimators.Estimator
+	truth      []float64
+	ref        int // index of the reference estimator
+	replicates int
+	blocks     int
+}
+
+// Run runs every cell of the study and returns the results. If ctx is
+// cancelled, Run stops at the next replicate, and returns the results of
+// the units that finished, marked incomplete, with ctx's error.
+func Run(ctx context.Context, st *scenarios.Study, opt Options) (*results.Results, error) {
+	workers := opt.Workers
+	if workers <= 0 {
+		workers = runtime.GOMAXPROCS(0)
+	}
+	seed := st.Base.Seed
+	if opt.Seed != nil {
+		seed = *opt.Seed
+	}
+	reps := st.Base.Replicates
+	if opt.Replicates > 0 {
+		reps = opt.Replicates
+	}
+	plans, err := plan(st, reps)
+	if err != nil {
+		return nil, err
+	}
+	started := time.Now()
+
+	// Units are numbered cell by cell; unit u of cell c covers replicates
+	// [b·blockSize, min((b+1)·blockSize, reps)).
+	var firstUnit []int
+	total := 0
+	for _, p := range plans {
+		firstUnit = append(firstUnit, total)
+		total += p.blocks
+	}
+	tallies := make([]*cellTally, len(plans))
+	locks := make([]sync.Mutex, len(plans))
+	for i, p := range plans {
+		tallies[i] = newCellTally(len(p.ests), len(p.truth))
+	}
+	var next atomic.Int64
+	var done atomic.Int64
+	totalReps := int64(reps) * int64(len(plans))
+
+	ctx, stop := context.WithCancel(ctx)
+	defer stop()
+	var failOnce sync.Once
+	var failure error
+
+	var wg sync.WaitGroup
+	for w := 0; w < workers; w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			var wk *worker
+			for {
+				u := int(next.Add(1) - 1)
+				if u >= total || ctx.Err() != nil {
+					return
+				}
+				ci := cellOf(firstUnit, u)
+				p := &plans[ci]
+				if wk == nil || wk.plan != p {
+					wk = newWorker(p, seed, ci)
+				}
+				b := u - firstUnit[ci]
+				lo, hi := b*blockSize, min((b+1)*blockSize, p.replicates)
+				if !wk.runBlock(ctx, lo, hi) {
+					if wk.err != nil {
+						failOnce.Do(func() { failure = wk.err; stop() })
+					}
+					return
+				}
+				locks[ci].Lock()
+				tallies[ci].merge(wk.tally)
+				locks[ci].Unlock()
+				if opt.Progress != nil {
+					opt.Progress(done.Add(int64(hi-lo)), totalReps)
+				}
+			}
+		}()
+	}
+	wg.Wait()
+	res := summarise(st, plans, tallies, seed, reps)
+	res.Tool = opt.Tool
+	res.Provenance = provenance(workers, started, plans, tallies)
+	if failure != nil {
+		res.Complete = false
+		return res, failure
+	}
+	if err := ctx.Err(); err != nil {
+		res.Complete = false
+		return res, err
+	}
+	return res, nil
+}
+
+// cellOf returns the cell of unit u given the first unit of each cell.
+func cellOf(firstUnit []int, u int) int {
+	lo, hi := 0, len(firstUnit)-1
+	for lo < hi {
+		mid := (lo + hi + 1) / 2
+		if firstUnit[mid] <= u {
+			lo = mid
+		} else {
+			hi = mid - 1
+		}
+	}
+	return lo
+}
+
+// plan prepares every cell.
+func plan(st *scenarios.Study, reps int) ([]cellPlan, error) {
+	plans := make([]cellPlan, len(st.Cells))
+	for i, c := range st.Cells {
+		g, err := scenarios.NewGenerator(c.Scenario)
+		if err != nil {
+			return nil, fmt.Errorf("cell %d: %w", i, err)
+		}
+		p := cellPlan{cell: c, gen: g, truth: g.Truth(), replicates: reps, blocks: (reps + blockSize - 1) / blockSize}
+		for j, spec := range c.Scenario.Estimators {
+			e, err := spec.Build()
+			if err != nil {
+				return nil, fmt.Errorf("cell %d: %w", i, err)
+			}
+			p.ests = append(p.ests, e)
+			if spec.Label == c.Scenario.Reference {
+				p.ref = j
+			}
+		}
+		plans[i] = p
+	}
+	return plans, nil
+}
+
+// worker holds one goroutine's buffers for one cell.
+type worker struct {
+	plan    *cellPlan
+	seed    uint64
+	cell    int
+	pcg     *rand.PCG
+	x       *mat.Dense
+	y       []float64
+	scratch *scenarios.Scratch
+	ws      []estimators.Workspace
+	res     []estimators.Result
+	tally   *cellTally
+	err     error // a fit failed in a way that is not a status
+}
+
+func newWorker(p *cellPlan, seed uint64, cell int) *worker {
+	n, k := p.gen.Dims()
+	return &worker{
+		plan:    p,
+		seed:    seed,
+		cell:    cell,
+		pcg:     rand.NewPCG(0, 0),
+		x:       mat.NewDense(n, k, nil),
+		y:       make([]float64, n),
+		scratch: p.gen.NewScratch(),
+		ws:      make([]estimators.Workspace, len(p.ests)),
+		res:     make([]estimators.Result, len(p.ests)),
+		tally:   newCellTally(len(p.ests), k),
+	}
+}
+
+// runBlock runs replicates [lo, hi) into w.tally (reset first). It reports
+// false if ctx was cancelled before the block finished; the partial block
+// is then discarded.
+func (w *worker) runBlock(ctx context.Context, lo, hi int) bool {
+	w.tally.reset()
+	for r := lo; r < hi; r++ {
+		if ctx.Err() != nil {
+			return false
+		}
+		w.replicate(r)
+		if w.err != nil {
+			return false
+		}
+	}
+	return true
+}
+
+// replicate draws replicate r's dataset and fits every estimator to it.
+func (w *worker) replicate(r int) {
+	p := w.plan
+	w.pcg.Seed(ReplicateStream(w.seed, w.cell, r))
+	p.gen.Draw(w.pcg, w.x, w.y, w.scratch)
+	for i := range p.ests {
+		t0 := time.Now()
+		if err := p.ests[i].Fit(w.x, w.y, &w.ws[i], &w.res[i]); err != nil {
+			if !errors.Is(err, estimators.ErrNonFinite) {
+				// Shapes and settings were validated, so this is a bug;
+				// stop the run and report it rather than guess.
+				w.err = fmt.Errorf("cell %d replicate %d, estimator %s: %w", w.cell, r, p.cell.Scenario.Estimators[i].Label, err)
+				return
+			}
+			// The model drew a value beyond float64 (an extreme draw of
+			// a heavy-tailed distribution): the dataset cannot be fitted.
+			w.res[i].Status = estimators.NonFinite
+			w.res[i].Iterations = 0
+		}
+		w.tally.ests[i].nanos += int64(time.Since(t0))
+		w.tally.ests[i].record(&w.res[i])
+	}
+	w.tally.replicates++
+	ref := &w.res[p.ref]
+	refOK := ref.Status.Converged()
+	for i := range p.ests {
+		res := &w.res[i]
+		if !res.Status.Converged() {
+			continue
+		}
+		et := &w.tally.ests[i]
+		for j, b := range res.Coefficients {
+			e := b - p.truth[j]
+			et.coefs[j].add(e)
+			if refOK {
+				et.coefs[j].addPair(e, ref.Coefficients[j]-p.truth[j])
+			}
+		}
+	}
+}

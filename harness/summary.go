@@ -1,0 +1,171 @@
+package harness
+
+import (
+	"math"
+	"runtime"
+	"runtime/debug"
+	"time"
+
+	"github.com/rhomark/rhomark/estimators"
+	"github.com/rhomark/rhomark/results"
+	"github.com/rhomark/rhomark/scenarios"
+)
+
+// summarise turns the tallies into results.
+func summarise(st *scenarios.Study, plans []cellPlan, tallies []*cellTally, seed uint64, reps int) *results.Results {
+	res := &results.Results{
+		Schema: results.SchemaVersion,
+		Scenario: results.ScenarioInfo{
+			Name:       st.Base.Name,
+			File:       st.File,
+			Hash:       st.Hash,
+			Normalised: st.Normalised,
+		},
+		Seed:       seed,
+		Replicates: reps,
+		Complete:   true,
+		Reference:  st.Base.Reference,
+	}
+	for i, p := range plans {
+		t := tallies[i]
+		cell := results.Cell{Index: i, Replicates: t.replicates}
+		for _, s := range p.cell.Settings {
+			cell.Settings = append(cell.Settings, results.Setting{Path: s.Path, Value: s.Value})
+		}
+		if t.replicates < int64(reps) {
+			res.Complete = false
+		}
+		sc := p.cell.Scenario
+		names := sc.CoefficientNames()
+		for j, spec := range sc.Estimators {
+			et := &t.ests[j]
+			est := results.Estimator{
+				Label:       spec.Label,
+				Method:      spec.Method,
+				Psi:         spec.Psi.Family,
+				Tuning:      spec.Tuning,
+				Convergence: convergence(et),
+			}
+			for k, name := range names {
+				est.Coefficients = append(est.Coefficients, coefficient(name, p.truth[k], &et.coefs[k]))
+			}
+			cell.Estimators = append(cell.Estimators, est)
+		}
+		res.Cells = append(res.Cells, cell)
+	}
+	return res
+}
+
+// coefficient computes the measures of one coefficient.
+func coefficient(name string, truth float64, t *coefTally) results.Coefficient {
+	c := results.Coefficient{Name: name, True: truth, Used: t.n, Paired: t.np}
+	nan := results.Measure{Value: results.Num(math.NaN()), MCSE: results.Num(math.NaN())}
+	c.Mean, c.Bias, c.EmpSE, c.MSE, c.RelEff = nan, nan, nan, nan, nan
+	if t.n > 0 {
+		m := results.Moments{
+			N:     t.n,
+			Mean:  t.s1.Float64() / float64(t.n),
+			SS:    centred(&t.s1, &t.s2, t.n),
+			MSE:   t.s2.Float64() / float64(t.n),
+			SSMSE: fourthCentred(&t.s2, &t.s4, t.n),
+		}
+		c.Bias = m.Bias()
+		c.Mean = results.Measure{Value: c.Bias.Value + results.Num(truth), MCSE: c.Bias.MCSE}
+		c.EmpSE = m.EmpSE()
+		c.MSE = m.MeanSquaredError()
+	}
+	if t.np > 1 {
+		pr := results.Paired{
+			N:   t.np,
+			SSA: centred(&t.pa1, &t.pa2, t.np),
+			SSB: centred(&t.pb1, &t.pb2, t.np),
+			SAB: crossCentred(&t.pa1, &t.pb1, &t.pab, t.np),
+		}
+		c.RelEff = pr.RelativeEfficiency()
+	}
+	return c
+}
+
+// convergence summarises the statuses and iterations of one estimator.
+func convergence(t *estTally) results.Convergence {
+	c := results.Convergence{
+		Fits:      t.fits,
+		Halvings:  t.halvings,
+		Fallbacks: t.fallbacks,
+		QRSolves:  t.qrSolves,
+	}
+	for _, s := range estimators.Statuses() {
+		k := t.statuses[int(s)]
+		if s.Converged() {
+			c.Converged += k
+		}
+		if k > 0 {
+			c.Statuses = append(c.Statuses, results.StatusCount{Status: s.String(), Count: k, Rate: results.Wilson(k, t.fits)})
+		}
+	}
+	c.FailureRate = results.Wilson(t.fits-c.Converged, t.fits)
+	c.MeanIterations = results.Num(math.NaN())
+	c.MedianIterations = results.Num(math.NaN())
+	if t.fits > 0 {
+		c.MeanIterations = results.Num(float64(t.iterSum) / float64(t.fits))
+		c.MedianIterations = results.Num(histMedian(t.iterHist, t.fits))
+	}
+	for k := len(t.iterHist) - 1; k >= 0; k-- {
+		if t.iterHist[k] > 0 {
+			c.MaxIterations = int64(k)
+			break
+		}
+	}
+	return c
+}
+
+// histMedian returns the median of n values given as a histogram (the mean
+// of the two middle values for even n).
+func histMedian(hist []int64, n int64) float64 {
+	lo, hi := (n-1)/2, n/2 // 0-based ranks of the middle values
+	var seen int64
+	var a, b float64 = -1, -1
+	for k, c := range hist {
+		if a < 0 && seen+c > lo {
+			a = float64(k)
+		}
+		if b < 0 && seen+c > hi {
+			b = float64(k)
+			break
+		}
+		seen += c
+	}
+	return (a + b) / 2
+}
+
+// provenance records the run's circumstances.
+func provenance(workers int, started time.Time, plans []cellPlan, tallies []*cellTally) results.Provenance {
+	p := results.Provenance{
+		GoVersion: runtime.Version(),
+		OS:        runtime.GOOS,
+		Arch:      runtime.GOARCH,
+		Workers:   workers,
+		Started:   started.UTC(),
+		Finished:  time.Now().UTC(),
+	}
+	if bi, ok := debug.ReadBuildInfo(); ok {
+		p.Build = map[string]string{"path": bi.Path, "module_version": bi.Main.Version}
+		for _, s := range bi.Settings {
+			switch s.Key {
+			case "vcs.revision", "vcs.time", "vcs.modified", "GOAMD64", "CGO_ENABLED":
+				p.Build[s.Key] = s.Value
+			}
+		}
+	}
+	for i, pl := range plans {
+		for j, spec := range pl.cell.Scenario.Estimators {
+			et := &tallies[i].ests[j]
+			if et.fits == 0 {
+				continue
+			}
+			p.Timing = append(p.Timing, results.Timing{Cell: i, Estimator: spec.Label,
+				SecondsPer: float64(et.nanos) / float64(et.fits) / 1e9})
+		}
+	}
+	return p
+}

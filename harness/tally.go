@@ -1,0 +1,194 @@
+package harness
+
+import (
+	"math"
+	"math/big"
+
+	"github.com/rhomark/rhomark/estimators"
+	"github.com/rhomark/rhomark/internal/exactsum"
+)
+
+// coefTally accumulates the errors e = estimate − truth of one coefficient
+// of one estimator, exactly.
+type coefTally struct {
+	n      int64
+	s1, s2 exactsum.Sum // Σe, Σe² over converged fits
+	s4     exactsum.Sum // Σe⁴ (for the MCSE of the MSE)
+	// Over replicates where this estimator and the reference converged:
+	// a = this estimator's error, b = the reference's.
+	np                 int64
+	pa1, pb1, pa2, pb2 exactsum.Sum
+	pab                exactsum.Sum
+}
+
+// add records one converged fit's error e.
+func (t *coefTally) add(e float64) {
+	t.n++
+	t.s1.Add(e)
+	t.s2.AddProduct(e, e)
+	e2 := e * e
+	t.s4.AddProduct(e2, e2)
+}
+
+// addPair records one replicate where both this estimator (a) and the
+// reference (b) converged.
+func (t *coefTally) addPair(a, b float64) {
+	t.np++
+	t.pa1.Add(a)
+	t.pb1.Add(b)
+	t.pa2.AddProduct(a, a)
+	t.pb2.AddProduct(b, b)
+	t.pab.AddProduct(a, b)
+}
+
+func (t *coefTally) merge(u *coefTally) {
+	t.n += u.n
+	t.s1.Merge(&u.s1)
+	t.s2.Merge(&u.s2)
+	t.s4.Merge(&u.s4)
+	t.np += u.np
+	t.pa1.Merge(&u.pa1)
+	t.pb1.Merge(&u.pb1)
+	t.pa2.Merge(&u.pa2)
+	t.pb2.Merge(&u.pb2)
+	t.pab.Merge(&u.pab)
+}
+
+// estTally accumulates the fits of one estimator in one cell.
+type estTally struct {
+	fits      int64
+	statuses  [statusSlots]int64
+	iterHist  []int64 // iterHist[k] = fits that took k iterations
+	iterSum   int64
+	halvings  int64
+	fallbacks int64
+	qrSolves  int64
+	nanos     int64 // wall time spent fitting (not deterministic)
+	coefs     []coefTally
+}
+
+// statusSlots bounds the Status values counted.
+const statusSlots = 32
+
+func newEstTally(p int) estTally {
+	return estTally{coefs: make([]coefTally, p)}
+}
+
+// record adds one fit's outcome.
+func (t *estTally) record(res *estimators.Result) {
+	t.fits++
+	if s := int(res.Status); s >= 0 && s < statusSlots {
+		t.statuses[s]++
+	}
+	k := res.Iterations
+	if k >= len(t.iterHist) {
+		grown := make([]int64, k+1)
+		copy(grown, t.iterHist)
+		t.iterHist = grown
+	}
+	t.iterHist[k]++
+	t.iterSum += int64(k)
+	t.halvings += int64(res.Halvings)
+	t.fallbacks += int64(res.Fallbacks)
+	t.qrSolves += int64(res.QRSolves)
+}
+
+func (t *estTally) merge(u *estTally) {
+	t.fits += u.fits
+	for i := range t.statuses {
+		t.statuses[i] += u.statuses[i]
+	}
+	if len(u.iterHist) > len(t.iterHist) {
+		grown := make([]int64, len(u.iterHist))
+		copy(grown, t.iterHist)
+		t.iterHist = grown
+	}
+	for i, c := range u.iterHist {
+		t.iterHist[i] += c
+	}
+	t.iterSum += u.iterSum
+	t.halvings += u.halvings
+	t.fallbacks += u.fallbacks
+	t.qrSolves += u.qrSolves
+	t.nanos += u.nanos
+	for i := range t.coefs {
+		t.coefs[i].merge(&u.coefs[i])
+	}
+}
+
+// cellTally accumulates one cell.
+type cellTally struct {
+	replicates int64
+	ests       []estTally
+}
+
+func newCellTally(estimators, p int) *cellTally {
+	c := &cellTally{ests: make([]estTally, estimators)}
+	for i := range c.ests {
+		c.ests[i] = newEstTally(p)
+	}
+	return c
+}
+
+func (c *cellTally) merge(u *cellTally) {
+	c.replicates += u.replicates
+	for i := range c.ests {
+		c.ests[i].merge(&u.ests[i])
+	}
+}
+
+// reset empties the tally, keeping its storage.
+func (c *cellTally) reset() {
+	c.replicates = 0
+	for i := range c.ests {
+		e := &c.ests[i]
+		coefs, hist := e.coefs, e.iterHist
+		clear(hist)
+		for j := range coefs {
+			coefs[j] = coefTally{}
+		}
+		*e = estTally{coefs: coefs, iterHist: hist}
+	}
+}
+
+// prec is the working precision of the big-float arithmetic that turns exact
+// sums into centred moments.
+const prec = 256
+
+// centred returns Σx² − (Σx)²/n from exact sums, rounded once.
+func centred(s1, s2 *exactsum.Sum, n int64) float64 {
+	a, ok1 := s1.Big()
+	b, ok2 := s2.Big()
+	if !ok1 || !ok2 || n == 0 {
+		return nan()
+	}
+	nb := new(big.Float).SetPrec(prec).SetInt64(n)
+	sq := new(big.Float).SetPrec(prec).Mul(a, a)
+	sq.Quo(sq, nb)
+	r := new(big.Float).SetPrec(prec).Sub(b, sq)
+	f, _ := r.Float64()
+	return f
+}
+
+// crossCentred returns Σab − (Σa)(Σb)/n from exact sums.
+func crossCentred(a1, b1, ab *exactsum.Sum, n int64) float64 {
+	a, ok1 := a1.Big()
+	b, ok2 := b1.Big()
+	c, ok3 := ab.Big()
+	if !ok1 || !ok2 || !ok3 || n == 0 {
+		return nan()
+	}
+	nb := new(big.Float).SetPrec(prec).SetInt64(n)
+	p := new(big.Float).SetPrec(prec).Mul(a, b)
+	p.Quo(p, nb)
+	r := new(big.Float).SetPrec(prec).Sub(c, p)
+	f, _ := r.Float64()
+	return f
+}
+
+// fourthCentred returns Σ(e² − m)² = Σe⁴ − 2mΣe² + n m² with m = Σe²/n.
+func fourthCentred(s2, s4 *exactsum.Sum, n int64) float64 {
+	return centred(s2, s4, n) // the same identity, with x = e²
+}
+
+func nan() float64 { return math.NaN() }

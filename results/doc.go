@@ -1,0 +1,10 @@
+// Package results holds the outcome of a Monte Carlo run and its encodings:
+// JSON (complete, versioned), tidy CSV (one row per cell × estimator ×
+// coefficient) and a terminal table.
+//
+// The package knows only result values; it does not run estimators or read
+// scenarios. Every performance measure is a [Measure]: a value with its
+// Monte Carlo standard error (MCSE), computed with the formulas of Morris,
+// White & Crowther (2019), "Using simulation studies to evaluate statistical
+// methods", Statistics in Medicine 38:2074-2102.
+package results

@@ -1,0 +1,209 @@
+package results
+
+import (
+	"encoding/json"
+	"math"
+	"time"
+)
+
+// SchemaVersion is the version of the JSON layout written by this package.
+// It changes whenever a field is renamed or its meaning changes.
+const SchemaVersion = 1
+
+// Results is the outcome of one run of a scenario.
+type Results struct {
+	// Schema is SchemaVersion at the time of writing.
+	Schema int `json:"schema"`
+	// Tool identifies the program that wrote the results.
+	Tool Tool `json:"tool"`
+	// Scenario identifies what was simulated.
+	Scenario ScenarioInfo `json:"scenario"`
+	// Seed is the root seed of every random stream.
+	Seed uint64 `json:"seed"`
+	// Replicates is the number of replicates asked for per cell.
+	Replicates int `json:"replicates"`
+	// Complete is false when the run stopped early (cancelled); each cell's
+	// Replicates then says how many finished.
+	Complete bool `json:"complete"`
+	// Reference is the label of the estimator efficiencies are relative to.
+	Reference string `json:"reference"`
+	// Cells holds one entry per cell of the scenario, in order.
+	Cells []Cell `json:"cells"`
+	// Provenance records when, where and how fast the run happened. It is
+	// the only part of Results that differs between two runs of the same
+	// scenario and seed.
+	Provenance Provenance `json:"provenance"`
+}
+
+// Tool identifies the program and its build.
+type Tool struct {
+	Name    string `json:"name"`
+	Version string `json:"version"`
+}
+
+// ScenarioInfo identifies a scenario.
+type ScenarioInfo struct {
+	// Name is the scenario's name.
+	Name string `json:"name"`
+	// File is the file it was loaded from.
+	File string `json:"file"`
+	// Hash is the SHA-256 of the normalised scenario without seed,
+	// replicates and description.
+	Hash string `json:"hash"`
+	// Normalised is the scenario with every default filled in.
+	Normalised json.RawMessage `json:"normalised"`
+}
+
+// Setting is the value of one swept field in a cell.
+type Setting struct {
+	Path  string `json:"path"`
+	Value string `json:"value"`
+}
+
+// Cell is the outcome of one cell: one combination of swept values.
+type Cell struct {
+	// Index is the cell's position in the scenario's grid.
+	Index int `json:"index"`
+	// Settings are the swept values of the cell.
+	Settings []Setting `json:"settings"`
+	// Replicates is the number of replicates that finished.
+	Replicates int64 `json:"replicates"`
+	// Estimators holds one entry per estimator, in scenario order.
+	Estimators []Estimator `json:"estimators"`
+}
+
+// Estimator is the outcome of one estimator in one cell.
+type Estimator struct {
+	// Label names the estimator.
+	Label string `json:"label"`
+	// Method is ls, irls or newton.
+	Method string `json:"method"`
+	// Psi is the psi family ("" for least squares).
+	Psi string `json:"psi,omitempty"`
+	// Tuning holds the tuning constants.
+	Tuning []float64 `json:"tuning,omitempty"`
+	// Coefficients holds the performance of each coefficient.
+	Coefficients []Coefficient `json:"coefficients"`
+	// Convergence summarises how the fits ended.
+	Convergence Convergence `json:"convergence"`
+}
+
+// Coefficient is the performance of one estimated coefficient over the
+// replicates whose fit converged.
+type Coefficient struct {
+	// Name is the coefficient's name ("intercept" or a column name).
+	Name string `json:"name"`
+	// True is the coefficient's true value.
+	True float64 `json:"true"`
+	// Used is the number of replicates the measures are computed from.
+	Used int64 `json:"used"`
+	// Mean is the mean estimate.
+	Mean Measure `json:"mean"`
+	// Bias is mean estimate minus true value.
+	Bias Measure `json:"bias"`
+	// EmpSE is the empirical standard error: the standard deviation of the
+	// estimates.
+	EmpSE Measure `json:"emp_se"`
+	// MSE is the mean squared error about the true value.
+	MSE Measure `json:"mse"`
+	// RelEff is the relative efficiency against the reference estimator,
+	// EmpSE_ref² / EmpSE², over the replicates where both converged.
+	RelEff Measure `json:"rel_eff"`
+	// Paired is the number of replicates RelEff is computed from.
+	Paired int64 `json:"paired"`
+}
+
+// Convergence summarises how the fits of one estimator in one cell ended.
+type Convergence struct {
+	// Fits is the number of fits made.
+	Fits int64 `json:"fits"`
+	// Converged is the number that ended with a usable solution.
+	Converged int64 `json:"converged"`
+	// FailureRate is the fraction of fits that did not converge, with its
+	// Wilson 95% interval.
+	FailureRate Rate `json:"failure_rate"`
+	// Statuses counts the fits by final status, with each status's rate and
+	// Wilson 95% interval; statuses that never occurred are left out.
+	Statuses []StatusCount `json:"statuses"`
+	// MeanIterations, MedianIterations and MaxIterations describe the
+	// iterations of all fits.
+	MeanIterations   Num   `json:"mean_iterations"`
+	MedianIterations Num   `json:"median_iterations"`
+	MaxIterations    int64 `json:"max_iterations"`
+	// Halvings, Fallbacks and QRSolves total the safeguards fired: Newton
+	// step halvings, IRLS steps taken in place of Newton steps, and weighted
+	// solves that fell back from Cholesky to QR.
+	Halvings  int64 `json:"halvings"`
+	Fallbacks int64 `json:"fallbacks"`
+	QRSolves  int64 `json:"qr_solves"`
+}
+
+// StatusCount is how many fits ended with one status.
+type StatusCount struct {
+	Status string `json:"status"`
+	Count  int64  `json:"count"`
+	Rate   Rate   `json:"rate"`
+}
+
+// Rate is a proportion with its Wilson score 95% interval.
+type Rate struct {
+	Value Num `json:"value"`
+	Low   Num `json:"low"`
+	High  Num `json:"high"`
+}
+
+// Measure is a performance measure with its Monte Carlo standard error.
+type Measure struct {
+	Value Num `json:"value"`
+	MCSE  Num `json:"mcse"`
+}
+
+// Num is a float64 that encodes NaN and infinities as JSON null (JSON has
+// no such numbers) and decodes null as NaN.
+type Num float64
+
+// MarshalJSON encodes finite values as numbers and others as null.
+func (n Num) MarshalJSON() ([]byte, error) {
+	f := float64(n)
+	if math.IsNaN(f) || math.IsInf(f, 0) {
+		return []byte("null"), nil
+	}
+	return json.Marshal(f)
+}
+
+// UnmarshalJSON decodes a number, or null as NaN.
+func (n *Num) UnmarshalJSON(b []byte) error {
+	if string(b) == "null" {
+		*n = Num(math.NaN())
+		return nil
+	}
+	var f float64
+	if err := json.Unmarshal(b, &f); err != nil {
+		return err
+	}
+	*n = Num(f)
+	return nil
+}
+
+// Provenance records the circumstances of a run. Nothing here enters the
+// CSV, so two runs of the same scenario and seed give identical CSV files.
+type Provenance struct {
+	GoVersion string    `json:"go_version"`
+	OS        string    `json:"os"`
+	Arch      string    `json:"arch"`
+	Workers   int       `json:"workers"`
+	Started   time.Time `json:"started"`
+	Finished  time.Time `json:"finished"`
+	// Build holds build information of the binary (module version, VCS
+	// revision and time) where Go recorded it.
+	Build map[string]string `json:"build,omitempty"`
+	// Timing is the mean wall time per fit of each estimator in each cell.
+	Timing []Timing `json:"timing"`
+}
+
+// Timing is the mean time per fit of one estimator in one cell, in seconds.
+type Timing struct {
+	Cell       int     `json:"cell"`
+	Estimator  string  `json:"estimator"`
+	SecondsPer float64 `json:"seconds_per_fit"`
+}

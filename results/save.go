@@ -1,0 +1,91 @@
+package results
+
+import (
+	"bytes"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"strings"
+)
+
+// Save writes r into dir as NAME.json, NAME.csv and NAME.txt (the terminal
+// table), NAME being the scenario's name, and returns the paths written.
+// Each file is written atomically: to a temporary file in dir, synced, then
+// renamed over the old one, so a failed write leaves any previous file
+// intact.
+func Save(dir string, r *Results) ([]string, error) {
+	base, err := SafeName(r.Scenario.Name)
+	if err != nil {
+		return nil, err
+	}
+	if err := os.MkdirAll(dir, 0o755); err != nil {
+		return nil, fmt.Errorf("cannot create output directory: %w", err)
+	}
+	outputs := []struct {
+		ext   string
+		write func(io.Writer) error
+	}{
+		{".json", func(w io.Writer) error { return WriteJSON(w, r) }},
+		{".csv", func(w io.Writer) error { return WriteCSV(w, r) }},
+		{".txt", func(w io.Writer) error { return WriteTable(w, r, 80) }},
+	}
+	var paths []string
+	for _, o := range outputs {
+		var buf bytes.Buffer
+		if err := o.write(&buf); err != nil {
+			return paths, err
+		}
+		p := filepath.Join(dir, base+o.ext)
+		if err := WriteFileAtomic(p, buf.Bytes()); err != nil {
+			return paths, err
+		}
+		paths = append(paths, p)
+	}
+	return paths, nil
+}
+
+// SafeName checks that name can be used as a file name inside an output
+// directory: no path separators, no leading dot, not empty.
+func SafeName(name string) (string, error) {
+	if name == "" || strings.ContainsAny(name, `/\:`) || strings.HasPrefix(name, ".") || name != filepath.Base(name) || strings.ContainsRune(name, 0) {
+		return "", fmt.Errorf("scenario name %q cannot be used as a file name (letters, digits, '.', '_', '-', not starting with '.')", name)
+	}
+	return name, nil
+}
+
+// WriteFileAtomic writes data to path through a temporary file in the same
+// directory, synced and renamed, so path holds either its old content or
+// all of data.
+func WriteFileAtomic(path string, data []byte) error {
+	dir := filepath.Dir(path)
+	tmp, err := os.CreateTemp(dir, "."+filepath.Base(path)+".tmp-*")
+	if err != nil {
+		return fmt.Errorf("cannot write %s: %w", path, err)
+	}
+	name := tmp.Name()
+	fail := func(err error) error {
+		tmp.Close()
+		os.Remove(name)
+		return fmt.Errorf("cannot write %s: %w", path, err)
+	}
+	if _, err := tmp.Write(data); err != nil {
+		return fail(err)
+	}
+	if err := tmp.Sync(); err != nil {
+		return fail(err)
+	}
+	if err := tmp.Close(); err != nil {
+		os.Remove(name)
+		return fmt.Errorf("cannot write %s: %w", path, err)
+	}
+	if err := os.Rename(name, path); err != nil {
+		os.Remove(name)
+		return fmt.Errorf("cannot write %s: %w", path, err)
+	}
+	if d, err := os.Open(dir); err == nil {
+		d.Sync() // best effort: make the rename durable
+		d.Close()
+	}
+	return nil
+}

@@ -1,0 +1,251 @@
+package scenarios
+
+import (
+	"fmt"
+	"math"
+	"math/bits"
+	"math/rand/v2"
+
+	"gonum.org/v1/gonum/mat"
+	"gonum.org/v1/gonum/stat/distuv"
+)
+
+// Generator draws datasets from the model of one cell. It is immutable once
+// built and safe for concurrent use; each goroutine needs its own Scratch.
+//
+// The draws of one dataset come from the source in a fixed order, which is
+// part of the reproducibility contract (changing it changes every result):
+//
+//  1. for each row, the random design columns in column order (with a
+//     correlation: one standard normal per column, then the copula map);
+//  2. for each row, its error from the noise model;
+//  3. the rows to contaminate: a partial Fisher-Yates shuffle of the row
+//     indices, taking round(fraction·n) rows for each contamination in turn;
+//  4. for each contaminated row, in order, the draws of its contamination.
+type Generator struct {
+	n, p      int
+	intercept bool
+	beta      []float64 // true coefficients, intercept first
+	cols      []columnSampler
+	chol      []float64 // lower Cholesky factor of the correlation, k×k row-major; nil if independent
+	noise     noiseSampler
+	growCol   int // column (index into cols) the noise spread grows with, or -1
+	growRate  float64
+	contam    []contamSampler
+	nContam   int // total contaminated rows
+}
+
+// contamSampler is one contamination with its row count.
+type contamSampler struct {
+	kind     string
+	rows     int
+	shift    float64
+	spread   float64
+	twoSided bool
+	at       []float64 // per column
+	atSpread float64
+	response float64
+}
+
+// NewGenerator builds the generator of a validated scenario.
+func NewGenerator(s *Scenario) (*Generator, error) {
+	g := &Generator{
+		n:         s.Model.N,
+		p:         s.Coefficients(),
+		intercept: !s.Model.Intercept.None,
+		beta:      s.Truth(),
+		noise:     newNoiseSampler(s.Noise),
+		growCol:   -1,
+	}
+	k := len(s.Model.Columns)
+	for _, c := range s.Model.Columns {
+		cs, err := newColumnSampler(c.Distribution)
+		if err != nil {
+			return nil, err
+		}
+		g.cols = append(g.cols, cs)
+	}
+	if s.Model.Correlation.Given {
+		corr, err := s.Model.Correlation.matrix(k)
+		if err != nil {
+			return nil, err
+		}
+		var chol mat.Cholesky
+		if !chol.Factorize(corr) {
+			return nil, fmt.Errorf("correlation matrix is not positive definite")
+		}
+		var l mat.TriDense
+		chol.LTo(&l)
+		g.chol = make([]float64, k*k)
+		for i := 0; i < k; i++ {
+			for j := 0; j <= i; j++ {
+				g.chol[i*k+j] = l.At(i, j)
+			}
+		}
+	}
+	if gw := s.Noise.GrowsWith; gw != nil {
+		g.growCol = s.columnIndex(gw.Column)
+		g.growRate = gw.Rate
+	}
+	for _, c := range s.Contamination {
+		cs := contamSampler{kind: c.Kind, rows: int(math.Floor(c.Fraction*float64(g.n) + 0.5))}
+		switch c.Kind {
+		case "vertical":
+			cs.shift, cs.spread, cs.twoSided = *c.Shift, *c.Spread, c.Sides == "two"
+		case "bad-leverage", "good-leverage":
+			cs.at = make([]float64, k)
+			for j := range cs.at {
+				cs.at[j] = c.At[0]
+				if len(c.At) == k {
+					cs.at[j] = c.At[j]
+				}
+			}
+			cs.atSpread = *c.AtSpread
+			if c.Kind == "bad-leverage" {
+				cs.response, cs.spread = *c.Response, *c.Spread
+			}
+		}
+		g.contam = append(g.contam, cs)
+		g.nContam += cs.rows
+	}
+	if g.nContam >= g.n {
+		return nil, fmt.Errorf("contamination takes %d of %d rows", g.nContam, g.n)
+	}
+	return g, nil
+}
+
+// Dims returns the number of rows and coefficients of a dataset.
+func (g *Generator) Dims() (n, p int) { return g.n, g.p }
+
+// Truth returns a copy of the true coefficients, intercept first.
+func (g *Generator) Truth() []float64 { return append([]float64(nil), g.beta...) }
+
+// Contaminated returns how many rows of each dataset are contaminated.
+func (g *Generator) Contaminated() int { return g.nContam }
+
+// Scratch holds the per-goroutine buffers of Draw.
+type Scratch struct {
+	z, e []float64
+	perm []int
+}
+
+// NewScratch returns buffers for Draw.
+func (g *Generator) NewScratch() *Scratch {
+	k := len(g.cols)
+	return &Scratch{z: make([]float64, k), e: make([]float64, k), perm: make([]int, g.n)}
+}
+
+// Draw fills x (n×p: the intercept column, if any, then the predictors) and
+// y (length n) with one dataset drawn from src. It allocates nothing.
+func (g *Generator) Draw(src rand.Source, x *mat.Dense, y []float64, sc *Scratch) {
+	raw := x.RawMatrix()
+	off := 0
+	if g.intercept {
+		off = 1
+	}
+	k := len(g.cols)
+	// 1. Design.
+	for i := 0; i < g.n; i++ {
+		row := raw.Data[i*raw.Stride : i*raw.Stride+g.p]
+		if g.intercept {
+			row[0] = 1
+		}
+		if g.chol != nil {
+			for j := 0; j < k; j++ {
+				sc.e[j] = distuv.Normal{Mu: 0, Sigma: 1, Src: src}.Rand()
+			}
+			for j := 0; j < k; j++ {
+				var s float64
+				for l := 0; l <= j; l++ {
+					s += g.chol[j*k+l] * sc.e[l]
+				}
+				row[off+j] = g.cols[j].fromNormal(s)
+			}
+			continue
+		}
+		for j := range g.cols {
+			c := &g.cols[j]
+			if c.kind == colLevels || c.kind == colGrid {
+				row[off+j] = c.fixed(i, g.n)
+			} else {
+				row[off+j] = c.random(src)
+			}
+		}
+	}
+	// 2. Clean responses.
+	for i := 0; i < g.n; i++ {
+		row := raw.Data[i*raw.Stride : i*raw.Stride+g.p]
+		e := g.noise.draw(src)
+		if g.growCol >= 0 {
+			e *= 1 + g.growRate*math.Abs(row[off+g.growCol])
+		}
+		var s float64
+		for j, b := range g.beta {
+			s += b * row[j]
+		}
+		y[i] = s + e
+	}
+	if g.nContam == 0 {
+		return
+	}
+	// 3. Rows to contaminate.
+	perm := sc.perm
+	for i := range perm {
+		perm[i] = i
+	}
+	for t := 0; t < g.nContam; t++ {
+		j := t + uniformInt(src, g.n-t)
+		perm[t], perm[j] = perm[j], perm[t]
+	}
+	// 4. Contamination.
+	next := 0
+	for ci := range g.contam {
+		c := &g.contam[ci]
+		for r := 0; r < c.rows; r++ {
+			i := perm[next]
+			next++
+			row := raw.Data[i*raw.Stride : i*raw.Stride+g.p]
+			switch c.kind {
+			case "vertical":
+				shift := c.shift
+				if c.twoSided && uniformInt(src, 2) == 1 {
+					shift = -shift
+				}
+				var fit float64
+				for j, b := range g.beta {
+					fit += b * row[j]
+				}
+				y[i] = fit + shift + c.spread*distuv.Normal{Mu: 0, Sigma: 1, Src: src}.Rand()
+			case "bad-leverage", "good-leverage":
+				for j := range c.at {
+					row[off+j] = c.at[j] + c.atSpread*distuv.Normal{Mu: 0, Sigma: 1, Src: src}.Rand()
+				}
+				if c.kind == "bad-leverage" {
+					y[i] = c.response + c.spread*distuv.Normal{Mu: 0, Sigma: 1, Src: src}.Rand()
+				} else {
+					var fit float64
+					for j, b := range g.beta {
+						fit += b * row[j]
+					}
+					e := g.noise.draw(src)
+					if g.growCol >= 0 {
+						e *= 1 + g.growRate*math.Abs(row[off+g.growCol])
+					}
+					y[i] = fit + e
+				}
+			}
+		}
+	}
+}
+
+// uniformInt returns a uniform integer in [0, n) from src (Lemire's
+// multiply-shift method with rejection, so it is exactly uniform).
+func uniformInt(src rand.Source, n int) int {
+	un := uint64(n)
+	for {
+		hi, lo := bits.Mul64(src.Uint64(), un)
+		if lo >= un || lo >= (-un)%un {
+			return int(hi)
+		}
+	}
+}

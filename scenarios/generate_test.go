@@ -1,0 +1,214 @@
+package scenarios
+
+import (
+	"math"
+	"math/rand/v2"
+	"testing"
+
+	"gonum.org/v1/gonum/mat"
+	"gonum.org/v1/gonum/stat"
+)
+
+// drawMany draws reps datasets of a one-cell scenario and returns them.
+func drawMany(t testing.TB, src string, reps int) (*Generator, []*mat.Dense, [][]float64) {
+	t.Helper()
+	st, err := Parse("gen.yaml", []byte(src), Limits{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	g, err := NewGenerator(st.Cells[0].Scenario)
+	if err != nil {
+		t.Fatal(err)
+	}
+	n, p := g.Dims()
+	sc := g.NewScratch()
+	pcg := rand.NewPCG(1, 2)
+	var xs []*mat.Dense
+	var ys [][]float64
+	for r := 0; r < reps; r++ {
+		x := mat.NewDense(n, p, nil)
+		y := make([]float64, n)
+		g.Draw(pcg, x, y, sc)
+		xs = append(xs, x)
+		ys = append(ys, y)
+	}
+	return g, xs, ys
+}
+
+// within checks that a sample mean is within 4 standard errors of want.
+func within(t *testing.T, what string, sample []float64, want, sd float64) {
+	t.Helper()
+	mean := stat.Mean(sample, nil)
+	se := sd / math.Sqrt(float64(len(sample)))
+	if math.Abs(mean-want) > 4*se {
+		t.Errorf("%s: mean %.5g, want %.5g ± 4×%.3g", what, mean, want, se)
+	}
+}
+
+func TestColumnDistributions(t *testing.T) {
+	src := `
+model:
+  n: 200
+  intercept: none
+  columns:
+    - {name: a, dist: normal, mean: 3, sd: 2}
+    - {name: b, dist: uniform, min: -1, max: 5}
+    - {name: c, dist: exponential, rate: 0.5}
+    - {name: d, dist: laplace, mean: 1, scale: 2}
+    - {name: e, dist: levels, levels: [5, 10, 20]}
+    - {name: f, dist: grid, min: 0, max: 1}
+noise: {dist: normal}
+estimators: [{method: ls}]
+`
+	_, xs, _ := drawMany(t, src, 50)
+	cols := make([][]float64, 6)
+	for _, x := range xs {
+		for j := 0; j < 6; j++ {
+			cols[j] = append(cols[j], mat.Col(nil, j, x)...)
+		}
+	}
+	// Moments of the distributions (textbook formulas, common practice).
+	within(t, "normal(3,2)", cols[0], 3, 2)
+	within(t, "uniform(-1,5)", cols[1], 2, 6/math.Sqrt(12))
+	within(t, "exponential(0.5)", cols[2], 2, 2)
+	within(t, "laplace(1,2)", cols[3], 1, 2*math.Sqrt2)
+	x := xs[0]
+	if x.At(0, 4) != 5 || x.At(1, 4) != 10 || x.At(2, 4) != 20 || x.At(3, 4) != 5 {
+		t.Errorf("levels column: %v", mat.Col(nil, 4, x)[:4])
+	}
+	if x.At(0, 5) != 0 || x.At(199, 5) != 1 {
+		t.Errorf("grid column ends: %v, %v", x.At(0, 5), x.At(199, 5))
+	}
+}
+
+func TestNoiseModels(t *testing.T) {
+	cases := []struct {
+		noise  string
+		sd     float64 // true standard deviation of the noise
+		fourth float64 // true E[e^4], for the standard error of the variance
+	}{
+		{"{dist: normal, scale: 2}", 2, 3 * 16},
+		{"{dist: laplace, scale: 1}", math.Sqrt2, 24},
+		{"{dist: student-t, df: 6, scale: 1}", math.Sqrt(1.5), 3 * 36 / (4 * 2)},
+		{"{dist: normal-mixture, scale: 1, mix-fraction: 0.1, mix-factor: 3}", math.Sqrt(0.9 + 0.1*9), 3 * (0.9 + 0.1*81)},
+		{"{dist: skewed, scale: 1.5, shape: 4}", 1.5, 0}, // checked below
+	}
+	for _, c := range cases {
+		src := "model: {n: 500, intercept: 0, columns: [{name: x, slope: 0}]}\nnoise: " + c.noise + "\nestimators: [{method: ls}]\n"
+		_, _, ys := drawMany(t, src, 40)
+		var e []float64
+		for _, y := range ys {
+			e = append(e, y...)
+		}
+		within(t, c.noise+" mean", e, 0, c.sd)
+		if c.fourth > 0 {
+			sq := make([]float64, len(e))
+			for i, v := range e {
+				sq[i] = v * v
+			}
+			// Var(e²) = E[e⁴] − σ⁴.
+			within(t, c.noise+" variance", sq, c.sd*c.sd, math.Sqrt(c.fourth-math.Pow(c.sd, 4)))
+		} else {
+			if sd := stat.StdDev(e, nil); math.Abs(sd-c.sd) > 0.03 {
+				t.Errorf("%s: sd %v, want %v", c.noise, sd, c.sd)
+			}
+			// Gamma(4) has skewness 2/√4 = 1; the SE of a sample skewness of
+			// 20000 gamma draws is about 0.05, so ±0.2 is 4 SE.
+			if sk := stat.Skew(e, nil); math.Abs(sk-1) > 0.2 {
+				t.Errorf("%s: skewness %v, want 1", c.noise, sk)
+			}
+		}
+	}
+}
+
+func TestCorrelatedColumns(t *testing.T) {
+	src := `
+model:
+  n: 400
+  intercept: 0
+  correlation: 0.6
+  columns:
+    - {name: a, dist: normal}
+    - {name: b, dist: normal, mean: 5, sd: 3}
+noise: {dist: normal}
+estimators: [{method: ls}]
+`
+	_, xs, _ := drawMany(t, src, 25)
+	var a, b []float64
+	for _, x := range xs {
+		a = append(a, mat.Col(nil, 1, x)...)
+		b = append(b, mat.Col(nil, 2, x)...)
+	}
+	r := stat.Correlation(a, b, nil)
+	// SE of a sample correlation ≈ (1 − ρ²)/√N.
+	se := (1 - 0.36) / math.Sqrt(float64(len(a)))
+	if math.Abs(r-0.6) > 4*se {
+		t.Errorf("correlation %v, want 0.6 ± %v", r, 4*se)
+	}
+	within(t, "b mean", b, 5, 3)
+}
+
+func TestContaminationRows(t *testing.T) {
+	src := `
+model: {n: 50, intercept: 1, columns: [{name: x, slope: 2, dist: uniform}]}
+noise: {dist: normal, scale: 0.01}
+contamination:
+  - {label: up, kind: vertical, fraction: 0.1, shift: 100}
+  - {label: far, kind: bad-leverage, fraction: 0.06, at: 1000, response: -500}
+  - {label: good, kind: good-leverage, fraction: 0.04, at: 300}
+estimators: [{method: ls}]
+`
+	g, xs, ys := drawMany(t, src, 20)
+	if g.Contaminated() != 5+3+2 {
+		t.Fatalf("%d contaminated rows, want 10", g.Contaminated())
+	}
+	for r, x := range xs {
+		var up, far, good int
+		for i, y := range ys[r] {
+			xi := x.At(i, 1)
+			switch {
+			case xi == 1000 && y == -500:
+				far++
+			case xi == 300 && math.Abs(y-(1+2*300)) < 0.1:
+				good++
+			case math.Abs(y-(1+2*xi)-100) < 0.1:
+				up++
+			}
+		}
+		if up != 5 || far != 3 || good != 2 {
+			t.Fatalf("replicate %d: %d vertical, %d bad, %d good; want 5, 3, 2", r, up, far, good)
+		}
+	}
+}
+
+func TestDrawDeterministicAndAllocationFree(t *testing.T) {
+	st, err := LoadLibrary("flow-meter")
+	if err != nil {
+		t.Fatal(err)
+	}
+	g, err := NewGenerator(st.Cells[3].Scenario)
+	if err != nil {
+		t.Fatal(err)
+	}
+	n, p := g.Dims()
+	sc := g.NewScratch()
+	x1, x2 := mat.NewDense(n, p, nil), mat.NewDense(n, p, nil)
+	y1, y2 := make([]float64, n), make([]float64, n)
+	pcg := rand.NewPCG(7, 8)
+	g.Draw(pcg, x1, y1, sc)
+	g.Draw(pcg, x2, y2, sc) // a different dataset in between
+	pcg.Seed(7, 8)
+	g.Draw(pcg, x2, y2, sc)
+	if !mat.Equal(x1, x2) {
+		t.Fatal("same seed gave a different design")
+	}
+	for i := range y1 {
+		if y1[i] != y2[i] {
+			t.Fatal("same seed gave a different response")
+		}
+	}
+	allocs := testing.AllocsPerRun(100, func() { g.Draw(pcg, x1, y1, sc) })
+	if allocs != 0 {
+		t.Errorf("Draw allocates %v times per dataset", allocs)
+	}
+}

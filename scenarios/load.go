@@ -1,0 +1,369 @@
+package scenarios
+
+import (
+	"crypto/sha256"
+	"encoding/hex"
+	"encoding/json"
+	"fmt"
+	"os"
+	"path/filepath"
+	"reflect"
+	"strconv"
+	"strings"
+
+	"gopkg.in/yaml.v3"
+)
+
+// Study is a loaded scenario file: the scenario as written (with defaults
+// filled in) and the cells its sweeps expand to, each a complete, validated
+// scenario.
+type Study struct {
+	// File is the name the scenario was loaded from.
+	File string
+	// Base is the scenario with defaults filled in and no sweep applied.
+	Base *Scenario
+	// Cells are the combinations of swept values, in order: the first sweep
+	// varies slowest. A scenario without sweeps has one cell.
+	Cells []Cell
+	// Normalised is the canonical JSON of Base, the form recorded in
+	// results.
+	Normalised json.RawMessage
+	// Hash is the SHA-256 (hex) of the canonical JSON of Base without its
+	// seed, replicates and about text: two runs with equal hashes simulate
+	// the same model with the same estimators.
+	Hash string
+}
+
+// Cell is one combination of swept values.
+type Cell struct {
+	// Index is the cell's position in Study.Cells.
+	Index int
+	// Settings are the swept values of this cell, one per sweep.
+	Settings []Setting
+	// Scenario is the complete scenario of this cell.
+	Scenario *Scenario
+}
+
+// Setting is one swept field's value in a cell.
+type Setting struct {
+	Path  string `json:"path"`
+	Value string `json:"value"`
+}
+
+// Limits bounds what a scenario may ask for, so that a typing slip cannot
+// start a run that would exhaust the machine. The zero value means the
+// defaults; a user raises a limit explicitly.
+type Limits struct {
+	// MaxCells bounds the number of cells. Default 10,000.
+	MaxCells int
+	// MaxN bounds the observations per dataset. Default 1,000,000.
+	MaxN int
+	// MaxReplicates bounds the replicates per cell. Default 10,000,000.
+	MaxReplicates int
+	// MaxWork bounds cells × replicates × n × coefficients, a proxy for the
+	// run time. Default 1e13 (several hours on one core).
+	MaxWork float64
+}
+
+func (l Limits) withDefaults() Limits {
+	if l.MaxCells == 0 {
+		l.MaxCells = 10_000
+	}
+	if l.MaxN == 0 {
+		l.MaxN = 1_000_000
+	}
+	if l.MaxReplicates == 0 {
+		l.MaxReplicates = 10_000_000
+	}
+	if l.MaxWork == 0 {
+		l.MaxWork = 1e13
+	}
+	return l
+}
+
+// Load reads and validates the scenario file at path with default limits.
+func Load(path string) (*Study, error) {
+	data, err := os.ReadFile(path)
+	if err != nil {
+		return nil, err
+	}
+	return Parse(path, data, Limits{})
+}
+
+// Parse validates a scenario held in data; file names it in errors. Every
+// problem found is reported, as an ErrorList of *Error with file, line,
+// field and a message saying what would be valid.
+func Parse(file string, data []byte, limits Limits) (*Study, error) {
+	limits = limits.withDefaults()
+	root, err := parseDocument(file, data)
+	if err != nil {
+		return nil, err
+	}
+	if root.Kind != yaml.MappingNode {
+		return nil, &Error{File: file, Line: root.Line, Column: root.Column,
+			Msg: fmt.Sprintf("a scenario is a mapping with keys such as model, noise and estimators; got %s", kindName(root))}
+	}
+	defaultName := strings.TrimSuffix(filepath.Base(file), filepath.Ext(file))
+
+	// The base document: catches unknown keys and wrong types everywhere,
+	// including fields that sweeps will override.
+	e := &errs{file: file}
+	d := &decoder{errs: e, pos: map[string]position{}}
+	base := new(Scenario)
+	d.decode(root, reflect.ValueOf(base).Elem(), "")
+	if err := e.err(); err != nil {
+		return nil, err
+	}
+	base.fillDefaults(d, defaultName)
+
+	// Size of the sweep grid.
+	cells := 1
+	for _, sw := range base.Vary {
+		cells *= len(sw.Values)
+		if cells > limits.MaxCells {
+			return nil, &Error{File: file, Line: sw.line, Column: sw.col, Field: "vary",
+				Msg: fmt.Sprintf("the sweeps make more than %d cells; the limit is %d (raise it explicitly to run a grid this large)", cells, limits.MaxCells)}
+		}
+	}
+	for _, sw := range base.Vary {
+		checkSweepPath(e, root, sw)
+	}
+	if err := e.err(); err != nil {
+		return nil, err
+	}
+
+	st := &Study{File: file, Base: base}
+	seen := map[string]bool{}
+	for idx := 0; idx < cells; idx++ {
+		settings, picks := cellPicks(base.Vary, idx)
+		tree := root
+		if len(picks) > 0 {
+			tree = deepCopy(root)
+			for i, sw := range base.Vary {
+				applySweep(tree, sw.Path, picks[i])
+			}
+		}
+		ce := &errs{file: file}
+		cd := &decoder{errs: ce, pos: map[string]position{}}
+		sc := new(Scenario)
+		cd.decode(tree, reflect.ValueOf(sc).Elem(), "")
+		if ce.err() == nil {
+			sc.fillDefaults(cd, defaultName)
+			sc.validate(cd, limits)
+		}
+		for _, x := range ce.list {
+			key := fmt.Sprintf("%d:%d:%s:%s", x.Line, x.Column, x.Field, x.Msg)
+			if seen[key] {
+				continue
+			}
+			seen[key] = true
+			if len(settings) > 0 {
+				x.Msg += fmt.Sprintf(" (in the cell where %s)", describe(settings))
+			}
+			e.list = append(e.list, x)
+		}
+		if len(e.list) >= maxErrors {
+			break
+		}
+		st.Cells = append(st.Cells, Cell{Index: idx, Settings: settings, Scenario: sc})
+	}
+	if err := e.err(); err != nil {
+		return nil, err
+	}
+	if err := checkWork(file, st, limits); err != nil {
+		return nil, err
+	}
+	st.Normalised, st.Hash = normalise(base)
+	return st, nil
+}
+
+// describe formats a cell's settings as path=value pairs.
+func describe(s []Setting) string {
+	parts := make([]string, len(s))
+	for i, x := range s {
+		parts[i] = x.Path + "=" + x.Value
+	}
+	return strings.Join(parts, ", ")
+}
+
+// checkWork refuses studies whose total work exceeds the limit.
+func checkWork(file string, st *Study, limits Limits) error {
+	var work float64
+	for _, c := range st.Cells {
+		sc := c.Scenario
+		work += float64(sc.Replicates) * float64(sc.Model.N) * float64(sc.Coefficients()) * float64(len(sc.Estimators))
+	}
+	if work > limits.MaxWork {
+		return &Error{File: file, Field: "replicates",
+			Msg: fmt.Sprintf("the study needs about %.3g units of work (cells × replicates × n × coefficients × estimators); the limit is %.3g (raise it explicitly, or reduce replicates, n or the sweeps)", work, limits.MaxWork)}
+	}
+	return nil
+}
+
+// normalise returns the canonical JSON of s and the hash of its content
+// without seed, replicates and about.
+func normalise(s *Scenario) (json.RawMessage, string) {
+	full, err := json.Marshal(s)
+	if err != nil {
+		panic(fmt.Sprintf("scenarios: normalised scenario does not encode: %v", err)) // a bug, not bad input
+	}
+	c := *s
+	c.Seed, c.Replicates, c.About = 0, 0, ""
+	content, _ := json.Marshal(&c)
+	sum := sha256.Sum256(content)
+	return full, hex.EncodeToString(sum[:])
+}
+
+// cellPicks returns the settings and value nodes of cell idx.
+func cellPicks(vary Vary, idx int) ([]Setting, []*yaml.Node) {
+	if len(vary) == 0 {
+		return nil, nil
+	}
+	settings := make([]Setting, len(vary))
+	picks := make([]*yaml.Node, len(vary))
+	for i := len(vary) - 1; i >= 0; i-- {
+		k := idx % len(vary[i].nodes)
+		idx /= len(vary[i].nodes)
+		settings[i] = Setting{Path: vary[i].Path, Value: vary[i].Values[k]}
+		picks[i] = vary[i].nodes[k]
+	}
+	return settings, picks
+}
+
+// deepCopy copies a node tree.
+func deepCopy(n *yaml.Node) *yaml.Node {
+	c := *n
+	if n.Content != nil {
+		c.Content = make([]*yaml.Node, len(n.Content))
+		for i, k := range n.Content {
+			c.Content[i] = deepCopy(k)
+		}
+	}
+	return &c
+}
+
+// fixedTopLevel describes the top-level keys that cannot be swept.
+func fixedTopLevel(key string) (string, bool) {
+	switch key {
+	case "name":
+		return "the scenario's name", true
+	case "about":
+		return "the description", true
+	case "seed":
+		return "the seed (run the study again with --seed instead)", true
+	case "replicates":
+		return "the replicate count", true
+	case "vary":
+		return "the sweeps", true
+	case "reference":
+		return "the reference estimator", true
+	}
+	return "", false
+}
+
+// checkSweepPath reports a sweep whose path does not name a field.
+func checkSweepPath(e *errs, root *yaml.Node, sw Sweep) {
+	segs := strings.Split(sw.Path, ".")
+	fail := func(format string, args ...any) {
+		e.add(sw.line, sw.col, "vary."+sw.Path, format, args...)
+	}
+	if what, ok := fixedTopLevel(segs[0]); ok {
+		fail("%s cannot be swept", what)
+		return
+	}
+	if last := segs[len(segs)-1]; last == "label" || last == "name" {
+		fail("labels and names identify things and cannot be swept")
+		return
+	}
+	if _, err := locate(root, segs); err != nil {
+		fail("%v", err)
+	}
+}
+
+// locate walks segs from root and returns the parent node of the last
+// segment (a mapping or a list).
+func locate(root *yaml.Node, segs []string) (*yaml.Node, error) {
+	cur := root
+	for i, s := range segs[:len(segs)-1] {
+		next, err := child(cur, s)
+		if err != nil {
+			return nil, fmt.Errorf("%s: %v", strings.Join(segs[:i+1], "."), err)
+		}
+		cur = next
+	}
+	if cur.Kind == yaml.SequenceNode {
+		if _, err := child(cur, segs[len(segs)-1]); err != nil {
+			return nil, fmt.Errorf("%s: %v", strings.Join(segs, "."), err)
+		}
+	} else if cur.Kind != yaml.MappingNode {
+		return nil, fmt.Errorf("%s is %s, which has no field %q", strings.Join(segs[:len(segs)-1], "."), kindName(cur), segs[len(segs)-1])
+	}
+	return cur, nil
+}
+
+// child returns the element of a mapping by key, or of a list by index or
+// by the label (or name) of its element.
+func child(n *yaml.Node, seg string) (*yaml.Node, error) {
+	switch n.Kind {
+	case yaml.MappingNode:
+		for i := 0; i+1 < len(n.Content); i += 2 {
+			if n.Content[i].Value == seg {
+				return n.Content[i+1], nil
+			}
+		}
+		return nil, fmt.Errorf("no field %q here (it must be written in the file before it can be swept; give it a starting value)", seg)
+	case yaml.SequenceNode:
+		if k, err := strconv.Atoi(seg); err == nil {
+			if k < 0 || k >= len(n.Content) {
+				return nil, fmt.Errorf("index %d out of range: the list has %d elements", k, len(n.Content))
+			}
+			return n.Content[k], nil
+		}
+		var labels []string
+		for _, el := range n.Content {
+			if el.Kind != yaml.MappingNode {
+				continue
+			}
+			for i := 0; i+1 < len(el.Content); i += 2 {
+				k := el.Content[i].Value
+				if k == "label" || k == "name" {
+					labels = append(labels, el.Content[i+1].Value)
+					if el.Content[i+1].Value == seg {
+						return el, nil
+					}
+				}
+			}
+		}
+		return nil, fmt.Errorf("no element labelled %q (labels here: %s; or use an index from 0 to %d)", seg, strings.Join(labels, ", "), len(n.Content)-1)
+	}
+	return nil, fmt.Errorf("%s has no field %q", kindName(n), seg)
+}
+
+// applySweep replaces the value at path with a copy of val. The path was
+// checked by checkSweepPath.
+func applySweep(root *yaml.Node, path string, val *yaml.Node) {
+	segs := strings.Split(path, ".")
+	parent, err := locate(root, segs)
+	if err != nil {
+		return
+	}
+	last := segs[len(segs)-1]
+	v := deepCopy(val)
+	if parent.Kind == yaml.SequenceNode {
+		for i, el := range parent.Content {
+			if c, _ := child(parent, last); c == el {
+				parent.Content[i] = v
+				return
+			}
+		}
+		return
+	}
+	for i := 0; i+1 < len(parent.Content); i += 2 {
+		if parent.Content[i].Value == last {
+			parent.Content[i+1] = v
+			return
+		}
+	}
+	key := &yaml.Node{Kind: yaml.ScalarNode, Tag: "!!str", Value: last, Line: val.Line, Column: val.Column}
+	parent.Content = append(parent.Content, key, v)
+}

@@ -1,0 +1,592 @@
+package scenarios
+
+import (
+	"fmt"
+	"math"
+	"regexp"
+	"strings"
+
+	"gonum.org/v1/gonum/mat"
+
+	"github.com/rhomark/rhomark/estimators"
+)
+
+// Defaults of the scenario format.
+const (
+	DefaultSeed       = 1
+	DefaultReplicates = 1000
+)
+
+// namePattern is what names and labels may look like: they become parts of
+// sweep paths, CSV columns and output file names.
+var namePattern = regexp.MustCompile(`^[A-Za-z0-9_][A-Za-z0-9_-]*$`)
+
+// scenarioNamePattern also allows dots (but not a leading dot).
+var scenarioNamePattern = regexp.MustCompile(`^[A-Za-z0-9_][A-Za-z0-9._-]*$`)
+
+// Coefficients returns the number of coefficients of the model, counting
+// the intercept.
+func (s *Scenario) Coefficients() int {
+	p := len(s.Model.Columns)
+	if !s.Model.Intercept.None {
+		p++
+	}
+	return p
+}
+
+// CoefficientNames returns the coefficient names: "intercept" (if any) and
+// the column names.
+func (s *Scenario) CoefficientNames() []string {
+	var out []string
+	if !s.Model.Intercept.None {
+		out = append(out, "intercept")
+	}
+	for _, c := range s.Model.Columns {
+		out = append(out, c.Name)
+	}
+	return out
+}
+
+// Truth returns the true coefficients, intercept first.
+func (s *Scenario) Truth() []float64 {
+	var out []float64
+	if !s.Model.Intercept.None {
+		out = append(out, s.Model.Intercept.Value)
+	}
+	for _, c := range s.Model.Columns {
+		out = append(out, c.Slope)
+	}
+	return out
+}
+
+// fillDefaults sets every defaulted field, using d to know what was given.
+func (s *Scenario) fillDefaults(d *decoder, defaultName string) {
+	if !d.given("name") {
+		s.Name = sanitiseName(defaultName)
+	}
+	if !d.given("seed") {
+		s.Seed = DefaultSeed
+	}
+	if !d.given("replicates") {
+		s.Replicates = DefaultReplicates
+	}
+	for i := range s.Model.Columns {
+		c := &s.Model.Columns[i]
+		if c.Dist == "" {
+			c.Dist = "normal"
+		}
+		if info, ok := lookupDist(c.Dist); ok {
+			for _, p := range info.params {
+				if ptr := c.param(p.key); *ptr == nil && p.hasDefault {
+					v := p.def
+					*ptr = &v
+				}
+			}
+		}
+	}
+	n := &s.Noise
+	if n.Dist == "" {
+		n.Dist = "normal"
+	}
+	if n.Scale == nil {
+		one := 1.0
+		n.Scale = &one
+	}
+	if n.Dist == "skewed" && n.Shape == nil {
+		four := 4.0
+		n.Shape = &four
+	}
+	kinds := map[string]int{}
+	for i := range s.Contamination {
+		c := &s.Contamination[i]
+		zero := 0.0
+		if c.Spread == nil && (c.Kind == "vertical" || c.Kind == "bad-leverage") {
+			c.Spread = &zero
+		}
+		if c.AtSpread == nil && (c.Kind == "bad-leverage" || c.Kind == "good-leverage") {
+			z := 0.0
+			c.AtSpread = &z
+		}
+		if c.Sides == "" && c.Kind == "vertical" {
+			c.Sides = "one"
+		}
+		if c.Label == "" {
+			kinds[c.Kind]++
+			c.Label = c.Kind
+			if kinds[c.Kind] > 1 {
+				c.Label = fmt.Sprintf("%s-%d", c.Kind, kinds[c.Kind])
+			}
+		}
+	}
+	labels := map[string]int{}
+	for i := range s.Estimators {
+		e := &s.Estimators[i]
+		if e.Method == "" {
+			if e.Psi.Family == "" {
+				e.Method = "ls"
+			} else {
+				e.Method = "irls"
+			}
+		}
+		if e.Method != "ls" {
+			if f, ok := estimators.LookupFamily(e.Psi.Family); ok && len(e.Tuning) == 0 {
+				e.Tuning = append(Numbers(nil), f.Defaults...)
+			}
+			if e.Stop.Change == nil && e.Stop.Equations == nil {
+				v := estimators.DefaultChangeTol
+				e.Stop.Change = &v
+			}
+			if e.Stop.MaxIter == nil {
+				v := estimators.DefaultMaxIterations
+				e.Stop.MaxIter = &v
+			}
+			if e.Stop.Require == "" {
+				e.Stop.Require = "any"
+			}
+		}
+		if e.Label == "" {
+			base := e.Method
+			if e.Psi.Family != "" {
+				base += "-" + e.Psi.Family
+			}
+			labels[base]++
+			e.Label = base
+			if labels[base] > 1 {
+				e.Label = fmt.Sprintf("%s-%d", base, labels[base])
+			}
+		}
+	}
+	if s.Reference == "" && len(s.Estimators) > 0 {
+		s.Reference = s.Estimators[0].Label
+		for _, e := range s.Estimators {
+			if e.Method == "ls" {
+				s.Reference = e.Label
+				break
+			}
+		}
+	}
+}
+
+// sanitiseName makes a file name usable as a scenario name.
+func sanitiseName(s string) string {
+	var b strings.Builder
+	for _, r := range s {
+		switch {
+		case r >= 'a' && r <= 'z', r >= 'A' && r <= 'Z', r >= '0' && r <= '9', r == '_', r == '-', r == '.':
+			b.WriteRune(r)
+		default:
+			b.WriteByte('_')
+		}
+	}
+	out := strings.TrimLeft(b.String(), ".")
+	if out == "" {
+		return "scenario"
+	}
+	return out
+}
+
+// checker validates a decoded scenario, locating problems through the
+// decoder's positions.
+type checker struct {
+	d *decoder
+}
+
+// fail records a problem with the field at path (or its nearest located
+// parent).
+func (c checker) fail(path, format string, args ...any) {
+	p := path
+	for {
+		if pos, ok := c.d.pos[p]; ok {
+			c.d.errs.add(pos.line, pos.col, path, format, args...)
+			return
+		}
+		i := strings.LastIndexAny(p, ".[")
+		if i < 0 {
+			c.d.errs.add(0, 0, path, format, args...)
+			return
+		}
+		p = p[:i]
+	}
+}
+
+// validate checks every field of a complete (cell) scenario.
+func (s *Scenario) validate(d *decoder, limits Limits) {
+	c := checker{d}
+	if !scenarioNamePattern.MatchString(s.Name) || len(s.Name) > 100 {
+		c.fail("name", "%q is not a valid name: use up to 100 letters, digits, '.', '_' or '-', not starting with '.'", s.Name)
+	}
+	if s.Replicates < 1 || s.Replicates > limits.MaxReplicates {
+		c.fail("replicates", "must be from 1 to %d, got %d (raise the limit explicitly for more)", limits.MaxReplicates, s.Replicates)
+	}
+	s.validateModel(c, limits)
+	s.validateNoise(c)
+	s.validateContamination(c)
+	s.validateEstimators(c)
+}
+
+func (s *Scenario) validateModel(c checker, limits Limits) {
+	m := &s.Model
+	if !c.d.given("model") {
+		c.fail("model", "missing: give model.n and model.columns (and model.intercept)")
+		return
+	}
+	p := s.Coefficients()
+	if p == 0 {
+		c.fail("model", "the model has no coefficients: give columns, or an intercept other than none")
+	}
+	if !c.d.given("model.n") {
+		c.fail("model.n", "missing: the number of observations per dataset, more than the %d coefficients", p)
+	} else if m.N <= p {
+		c.fail("model.n", "must exceed the number of coefficients (%d), got %d", p, m.N)
+	} else if m.N > limits.MaxN {
+		c.fail("model.n", "%d observations exceed the limit of %d (raise it explicitly for larger datasets)", m.N, limits.MaxN)
+	}
+	names := map[string]bool{}
+	random := 0
+	for i := range m.Columns {
+		col := &m.Columns[i]
+		path := fmt.Sprintf("model.columns[%d]", i)
+		switch {
+		case col.Name == "":
+			c.fail(path+".name", "missing: every column needs a name")
+		case !namePattern.MatchString(col.Name) || len(col.Name) > 64:
+			c.fail(path+".name", "%q is not a valid name: use letters, digits, '_' or '-'", col.Name)
+		case col.Name == "intercept":
+			c.fail(path+".name", "\"intercept\" is reserved for the intercept; choose another name")
+		case names[col.Name]:
+			c.fail(path+".name", "%q names two columns; names must be unique", col.Name)
+		}
+		names[col.Name] = true
+		if col.Distribution.check(c, path) {
+			random++
+		}
+	}
+	if m.Correlation.Given {
+		k := len(m.Columns)
+		if random != k {
+			c.fail("model.correlation", "correlation needs every column to be random; levels and grid columns are fixed designs")
+			return
+		}
+		if k < 2 {
+			c.fail("model.correlation", "correlation needs at least two columns")
+			return
+		}
+		corr, err := m.Correlation.matrix(k)
+		if err != nil {
+			c.fail("model.correlation", "%v", err)
+			return
+		}
+		var chol mat.Cholesky
+		if !chol.Factorize(corr) {
+			c.fail("model.correlation", "is not a valid correlation matrix (not positive definite); with one common value r for %d columns, r must be in (%.4g, 1)", k, -1/float64(k-1))
+		}
+	}
+}
+
+// matrix returns the k×k correlation matrix, or an error describing what is
+// wrong with it.
+func (v Correlation) matrix(k int) (*mat.SymDense, error) {
+	out := mat.NewSymDense(k, nil)
+	if v.Matrix == nil {
+		if !(v.Common > -1 && v.Common < 1) {
+			return nil, fmt.Errorf("a common correlation must be between -1 and 1 (exclusive), got %v", v.Common)
+		}
+		for i := 0; i < k; i++ {
+			for j := i; j < k; j++ {
+				if i == j {
+					out.SetSym(i, j, 1)
+				} else {
+					out.SetSym(i, j, v.Common)
+				}
+			}
+		}
+		return out, nil
+	}
+	if len(v.Matrix) != k {
+		return nil, fmt.Errorf("want a %d×%d matrix (one row per column), got %d rows", k, k, len(v.Matrix))
+	}
+	for i, r := range v.Matrix {
+		if len(r) != k {
+			return nil, fmt.Errorf("row %d has %d entries, want %d", i+1, len(r), k)
+		}
+		for j, x := range r {
+			if i == j && x != 1 {
+				return nil, fmt.Errorf("diagonal entry %d is %v; a correlation matrix has ones on its diagonal", i+1, x)
+			}
+			if x != v.Matrix[j][i] {
+				return nil, fmt.Errorf("entries (%d,%d) and (%d,%d) differ; a correlation matrix is symmetric", i+1, j+1, j+1, i+1)
+			}
+			if !(x >= -1 && x <= 1) {
+				return nil, fmt.Errorf("entry (%d,%d) is %v; correlations lie in [-1, 1]", i+1, j+1, x)
+			}
+			out.SetSym(i, j, x)
+		}
+	}
+	return out, nil
+}
+
+func (s *Scenario) validateNoise(c checker) {
+	n := &s.Noise
+	info, ok := noiseInfo(n.Dist)
+	if !ok {
+		c.fail("noise.dist", "unknown noise %q; valid: %s", n.Dist, strings.Join(noiseNames(), ", "))
+		return
+	}
+	if !(*n.Scale > 0) {
+		c.fail("noise.scale", "must be a positive number, got %v", *n.Scale)
+	}
+	given := map[string]*float64{"df": n.DF, "mix-fraction": n.MixFraction, "mix-factor": n.MixFactor, "shape": n.Shape}
+	for _, key := range []string{"df", "mix-fraction", "mix-factor", "shape"} {
+		v := given[key]
+		allowed := contains(info.params, key)
+		if v != nil && !allowed {
+			c.fail("noise."+key, "is not used by noise %s; %s takes %s", n.Dist, n.Dist, paramList(info.params))
+		}
+		if v == nil && allowed && key != "shape" {
+			c.fail("noise."+key, "missing: noise %s needs %s", n.Dist, key)
+		}
+	}
+	if n.DF != nil && !(*n.DF > 0) {
+		c.fail("noise.df", "degrees of freedom must be positive, got %v", *n.DF)
+	}
+	if n.MixFraction != nil && !(*n.MixFraction > 0 && *n.MixFraction < 1) {
+		c.fail("noise.mix-fraction", "must be between 0 and 1 (exclusive), got %v", *n.MixFraction)
+	}
+	if n.MixFactor != nil && !(*n.MixFactor > 0) {
+		c.fail("noise.mix-factor", "must be positive, got %v", *n.MixFactor)
+	}
+	if n.Shape != nil && !(*n.Shape > 0) {
+		c.fail("noise.shape", "must be positive, got %v", *n.Shape)
+	}
+	if g := n.GrowsWith; g != nil {
+		if s.columnIndex(g.Column) < 0 {
+			c.fail("noise.grows-with.column", "no column named %q; columns: %s", g.Column, strings.Join(s.columnNames(), ", "))
+		}
+		if !(g.Rate >= 0) {
+			c.fail("noise.grows-with.rate", "must be ≥ 0, got %v", g.Rate)
+		}
+	}
+}
+
+func (s *Scenario) validateContamination(c checker) {
+	total := 0.0
+	labels := map[string]bool{}
+	k := len(s.Model.Columns)
+	for i := range s.Contamination {
+		ct := &s.Contamination[i]
+		path := fmt.Sprintf("contamination[%d]", i)
+		if !namePattern.MatchString(ct.Label) {
+			c.fail(path+".label", "%q is not a valid label: use letters, digits, '_' or '-'", ct.Label)
+		} else if labels[ct.Label] {
+			c.fail(path+".label", "%q labels two contaminations; labels must be unique", ct.Label)
+		}
+		labels[ct.Label] = true
+		if !(ct.Fraction >= 0 && ct.Fraction < 0.5) {
+			c.fail(path+".fraction", "must be at least 0 and below 0.5, got %v", ct.Fraction)
+		}
+		total += ct.Fraction
+		var allowed []string
+		switch ct.Kind {
+		case "vertical":
+			allowed = []string{"shift", "spread", "sides"}
+			if ct.Shift == nil {
+				c.fail(path+".shift", "missing: where the outlying errors sit (in units of y)")
+			}
+			if ct.Sides != "one" && ct.Sides != "two" {
+				c.fail(path+".sides", "want one or two, got %q", ct.Sides)
+			}
+		case "bad-leverage", "good-leverage":
+			allowed = []string{"at", "at-spread"}
+			if ct.Kind == "bad-leverage" {
+				allowed = append(allowed, "response", "spread")
+				if ct.Response == nil {
+					c.fail(path+".response", "missing: the y value the bad leverage points take")
+				}
+			}
+			if k == 0 {
+				c.fail(path+".kind", "leverage points need at least one column")
+			}
+			switch {
+			case len(ct.At) == 0:
+				c.fail(path+".at", "missing: the x position of the leverage points (one number, or one per column)")
+			case len(ct.At) != 1 && len(ct.At) != k:
+				c.fail(path+".at", "give one number or %d (one per column), got %d", k, len(ct.At))
+			}
+		case "":
+			c.fail(path+".kind", "missing: want vertical, bad-leverage or good-leverage")
+			continue
+		default:
+			c.fail(path+".kind", "unknown kind %q; want vertical, bad-leverage or good-leverage", ct.Kind)
+			continue
+		}
+		present := map[string]bool{"shift": ct.Shift != nil, "spread": ct.Spread != nil, "sides": ct.Sides != "",
+			"at": len(ct.At) > 0, "at-spread": ct.AtSpread != nil, "response": ct.Response != nil}
+		for _, key := range []string{"shift", "spread", "sides", "at", "at-spread", "response"} {
+			if present[key] && !contains(allowed, key) {
+				c.fail(path+"."+key, "is not used by kind %s; %s takes fraction, %s", ct.Kind, ct.Kind, strings.Join(allowed, ", "))
+			}
+		}
+		if ct.Spread != nil && !(*ct.Spread >= 0) {
+			c.fail(path+".spread", "must be ≥ 0, got %v", *ct.Spread)
+		}
+		if ct.AtSpread != nil && !(*ct.AtSpread >= 0) {
+			c.fail(path+".at-spread", "must be ≥ 0, got %v", *ct.AtSpread)
+		}
+	}
+	if total >= 0.5 {
+		c.fail("contamination", "fractions add up to %v; the total must stay below 0.5", total)
+	}
+}
+
+func (s *Scenario) validateEstimators(c checker) {
+	if len(s.Estimators) == 0 {
+		c.fail("estimators", "missing: list at least one estimator, for example {method: ls} and {method: irls, psi: huber}")
+		return
+	}
+	p := s.Coefficients()
+	labels := map[string]bool{}
+	for i := range s.Estimators {
+		e := &s.Estimators[i]
+		path := fmt.Sprintf("estimators[%d]", i)
+		if !namePattern.MatchString(e.Label) || len(e.Label) > 64 {
+			c.fail(path+".label", "%q is not a valid label: use letters, digits, '_' or '-'", e.Label)
+		} else if labels[e.Label] {
+			c.fail(path+".label", "%q labels two estimators; labels must be unique", e.Label)
+		}
+		labels[e.Label] = true
+		m, ok := estimators.ParseMethod(e.Method)
+		if !ok {
+			c.fail(path+".method", "unknown method %q; want ls, irls or newton", e.Method)
+			continue
+		}
+		if m == estimators.MethodLS {
+			for _, key := range []string{"psi", "tuning", "scale", "start", "stop"} {
+				if c.d.given(path + "." + key) {
+					c.fail(path+"."+key, "is not used by method ls (least squares has no psi, scale, start or stopping rule)")
+				}
+			}
+			continue
+		}
+		if e.Psi.Family == "" {
+			c.fail(path+".psi", "missing: method %s needs a psi family (%s)", e.Method, strings.Join(estimators.FamilyNames(), ", "))
+			continue
+		}
+		f, ok := estimators.LookupFamily(e.Psi.Family)
+		if !ok {
+			c.fail(path+".psi", "unknown psi family %q; valid: %s", e.Psi.Family, strings.Join(estimators.FamilyNames(), ", "))
+			continue
+		}
+		if _, err := f.New(e.Tuning); err != nil {
+			c.fail(path+".tuning", "%v", err)
+		}
+		if e.Start.Coefficients != nil && len(e.Start.Coefficients) != p {
+			c.fail(path+".start", "want %d starting coefficients (%s), got %d", p, strings.Join(s.CoefficientNames(), ", "), len(e.Start.Coefficients))
+		}
+		st := e.Stop
+		if st.Change != nil && !(*st.Change >= 0) {
+			c.fail(path+".stop.change", "must be ≥ 0, got %v", *st.Change)
+		}
+		if st.Equations != nil && !(*st.Equations >= 0) {
+			c.fail(path+".stop.equations", "must be ≥ 0, got %v", *st.Equations)
+		}
+		if st.MaxIter != nil && (*st.MaxIter < 1 || *st.MaxIter > 1_000_000) {
+			c.fail(path+".stop.max-iter", "must be from 1 to 1000000, got %d", *st.MaxIter)
+		}
+		if st.Require != "any" && st.Require != "all" {
+			c.fail(path+".stop.require", "want any or all, got %q", st.Require)
+		}
+	}
+	if !labels[s.Reference] {
+		c.fail("reference", "no estimator labelled %q; labels: %s", s.Reference, strings.Join(s.estimatorLabels(), ", "))
+	}
+}
+
+// Build returns the estimator this spec describes. The spec must have been
+// validated (as every spec of a loaded Study has).
+func (e EstimatorSpec) Build() (estimators.Estimator, error) {
+	m, ok := estimators.ParseMethod(e.Method)
+	if !ok {
+		return estimators.Estimator{}, fmt.Errorf("estimator %s: unknown method %q", e.Label, e.Method)
+	}
+	out := estimators.Estimator{Method: m}
+	if m == estimators.MethodLS {
+		return out, nil
+	}
+	f, ok := estimators.LookupFamily(e.Psi.Family)
+	if !ok {
+		return out, fmt.Errorf("estimator %s: unknown psi family %q", e.Label, e.Psi.Family)
+	}
+	psi, err := f.New(e.Tuning)
+	if err != nil {
+		return out, fmt.Errorf("estimator %s: %w", e.Label, err)
+	}
+	out.Psi = psi
+	if e.Scale.Fixed {
+		out.Scale = estimators.Scale{Rule: estimators.ScaleFixed, Value: e.Scale.Value}
+	}
+	out.Start = e.Start.Coefficients
+	var s estimators.Settings
+	if e.Stop.Change != nil {
+		s.Rules |= estimators.RuleChange
+		s.ChangeTol = *e.Stop.Change
+	}
+	if e.Stop.Equations != nil {
+		s.Rules |= estimators.RuleEquations
+		s.EquationTol = *e.Stop.Equations
+	}
+	if e.Stop.MaxIter != nil {
+		s.MaxIterations = *e.Stop.MaxIter
+	}
+	s.RequireAll = e.Stop.Require == "all"
+	// A tolerance of exactly 0 would read as "use the default" in Settings;
+	// the smallest positive value keeps the user's intent of "never".
+	if s.Rules&estimators.RuleChange != 0 && s.ChangeTol == 0 {
+		s.ChangeTol = math.SmallestNonzeroFloat64
+	}
+	if s.Rules&estimators.RuleEquations != 0 && s.EquationTol == 0 {
+		s.EquationTol = math.SmallestNonzeroFloat64
+	}
+	out.Settings = s
+	return out, nil
+}
+
+func (s *Scenario) columnIndex(name string) int {
+	for i, c := range s.Model.Columns {
+		if c.Name == name {
+			return i
+		}
+	}
+	return -1
+}
+
+func (s *Scenario) columnNames() []string {
+	out := make([]string, len(s.Model.Columns))
+	for i, c := range s.Model.Columns {
+		out[i] = c.Name
+	}
+	return out
+}
+
+func (s *Scenario) estimatorLabels() []string {
+	out := make([]string, len(s.Estimators))
+	for i, e := range s.Estimators {
+		out[i] = e.Label
+	}
+	return out
+}
+
+func contains(list []string, s string) bool {
+	for _, x := range list {
+		if x == s {
+			return true
+		}
+	}
+	return false
+}
+
+func paramList(p []string) string {
+	if len(p) == 0 {
+		return "only scale"
+	}
+	return "scale, " + strings.Join(p, ", ")
+}
