@@ -10,15 +10,18 @@ func (ws *Workspace) evaluateHuber(h Huber, sigma float64) (csum float64) {
 	r := ws.r
 	c, ps := ws.c[:len(r)], ws.psi[:len(r)]
 	k := h.K
+	offs := ws.off[:len(r)]
 	off := 0
 	for i, ri := range r {
 		u := ri / sigma
 		switch {
 		case u > k:
 			ps[i], c[i] = k, k/u
+			offs[off] = i
 			off++
 		case u < -k:
 			ps[i], c[i] = -k, k/-u
+			offs[off] = i
 			off++
 		default:
 			ps[i], c[i] = u, 1
@@ -34,11 +37,13 @@ func (ws *Workspace) evaluateBisquare(b Bisquare, sigma float64) (csum float64) 
 	r := ws.r
 	c, ps := ws.c[:len(r)], ws.psi[:len(r)]
 	cc := b.C
+	offs := ws.off[:len(r)]
 	off := 0
 	for i, ri := range r {
 		u := ri / sigma
 		if u >= cc || u <= -cc {
 			ps[i], c[i] = 0, 0
+			offs[off] = i
 			off++
 			continue
 		}
@@ -47,6 +52,7 @@ func (ws *Workspace) evaluateBisquare(b Bisquare, sigma float64) (csum float64) 
 		w := t * t
 		ps[i], c[i] = u*t*t, w
 		if w != 1 {
+			offs[off] = i
 			off++
 		}
 		csum += w

@@ -208,6 +208,7 @@ func (ws *Workspace) evaluateAny(psi Psi, sigma float64, newton bool) (csum floa
 		}
 		c[i] = ci
 		if ci != 1 {
+			ws.off[off] = i
 			off++
 		}
 		csum += math.Abs(ci)
@@ -234,6 +235,7 @@ func (ws *Workspace) weights(psi Psi, sigma float64) float64 {
 		ci := psi.Weight(r / sigma)
 		ws.c[i] = ci
 		if ci != 1 {
+			ws.off[off] = i
 			off++
 		}
 		sum += ci
@@ -261,45 +263,59 @@ func (ws *Workspace) psiSums(x blas64.General) {
 	blas64.Gemv(blas.Trans, 1, x, blas64.Vector{N: ws.n, Data: ws.psi, Inc: 1}, 0, blas64.Vector{N: ws.p, Data: ws.h, Inc: 1})
 }
 
-// normalMatrix sets ws.m (upper triangle) to Σ c_i x_i x_iᵀ. When fewer than half the rows have c_i ≠ 1 (Huber's psi leaves
-// most weights at exactly 1), it starts from XᵀX, computed once per fit, and
-// adds (c_i − 1) x_i x_iᵀ for those rows only.
+// normalMatrix sets ws.m (upper triangle) to Σ c_i x_i x_iᵀ. When fewer
+// than half the rows have c_i ≠ 1 (Huber's psi leaves most weights at
+// exactly 1), it starts from XᵀX, computed once per fit, and adds
+// (c_i − 1) x_i x_iᵀ for the rows listed in ws.off only.
 func (ws *Workspace) normalMatrix(x blas64.General) {
 	p, n := ws.p, ws.n
 	if 2*ws.nOff < n {
 		if !ws.baseOK {
 			clear(ws.base)
-			for i := 0; i < n; i++ {
-				rankOne(ws.base, x, i, p, 1)
+			for i := 0; i+1 < n; i += 2 {
+				rankTwo(ws.base, x, i, i+1, p, 1, 1)
+			}
+			if n%2 == 1 {
+				rankTwo(ws.base, x, n-1, n-1, p, 1, 0)
 			}
 			ws.baseOK = true
 		}
 		copy(ws.m, ws.base)
-		for i := 0; i < n; i++ {
-			if ci := ws.c[i]; ci != 1 {
-				rankOne(ws.m, x, i, p, ci-1)
-			}
+		off := ws.off[:ws.nOff]
+		for t := 0; t+1 < len(off); t += 2 {
+			i, j := off[t], off[t+1]
+			rankTwo(ws.m, x, i, j, p, ws.c[i]-1, ws.c[j]-1)
+		}
+		if len(off)%2 == 1 {
+			i := off[len(off)-1]
+			rankTwo(ws.m, x, i, i, p, ws.c[i]-1, 0)
 		}
 		return
 	}
 	clear(ws.m)
-	for i := 0; i < n; i++ {
-		if ci := ws.c[i]; ci != 0 {
-			rankOne(ws.m, x, i, p, ci)
-		}
+	for i := 0; i+1 < n; i += 2 {
+		rankTwo(ws.m, x, i, i+1, p, ws.c[i], ws.c[i+1])
+	}
+	if n%2 == 1 {
+		rankTwo(ws.m, x, n-1, n-1, p, ws.c[n-1], 0)
 	}
 }
 
-// rankOne adds c x_i x_iᵀ to the upper triangle of the p×p matrix m.
-func rankOne(m []float64, x blas64.General, i, p int, c float64) {
-	off := i * x.Stride
-	xi := x.Data[off : off+p : off+p]
-	for j, xj := range xi {
-		cx := c * xj
-		mj := m[j*p+j : j*p+p]
-		xk := xi[j:]
-		for k, v := range xk {
-			mj[k] += cx * v
+// rankTwo adds a x_i x_iᵀ + b x_j x_jᵀ to the upper triangle of the p×p
+// matrix m. Two rows per pass halve the loads and stores of m, and plain
+// index arithmetic avoids building a subslice per row of m, which at small p
+// costs more than the multiply-adds. The sum a·x_ik·x_il + b·x_jk·x_jl is
+// formed in one fixed order, so results do not depend on how rows pair up
+// except through that order.
+func rankTwo(m []float64, x blas64.General, i, j, p int, a, b float64) {
+	oi, oj := i*x.Stride, j*x.Stride
+	xi := x.Data[oi : oi+p : oi+p]
+	xj := x.Data[oj : oj+p : oj+p]
+	m = m[:p*p]
+	for k := 0; k < p; k++ {
+		ak, bk := a*xi[k], b*xj[k]
+		for l, kl := k, k*p+k; l < p; l, kl = l+1, kl+1 {
+			m[kl] += ak*xi[l] + bk*xj[l]
 		}
 	}
 }

@@ -39,8 +39,9 @@ type Scale struct {
 }
 
 // MAD returns the normalised median absolute value of r, median|r_i| /
-// Φ⁻¹(3/4). buf must have len(r) elements; it is overwritten.
+// Φ⁻¹(3/4). buf must have at least len(r) elements; it is overwritten.
 func MAD(r, buf []float64) float64 {
+	buf = buf[:len(r)]
 	for i, v := range r {
 		buf[i] = math.Abs(v)
 	}
@@ -77,6 +78,10 @@ func selectKth(a []float64, k int) float64 {
 	lo, hi := 0, len(a)-1
 	budget := 2 * bitsLen(len(a))
 	for hi > lo {
+		if hi-lo < 12 {
+			insertionSort(a[lo : hi+1])
+			return a[k]
+		}
 		if budget == 0 {
 			heapSelect(a[lo:hi+1], k-lo)
 			return a[k]
@@ -118,6 +123,19 @@ func selectKth(a []float64, k int) float64 {
 		}
 	}
 	return a[k]
+}
+
+// insertionSort sorts a small slice in place.
+func insertionSort(a []float64) {
+	for i := 1; i < len(a); i++ {
+		v := a[i]
+		j := i
+		for j > 0 && a[j-1] > v {
+			a[j] = a[j-1]
+			j--
+		}
+		a[j] = v
+	}
 }
 
 // bitsLen returns the number of bits needed to represent n.

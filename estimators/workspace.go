@@ -30,6 +30,7 @@ type Workspace struct {
 	base   []float64 // p×p, XᵀX (upper triangle) once baseOK
 	baseOK bool      // base holds XᵀX of the current fit
 	nOff   int       // rows whose weight in ws.c differs from 1
+	off    []int     // n, the indices of those rows (first nOff entries)
 }
 
 // reserve sizes the buffers for an n×p problem.
@@ -45,6 +46,10 @@ func (ws *Workspace) reserve(n, p int) {
 	for _, s := range []*[]float64{&ws.qy, &ws.r, &ws.q, &ws.psi, &ws.c, &ws.buf} {
 		grow(s, n)
 	}
+	if cap(ws.off) < n {
+		ws.off = make([]int, n)
+	}
+	ws.off = ws.off[:n]
 	grow(&ws.m, p*p)
 	grow(&ws.base, p*p)
 	ws.baseOK = false

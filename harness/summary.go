@@ -104,10 +104,16 @@ func convergence(t *estTally) results.Convergence {
 		}
 	}
 	c.FailureRate = results.Wilson(t.fits-c.Converged, t.fits)
-	c.MeanIterations = results.Num(math.NaN())
-	c.MedianIterations = results.Num(math.NaN())
+	nan := results.Num(math.NaN())
+	c.MeanIterations = results.Measure{Value: nan, MCSE: nan}
+	c.MedianIterations = nan
 	if t.fits > 0 {
-		c.MeanIterations = results.Num(float64(t.iterSum) / float64(t.fits))
+		n := float64(t.fits)
+		mean := float64(t.iterSum) / n
+		// Integer sums are exact; the variance is formed in float64 from
+		// them (iteration counts are small, so nothing cancels badly).
+		ss := float64(t.iterSum2) - float64(t.iterSum)*mean
+		c.MeanIterations = results.Measure{Value: results.Num(mean), MCSE: results.Num(math.Sqrt(math.Max(0, ss) / (n * (n - 1))))}
 		c.MedianIterations = results.Num(histMedian(t.iterHist, t.fits))
 	}
 	for k := len(t.iterHist) - 1; k >= 0; k-- {

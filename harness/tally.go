@@ -41,6 +41,14 @@ func (t *coefTally) addPair(a, b float64) {
 	t.pab.AddProduct(a, b)
 }
 
+// reset empties the tally, keeping the sums' storage.
+func (t *coefTally) reset() {
+	t.n, t.np = 0, 0
+	for _, s := range []*exactsum.Sum{&t.s1, &t.s2, &t.s4, &t.pa1, &t.pb1, &t.pa2, &t.pb2, &t.pab} {
+		s.Reset()
+	}
+}
+
 func (t *coefTally) merge(u *coefTally) {
 	t.n += u.n
 	t.s1.Merge(&u.s1)
@@ -60,6 +68,7 @@ type estTally struct {
 	statuses  [statusSlots]int64
 	iterHist  []int64 // iterHist[k] = fits that took k iterations
 	iterSum   int64
+	iterSum2  int64 // Σ iterations², for the MCSE of the mean
 	halvings  int64
 	fallbacks int64
 	qrSolves  int64
@@ -88,6 +97,7 @@ func (t *estTally) record(res *estimators.Result) {
 	}
 	t.iterHist[k]++
 	t.iterSum += int64(k)
+	t.iterSum2 += int64(k) * int64(k)
 	t.halvings += int64(res.Halvings)
 	t.fallbacks += int64(res.Fallbacks)
 	t.qrSolves += int64(res.QRSolves)
@@ -107,6 +117,7 @@ func (t *estTally) merge(u *estTally) {
 		t.iterHist[i] += c
 	}
 	t.iterSum += u.iterSum
+	t.iterSum2 += u.iterSum2
 	t.halvings += u.halvings
 	t.fallbacks += u.fallbacks
 	t.qrSolves += u.qrSolves
@@ -145,7 +156,7 @@ func (c *cellTally) reset() {
 		coefs, hist := e.coefs, e.iterHist
 		clear(hist)
 		for j := range coefs {
-			coefs[j] = coefTally{}
+			coefs[j].reset()
 		}
 		*e = estTally{coefs: coefs, iterHist: hist}
 	}

@@ -57,7 +57,7 @@ func WriteCSV(w io.Writer, r *Results) error {
 		"estimator", "method", "psi", "tuning", "coefficient", "true", "replicates", "used",
 		"mean", "mean_mcse", "bias", "bias_mcse", "emp_se", "emp_se_mcse", "mse", "mse_mcse",
 		"rel_eff", "rel_eff_mcse", "paired",
-		"failure_rate", "failure_low", "failure_high", "mean_iterations", "median_iterations", "max_iterations")
+		"failure_rate", "failure_low", "failure_high", "mean_iterations", "mean_iterations_mcse", "median_iterations", "max_iterations")
 	if err := cw.Write(header); err != nil {
 		return err
 	}
@@ -82,7 +82,7 @@ func WriteCSV(w io.Writer, r *Results) error {
 					csvFloat(float64(k.RelEff.Value)), csvFloat(float64(k.RelEff.MCSE)),
 					strconv.FormatInt(k.Paired, 10),
 					csvFloat(float64(cv.FailureRate.Value)), csvFloat(float64(cv.FailureRate.Low)), csvFloat(float64(cv.FailureRate.High)),
-					csvFloat(float64(cv.MeanIterations)), csvFloat(float64(cv.MedianIterations)), strconv.FormatInt(cv.MaxIterations, 10))
+					csvFloat(float64(cv.MeanIterations.Value)), csvFloat(float64(cv.MeanIterations.MCSE)), csvFloat(float64(cv.MedianIterations)), strconv.FormatInt(cv.MaxIterations, 10))
 				if err := cw.Write(row); err != nil {
 					return err
 				}

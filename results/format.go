@@ -49,11 +49,11 @@ func formatAt(v float64, place int, signed bool) string {
 		}
 		s = strconv.FormatFloat(v, 'g', min(sig, 15), 64)
 	}
-	if signed && v > 0 && s[0] != '-' {
-		s = "+" + s
+	if len(s) > 1 && s[0] == '-' && allZeroDigits(s[1:]) {
+		s = s[1:] // no "-0.000"
 	}
-	if s == "-0" || (len(s) > 1 && s[0] == '-' && allZeroDigits(s[1:])) {
-		s = s[1:]
+	if signed && v > 0 && s[0] != '-' && !allZeroDigits(s) {
+		s = "+" + s
 	}
 	return s
 }

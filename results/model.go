@@ -125,11 +125,11 @@ type Convergence struct {
 	// Statuses counts the fits by final status, with each status's rate and
 	// Wilson 95% interval; statuses that never occurred are left out.
 	Statuses []StatusCount `json:"statuses"`
-	// MeanIterations, MedianIterations and MaxIterations describe the
-	// iterations of all fits.
-	MeanIterations   Num   `json:"mean_iterations"`
-	MedianIterations Num   `json:"median_iterations"`
-	MaxIterations    int64 `json:"max_iterations"`
+	// MeanIterations (with its MCSE), MedianIterations and MaxIterations
+	// describe the iterations of all fits.
+	MeanIterations   Measure `json:"mean_iterations"`
+	MedianIterations Num     `json:"median_iterations"`
+	MaxIterations    int64   `json:"max_iterations"`
 	// Halvings, Fallbacks and QRSolves total the safeguards fired: Newton
 	// step halvings, IRLS steps taken in place of Newton steps, and weighted
 	// solves that fell back from Cholesky to QR.

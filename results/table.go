@@ -63,7 +63,7 @@ func writeEstimator(b *strings.Builder, r *Results, e Estimator, width int) {
 	cv := e.Convergence
 	conv := fmt.Sprintf("converged %d/%d", cv.Converged, cv.Fits)
 	if cv.MaxIterations > 0 {
-		mean, _ := FormatMeasure(Measure{Value: cv.MeanIterations, MCSE: 0.05}, false)
+		mean, _ := FormatMeasure(cv.MeanIterations, false)
 		conv += fmt.Sprintf(" · iterations %s (median %s, max %d)", mean, strconv.FormatFloat(float64(cv.MedianIterations), 'g', -1, 64), cv.MaxIterations)
 	}
 	head := fmt.Sprintf(" ▸ %s (%s)", e.Label, desc)

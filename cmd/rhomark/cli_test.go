@@ -1,0 +1,190 @@
+package main
+
+import (
+	"bytes"
+	"encoding/json"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+
+	"github.com/rhomark/rhomark/results"
+)
+
+// rhomark runs the CLI in-process and returns its exit status and output.
+func rhomark(t *testing.T, args ...string) (int, string, string) {
+	t.Helper()
+	var out, errb bytes.Buffer
+	code := run(args, strings.NewReader(""), &out, &errb)
+	return code, out.String(), errb.String()
+}
+
+func TestRunWritesResults(t *testing.T) {
+	dir := t.TempDir()
+	code, out, errs := rhomark(t, "run", "flow-meter", "--replicates", "40", "--out", dir, "--workers", "2")
+	if code != exitOK {
+		t.Fatalf("exit %d: %s", code, errs)
+	}
+	if !strings.Contains(out, "flow-meter") || !strings.Contains(out, "efficiency") {
+		t.Errorf("table missing expected text:\n%s", out)
+	}
+	for _, ext := range []string{".json", ".csv", ".txt"} {
+		if _, err := os.Stat(filepath.Join(dir, "flow-meter"+ext)); err != nil {
+			t.Errorf("no %s written: %v", ext, err)
+		}
+	}
+	f, err := os.Open(filepath.Join(dir, "flow-meter.json"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	res, err := results.ReadJSON(f)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if res.Replicates != 40 || len(res.Cells) != 4 || !res.Complete || res.Scenario.Hash == "" {
+		t.Errorf("results: replicates %d cells %d complete %v", res.Replicates, len(res.Cells), res.Complete)
+	}
+	csv, _ := os.ReadFile(filepath.Join(dir, "flow-meter.csv"))
+	header, _, _ := strings.Cut(string(csv), "\n")
+	if !strings.HasPrefix(header, "scenario,cell,contamination.spikes.fraction,contamination.mislabelled.fraction,estimator") {
+		t.Errorf("CSV header %q", header)
+	}
+}
+
+func TestRunJSONAndSeed(t *testing.T) {
+	code, out, errs := rhomark(t, "run", "clean-normal", "--replicates", "8", "--seed", "5", "--json")
+	if code != exitOK {
+		t.Fatalf("exit %d: %s", code, errs)
+	}
+	var res results.Results
+	if err := json.Unmarshal([]byte(out), &res); err != nil {
+		t.Fatalf("--json output is not JSON: %v", err)
+	}
+	if res.Seed != 5 {
+		t.Errorf("seed %d, want 5", res.Seed)
+	}
+}
+
+func TestRunBadScenario(t *testing.T) {
+	bad := filepath.Join("..", "..", "testdata", "scenarios", "bad", "fraction-half.yaml")
+	code, _, errs := rhomark(t, "run", bad)
+	if code != exitUsage {
+		t.Fatalf("exit %d, want %d", code, exitUsage)
+	}
+	if !strings.Contains(errs, "fraction-half.yaml:11:") || !strings.Contains(errs, "contamination[0].fraction") {
+		t.Errorf("error does not name file, line and field:\n%s", errs)
+	}
+}
+
+func TestUsageErrors(t *testing.T) {
+	cases := [][]string{
+		{"frobnicate"},
+		{"run"},
+		{"run", "no-such-scenario"},
+		{"run", "flow-meter", "--replicates", "-3"},
+		{"run", "flow-meter", "--seed", "abc"},
+		{"run", "flow-meter", "--bogus"},
+		{"fit", "x.csv"},
+		{"fit", "../../testdata/refdata/stackloss.csv", "--y", "stack.loss", "--method", "lms"},
+		{"fit", "../../testdata/refdata/stackloss.csv", "--y", "stack.loss", "--psi", "nope"},
+		{"fit", "../../testdata/refdata/stackloss.csv", "--y", "nope"},
+		{"fit", "../../testdata/refdata/stackloss.csv", "--y", "stack.loss", "--method", "ls", "--psi", "huber"},
+		{"fit", "../../testdata/refdata/stackloss.csv", "--y", "stack.loss", "--scale", "fixed:0"},
+		{"scenarios", "nope"},
+	}
+	for _, args := range cases {
+		code, _, errs := rhomark(t, args...)
+		if code != exitUsage {
+			t.Errorf("%v: exit %d, want %d (stderr %q)", args, code, exitUsage, errs)
+		}
+		if strings.Count(strings.TrimSpace(errs), "\n") > 20 || errs == "" {
+			t.Errorf("%v: stderr %q", args, errs)
+		}
+	}
+}
+
+func TestHelpAndVersion(t *testing.T) {
+	for _, args := range [][]string{{"help"}, {"--help"}, {"run", "--help"}, {"fit", "-h"}, {"scenarios", "--help"}, {"help", "fit"}} {
+		if code, _, errs := rhomark(t, args...); code != exitOK {
+			t.Errorf("%v: exit %d: %s", args, code, errs)
+		}
+	}
+	code, out, _ := rhomark(t, "--version")
+	if code != exitOK || !strings.HasPrefix(out, "rhomark "+version) {
+		t.Errorf("--version: %d %q", code, out)
+	}
+}
+
+func TestFitStackloss(t *testing.T) {
+	code, out, errs := rhomark(t, "fit", "../../testdata/refdata/stackloss.csv", "--y", "stack.loss", "--json", "--tol", "1e-10")
+	if code != exitOK {
+		t.Fatalf("exit %d: %s", code, errs)
+	}
+	var got fitOutput
+	if err := json.Unmarshal([]byte(out), &got); err != nil {
+		t.Fatal(err)
+	}
+	if len(got.Fits) != 1 || !got.Fits[0].Converged || got.Fits[0].Status != "converged-change" {
+		t.Fatalf("fits: %+v", got.Fits)
+	}
+	// Venables & Ripley (2002), Modern Applied Statistics with S, 4th ed.,
+	// section 6.5: Huber fit of stack loss, intercept -41.03 and air flow
+	// 0.829 (from memory; the estimators package checks every coefficient).
+	c := got.Fits[0].Coefficients
+	if d := c["intercept"] + 41.03; d > 0.005 || d < -0.005 {
+		t.Errorf("intercept %v", c["intercept"])
+	}
+	if d := c["Air.Flow"] - 0.829; d > 0.0005 || d < -0.0005 {
+		t.Errorf("Air.Flow %v", c["Air.Flow"])
+	}
+}
+
+func TestFitGroupsAndBadData(t *testing.T) {
+	dir := t.TempDir()
+	data := "run,volume,reading\nA,5,5.2\nA,10,10.1\nA,20,19.7\nA,50,49.6\nB,5,5.0\nB,10,9.9\nB,20,20.2\nB,50,48.8\nB,100,98.1\n"
+	path := filepath.Join(dir, "bench.csv")
+	os.WriteFile(path, []byte(data), 0o644)
+	code, out, errs := rhomark(t, "fit", path, "--y", "reading", "--group", "run", "--method", "ls", "--json")
+	if code != exitOK {
+		t.Fatalf("exit %d: %s", code, errs)
+	}
+	var got fitOutput
+	json.Unmarshal([]byte(out), &got)
+	if len(got.Fits) != 2 || got.Fits[0].Group != "A" || got.Fits[1].Rows != 5 {
+		t.Fatalf("groups: %+v", got.Fits)
+	}
+	if _, ok := got.Fits[0].Coefficients["volume"]; !ok {
+		t.Errorf("default predictors should be the numeric columns: %v", got.Fits[0].Coefficients)
+	}
+	bad := "volume,reading\n5,5.2\n10,oops\n"
+	os.WriteFile(path, []byte(bad), 0o644)
+	code, _, errs = rhomark(t, "fit", path, "--y", "reading", "--x", "volume")
+	if code != exitUsage || !strings.Contains(errs, "bench.csv:3: column reading") {
+		t.Errorf("bad data: exit %d, stderr %q", code, errs)
+	}
+	ragged := "volume,reading\n5,5.2\n10\n"
+	os.WriteFile(path, []byte(ragged), 0o644)
+	code, _, errs = rhomark(t, "fit", path, "--y", "reading")
+	if code != exitUsage || !strings.Contains(errs, "bench.csv:3") {
+		t.Errorf("ragged data: exit %d, stderr %q", code, errs)
+	}
+}
+
+func TestScenariosCommand(t *testing.T) {
+	code, out, _ := rhomark(t, "scenarios")
+	if code != exitOK || !strings.Contains(out, "flow-meter") {
+		t.Fatalf("list: %d %q", code, out)
+	}
+	code, out, _ = rhomark(t, "scenarios", "flow-meter")
+	if code != exitOK || !strings.Contains(out, "name: flow-meter") {
+		t.Fatalf("print: %d", code)
+	}
+	dir := t.TempDir()
+	if code, _, errs := rhomark(t, "scenarios", "vertical-outliers", "--write", dir); code != exitOK {
+		t.Fatalf("write: %s", errs)
+	}
+	if code, _, errs := rhomark(t, "run", filepath.Join(dir, "vertical-outliers.yaml"), "--replicates", "4"); code != exitOK {
+		t.Fatalf("running the written scenario: %s", errs)
+	}
+}
