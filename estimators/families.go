@@ -73,6 +73,52 @@ func familyTable() []Family {
 			About: "c = 4.685 gives 95% efficiency at the normal (Holland & Welsch 1977)",
 			build: func(t []float64) Psi { return Bisquare{C: t[0]} },
 		},
+		{
+			Name: "hampel", Params: []string{"a", "b", "c"}, Defaults: []float64{2, 4, 8},
+			About: "(2, 4, 8), a common-practice default, gives 99.0% efficiency at the normal (rhomark theory)",
+			build: func(t []float64) Psi { return Hampel{A: t[0], B: t[1], C: t[2]} },
+			check: func(t []float64) error {
+				if !(t[0] < t[1] && t[1] < t[2]) {
+					return fmt.Errorf("tuning constants a = %v, b = %v, c = %v: need a < b < c", t[0], t[1], t[2])
+				}
+				return nil
+			},
+		},
+		{
+			Name: "andrews", Params: []string{"a"}, Defaults: []float64{1.339},
+			About: "a = 1.339 gives 95% efficiency at the normal (Holland & Welsch 1977)",
+			build: func(t []float64) Psi { return Andrews{A: t[0]} },
+		},
+		{
+			Name: "welsch", Params: []string{"c"}, Defaults: []float64{2.985},
+			About: "c = 2.985 gives 95% efficiency at the normal (Holland & Welsch 1977)",
+			build: func(t []float64) Psi { return Welsch{C: t[0]} },
+		},
+		{
+			Name: "cauchy", Params: []string{"c"}, Defaults: []float64{2.385},
+			About: "c = 2.385 gives 95% efficiency at the normal (Holland & Welsch 1977)",
+			build: func(t []float64) Psi { return Cauchy{C: t[0]} },
+		},
+		{
+			Name: "logistic", Params: []string{"c"}, Defaults: []float64{1.205},
+			About: "c = 1.205 gives 95% efficiency at the normal (Holland & Welsch 1977)",
+			build: func(t []float64) Psi { return Logistic{C: t[0]} },
+		},
+		{
+			Name: "fair", Params: []string{"c"}, Defaults: []float64{1.400},
+			About: "c = 1.400 gives 95% efficiency at the normal (Holland & Welsch 1977)",
+			build: func(t []float64) Psi { return Fair{C: t[0]} },
+		},
+		{
+			Name: "talwar", Params: []string{"c"}, Defaults: []float64{2.795},
+			About: "c = 2.795 gives 95% efficiency at the normal (Holland & Welsch 1977)",
+			build: func(t []float64) Psi { return Talwar{C: t[0]} },
+		},
+		{
+			Name: "lad", Params: []string{"eps"}, Defaults: []float64{1e-6},
+			About: "eps = 1e-6 caps the IRLS weight; 2/π efficiency at the normal",
+			build: func(t []float64) Psi { return LAD{Eps: t[0]} },
+		},
 	}
 }
 

@@ -37,23 +37,73 @@ func summarise(st *scenarios.Study, plans []cellPlan, tallies []*cellTally, seed
 		}
 		sc := p.cell.Scenario
 		names := sc.CoefficientNames()
+		theory := cellTheory(p)
 		for j, spec := range sc.Estimators {
 			et := &t.ests[j]
 			est := results.Estimator{
-				Label:       spec.Label,
-				Method:      spec.Method,
-				Psi:         spec.Psi.Family,
-				Tuning:      spec.Tuning,
-				Convergence: convergence(et),
+				Label:            spec.Label,
+				Method:           spec.Method,
+				Psi:              spec.Psi.Name(),
+				Tuning:           spec.Tuning,
+				Convergence:      convergence(et),
+				TheoryEfficiency: results.Num(theory[j]),
 			}
 			for k, name := range names {
-				est.Coefficients = append(est.Coefficients, coefficient(name, p.truth[k], &et.coefs[k]))
+				c := coefficient(name, p.truth[k], &et.coefs[k])
+				c.TheoryGap = results.Num((float64(c.RelEff.Value) - theory[j]) / float64(c.RelEff.MCSE))
+				if j == p.ref || math.IsNaN(theory[j]) {
+					c.TheoryGap = results.Num(math.NaN())
+				}
+				est.Coefficients = append(est.Coefficients, c)
 			}
 			cell.Estimators = append(cell.Estimators, est)
 		}
 		res.Cells = append(res.Cells, cell)
 	}
 	return res
+}
+
+// cellTheory returns, per estimator, its asymptotic efficiency against the
+// reference at the normal model, or NaN where the cell's data are not from
+// that model (noise not normal, heteroscedastic, or contaminated) or the
+// estimator has no such theory. An M-estimator with MAD scale standardises
+// residuals by the noise SD asymptotically; one with a fixed scale S by S,
+// so its psi is seen at κZ with κ = SD/S.
+func cellTheory(p cellPlan) []float64 {
+	sc := p.cell.Scenario
+	out := make([]float64, len(p.ests))
+	for i := range out {
+		out[i] = math.NaN()
+	}
+	if sc.Noise.Dist != "normal" || sc.Noise.GrowsWith != nil {
+		return out
+	}
+	for _, c := range sc.Contamination {
+		if c.Fraction > 0 {
+			return out
+		}
+	}
+	sd := *sc.Noise.Scale
+	abs := make([]float64, len(p.ests))
+	for i, e := range p.ests {
+		switch e.Method {
+		case estimators.MethodLS:
+			abs[i] = 1
+		case estimators.MethodIRLS, estimators.MethodNewton:
+			kappa := 1.0
+			if e.Scale.Rule == estimators.ScaleFixed {
+				kappa = sd / e.Scale.Value
+			}
+			a, b := estimators.Moments(e.Psi, kappa)
+			abs[i] = b * b / a
+		default:
+			abs[i] = math.NaN()
+		}
+	}
+	for i := range out {
+		out[i] = abs[i] / abs[p.ref]
+	}
+	return out
 }
 
 // coefficient computes the measures of one coefficient.

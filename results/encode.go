@@ -56,7 +56,7 @@ func WriteCSV(w io.Writer, r *Results) error {
 	header = append(header,
 		"estimator", "method", "psi", "tuning", "coefficient", "true", "replicates", "used",
 		"mean", "mean_mcse", "bias", "bias_mcse", "emp_se", "emp_se_mcse", "mse", "mse_mcse",
-		"rel_eff", "rel_eff_mcse", "paired",
+		"rel_eff", "rel_eff_mcse", "paired", "theory_efficiency", "theory_gap_mcse",
 		"failure_rate", "failure_low", "failure_high", "mean_iterations", "mean_iterations_mcse", "median_iterations", "max_iterations")
 	if err := cw.Write(header); err != nil {
 		return err
@@ -80,7 +80,7 @@ func WriteCSV(w io.Writer, r *Results) error {
 					csvFloat(float64(k.EmpSE.Value)), csvFloat(float64(k.EmpSE.MCSE)),
 					csvFloat(float64(k.MSE.Value)), csvFloat(float64(k.MSE.MCSE)),
 					csvFloat(float64(k.RelEff.Value)), csvFloat(float64(k.RelEff.MCSE)),
-					strconv.FormatInt(k.Paired, 10),
+					strconv.FormatInt(k.Paired, 10), csvFloat(float64(e.TheoryEfficiency)), csvFloat(float64(k.TheoryGap)),
 					csvFloat(float64(cv.FailureRate.Value)), csvFloat(float64(cv.FailureRate.Low)), csvFloat(float64(cv.FailureRate.High)),
 					csvFloat(float64(cv.MeanIterations.Value)), csvFloat(float64(cv.MeanIterations.MCSE)), csvFloat(float64(cv.MedianIterations)), strconv.FormatInt(cv.MaxIterations, 10))
 				if err := cw.Write(row); err != nil {

@@ -82,6 +82,11 @@ type Estimator struct {
 	Psi string `json:"psi,omitempty"`
 	// Tuning holds the tuning constants.
 	Tuning []float64 `json:"tuning,omitempty"`
+	// TheoryEfficiency is the asymptotic efficiency against the reference
+	// estimator, where the cell's noise is normal, homoscedastic and
+	// uncontaminated so that the theory at the normal model applies; null
+	// otherwise.
+	TheoryEfficiency Num `json:"theory_efficiency"`
 	// Coefficients holds the performance of each coefficient.
 	Coefficients []Coefficient `json:"coefficients"`
 	// Convergence summarises how the fits ended.
@@ -111,6 +116,10 @@ type Coefficient struct {
 	RelEff Measure `json:"rel_eff"`
 	// Paired is the number of replicates RelEff is computed from.
 	Paired int64 `json:"paired"`
+	// TheoryGap is (RelEff − TheoryEfficiency) / MCSE of RelEff: how far,
+	// in Monte Carlo standard errors, the simulation lies from the
+	// asymptotic theory; null where there is no theory.
+	TheoryGap Num `json:"theory_gap_mcse"`
 }
 
 // Convergence summarises how the fits of one estimator in one cell ended.

@@ -3,6 +3,7 @@ package results
 import (
 	"fmt"
 	"io"
+	"math"
 	"strconv"
 	"strings"
 )
@@ -45,11 +46,13 @@ func writeCellBlock(b *strings.Builder, r *Results, c Cell, width int) {
 	}
 }
 
-// columns of a coefficient row: name, bias, emp SE, efficiency.
+// columns of a coefficient row: name, bias, emp SE, efficiency, and the
+// gap to theory where there is one.
 const (
-	colName = 14
-	colBias = 20
-	colSE   = 20
+	colName = 13
+	colBias = 19
+	colSE   = 19
+	colEff  = 18
 )
 
 func writeEstimator(b *strings.Builder, r *Results, e Estimator, width int) {
@@ -65,6 +68,10 @@ func writeEstimator(b *strings.Builder, r *Results, e Estimator, width int) {
 	if cv.MaxIterations > 0 {
 		mean, _ := FormatMeasure(cv.MeanIterations, false)
 		conv += fmt.Sprintf(" · iterations %s (median %s, max %d)", mean, strconv.FormatFloat(float64(cv.MedianIterations), 'g', -1, 64), cv.MaxIterations)
+	}
+	hasTheory := !math.IsNaN(float64(e.TheoryEfficiency)) && e.Label != r.Reference
+	if hasTheory {
+		conv += fmt.Sprintf(" · theory %.4f", float64(e.TheoryEfficiency))
 	}
 	head := fmt.Sprintf(" ▸ %s (%s)", e.Label, desc)
 	if runeLen(head)+3+runeLen(conv) <= width {
@@ -85,7 +92,11 @@ func writeEstimator(b *strings.Builder, r *Results, e Estimator, width int) {
 	} else {
 		eff += " vs " + r.Reference
 	}
-	fmt.Fprintf(b, "   %-*s%-*s%-*s%s\n", colName, "coefficient", colBias, "bias", colSE, "emp. SE", eff)
+	gapHead := ""
+	if hasTheory {
+		gapHead = "gap"
+	}
+	row(b, "coefficient", "bias", "emp. SE", eff, gapHead)
 	for _, k := range e.Coefficients {
 		bias := pm(k.Bias, true)
 		se := pm(k.EmpSE, false)
@@ -97,8 +108,35 @@ func writeEstimator(b *strings.Builder, r *Results, e Estimator, width int) {
 		if runeLen(name) >= colName {
 			name = string([]rune(name)[:colName-2]) + "…"
 		}
-		fmt.Fprintf(b, "   %-*s%-*s%-*s%s\n", colName, name, colBias, bias, colSE, se, re)
+		gap := ""
+		if g := float64(k.TheoryGap); hasTheory && !math.IsNaN(g) {
+			gap = fmt.Sprintf("%+.1f", g)
+			if gap == "-0.0" || gap == "+0.0" {
+				gap = "0.0"
+			}
+		}
+		row(b, name, bias, se, re, gap)
 	}
+	if hasTheory {
+		b.WriteString("   (gap: simulated minus asymptotic efficiency, in Monte Carlo SEs)\n")
+	}
+}
+
+// row writes one coefficient row, without trailing blanks; a column whose
+// text fills it is followed by one space.
+func row(b *strings.Builder, name, bias, se, eff, gap string) {
+	cols := []struct {
+		text  string
+		width int
+	}{{name, colName}, {bias, colBias}, {se, colSE}, {eff, colEff}, {gap, 0}}
+	line := "  "
+	for _, c := range cols {
+		line += " " + c.text
+		if pad := c.width - runeLen(c.text) - 1; pad > 0 && c.width > 0 {
+			line += strings.Repeat(" ", pad)
+		}
+	}
+	b.WriteString(strings.TrimRight(line, " ") + "\n")
 }
 
 // pm formats a measure as "value ± mcse".

@@ -132,6 +132,13 @@ func Parse(file string, data []byte, limits Limits) (*Study, error) {
 		return nil, err
 	}
 
+	// Lines holding swept values: an error there is about one cell.
+	sweptLines := map[int]bool{}
+	for _, sw := range base.Vary {
+		for _, n := range sw.nodes {
+			markLines(n, sweptLines)
+		}
+	}
 	st := &Study{File: file, Base: base}
 	seen := map[string]bool{}
 	for idx := 0; idx < cells; idx++ {
@@ -157,7 +164,7 @@ func Parse(file string, data []byte, limits Limits) (*Study, error) {
 				continue
 			}
 			seen[key] = true
-			if len(settings) > 0 {
+			if len(settings) > 0 && sweptLines[x.Line] {
 				x.Msg += fmt.Sprintf(" (in the cell where %s)", describe(settings))
 			}
 			e.list = append(e.list, x)
@@ -175,6 +182,14 @@ func Parse(file string, data []byte, limits Limits) (*Study, error) {
 	}
 	st.Normalised, st.Hash = normalise(base)
 	return st, nil
+}
+
+// markLines records the lines of a node tree.
+func markLines(n *yaml.Node, lines map[int]bool) {
+	lines[n.Line] = true
+	for _, c := range n.Content {
+		markLines(c, lines)
+	}
 }
 
 // describe formats a cell's settings as path=value pairs.

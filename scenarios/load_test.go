@@ -3,6 +3,7 @@ package scenarios
 import (
 	"errors"
 	"fmt"
+	"math"
 	"os"
 	"path/filepath"
 	"strconv"
@@ -200,4 +201,42 @@ func FuzzParse(f *testing.F) {
 			}
 		}
 	})
+}
+
+func TestCustomPsiScenario(t *testing.T) {
+	src := `
+model: {n: 40, columns: [{name: x, slope: 1}]}
+noise: {dist: normal}
+estimators:
+  - {method: ls}
+  - label: mine
+    method: irls
+    psi:
+      expr: r / (1 + abs(r)/c)
+      constants: {c: 1.4}
+vary:
+  estimators.mine.psi.constants.c: [1, 2]
+`
+	st, err := Parse("custom.yaml", []byte(src), Limits{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(st.Cells) != 2 {
+		t.Fatalf("%d cells", len(st.Cells))
+	}
+	e, err := st.Cells[1].Scenario.Estimators[1].Build()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got := e.Psi.Psi(4); math.Abs(got-4/(1+4.0/2)) > 1e-12 {
+		t.Errorf("psi(4) with c = 2: %v", got)
+	}
+	if st.Base.Estimators[1].Psi.Name() != "custom" {
+		t.Errorf("psi name %q", st.Base.Estimators[1].Psi.Name())
+	}
+	bad := strings.Replace(src, "r / (1 + abs(r)/c)", "r / (1 + abs(r)/q)", 1)
+	_, err = Parse("custom.yaml", []byte(bad), Limits{})
+	if err == nil || !strings.Contains(err.Error(), "custom.yaml:9:") || strings.Contains(err.Error(), "in the cell") || !strings.Contains(err.Error(), `unknown name "q"`) {
+		t.Errorf("bad expression error: %v", err)
+	}
 }

@@ -122,14 +122,14 @@ func (s *Scenario) fillDefaults(d *decoder, defaultName string) {
 	for i := range s.Estimators {
 		e := &s.Estimators[i]
 		if e.Method == "" {
-			if e.Psi.Family == "" {
+			if e.Psi.IsZero() {
 				e.Method = "ls"
 			} else {
 				e.Method = "irls"
 			}
 		}
 		if e.Method != "ls" {
-			if f, ok := estimators.LookupFamily(e.Psi.Family); ok && len(e.Tuning) == 0 {
+			if f, ok := estimators.LookupFamily(e.Psi.Family); ok && len(e.Tuning) == 0 && e.Psi.Custom == nil {
 				e.Tuning = append(Numbers(nil), f.Defaults...)
 			}
 			if e.Stop.Change == nil && e.Stop.Equations == nil {
@@ -146,8 +146,8 @@ func (s *Scenario) fillDefaults(d *decoder, defaultName string) {
 		}
 		if e.Label == "" {
 			base := e.Method
-			if e.Psi.Family != "" {
-				base += "-" + e.Psi.Family
+			if !e.Psi.IsZero() {
+				base += "-" + e.Psi.Name()
 			}
 			labels[base]++
 			e.Label = base
@@ -467,17 +467,37 @@ func (s *Scenario) validateEstimators(c checker) {
 			}
 			continue
 		}
-		if e.Psi.Family == "" {
-			c.fail(path+".psi", "missing: method %s needs a psi family (%s)", e.Method, strings.Join(estimators.FamilyNames(), ", "))
+		if e.Psi.IsZero() {
+			c.fail(path+".psi", "missing: method %s needs a psi family (%s) or a mapping with expr", e.Method, strings.Join(estimators.FamilyNames(), ", "))
 			continue
 		}
-		f, ok := estimators.LookupFamily(e.Psi.Family)
-		if !ok {
-			c.fail(path+".psi", "unknown psi family %q; valid: %s", e.Psi.Family, strings.Join(estimators.FamilyNames(), ", "))
-			continue
-		}
-		if _, err := f.New(e.Tuning); err != nil {
-			c.fail(path+".tuning", "%v", err)
+		if e.Psi.Custom != nil {
+			if len(e.Tuning) > 0 {
+				c.fail(path+".tuning", "is not used with a custom psi; give its constants under psi.constants")
+			}
+			if _, err := estimators.NewCustom(e.Psi.Custom.Spec()); err != nil {
+				field := path + ".psi"
+				switch msg := err.Error(); {
+				case strings.HasPrefix(msg, "psi expression"):
+					field += ".expr"
+				case strings.HasPrefix(msg, "rho expression"):
+					field += ".rho"
+				case strings.HasPrefix(msg, "psi' expression"):
+					field += ".deriv"
+				case strings.Contains(msg, "constant"):
+					field += ".constants"
+				}
+				c.fail(field, "%v", err)
+			}
+		} else {
+			f, ok := estimators.LookupFamily(e.Psi.Family)
+			if !ok {
+				c.fail(path+".psi", "unknown psi family %q; valid: %s, or a mapping with expr for a psi of your own", e.Psi.Family, strings.Join(estimators.FamilyNames(), ", "))
+				continue
+			}
+			if _, err := f.New(e.Tuning); err != nil {
+				c.fail(path+".tuning", "%v", err)
+			}
 		}
 		if e.Start.Coefficients != nil && len(e.Start.Coefficients) != p {
 			c.fail(path+".start", "want %d starting coefficients (%s), got %d", p, strings.Join(s.CoefficientNames(), ", "), len(e.Start.Coefficients))
@@ -512,13 +532,9 @@ func (e EstimatorSpec) Build() (estimators.Estimator, error) {
 	if m == estimators.MethodLS {
 		return out, nil
 	}
-	f, ok := estimators.LookupFamily(e.Psi.Family)
-	if !ok {
-		return out, fmt.Errorf("estimator %s: unknown psi family %q", e.Label, e.Psi.Family)
-	}
-	psi, err := f.New(e.Tuning)
+	psi, err := e.BuildPsi()
 	if err != nil {
-		return out, fmt.Errorf("estimator %s: %w", e.Label, err)
+		return out, err
 	}
 	out.Psi = psi
 	if e.Scale.Fixed {
@@ -548,6 +564,26 @@ func (e EstimatorSpec) Build() (estimators.Estimator, error) {
 	}
 	out.Settings = s
 	return out, nil
+}
+
+// BuildPsi returns the psi this spec describes.
+func (e EstimatorSpec) BuildPsi() (estimators.Psi, error) {
+	if e.Psi.Custom != nil {
+		c, err := estimators.NewCustom(e.Psi.Custom.Spec())
+		if err != nil {
+			return nil, fmt.Errorf("estimator %s: %w", e.Label, err)
+		}
+		return c, nil
+	}
+	f, ok := estimators.LookupFamily(e.Psi.Family)
+	if !ok {
+		return nil, fmt.Errorf("estimator %s: unknown psi family %q", e.Label, e.Psi.Family)
+	}
+	psi, err := f.New(e.Tuning)
+	if err != nil {
+		return nil, fmt.Errorf("estimator %s: %w", e.Label, err)
+	}
+	return psi, nil
 }
 
 func (s *Scenario) columnIndex(name string) int {

@@ -4,10 +4,13 @@ import (
 	"encoding/json"
 	"fmt"
 	"math"
+	"reflect"
 	"strconv"
 	"strings"
 
 	"gopkg.in/yaml.v3"
+
+	"github.com/rhomark/rhomark/estimators"
 )
 
 // Value types of the scenario format that accept more than one form.
@@ -110,23 +113,113 @@ func (v Correlation) MarshalJSON() ([]byte, error) {
 	return json.Marshal(v.Common)
 }
 
-// PsiSpec names the psi of an M-estimator: a built-in family.
+// PsiSpec names the psi of an M-estimator: a built-in family by name, or a
+// psi of the user's own as a mapping:
+//
+//	psi:
+//	  expr: r / (1 + abs(r)/c)     # psi in the standardised residual r
+//	  rho: ...                     # optional; default: the integral of psi
+//	  deriv: ...                   # optional; default: numerical
+//	  constants: {c: 1.4}          # named constants, in order
+//	  kinks: [..]                  # optional break points for quadrature
 type PsiSpec struct {
-	// Family is the built-in family's name.
+	// Family is the built-in family's name, or "" for a custom psi.
 	Family string
+	// Custom is the user's psi when Family is "".
+	Custom *CustomPsi
+}
+
+// CustomPsi is the mapping form of a psi of the user's own.
+type CustomPsi struct {
+	Expr      string       `yaml:"expr" json:"expr"`
+	Rho       string       `yaml:"rho" json:"rho,omitempty"`
+	Deriv     string       `yaml:"deriv" json:"deriv,omitempty"`
+	Constants NamedNumbers `yaml:"constants" json:"constants,omitempty"`
+	Kinks     []float64    `yaml:"kinks" json:"kinks,omitempty"`
+}
+
+// NamedNumbers is an ordered mapping from names to numbers.
+type NamedNumbers []NamedNumber
+
+// NamedNumber is one entry of a NamedNumbers.
+type NamedNumber struct {
+	Name  string
+	Value float64
+}
+
+func (v *NamedNumbers) decodeNode(d *decoder, n *yaml.Node, path string) {
+	if n.Kind != yaml.MappingNode {
+		d.fail(n, path, "want a mapping of constant names to numbers, for example {c: 1.4}, got %s", kindName(n))
+		return
+	}
+	*v = nil
+	for i := 0; i+1 < len(n.Content); i += 2 {
+		k, val := n.Content[i], n.Content[i+1]
+		kp := join(path, k.Value)
+		d.at(kp, val)
+		if f, ok := d.float(val, kp); ok {
+			*v = append(*v, NamedNumber{Name: k.Value, Value: f})
+		}
+	}
+}
+
+// MarshalJSON encodes the constants as an object in their order.
+func (v NamedNumbers) MarshalJSON() ([]byte, error) {
+	var b strings.Builder
+	b.WriteByte('{')
+	for i, x := range v {
+		if i > 0 {
+			b.WriteByte(',')
+		}
+		k, _ := json.Marshal(x.Name)
+		val, _ := json.Marshal(x.Value)
+		b.Write(k)
+		b.WriteByte(':')
+		b.Write(val)
+	}
+	b.WriteByte('}')
+	return []byte(b.String()), nil
 }
 
 func (v *PsiSpec) decodeNode(d *decoder, n *yaml.Node, path string) {
+	if n.Kind == yaml.MappingNode {
+		c := new(CustomPsi)
+		d.decodeStruct(n, reflect.ValueOf(c).Elem(), path)
+		*v = PsiSpec{Custom: c}
+		return
+	}
 	if s, ok := d.scalarText(n, path); ok {
 		v.Family = s
 	}
 }
 
 // IsZero reports that no psi was given.
-func (v PsiSpec) IsZero() bool { return v.Family == "" }
+func (v PsiSpec) IsZero() bool { return v.Family == "" && v.Custom == nil }
 
-// MarshalJSON encodes the psi as its family name.
-func (v PsiSpec) MarshalJSON() ([]byte, error) { return json.Marshal(v.Family) }
+// Name is the family name, or "custom".
+func (v PsiSpec) Name() string {
+	if v.Custom != nil {
+		return "custom"
+	}
+	return v.Family
+}
+
+// MarshalJSON encodes the psi as its family name or its mapping.
+func (v PsiSpec) MarshalJSON() ([]byte, error) {
+	if v.Custom != nil {
+		return json.Marshal(v.Custom)
+	}
+	return json.Marshal(v.Family)
+}
+
+// Spec converts the mapping to the estimators package's form.
+func (c *CustomPsi) Spec() estimators.CustomSpec {
+	s := estimators.CustomSpec{Psi: c.Expr, Rho: c.Rho, Deriv: c.Deriv, Kinks: c.Kinks}
+	for _, k := range c.Constants {
+		s.Constants = append(s.Constants, estimators.Constant{Name: k.Name, Value: k.Value})
+	}
+	return s
+}
 
 // ScaleSpec is the scale rule: mad, or fixed:S.
 type ScaleSpec struct {

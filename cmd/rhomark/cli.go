@@ -39,6 +39,9 @@ func commands() []command {
 		{"run", "run a Monte Carlo scenario and summarise the estimators", runCmd},
 		{"fit", "fit estimators to a CSV file of your own", fitCmd},
 		{"scenarios", "list the shipped scenarios, or print one as a starting point", scenariosCmd},
+		{"theory", "asymptotic efficiency, gross-error sensitivity and more for a psi", theoryCmd},
+		{"tune", "solve for tuning constants: efficiency, minimax or breakdown targets", tuneCmd},
+		{"check-psi", "check that a psi (built-in or your own expression) is well formed", checkPsiCmd},
 	}
 }
 

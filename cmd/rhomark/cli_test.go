@@ -188,3 +188,98 @@ func TestScenariosCommand(t *testing.T) {
 		t.Fatalf("running the written scenario: %s", errs)
 	}
 }
+
+func TestTheoryCommand(t *testing.T) {
+	code, out, errs := rhomark(t, "theory", "--psi", "huber", "--tuning", "1.345", "--json")
+	if code != exitOK {
+		t.Fatalf("exit %d: %s", code, errs)
+	}
+	var got map[string]any
+	if err := json.Unmarshal([]byte(out), &got); err != nil {
+		t.Fatal(err)
+	}
+	for _, key := range []string{"efficiency", "asymptotic_variance", "gross_error_sensitivity", "rejection_point", "models"} {
+		if _, ok := got[key]; !ok {
+			t.Errorf("JSON lacks %q", key)
+		}
+	}
+	// Holland & Welsch (1977), Comm. Statist. Theory Methods 6:813-827:
+	// k = 1.345 gives 95% efficiency.
+	if e := got["efficiency"].(float64); e < 0.949 || e > 0.951 {
+		t.Errorf("efficiency %v", e)
+	}
+	if got["rejection_point"] != nil {
+		t.Errorf("Huber has no rejection point; JSON gives %v", got["rejection_point"])
+	}
+	if code, out, _ := rhomark(t, "theory", "--psi-expr", "r / (1 + abs(r)/c)", "--const", "c=1.4"); code != exitOK || !strings.Contains(out, "efficiency") {
+		t.Errorf("custom theory: %d %s", code, out)
+	}
+}
+
+func TestTuneCommand(t *testing.T) {
+	cases := []struct {
+		args []string
+		want float64
+		tol  float64
+	}{
+		// Holland & Welsch (1977): bisquare c = 4.685 gives 95%.
+		{[]string{"--psi", "bisquare", "--efficiency", "0.95"}, 4.685, 0.0005},
+		// Huber (1964), Ann. Math. Statist. 35:73-101, from memory: eps = 0.1 → k ≈ 1.140.
+		{[]string{"--psi", "huber", "--minimax", "0.1"}, 1.140, 0.001},
+		// Rousseeuw & Yohai (1984): c = 1.547 (truncated) for 50% breakdown.
+		{[]string{"--psi", "bisquare", "--breakdown", "0.5"}, 1.5476, 0.0001},
+	}
+	for _, c := range cases {
+		code, out, errs := rhomark(t, append(append([]string{"tune"}, c.args...), "--json")...)
+		if code != exitOK {
+			t.Fatalf("%v: exit %d: %s", c.args, code, errs)
+		}
+		var got struct{ Tuning []float64 }
+		if err := json.Unmarshal([]byte(out), &got); err != nil || len(got.Tuning) != 1 {
+			t.Fatalf("%v: %v %s", c.args, err, out)
+		}
+		if d := got.Tuning[0] - c.want; d > c.tol || d < -c.tol {
+			t.Errorf("%v: tuning %v, want %v", c.args, got.Tuning[0], c.want)
+		}
+	}
+	if code, out, _ := rhomark(t, "tune", "--psi", "welsch", "--sweep", "1:4:4"); code != exitOK || strings.Count(out, "\n") != 6 {
+		t.Errorf("sweep: %d\n%s", code, out)
+	}
+	for _, bad := range [][]string{{"tune", "--psi", "huber"}, {"tune", "--psi", "huber", "--efficiency", "0.9", "--minimax", "0.1"},
+		{"tune", "--psi", "bisquare", "--minimax", "0.1"}, {"tune", "--psi", "huber", "--breakdown", "0.5"}} {
+		if code, _, _ := rhomark(t, bad...); code == exitOK {
+			t.Errorf("%v succeeded", bad)
+		}
+	}
+}
+
+func TestCheckPsiCommand(t *testing.T) {
+	if code, out, _ := rhomark(t, "check-psi", "--psi", "hampel"); code != exitOK || !strings.Contains(out, "every required property holds") {
+		t.Errorf("hampel: exit %d\n%s", code, out)
+	}
+	code, out, _ := rhomark(t, "check-psi", "--psi-expr", "r > 0 ? r : 0.5*r", "--json")
+	if code != exitFailure {
+		t.Errorf("broken psi: exit %d, want %d", code, exitFailure)
+	}
+	if !strings.Contains(out, `"ok": false`) {
+		t.Errorf("JSON does not report the failure:\n%s", out)
+	}
+	if code, _, _ := rhomark(t, "check-psi", "--psi-expr", "open('/etc/passwd')"); code != exitUsage {
+		t.Errorf("unsafe expression: exit %d, want %d", code, exitUsage)
+	}
+}
+
+func TestFitCustomPsi(t *testing.T) {
+	code, out, errs := rhomark(t, "fit", "../../testdata/refdata/stackloss.csv", "--y", "stack.loss",
+		"--psi-expr", "abs(r) <= k ? r : k*sign(r)", "--const", "k=1.345", "--tol", "1e-10", "--json")
+	if code != exitOK {
+		t.Fatalf("exit %d: %s", code, errs)
+	}
+	var got fitOutput
+	json.Unmarshal([]byte(out), &got)
+	// The same Huber fit as the built-in family (Venables & Ripley (2002),
+	// section 6.5, from memory: intercept -41.03).
+	if c := got.Fits[0].Coefficients["intercept"]; c < -41.035 || c > -41.025 {
+		t.Errorf("intercept %v", c)
+	}
+}

@@ -2,10 +2,8 @@ package main
 
 import (
 	"encoding/json"
-	"flag"
 	"fmt"
 	"os"
-	"strconv"
 	"strings"
 
 	"gonum.org/v1/gonum/mat"
@@ -56,8 +54,7 @@ func fitCmd(e env, args []string) error {
 	group := fs.String("group", "", "fit once per value of this `column`")
 	noIntercept := fs.Bool("no-intercept", false, "fit without an intercept")
 	method := fs.String("method", "irls", "`method`: ls, irls or newton")
-	psiName := fs.String("psi", "huber", "psi `family`: "+strings.Join(estimators.FamilyNames(), ", "))
-	tuning := fs.String("tuning", "", "tuning constant(s) `C`, comma-separated (default: the family's)")
+	pf := addPsiFlags(fs, "huber")
 	scale := fs.String("scale", "mad", "scale `rule`: mad, or fixed:S for a known scale S")
 	tol := fs.Float64("tol", estimators.DefaultChangeTol, "stop when the relative change in coefficients is below `T`")
 	maxIter := fs.Int("max-iter", estimators.DefaultMaxIterations, "iteration cap `N`")
@@ -72,10 +69,7 @@ func fitCmd(e env, args []string) error {
 	if *yCol == "" {
 		return usagef("--y is required: the name of the response column")
 	}
-	given := map[string]bool{}
-	fs.Visit(func(f *flagValue) { given[f.Name] = true })
-
-	est, desc, err := buildFitEstimator(*method, *psiName, *tuning, *scale, *tol, *maxIter, given)
+	est, desc, err := buildFitEstimator(*method, pf, *scale, *tol, *maxIter, givenFlags(fs))
 	if err != nil {
 		return err
 	}
@@ -148,45 +142,26 @@ func fitCmd(e env, args []string) error {
 	return nil
 }
 
-// flagValue is the flag type Visit passes.
-type flagValue = flag.Flag
-
 // buildFitEstimator turns fit's options into an estimator.
-func buildFitEstimator(method, psiName, tuning, scale string, tol float64, maxIter int, given map[string]bool) (estimators.Estimator, fitEstimator, error) {
+func buildFitEstimator(method string, pf *psiFlags, scale string, tol float64, maxIter int, given map[string]bool) (estimators.Estimator, fitEstimator, error) {
 	m, ok := estimators.ParseMethod(method)
 	if !ok {
 		return estimators.Estimator{}, fitEstimator{}, usagef("--method %q: want ls, irls or newton", method)
 	}
 	desc := fitEstimator{Method: m.String()}
 	if m == estimators.MethodLS {
-		for _, name := range []string{"psi", "tuning", "scale", "tol", "max-iter"} {
+		for _, name := range []string{"psi", "tuning", "psi-expr", "scale", "tol", "max-iter"} {
 			if given[name] {
 				return estimators.Estimator{}, desc, usagef("--%s is not used with --method ls", name)
 			}
 		}
 		return estimators.Estimator{}, desc, nil
 	}
-	fam, ok := estimators.LookupFamily(psiName)
-	if !ok {
-		return estimators.Estimator{}, desc, usagef("--psi %q: unknown family; valid: %s", psiName, strings.Join(estimators.FamilyNames(), ", "))
-	}
-	var tc []float64
-	if tuning != "" {
-		for _, s := range strings.Split(tuning, ",") {
-			v, err := strconv.ParseFloat(strings.TrimSpace(s), 64)
-			if err != nil {
-				return estimators.Estimator{}, desc, usagef("--tuning %q: %q is not a number", tuning, s)
-			}
-			tc = append(tc, v)
-		}
-	}
-	psi, err := fam.New(tc)
+	ch, err := pf.build(given)
 	if err != nil {
-		return estimators.Estimator{}, desc, usageError{err}
+		return estimators.Estimator{}, desc, err
 	}
-	if len(tc) == 0 {
-		tc = fam.Defaults
-	}
+	psi, tc := ch.psi, ch.tuning
 	sc, err := scenarios.ParseScale(scale)
 	if err != nil {
 		return estimators.Estimator{}, desc, usagef("--scale: %v", err)
@@ -202,7 +177,10 @@ func buildFitEstimator(method, psiName, tuning, scale string, tol float64, maxIt
 	if sc.Fixed {
 		est.Scale = estimators.Scale{Rule: estimators.ScaleFixed, Value: sc.Value}
 	}
-	desc.Psi, desc.Tuning, desc.Scale = psiName, tc, sc.String()
+	desc.Psi, desc.Tuning, desc.Scale = ch.name, tc, sc.String()
+	if ch.name == "custom" {
+		desc.Psi = "custom: " + pf.expr
+	}
 	return est, desc, nil
 }
 

@@ -1,0 +1,134 @@
+package main
+
+import (
+	"flag"
+	"fmt"
+	"math"
+	"strconv"
+	"strings"
+
+	"github.com/rhomark/rhomark/estimators"
+)
+
+// psiFlags are the options that choose a psi, shared by fit, theory, tune
+// and check-psi: a built-in family with --psi and --tuning, or a psi of the
+// user's own with --psi-expr and its companions.
+type psiFlags struct {
+	family, tuning          string
+	expr, rho, deriv, kinks string
+	consts                  constFlag
+}
+
+// constFlag collects repeated --const name=value options.
+type constFlag []estimators.Constant
+
+func (c *constFlag) String() string { return "" }
+
+func (c *constFlag) Set(s string) error {
+	name, val, ok := strings.Cut(s, "=")
+	if !ok {
+		return fmt.Errorf("want name=value, got %q", s)
+	}
+	v, err := strconv.ParseFloat(strings.TrimSpace(val), 64)
+	if err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
+		return fmt.Errorf("%q is not a finite number", val)
+	}
+	*c = append(*c, estimators.Constant{Name: strings.TrimSpace(name), Value: v})
+	return nil
+}
+
+func addPsiFlags(fs *flag.FlagSet, defaultFamily string) *psiFlags {
+	p := &psiFlags{}
+	fs.StringVar(&p.family, "psi", defaultFamily, "psi `family`: "+strings.Join(estimators.FamilyNames(), ", "))
+	fs.StringVar(&p.tuning, "tuning", "", "tuning constant(s) `C`, comma-separated (default: the family's)")
+	fs.StringVar(&p.expr, "psi-expr", "", "a psi of your own: an `expression` in r, e.g. 'r / (1 + abs(r)/c)'")
+	fs.StringVar(&p.rho, "rho-expr", "", "rho of --psi-expr (`expression`; default: the integral of psi)")
+	fs.StringVar(&p.deriv, "deriv-expr", "", "psi' of --psi-expr (`expression`; default: numerical)")
+	fs.Var(&p.consts, "const", "a constant of --psi-expr, `name=value` (repeat for several)")
+	fs.StringVar(&p.kinks, "kinks", "", "break `points` of --psi-expr for quadrature, comma-separated")
+	return p
+}
+
+// choice is a psi chosen on the command line.
+type choice struct {
+	psi    estimators.Psi
+	family estimators.Family
+	name   string    // family name or "custom"
+	tuning []float64 // the constants in use
+	desc   string    // one line for headings
+}
+
+// build resolves the psi options. given says which flags were set.
+func (p *psiFlags) build(given map[string]bool) (choice, error) {
+	if p.expr != "" {
+		if given["psi"] || given["tuning"] {
+			return choice{}, usagef("--psi-expr replaces --psi and --tuning; give constants with --const")
+		}
+		spec := estimators.CustomSpec{Psi: p.expr, Rho: p.rho, Deriv: p.deriv, Constants: p.consts}
+		if p.kinks != "" {
+			ks, err := parseList(p.kinks)
+			if err != nil {
+				return choice{}, usagef("--kinks: %v", err)
+			}
+			spec.Kinks = ks
+		}
+		c, err := estimators.NewCustom(spec)
+		if err != nil {
+			return choice{}, usageError{err}
+		}
+		fam, _ := c.Family("")
+		desc := "custom psi " + p.expr
+		for _, k := range p.consts {
+			desc += fmt.Sprintf(", %s = %g", k.Name, k.Value)
+		}
+		return choice{psi: c, family: fam, name: "custom", tuning: fam.Defaults, desc: desc}, nil
+	}
+	for _, f := range []string{"rho-expr", "deriv-expr", "const", "kinks"} {
+		if given[f] {
+			return choice{}, usagef("--%s goes with --psi-expr", f)
+		}
+	}
+	fam, ok := estimators.LookupFamily(p.family)
+	if !ok {
+		return choice{}, usagef("--psi %q: unknown family; valid: %s (or --psi-expr for your own)", p.family, strings.Join(estimators.FamilyNames(), ", "))
+	}
+	var tc []float64
+	if p.tuning != "" {
+		var err error
+		if tc, err = parseList(p.tuning); err != nil {
+			return choice{}, usagef("--tuning: %v", err)
+		}
+	}
+	psi, err := fam.New(tc)
+	if err != nil {
+		return choice{}, usageError{err}
+	}
+	if len(tc) == 0 {
+		tc = fam.Defaults
+	}
+	desc := fam.Name
+	for i, n := range fam.Params {
+		desc += fmt.Sprintf(" %s = %g", n, tc[i])
+	}
+	return choice{psi: psi, family: fam, name: fam.Name, tuning: tc, desc: desc}, nil
+}
+
+// parseList parses comma-separated numbers.
+func parseList(s string) ([]float64, error) {
+	var out []float64
+	for _, part := range strings.Split(s, ",") {
+		v, err := strconv.ParseFloat(strings.TrimSpace(part), 64)
+		if err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
+			return nil, fmt.Errorf("%q is not a finite number", part)
+		}
+		out = append(out, v)
+	}
+	return out, nil
+}
+
+// givenFlags returns the names of the flags set on the command line.
+func givenFlags(fs *flag.FlagSet) map[string]bool {
+	given := map[string]bool{}
+	fs.Visit(func(f *flag.Flag) { given[f.Name] = true })
+	return given
+}

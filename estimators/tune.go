@@ -1,0 +1,197 @@
+package estimators
+
+import (
+	"errors"
+	"fmt"
+	"math"
+
+	"gonum.org/v1/gonum/stat/distuv"
+)
+
+// Tuning solves for tuning constants. A family with several constants is
+// tuned along the ray through its defaults: the constants are m times the
+// defaults and m is solved for, so their ratios stay as the defaults have
+// them (Hampel's (2, 4, 8) stays in proportion 1:2:4).
+
+// scaledTuning returns m times the family's defaults.
+func (f Family) scaledTuning(m float64) []float64 {
+	out := make([]float64, len(f.Defaults))
+	for i, d := range f.Defaults {
+		out[i] = m * d
+	}
+	return out
+}
+
+// solveRay finds m > 0 with g(m) = 0 for g monotone in m: two walkers
+// leave m = 1 upwards and downwards in powers of two (at most 2^±20) until
+// one sees the sign
+// of g change; then bisection on log m narrows the bracket.
+func solveRay(g func(m float64) (float64, error)) (float64, error) {
+	g1, err := g(1)
+	if err != nil {
+		return 0, err
+	}
+	if g1 == 0 {
+		return 1, nil
+	}
+	var lo, hi float64
+	found := false
+	for _, factor := range []float64{2, 0.5} {
+		prev := 1.0
+		for step := 0; step < 20 && !found; step++ {
+			m := prev * factor
+			gm, err := g(m)
+			if err == nil && math.Signbit(gm) != math.Signbit(g1) {
+				lo, hi, found = math.Min(prev, m), math.Max(prev, m), true
+			}
+			prev = m
+		}
+		if found {
+			break
+		}
+	}
+	if !found {
+		return 0, errors.New("no multiple of the defaults between 2^-20 and 2^20 reaches the target")
+	}
+	glo, err := g(lo)
+	if err != nil {
+		return 0, err
+	}
+	for i := 0; i < 200 && hi-lo > 1e-13*hi; i++ {
+		mid := math.Sqrt(lo * hi)
+		gm, err := g(mid)
+		if err != nil {
+			return 0, err
+		}
+		if math.Signbit(gm) == math.Signbit(glo) {
+			lo, glo = mid, gm
+		} else {
+			hi = mid
+		}
+	}
+	return math.Sqrt(lo * hi), nil
+}
+
+// TuneEfficiency returns the tuning constants at which the family's psi has
+// asymptotic efficiency target at the normal model (0 < target < 1).
+func (f Family) TuneEfficiency(target float64) ([]float64, error) {
+	if !(target > 0 && target < 1) {
+		return nil, fmt.Errorf("target efficiency must be between 0 and 1 (exclusive), got %v", target)
+	}
+	if len(f.Params) == 0 {
+		return nil, fmt.Errorf("psi family %q has no tuning constant", f.Name)
+	}
+	m, err := solveRay(func(m float64) (float64, error) {
+		psi, err := f.New(f.scaledTuning(m))
+		if err != nil {
+			return 0, err
+		}
+		return EfficiencyAtNormal(psi) - target, nil
+	})
+	if err != nil {
+		return nil, fmt.Errorf("psi family %q: efficiency %v: %w", f.Name, target, err)
+	}
+	return f.scaledTuning(m), nil
+}
+
+// TuneBreakdown returns the tuning constants at which an S-scale built on
+// the family's rho has breakdown point target (0 < target ≤ 0.5), with the
+// consistency constant b = E[rho(Z)]. The family's rho must be bounded.
+func (f Family) TuneBreakdown(target float64) ([]float64, error) {
+	if !(target > 0 && target <= 0.5) {
+		return nil, fmt.Errorf("target breakdown point must be in (0, 0.5], got %v", target)
+	}
+	if len(f.Params) == 0 {
+		return nil, fmt.Errorf("psi family %q has no tuning constant", f.Name)
+	}
+	probe, err := f.New(nil)
+	if err != nil {
+		return nil, err
+	}
+	if _, ok := rhoSup(probe); !ok {
+		return nil, fmt.Errorf("psi family %q has an unbounded rho, so an S-scale built on it has breakdown point 0", f.Name)
+	}
+	m, err := solveRay(func(m float64) (float64, error) {
+		psi, err := f.New(f.scaledTuning(m))
+		if err != nil {
+			return 0, err
+		}
+		rmax, _ := rhoSup(psi)
+		return ScaleConsistency(psi)/rmax - target, nil
+	})
+	if err != nil {
+		return nil, fmt.Errorf("psi family %q: breakdown %v: %w", f.Name, target, err)
+	}
+	return f.scaledTuning(m), nil
+}
+
+// HuberMinimax returns Huber's (1964) minimax constant k for the
+// eps-contaminated normal model, the root of
+//
+//	2φ(k)/k − 2Φ(−k) = eps/(1 − eps),
+//
+// for 0 < eps < 1 (Huber (1964), Ann. Math. Statist. 35:73-101).
+func HuberMinimax(eps float64) (float64, error) {
+	if !(eps > 0 && eps < 1) {
+		return 0, fmt.Errorf("contamination fraction must be between 0 and 1 (exclusive), got %v", eps)
+	}
+	target := eps / (1 - eps)
+	g := func(k float64) float64 {
+		return 2*distuv.UnitNormal.Prob(k)/k - 2*distuv.UnitNormal.CDF(-k) - target
+	}
+	// g decreases from +∞ at k → 0 to 0 at k → ∞.
+	lo, hi := 1e-12, 1.0
+	for g(hi) > 0 {
+		hi *= 2
+		if hi > 1e3 {
+			return 0, fmt.Errorf("no constant for eps = %v", eps)
+		}
+	}
+	for i := 0; i < 300 && hi-lo > 1e-15*hi; i++ {
+		mid := (lo + hi) / 2
+		if g(mid) > 0 {
+			lo = mid
+		} else {
+			hi = mid
+		}
+	}
+	return (lo + hi) / 2, nil
+}
+
+// SweepRow is one row of a tuning sweep.
+type SweepRow struct {
+	Tuning                []float64 `json:"tuning"`
+	Efficiency            float64   `json:"efficiency"`
+	GrossErrorSensitivity float64   `json:"gross_error_sensitivity"`
+	RejectionPoint        float64   `json:"rejection_point"`
+	Breakdown             float64   `json:"breakdown"`
+}
+
+// Sweep returns efficiency, gross-error sensitivity, rejection point and
+// S-scale breakdown point at steps equally spaced values of the first
+// tuning constant from lo to hi; any other constants keep their default
+// proportion to the first.
+func (f Family) Sweep(lo, hi float64, steps int) ([]SweepRow, error) {
+	if len(f.Params) == 0 {
+		return nil, fmt.Errorf("psi family %q has no tuning constant", f.Name)
+	}
+	if !(lo > 0 && hi > lo) || steps < 2 || steps > 10000 {
+		return nil, fmt.Errorf("want 0 < from < to and 2 to 10000 steps, got %v, %v, %d", lo, hi, steps)
+	}
+	var rows []SweepRow
+	for i := 0; i < steps; i++ {
+		first := lo + (hi-lo)*float64(i)/float64(steps-1)
+		tun := f.scaledTuning(first / f.Defaults[0])
+		psi, err := f.New(tun)
+		if err != nil {
+			return nil, err
+		}
+		th, err := Analyse(psi)
+		if err != nil {
+			return nil, fmt.Errorf("at %v: %w", tun, err)
+		}
+		rows = append(rows, SweepRow{Tuning: tun, Efficiency: th.Efficiency,
+			GrossErrorSensitivity: th.GrossErrorSensitivity, RejectionPoint: th.RejectionPoint, Breakdown: th.Breakdown})
+	}
+	return rows, nil
+}
