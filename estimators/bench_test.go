@@ -40,3 +40,28 @@ func BenchmarkFit(b *testing.B) {
 		}
 	}
 }
+
+// BenchmarkHighBreakdown measures the S, MM, LTS and exact LAD fits, n =
+// 100, p = 5, 10% vertical outliers, default settings (500 elemental
+// subsets for p = 5), seeding the workspace per fit as the harness does.
+func BenchmarkHighBreakdown(b *testing.B) {
+	x, y := simulated(42, 100, 5, 0.1)
+	for _, m := range []Method{MethodS, MethodMM, MethodLTS, MethodLAD} {
+		b.Run(m.String(), func(b *testing.B) {
+			e := Estimator{Method: m}
+			var ws Workspace
+			var res Result
+			if err := e.Fit(x, y, &ws, &res); err != nil {
+				b.Fatal(err)
+			}
+			b.ReportAllocs()
+			b.ResetTimer()
+			for i := 0; i < b.N; i++ {
+				ws.SeedRandom(uint64(i), 1)
+				if err := e.Fit(x, y, &ws, &res); err != nil {
+					b.Fatal(err)
+				}
+			}
+		})
+	}
+}

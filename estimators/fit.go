@@ -19,9 +19,17 @@ type Estimator struct {
 	Psi Psi
 	// Scale is the scale rule of an M-estimator; the zero value is ScaleMAD.
 	Scale Scale
-	// Start is the starting coefficient vector; nil means the least-squares
-	// fit. Its length must equal the number of columns of X.
+	// Start is the starting coefficient vector; nil means the estimate of
+	// StartFrom. Its length must equal the number of columns of X.
 	Start []float64
+	// StartFrom is the method whose estimate starts an iterative fit when
+	// Start is nil: MethodLS (the zero value), MethodS, MethodMM, MethodLTS
+	// or MethodLAD. A redescending psi is used safely from a
+	// high-breakdown start.
+	StartFrom Method
+	// Resampling holds the settings of the S, MM and LTS estimators (also
+	// when they serve as a start).
+	Resampling Resampling
 	// Settings holds the stopping rules.
 	Settings Settings
 	// Trace, if not nil, is called after every iteration of an iterative
@@ -105,22 +113,83 @@ func (e Estimator) Fit(x *mat.Dense, y []float64, ws *Workspace, res *Result) er
 	*res = Result{Coefficients: res.Coefficients[:p]}
 	beta := res.Coefficients
 
-	// The least-squares fit is the result of MethodLS and the default start.
-	if e.Method == MethodLS || e.Start == nil {
-		if !ws.leastSquares(raw, y, beta, e.Method == MethodLS) {
-			res.Status = SingularDesign
+	if e.Method.Direct() {
+		ws.direct(e, e.Method, raw, y, res)
+		return nil
+	}
+	// An iterative fit: its start, and the scale that comes with it.
+	if e.Start != nil {
+		copy(beta, e.Start)
+		ws.residuals(raw, y, beta)
+	} else {
+		var start Result
+		start.Coefficients = beta
+		ws.direct(e, e.StartFrom, raw, y, &start)
+		if !start.Status.Converged() {
+			res.Status = start.Status
 			return nil
 		}
-	} else {
-		copy(beta, e.Start)
-	}
-	ws.residuals(raw, y, beta)
-	if e.Method == MethodLS {
-		ws.finishLS(raw, res)
-		return nil
+		if e.Scale.Rule == ScaleStart {
+			if start.Scale == 0 {
+				res.Status, res.Scale = ExactFit, 0
+				return nil
+			}
+			e.Scale = Scale{Rule: ScaleFixed, Value: start.Scale}
+		}
 	}
 	ws.iterate(e, raw, y, res)
 	return nil
+}
+
+// direct computes the estimate of a non-iterative method m into res (the
+// residuals end in ws.r). For MethodMM it runs the S-estimate and the
+// M-step.
+func (ws *Workspace) direct(e Estimator, m Method, x blas64.General, y []float64, res *Result) {
+	beta := res.Coefficients
+	switch m {
+	case MethodLS:
+		if !ws.leastSquares(x, y, beta, e.Method == MethodLS) {
+			res.Status = SingularDesign
+			return
+		}
+		ws.residuals(x, y, beta)
+		ws.finishLS(x, res)
+	case MethodS:
+		res.Scale, res.Iterations, res.Status = ws.sFit(x, y, beta, e.Resampling)
+		res.Objective = res.Scale
+	case MethodMM:
+		scale, its, st := ws.sFit(x, y, beta, e.Resampling)
+		if !st.Converged() {
+			res.Status, res.Iterations = st, its
+			return
+		}
+		if scale == 0 {
+			res.Status, res.Scale = ExactFit, 0
+			return
+		}
+		mm := e
+		if mm.Psi == nil {
+			mm.Psi = Bisquare{C: mmDefaultC}
+		}
+		mm.Scale = Scale{Rule: ScaleFixed, Value: scale}
+		mm.Method = MethodIRLS
+		ws.iterate(mm, x, y, res)
+	case MethodLTS:
+		res.Objective, res.Scale, res.Iterations, res.Status = ws.lts.fit(x, y, beta, ws.rng,
+			ltsSettings{H: e.Resampling.H, Subsets: e.Resampling.Subsets, Keep: e.Resampling.Keep})
+		ws.residuals(x, y, beta)
+	case MethodLAD:
+		res.Iterations, res.Status = ws.lad.fit(x, y, beta, nil)
+		ws.residuals(x, y, beta)
+		var sum float64
+		for _, r := range ws.r {
+			sum += math.Abs(r)
+		}
+		res.Objective = sum
+		res.Scale = MAD(ws.r, ws.buf)
+	default:
+		res.Status = NotRun
+	}
 }
 
 // Fit fits e to x and y with a fresh workspace. It is a convenience for
@@ -145,19 +214,25 @@ func (e Estimator) check(raw blas64.General, y []float64) error {
 		return errors.New("design has no columns")
 	case n < p:
 		return fmt.Errorf("design has %d rows, fewer than its %d columns", n, p)
-	case e.Method != MethodLS && e.Method != MethodIRLS && e.Method != MethodNewton:
+	case e.Method < MethodLS || e.Method > MethodLAD:
 		return fmt.Errorf("unknown method %d", e.Method)
-	case e.Method != MethodLS && e.Psi == nil:
+	case (e.Method == MethodIRLS || e.Method == MethodNewton) && e.Psi == nil:
 		return fmt.Errorf("method %v needs a psi function", e.Method)
+	case !e.StartFrom.Direct():
+		return fmt.Errorf("method %v cannot start an iterative fit; use ls, s-estimate, mm-estimate, lts or lad", e.StartFrom)
+	case e.Resampling.Subsets < 0 || e.Resampling.Keep < 0 || e.Resampling.H < 0 || e.Resampling.SC < 0:
+		return errors.New("resampling settings must not be negative")
+	case e.Resampling.H != 0 && (e.Resampling.H < p || e.Resampling.H > n):
+		return fmt.Errorf("LTS keeps h = %d observations; h must lie between p = %d and n = %d", e.Resampling.H, p, n)
 	case e.Start != nil && len(e.Start) != p:
 		return fmt.Errorf("start has %d coefficients, design has %d columns", len(e.Start), p)
 	}
 	if err := e.Settings.Validate(); err != nil {
 		return err
 	}
-	if e.Method != MethodLS {
+	if e.Method == MethodIRLS || e.Method == MethodNewton {
 		switch e.Scale.Rule {
-		case ScaleMAD:
+		case ScaleMAD, ScaleStart:
 		case ScaleFixed:
 			if !(e.Scale.Value > 0) || math.IsInf(e.Scale.Value, 0) {
 				return fmt.Errorf("fixed scale %v must be a positive finite number", e.Scale.Value)

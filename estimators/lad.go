@@ -14,8 +14,8 @@ import "math"
 // zero residual, so it is capped at 1/Eps. The fixed point IRLS reaches is
 // then the minimiser of this smoothed rho (Huber's rho with k = Eps, divided
 // by Eps), which differs from an exact least-absolute-deviations fit by at
-// most a term of order Eps times the scale. An exact LAD solution by linear
-// programming comes later (issue 4). IRLS converges only linearly for this
+// most a term of order Eps times the scale. MethodLAD computes the exact
+// least-absolute-deviations fit instead. IRLS converges only linearly for this
 // psi, and very slowly where the LAD fit is nearly not unique, so fits
 // often need far more iterations than the default cap.
 //

@@ -134,12 +134,10 @@ const epsilon = 0x1p-52
 // of the normal equations exceeds about 1e10 and the solve falls back to QR.
 const minCholeskyPivot = 1e-10
 
-// choleskySolve solves M d = g for a symmetric p×p matrix M whose upper
-// triangle is stored row-major in m (m[i*p+j], j ≥ i); m is overwritten with
-// the factor and g with the solution. The system is first equilibrated to a
-// unit diagonal with scale (length p, scratch). It reports false when M is
-// not positive definite or too ill-conditioned for the normal equations.
-func choleskySolve(m []float64, p int, g, scale []float64) bool {
+// equilibrate scales the symmetric p×p matrix whose upper triangle is in m
+// to a unit diagonal, writing the scales 1/√M_ii to scale. It reports false
+// when a diagonal element is not positive and finite.
+func equilibrate(m []float64, p int, scale []float64) bool {
 	for i := 0; i < p; i++ {
 		d := m[i*p+i]
 		if !(d > 0) || math.IsInf(d, 0) {
@@ -151,15 +149,20 @@ func choleskySolve(m []float64, p int, g, scale []float64) bool {
 		for j := i; j < p; j++ {
 			m[i*p+j] *= scale[i] * scale[j]
 		}
-		g[i] *= scale[i]
 	}
-	// Upper Cholesky: M = UᵀU, U stored over the upper triangle.
+	return true
+}
+
+// choleskyUpper factorises the symmetric matrix in m (upper triangle) as
+// UᵀU in place. It reports false when a squared pivot is not above
+// minPivot.
+func choleskyUpper(m []float64, p int, minPivot float64) bool {
 	for i := 0; i < p; i++ {
 		s := m[i*p+i]
 		for k := 0; k < i; k++ {
 			s -= m[k*p+i] * m[k*p+i]
 		}
-		if !(s > minCholeskyPivot) {
+		if !(s > minPivot) {
 			return false
 		}
 		uii := math.Sqrt(s)
@@ -171,6 +174,24 @@ func choleskySolve(m []float64, p int, g, scale []float64) bool {
 			}
 			m[i*p+j] = t / uii
 		}
+	}
+	return true
+}
+
+// choleskySolve solves M d = g for a symmetric p×p matrix M whose upper
+// triangle is stored row-major in m (m[i*p+j], j ≥ i); m is overwritten with
+// the factor and g with the solution. The system is first equilibrated to a
+// unit diagonal with scale (length p, scratch). It reports false when M is
+// not positive definite or too ill-conditioned for the normal equations.
+func choleskySolve(m []float64, p int, g, scale []float64) bool {
+	if !equilibrate(m, p, scale) {
+		return false
+	}
+	for i := 0; i < p; i++ {
+		g[i] *= scale[i]
+	}
+	if !choleskyUpper(m, p, minCholeskyPivot) {
+		return false
 	}
 	// Solve Uᵀz = g, then U d = z.
 	for i := 0; i < p; i++ {

@@ -19,6 +19,9 @@ const (
 	ScaleMAD ScaleRule = iota
 	// ScaleFixed holds sigma at a known value throughout the fit.
 	ScaleFixed
+	// ScaleStart holds sigma at the scale of the start estimate (the
+	// S-scale for a start by MethodS, as in an MM-estimator).
+	ScaleStart
 )
 
 // String returns the rule's name as used in scenario files.
@@ -28,6 +31,8 @@ func (s ScaleRule) String() string {
 		return "mad"
 	case ScaleFixed:
 		return "fixed"
+	case ScaleStart:
+		return "start"
 	}
 	return "unknown-scale-rule"
 }

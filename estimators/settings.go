@@ -16,6 +16,23 @@ const (
 	// MethodNewton is Newton's method on the estimating equations, with step
 	// halving and IRLS steps as safeguards.
 	MethodNewton
+	// MethodS is the S-estimator: the coefficients minimising an M-scale of
+	// the residuals built on the bisquare rho, by random elemental subsets
+	// and refinement steps (fast-S, Salibian-Barrera & Yohai (2006),
+	// J. Comput. Graph. Statist. 15:414-427). With the default c = 1.547
+	// its breakdown point is 50%.
+	MethodS
+	// MethodMM is the MM-estimator (Yohai (1987), Ann. Statist.
+	// 15:642-656): an S-estimate and its scale, then an M-step by IRLS from
+	// the S-estimate with the scale held fixed; the default psi is the
+	// bisquare with c = 4.685 (95% efficiency).
+	MethodMM
+	// MethodLTS is least trimmed squares by FAST-LTS (Rousseeuw & Van
+	// Driessen (2006), Data Min. Knowl. Discov. 12:29-45).
+	MethodLTS
+	// MethodLAD is least absolute deviations solved exactly by a
+	// simplex-type vertex descent.
+	MethodLAD
 )
 
 // String returns the method's name as used in scenario files: "ls", "irls"
@@ -28,18 +45,58 @@ func (m Method) String() string {
 		return "irls"
 	case MethodNewton:
 		return "newton"
+	case MethodS:
+		return "s-estimate"
+	case MethodMM:
+		return "mm-estimate"
+	case MethodLTS:
+		return "lts"
+	case MethodLAD:
+		return "lad"
 	}
 	return "unknown-method"
 }
 
 // ParseMethod returns the Method named by s.
 func ParseMethod(s string) (Method, bool) {
-	for _, m := range []Method{MethodLS, MethodIRLS, MethodNewton} {
+	for _, m := range Methods() {
 		if m.String() == s {
 			return m, true
 		}
 	}
 	return 0, false
+}
+
+// Methods returns every method.
+func Methods() []Method {
+	return []Method{MethodLS, MethodIRLS, MethodNewton, MethodS, MethodMM, MethodLTS, MethodLAD}
+}
+
+// Direct reports whether the method computes its estimate without a psi of
+// the user's (least squares, S, LTS, exact LAD), so that it can serve as
+// the start of an M-estimator.
+func (m Method) Direct() bool {
+	switch m {
+	case MethodLS, MethodS, MethodMM, MethodLTS, MethodLAD:
+		return true
+	}
+	return false
+}
+
+// Resampling are the settings of the estimators that draw random elemental
+// subsets (S, MM, LTS). Zero values mean the documented defaults.
+type Resampling struct {
+	// Subsets is the number of random elemental subsets; zero means
+	// ElementalSubsets(p).
+	Subsets int
+	// Keep is the number of best candidates refined fully; zero means 5
+	// for S and 10 for LTS.
+	Keep int
+	// SC is the bisquare constant of the S-scale; zero means 1.547 (50%
+	// breakdown point, Rousseeuw & Yohai (1984)).
+	SC float64
+	// H is the number of observations LTS keeps; zero means ⌊(n+p+1)/2⌋.
+	H int
 }
 
 // Rule is a set of stopping rules, combined with bitwise or.

@@ -2,6 +2,7 @@ package estimators
 
 import (
 	"math"
+	"math/rand/v2"
 
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/blas64"
@@ -31,6 +32,40 @@ type Workspace struct {
 	baseOK bool      // base holds XᵀX of the current fit
 	nOff   int       // rows whose weight in ws.c differs from 1
 	off    []int     // n, the indices of those rows (first nOff entries)
+
+	// Resampling estimators.
+	pcg       *rand.PCG  // the workspace's random stream
+	rng       *rand.Rand // draws from pcg
+	subset    []int      // p, rows of an elemental subset
+	cand      []float64  // keep×p, candidate coefficients
+	candScale []float64  // keep, candidate scales
+	sC, sB    float64    // cached bisquare constant and its consistency b
+	lts       ltsWork    // least trimmed squares
+	lad       ladWork    // exact least absolute deviations
+}
+
+// SeedRandom seeds the workspace's random stream, from which resampling
+// estimators (S, MM, LTS) draw their elemental subsets. Seeding it before
+// every fit makes that fit's result depend only on the seed; an unseeded
+// workspace starts from a fixed seed.
+func (ws *Workspace) SeedRandom(s1, s2 uint64) {
+	if ws.pcg == nil {
+		ws.pcg = rand.NewPCG(s1, s2)
+		ws.rng = rand.New(ws.pcg)
+		return
+	}
+	ws.pcg.Seed(s1, s2)
+}
+
+// reserveCandidates sizes the candidate buffers.
+func (ws *Workspace) reserveCandidates(keep, p int) {
+	if cap(ws.cand) < keep*p {
+		ws.cand = make([]float64, keep*p)
+	}
+	if cap(ws.candScale) < keep {
+		ws.candScale = make([]float64, keep)
+	}
+	ws.cand, ws.candScale = ws.cand[:keep*p], ws.candScale[:keep]
 }
 
 // reserve sizes the buffers for an n×p problem.
@@ -46,6 +81,13 @@ func (ws *Workspace) reserve(n, p int) {
 	for _, s := range []*[]float64{&ws.qy, &ws.r, &ws.q, &ws.psi, &ws.c, &ws.buf} {
 		grow(s, n)
 	}
+	if ws.pcg == nil {
+		ws.SeedRandom(0x5eed, 0xfeed)
+	}
+	if cap(ws.subset) < p {
+		ws.subset = make([]int, p)
+	}
+	ws.subset = ws.subset[:p]
 	if cap(ws.off) < n {
 		ws.off = make([]int, n)
 	}
@@ -131,6 +173,51 @@ func (ws *Workspace) finishLS(x blas64.General, res *Result) {
 		}
 		res.EquationNorm = ws.equationNorm(x)
 	}
+}
+
+// inverseGramDiag writes the diagonal of (XᵀX)⁻¹ to d: XᵀX is formed (or
+// taken from the fit's cache), equilibrated and factorised by Cholesky, and
+// each diagonal element is the squared norm of a row of the inverse factor.
+// It reports false when XᵀX is not positive definite.
+func (ws *Workspace) inverseGramDiag(x blas64.General, d []float64) bool {
+	p := ws.p
+	if !ws.baseOK {
+		clear(ws.base)
+		for i := 0; i < ws.n; i++ {
+			rankTwo(ws.base, x, i, i, p, 1, 0)
+		}
+		ws.baseOK = true
+	}
+	m := ws.m
+	copy(m, ws.base)
+	scale := ws.pscale
+	if !equilibrate(m, p, scale) || !choleskyUpper(m, p, 0) {
+		return false
+	}
+	// Column by column of V = U⁻¹ (upper triangular), accumulating the
+	// squared row norms into d.
+	clear(d)
+	col := ws.delta
+	for j := 0; j < p; j++ {
+		// Solve U v = e_j for v (only v[0..j] are non-zero).
+		for i := j; i >= 0; i-- {
+			var s float64
+			if i == j {
+				s = 1
+			}
+			for k := i + 1; k <= j; k++ {
+				s -= m[i*p+k] * col[k]
+			}
+			col[i] = s / m[i*p+i]
+		}
+		for i := 0; i <= j; i++ {
+			d[i] += col[i] * col[i]
+		}
+	}
+	for i := range d {
+		d[i] *= scale[i] * scale[i]
+	}
+	return true
 }
 
 // columnRMS sets ws.rms to the root mean square of each column of x.

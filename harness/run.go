@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"math"
 	"math/rand/v2"
 	"runtime"
 	"sync"
@@ -11,6 +12,7 @@ import (
 	"time"
 
 	"gonum.org/v1/gonum/mat"
+	"gonum.org/v1/gonum/stat/distuv"
 
 	"github.com/rhomark/rhomark/estimators"
 	"github.com/rhomark/rhomark/results"
@@ -47,7 +49,13 @@ type cellPlan struct {
 	ref        int // index of the reference estimator
 	replicates int
 	blocks     int
+	firstSlope int     // index of the first slope (1 with an intercept)
+	tq, zq     float64 // 97.5% quantiles of Student t (n−p df) and the normal
+	threshold  float64 // breakdown threshold on the slope error norm; 0 if none
 }
+
+// slopes returns the number of slopes.
+func (p *cellPlan) slopes() int { return len(p.truth) - p.firstSlope }
 
 // Run runs every cell of the study and returns the results. If ctx is
 // cancelled, Run stops at the next replicate, and returns the results of
@@ -81,8 +89,8 @@ func Run(ctx context.Context, st *scenarios.Study, opt Options) (*results.Result
 	}
 	tallies := make([]*cellTally, len(plans))
 	locks := make([]sync.Mutex, len(plans))
-	for i, p := range plans {
-		tallies[i] = newCellTally(len(p.ests), len(p.truth))
+	for i := range plans {
+		tallies[i] = newCellTally(len(plans[i].ests), len(plans[i].truth), plans[i].slopes())
 	}
 	var next atomic.Int64
 	var done atomic.Int64
@@ -128,6 +136,7 @@ func Run(ctx context.Context, st *scenarios.Study, opt Options) (*results.Result
 	}
 	wg.Wait()
 	res := summarise(st, plans, tallies, seed, reps)
+	res.Breakdown = breakdownView(st.Cells[0].Scenario.Breakdown, res)
 	res.Tool = opt.Tool
 	res.Provenance = provenance(workers, started, plans, tallies)
 	if failure != nil {
@@ -164,6 +173,15 @@ func plan(st *scenarios.Study, reps int) ([]cellPlan, error) {
 			return nil, fmt.Errorf("cell %d: %w", i, err)
 		}
 		p := cellPlan{cell: c, gen: g, truth: g.Truth(), replicates: reps, blocks: (reps + blockSize - 1) / blockSize}
+		if !c.Scenario.Model.Intercept.None {
+			p.firstSlope = 1
+		}
+		n, k := g.Dims()
+		p.tq = distuv.StudentsT{Mu: 0, Sigma: 1, Nu: float64(n - k)}.Quantile(0.975)
+		p.zq = distuv.UnitNormal.Quantile(0.975)
+		if b := c.Scenario.Breakdown; b != nil {
+			p.threshold = b.Threshold
+		}
 		for j, spec := range c.Scenario.Estimators {
 			e, err := spec.Build()
 			if err != nil {
@@ -190,6 +208,7 @@ type worker struct {
 	scratch *scenarios.Scratch
 	ws      []estimators.Workspace
 	res     []estimators.Result
+	se      []float64 // standard errors of one fit
 	tally   *cellTally
 	err     error // a fit failed in a way that is not a status
 }
@@ -206,7 +225,8 @@ func newWorker(p *cellPlan, seed uint64, cell int) *worker {
 		scratch: p.gen.NewScratch(),
 		ws:      make([]estimators.Workspace, len(p.ests)),
 		res:     make([]estimators.Result, len(p.ests)),
-		tally:   newCellTally(len(p.ests), k),
+		se:      make([]float64, k),
+		tally:   newCellTally(len(p.ests), k, p.slopes()),
 	}
 }
 
@@ -233,6 +253,9 @@ func (w *worker) replicate(r int) {
 	w.pcg.Seed(ReplicateStream(w.seed, w.cell, r))
 	p.gen.Draw(w.pcg, w.x, w.y, w.scratch)
 	for i := range p.ests {
+		// Each estimator's own randomness (elemental subsets) comes from a
+		// stream of its own for this replicate.
+		w.ws[i].SeedRandom(EstimatorStream(w.seed, w.cell, r, i))
 		t0 := time.Now()
 		if err := p.ests[i].Fit(w.x, w.y, &w.ws[i], &w.res[i]); err != nil {
 			if !errors.Is(err, estimators.ErrNonFinite) {
@@ -258,11 +281,38 @@ func (w *worker) replicate(r int) {
 			continue
 		}
 		et := &w.tally.ests[i]
+		var norm2 float64
 		for j, b := range res.Coefficients {
 			e := b - p.truth[j]
 			et.coefs[j].add(e)
 			if refOK {
 				et.coefs[j].addPair(e, ref.Coefficients[j]-p.truth[j])
+			}
+			if j >= p.firstSlope {
+				norm2 += e * e
+			}
+		}
+		if et.cross != nil {
+			k := 0
+			for a := p.firstSlope; a < len(p.truth); a++ {
+				ea := res.Coefficients[a] - p.truth[a]
+				for b := a + 1; b < len(p.truth); b++ {
+					et.cross[k].AddProduct(ea, res.Coefficients[b]-p.truth[b])
+					k++
+				}
+			}
+		}
+		if p.threshold > 0 && norm2 > p.threshold*p.threshold {
+			et.past++
+		}
+		if w.ws[i].StandardErrors(p.ests[i], w.x, res, w.se) {
+			q := p.zq
+			if p.ests[i].Method == estimators.MethodLS {
+				q = p.tq
+			}
+			for j, b := range res.Coefficients {
+				half := q * w.se[j]
+				et.coefs[j].addInterval(2*half, math.Abs(b-p.truth[j]) <= half)
 			}
 		}
 	}

@@ -6,6 +6,8 @@ import (
 	"runtime/debug"
 	"time"
 
+	"gonum.org/v1/gonum/stat/distuv"
+
 	"github.com/rhomark/rhomark/estimators"
 	"github.com/rhomark/rhomark/results"
 	"github.com/rhomark/rhomark/scenarios"
@@ -48,6 +50,11 @@ func summarise(st *scenarios.Study, plans []cellPlan, tallies []*cellTally, seed
 				Convergence:      convergence(et),
 				TheoryEfficiency: results.Num(theory[j]),
 			}
+			est.SlopeBias = slopeBias(p, et)
+			if p.threshold > 0 {
+				r := results.Wilson(et.past, et.coefs[0].n)
+				est.PastThreshold = &r
+			}
 			for k, name := range names {
 				c := coefficient(name, p.truth[k], &et.coefs[k])
 				c.TheoryGap = results.Num((float64(c.RelEff.Value) - theory[j]) / float64(c.RelEff.MCSE))
@@ -84,26 +91,62 @@ func cellTheory(p cellPlan) []float64 {
 		}
 	}
 	sd := *sc.Noise.Scale
+	n, _ := p.gen.Dims()
 	abs := make([]float64, len(p.ests))
 	for i, e := range p.ests {
-		switch e.Method {
-		case estimators.MethodLS:
-			abs[i] = 1
-		case estimators.MethodIRLS, estimators.MethodNewton:
-			kappa := 1.0
-			if e.Scale.Rule == estimators.ScaleFixed {
-				kappa = sd / e.Scale.Value
-			}
-			a, b := estimators.Moments(e.Psi, kappa)
-			abs[i] = b * b / a
-		default:
-			abs[i] = math.NaN()
-		}
+		abs[i] = methodTheory(e, sd, n, len(p.truth))
 	}
 	for i := range out {
 		out[i] = abs[i] / abs[p.ref]
 	}
 	return out
+}
+
+// methodTheory returns the asymptotic efficiency at the normal with noise SD
+// sd of an estimator against least squares. Scales estimated from the data
+// (MAD, S, LTS, the start's) are consistent at the normal, so residuals are
+// standardised by sd itself; a fixed scale S standardises by S.
+func methodTheory(e estimators.Estimator, sd float64, n, p int) float64 {
+	eff := func(psi estimators.Psi, kappa float64) float64 {
+		a, b := estimators.Moments(psi, kappa)
+		return b * b / a
+	}
+	switch e.Method {
+	case estimators.MethodLS:
+		return 1
+	case estimators.MethodIRLS, estimators.MethodNewton:
+		kappa := 1.0
+		if e.Scale.Rule == estimators.ScaleFixed {
+			kappa = sd / e.Scale.Value
+		}
+		return eff(e.Psi, kappa)
+	case estimators.MethodMM:
+		psi := e.Psi
+		if psi == nil {
+			psi = estimators.Bisquare{C: 4.685}
+		}
+		return eff(psi, 1)
+	case estimators.MethodS:
+		c := e.Resampling.SC
+		if c == 0 {
+			c = 1.547
+		}
+		return eff(estimators.Bisquare{C: c}, 1)
+	case estimators.MethodLTS:
+		// LTS keeping a fraction α of the data is asymptotically the
+		// M-estimator with psi(u) = u·1(|u| ≤ q), q = Φ⁻¹((1+α)/2)
+		// (common practice): its efficiency is α − 2qφ(q), about 7.1% at
+		// α = 1/2.
+		h := e.Resampling.H
+		if h == 0 {
+			h = (n + p + 1) / 2
+		}
+		q := distuv.UnitNormal.Quantile((1 + float64(h)/float64(n)) / 2)
+		return eff(estimators.Talwar{C: q}, 1)
+	case estimators.MethodLAD:
+		return 2 / math.Pi // the median's efficiency (common practice)
+	}
+	return math.NaN()
 }
 
 // coefficient computes the measures of one coefficient.
@@ -124,6 +167,15 @@ func coefficient(name string, truth float64, t *coefTally) results.Coefficient {
 		c.EmpSE = m.EmpSE()
 		c.MSE = m.MeanSquaredError()
 	}
+	c.Intervals = t.nInt
+	c.Coverage, c.Width = nan, nan
+	if t.nInt > 0 {
+		n := float64(t.nInt)
+		cov := float64(t.covered) / n
+		c.Coverage = results.Measure{Value: results.Num(cov), MCSE: results.Num(math.Sqrt(cov * (1 - cov) / n))}
+		w := t.w1.Float64() / n
+		c.Width = results.Measure{Value: results.Num(w), MCSE: results.Num(math.Sqrt(math.Max(0, centred(&t.w1, &t.w2, t.nInt)) / (n * (n - 1))))}
+	}
 	if t.np > 1 {
 		pr := results.Paired{
 			N:   t.np,
@@ -134,6 +186,56 @@ func coefficient(name string, truth float64, t *coefTally) results.Coefficient {
 		c.RelEff = pr.RelativeEfficiency()
 	}
 	return c
+}
+
+// slopeBias returns the norm of the slope bias vector b with the
+// delta-method MCSE √(uᵀΣu/n), u = b/‖b‖ and Σ the covariance of the slope
+// errors (√(tr Σ/n) when b = 0). Beyond maxCrossSlopes slopes the cross
+// covariances are not kept and Σ is taken as diagonal.
+func slopeBias(p cellPlan, et *estTally) results.Measure {
+	nan := results.Num(math.NaN())
+	first := p.firstSlope
+	k := len(p.truth) - first
+	if k == 0 || et.coefs[first].n < 2 {
+		return results.Measure{Value: nan, MCSE: nan}
+	}
+	n := et.coefs[first].n
+	nf := float64(n)
+	b := make([]float64, k)
+	var norm2 float64
+	for j := 0; j < k; j++ {
+		b[j] = et.coefs[first+j].s1.Float64() / nf
+		norm2 += b[j] * b[j]
+	}
+	cov := func(a, c int) float64 {
+		ta, tc := &et.coefs[first+a], &et.coefs[first+c]
+		if a == c {
+			return centred(&ta.s1, &ta.s2, n) / (nf - 1)
+		}
+		if et.cross == nil {
+			return 0
+		}
+		if a > c {
+			a, c = c, a
+		}
+		// Index of (a, c), a < c, in the row-by-row upper triangle.
+		idx := a*k - a*(a+1)/2 + (c - a - 1)
+		return crossCentred(&ta.s1, &tc.s1, &et.cross[idx], n) / (nf - 1)
+	}
+	norm := math.Sqrt(norm2)
+	var v float64
+	if norm == 0 {
+		for j := 0; j < k; j++ {
+			v += cov(j, j)
+		}
+	} else {
+		for a := 0; a < k; a++ {
+			for c := 0; c < k; c++ {
+				v += b[a] / norm * cov(a, c) * b[c] / norm
+			}
+		}
+	}
+	return results.Measure{Value: results.Num(norm), MCSE: results.Num(math.Sqrt(math.Max(0, v) / nf))}
 }
 
 // convergence summarises the statuses and iterations of one estimator.

@@ -19,6 +19,20 @@ type coefTally struct {
 	np                 int64
 	pa1, pb1, pa2, pb2 exactsum.Sum
 	pab                exactsum.Sum
+	// 95% intervals: how many, how many covered the truth, Σwidth, Σwidth².
+	nInt, covered int64
+	w1, w2        exactsum.Sum
+}
+
+// addInterval records one interval of width w that did or did not cover
+// the true value.
+func (t *coefTally) addInterval(w float64, covered bool) {
+	t.nInt++
+	if covered {
+		t.covered++
+	}
+	t.w1.Add(w)
+	t.w2.AddProduct(w, w)
 }
 
 // add records one converged fit's error e.
@@ -43,8 +57,8 @@ func (t *coefTally) addPair(a, b float64) {
 
 // reset empties the tally, keeping the sums' storage.
 func (t *coefTally) reset() {
-	t.n, t.np = 0, 0
-	for _, s := range []*exactsum.Sum{&t.s1, &t.s2, &t.s4, &t.pa1, &t.pb1, &t.pa2, &t.pb2, &t.pab} {
+	t.n, t.np, t.nInt, t.covered = 0, 0, 0, 0
+	for _, s := range []*exactsum.Sum{&t.s1, &t.s2, &t.s4, &t.pa1, &t.pb1, &t.pa2, &t.pb2, &t.pab, &t.w1, &t.w2} {
 		s.Reset()
 	}
 }
@@ -60,6 +74,10 @@ func (t *coefTally) merge(u *coefTally) {
 	t.pa2.Merge(&u.pa2)
 	t.pb2.Merge(&u.pb2)
 	t.pab.Merge(&u.pab)
+	t.nInt += u.nInt
+	t.covered += u.covered
+	t.w1.Merge(&u.w1)
+	t.w2.Merge(&u.w2)
 }
 
 // estTally accumulates the fits of one estimator in one cell.
@@ -74,13 +92,27 @@ type estTally struct {
 	qrSolves  int64
 	nanos     int64 // wall time spent fitting (not deterministic)
 	coefs     []coefTally
+	// cross holds Σ e_j e_k over converged fits for slope pairs j < k
+	// (upper triangle, row by row), for the MCSE of the slope-bias norm;
+	// nil when there are more than maxCrossSlopes slopes.
+	cross []exactsum.Sum
+	// past counts converged fits whose slope error norm exceeds the
+	// breakdown threshold.
+	past int64
 }
+
+// maxCrossSlopes bounds the slopes whose cross moments are kept.
+const maxCrossSlopes = 16
 
 // statusSlots bounds the Status values counted.
 const statusSlots = 32
 
-func newEstTally(p int) estTally {
-	return estTally{coefs: make([]coefTally, p)}
+func newEstTally(p, slopes int) estTally {
+	t := estTally{coefs: make([]coefTally, p)}
+	if slopes <= maxCrossSlopes {
+		t.cross = make([]exactsum.Sum, slopes*(slopes-1)/2)
+	}
+	return t
 }
 
 // record adds one fit's outcome.
@@ -122,8 +154,12 @@ func (t *estTally) merge(u *estTally) {
 	t.fallbacks += u.fallbacks
 	t.qrSolves += u.qrSolves
 	t.nanos += u.nanos
+	t.past += u.past
 	for i := range t.coefs {
 		t.coefs[i].merge(&u.coefs[i])
+	}
+	for i := range t.cross {
+		t.cross[i].Merge(&u.cross[i])
 	}
 }
 
@@ -133,10 +169,10 @@ type cellTally struct {
 	ests       []estTally
 }
 
-func newCellTally(estimators, p int) *cellTally {
+func newCellTally(estimators, p, slopes int) *cellTally {
 	c := &cellTally{ests: make([]estTally, estimators)}
 	for i := range c.ests {
-		c.ests[i] = newEstTally(p)
+		c.ests[i] = newEstTally(p, slopes)
 	}
 	return c
 }
@@ -153,12 +189,15 @@ func (c *cellTally) reset() {
 	c.replicates = 0
 	for i := range c.ests {
 		e := &c.ests[i]
-		coefs, hist := e.coefs, e.iterHist
+		coefs, hist, cross := e.coefs, e.iterHist, e.cross
 		clear(hist)
 		for j := range coefs {
 			coefs[j].reset()
 		}
-		*e = estTally{coefs: coefs, iterHist: hist}
+		for j := range cross {
+			cross[j].Reset()
+		}
+		*e = estTally{coefs: coefs, iterHist: hist, cross: cross}
 	}
 }
 

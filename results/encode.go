@@ -57,6 +57,7 @@ func WriteCSV(w io.Writer, r *Results) error {
 		"estimator", "method", "psi", "tuning", "coefficient", "true", "replicates", "used",
 		"mean", "mean_mcse", "bias", "bias_mcse", "emp_se", "emp_se_mcse", "mse", "mse_mcse",
 		"rel_eff", "rel_eff_mcse", "paired", "theory_efficiency", "theory_gap_mcse",
+		"intervals", "coverage", "coverage_mcse", "width", "width_mcse", "slope_bias", "slope_bias_mcse",
 		"failure_rate", "failure_low", "failure_high", "mean_iterations", "mean_iterations_mcse", "median_iterations", "max_iterations")
 	if err := cw.Write(header); err != nil {
 		return err
@@ -81,6 +82,9 @@ func WriteCSV(w io.Writer, r *Results) error {
 					csvFloat(float64(k.MSE.Value)), csvFloat(float64(k.MSE.MCSE)),
 					csvFloat(float64(k.RelEff.Value)), csvFloat(float64(k.RelEff.MCSE)),
 					strconv.FormatInt(k.Paired, 10), csvFloat(float64(e.TheoryEfficiency)), csvFloat(float64(k.TheoryGap)),
+					strconv.FormatInt(k.Intervals, 10), csvFloat(float64(k.Coverage.Value)), csvFloat(float64(k.Coverage.MCSE)),
+					csvFloat(float64(k.Width.Value)), csvFloat(float64(k.Width.MCSE)),
+					csvFloat(float64(e.SlopeBias.Value)), csvFloat(float64(e.SlopeBias.MCSE)),
 					csvFloat(float64(cv.FailureRate.Value)), csvFloat(float64(cv.FailureRate.Low)), csvFloat(float64(cv.FailureRate.High)),
 					csvFloat(float64(cv.MeanIterations.Value)), csvFloat(float64(cv.MeanIterations.MCSE)), csvFloat(float64(cv.MedianIterations)), strconv.FormatInt(cv.MaxIterations, 10))
 				if err := cw.Write(row); err != nil {
@@ -91,4 +95,55 @@ func WriteCSV(w io.Writer, r *Results) error {
 	}
 	cw.Flush()
 	return cw.Error()
+}
+
+// WriteBiasCSV writes the figure-ready bias-curve table of r: one row per
+// group of cells and estimator, with the fraction, the mean and worst
+// slope-bias norm over the swept positions and their MCSEs, where the worst
+// case sits, and the rate of replicates past the breakdown threshold. It
+// writes nothing and reports false when r has no breakdown view.
+func WriteBiasCSV(w io.Writer, r *Results) (bool, error) {
+	b := r.Breakdown
+	if b == nil {
+		return false, nil
+	}
+	cw := csv.NewWriter(w)
+	var paths []string
+	if len(b.Curve) > 0 {
+		for _, s := range b.Curve[0].Settings {
+			if s.Path != b.Fraction {
+				paths = append(paths, s.Path)
+			}
+		}
+	}
+	header := append([]string{"scenario"}, paths...)
+	header = append(header, "fraction", "estimator", "bias", "bias_mcse", "worst_bias", "worst_bias_mcse", "worst_at", "past_threshold", "past_low", "past_high")
+	if err := cw.Write(header); err != nil {
+		return true, err
+	}
+	for _, pt := range b.Curve {
+		row := []string{r.Scenario.Name}
+		for _, s := range pt.Settings {
+			if s.Path != b.Fraction {
+				row = append(row, s.Value)
+			}
+		}
+		var at []string
+		for _, s := range pt.WorstAt {
+			at = append(at, s.Path+"="+s.Value)
+		}
+		past := []string{"NA", "NA", "NA"}
+		if pt.PastThreshold != nil {
+			past = []string{csvFloat(float64(pt.PastThreshold.Value)), csvFloat(float64(pt.PastThreshold.Low)), csvFloat(float64(pt.PastThreshold.High))}
+		}
+		row = append(row, csvFloat(pt.Fraction), pt.Estimator,
+			csvFloat(float64(pt.Bias.Value)), csvFloat(float64(pt.Bias.MCSE)),
+			csvFloat(float64(pt.Worst.Value)), csvFloat(float64(pt.Worst.MCSE)), strings.Join(at, ";"))
+		row = append(row, past...)
+		if err := cw.Write(row); err != nil {
+			return true, err
+		}
+	}
+	cw.Flush()
+	return true, cw.Error()
 }

@@ -29,6 +29,9 @@ type Results struct {
 	Reference string `json:"reference"`
 	// Cells holds one entry per cell of the scenario, in order.
 	Cells []Cell `json:"cells"`
+	// Breakdown holds the bias curves and empirical breakdown points when
+	// the scenario asks for them.
+	Breakdown *Breakdown `json:"breakdown,omitempty"`
 	// Provenance records when, where and how fast the run happened. It is
 	// the only part of Results that differs between two runs of the same
 	// scenario and seed.
@@ -89,6 +92,12 @@ type Estimator struct {
 	TheoryEfficiency Num `json:"theory_efficiency"`
 	// Coefficients holds the performance of each coefficient.
 	Coefficients []Coefficient `json:"coefficients"`
+	// SlopeBias is the Euclidean norm of the bias of the slopes (every
+	// coefficient but the intercept), with a delta-method MCSE.
+	SlopeBias Measure `json:"slope_bias"`
+	// PastThreshold is the rate of replicates whose slope error norm
+	// exceeds the scenario's breakdown threshold (absent without one).
+	PastThreshold *Rate `json:"past_threshold,omitempty"`
 	// Convergence summarises how the fits ended.
 	Convergence Convergence `json:"convergence"`
 }
@@ -116,6 +125,13 @@ type Coefficient struct {
 	RelEff Measure `json:"rel_eff"`
 	// Paired is the number of replicates RelEff is computed from.
 	Paired int64 `json:"paired"`
+	// Intervals is the number of replicates with a 95% interval (fits that
+	// converged, by a method with standard errors).
+	Intervals int64 `json:"intervals"`
+	// Coverage is the fraction of those intervals that contain the true
+	// value, and Width their mean width, each with its MCSE.
+	Coverage Measure `json:"coverage"`
+	Width    Measure `json:"width"`
 	// TheoryGap is (RelEff − TheoryEfficiency) / MCSE of RelEff: how far,
 	// in Monte Carlo standard errors, the simulation lies from the
 	// asymptotic theory; null where there is no theory.
@@ -215,4 +231,52 @@ type Timing struct {
 	Cell       int     `json:"cell"`
 	Estimator  string  `json:"estimator"`
 	SecondsPer float64 `json:"seconds_per_fit"`
+}
+
+// Breakdown is the bias-curve view of a run: the norm of the slope bias
+// against the contamination fraction, the worst case over the swept
+// positions, and the smallest fraction at which each estimator breaks down.
+type Breakdown struct {
+	// Fraction is the swept path of the contamination fraction.
+	Fraction string `json:"fraction"`
+	// WorstOver lists the swept paths the worst case is taken over.
+	WorstOver []string `json:"worst_over,omitempty"`
+	// Threshold is the slope-bias norm that counts as breakdown (0: none).
+	Threshold float64 `json:"threshold,omitempty"`
+	// Curve holds one point per group of cells (cells that differ only in
+	// the worst-over paths) and estimator.
+	Curve []BiasPoint `json:"curve"`
+	// Points holds, per estimator and group of the other sweeps, the
+	// smallest fraction whose worst bias exceeds the threshold.
+	Points []BreakdownPoint `json:"points,omitempty"`
+}
+
+// BiasPoint is one point of a bias curve.
+type BiasPoint struct {
+	// Settings are the group's swept values other than the worst-over
+	// paths (the fraction among them).
+	Settings  []Setting `json:"settings"`
+	Fraction  float64   `json:"fraction"`
+	Estimator string    `json:"estimator"`
+	// Bias is the mean, over the group's positions, of the slope-bias
+	// norm; Worst the largest, at WorstAt (the worst-over values).
+	Bias    Measure   `json:"bias"`
+	Worst   Measure   `json:"worst"`
+	WorstAt []Setting `json:"worst_at,omitempty"`
+	// PastThreshold is the rate of replicates past the threshold in the
+	// worst cell.
+	PastThreshold *Rate `json:"past_threshold,omitempty"`
+}
+
+// BreakdownPoint is the empirical breakdown of one estimator.
+type BreakdownPoint struct {
+	// Settings are the swept values other than the fraction and the
+	// worst-over paths.
+	Settings  []Setting `json:"settings,omitempty"`
+	Estimator string    `json:"estimator"`
+	// Fraction is the smallest swept fraction whose worst slope-bias norm
+	// exceeds the threshold; null if none does.
+	Fraction Num `json:"fraction"`
+	// PastThreshold is the rate of replicates past the threshold there.
+	PastThreshold *Rate `json:"past_threshold,omitempty"`
 }

@@ -10,7 +10,8 @@ import (
 )
 
 // Save writes r into dir as NAME.json, NAME.csv and NAME.txt (the terminal
-// table), NAME being the scenario's name, and returns the paths written.
+// table), and NAME-bias.csv (the bias curves) when the scenario asks for
+// them, NAME being the scenario's name, and returns the paths written.
 // Each file is written atomically: to a temporary file in dir, synced, then
 // renamed over the old one, so a failed write leaves any previous file
 // intact.
@@ -29,6 +30,12 @@ func Save(dir string, r *Results) ([]string, error) {
 		{".json", func(w io.Writer) error { return WriteJSON(w, r) }},
 		{".csv", func(w io.Writer) error { return WriteCSV(w, r) }},
 		{".txt", func(w io.Writer) error { return WriteTable(w, r, 80) }},
+	}
+	if r.Breakdown != nil {
+		outputs = append(outputs, struct {
+			ext   string
+			write func(io.Writer) error
+		}{"-bias.csv", func(w io.Writer) error { _, err := WriteBiasCSV(w, r); return err }})
 	}
 	var paths []string
 	for _, o := range outputs {

@@ -26,6 +26,7 @@ func WriteTable(w io.Writer, r *Results, width int) error {
 	for _, c := range r.Cells {
 		writeCellBlock(b, r, c, width)
 	}
+	writeBreakdown(b, r, width)
 	_, err := io.WriteString(w, b.String())
 	return err
 }
@@ -120,6 +121,38 @@ func writeEstimator(b *strings.Builder, r *Results, e Estimator, width int) {
 	if hasTheory {
 		b.WriteString("   (gap: simulated minus asymptotic efficiency, in Monte Carlo SEs)\n")
 	}
+	writeCoverage(b, e, width)
+	if sb := e.SlopeBias; !math.IsNaN(float64(sb.Value)) && len(e.Coefficients) > 2 {
+		line := "   slope bias norm " + pm(sb, false)
+		if pt := e.PastThreshold; pt != nil {
+			v, _ := FormatMeasure(Measure{Value: pt.Value * 100, MCSE: 0.05}, false)
+			line += fmt.Sprintf(" · past threshold in %s%% of replicates", v)
+		}
+		b.WriteString(line + "\n")
+	}
+}
+
+// writeCoverage writes the coverage of the 95% intervals, wrapped to width.
+func writeCoverage(b *strings.Builder, e Estimator, width int) {
+	var parts []string
+	for _, k := range e.Coefficients {
+		if k.Intervals == 0 {
+			return
+		}
+		parts = append(parts, k.Name+" "+pm(k.Coverage, false))
+	}
+	if len(parts) == 0 {
+		return
+	}
+	line := "   95% intervals cover:"
+	for _, p := range parts {
+		if runeLen(line)+1+runeLen(p)+1 > width {
+			b.WriteString(line + "\n")
+			line = "     "
+		}
+		line += " " + p + ","
+	}
+	b.WriteString(strings.TrimSuffix(line, ",") + "\n")
 }
 
 // row writes one coefficient row, without trailing blanks; a column whose
@@ -149,3 +182,58 @@ func pm(m Measure, signed bool) string {
 }
 
 func runeLen(s string) int { return len([]rune(s)) }
+
+// writeBreakdown writes the bias curves and breakdown points, if any.
+func writeBreakdown(b *strings.Builder, r *Results, width int) {
+	bd := r.Breakdown
+	if bd == nil || len(bd.Curve) == 0 {
+		return
+	}
+	b.WriteString("\n")
+	rule := "── bias curves: slope-bias norm against " + bd.Fraction + " "
+	b.WriteString(rule + strings.Repeat("─", max(0, width-runeLen(rule))) + "\n")
+	head := fmt.Sprintf("   %-9s %-16s %-22s", "fraction", "estimator", "bias")
+	if len(bd.WorstOver) > 0 {
+		head += " worst over positions"
+	}
+	b.WriteString(strings.TrimRight(head, " ") + "\n")
+	last := ""
+	for _, pt := range bd.Curve {
+		var rest []string
+		for _, s := range pt.Settings {
+			if s.Path != bd.Fraction {
+				rest = append(rest, s.Path+" = "+s.Value)
+			}
+		}
+		if key := strings.Join(rest, ", "); key != last && key != "" {
+			b.WriteString("   " + key + "\n")
+			last = key
+		}
+		line := fmt.Sprintf("   %-9g %-16s %-22s", pt.Fraction, pt.Estimator, pm(pt.Bias, false))
+		if len(bd.WorstOver) > 0 {
+			line += " " + pm(pt.Worst, false)
+		}
+		b.WriteString(strings.TrimRight(line, " ") + "\n")
+	}
+	if len(bd.Points) > 0 {
+		fmt.Fprintf(b, "\n   breakdown (worst slope-bias norm above %g) first reached at:\n", bd.Threshold)
+		for _, p := range bd.Points {
+			frac := "not within the swept fractions"
+			if !math.IsNaN(float64(p.Fraction)) {
+				frac = fmt.Sprintf("fraction %g", float64(p.Fraction))
+				if p.PastThreshold != nil {
+					frac += fmt.Sprintf(" (%.0f%% of replicates past it)", float64(p.PastThreshold.Value)*100)
+				}
+			}
+			var rest []string
+			for _, s := range p.Settings {
+				rest = append(rest, s.Path+" = "+s.Value)
+			}
+			where := ""
+			if len(rest) > 0 {
+				where = " [" + strings.Join(rest, ", ") + "]"
+			}
+			fmt.Fprintf(b, "   %-16s %s%s\n", p.Estimator, frac, where)
+		}
+	}
+}

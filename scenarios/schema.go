@@ -29,11 +29,32 @@ type Scenario struct {
 	// are measured against. Default: the first least-squares estimator, or
 	// else the first estimator.
 	Reference string `yaml:"reference" json:"reference"`
+	// Breakdown says how to read the sweeps as bias curves: which swept
+	// field is the contamination fraction, which sweeps place the
+	// contamination (the worst of them is reported), and the bias beyond
+	// which an estimator counts as broken down.
+	Breakdown *Breakdown `yaml:"breakdown" json:"breakdown,omitempty"`
 	// Vary sweeps fields over lists of values: a mapping from a field path
 	// (for example contamination.spikes.fraction) to the list of values it
 	// takes. The study runs the cross product of all lists, one cell per
 	// combination, the first path varying slowest.
 	Vary Vary `yaml:"vary" json:"vary,omitempty"`
+}
+
+// Breakdown configures bias curves and empirical breakdown.
+type Breakdown struct {
+	// Fraction is the swept path of the contamination fraction. Default:
+	// the only swept path ending in ".fraction".
+	Fraction string `yaml:"fraction" json:"fraction"`
+	// WorstOver lists swept paths (positions of point-mass contamination,
+	// for example contamination.far.at and contamination.far.response)
+	// over which the largest bias is reported for each fraction.
+	WorstOver []string `yaml:"worst-over" json:"worst_over,omitempty"`
+	// Threshold is the norm of the slope bias beyond which an estimator is
+	// said to have broken down; the smallest fraction past it is reported,
+	// with the rate of replicates whose slope error exceeds it. Default 0:
+	// not reported.
+	Threshold float64 `yaml:"threshold" json:"threshold,omitempty"`
 }
 
 // Model is the clean linear model y = intercept + Σ slope_j x_j + noise.
@@ -162,21 +183,47 @@ type EstimatorSpec struct {
 	// Label names the estimator in results; unique. Default: method and
 	// psi, for example irls-huber.
 	Label string `yaml:"label" json:"label"`
-	// Method is ls (least squares by QR), irls or newton.
+	// Method is ls (least squares by QR), irls or newton for an M-estimator,
+	// or one of the high-breakdown comparators: s-estimate (bisquare
+	// S-estimator, 50% breakdown), mm-estimate (S start and scale, then a
+	// bisquare M-step at 95% efficiency), lts (least trimmed squares) or lad
+	// (least absolute deviations, solved exactly).
 	Method string `yaml:"method" json:"method"`
-	// Psi is the psi family of an M-estimator (irls, newton).
+	// Psi is the psi of an M-estimator (irls, newton; for mm-estimate the
+	// psi of the M-step, default bisquare 4.685).
 	Psi PsiSpec `yaml:"psi" json:"psi,omitempty"`
 	// Tuning is the family's tuning constant(s): one number or a list.
 	// Default: the family's default.
 	Tuning Numbers `yaml:"tuning" json:"tuning,omitempty"`
-	// Scale is mad (re-estimated every iteration) or fixed:S for a known
-	// scale S. Default mad.
+	// Scale is mad (re-estimated every iteration), fixed:S for a known
+	// scale S, or start (held at the scale of the start estimate). Default
+	// mad.
 	Scale ScaleSpec `yaml:"scale" json:"scale,omitempty"`
-	// Start is ls (the least-squares fit) or a list of coefficients,
+	// Start is the method whose estimate starts an M-estimator (ls,
+	// s-estimate, mm-estimate, lts, lad) or a list of coefficients,
 	// intercept first. Default ls.
 	Start StartSpec `yaml:"start" json:"start,omitempty"`
+	// Resampling tunes the estimators that draw elemental subsets
+	// (s-estimate, mm-estimate, lts, and starts by them).
+	Resampling *Resampling `yaml:"resampling" json:"resampling,omitempty"`
 	// Stop holds the stopping rules.
 	Stop Stop `yaml:"stop" json:"stop"`
+}
+
+// Resampling are the settings of the resampling estimators.
+type Resampling struct {
+	// Subsets is the number of random elemental subsets. Default: enough
+	// for a clean subset with probability 0.99 at 50% contamination, at
+	// least 500 and at most 10,000.
+	Subsets int `yaml:"subsets" json:"subsets,omitempty"`
+	// Keep is how many best candidates are refined fully. Default 5 (S) or
+	// 10 (LTS).
+	Keep int `yaml:"keep" json:"keep,omitempty"`
+	// SC is the bisquare constant of the S-scale. Default 1.547 (50%
+	// breakdown point).
+	SC float64 `yaml:"s-tuning" json:"s_tuning,omitempty"`
+	// H is the number of observations LTS keeps. Default ⌊(n+p+1)/2⌋.
+	H int `yaml:"h" json:"h,omitempty"`
 }
 
 // Stop holds the stopping rules of an iterative fit. If neither change nor

@@ -128,7 +128,10 @@ func (s *Scenario) fillDefaults(d *decoder, defaultName string) {
 				e.Method = "irls"
 			}
 		}
-		if e.Method != "ls" {
+		if e.Method == "mm-estimate" && e.Psi.IsZero() {
+			e.Psi = PsiSpec{Family: "bisquare"}
+		}
+		if m, ok := estimators.ParseMethod(e.Method); ok && !m.Direct() || e.Method == "mm-estimate" {
 			if f, ok := estimators.LookupFamily(e.Psi.Family); ok && len(e.Tuning) == 0 && e.Psi.Custom == nil {
 				e.Tuning = append(Numbers(nil), f.Defaults...)
 			}
@@ -154,6 +157,17 @@ func (s *Scenario) fillDefaults(d *decoder, defaultName string) {
 			if labels[base] > 1 {
 				e.Label = fmt.Sprintf("%s-%d", base, labels[base])
 			}
+		}
+	}
+	if b := s.Breakdown; b != nil && b.Fraction == "" {
+		var fractions []string
+		for _, sw := range s.Vary {
+			if strings.HasSuffix(sw.Path, ".fraction") {
+				fractions = append(fractions, sw.Path)
+			}
+		}
+		if len(fractions) == 1 {
+			b.Fraction = fractions[0]
 		}
 	}
 	if s.Reference == "" && len(s.Estimators) > 0 {
@@ -222,6 +236,37 @@ func (s *Scenario) validate(d *decoder, limits Limits) {
 	s.validateNoise(c)
 	s.validateContamination(c)
 	s.validateEstimators(c)
+	s.validateBreakdown(c)
+}
+
+// validateBreakdown checks the breakdown section against the sweeps.
+func (s *Scenario) validateBreakdown(c checker) {
+	b := s.Breakdown
+	if b == nil {
+		return
+	}
+	swept := map[string]bool{}
+	var fractions []string
+	for _, sw := range s.Vary {
+		swept[sw.Path] = true
+		if strings.HasSuffix(sw.Path, ".fraction") {
+			fractions = append(fractions, sw.Path)
+		}
+	}
+	switch {
+	case b.Fraction == "":
+		c.fail("breakdown.fraction", "name the swept contamination fraction (swept fractions: %s)", strings.Join(fractions, ", "))
+	case !swept[b.Fraction]:
+		c.fail("breakdown.fraction", "%q is not swept under vary", b.Fraction)
+	}
+	for i, w := range b.WorstOver {
+		if !swept[w] || w == b.Fraction {
+			c.fail(fmt.Sprintf("breakdown.worst-over[%d]", i), "%q must be a swept path other than the fraction", w)
+		}
+	}
+	if !(b.Threshold >= 0) {
+		c.fail("breakdown.threshold", "must be ≥ 0, got %v", b.Threshold)
+	}
 }
 
 func (s *Scenario) validateModel(c checker, limits Limits) {
@@ -456,16 +501,37 @@ func (s *Scenario) validateEstimators(c checker) {
 		labels[e.Label] = true
 		m, ok := estimators.ParseMethod(e.Method)
 		if !ok {
-			c.fail(path+".method", "unknown method %q; want ls, irls or newton", e.Method)
+			c.fail(path+".method", "unknown method %q; want %s", e.Method, strings.Join(methodNames(), ", "))
 			continue
 		}
-		if m == estimators.MethodLS {
+		if rs := e.Resampling; rs != nil {
+			if rs.Subsets < 0 || rs.Subsets > 1_000_000 {
+				c.fail(path+".resampling.subsets", "must be from 1 to 1000000, got %d", rs.Subsets)
+			}
+			if rs.Keep < 0 || rs.Keep > 1000 {
+				c.fail(path+".resampling.keep", "must be from 1 to 1000, got %d", rs.Keep)
+			}
+			if rs.SC < 0 {
+				c.fail(path+".resampling.s-tuning", "must be positive, got %v", rs.SC)
+			}
+			if rs.H != 0 && (rs.H < p || rs.H > s.Model.N) {
+				c.fail(path+".resampling.h", "LTS keeps h observations, between the %d coefficients and n = %d; got %d", p, s.Model.N, rs.H)
+			}
+		}
+		if m.Direct() && m != estimators.MethodMM {
 			for _, key := range []string{"psi", "tuning", "scale", "start", "stop"} {
 				if c.d.given(path + "." + key) {
-					c.fail(path+"."+key, "is not used by method ls (least squares has no psi, scale, start or stopping rule)")
+					c.fail(path+"."+key, "is not used by method %s (it has no psi, scale, start or stopping rule of its own)", e.Method)
 				}
 			}
 			continue
+		}
+		if m == estimators.MethodMM {
+			for _, key := range []string{"scale", "start"} {
+				if c.d.given(path + "." + key) {
+					c.fail(path+"."+key, "is not used by method mm-estimate (its start and scale are the S-estimate's)")
+				}
+			}
 		}
 		if e.Psi.IsZero() {
 			c.fail(path+".psi", "missing: method %s needs a psi family (%s) or a mapping with expr", e.Method, strings.Join(estimators.FamilyNames(), ", "))
@@ -499,6 +565,9 @@ func (s *Scenario) validateEstimators(c checker) {
 				c.fail(path+".tuning", "%v", err)
 			}
 		}
+		if e.Scale.Start && e.Start.Coefficients != nil {
+			c.fail(path+".scale", "scale: start needs a start method (s-estimate, lts, ...), not given coefficients")
+		}
 		if e.Start.Coefficients != nil && len(e.Start.Coefficients) != p {
 			c.fail(path+".start", "want %d starting coefficients (%s), got %d", p, strings.Join(s.CoefficientNames(), ", "), len(e.Start.Coefficients))
 		}
@@ -529,7 +598,10 @@ func (e EstimatorSpec) Build() (estimators.Estimator, error) {
 		return estimators.Estimator{}, fmt.Errorf("estimator %s: unknown method %q", e.Label, e.Method)
 	}
 	out := estimators.Estimator{Method: m}
-	if m == estimators.MethodLS {
+	if rs := e.Resampling; rs != nil {
+		out.Resampling = estimators.Resampling{Subsets: rs.Subsets, Keep: rs.Keep, SC: rs.SC, H: rs.H}
+	}
+	if m.Direct() && m != estimators.MethodMM {
 		return out, nil
 	}
 	psi, err := e.BuildPsi()
@@ -537,10 +609,16 @@ func (e EstimatorSpec) Build() (estimators.Estimator, error) {
 		return out, err
 	}
 	out.Psi = psi
-	if e.Scale.Fixed {
+	switch {
+	case e.Scale.Fixed:
 		out.Scale = estimators.Scale{Rule: estimators.ScaleFixed, Value: e.Scale.Value}
+	case e.Scale.Start:
+		out.Scale = estimators.Scale{Rule: estimators.ScaleStart}
 	}
 	out.Start = e.Start.Coefficients
+	if e.Start.From != "" {
+		out.StartFrom, _ = estimators.ParseMethod(e.Start.From)
+	}
 	var s estimators.Settings
 	if e.Stop.Change != nil {
 		s.Rules |= estimators.RuleChange
@@ -584,6 +662,15 @@ func (e EstimatorSpec) BuildPsi() (estimators.Psi, error) {
 		return nil, fmt.Errorf("estimator %s: %w", e.Label, err)
 	}
 	return psi, nil
+}
+
+// methodNames lists every method name.
+func methodNames() []string {
+	var out []string
+	for _, m := range estimators.Methods() {
+		out = append(out, m.String())
+	}
+	return out
 }
 
 func (s *Scenario) columnIndex(name string) int {

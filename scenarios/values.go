@@ -221,8 +221,11 @@ func (c *CustomPsi) Spec() estimators.CustomSpec {
 	return s
 }
 
-// ScaleSpec is the scale rule: mad, or fixed:S.
+// ScaleSpec is the scale rule: mad, fixed:S, or start (held at the scale
+// of the start estimate, as in an MM-estimator).
 type ScaleSpec struct {
+	// Start is set to hold the scale at the start estimate's.
+	Start bool
 	// Fixed is set for a known scale.
 	Fixed bool
 	// Value is the known scale when Fixed.
@@ -232,8 +235,11 @@ type ScaleSpec struct {
 // ParseScale parses "mad" or "fixed:S" (S a positive number), the form shared
 // by scenario files and the command line.
 func ParseScale(s string) (ScaleSpec, error) {
-	if s == "mad" {
+	switch s {
+	case "mad":
 		return ScaleSpec{}, nil
+	case "start":
+		return ScaleSpec{Start: true}, nil
 	}
 	if rest, ok := strings.CutPrefix(s, "fixed:"); ok {
 		f, err := strconv.ParseFloat(strings.TrimSpace(rest), 64)
@@ -241,7 +247,7 @@ func ParseScale(s string) (ScaleSpec, error) {
 			return ScaleSpec{Fixed: true, Value: f}, nil
 		}
 	}
-	return ScaleSpec{}, fmt.Errorf("want mad or fixed:S with S a positive number (for example fixed:0.5), got %q", s)
+	return ScaleSpec{}, fmt.Errorf("want mad, start, or fixed:S with S a positive number (for example fixed:0.5), got %q", s)
 }
 
 func (v *ScaleSpec) decodeNode(d *decoder, n *yaml.Node, path string) {
@@ -261,8 +267,11 @@ func (v *ScaleSpec) decodeNode(d *decoder, n *yaml.Node, path string) {
 	*v = sc
 }
 
-// String returns "mad" or "fixed:S".
+// String returns "mad", "start" or "fixed:S".
 func (v ScaleSpec) String() string {
+	if v.Start {
+		return "start"
+	}
 	if v.Fixed {
 		return "fixed:" + strconv.FormatFloat(v.Value, 'g', -1, 64)
 	}
@@ -272,17 +281,32 @@ func (v ScaleSpec) String() string {
 // MarshalJSON encodes the scale rule as in the file.
 func (v ScaleSpec) MarshalJSON() ([]byte, error) { return json.Marshal(v.String()) }
 
-// StartSpec is the start of an iterative fit: ls, or given coefficients.
+// StartSpec is the start of an iterative fit: the name of a method whose
+// estimate starts it (ls, s-estimate, mm-estimate, lts, lad), or given
+// coefficients.
 type StartSpec struct {
-	// Coefficients is the given start, intercept first; nil means ls.
+	// From names the starting method; "" means ls.
+	From string
+	// Coefficients is the given start, intercept first; nil unless given.
 	Coefficients []float64
+}
+
+// startMethods are the methods that can start an iterative fit.
+func startMethods() []string {
+	var out []string
+	for _, m := range estimators.Methods() {
+		if m.Direct() {
+			out = append(out, m.String())
+		}
+	}
+	return out
 }
 
 func (v *StartSpec) decodeNode(d *decoder, n *yaml.Node, path string) {
 	if n.Kind == yaml.SequenceNode {
 		var nums Numbers
 		nums.decodeNode(d, n, path)
-		v.Coefficients = nums
+		*v = StartSpec{Coefficients: nums}
 		if v.Coefficients == nil {
 			v.Coefficients = []float64{}
 		}
@@ -292,22 +316,29 @@ func (v *StartSpec) decodeNode(d *decoder, n *yaml.Node, path string) {
 	if !ok {
 		return
 	}
-	if s != "ls" {
-		d.fail(n, path, "want ls or a list of starting coefficients (intercept first), got %q", s)
+	m, ok := estimators.ParseMethod(s)
+	if !ok || !m.Direct() {
+		d.fail(n, path, "want %s, or a list of starting coefficients (intercept first), got %q", strings.Join(startMethods(), ", "), s)
 		return
 	}
-	*v = StartSpec{}
+	*v = StartSpec{From: s}
+	if s == "ls" {
+		v.From = ""
+	}
 }
 
 // IsZero reports the default start.
-func (v StartSpec) IsZero() bool { return v.Coefficients == nil }
+func (v StartSpec) IsZero() bool { return v.Coefficients == nil && v.From == "" }
 
-// MarshalJSON encodes the start as "ls" or a list.
+// MarshalJSON encodes the start as a method name or a list.
 func (v StartSpec) MarshalJSON() ([]byte, error) {
-	if v.Coefficients == nil {
+	if v.Coefficients != nil {
+		return json.Marshal(v.Coefficients)
+	}
+	if v.From == "" {
 		return []byte(`"ls"`), nil
 	}
-	return json.Marshal(v.Coefficients)
+	return json.Marshal(v.From)
 }
 
 // Vary is the ordered list of sweeps of a scenario.

@@ -42,6 +42,7 @@ func commands() []command {
 		{"theory", "asymptotic efficiency, gross-error sensitivity and more for a psi", theoryCmd},
 		{"tune", "solve for tuning constants: efficiency, minimax or breakdown targets", tuneCmd},
 		{"check-psi", "check that a psi (built-in or your own expression) is well formed", checkPsiCmd},
+		{"breakdown", "measure each estimator's finite-sample replacement breakdown point", breakdownCmd},
 	}
 }
 

@@ -283,3 +283,69 @@ func TestFitCustomPsi(t *testing.T) {
 		t.Errorf("intercept %v", c)
 	}
 }
+
+func TestFitHighBreakdown(t *testing.T) {
+	// Hawkins, Bradu & Kass (1984), Technometrics 26:197-208: rows 1-10 are
+	// bad leverage points; an MM fit leaves the clean intercept near 0 and
+	// least squares does not (the estimators package checks residuals).
+	for _, m := range []string{"s-estimate", "mm-estimate", "lts", "lad"} {
+		code, out, errs := rhomark(t, "fit", "../../testdata/refdata/hbk.csv", "--y", "Y", "--method", m, "--json")
+		if code != exitOK {
+			t.Fatalf("%s: exit %d: %s", m, code, errs)
+		}
+		var got fitOutput
+		json.Unmarshal([]byte(out), &got)
+		if !got.Fits[0].Converged {
+			t.Errorf("%s: %+v", m, got.Fits[0])
+		}
+	}
+	code, out, _ := rhomark(t, "fit", "../../testdata/refdata/hbk.csv", "--y", "Y", "--psi", "bisquare", "--start", "s-estimate", "--scale", "start", "--json")
+	var viaStart fitOutput
+	json.Unmarshal([]byte(out), &viaStart)
+	code2, out2, _ := rhomark(t, "fit", "../../testdata/refdata/hbk.csv", "--y", "Y", "--method", "mm-estimate", "--json")
+	var mm fitOutput
+	json.Unmarshal([]byte(out2), &mm)
+	if code != exitOK || code2 != exitOK || viaStart.Fits[0].Coefficients["X1"] != mm.Fits[0].Coefficients["X1"] {
+		t.Errorf("bisquare from the S-estimate with its scale should equal MM: %v vs %v", viaStart.Fits[0].Coefficients, mm.Fits[0].Coefficients)
+	}
+	if code, _, _ := rhomark(t, "fit", "../../testdata/refdata/hbk.csv", "--y", "Y", "--method", "lts", "--psi", "huber"); code != exitUsage {
+		t.Errorf("--psi with lts: exit %d", code)
+	}
+}
+
+func TestBreakdownCommand(t *testing.T) {
+	dir := t.TempDir()
+	scen := filepath.Join(dir, "bd.yaml")
+	os.WriteFile(scen, []byte(`
+model: {n: 30, intercept: 1, columns: [{name: x, slope: 1}]}
+noise: {dist: normal}
+estimators:
+  - {label: ls, method: ls}
+  - {label: s, method: s-estimate, resampling: {subsets: 200}}
+`), 0o644)
+	code, out, errs := rhomark(t, "breakdown", scen, "--directions", "2", "--json")
+	if code != exitOK {
+		t.Fatalf("exit %d: %s", code, errs)
+	}
+	var got struct {
+		Breakdown []struct {
+			Estimator string
+			M         int
+			N         int
+		}
+	}
+	if err := json.Unmarshal([]byte(out), &got); err != nil || len(got.Breakdown) != 2 {
+		t.Fatalf("%v: %s", err, out)
+	}
+	// Rousseeuw & Leroy (1987), from memory: least squares 1/n; the S-
+	// estimator (⌊(n−p)/2⌋+1)/n = 15/30 here.
+	if got.Breakdown[0].M != 1 || got.Breakdown[1].M != 15 {
+		t.Errorf("breakdown m: %+v", got.Breakdown)
+	}
+	if code, out, _ := rhomark(t, "breakdown", scen, "--data", "../../testdata/refdata/stars_cyg.csv", "--y", "log.light"); code != exitOK || !strings.Contains(out, "stars_cyg.csv") {
+		t.Errorf("--data: exit %d\n%s", code, out)
+	}
+	if code, _, _ := rhomark(t, "breakdown", scen, "--cell", "5"); code != exitUsage {
+		t.Errorf("bad cell: exit %d", code)
+	}
+}

@@ -53,9 +53,11 @@ func fitCmd(e env, args []string) error {
 	xCols := fs.String("x", "", "predictor `columns`, comma-separated (default: every other numeric column)")
 	group := fs.String("group", "", "fit once per value of this `column`")
 	noIntercept := fs.Bool("no-intercept", false, "fit without an intercept")
-	method := fs.String("method", "irls", "`method`: ls, irls or newton")
+	method := fs.String("method", "irls", "`method`: ls, irls, newton, s-estimate, mm-estimate, lts or lad")
+	start := fs.String("start", "ls", "`method` whose estimate starts irls or newton: ls, s-estimate, mm-estimate, lts or lad")
 	pf := addPsiFlags(fs, "huber")
-	scale := fs.String("scale", "mad", "scale `rule`: mad, or fixed:S for a known scale S")
+	scale := fs.String("scale", "mad", "scale `rule`: mad, start (held at the start's scale), or fixed:S for a known scale S")
+	seed := fs.Uint64("seed", 1, "`seed` of the random subsets of s-estimate, mm-estimate and lts")
 	tol := fs.Float64("tol", estimators.DefaultChangeTol, "stop when the relative change in coefficients is below `T`")
 	maxIter := fs.Int("max-iter", estimators.DefaultMaxIterations, "iteration cap `N`")
 	asJSON := fs.Bool("json", false, "print JSON instead of a table")
@@ -69,7 +71,7 @@ func fitCmd(e env, args []string) error {
 	if *yCol == "" {
 		return usagef("--y is required: the name of the response column")
 	}
-	est, desc, err := buildFitEstimator(*method, pf, *scale, *tol, *maxIter, givenFlags(fs))
+	est, desc, err := buildFitEstimator(*method, *start, pf, *scale, *tol, *maxIter, givenFlags(fs))
 	if err != nil {
 		return err
 	}
@@ -113,7 +115,10 @@ func fitCmd(e env, args []string) error {
 			}
 		}
 		fj := fitJSON{Group: g.name, Rows: len(g.rows), Order: names}
-		res, err := estimators.Fit(est, x, y)
+		var ws estimators.Workspace
+		var res estimators.Result
+		ws.SeedRandom(*seed, 0)
+		err := est.Fit(x, y, &ws, &res)
 		if err != nil {
 			fj.Status, fj.Error = "not-fitted", err.Error()
 			failed++
@@ -143,19 +148,29 @@ func fitCmd(e env, args []string) error {
 }
 
 // buildFitEstimator turns fit's options into an estimator.
-func buildFitEstimator(method string, pf *psiFlags, scale string, tol float64, maxIter int, given map[string]bool) (estimators.Estimator, fitEstimator, error) {
+func buildFitEstimator(method, start string, pf *psiFlags, scale string, tol float64, maxIter int, given map[string]bool) (estimators.Estimator, fitEstimator, error) {
 	m, ok := estimators.ParseMethod(method)
 	if !ok {
-		return estimators.Estimator{}, fitEstimator{}, usagef("--method %q: want ls, irls or newton", method)
+		return estimators.Estimator{}, fitEstimator{}, usagef("--method %q: want ls, irls, newton, s-estimate, mm-estimate, lts or lad", method)
 	}
 	desc := fitEstimator{Method: m.String()}
-	if m == estimators.MethodLS {
-		for _, name := range []string{"psi", "tuning", "psi-expr", "scale", "tol", "max-iter"} {
+	if m.Direct() && m != estimators.MethodMM {
+		for _, name := range []string{"psi", "tuning", "psi-expr", "scale", "tol", "max-iter", "start"} {
 			if given[name] {
-				return estimators.Estimator{}, desc, usagef("--%s is not used with --method ls", name)
+				return estimators.Estimator{}, desc, usagef("--%s is not used with --method %s", name, method)
 			}
 		}
-		return estimators.Estimator{}, desc, nil
+		return estimators.Estimator{Method: m}, desc, nil
+	}
+	from, ok := estimators.ParseMethod(start)
+	if !ok || !from.Direct() {
+		return estimators.Estimator{}, desc, usagef("--start %q: want ls, s-estimate, mm-estimate, lts or lad", start)
+	}
+	if m == estimators.MethodMM && (given["start"] || given["scale"]) {
+		return estimators.Estimator{}, desc, usagef("--start and --scale are not used with --method mm-estimate (its start and scale are the S-estimate's)")
+	}
+	if m == estimators.MethodMM && !given["psi"] && !given["psi-expr"] {
+		pf.family = "bisquare"
 	}
 	ch, err := pf.build(given)
 	if err != nil {
@@ -172,10 +187,13 @@ func buildFitEstimator(method string, pf *psiFlags, scale string, tol float64, m
 	if maxIter < 1 {
 		return estimators.Estimator{}, desc, usagef("--max-iter must be at least 1, got %d", maxIter)
 	}
-	est := estimators.Estimator{Method: m, Psi: psi,
+	est := estimators.Estimator{Method: m, Psi: psi, StartFrom: from,
 		Settings: estimators.Settings{Rules: estimators.RuleChange, ChangeTol: tol, MaxIterations: maxIter}}
-	if sc.Fixed {
+	switch {
+	case sc.Fixed:
 		est.Scale = estimators.Scale{Rule: estimators.ScaleFixed, Value: sc.Value}
+	case sc.Start:
+		est.Scale = estimators.Scale{Rule: estimators.ScaleStart}
 	}
 	desc.Psi, desc.Tuning, desc.Scale = ch.name, tc, sc.String()
 	if ch.name == "custom" {

@@ -1,0 +1,72 @@
+package estimators
+
+import (
+	"math"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// StandardErrors writes to se the standard error of each coefficient of the
+// fit just made with e in ws (res must be that fit's result; ws still holds
+// its residuals) and reports whether they are defined.
+//
+// For least squares they are the classical √(s² [(XᵀX)⁻¹]_jj), s² =
+// RSS/(n−p), for use with Student's t on n−p degrees of freedom. For an
+// M-estimator (IRLS, Newton, the M-step of MM) they come from Huber's
+// estimate of the covariance with his small-sample correction
+// (Huber (1973), "Robust regression: asymptotics, conjectures and Monte
+// Carlo", Ann. Statist. 1:799-821; Huber (1981), Robust Statistics, Wiley,
+// §7.6):
+//
+//	Cov(β̂) ≈ K² · [Σψ(u_i)²/(n−p)] / [Σψ'(u_i)/n]² · σ² (XᵀX)⁻¹,
+//	K = 1 + (p/n) · Var(ψ')/mean(ψ')²,
+//
+// with u_i = r_i/σ at the final fit. S, LTS and exact LAD get none (false),
+// nor do fits that did not converge or whose mean ψ' is not positive.
+func (ws *Workspace) StandardErrors(e Estimator, x *mat.Dense, res *Result, se []float64) bool {
+	raw := x.RawMatrix()
+	n, p := raw.Rows, raw.Cols
+	if !res.Status.Converged() || len(se) < p || n <= p || ws.n != n || ws.p != p {
+		return false
+	}
+	var factor float64
+	switch e.Method {
+	case MethodLS:
+		factor = res.Scale * res.Scale
+	case MethodIRLS, MethodNewton, MethodMM:
+		psi := e.Psi
+		if psi == nil && e.Method == MethodMM {
+			psi = Bisquare{C: mmDefaultC}
+		}
+		sigma := res.Scale
+		if !(sigma > 0) {
+			return false
+		}
+		var s2, s1, s11 float64
+		for _, r := range ws.r {
+			u := r / sigma
+			p := psi.Psi(u)
+			d := psi.Deriv(u)
+			s2 += p * p
+			s1 += d
+			s11 += d * d
+		}
+		nf, pf := float64(n), float64(p)
+		m := s1 / nf
+		if !(m > 0) {
+			return false
+		}
+		v := s11/nf - m*m
+		k := 1 + pf/nf*v/(m*m)
+		factor = k * k * (s2 / (nf - pf)) / (m * m) * sigma * sigma
+	default:
+		return false
+	}
+	if !ws.inverseGramDiag(raw, se[:p]) {
+		return false
+	}
+	for j := range se[:p] {
+		se[j] = math.Sqrt(factor * se[j])
+	}
+	return true
+}

@@ -1,0 +1,76 @@
+package estimators
+
+import (
+	"math"
+	"testing"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// TestStandardErrorsLS compares the least-squares standard errors with the
+// classical formula s·√[(XᵀX)⁻¹]_jj computed independently with gonum's
+// matrix inverse.
+func TestStandardErrorsLS(t *testing.T) {
+	x, y := simulated(12, 60, 4, 0)
+	var ws Workspace
+	var res Result
+	e := Estimator{}
+	if err := e.Fit(x, y, &ws, &res); err != nil {
+		t.Fatal(err)
+	}
+	se := make([]float64, 4)
+	if !ws.StandardErrors(e, x, &res, se) {
+		t.Fatal("no standard errors for least squares")
+	}
+	var xtx, inv mat.Dense
+	xtx.Mul(x.T(), x)
+	if err := inv.Inverse(&xtx); err != nil {
+		t.Fatal(err)
+	}
+	for j := range se {
+		want := res.Scale * math.Sqrt(inv.At(j, j))
+		if math.Abs(se[j]-want) > 1e-10*want {
+			t.Errorf("se[%d] = %v, want %v", j, se[j], want)
+		}
+	}
+}
+
+// TestStandardErrorsHuber: for psi = identity Huber's formula reduces to the
+// classical one (K = 1), which pins the formula; for Huber's psi the
+// standard errors must be close to the least-squares ones on clean data.
+func TestStandardErrorsHuber(t *testing.T) {
+	x, y := simulated(13, 200, 3, 0)
+	var ws, wsLS Workspace
+	var res, resLS Result
+	eLS := Estimator{}
+	eLS.Fit(x, y, &wsLS, &resLS)
+	seLS := make([]float64, 3)
+	wsLS.StandardErrors(eLS, x, &resLS, seLS)
+
+	// IRLS with the least-squares psi and the scale fixed at the residual
+	// SD reproduces least squares exactly.
+	eID := Estimator{Method: MethodIRLS, Psi: LeastSquares{}, Scale: Scale{Rule: ScaleFixed, Value: resLS.Scale}}
+	if err := eID.Fit(x, y, &ws, &res); err != nil {
+		t.Fatal(err)
+	}
+	se := make([]float64, 3)
+	if !ws.StandardErrors(eID, x, &res, se) {
+		t.Fatal("no standard errors")
+	}
+	for j := range se {
+		if math.Abs(se[j]-seLS[j]) > 1e-8*seLS[j] {
+			t.Errorf("identity psi: se[%d] = %v, least squares %v", j, se[j], seLS[j])
+		}
+	}
+	eH := Estimator{Method: MethodIRLS, Psi: Huber{K: 1.345}}
+	eH.Fit(x, y, &ws, &res)
+	ws.StandardErrors(eH, x, &res, se)
+	for j := range se {
+		if r := se[j] / seLS[j]; r < 0.95 || r > 1.15 {
+			t.Errorf("Huber se[%d] / LS se = %v, expected near 1/√0.95 on clean data", j, r)
+		}
+	}
+	if (&Workspace{}).StandardErrors(Estimator{Method: MethodS}, x, &res, se) {
+		t.Error("standard errors claimed for an S-estimate")
+	}
+}
