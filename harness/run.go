@@ -4,9 +4,11 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"io"
 	"math"
 	"math/rand/v2"
 	"runtime"
+	"sort"
 	"sync"
 	"sync/atomic"
 	"time"
@@ -34,6 +36,15 @@ type Options struct {
 	Progress func(done, total int64)
 	// Tool names the program for the results' provenance.
 	Tool results.Tool
+	// KeepReplicates, if not nil, receives the replicate file: every
+	// replicate's estimates, iterations and status (see results). The
+	// blocks are written in cell and replicate order, so the file does not
+	// depend on the number of workers.
+	KeepReplicates io.Writer
+	// Adjust, if not nil, may change each estimator after it is built from
+	// the scenario, without changing the scenario (and so its hash): the way
+	// to run a modified solver against a baseline of the same scenario.
+	Adjust func(cell int, label string, e *estimators.Estimator)
 }
 
 // blockSize is the number of consecutive replicates of one cell in a unit
@@ -77,6 +88,19 @@ func Run(ctx context.Context, st *scenarios.Study, opt Options) (*results.Result
 	if err != nil {
 		return nil, err
 	}
+	if opt.Adjust != nil {
+		for i := range plans {
+			for j, spec := range plans[i].cell.Scenario.Estimators {
+				opt.Adjust(i, spec.Label, &plans[i].ests[j])
+			}
+		}
+	}
+	var keep *orderedBlocks
+	if opt.KeepReplicates != nil {
+		if keep, err = newOrderedBlocks(opt.KeepReplicates, st, plans, seed, reps); err != nil {
+			return nil, err
+		}
+	}
 	started := time.Now()
 
 	// Units are numbered cell by cell; unit u of cell c covers replicates
@@ -116,6 +140,7 @@ func Run(ctx context.Context, st *scenarios.Study, opt Options) (*results.Result
 				p := &plans[ci]
 				if wk == nil || wk.plan != p {
 					wk = newWorker(p, seed, ci)
+					wk.keep = keep != nil
 				}
 				b := u - firstUnit[ci]
 				lo, hi := b*blockSize, min((b+1)*blockSize, p.replicates)
@@ -128,6 +153,9 @@ func Run(ctx context.Context, st *scenarios.Study, opt Options) (*results.Result
 				locks[ci].Lock()
 				tallies[ci].merge(wk.tally)
 				locks[ci].Unlock()
+				if keep != nil {
+					keep.put(u, wk.encodeBlock(ci, lo, hi))
+				}
 				if opt.Progress != nil {
 					opt.Progress(done.Add(int64(hi-lo)), totalReps)
 				}
@@ -135,6 +163,11 @@ func Run(ctx context.Context, st *scenarios.Study, opt Options) (*results.Result
 		}()
 	}
 	wg.Wait()
+	if keep != nil {
+		if err := keep.close(); err != nil && failure == nil {
+			failure = fmt.Errorf("writing the replicate file: %w", err)
+		}
+	}
 	res := summarise(st, plans, tallies, seed, reps)
 	res.Breakdown = breakdownView(st.Cells[0].Scenario.Breakdown, res)
 	res.Tool = opt.Tool
@@ -210,7 +243,13 @@ type worker struct {
 	res     []estimators.Result
 	se      []float64 // standard errors of one fit
 	tally   *cellTally
-	err     error // a fit failed in a way that is not a status
+	// Kept replicates of the current block, when keeping them.
+	keep       bool
+	keepStatus []uint8
+	keepIters  []int
+	keepCoefs  []float64
+	keepBuf    []byte
+	err        error // a fit failed in a way that is not a status
 }
 
 func newWorker(p *cellPlan, seed uint64, cell int) *worker {
@@ -235,6 +274,7 @@ func newWorker(p *cellPlan, seed uint64, cell int) *worker {
 // is then discarded.
 func (w *worker) runBlock(ctx context.Context, lo, hi int) bool {
 	w.tally.reset()
+	w.keepStatus, w.keepIters, w.keepCoefs = w.keepStatus[:0], w.keepIters[:0], w.keepCoefs[:0]
 	for r := lo; r < hi; r++ {
 		if ctx.Err() != nil {
 			return false
@@ -271,6 +311,11 @@ func (w *worker) replicate(r int) {
 		}
 		w.tally.ests[i].nanos += int64(time.Since(t0))
 		w.tally.ests[i].record(&w.res[i])
+		if w.keep {
+			w.keepStatus = append(w.keepStatus, uint8(w.res[i].Status))
+			w.keepIters = append(w.keepIters, w.res[i].Iterations)
+			w.keepCoefs = append(w.keepCoefs, w.res[i].Coefficients...)
+		}
 	}
 	w.tally.replicates++
 	ref := &w.res[p.ref]
@@ -316,4 +361,79 @@ func (w *worker) replicate(r int) {
 			}
 		}
 	}
+}
+
+// encodeBlock encodes the kept replicates of the block [lo, hi) of cell.
+func (w *worker) encodeBlock(cell, lo, hi int) []byte {
+	w.keepBuf = results.EncodeBlock(w.keepBuf[:0], cell, lo, hi-lo, w.keepStatus, w.keepIters, w.keepCoefs, len(w.plan.truth))
+	return append([]byte(nil), w.keepBuf...)
+}
+
+// orderedBlocks writes encoded blocks to a replicate file in unit order,
+// holding back blocks that finish early.
+type orderedBlocks struct {
+	mu      sync.Mutex
+	w       *results.ReplicateWriter
+	next    int
+	pending map[int][]byte
+	err     error
+}
+
+func newOrderedBlocks(dst io.Writer, st *scenarios.Study, plans []cellPlan, seed uint64, reps int) (*orderedBlocks, error) {
+	h := results.ReplicateHeader{Scenario: st.Base.Name, Hash: st.Hash, Seed: seed, Replicates: reps}
+	for s := estimators.NotRun; s.String() != "unknown-status"; s++ {
+		h.Statuses = append(h.Statuses, s.String())
+	}
+	for _, p := range plans {
+		var lay results.ReplicateLayout
+		for _, spec := range p.cell.Scenario.Estimators {
+			lay.Estimators = append(lay.Estimators, spec.Label)
+		}
+		lay.Coefficients = p.cell.Scenario.CoefficientNames()
+		h.Cells = append(h.Cells, lay)
+	}
+	rw, err := results.NewReplicateWriter(dst, h)
+	if err != nil {
+		return nil, err
+	}
+	return &orderedBlocks{w: rw, pending: map[int][]byte{}}, nil
+}
+
+// put hands over unit u's block.
+func (o *orderedBlocks) put(u int, block []byte) {
+	o.mu.Lock()
+	defer o.mu.Unlock()
+	o.pending[u] = block
+	for {
+		b, ok := o.pending[o.next]
+		if !ok {
+			return
+		}
+		if o.err == nil {
+			o.err = o.w.WriteBlock(b)
+		}
+		delete(o.pending, o.next)
+		o.next++
+	}
+}
+
+// close writes any blocks left behind a unit that never finished (an
+// interrupted run), in unit order, and finishes the file.
+func (o *orderedBlocks) close() error {
+	o.mu.Lock()
+	defer o.mu.Unlock()
+	units := make([]int, 0, len(o.pending))
+	for u := range o.pending {
+		units = append(units, u)
+	}
+	sort.Ints(units)
+	for _, u := range units {
+		if o.err == nil {
+			o.err = o.w.WriteBlock(o.pending[u])
+		}
+	}
+	if err := o.w.Close(); o.err == nil {
+		o.err = err
+	}
+	return o.err
 }

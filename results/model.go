@@ -29,6 +29,9 @@ type Results struct {
 	Reference string `json:"reference"`
 	// Cells holds one entry per cell of the scenario, in order.
 	Cells []Cell `json:"cells"`
+	// ReplicateFile names the replicate file kept beside the results (in the
+	// same directory), or is empty.
+	ReplicateFile string `json:"replicate_file,omitempty"`
 	// Breakdown holds the bias curves and empirical breakdown points when
 	// the scenario asks for them.
 	Breakdown *Breakdown `json:"breakdown,omitempty"`

@@ -79,6 +79,9 @@ func WriteFileAtomic(path string, data []byte) error {
 	if _, err := tmp.Write(data); err != nil {
 		return fail(err)
 	}
+	if err := tmp.Chmod(0o644); err != nil {
+		return fail(err)
+	}
 	if err := tmp.Sync(); err != nil {
 		return fail(err)
 	}

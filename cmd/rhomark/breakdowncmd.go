@@ -2,14 +2,12 @@ package main
 
 import (
 	"fmt"
-	"math/rand/v2"
 	"os"
 
 	"gonum.org/v1/gonum/mat"
 
 	"github.com/rhomark/rhomark/harness"
 	"github.com/rhomark/rhomark/internal/csvdata"
-	"github.com/rhomark/rhomark/scenarios"
 )
 
 func breakdownCmd(e env, args []string) error {
@@ -66,13 +64,9 @@ func breakdownCmd(e env, args []string) error {
 		if *rep < 0 {
 			return usagef("--replicate must be ≥ 0")
 		}
-		g, err := scenarios.NewGenerator(sc)
-		if err != nil {
+		if x, y, err = replicateData(sc, st.Base.Seed, *cell, *rep); err != nil {
 			return err
 		}
-		n, p := g.Dims()
-		x, y = mat.NewDense(n, p, nil), make([]float64, n)
-		g.Draw(rand.NewPCG(harness.ReplicateStream(st.Base.Seed, *cell, *rep)), x, y, g.NewScratch())
 	}
 	out, err := harness.MeasureBreakdown(x, y, intercept, ests, harness.ReplacementOptions{Directions: *dirs, Seed: *seed})
 	if err != nil {

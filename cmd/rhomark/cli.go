@@ -43,6 +43,8 @@ func commands() []command {
 		{"tune", "solve for tuning constants: efficiency, minimax or breakdown targets", tuneCmd},
 		{"check-psi", "check that a psi (built-in or your own expression) is well formed", checkPsiCmd},
 		{"breakdown", "measure each estimator's finite-sample replacement breakdown point", breakdownCmd},
+		{"compare", "compare two runs: summary within Monte Carlo error, or paired replicate by replicate", compareCmd},
+		{"replay", "regenerate one replicate's dataset and trace each solver on it", replayCmd},
 	}
 }
 
@@ -86,6 +88,9 @@ func run(args []string, stdin io.Reader, stdout, stderr io.Writer) int {
 func report(stderr io.Writer, cmd string, err error) int {
 	if err == nil || errors.Is(err, flag.ErrHelp) {
 		return exitOK
+	}
+	if errors.As(err, new(changed)) {
+		return exitFailure
 	}
 	var cancelled interrupted
 	status := exitFailure

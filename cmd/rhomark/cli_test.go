@@ -349,3 +349,92 @@ estimators:
 		t.Errorf("bad cell: exit %d", code)
 	}
 }
+
+func TestCompareCommand(t *testing.T) {
+	dir := t.TempDir()
+	a, b := filepath.Join(dir, "a"), filepath.Join(dir, "b")
+	for _, d := range []string{a, b} {
+		if code, _, errs := rhomark(t, "run", "vertical-outliers", "--replicates", "32", "--keep-replicates", "--out", d); code != exitOK {
+			t.Fatal(errs)
+		}
+	}
+	code, out, errs := rhomark(t, "compare", a, b, "--junit", filepath.Join(dir, "junit.xml"))
+	if code != exitOK || !strings.Contains(out, "paired:") {
+		t.Fatalf("identical runs: exit %d %s\n%s", code, errs, out)
+	}
+	junit, _ := os.ReadFile(filepath.Join(dir, "junit.xml"))
+	if !strings.Contains(string(junit), `<testsuite name="rhomark vertical-outliers paired"`) || strings.Contains(string(junit), "<failure") {
+		t.Errorf("JUnit:\n%s", junit)
+	}
+	code, out, _ = rhomark(t, "compare", a, b, "--markdown")
+	if code != exitOK || !strings.HasPrefix(out, "### rhomark compare") {
+		t.Errorf("markdown: %d\n%s", code, out)
+	}
+	// Different scenarios are refused, naming what differs.
+	c := filepath.Join(dir, "c")
+	rhomark(t, "run", "heavy-tails", "--replicates", "8", "--out", c)
+	code, _, errs = rhomark(t, "compare", filepath.Join(a, "vertical-outliers.json"), filepath.Join(c, "heavy-tails.json"))
+	if code != exitUsage || !strings.Contains(errs, "different scenarios") || !strings.Contains(errs, "differ") {
+		t.Errorf("different scenarios: exit %d %q", code, errs)
+	}
+	if code, _, _ := rhomark(t, "compare", a, "/no/such/dir"); code != exitUsage {
+		t.Errorf("missing candidate: exit %d", code)
+	}
+}
+
+// TestReplayReproducesRun: the dataset and fits replay writes are exactly
+// those of the run's replicate.
+func TestReplayReproducesRun(t *testing.T) {
+	dir := t.TempDir()
+	if code, _, errs := rhomark(t, "run", "bad-leverage", "--replicates", "40", "--keep-replicates", "--out", dir); code != exitOK {
+		t.Fatal(errs)
+	}
+	f, err := os.Open(filepath.Join(dir, "bad-leverage.replicates"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	rr, err := results.NewReplicateReader(f)
+	if err != nil {
+		t.Fatal(err)
+	}
+	recorded := map[string][]float64{}
+	for {
+		rec, err := rr.Next()
+		if err != nil {
+			break
+		}
+		if rec.Cell == 2 && rec.Replicate == 33 {
+			recorded[rr.Header.Cells[2].Estimators[rec.Estimator]] = rec.Coefficients
+		}
+	}
+	csvPath := filepath.Join(dir, "replicate.csv")
+	code, out, errs := rhomark(t, "replay", "bad-leverage", "--cell", "2", "--replicate", "33", "--data-out", csvPath, "--json")
+	if code != exitOK {
+		t.Fatal(errs)
+	}
+	var got struct {
+		Fits []replayFit
+	}
+	if err := json.Unmarshal([]byte(out), &got); err != nil {
+		t.Fatal(err)
+	}
+	for _, f := range got.Fits {
+		want := recorded[f.Estimator]
+		for j := range want {
+			if f.Coefficients[j] != want[j] {
+				t.Errorf("%s coefficient %d: replay %v, run %v", f.Estimator, j, f.Coefficients[j], want[j])
+			}
+		}
+		if f.Estimator == "huber" && len(f.Trace) != f.Iterations {
+			t.Errorf("huber: %d trace lines for %d iterations", len(f.Trace), f.Iterations)
+		}
+	}
+	// The written dataset refits to the same least-squares estimate.
+	code, out, _ = rhomark(t, "fit", csvPath, "--y", "y", "--method", "ls", "--json")
+	var fit fitOutput
+	json.Unmarshal([]byte(out), &fit)
+	if code != exitOK || fit.Fits[0].Coefficients["x1"] != recorded["ls"][1] {
+		t.Errorf("refit of the replayed dataset: %v vs %v", fit.Fits[0].Coefficients, recorded["ls"])
+	}
+}

@@ -7,6 +7,7 @@ import (
 	"io/fs"
 	"os"
 	"os/signal"
+	"path/filepath"
 	"strings"
 	"syscall"
 
@@ -23,6 +24,7 @@ func runCmd(e env, args []string) error {
 	seed := fs.String("seed", "", "root seed (`S`; default: the scenario's)")
 	workers := fs.Int("workers", 0, "parallel workers (`W`; default: all cores)")
 	asJSON := fs.Bool("json", false, "print the results as JSON instead of the table")
+	keep := fs.Bool("keep-replicates", false, "with --out, also keep every replicate's estimates, iterations and status in NAME.replicates (for paired comparisons)")
 	pos, err := parseFlags(fs, args)
 	if err != nil {
 		return err
@@ -44,20 +46,51 @@ func runCmd(e env, args []string) error {
 		}
 		opt.Seed = &s
 	}
+	if *keep && *out == "" {
+		return usagef("--keep-replicates needs --out, the directory the replicate file goes to")
+	}
 	st, err := loadScenario(pos[0])
 	if err != nil {
 		return err
+	}
+	var repFile *os.File
+	if *keep {
+		name, err := results.SafeName(st.Base.Name)
+		if err != nil {
+			return err
+		}
+		if err := os.MkdirAll(*out, 0o755); err != nil {
+			return err
+		}
+		if repFile, err = os.CreateTemp(*out, "."+name+".replicates.tmp-*"); err != nil {
+			return fmt.Errorf("cannot write the replicate file: %w", err)
+		}
+		defer os.Remove(repFile.Name()) // a no-op once renamed
+		opt.KeepReplicates = repFile
 	}
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
 	defer stop()
 	res, runErr := harness.Run(ctx, st, opt)
 	if res == nil {
+		if repFile != nil {
+			repFile.Close()
+		}
 		return runErr
+	}
+	if repFile != nil {
+		final := filepath.Join(*out, res.Scenario.Name+".replicates")
+		if err := finishFile(repFile, final); err != nil {
+			return err
+		}
+		res.ReplicateFile = filepath.Base(final)
 	}
 	if *out != "" {
 		paths, err := results.Save(*out, res)
 		if err != nil {
 			return err
+		}
+		if repFile != nil {
+			paths = append(paths, filepath.Join(*out, res.ReplicateFile))
 		}
 		fmt.Fprintf(e.stderr, "rhomark run: wrote %s\n", strings.Join(paths, ", "))
 	}
@@ -73,6 +106,25 @@ func runCmd(e env, args []string) error {
 			return interrupted{"stopped early; the finished replicates were summarised and the results are marked incomplete"}
 		}
 		return runErr
+	}
+	return nil
+}
+
+// finishFile syncs and closes a temporary file and renames it to path.
+func finishFile(f *os.File, path string) error {
+	if err := f.Chmod(0o644); err != nil {
+		f.Close()
+		return fmt.Errorf("cannot write %s: %w", path, err)
+	}
+	if err := f.Sync(); err != nil {
+		f.Close()
+		return fmt.Errorf("cannot write %s: %w", path, err)
+	}
+	if err := f.Close(); err != nil {
+		return fmt.Errorf("cannot write %s: %w", path, err)
+	}
+	if err := os.Rename(f.Name(), path); err != nil {
+		return fmt.Errorf("cannot write %s: %w", path, err)
 	}
 	return nil
 }

@@ -1,0 +1,131 @@
+package harness
+
+import (
+	"bytes"
+	"context"
+	"io"
+	"testing"
+
+	"github.com/rhomark/rhomark/estimators"
+	"github.com/rhomark/rhomark/results"
+)
+
+// runKept runs the flow-meter scenario with 64 replicates, keeping
+// replicates, with an optional solver adjustment.
+func runKept(t *testing.T, workers int, adjust func(int, string, *estimators.Estimator)) (*results.Results, []byte) {
+	t.Helper()
+	st := parse(t, flowMeterLike)
+	var buf bytes.Buffer
+	res, err := Run(context.Background(), st, Options{Workers: workers, Replicates: 64, KeepReplicates: &buf, Adjust: adjust})
+	if err != nil {
+		t.Fatal(err)
+	}
+	return res, buf.Bytes()
+}
+
+const flowMeterLike = `
+seed: 31
+model:
+  n: 40
+  intercept: 0.3
+  columns: [{name: volume, slope: 0.98, dist: levels, levels: [5, 10, 20, 50, 100]}]
+noise: {dist: normal, scale: 0.15, grows-with: {column: volume, rate: 0.01}}
+contamination:
+  - {label: spikes, kind: vertical, fraction: 0.1, shift: 6, spread: 1}
+estimators:
+  - {label: ls, method: ls}
+  - {label: huber, method: irls, psi: huber}
+  - {label: bisquare, method: newton, psi: bisquare}
+  - {label: mm, method: mm-estimate, resampling: {subsets: 50}}
+`
+
+func source(b []byte) results.ReplicateSource {
+	return func() (io.ReadCloser, error) { return io.NopCloser(bytes.NewReader(b)), nil }
+}
+
+// TestPairedCatchesPerturbedSolver: an unchanged solver passes the paired
+// comparison; a looser stopping tolerance (1e-4 instead of 1e-8), a change
+// far below Monte Carlo noise, is caught replicate by replicate.
+func TestPairedCatchesPerturbedSolver(t *testing.T) {
+	base, baseReps := runKept(t, 2, nil)
+	same, sameReps := runKept(t, 1, nil)
+	if !bytes.Equal(baseReps, sameReps) {
+		t.Fatal("replicate files differ between 1 and 2 workers")
+	}
+	c, err := results.Compare(base, same, source(baseReps), source(sameReps), results.CompareOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if c.Flagged() || c.Paired == nil || c.Paired.Fits != 64*4 || c.Paired.MaxAbsDiff != 0 {
+		t.Fatalf("unchanged solver flagged: %+v", c.Paired)
+	}
+
+	loose := func(_ int, label string, e *estimators.Estimator) {
+		if label == "huber" {
+			e.Settings.ChangeTol = 1e-4
+		}
+	}
+	cand, candReps := runKept(t, 2, loose)
+	c, err = results.Compare(base, cand, source(baseReps), source(candReps), results.CompareOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !c.Flagged() || c.Paired.Moved == 0 || c.Paired.IterationChanged == 0 {
+		t.Fatalf("perturbed solver not caught: %+v", c.Paired)
+	}
+	// The estimates move far below Monte Carlo noise: summary mode flags
+	// at most huber's mean iterations, which a looser tolerance really
+	// lowers, and no bias, SE or efficiency.
+	for _, d := range c.Differences {
+		if d.Flagged && !(d.Estimator == "huber" && d.Measure == "mean_iterations") {
+			t.Errorf("summary mode flagged %s %s %s", d.Estimator, d.Coefficient, d.Measure)
+		}
+	}
+	for _, pe := range c.Paired.Estimators {
+		if pe.Estimator != "huber" && (pe.Moved > 0 || pe.IterationChanged > 0) {
+			t.Errorf("estimator %s changed though only huber was perturbed", pe.Estimator)
+		}
+	}
+	var md bytes.Buffer
+	results.WriteComparisonMarkdown(&md, c)
+	if !bytes.Contains(md.Bytes(), []byte("| huber |")) {
+		t.Errorf("Markdown report does not list huber:\n%s", md.String())
+	}
+}
+
+// TestSummaryFlagsRealChange: a change of the tuning constant moves the
+// efficiency and bias beyond Monte Carlo error, and summary mode flags it
+// even across different seeds.
+func TestSummaryFlagsRealChange(t *testing.T) {
+	st := parse(t, flowMeterLike)
+	a, err := Run(context.Background(), st, Options{Replicates: 400})
+	if err != nil {
+		t.Fatal(err)
+	}
+	seed := uint64(99)
+	b, err := Run(context.Background(), st, Options{Replicates: 400, Seed: &seed, Adjust: func(_ int, label string, e *estimators.Estimator) {
+		if label == "huber" {
+			e.Psi = estimators.Huber{K: 0.3}
+		}
+	}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	c, err := results.Compare(a, b, nil, nil, results.CompareOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	flaggedHuber := false
+	for _, d := range c.Differences {
+		if d.Flagged && d.Estimator != "huber" {
+			t.Errorf("unchanged estimator flagged: %+v", d)
+		}
+		flaggedHuber = flaggedHuber || (d.Flagged && d.Estimator == "huber")
+	}
+	if !flaggedHuber {
+		t.Error("k = 0.3 instead of 1.345 not flagged")
+	}
+	if c.Paired != nil {
+		t.Error("paired mode across different seeds")
+	}
+}
