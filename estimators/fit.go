@@ -115,6 +115,7 @@ func (e Estimator) Fit(x *mat.Dense, y []float64, ws *Workspace, res *Result) er
 
 	if e.Method.Direct() {
 		ws.direct(e, e.Method, raw, y, res)
+		classifyNonFinite(res)
 		return nil
 	}
 	// An iterative fit: its start, and the scale that comes with it.
@@ -125,6 +126,7 @@ func (e Estimator) Fit(x *mat.Dense, y []float64, ws *Workspace, res *Result) er
 		var start Result
 		start.Coefficients = beta
 		ws.direct(e, e.StartFrom, raw, y, &start)
+		classifyNonFinite(&start)
 		if !start.Status.Converged() {
 			res.Status = start.Status
 			return nil
@@ -139,6 +141,22 @@ func (e Estimator) Fit(x *mat.Dense, y []float64, ws *Workspace, res *Result) er
 	}
 	ws.iterate(e, raw, y, res)
 	return nil
+}
+
+// classifyNonFinite turns a solution with a NaN or infinite coefficient or
+// scale (data so extreme that float64 arithmetic overflowed) into the
+// NonFinite status.
+func classifyNonFinite(res *Result) {
+	if !res.Status.Converged() {
+		return
+	}
+	bad := math.IsNaN(res.Scale) || math.IsInf(res.Scale, 0)
+	for _, b := range res.Coefficients {
+		bad = bad || math.IsNaN(b) || math.IsInf(b, 0)
+	}
+	if bad {
+		res.Status = NonFinite
+	}
 }
 
 // direct computes the estimate of a non-iterative method m into res (the

@@ -22,6 +22,15 @@ func (f Family) scaledTuning(m float64) []float64 {
 	return out
 }
 
+// WithFirst returns tuning constants whose first is c and whose others keep
+// their default proportion to it (for a one-constant family, just [c]).
+func (f Family) WithFirst(c float64) []float64 {
+	if len(f.Defaults) == 0 {
+		return nil
+	}
+	return f.scaledTuning(c / f.Defaults[0])
+}
+
 // solveRay finds m > 0 with g(m) = 0 for g monotone in m: two walkers
 // leave m = 1 upwards and downwards in powers of two (at most 2^±20) until
 // one sees the sign
@@ -181,7 +190,7 @@ func (f Family) Sweep(lo, hi float64, steps int) ([]SweepRow, error) {
 	var rows []SweepRow
 	for i := 0; i < steps; i++ {
 		first := lo + (hi-lo)*float64(i)/float64(steps-1)
-		tun := f.scaledTuning(first / f.Defaults[0])
+		tun := f.WithFirst(first)
 		psi, err := f.New(tun)
 		if err != nil {
 			return nil, err

@@ -4,7 +4,9 @@ import (
 	"context"
 	"fmt"
 	"math/rand/v2"
+	"runtime"
 	"testing"
+	"time"
 
 	"gonum.org/v1/gonum/mat"
 
@@ -78,6 +80,55 @@ func BenchmarkRun(b *testing.B) {
 				}
 			}
 			b.ReportMetric(float64(reps*b.N)/b.Elapsed().Seconds(), "fits/s")
+		})
+	}
+}
+
+// BenchmarkRunMemory runs 10³ and 10⁶ replicates of a small least-squares
+// scenario and reports the peak heap in use, sampled during the run, and
+// the bytes allocated per replicate: neither may grow with the number of
+// replicates (summaries are accumulated as the run goes, and a replicate
+// allocates nothing). The sampling goroutine's own allocations count.
+func BenchmarkRunMemory(b *testing.B) {
+	st := parse(b, `
+seed: 3
+model: {n: 20, intercept: 1, columns: [{name: x, slope: 1}]}
+noise: {dist: normal}
+estimators: [{label: ls, method: ls}]
+`)
+	for _, reps := range []int{1_000, 1_000_000} {
+		b.Run(fmt.Sprintf("replicates=%d", reps), func(b *testing.B) {
+			for i := 0; i < b.N; i++ {
+				runtime.GC()
+				var before runtime.MemStats
+				runtime.ReadMemStats(&before)
+				var peak uint64
+				stop := make(chan struct{})
+				sampled := make(chan struct{})
+				go func() {
+					defer close(sampled)
+					var ms runtime.MemStats
+					for {
+						runtime.ReadMemStats(&ms)
+						peak = max(peak, ms.HeapInuse)
+						select {
+						case <-stop:
+							return
+						case <-time.After(5 * time.Millisecond):
+						}
+					}
+				}()
+				if _, err := Run(context.Background(), st, Options{Replicates: reps}); err != nil {
+					b.Fatal(err)
+				}
+				close(stop)
+				<-sampled
+				var after runtime.MemStats
+				runtime.ReadMemStats(&after)
+				b.ReportMetric(float64(peak)/(1<<20), "peak-heap-MB")
+				b.ReportMetric(float64(after.TotalAlloc-before.TotalAlloc)/float64(reps), "B-alloc/replicate")
+				b.ReportMetric(float64(reps)/b.Elapsed().Seconds()*float64(b.N)/float64(i+1), "fits/s")
+			}
 		})
 	}
 }

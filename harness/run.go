@@ -41,6 +41,18 @@ type Options struct {
 	// blocks are written in cell and replicate order, so the file does not
 	// depend on the number of workers.
 	KeepReplicates io.Writer
+	// Shard and Shards split the run: with Shards > 0 this run does only
+	// the units u with u mod Shards = Shard, and its Partial is merged with
+	// the other shards' by MergePartials.
+	Shard, Shards int
+	// Resume, if not nil, is a checkpoint of this run: its finished units
+	// are kept and only the others are run.
+	Resume *Partial
+	// Checkpoint, if not nil, receives the finished work every
+	// CheckpointEvery (if positive) and once at the end, also when the run
+	// is cancelled. It must write it somewhere safe (atomically).
+	Checkpoint      func(*Partial) error
+	CheckpointEvery time.Duration
 	// Adjust, if not nil, may change each estimator after it is built from
 	// the scenario, without changing the scenario (and so its hash): the way
 	// to run a modified solver against a baseline of the same scenario.
@@ -72,6 +84,15 @@ func (p *cellPlan) slopes() int { return len(p.truth) - p.firstSlope }
 // cancelled, Run stops at the next replicate, and returns the results of
 // the units that finished, marked incomplete, with ctx's error.
 func Run(ctx context.Context, st *scenarios.Study, opt Options) (*results.Results, error) {
+	res, _, err := RunPartial(ctx, st, opt)
+	return res, err
+}
+
+// RunPartial is Run that also returns the finished work as a Partial: all
+// of it, or one shard's share (Options.Shard), or a resumed run's whole
+// (Options.Resume). The results summarise exactly the finished units; they
+// are complete only when every unit of the run is finished.
+func RunPartial(ctx context.Context, st *scenarios.Study, opt Options) (*results.Results, *Partial, error) {
 	workers := opt.Workers
 	if workers <= 0 {
 		workers = runtime.GOMAXPROCS(0)
@@ -84,9 +105,12 @@ func Run(ctx context.Context, st *scenarios.Study, opt Options) (*results.Result
 	if opt.Replicates > 0 {
 		reps = opt.Replicates
 	}
+	if opt.Shards < 0 || (opt.Shards > 0 && (opt.Shard < 0 || opt.Shard >= opt.Shards)) {
+		return nil, nil, fmt.Errorf("shard %d of %d: want 0 ≤ shard < shards", opt.Shard, opt.Shards)
+	}
 	plans, err := plan(st, reps)
 	if err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 	if opt.Adjust != nil {
 		for i := range plans {
@@ -95,35 +119,81 @@ func Run(ctx context.Context, st *scenarios.Study, opt Options) (*results.Result
 			}
 		}
 	}
+	state, err := newPartial(st, plans, seed, reps, opt)
+	if err != nil {
+		return nil, nil, err
+	}
 	var keep *orderedBlocks
 	if opt.KeepReplicates != nil {
+		if opt.Resume != nil || opt.Shards > 0 {
+			return nil, nil, errors.New("kept replicates cannot be combined with a resumed or sharded run")
+		}
 		if keep, err = newOrderedBlocks(opt.KeepReplicates, st, plans, seed, reps); err != nil {
-			return nil, err
+			return nil, nil, err
 		}
 	}
 	started := time.Now()
 
 	// Units are numbered cell by cell; unit u of cell c covers replicates
-	// [b·blockSize, min((b+1)·blockSize, reps)).
+	// [b·blockSize, min((b+1)·blockSize, reps)). This run takes the units
+	// not yet finished that belong to its shard.
 	var firstUnit []int
 	total := 0
 	for _, p := range plans {
 		firstUnit = append(firstUnit, total)
 		total += p.blocks
 	}
-	tallies := make([]*cellTally, len(plans))
-	locks := make([]sync.Mutex, len(plans))
-	for i := range plans {
-		tallies[i] = newCellTally(len(plans[i].ests), len(plans[i].truth), plans[i].slopes())
+	var todo []int
+	var todoReps int64
+	for u := 0; u < total; u++ {
+		if state.isDone(u) || (opt.Shards > 0 && u%opt.Shards != opt.Shard) {
+			continue
+		}
+		todo = append(todo, u)
+		ci := cellOf(firstUnit, u)
+		b := u - firstUnit[ci]
+		todoReps += int64(min((b+1)*blockSize, reps) - b*blockSize)
 	}
+	var mu sync.Mutex // guards state
 	var next atomic.Int64
 	var done atomic.Int64
-	totalReps := int64(reps) * int64(len(plans))
 
 	ctx, stop := context.WithCancel(ctx)
 	defer stop()
 	var failOnce sync.Once
 	var failure error
+
+	// Periodic checkpoints of the finished work.
+	checkpoint := func() error {
+		if opt.Checkpoint == nil {
+			return nil
+		}
+		mu.Lock()
+		snap := state.snapshot()
+		mu.Unlock()
+		return opt.Checkpoint(snap)
+	}
+	tickerDone := make(chan struct{})
+	var tickerWG sync.WaitGroup
+	if opt.Checkpoint != nil && opt.CheckpointEvery > 0 {
+		tickerWG.Add(1)
+		go func() {
+			defer tickerWG.Done()
+			t := time.NewTicker(opt.CheckpointEvery)
+			defer t.Stop()
+			for {
+				select {
+				case <-tickerDone:
+					return
+				case <-t.C:
+					if err := checkpoint(); err != nil {
+						failOnce.Do(func() { failure = fmt.Errorf("writing a checkpoint: %w", err); stop() })
+						return
+					}
+				}
+			}
+		}()
+	}
 
 	var wg sync.WaitGroup
 	for w := 0; w < workers; w++ {
@@ -132,10 +202,11 @@ func Run(ctx context.Context, st *scenarios.Study, opt Options) (*results.Result
 			defer wg.Done()
 			var wk *worker
 			for {
-				u := int(next.Add(1) - 1)
-				if u >= total || ctx.Err() != nil {
+				k := int(next.Add(1) - 1)
+				if k >= len(todo) || ctx.Err() != nil {
 					return
 				}
+				u := todo[k]
 				ci := cellOf(firstUnit, u)
 				p := &plans[ci]
 				if wk == nil || wk.plan != p {
@@ -150,37 +221,57 @@ func Run(ctx context.Context, st *scenarios.Study, opt Options) (*results.Result
 					}
 					return
 				}
-				locks[ci].Lock()
-				tallies[ci].merge(wk.tally)
-				locks[ci].Unlock()
+				mu.Lock()
+				state.cells[ci].merge(wk.tally)
+				state.done.SetBit(state.done, u, 1)
+				mu.Unlock()
 				if keep != nil {
 					keep.put(u, wk.encodeBlock(ci, lo, hi))
 				}
 				if opt.Progress != nil {
-					opt.Progress(done.Add(int64(hi-lo)), totalReps)
+					opt.Progress(done.Add(int64(hi-lo)), todoReps)
 				}
 			}
 		}()
 	}
 	wg.Wait()
+	close(tickerDone)
+	tickerWG.Wait()
 	if keep != nil {
 		if err := keep.close(); err != nil && failure == nil {
 			failure = fmt.Errorf("writing the replicate file: %w", err)
 		}
 	}
-	res := summarise(st, plans, tallies, seed, reps)
-	res.Breakdown = breakdownView(st.Cells[0].Scenario.Breakdown, res)
-	res.Tool = opt.Tool
-	res.Provenance = provenance(workers, started, plans, tallies)
+	// The last checkpoint records everything finished, also when the run
+	// was stopped, so that it can be resumed.
+	if err := checkpoint(); err != nil && failure == nil {
+		failure = fmt.Errorf("writing a checkpoint: %w", err)
+	}
+	res := summariseAll(st, plans, state.cells, seed, reps, opt.Tool)
+	res.Provenance = provenance(workers, started, plans, state.cells)
+	if !state.Complete() {
+		res.Complete = false
+	}
+	final := state.snapshot()
 	if failure != nil {
 		res.Complete = false
-		return res, failure
+		return res, final, failure
 	}
 	if err := ctx.Err(); err != nil {
 		res.Complete = false
-		return res, err
+		return res, final, err
 	}
-	return res, nil
+	return res, final, nil
+}
+
+// summariseAll builds the results and their derived views from tallies.
+func summariseAll(st *scenarios.Study, plans []cellPlan, tallies []*cellTally, seed uint64, reps int, tool results.Tool) *results.Results {
+	res := summarise(st, plans, tallies, seed, reps)
+	res.Breakdown = breakdownView(st.Cells[0].Scenario.Breakdown, res)
+	res.Functions = functionCurves(plans[0])
+	res.TuningTheory = tuningCurves(st, plans)
+	res.Tool = tool
+	return res
 }
 
 // cellOf returns the cell of unit u given the first unit of each cell.

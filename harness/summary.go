@@ -4,6 +4,8 @@ import (
 	"math"
 	"runtime"
 	"runtime/debug"
+	"strconv"
+	"strings"
 	"time"
 
 	"gonum.org/v1/gonum/stat/distuv"
@@ -98,6 +100,102 @@ func cellTheory(p cellPlan) []float64 {
 	}
 	for i := range out {
 		out[i] = abs[i] / abs[p.ref]
+	}
+	return out
+}
+
+// functionCurves samples the psi, rho and weight of the first cell's
+// estimators that have a psi (M-estimators, the M-step of MM, and the
+// bisquare rho of S).
+func functionCurves(p cellPlan) []results.FunctionCurve {
+	var out []results.FunctionCurve
+	for i, e := range p.ests {
+		spec := p.cell.Scenario.Estimators[i]
+		psi := e.Psi
+		desc := spec.Psi.Name()
+		switch e.Method {
+		case estimators.MethodMM:
+			if psi == nil {
+				psi, desc = estimators.Bisquare{C: 4.685}, "bisquare"
+			}
+		case estimators.MethodS:
+			c := e.Resampling.SC
+			if c == 0 {
+				c = 1.547
+			}
+			psi, desc = estimators.Bisquare{C: c}, "S-scale bisquare "+strconv.FormatFloat(c, 'g', -1, 64)
+		}
+		if psi == nil {
+			continue
+		}
+		for _, t := range spec.Tuning {
+			desc += " " + strconv.FormatFloat(t, 'g', -1, 64)
+		}
+		fc := results.FunctionCurve{Estimator: spec.Label, Psi: desc}
+		for k := 0; k <= 240; k++ {
+			u := 8 * float64(k) / 240
+			fc.U = append(fc.U, u)
+			fc.PsiValues = append(fc.PsiValues, psi.Psi(u))
+			fc.Rho = append(fc.Rho, psi.Rho(u))
+			fc.Weight = append(fc.Weight, psi.Weight(u))
+		}
+		out = append(out, fc)
+	}
+	return out
+}
+
+// tuningCurves computes the asymptotic efficiency, against the reference,
+// over a range of the first tuning constant of every estimator whose tuning
+// is swept (a path estimators.LABEL.tuning), spanning the swept values.
+func tuningCurves(st *scenarios.Study, plans []cellPlan) []results.TuningCurve {
+	var out []results.TuningCurve
+	for _, sw := range st.Base.Vary {
+		parts := strings.Split(sw.Path, ".")
+		if len(parts) != 3 || parts[0] != "estimators" || parts[2] != "tuning" || len(plans) == 0 {
+			continue
+		}
+		p := plans[0]
+		idx := -1
+		for i, spec := range p.cell.Scenario.Estimators {
+			if spec.Label == parts[1] {
+				idx = i
+			}
+		}
+		if idx < 0 {
+			continue
+		}
+		spec := p.cell.Scenario.Estimators[idx]
+		fam, ok := estimators.LookupFamily(spec.Psi.Family)
+		if !ok || len(fam.Params) == 0 || spec.Psi.Custom != nil {
+			continue
+		}
+		lo, hi := math.Inf(1), math.Inf(-1)
+		for i := range plans {
+			t := plans[i].cell.Scenario.Estimators[idx].Tuning
+			if len(t) > 0 {
+				lo, hi = math.Min(lo, t[0]), math.Max(hi, t[0])
+			}
+		}
+		if !(hi >= lo) || lo <= 0 {
+			continue
+		}
+		lo, hi = lo/1.25, hi*1.25
+		sd := *p.cell.Scenario.Noise.Scale
+		n, _ := p.gen.Dims()
+		refEff := methodTheory(p.ests[p.ref], sd, n, len(p.truth))
+		tc := results.TuningCurve{Path: sw.Path, Estimator: spec.Label}
+		for k := 0; k <= 60; k++ {
+			c := lo * math.Pow(hi/lo, float64(k)/60)
+			psi, err := fam.New(fam.WithFirst(c))
+			if err != nil {
+				continue
+			}
+			e := p.ests[idx]
+			e.Psi = psi
+			tc.Constants = append(tc.Constants, c)
+			tc.Efficiency = append(tc.Efficiency, methodTheory(e, sd, n, len(p.truth))/refEff)
+		}
+		out = append(out, tc)
 	}
 	return out
 }
@@ -271,6 +369,7 @@ func convergence(t *estTally) results.Convergence {
 	for k := len(t.iterHist) - 1; k >= 0; k-- {
 		if t.iterHist[k] > 0 {
 			c.MaxIterations = int64(k)
+			c.IterationHistogram = append([]int64(nil), t.iterHist[:k+1]...)
 			break
 		}
 	}

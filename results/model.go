@@ -32,6 +32,12 @@ type Results struct {
 	// ReplicateFile names the replicate file kept beside the results (in the
 	// same directory), or is empty.
 	ReplicateFile string `json:"replicate_file,omitempty"`
+	// Functions holds the psi, rho and weight functions of the run's
+	// M-estimators (as configured in the first cell), for figures.
+	Functions []FunctionCurve `json:"functions,omitempty"`
+	// TuningTheory holds asymptotic efficiency curves for estimators whose
+	// tuning constant is swept, to draw beside the simulated points.
+	TuningTheory []TuningCurve `json:"tuning_theory,omitempty"`
 	// Breakdown holds the bias curves and empirical breakdown points when
 	// the scenario asks for them.
 	Breakdown *Breakdown `json:"breakdown,omitempty"`
@@ -157,7 +163,10 @@ type Convergence struct {
 	// describe the iterations of all fits.
 	MeanIterations   Measure `json:"mean_iterations"`
 	MedianIterations Num     `json:"median_iterations"`
-	MaxIterations    int64   `json:"max_iterations"`
+	// IterationHistogram counts the fits by iterations taken: entry k is the
+	// number of fits that took k iterations.
+	IterationHistogram []int64 `json:"iteration_histogram,omitempty"`
+	MaxIterations      int64   `json:"max_iterations"`
 	// Halvings, Fallbacks and QRSolves total the safeguards fired: Newton
 	// step halvings, IRLS steps taken in place of Newton steps, and weighted
 	// solves that fell back from Cholesky to QR.
@@ -229,6 +238,14 @@ type Provenance struct {
 	Timing []Timing `json:"timing"`
 }
 
+// WithoutRunDetails returns the provenance without what differs between two
+// runs of the same work on different machines or at different times: the
+// times, the worker count and the timings. What is left identifies the
+// software.
+func (p Provenance) WithoutRunDetails() Provenance {
+	return Provenance{GoVersion: p.GoVersion, OS: p.OS, Arch: p.Arch, Build: p.Build}
+}
+
 // Timing is the mean time per fit of one estimator in one cell, in seconds.
 type Timing struct {
 	Cell       int     `json:"cell"`
@@ -282,4 +299,25 @@ type BreakdownPoint struct {
 	Fraction Num `json:"fraction"`
 	// PastThreshold is the rate of replicates past the threshold there.
 	PastThreshold *Rate `json:"past_threshold,omitempty"`
+}
+
+// FunctionCurve is a psi function of one estimator sampled on a grid of
+// standardised residuals u ≥ 0 (psi is odd, rho and the weight even).
+type FunctionCurve struct {
+	Estimator string    `json:"estimator"`
+	Psi       string    `json:"psi"`
+	U         []float64 `json:"u"`
+	PsiValues []float64 `json:"psi_values"`
+	Rho       []float64 `json:"rho"`
+	Weight    []float64 `json:"weight"`
+}
+
+// TuningCurve is the asymptotic efficiency (against the reference, at the
+// normal model) of one estimator as its first tuning constant varies.
+type TuningCurve struct {
+	// Path is the swept path of the constant.
+	Path       string    `json:"path"`
+	Estimator  string    `json:"estimator"`
+	Constants  []float64 `json:"constants"`
+	Efficiency []float64 `json:"efficiency"`
 }

@@ -5,6 +5,7 @@ import (
 	"encoding/hex"
 	"encoding/json"
 	"fmt"
+	"io"
 	"os"
 	"path/filepath"
 	"reflect"
@@ -20,6 +21,9 @@ import (
 type Study struct {
 	// File is the name the scenario was loaded from.
 	File string
+	// Source is the scenario file's text, kept so that checkpoints and
+	// shards can carry the scenario with them.
+	Source []byte
 	// Base is the scenario with defaults filled in and no sweep applied.
 	Base *Scenario
 	// Cells are the combinations of swept values, in order: the first sweep
@@ -65,6 +69,9 @@ type Limits struct {
 	MaxWork float64
 }
 
+// WithDefaults returns l with zero fields replaced by the defaults.
+func (l Limits) WithDefaults() Limits { return l.withDefaults() }
+
 func (l Limits) withDefaults() Limits {
 	if l.MaxCells == 0 {
 		l.MaxCells = 10_000
@@ -82,12 +89,20 @@ func (l Limits) withDefaults() Limits {
 }
 
 // Load reads and validates the scenario file at path with default limits.
-func Load(path string) (*Study, error) {
-	data, err := os.ReadFile(path)
+func Load(path string) (*Study, error) { return LoadWith(path, Limits{}) }
+
+// LoadWith reads and validates the scenario file at path under limits.
+func LoadWith(path string, limits Limits) (*Study, error) {
+	f, err := os.Open(path)
 	if err != nil {
 		return nil, err
 	}
-	return Parse(path, data, Limits{})
+	defer f.Close()
+	data, err := io.ReadAll(io.LimitReader(f, maxBytes+1))
+	if err != nil {
+		return nil, err
+	}
+	return Parse(path, data, limits)
 }
 
 // Parse validates a scenario held in data; file names it in errors. Every
@@ -122,7 +137,7 @@ func Parse(file string, data []byte, limits Limits) (*Study, error) {
 		cells *= len(sw.Values)
 		if cells > limits.MaxCells {
 			return nil, &Error{File: file, Line: sw.line, Column: sw.col, Field: "vary",
-				Msg: fmt.Sprintf("the sweeps make more than %d cells; the limit is %d (raise it explicitly to run a grid this large)", cells, limits.MaxCells)}
+				Msg: fmt.Sprintf("the sweeps make more than %d cells; the limit is %d (raise it with --max-cells, or Limits.MaxCells from Go)", cells, limits.MaxCells)}
 		}
 	}
 	for _, sw := range base.Vary {
@@ -139,7 +154,7 @@ func Parse(file string, data []byte, limits Limits) (*Study, error) {
 			markLines(n, sweptLines)
 		}
 	}
-	st := &Study{File: file, Base: base}
+	st := &Study{File: file, Base: base, Source: append([]byte(nil), data...)}
 	seen := map[string]bool{}
 	for idx := 0; idx < cells; idx++ {
 		settings, picks := cellPicks(base.Vary, idx)
@@ -210,7 +225,7 @@ func checkWork(file string, st *Study, limits Limits) error {
 	}
 	if work > limits.MaxWork {
 		return &Error{File: file, Field: "replicates",
-			Msg: fmt.Sprintf("the study needs about %.3g units of work (cells × replicates × n × coefficients × estimators); the limit is %.3g (raise it explicitly, or reduce replicates, n or the sweeps)", work, limits.MaxWork)}
+			Msg: fmt.Sprintf("the study needs about %.3g units of work (cells × replicates × n × coefficients × estimators); the limit is %.3g (raise it with --max-work, or reduce replicates, n or the sweeps)", work, limits.MaxWork)}
 	}
 	return nil
 }

@@ -230,7 +230,7 @@ func (s *Scenario) validate(d *decoder, limits Limits) {
 		c.fail("name", "%q is not a valid name: use up to 100 letters, digits, '.', '_' or '-', not starting with '.'", s.Name)
 	}
 	if s.Replicates < 1 || s.Replicates > limits.MaxReplicates {
-		c.fail("replicates", "must be from 1 to %d, got %d (raise the limit explicitly for more)", limits.MaxReplicates, s.Replicates)
+		c.fail("replicates", "must be from 1 to %d, got %d (raise the limit with --max-replicates)", limits.MaxReplicates, s.Replicates)
 	}
 	s.validateModel(c, limits)
 	s.validateNoise(c)
@@ -284,7 +284,7 @@ func (s *Scenario) validateModel(c checker, limits Limits) {
 	} else if m.N <= p {
 		c.fail("model.n", "must exceed the number of coefficients (%d), got %d", p, m.N)
 	} else if m.N > limits.MaxN {
-		c.fail("model.n", "%d observations exceed the limit of %d (raise it explicitly for larger datasets)", m.N, limits.MaxN)
+		c.fail("model.n", "%d observations exceed the limit of %d (raise it with --max-n)", m.N, limits.MaxN)
 	}
 	names := map[string]bool{}
 	random := 0

@@ -8,6 +8,7 @@ import (
 
 	"github.com/rhomark/rhomark/harness"
 	"github.com/rhomark/rhomark/internal/csvdata"
+	"github.com/rhomark/rhomark/scenarios"
 )
 
 func breakdownCmd(e env, args []string) error {
@@ -31,7 +32,7 @@ func breakdownCmd(e env, args []string) error {
 	if *dirs < 0 || *dirs > 1000 {
 		return usagef("--directions must be from 0 to 1000, got %d", *dirs)
 	}
-	st, err := loadScenario(pos[0])
+	st, err := loadScenario(pos[0], scenarios.Limits{})
 	if err != nil {
 		return err
 	}

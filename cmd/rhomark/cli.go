@@ -45,6 +45,9 @@ func commands() []command {
 		{"breakdown", "measure each estimator's finite-sample replacement breakdown point", breakdownCmd},
 		{"compare", "compare two runs: summary within Monte Carlo error, or paired replicate by replicate", compareCmd},
 		{"replay", "regenerate one replicate's dataset and trace each solver on it", replayCmd},
+		{"merge", "merge the partial results of the shards of one run", mergeCmd},
+		{"report", "write an HTML report, a Markdown summary and figures of a run", reportCmd},
+		{"completion", "print a bash or zsh completion script", completionCmd},
 	}
 }
 
@@ -125,6 +128,30 @@ func writeHelp(w io.Writer) {
 	fmt.Fprintln(w, "Exit status: 0 success, 1 failure or interruption, 2 bad usage or input.")
 }
 
+// toolVersion is the version recorded in results and partial files: the
+// release and, where the build recorded it, the VCS revision, so that work
+// from different builds is not merged or resumed together.
+func toolVersion() string {
+	v := version
+	if bi, ok := debug.ReadBuildInfo(); ok {
+		for _, s := range bi.Settings {
+			switch s.Key {
+			case "vcs.revision":
+				if len(s.Value) > 12 {
+					v += "+" + s.Value[:12]
+				} else {
+					v += "+" + s.Value
+				}
+			case "vcs.modified":
+				if s.Value == "true" {
+					v += "-modified"
+				}
+			}
+		}
+	}
+	return v
+}
+
 // versionText returns the version line and the build information.
 func versionText() string {
 	var b strings.Builder
@@ -152,27 +179,38 @@ func versionText() string {
 	return b.String()
 }
 
-// newFlags returns a flag set whose usage text starts with synopsis.
-func newFlags(e env, name, synopsis, about string) *flag.FlagSet {
+// cmdFlags is a command's flag set with its help printer.
+type cmdFlags struct {
+	*flag.FlagSet
+	help func()
+}
+
+// newFlags returns a flag set whose help text starts with synopsis. The
+// flag package's own messages are silenced: parseFlags prints the full help
+// for --help, and a one-line error otherwise.
+func newFlags(e env, name, synopsis, about string) *cmdFlags {
 	fs := flag.NewFlagSet(name, flag.ContinueOnError)
-	fs.SetOutput(e.stderr)
-	fs.Usage = func() {
+	fs.SetOutput(io.Discard)
+	fs.Usage = func() {}
+	return &cmdFlags{FlagSet: fs, help: func() {
 		fmt.Fprintf(e.stderr, "Usage: rhomark %s %s\n\n%s\n\nOptions:\n", name, synopsis, about)
+		fs.SetOutput(e.stderr)
 		fs.PrintDefaults()
-	}
-	return fs
+		fs.SetOutput(io.Discard)
+	}}
 }
 
 // parseFlags parses args, allowing flags after positional arguments, and
 // returns the positional arguments.
-func parseFlags(fs *flag.FlagSet, args []string) ([]string, error) {
+func parseFlags(fs *cmdFlags, args []string) ([]string, error) {
 	var pos []string
 	for {
 		if err := fs.Parse(args); err != nil {
 			if errors.Is(err, flag.ErrHelp) {
+				fs.help()
 				return nil, err
 			}
-			return nil, usageError{err}
+			return nil, usageError{fmt.Errorf("%v (rhomark %s --help lists the options)", err, fs.Name())}
 		}
 		args = fs.Args()
 		if len(args) == 0 {

@@ -55,7 +55,7 @@ func fitCmd(e env, args []string) error {
 	noIntercept := fs.Bool("no-intercept", false, "fit without an intercept")
 	method := fs.String("method", "irls", "`method`: ls, irls, newton, s-estimate, mm-estimate, lts or lad")
 	start := fs.String("start", "ls", "`method` whose estimate starts irls or newton: ls, s-estimate, mm-estimate, lts or lad")
-	pf := addPsiFlags(fs, "huber")
+	pf := addPsiFlags(fs.FlagSet, "huber")
 	scale := fs.String("scale", "mad", "scale `rule`: mad, start (held at the start's scale), or fixed:S for a known scale S")
 	seed := fs.Uint64("seed", 1, "`seed` of the random subsets of s-estimate, mm-estimate and lts")
 	tol := fs.Float64("tol", estimators.DefaultChangeTol, "stop when the relative change in coefficients is below `T`")
@@ -71,7 +71,7 @@ func fitCmd(e env, args []string) error {
 	if *yCol == "" {
 		return usagef("--y is required: the name of the response column")
 	}
-	est, desc, err := buildFitEstimator(*method, *start, pf, *scale, *tol, *maxIter, givenFlags(fs))
+	est, desc, err := buildFitEstimator(*method, *start, pf, *scale, *tol, *maxIter, givenFlags(fs.FlagSet))
 	if err != nil {
 		return err
 	}

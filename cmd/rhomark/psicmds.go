@@ -4,10 +4,12 @@ import (
 	"encoding/json"
 	"fmt"
 	"math"
+	"path/filepath"
 	"strconv"
 	"strings"
 
 	"github.com/rhomark/rhomark/estimators"
+	"github.com/rhomark/rhomark/results"
 )
 
 // num formats a theory figure: "none" for +Inf, "—" for NaN.
@@ -40,7 +42,7 @@ func (f jsonFloat) MarshalJSON() ([]byte, error) {
 func theoryCmd(e env, args []string) error {
 	fs := newFlags(e, "theory", "--psi FAMILY [--tuning C] [options]",
 		"Prints the asymptotic properties of a psi: efficiency, asymptotic variance,\ngross-error sensitivity and rejection point at the normal model, its shape,\nits use as an S-scale, and its efficiency under other error models.")
-	pf := addPsiFlags(fs, "huber")
+	pf := addPsiFlags(fs.FlagSet, "huber")
 	df := fs.Float64("df", 3, "degrees of freedom of the Student t model")
 	eps := fs.Float64("eps", 0.1, "contamination fraction of the contaminated normal (1-eps) N(0,1) + eps N(0,tau²)")
 	tau := fs.Float64("tau", 3, "standard deviation of the contaminating normal")
@@ -52,7 +54,7 @@ func theoryCmd(e env, args []string) error {
 	if len(pos) != 0 {
 		return usagef("theory takes no arguments, got %q", pos)
 	}
-	ch, err := pf.build(givenFlags(fs))
+	ch, err := pf.build(givenFlags(fs.FlagSet))
 	if err != nil {
 		return err
 	}
@@ -150,12 +152,13 @@ func shapeWords(th estimators.Theory) string {
 func tuneCmd(e env, args []string) error {
 	fs := newFlags(e, "tune", "--psi FAMILY (--efficiency E | --minimax EPS | --breakdown B | --sweep FROM:TO[:STEPS])",
 		"Solves for tuning constants. --efficiency gives the constant with efficiency E at\nthe normal model (any family, custom included); --minimax gives Huber's minimax\nconstant for the eps-contaminated normal; --breakdown gives the constant whose\nS-scale has breakdown point B; --sweep tabulates efficiency, gross-error\nsensitivity, rejection point and breakdown point over a range of the first\nconstant. Families with several constants keep their default proportions.")
-	pf := addPsiFlags(fs, "huber")
+	pf := addPsiFlags(fs.FlagSet, "huber")
 	effT := fs.Float64("efficiency", 0, "target efficiency `E` at the normal, 0 < E < 1")
 	mm := fs.Float64("minimax", 0, "contamination fraction `EPS` for Huber's minimax constant")
 	bd := fs.Float64("breakdown", 0, "target breakdown point `B` of the S-scale, 0 < B ≤ 0.5")
 	sweep := fs.String("sweep", "", "`FROM:TO[:STEPS]` range of the first constant (default 11 steps)")
 	param := fs.String("param", "", "for --psi-expr with several constants: tune only this `name`")
+	plot := fs.String("plot", "", "with --sweep, also draw the trade-off to this `file` (.svg or .png)")
 	asJSON := fs.Bool("json", false, "print JSON")
 	pos, err := parseFlags(fs, args)
 	if err != nil {
@@ -164,7 +167,7 @@ func tuneCmd(e env, args []string) error {
 	if len(pos) != 0 {
 		return usagef("tune takes no arguments, got %q", pos)
 	}
-	given := givenFlags(fs)
+	given := givenFlags(fs.FlagSet)
 	targets := 0
 	for _, f := range []string{"efficiency", "minimax", "breakdown", "sweep"} {
 		if given[f] {
@@ -201,7 +204,7 @@ func tuneCmd(e env, args []string) error {
 	res.Psi, res.Params = ch.name, fam.Params
 	switch {
 	case given["sweep"]:
-		return tuneSweep(e, fam, ch, *sweep, *asJSON)
+		return tuneSweep(e, fam, ch, *sweep, *asJSON, *plot)
 	case given["minimax"]:
 		if ch.name != "huber" {
 			return usagef("--minimax is Huber's minimax problem; use --psi huber")
@@ -250,7 +253,7 @@ func tuneCmd(e env, args []string) error {
 }
 
 // tuneSweep prints the trade-off table over a range of the first constant.
-func tuneSweep(e env, fam estimators.Family, ch choice, spec string, asJSON bool) error {
+func tuneSweep(e env, fam estimators.Family, ch choice, spec string, asJSON bool, plot string) error {
 	parts := strings.Split(spec, ":")
 	if len(parts) < 2 || len(parts) > 3 {
 		return usagef("--sweep %q: want FROM:TO or FROM:TO:STEPS", spec)
@@ -268,6 +271,28 @@ func tuneSweep(e env, fam estimators.Family, ch choice, spec string, asJSON bool
 	rows, err := fam.Sweep(lo, hi, steps)
 	if err != nil {
 		return usageError{err}
+	}
+	if plot != "" {
+		var cs, eff, ges []float64
+		for _, r := range rows {
+			cs, eff, ges = append(cs, r.Tuning[0]), append(eff, r.Efficiency), append(ges, r.GrossErrorSensitivity)
+		}
+		fig, err := results.EfficiencyCurveFigure(ch.name+": asymptotic efficiency at the normal", fam.Params[0], cs, eff, ges)
+		if err != nil {
+			return err
+		}
+		data := fig.SVG
+		switch strings.ToLower(filepath.Ext(plot)) {
+		case ".png":
+			data = fig.PNG
+		case ".svg":
+		default:
+			return usagef("--plot %q: want a .svg or .png file", plot)
+		}
+		if err := results.WriteFileAtomic(plot, data); err != nil {
+			return err
+		}
+		fmt.Fprintf(e.stderr, "rhomark tune: wrote %s\n", plot)
 	}
 	if asJSON {
 		type rowJSON struct {
@@ -299,7 +324,7 @@ func tuneSweep(e env, fam estimators.Family, ch choice, spec string, asJSON bool
 func checkPsiCmd(e env, args []string) error {
 	fs := newFlags(e, "check-psi", "(--psi FAMILY [--tuning C] | --psi-expr EXPR [--const c=V ...]) [--json]",
 		"Checks that a psi is well formed and reports, for each property, the first\npoint where it fails: psi(0) = 0, odd symmetry, psi = rho', psi' consistent with\npsi, a finite non-negative IRLS weight continuous at 0, E[psi'] > 0; and, as\ndescription, boundedness, monotone or redescending shape and where psi jumps.\nExit status 1 when a required property fails.")
-	pf := addPsiFlags(fs, "huber")
+	pf := addPsiFlags(fs.FlagSet, "huber")
 	asJSON := fs.Bool("json", false, "print JSON")
 	pos, err := parseFlags(fs, args)
 	if err != nil {
@@ -308,7 +333,7 @@ func checkPsiCmd(e env, args []string) error {
 	if len(pos) != 0 {
 		return usagef("check-psi takes no arguments, got %q", pos)
 	}
-	ch, err := pf.build(givenFlags(fs))
+	ch, err := pf.build(givenFlags(fs.FlagSet))
 	if err != nil {
 		return err
 	}

@@ -59,7 +59,7 @@ func replayCmd(e env, args []string) error {
 	if len(pos) != 1 {
 		return usagef("want one scenario, got %d arguments", len(pos))
 	}
-	st, err := loadScenario(pos[0])
+	st, err := loadScenario(pos[0], scenarios.Limits{})
 	if err != nil {
 		return err
 	}

@@ -1,15 +1,19 @@
 package main
 
 import (
+	"bytes"
 	"context"
 	"errors"
+	"flag"
 	"fmt"
 	"io/fs"
 	"os"
 	"os/signal"
 	"path/filepath"
+	"strconv"
 	"strings"
 	"syscall"
+	"time"
 
 	"github.com/rhomark/rhomark/harness"
 	"github.com/rhomark/rhomark/results"
@@ -17,20 +21,24 @@ import (
 )
 
 func runCmd(e env, args []string) error {
-	fs := newFlags(e, "run", "SCENARIO [options]",
-		"Runs a scenario: SCENARIO is a YAML file, or the name of a shipped scenario\n(see 'rhomark scenarios'). Prints a summary table unless --json is given.")
+	fs := newFlags(e, "run", "SCENARIO [options] | --resume DIR [options]",
+		"Runs a scenario: SCENARIO is a YAML file, or the name of a shipped scenario\n(see 'rhomark scenarios'). Prints a summary table unless --json is given.\nWith --out, finished work is checkpointed to DIR/NAME.checkpoint, and an\ninterrupted run continues with --resume DIR. With --shard I/M (or --shards M\nunder a Slurm job array or a Kubernetes indexed job) it runs one share of the\nwork into DIR/NAME.shard-I-of-M.partial, for rhomark merge.")
 	out := fs.String("out", "", "write NAME.json, NAME.csv and NAME.txt into this `directory`")
 	reps := fs.Int("replicates", 0, "replicates per cell (`N`; default: the scenario's)")
 	seed := fs.String("seed", "", "root seed (`S`; default: the scenario's)")
 	workers := fs.Int("workers", 0, "parallel workers (`W`; default: all cores)")
 	asJSON := fs.Bool("json", false, "print the results as JSON instead of the table")
+	report := fs.Bool("report", false, "with --out, also write NAME.html (a self-contained report), NAME.md and the figures")
+	quiet := fs.Bool("quiet", false, "do not draw the progress bar (it is drawn only when stderr is a terminal)")
 	keep := fs.Bool("keep-replicates", false, "with --out, also keep every replicate's estimates, iterations and status in NAME.replicates (for paired comparisons)")
+	resume := fs.String("resume", "", "continue the interrupted run whose checkpoint is in this `directory`")
+	every := fs.Duration("checkpoint-every", 30*time.Second, "with --out, checkpoint finished work this often (`interval`; 0: only at the end)")
+	shardFlag := fs.String("shard", "", "run only share `I/M` of the work (0 ≤ I < M)")
+	shards := fs.Int("shards", 0, "split the work into `M` shares, the index taken from SLURM_ARRAY_TASK_ID or JOB_COMPLETION_INDEX")
+	lim := addLimitFlags(fs.FlagSet)
 	pos, err := parseFlags(fs, args)
 	if err != nil {
 		return err
-	}
-	if len(pos) != 1 {
-		return usagef("want one scenario (a YAML file or a shipped name), got %d arguments", len(pos))
 	}
 	if *reps < 0 {
 		return usagef("--replicates must be positive, got %d", *reps)
@@ -38,7 +46,10 @@ func runCmd(e env, args []string) error {
 	if *workers < 0 {
 		return usagef("--workers must be positive, got %d", *workers)
 	}
-	opt := harness.Options{Replicates: *reps, Workers: *workers, Tool: results.Tool{Name: "rhomark", Version: version}}
+	if *every < 0 {
+		return usagef("--checkpoint-every must not be negative")
+	}
+	opt := harness.Options{Replicates: *reps, Workers: *workers, Tool: results.Tool{Name: "rhomark", Version: toolVersion()}}
 	if *seed != "" {
 		var s uint64
 		if _, err := fmt.Sscan(*seed, &s); err != nil {
@@ -46,22 +57,75 @@ func runCmd(e env, args []string) error {
 		}
 		opt.Seed = &s
 	}
-	if *keep && *out == "" {
-		return usagef("--keep-replicates needs --out, the directory the replicate file goes to")
-	}
-	st, err := loadScenario(pos[0])
-	if err != nil {
+	if opt.Shard, opt.Shards, err = shardOf(*shardFlag, *shards, os.Getenv); err != nil {
 		return err
 	}
-	var repFile *os.File
-	if *keep {
-		name, err := results.SafeName(st.Base.Name)
+	if *keep && (*out == "" || *resume != "" || opt.Shards > 0) {
+		return usagef("--keep-replicates needs --out, and works only for a whole run (not --resume or --shard)")
+	}
+	limits := lim.limits()
+
+	var st *scenarios.Study
+	switch {
+	case *resume != "":
+		if len(pos) > 1 {
+			return usagef("--resume takes the scenario from the checkpoint; give no other argument (got %q)", pos)
+		}
+		if *reps != 0 || *seed != "" {
+			return usagef("--resume continues with the checkpoint's seed and replicates; do not give --seed or --replicates")
+		}
+		cp, err := findCheckpoint(*resume, opt.Shard, opt.Shards)
 		if err != nil {
 			return err
 		}
-		if err := os.MkdirAll(*out, 0o755); err != nil {
+		if st, err = harness.StudyOf(cp, limits); err != nil {
 			return err
 		}
+		if len(pos) == 1 && pos[0] != st.Base.Name && filepath.Base(pos[0]) != filepath.Base(cp.File) {
+			return usagef("the checkpoint in %s is of scenario %s, not %s", *resume, st.Base.Name, pos[0])
+		}
+		opt.Resume, opt.Replicates = cp, cp.Replicates
+		s := cp.Seed
+		opt.Seed = &s
+		if *out == "" {
+			*out = *resume
+		}
+	case len(pos) != 1:
+		return usagef("want one scenario (a YAML file or a shipped name), got %d arguments", len(pos))
+	default:
+		if st, err = loadScenario(pos[0], limits); err != nil {
+			return err
+		}
+	}
+	if err := checkOverrides(st, opt, limits); err != nil {
+		return err
+	}
+	name, err := results.SafeName(st.Base.Name)
+	if err != nil {
+		return err
+	}
+	if *report && (*out == "" || opt.Shards > 0) {
+		return usagef("--report needs --out, and a whole run (merge shards, then rhomark report)")
+	}
+	if opt.Shards > 0 && *out == "" {
+		return usagef("--shard needs --out, the directory the shard's partial results go to")
+	}
+	if *out != "" {
+		if err := os.MkdirAll(*out, 0o755); err != nil {
+			return fmt.Errorf("cannot create the output directory: %w", err)
+		}
+		cpPath := checkpointPath(*out, name, opt.Shard, opt.Shards)
+		opt.CheckpointEvery = *every
+		opt.Checkpoint = func(p *harness.Partial) error {
+			var b bytes.Buffer
+			if err := harness.WritePartial(&b, p); err != nil {
+				return err
+			}
+			return results.WriteFileAtomic(cpPath, b.Bytes())
+		}
+	}
+	var repFile *os.File
+	if *keep {
 		if repFile, err = os.CreateTemp(*out, "."+name+".replicates.tmp-*"); err != nil {
 			return fmt.Errorf("cannot write the replicate file: %w", err)
 		}
@@ -70,15 +134,28 @@ func runCmd(e env, args []string) error {
 	}
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
 	defer stop()
-	res, runErr := harness.Run(ctx, st, opt)
+	bar := newProgress(e.stderr, *quiet, st.Base.Name)
+	if bar != nil {
+		opt.Progress = bar.update
+	}
+	res, part, runErr := harness.RunPartial(ctx, st, opt)
+	bar.finish()
 	if res == nil {
 		if repFile != nil {
 			repFile.Close()
 		}
 		return runErr
 	}
+	if opt.Shards > 0 {
+		// A shard's output is its partial file, written by the checkpoint.
+		if runErr == nil {
+			fmt.Fprintf(e.stderr, "rhomark run: wrote %s (shard %d of %d: %d units); combine the shards with rhomark merge\n",
+				checkpointPath(*out, name, opt.Shard, opt.Shards), opt.Shard, opt.Shards, part.DoneUnits())
+		}
+		return stopped(runErr, *out)
+	}
 	if repFile != nil {
-		final := filepath.Join(*out, res.Scenario.Name+".replicates")
+		final := filepath.Join(*out, name+".replicates")
 		if err := finishFile(repFile, final); err != nil {
 			return err
 		}
@@ -92,6 +169,16 @@ func runCmd(e env, args []string) error {
 		if repFile != nil {
 			paths = append(paths, filepath.Join(*out, res.ReplicateFile))
 		}
+		if *report {
+			rp, err := writeReport(*out, res, true)
+			if err != nil {
+				return err
+			}
+			paths = append(paths, rp...)
+		}
+		if res.Complete {
+			os.Remove(checkpointPath(*out, name, 0, 0)) // the work is in the results now
+		}
 		fmt.Fprintf(e.stderr, "rhomark run: wrote %s\n", strings.Join(paths, ", "))
 	}
 	if *asJSON {
@@ -101,13 +188,129 @@ func runCmd(e env, args []string) error {
 	} else if err := results.WriteTable(e.stdout, res, 80); err != nil {
 		return err
 	}
-	if runErr != nil {
-		if errors.Is(runErr, context.Canceled) {
-			return interrupted{"stopped early; the finished replicates were summarised and the results are marked incomplete"}
+	return stopped(runErr, *out)
+}
+
+// stopped turns the error of a run into the command's: an interruption
+// says the work is safe and how to continue it.
+func stopped(runErr error, out string) error {
+	if runErr == nil {
+		return nil
+	}
+	if errors.Is(runErr, context.Canceled) {
+		msg := "stopped early; the finished replicates were summarised and the results are marked incomplete"
+		if out != "" {
+			msg += fmt.Sprintf("; continue with: rhomark run --resume %s", out)
 		}
-		return runErr
+		return interrupted{msg}
+	}
+	return runErr
+}
+
+// checkpointPath names the checkpoint (or a shard's partial) file.
+func checkpointPath(dir, name string, shard, shards int) string {
+	if shards > 0 {
+		return filepath.Join(dir, fmt.Sprintf("%s.shard-%d-of-%d.partial", name, shard, shards))
+	}
+	return filepath.Join(dir, name+".checkpoint")
+}
+
+// findCheckpoint reads the checkpoint to resume in dir: NAME.checkpoint, or
+// the shard's partial file.
+func findCheckpoint(dir string, shard, shards int) (*harness.Partial, error) {
+	pattern := "*.checkpoint"
+	if shards > 0 {
+		pattern = fmt.Sprintf("*.shard-%d-of-%d.partial", shard, shards)
+	}
+	matches, _ := filepath.Glob(filepath.Join(dir, pattern))
+	switch len(matches) {
+	case 0:
+		return nil, usagef("no checkpoint (%s) in %s: nothing to resume", pattern, dir)
+	case 1:
+	default:
+		return nil, usagef("%d checkpoints in %s (%s); resume one run per directory", len(matches), dir, strings.Join(matches, ", "))
+	}
+	f, err := os.Open(matches[0])
+	if err != nil {
+		return nil, err
+	}
+	defer f.Close()
+	p, err := harness.ReadPartial(f)
+	if err != nil {
+		return nil, dataError{fmt.Errorf("%s: %w", matches[0], err)}
+	}
+	return p, nil
+}
+
+// shardOf resolves the shard options: --shard I/M, or --shards M with the
+// index from a Slurm job array (SLURM_ARRAY_TASK_ID) or a Kubernetes indexed
+// job (JOB_COMPLETION_INDEX).
+func shardOf(flagValue string, shards int, getenv func(string) string) (int, int, error) {
+	if flagValue != "" {
+		var i, m int
+		if _, err := fmt.Sscanf(flagValue, "%d/%d", &i, &m); err != nil || m < 1 || i < 0 || i >= m || fmt.Sprintf("%d/%d", i, m) != flagValue {
+			return 0, 0, usagef("--shard %q: want I/M with 0 ≤ I < M, for example 2/8", flagValue)
+		}
+		if shards != 0 && shards != m {
+			return 0, 0, usagef("--shard %s and --shards %d disagree", flagValue, shards)
+		}
+		return i, m, nil
+	}
+	if shards == 0 {
+		return 0, 0, nil
+	}
+	if shards < 1 || shards > 1_000_000 {
+		return 0, 0, usagef("--shards must be from 1 to 1000000, got %d", shards)
+	}
+	for _, name := range []string{"SLURM_ARRAY_TASK_ID", "JOB_COMPLETION_INDEX"} {
+		if v := getenv(name); v != "" {
+			i, err := strconv.Atoi(v)
+			if err != nil || i < 0 || i >= shards {
+				return 0, 0, usagef("%s=%q is not a shard index from 0 to %d", name, v, shards-1)
+			}
+			return i, shards, nil
+		}
+	}
+	return 0, 0, usagef("--shards %d needs the shard index: give --shard I/%d, or run inside a Slurm job array (SLURM_ARRAY_TASK_ID) or a Kubernetes indexed job (JOB_COMPLETION_INDEX)", shards, shards)
+}
+
+// checkOverrides refuses command-line overrides beyond the limits.
+func checkOverrides(st *scenarios.Study, opt harness.Options, limits scenarios.Limits) error {
+	if opt.Replicates == 0 {
+		return nil
+	}
+	l := limits.WithDefaults()
+	if opt.Replicates > l.MaxReplicates {
+		return usagef("--replicates %d exceeds the limit of %d (raise it with --max-replicates)", opt.Replicates, l.MaxReplicates)
+	}
+	var work float64
+	for _, c := range st.Cells {
+		sc := c.Scenario
+		work += float64(opt.Replicates) * float64(sc.Model.N) * float64(sc.Coefficients()) * float64(len(sc.Estimators))
+	}
+	if work > l.MaxWork {
+		return usagef("%d replicates make about %.3g units of work (cells × replicates × n × coefficients × estimators); the limit is %.3g (raise it with --max-work)", opt.Replicates, work, l.MaxWork)
 	}
 	return nil
+}
+
+// limitFlags are the options that raise the resource limits.
+type limitFlags struct {
+	cells, n, reps *int
+	work           *float64
+}
+
+func addLimitFlags(fs *flag.FlagSet) limitFlags {
+	return limitFlags{
+		cells: fs.Int("max-cells", 0, "refuse scenarios with more than `N` cells (default 10000)"),
+		n:     fs.Int("max-n", 0, "refuse datasets of more than `N` observations (default 1000000)"),
+		reps:  fs.Int("max-replicates", 0, "refuse more than `N` replicates per cell (default 10000000)"),
+		work:  fs.Float64("max-work", 0, "refuse studies of more than `W` cells × replicates × n × coefficients × estimators (default 1e13)"),
+	}
+}
+
+func (l limitFlags) limits() scenarios.Limits {
+	return scenarios.Limits{MaxCells: *l.cells, MaxN: *l.n, MaxReplicates: *l.reps, MaxWork: *l.work}
 }
 
 // finishFile syncs and closes a temporary file and renames it to path.
@@ -131,15 +334,16 @@ func finishFile(f *os.File, path string) error {
 
 // loadScenario loads a scenario file, or a shipped scenario by name when no
 // such file exists.
-func loadScenario(arg string) (*scenarios.Study, error) {
-	st, err := scenarios.Load(arg)
+func loadScenario(arg string, limits scenarios.Limits) (*scenarios.Study, error) {
+	st, err := scenarios.LoadWith(arg, limits)
 	if err == nil {
 		return st, nil
 	}
 	if errors.Is(err, fs.ErrNotExist) && !strings.ContainsAny(arg, `/\`) {
 		name := strings.TrimSuffix(arg, ".yaml")
 		if _, lerr := scenarios.LibraryFile(name); lerr == nil {
-			return scenarios.LoadLibrary(name)
+			data, _ := scenarios.LibraryFile(name)
+			return scenarios.Parse(name+".yaml", data, limits)
 		}
 		return nil, usagef("%s: no such file, and no shipped scenario of that name (see 'rhomark scenarios')", arg)
 	}

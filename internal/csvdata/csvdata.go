@@ -122,6 +122,9 @@ func parse(s string) (float64, error) {
 		return 0, fmt.Errorf("%q is a missing value; rhomark fit needs complete numeric data (remove or impute the row)", s)
 	}
 	v, err := strconv.ParseFloat(s, 64)
+	if errors.Is(err, strconv.ErrRange) {
+		return 0, fmt.Errorf("%q is beyond the range of a float64 (about ±1.8e308, smallest 4.9e-324)", s)
+	}
 	if err != nil {
 		return 0, fmt.Errorf("%q is not a number", s)
 	}

@@ -1,0 +1,180 @@
+package main
+
+import (
+	"bytes"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"strings"
+	"sync"
+	"syscall"
+	"testing"
+	"time"
+)
+
+var (
+	buildOnce sync.Once
+	binPath   string
+	buildErr  error
+)
+
+// binary builds the rhomark command once for tests that need a real process
+// (signals, killing).
+func binary(t *testing.T) string {
+	t.Helper()
+	buildOnce.Do(func() {
+		dir, err := os.MkdirTemp("", "rhomark-bin-")
+		if err != nil {
+			buildErr = err
+			return
+		}
+		binPath = filepath.Join(dir, "rhomark")
+		out, err := exec.Command("go", "build", "-o", binPath, ".").CombinedOutput()
+		if err != nil {
+			buildErr = err
+			t.Logf("%s", out)
+		}
+	})
+	if buildErr != nil {
+		t.Fatalf("building rhomark: %v", buildErr)
+	}
+	return binPath
+}
+
+// waitFor polls until path exists.
+func waitFor(t *testing.T, path string, limit time.Duration) {
+	t.Helper()
+	deadline := time.Now().Add(limit)
+	for time.Now().Before(deadline) {
+		if _, err := os.Stat(path); err == nil {
+			return
+		}
+		time.Sleep(20 * time.Millisecond)
+	}
+	t.Fatalf("%s did not appear within %v", path, limit)
+}
+
+// killedRunArgs is a run long enough to be interrupted part-way.
+var killedRunArgs = []string{"run", "clean-normal", "--replicates", "4000", "--workers", "2", "--checkpoint-every", "50ms", "--quiet"}
+
+// TestKillAndResume kills a run with SIGKILL after its first checkpoint,
+// resumes it, and checks the results are byte-identical (CSV) to an
+// uninterrupted run's.
+func TestKillAndResume(t *testing.T) {
+	bin := binary(t)
+	dir := t.TempDir()
+	full := filepath.Join(dir, "full")
+	if out, err := exec.Command(bin, append(killedRunArgs, "--out", full)...).CombinedOutput(); err != nil {
+		t.Fatalf("uninterrupted run: %v\n%s", err, out)
+	}
+	part := filepath.Join(dir, "part")
+	cmd := exec.Command(bin, append(killedRunArgs, "--out", part)...)
+	if err := cmd.Start(); err != nil {
+		t.Fatal(err)
+	}
+	waitFor(t, filepath.Join(part, "clean-normal.checkpoint"), 60*time.Second)
+	time.Sleep(100 * time.Millisecond)
+	cmd.Process.Signal(syscall.SIGKILL)
+	cmd.Wait()
+	if _, err := os.Stat(filepath.Join(part, "clean-normal.csv")); err == nil {
+		t.Skip("the run finished before it could be killed; the machine is faster than this test assumes")
+	}
+	out, err := exec.Command(bin, "run", "--resume", part, "--quiet").CombinedOutput()
+	if err != nil {
+		t.Fatalf("resume: %v\n%s", err, out)
+	}
+	a, _ := os.ReadFile(filepath.Join(full, "clean-normal.csv"))
+	b, _ := os.ReadFile(filepath.Join(part, "clean-normal.csv"))
+	if len(a) == 0 || !bytes.Equal(a, b) {
+		t.Error("the resumed run's CSV differs from the uninterrupted run's")
+	}
+	if _, err := os.Stat(filepath.Join(part, "clean-normal.checkpoint")); err == nil {
+		t.Error("the checkpoint was left behind after the run completed")
+	}
+}
+
+// TestInterruptStopsCleanly sends SIGINT (and SIGTERM) to a run: it must
+// write what is finished, marked incomplete, say how to resume, exit 1, and
+// be resumable to the full results.
+func TestInterruptStopsCleanly(t *testing.T) {
+	bin := binary(t)
+	for _, sig := range []syscall.Signal{syscall.SIGINT, syscall.SIGTERM} {
+		dir := t.TempDir()
+		cmd := exec.Command(bin, append(killedRunArgs, "--out", dir)...)
+		var stderr bytes.Buffer
+		cmd.Stderr = &stderr
+		if err := cmd.Start(); err != nil {
+			t.Fatal(err)
+		}
+		waitFor(t, filepath.Join(dir, "clean-normal.checkpoint"), 60*time.Second)
+		cmd.Process.Signal(sig)
+		err := cmd.Wait()
+		if cmd.ProcessState.ExitCode() == 0 {
+			t.Skipf("the run finished before %v arrived", sig)
+		}
+		if ee, ok := err.(*exec.ExitError); !ok || ee.ExitCode() != exitFailure {
+			t.Errorf("%v: exit %v, want %d", sig, err, exitFailure)
+		}
+		if !strings.Contains(stderr.String(), "rhomark run --resume") {
+			t.Errorf("%v: stderr does not say how to resume: %s", sig, stderr.String())
+		}
+		data, err := os.ReadFile(filepath.Join(dir, "clean-normal.json"))
+		if err != nil || !bytes.Contains(data, []byte(`"complete": false`)) {
+			t.Errorf("%v: results not written or not marked incomplete (%v)", sig, err)
+		}
+		if out, err := exec.Command(bin, "run", "--resume", dir, "--quiet").CombinedOutput(); err != nil {
+			t.Errorf("%v: resume: %v\n%s", sig, err, out)
+		}
+	}
+}
+
+// TestWriteFailureKeepsOldResults: when the disk is full the run reports
+// a clear error and the previous results file is left intact. A small
+// tmpfs stands for the full disk (which needs root), else a read-only
+// directory (which root ignores).
+func TestWriteFailureKeepsOldResults(t *testing.T) {
+	bin := binary(t)
+	dir := t.TempDir()
+	out := filepath.Join(dir, "out")
+	os.MkdirAll(out, 0o755)
+	full := func() (func(), bool) {
+		if os.Geteuid() == 0 {
+			if err := exec.Command("mount", "-t", "tmpfs", "-o", "size=400k", "tmpfs", out).Run(); err == nil {
+				return func() { exec.Command("umount", out).Run() }, true
+			}
+			return nil, false
+		}
+		return nil, true
+	}
+	cleanup, ok := full()
+	if !ok {
+		t.Skip("cannot simulate a failing disk here: running as root without permission to mount a tmpfs")
+	}
+	if cleanup != nil {
+		defer cleanup()
+	}
+	if o, err := exec.Command(bin, "run", "flow-meter", "--replicates", "16", "--out", out, "--quiet").CombinedOutput(); err != nil {
+		t.Fatalf("first run: %v\n%s", err, o)
+	}
+	before, _ := os.ReadFile(filepath.Join(out, "flow-meter.json"))
+	if cleanup != nil {
+		// Fill the tmpfs.
+		f, _ := os.Create(filepath.Join(out, "filler"))
+		f.Write(make([]byte, 1<<20))
+		f.Close()
+	} else {
+		os.Chmod(out, 0o555)
+		defer os.Chmod(out, 0o755)
+	}
+	o, err := exec.Command(bin, "run", "flow-meter", "--replicates", "16", "--seed", "7", "--out", out, "--quiet").CombinedOutput()
+	if err == nil {
+		t.Fatal("the run reported success writing to a full disk")
+	}
+	if !strings.Contains(string(o), "cannot write") {
+		t.Errorf("unclear error: %s", o)
+	}
+	after, _ := os.ReadFile(filepath.Join(out, "flow-meter.json"))
+	if !bytes.Equal(before, after) {
+		t.Error("the previous results file was changed by the failed write")
+	}
+}

@@ -1,0 +1,86 @@
+package main
+
+import (
+	"bytes"
+	"fmt"
+	"os"
+	"path/filepath"
+	"strings"
+
+	"github.com/rhomark/rhomark/results"
+)
+
+func reportCmd(e env, args []string) error {
+	fs := newFlags(e, "report", "RESULTS.json [options]",
+		"Writes a self-contained HTML report of a run (figures inline; it opens without\nnetwork access), a Markdown summary for code reviews, and the figures as SVG and\nPNG files.")
+	out := fs.String("out", "", "the `directory` to write into (default: the results file's)")
+	noFigures := fs.Bool("no-figure-files", false, "do not write the figures as separate SVG and PNG files")
+	pos, err := parseFlags(fs, args)
+	if err != nil {
+		return err
+	}
+	if len(pos) != 1 {
+		return usagef("want one results file, got %d arguments", len(pos))
+	}
+	f, err := os.Open(pos[0])
+	if err != nil {
+		return err
+	}
+	res, err := results.ReadJSON(f)
+	f.Close()
+	if err != nil {
+		return dataError{fmt.Errorf("%s: %w", pos[0], err)}
+	}
+	dir := *out
+	if dir == "" {
+		dir = filepath.Dir(pos[0])
+	}
+	paths, err := writeReport(dir, res, !*noFigures)
+	if err != nil {
+		return err
+	}
+	fmt.Fprintf(e.stderr, "rhomark report: wrote %s\n", strings.Join(paths, ", "))
+	return nil
+}
+
+// writeReport writes NAME.html, NAME.md and, if asked, the figure files
+// into dir.
+func writeReport(dir string, res *results.Results, figureFiles bool) ([]string, error) {
+	name, err := results.SafeName(res.Scenario.Name)
+	if err != nil {
+		return nil, err
+	}
+	if err := os.MkdirAll(dir, 0o755); err != nil {
+		return nil, err
+	}
+	figs, err := results.Figures(res)
+	if err != nil {
+		return nil, fmt.Errorf("drawing the figures: %w", err)
+	}
+	var html, md bytes.Buffer
+	if err := results.WriteReport(&html, res, figs); err != nil {
+		return nil, err
+	}
+	if err := results.WriteMarkdownSummary(&md, res); err != nil {
+		return nil, err
+	}
+	var paths []string
+	for _, f := range []struct {
+		ext  string
+		data []byte
+	}{{".html", html.Bytes()}, {".md", md.Bytes()}} {
+		p := filepath.Join(dir, name+f.ext)
+		if err := results.WriteFileAtomic(p, f.data); err != nil {
+			return paths, err
+		}
+		paths = append(paths, p)
+	}
+	if figureFiles {
+		fp, err := results.SaveFigures(dir, name, figs)
+		if err != nil {
+			return paths, err
+		}
+		paths = append(paths, fp...)
+	}
+	return paths, nil
+}

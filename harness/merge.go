@@ -1,0 +1,147 @@
+package harness
+
+import (
+	"fmt"
+	"math/big"
+	"sort"
+	"strings"
+	"time"
+
+	"github.com/rhomark/rhomark/results"
+	"github.com/rhomark/rhomark/scenarios"
+)
+
+// StudyOf parses the scenario a partial carries and checks it is the one
+// the work was done for.
+func StudyOf(p *Partial, limits scenarios.Limits) (*scenarios.Study, error) {
+	st, err := scenarios.Parse(p.File, []byte(p.Source), limits)
+	if err != nil {
+		return nil, fmt.Errorf("the scenario carried by the partial results: %w", err)
+	}
+	if st.Hash != p.Hash {
+		return nil, fmt.Errorf("the scenario carried by the partial results does not match its hash (written by another version?)")
+	}
+	return st, nil
+}
+
+// attach decodes a read partial's tallies against the scenario's plans.
+func attach(p *Partial, plans []cellPlan) error {
+	if len(p.Cells) != len(plans) {
+		return fmt.Errorf("%d cells, the scenario has %d", len(p.Cells), len(plans))
+	}
+	p.cells = make([]*cellTally, len(plans))
+	for i, pl := range plans {
+		p.cells[i] = newCellTally(len(pl.ests), len(pl.truth), pl.slopes())
+		if err := p.cells[i].decode(p.Cells[i]); err != nil {
+			return fmt.Errorf("cell %d: %w", i, err)
+		}
+	}
+	return nil
+}
+
+// MergePartials merges the shards of one run. It refuses partials of
+// different scenarios, seeds, replicate counts, shard counts or tool
+// versions, and reports missing and duplicated shards by number. The merged
+// partial covers the whole run (Shards 0).
+func MergePartials(parts []*Partial, limits scenarios.Limits) (*Partial, *scenarios.Study, error) {
+	if len(parts) == 0 {
+		return nil, nil, fmt.Errorf("no partial results to merge")
+	}
+	first := parts[0]
+	for i, p := range parts[1:] {
+		var why []string
+		if p.Hash != first.Hash {
+			why = append(why, fmt.Sprintf("scenario %s (hash %.12s…) vs %s (hash %.12s…)", p.Scenario, p.Hash, first.Scenario, first.Hash))
+		}
+		if p.Seed != first.Seed {
+			why = append(why, fmt.Sprintf("seed %d vs %d", p.Seed, first.Seed))
+		}
+		if p.Replicates != first.Replicates {
+			why = append(why, fmt.Sprintf("replicates %d vs %d", p.Replicates, first.Replicates))
+		}
+		if p.Tool != first.Tool {
+			why = append(why, fmt.Sprintf("rhomark %s vs %s", p.Tool, first.Tool))
+		}
+		if p.Shards != first.Shards {
+			why = append(why, fmt.Sprintf("split into %d vs %d shards", p.Shards, first.Shards))
+		}
+		if len(why) > 0 {
+			return nil, nil, fmt.Errorf("partial %d does not belong with partial 1: %s", i+2, strings.Join(why, "; "))
+		}
+	}
+	m := first.Shards
+	if m == 0 {
+		m = 1
+	}
+	count := map[int]int{}
+	for _, p := range parts {
+		count[p.Shard]++
+	}
+	var missing, dup []string
+	for s := 0; s < m; s++ {
+		switch {
+		case count[s] == 0:
+			missing = append(missing, fmt.Sprint(s))
+		case count[s] > 1:
+			dup = append(dup, fmt.Sprintf("%d (%d times)", s, count[s]))
+		}
+	}
+	if len(missing) > 0 || len(dup) > 0 {
+		var why []string
+		if len(missing) > 0 {
+			why = append(why, "missing shards "+strings.Join(missing, ", "))
+		}
+		if len(dup) > 0 {
+			why = append(why, "duplicated shards "+strings.Join(dup, ", "))
+		}
+		return nil, nil, fmt.Errorf("the %d partials do not make up the %d shards: %s", len(parts), m, strings.Join(why, "; "))
+	}
+	st, err := StudyOf(first, limits)
+	if err != nil {
+		return nil, nil, err
+	}
+	plans, err := plan(st, first.Replicates)
+	if err != nil {
+		return nil, nil, err
+	}
+	sort.SliceStable(parts, func(i, j int) bool { return parts[i].Shard < parts[j].Shard })
+	merged := *first
+	merged.Shard, merged.Shards = 0, 0
+	merged.done = new(big.Int)
+	merged.cells = make([]*cellTally, len(plans))
+	for i, pl := range plans {
+		merged.cells[i] = newCellTally(len(pl.ests), len(pl.truth), pl.slopes())
+	}
+	for _, p := range parts {
+		if err := attach(p, plans); err != nil {
+			return nil, nil, fmt.Errorf("shard %d: %w", p.Shard, err)
+		}
+		if overlap := new(big.Int).And(merged.done, p.done); overlap.Sign() != 0 {
+			return nil, nil, fmt.Errorf("shard %d repeats work another shard already did", p.Shard)
+		}
+		merged.done.Or(merged.done, p.done)
+		for i := range plans {
+			merged.cells[i].merge(p.cells[i])
+		}
+	}
+	return &merged, st, nil
+}
+
+// Summarise turns the work in a partial (merged shards, or a checkpoint)
+// into results, exactly as the run that did all of it would have.
+func Summarise(st *scenarios.Study, p *Partial, tool results.Tool) (*results.Results, error) {
+	plans, err := plan(st, p.Replicates)
+	if err != nil {
+		return nil, err
+	}
+	if p.cells == nil {
+		if err := attach(p, plans); err != nil {
+			return nil, err
+		}
+	}
+	res := summariseAll(st, plans, p.cells, p.Seed, p.Replicates, tool)
+	res.Complete = p.Complete()
+	now := time.Now()
+	res.Provenance = provenance(0, now, plans, p.cells)
+	return res, nil
+}

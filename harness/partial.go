@@ -1,0 +1,296 @@
+package harness
+
+import (
+	"crypto/sha256"
+	"encoding/hex"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"io"
+	"math/big"
+	"strings"
+
+	"github.com/rhomark/rhomark/internal/exactsum"
+	"github.com/rhomark/rhomark/scenarios"
+)
+
+// Partial is the finished work of a run: the exact tallies of every cell
+// and the set of finished units. It is what a checkpoint holds, what a
+// shard writes, and what merge combines. Because every sum is exact, merging
+// partials in any order gives the summaries a single uninterrupted run would
+// have given, bit for bit.
+type Partial struct {
+	// Tool is the program version that produced the work; partials from
+	// different versions are not merged.
+	Tool string `json:"tool"`
+	// Scenario, File and Source are the scenario's name, file name and
+	// full text, so the work can be summarised or resumed from the partial
+	// alone; Hash is the scenario's hash.
+	Scenario string `json:"scenario"`
+	File     string `json:"file"`
+	Source   string `json:"source"`
+	Hash     string `json:"hash"`
+	// Seed and Replicates are the run's.
+	Seed       uint64 `json:"seed"`
+	Replicates int    `json:"replicates"`
+	// Shard and Shards identify a shard (Shards 0 when the run is not
+	// sharded).
+	Shard  int `json:"shard"`
+	Shards int `json:"shards"`
+	// Units is the total number of units of the run; Done marks the
+	// finished ones (a bitmap in hexadecimal, unit u at bit u).
+	Units int    `json:"units"`
+	Done  string `json:"done"`
+	// Cells holds the tallies of each cell.
+	Cells []tallyJSON `json:"cells"`
+
+	done  *big.Int
+	cells []*cellTally
+}
+
+// DoneUnits returns how many units are finished.
+func (p *Partial) DoneUnits() int {
+	n := 0
+	for _, w := range p.done.Bits() {
+		for x := uint64(w); x != 0; x &= x - 1 {
+			n++
+		}
+	}
+	return n
+}
+
+// Complete reports whether every unit is finished.
+func (p *Partial) Complete() bool { return p.DoneUnits() == p.Units }
+
+// isDone reports whether unit u is finished.
+func (p *Partial) isDone(u int) bool { return p.done.Bit(u) == 1 }
+
+// tallyJSON is the serialised form of a cellTally.
+type tallyJSON struct {
+	Replicates int64     `json:"replicates"`
+	Ests       []estJSON `json:"estimators"`
+}
+
+type estJSON struct {
+	Fits      int64      `json:"fits"`
+	Statuses  []int64    `json:"statuses"`
+	IterHist  []int64    `json:"iteration_histogram"`
+	IterSum   int64      `json:"iteration_sum"`
+	IterSum2  int64      `json:"iteration_sum2"`
+	Halvings  int64      `json:"halvings"`
+	Fallbacks int64      `json:"fallbacks"`
+	QRSolves  int64      `json:"qr_solves"`
+	Nanos     int64      `json:"nanos"`
+	Past      int64      `json:"past"`
+	Coefs     []coefJSON `json:"coefficients"`
+	Cross     []string   `json:"cross,omitempty"`
+}
+
+type coefJSON struct {
+	N       int64    `json:"n"`
+	NP      int64    `json:"paired"`
+	NInt    int64    `json:"intervals"`
+	Covered int64    `json:"covered"`
+	Sums    []string `json:"sums"` // s1 s2 s4 pa1 pb1 pa2 pb2 pab w1 w2
+}
+
+// sums lists a coefTally's exact sums in their serialised order.
+func (t *coefTally) sums() []*exactsum.Sum {
+	return []*exactsum.Sum{&t.s1, &t.s2, &t.s4, &t.pa1, &t.pb1, &t.pa2, &t.pb2, &t.pab, &t.w1, &t.w2}
+}
+
+func encodeSum(s *exactsum.Sum) string {
+	b, _ := s.MarshalText()
+	return string(b)
+}
+
+// encode serialises a tally.
+func (c *cellTally) encode() tallyJSON {
+	out := tallyJSON{Replicates: c.replicates}
+	for i := range c.ests {
+		e := &c.ests[i]
+		ej := estJSON{Fits: e.fits, Statuses: append([]int64(nil), e.statuses[:]...), IterHist: append([]int64(nil), e.iterHist...),
+			IterSum: e.iterSum, IterSum2: e.iterSum2, Halvings: e.halvings, Fallbacks: e.fallbacks, QRSolves: e.qrSolves,
+			Nanos: e.nanos, Past: e.past}
+		for j := range e.coefs {
+			t := &e.coefs[j]
+			cj := coefJSON{N: t.n, NP: t.np, NInt: t.nInt, Covered: t.covered}
+			for _, s := range t.sums() {
+				cj.Sums = append(cj.Sums, encodeSum(s))
+			}
+			ej.Coefs = append(ej.Coefs, cj)
+		}
+		for k := range e.cross {
+			ej.Cross = append(ej.Cross, encodeSum(&e.cross[k]))
+		}
+		out.Ests = append(out.Ests, ej)
+	}
+	return out
+}
+
+// decode restores a tally serialised by encode into c, which must have the
+// shape of the cell (estimators, coefficients, cross sums).
+func (c *cellTally) decode(j tallyJSON) error {
+	if len(j.Ests) != len(c.ests) {
+		return fmt.Errorf("%d estimators, the scenario has %d", len(j.Ests), len(c.ests))
+	}
+	c.replicates = j.Replicates
+	for i := range c.ests {
+		e, ej := &c.ests[i], j.Ests[i]
+		if len(ej.Coefs) != len(e.coefs) || len(ej.Cross) != len(e.cross) || len(ej.Statuses) != statusSlots {
+			return errors.New("the shape of a tally does not match the scenario")
+		}
+		e.fits, e.iterSum, e.iterSum2, e.halvings, e.fallbacks, e.qrSolves, e.nanos, e.past =
+			ej.Fits, ej.IterSum, ej.IterSum2, ej.Halvings, ej.Fallbacks, ej.QRSolves, ej.Nanos, ej.Past
+		copy(e.statuses[:], ej.Statuses)
+		e.iterHist = append([]int64(nil), ej.IterHist...)
+		for k := range e.coefs {
+			t, cj := &e.coefs[k], ej.Coefs[k]
+			if len(cj.Sums) != 10 {
+				return errors.New("a coefficient tally has the wrong number of sums")
+			}
+			t.n, t.np, t.nInt, t.covered = cj.N, cj.NP, cj.NInt, cj.Covered
+			for s, sum := range t.sums() {
+				if err := sum.UnmarshalText([]byte(cj.Sums[s])); err != nil {
+					return err
+				}
+			}
+		}
+		for k := range e.cross {
+			if err := e.cross[k].UnmarshalText([]byte(ej.Cross[k])); err != nil {
+				return err
+			}
+		}
+	}
+	return nil
+}
+
+// partialFile is the on-disk envelope of a Partial: the payload with its
+// SHA-256, so truncation and corruption are detected.
+type partialFile struct {
+	Format  string          `json:"format"`
+	SHA256  string          `json:"sha256"`
+	Payload json.RawMessage `json:"payload"`
+}
+
+const partialFormat = "rhomark partial 1"
+
+// WritePartial writes p with its checksum.
+func WritePartial(w io.Writer, p *Partial) error {
+	p.Done = p.done.Text(16)
+	p.Cells = p.Cells[:0]
+	for _, c := range p.cells {
+		p.Cells = append(p.Cells, c.encode())
+	}
+	payload, err := json.Marshal(p)
+	if err != nil {
+		return err
+	}
+	sum := sha256.Sum256(payload)
+	return json.NewEncoder(w).Encode(partialFile{Format: partialFormat, SHA256: hex.EncodeToString(sum[:]), Payload: payload})
+}
+
+// ReadPartial reads a partial written by WritePartial, verifying its
+// checksum. The tallies are restored when the partial is attached to its
+// scenario's plans (see attach).
+func ReadPartial(r io.Reader) (*Partial, error) {
+	data, err := io.ReadAll(io.LimitReader(r, 4<<30))
+	if err != nil {
+		return nil, err
+	}
+	var f partialFile
+	if err := json.Unmarshal(data, &f); err != nil {
+		return nil, fmt.Errorf("not a complete partial-results file (truncated or corrupted: %v)", firstLine(err.Error()))
+	}
+	if f.Format != partialFormat {
+		return nil, fmt.Errorf("not a partial-results file of this version (format %q)", f.Format)
+	}
+	sum := sha256.Sum256(f.Payload)
+	if hex.EncodeToString(sum[:]) != f.SHA256 {
+		return nil, errors.New("the partial-results file is corrupted: its checksum does not match its content")
+	}
+	var p Partial
+	if err := json.Unmarshal(f.Payload, &p); err != nil {
+		return nil, fmt.Errorf("partial-results payload: %v", err)
+	}
+	done, ok := new(big.Int).SetString(p.Done, 16)
+	if !ok || done.Sign() < 0 || done.BitLen() > p.Units {
+		return nil, errors.New("the partial-results file is corrupted: bad set of finished units")
+	}
+	p.done = done
+	return &p, nil
+}
+
+func firstLine(s string) string {
+	line, _, _ := strings.Cut(s, "\n")
+	return line
+}
+
+// newPartial starts the state of a run: empty tallies, or those of the
+// checkpoint being resumed (which must be of the same scenario, seed and
+// replicates).
+func newPartial(st *scenarios.Study, plans []cellPlan, seed uint64, reps int, opt Options) (*Partial, error) {
+	total := 0
+	for _, p := range plans {
+		total += p.blocks
+	}
+	p := &Partial{Tool: opt.Tool.Version, Scenario: st.Base.Name, File: st.File, Source: string(st.Source), Hash: st.Hash,
+		Seed: seed, Replicates: reps, Shard: opt.Shard, Shards: opt.Shards, Units: total, done: new(big.Int)}
+	for _, pl := range plans {
+		p.cells = append(p.cells, newCellTally(len(pl.ests), len(pl.truth), pl.slopes()))
+	}
+	r := opt.Resume
+	if r == nil {
+		return p, nil
+	}
+	switch {
+	case r.Hash != st.Hash:
+		return nil, fmt.Errorf("the checkpoint is of another scenario (hash %.12s…, this one %.12s…)", r.Hash, st.Hash)
+	case r.Seed != seed || r.Replicates != reps:
+		return nil, fmt.Errorf("the checkpoint is of seed %d with %d replicates, this run seed %d with %d", r.Seed, r.Replicates, seed, reps)
+	case r.Tool != opt.Tool.Version:
+		return nil, fmt.Errorf("the checkpoint was written by rhomark %s, this is %s; resume with the same version", r.Tool, opt.Tool.Version)
+	case r.Units != total || len(r.Cells) != len(plans):
+		return nil, errors.New("the checkpoint's units do not match the scenario")
+	case r.Shards != opt.Shards || r.Shard != opt.Shard:
+		return nil, fmt.Errorf("the checkpoint is of shard %d/%d, this run of %d/%d", r.Shard, r.Shards, opt.Shard, opt.Shards)
+	}
+	for i := range p.cells {
+		if err := p.cells[i].decode(r.Cells[i]); err != nil {
+			return nil, fmt.Errorf("checkpoint cell %d: %w", i, err)
+		}
+	}
+	p.done.Set(r.done)
+	return p, nil
+}
+
+// snapshot returns a deep copy of the state, safe to write while the run
+// goes on.
+func (p *Partial) snapshot() *Partial {
+	c := *p
+	c.done = new(big.Int).Set(p.done)
+	c.Cells = nil
+	c.cells = make([]*cellTally, len(p.cells))
+	for i, t := range p.cells {
+		cp := &cellTally{ests: make([]estTally, len(t.ests))}
+		for j := range t.ests {
+			cp.ests[j] = newEstTally(len(t.ests[j].coefs), crossSlopes(len(t.ests[j].cross)))
+		}
+		cp.merge(t)
+		c.cells[i] = cp
+	}
+	return &c
+}
+
+// crossSlopes returns the number of slopes whose cross sums number k
+// (k = s(s−1)/2), or more than maxCrossSlopes when there are none.
+func crossSlopes(k int) int {
+	if k == 0 {
+		return maxCrossSlopes + 1
+	}
+	s := 2
+	for s*(s-1)/2 < k {
+		s++
+	}
+	return s
+}

@@ -1,0 +1,635 @@
+package results
+
+import (
+	"bytes"
+	"encoding/xml"
+	"errors"
+	"image"
+	"image/png"
+	"io"
+	"math"
+	"os"
+	"path/filepath"
+	"slices"
+	"strings"
+	"testing"
+)
+
+// The fixtures in testdata are results files written by
+// `rhomark run FILE --replicates 16` (then compacted with json.Compact) for
+// three small flow-meter bench scenarios; each file records its scenario in
+// scenario.normalised. They are:
+//
+//	bench-faults     two fault sweeps (spikes, mislabelled runs), noise
+//	                 growing with volume: no single swept fraction, no theory
+//	bench-breakdown  a bad-leverage mass swept over fractions and two
+//	                 positions, with a breakdown section (worst case over
+//	                 the positions); huber hit its iteration limit in some fits
+//	bench-tuning     Huber's k swept at two spike fractions, normal noise:
+//	                 tuning theory present
+func readFixture(t testing.TB, name string) *Results {
+	t.Helper()
+	f, err := os.Open(filepath.Join("testdata", name+".json"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	r, err := ReadJSON(f)
+	if err != nil {
+		t.Fatalf("%s: %v", name, err)
+	}
+	return r
+}
+
+// checkSVG checks that b is well-formed XML whose root element is <svg>.
+func checkSVG(t *testing.T, what string, b []byte) {
+	t.Helper()
+	dec := xml.NewDecoder(bytes.NewReader(b))
+	root := ""
+	for {
+		tok, err := dec.Token()
+		if errors.Is(err, io.EOF) {
+			break
+		}
+		if err != nil {
+			t.Errorf("%s: SVG does not parse: %v", what, err)
+			return
+		}
+		if se, ok := tok.(xml.StartElement); ok && root == "" {
+			root = se.Name.Local
+		}
+	}
+	if root != "svg" {
+		t.Errorf("%s: SVG root element %q, want svg", what, root)
+	}
+}
+
+// checkPNG decodes b and checks its size and that it is not one flat
+// colour (at least three distinct colours: background, ink, a series).
+func checkPNG(t *testing.T, what string, b []byte) image.Image {
+	t.Helper()
+	img, err := png.Decode(bytes.NewReader(b))
+	if err != nil {
+		t.Errorf("%s: PNG does not decode: %v", what, err)
+		return nil
+	}
+	if got := img.Bounds().Size(); got.X != figurePixelsX || got.Y != figurePixelsY {
+		t.Errorf("%s: PNG is %dx%d, want %dx%d (7 × 4.5 in at %d dpi)", what, got.X, got.Y, figurePixelsX, figurePixelsY, figureDPI)
+	}
+	colours := map[[4]uint32]bool{}
+	bd := img.Bounds()
+	for y := bd.Min.Y; y < bd.Max.Y && len(colours) < 3; y += 3 {
+		for x := bd.Min.X; x < bd.Max.X; x += 3 {
+			r, g, b, a := img.At(x, y).RGBA()
+			colours[[4]uint32{r, g, b, a}] = true
+		}
+	}
+	if len(colours) < 3 {
+		t.Errorf("%s: PNG has %d colours; it looks blank", what, len(colours))
+	}
+	return img
+}
+
+// hasColourNear reports whether img has a pixel within tol (per 8-bit
+// channel) of the given colour.
+func hasColourNear(img image.Image, want [3]uint8, tol int) bool {
+	bd := img.Bounds()
+	for y := bd.Min.Y; y < bd.Max.Y; y++ {
+		for x := bd.Min.X; x < bd.Max.X; x++ {
+			r, g, b, _ := img.At(x, y).RGBA()
+			if abs(int(r>>8)-int(want[0])) <= tol && abs(int(g>>8)-int(want[1])) <= tol && abs(int(b>>8)-int(want[2])) <= tol {
+				return true
+			}
+		}
+	}
+	return false
+}
+
+func abs(v int) int {
+	if v < 0 {
+		return -v
+	}
+	return v
+}
+
+func figureNames(figs []Figure) []string {
+	names := make([]string, len(figs))
+	for i, f := range figs {
+		names[i] = f.Name
+	}
+	return names
+}
+
+func TestFiguresFromFixtures(t *testing.T) {
+	cases := []struct {
+		fixture string
+		// want follows from what each fixture holds (see readFixture):
+		// bias curves need a breakdown section or exactly one swept
+		// *.fraction; efficiency-vs-tuning needs tuning theory; failures
+		// need a failed fit; psi functions, iterations and coverage come
+		// from the M-estimators of the first cell.
+		want []string
+	}{
+		{"bench-faults", []string{"psi-functions", "iterations", "coverage"}},
+		{"bench-breakdown", []string{"bias-curves", "psi-functions", "iterations", "failures", "coverage"}},
+		{"bench-tuning", []string{"bias-curves", "efficiency-vs-tuning", "psi-functions", "iterations", "coverage"}},
+	}
+	for _, c := range cases {
+		t.Run(c.fixture, func(t *testing.T) {
+			r := readFixture(t, c.fixture)
+			figs, err := Figures(r)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if got := figureNames(figs); !slices.Equal(got, c.want) {
+				t.Fatalf("figures %v, want %v", got, c.want)
+			}
+			for _, f := range figs {
+				what := c.fixture + "/" + f.Name
+				if !strings.HasPrefix(f.Title, r.Scenario.Name+":") {
+					t.Errorf("%s: title %q does not start with the scenario", what, f.Title)
+				}
+				switch f.Name {
+				case "iterations", "coverage", "psi-functions":
+					if !strings.Contains(f.Title, "cell 1 of") {
+						t.Errorf("%s: title %q does not say which cell", what, f.Title)
+					}
+				}
+				if len(strings.Fields(f.Caption)) < 8 {
+					t.Errorf("%s: caption %q is too short to say what is drawn", what, f.Caption)
+				}
+				checkSVG(t, what, f.SVG)
+				checkPNG(t, what, f.PNG)
+			}
+		})
+	}
+}
+
+// TestFixtureFacts guards the facts the expected figure lists rely on, so
+// that a regenerated fixture that lost them fails here rather than
+// silently changing what TestFiguresFromFixtures covers.
+func TestFixtureFacts(t *testing.T) {
+	failed := func(r *Results) int64 {
+		var n int64
+		for _, c := range r.Cells {
+			for _, e := range c.Estimators {
+				n += e.Convergence.Fits - e.Convergence.Converged
+			}
+		}
+		return n
+	}
+	if r := readFixture(t, "bench-breakdown"); r.Breakdown == nil || len(r.Breakdown.WorstOver) == 0 || failed(r) == 0 {
+		t.Error("bench-breakdown should have a breakdown section with worst-over paths and some failed fits")
+	}
+	if r := readFixture(t, "bench-tuning"); len(r.TuningTheory) == 0 || failed(r) != 0 {
+		t.Error("bench-tuning should have tuning theory and no failed fit")
+	}
+	if r := readFixture(t, "bench-faults"); r.Breakdown != nil || len(r.TuningTheory) != 0 || failed(r) != 0 {
+		t.Error("bench-faults should have neither breakdown, tuning theory nor failed fits")
+	}
+}
+
+// TestFigureColours checks that the series colours reach the PNG: the bias
+// curves of bench-breakdown draw four estimators, so the first four
+// palette colours must each appear (anti-aliasing blends edges, so the test
+// allows 6 levels per channel).
+func TestFigureColours(t *testing.T) {
+	figs, err := Figures(readFixture(t, "bench-breakdown"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	img := checkPNG(t, "bias-curves", figs[0].PNG)
+	if img == nil {
+		t.FailNow()
+	}
+	for i := range 4 {
+		c := seriesColours[i]
+		if !hasColourNear(img, [3]uint8{c.R, c.G, c.B}, 6) {
+			t.Errorf("series %d colour (%s) not found in the bias-curve figure", i, seriesColourNames[i])
+		}
+	}
+}
+
+// handResults builds a small Results by hand: two cells that differ in one
+// swept fraction (and optionally a second sweep), with ls and a Huber
+// M-estimator. Values are invented for the test.
+func handResults(extraSweep bool) *Results {
+	mk := func(frac string, bias float64, extra string) Cell {
+		settings := []Setting{{Path: "contamination.spikes.fraction", Value: frac}}
+		if extraSweep {
+			settings = append(settings, Setting{Path: "model.n", Value: extra})
+		}
+		coef := func(b float64) []Coefficient {
+			return []Coefficient{
+				{Name: "intercept", Bias: Measure{Value: Num(b), MCSE: 0.01}, EmpSE: Measure{Value: 0.1, MCSE: 0.005}, RelEff: Measure{Value: 1, MCSE: 0}, Intervals: 100, Coverage: Measure{Value: 0.94, MCSE: 0.02}},
+				{Name: "volume", Bias: Measure{Value: Num(b / 10), MCSE: 0.001}, EmpSE: Measure{Value: 0.01, MCSE: 0.0005}, RelEff: Measure{Value: 1, MCSE: 0}, Intervals: 100, Coverage: Measure{Value: 0.96, MCSE: 0.02}},
+			}
+		}
+		return Cell{Settings: settings, Replicates: 100, Estimators: []Estimator{
+			{Label: "ls", Method: "ls", Coefficients: coef(bias), SlopeBias: Measure{Value: Num(bias / 10), MCSE: 0.001},
+				Convergence: Convergence{Fits: 100, Converged: 100, Statuses: []StatusCount{{Status: "solved", Count: 100}}, IterationHistogram: []int64{100}}},
+			{Label: "huber", Method: "irls", Psi: "huber", Tuning: []float64{1.345}, Coefficients: coef(bias / 4), SlopeBias: Measure{Value: Num(bias / 40), MCSE: 0.001},
+				Convergence: Convergence{Fits: 100, Converged: 100, Statuses: []StatusCount{{Status: "converged-change", Count: 100}}, IterationHistogram: []int64{0, 0, 0, 10, 40, 30, 20}}},
+		}}
+	}
+	r := &Results{Schema: SchemaVersion, Scenario: ScenarioInfo{Name: "bench-hand"}, Seed: 1, Replicates: 100, Complete: true, Reference: "ls"}
+	r.Cells = []Cell{mk("0", 0.01, "20"), mk("0.1", 0.5, "20"), mk("0.2", 1.2, "20")}
+	if extraSweep {
+		r.Cells = append(r.Cells, mk("0", 0.02, "40"), mk("0.1", 0.6, "40"), mk("0.2", 1.3, "40"))
+	}
+	for i := range r.Cells {
+		r.Cells[i].Index = i
+	}
+	return r
+}
+
+func TestFiguresFromHandResults(t *testing.T) {
+	iterLimit := func(r *Results) {
+		cv := &r.Cells[1].Estimators[1].Convergence
+		cv.Converged = 97
+		cv.Statuses = []StatusCount{{Status: "converged-change", Count: 97}, {Status: "iteration-limit", Count: 3}}
+	}
+	twoFractions := func(r *Results) {
+		for i := range r.Cells {
+			r.Cells[i].Settings = append(r.Cells[i].Settings, Setting{Path: "contamination.mislabelled.fraction", Value: "0"})
+		}
+	}
+	noIterations := func(r *Results) {
+		for i := range r.Cells {
+			r.Cells[i].Estimators[1].Convergence.IterationHistogram = []int64{100}
+		}
+	}
+	noIntervals := func(r *Results) {
+		for i := range r.Cells {
+			for j := range r.Cells[i].Estimators {
+				for k := range r.Cells[i].Estimators[j].Coefficients {
+					r.Cells[i].Estimators[j].Coefficients[k].Intervals = 0
+				}
+			}
+		}
+	}
+	longIterations := func(r *Results) {
+		h := make([]int64, 700)
+		h[3], h[40], h[650] = 50, 30, 20
+		r.Cells[0].Estimators[1].Convergence.IterationHistogram = h
+	}
+	tuning := func(r *Results) {
+		// The asymptotic curve over model.n stands in for a tuning sweep:
+		// any swept numeric path works the same way.
+		r.TuningTheory = []TuningCurve{{Path: "model.n", Estimator: "huber", Constants: []float64{10, 30, 50}, Efficiency: []float64{0.9, 0.94, 0.95}}}
+	}
+	cases := []struct {
+		name        string
+		extraSweep  bool
+		edit        func(*Results)
+		want        []string
+		captionHas  map[string]string
+		captionLack map[string]string
+	}{
+		{name: "one fraction swept", want: []string{"bias-curves", "iterations", "coverage"},
+			captionLack: map[string]string{"bias-curves": "first values"}},
+		{name: "fraction and another sweep", extraSweep: true, want: []string{"bias-curves", "iterations", "coverage"},
+			captionHas: map[string]string{"bias-curves": "model.n = 20"}},
+		{name: "two swept fractions", edit: twoFractions, want: []string{"iterations", "coverage"}},
+		{name: "failed fits", edit: iterLimit, want: []string{"bias-curves", "iterations", "failures", "coverage"},
+			captionHas: map[string]string{"failures": "No failed fits (not drawn): ls"}},
+		{name: "nothing iterates", edit: noIterations, want: []string{"bias-curves", "coverage"}},
+		{name: "no intervals", edit: noIntervals, want: []string{"bias-curves", "iterations"}},
+		{name: "tuning theory", extraSweep: true, edit: tuning, want: []string{"bias-curves", "efficiency-vs-tuning", "iterations", "coverage"},
+			captionHas: map[string]string{"efficiency-vs-tuning": "only from cells with contamination.spikes.fraction = 0"}},
+		{name: "long iteration counts", edit: longIterations, want: []string{"bias-curves", "iterations", "coverage"},
+			captionHas: map[string]string{"iterations": "log axis"}},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			r := handResults(c.extraSweep)
+			if c.edit != nil {
+				c.edit(r)
+			}
+			figs, err := Figures(r)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if got := figureNames(figs); !slices.Equal(got, c.want) {
+				t.Fatalf("figures %v, want %v", got, c.want)
+			}
+			for _, f := range figs {
+				if s, ok := c.captionHas[f.Name]; ok && !strings.Contains(f.Caption+" "+f.Title, s) {
+					t.Errorf("%s: caption %q lacks %q", f.Name, f.Caption, s)
+				}
+				if s, ok := c.captionLack[f.Name]; ok && strings.Contains(f.Caption, s) {
+					t.Errorf("%s: caption %q should not say %q", f.Name, f.Caption, s)
+				}
+			}
+		})
+	}
+}
+
+func TestFiguresOfEmptyOrOddResults(t *testing.T) {
+	if _, err := Figures(nil); err == nil {
+		t.Error("Figures(nil) gave no error")
+	}
+	figs, err := Figures(&Results{Scenario: ScenarioInfo{Name: "empty"}})
+	if err != nil || len(figs) != 0 {
+		t.Errorf("empty results: %d figures, error %v; want none and no error", len(figs), err)
+	}
+	// Values that are not numbers must be left out, not crash the drawing.
+	r := handResults(false)
+	nan := Num(math.NaN())
+	r.Cells[1].Estimators[0].SlopeBias = Measure{Value: nan, MCSE: nan}
+	r.Cells[0].Estimators[1].Coefficients[0].Coverage = Measure{Value: 0.9, MCSE: nan}
+	r.Functions = []FunctionCurve{{Estimator: "huber", Psi: "huber 1.345", U: []float64{0, 1, 2, math.NaN()}, PsiValues: []float64{0, 1, 1.345, 1.345}, Rho: []float64{0, 0.5, 1.7, 3}, Weight: []float64{1, 1, 0.67, 0.5}}}
+	figs, err = Figures(r)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got, want := figureNames(figs), []string{"bias-curves", "psi-functions", "iterations", "coverage"}; !slices.Equal(got, want) {
+		t.Errorf("figures %v, want %v", got, want)
+	}
+}
+
+func TestIterationEdges(t *testing.T) {
+	for _, maxK := range []int{0, 1, 7, linearBinLimit, linearBinLimit + 1, 999, 5000} {
+		e := iterationEdges(maxK)
+		if len(e) < 2 {
+			t.Fatalf("maxK %d: edges %v", maxK, e)
+		}
+		for i := 1; i < len(e); i++ {
+			if !(e[i] > e[i-1]) || e[i] != math.Round(e[i]) {
+				t.Fatalf("maxK %d: edges not increasing integers: %v", maxK, e)
+			}
+		}
+		if e[len(e)-1] <= float64(maxK) {
+			t.Errorf("maxK %d: last edge %v does not cover it", maxK, e[len(e)-1])
+		}
+		linear := maxK <= linearBinLimit
+		if linear && (e[0] != 0 || len(e) != maxK+2) {
+			t.Errorf("maxK %d: want unit bins from 0, got %v", maxK, e)
+		}
+		if !linear && (e[0] != 1 || len(e) > 10+10*4+2) {
+			t.Errorf("maxK %d: want geometric bins from 1 (about ten per decade), got %d edges", maxK, len(e))
+		}
+	}
+}
+
+func TestEfficiencyCurveFigure(t *testing.T) {
+	// Invented, smooth test values (not a real psi's efficiency).
+	var k, eff, ges []float64
+	for i := range 30 {
+		c := 0.5 + 0.1*float64(i)
+		k = append(k, c)
+		eff = append(eff, 1-0.5*math.Exp(-c))
+		ges = append(ges, 1+c/2)
+	}
+	cases := []struct {
+		name    string
+		ges     []float64
+		wantErr bool
+	}{
+		{"efficiency only", nil, false},
+		{"with sensitivity", ges, false},
+		{"sensitivity wrong length", ges[:3], true},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			f, err := EfficiencyCurveFigure("flow-meter bench: Huber's k", "Huber's k", k, eff, c.ges)
+			if (err != nil) != c.wantErr {
+				t.Fatalf("error %v, want error %v", err, c.wantErr)
+			}
+			if err != nil {
+				return
+			}
+			if f.Name != "efficiency-curve" || f.Title != "flow-meter bench: Huber's k" {
+				t.Errorf("name %q, title %q", f.Name, f.Title)
+			}
+			if (c.ges != nil) != strings.Contains(f.Caption, "gross-error sensitivity") {
+				t.Errorf("caption %q does not match the panels drawn", f.Caption)
+			}
+			checkSVG(t, c.name, f.SVG)
+			checkPNG(t, c.name, f.PNG)
+		})
+	}
+	if _, err := EfficiencyCurveFigure("t", "k", []float64{1, 2}, []float64{0.9}, nil); err == nil {
+		t.Error("mismatched lengths accepted")
+	}
+	if _, err := EfficiencyCurveFigure("t", "k", []float64{1, 2}, []float64{0.9, math.NaN()}, nil); err == nil {
+		t.Error("a curve with one finite point accepted")
+	}
+}
+
+func TestSaveFigures(t *testing.T) {
+	figs, err := Figures(readFixture(t, "bench-tuning"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	dir := filepath.Join(t.TempDir(), "out")
+	paths, err := SaveFigures(dir, "bench-tuning", figs[:2])
+	if err != nil {
+		t.Fatal(err)
+	}
+	want := []string{"bench-tuning-bias-curves.svg", "bench-tuning-bias-curves.png", "bench-tuning-efficiency-vs-tuning.svg", "bench-tuning-efficiency-vs-tuning.png"}
+	if len(paths) != len(want) {
+		t.Fatalf("paths %v, want %v", paths, want)
+	}
+	for i, p := range paths {
+		if filepath.Base(p) != want[i] {
+			t.Errorf("path %d is %s, want %s", i, filepath.Base(p), want[i])
+		}
+		got, err := os.ReadFile(p)
+		if err != nil {
+			t.Fatal(err)
+		}
+		src := figs[i/2].SVG
+		if i%2 == 1 {
+			src = figs[i/2].PNG
+		}
+		if !bytes.Equal(got, src) {
+			t.Errorf("%s does not hold the figure", p)
+		}
+	}
+	entries, _ := os.ReadDir(dir)
+	if len(entries) != len(want) {
+		t.Errorf("%d files in the directory, want %d (temporary files left?)", len(entries), len(want))
+	}
+	for _, bad := range []string{"../x", ".hidden", ""} {
+		if _, err := SaveFigures(dir, bad, figs); err == nil {
+			t.Errorf("name %q accepted", bad)
+		}
+	}
+	if _, err := SaveFigures(dir, "ok", []Figure{{Name: "a/b", SVG: []byte("x"), PNG: []byte("x")}}); err == nil {
+		t.Error("figure name with a slash accepted")
+	}
+}
+
+// ---------------------------------------------------------------------------
+// Palette.
+
+// Colour-vision-deficiency simulation matrices of Machado, Oliveira &
+// Fernandes (2009), "A physiologically-based model for simulation of color
+// vision deficiency", IEEE TVCG 15:1291-1298, Table 1, severity 1.0, applied
+// to linear RGB. Values from memory.
+var cvdMatrices = []struct {
+	name string
+	m    [3][3]float64
+}{
+	{"protanopia", [3][3]float64{{0.152286, 1.052583, -0.204868}, {0.114503, 0.786281, 0.099216}, {-0.003882, -0.048116, 1.051998}}},
+	{"deuteranopia", [3][3]float64{{0.367322, 0.860646, -0.227968}, {0.280085, 0.672501, 0.047413}, {-0.011820, 0.042940, 0.968881}}},
+	{"tritanopia", [3][3]float64{{1.255528, -0.076749, -0.178779}, {-0.078411, 0.930809, 0.147602}, {0.004733, 0.691367, 0.303900}}},
+}
+
+var identity = [3][3]float64{{1, 0, 0}, {0, 1, 0}, {0, 0, 1}}
+
+// srgbToLinear is the sRGB transfer function inverted (IEC 61966-2-1;
+// constants from memory).
+func srgbToLinear(v uint8) float64 {
+	c := float64(v) / 255
+	if c <= 0.04045 {
+		return c / 12.92
+	}
+	return math.Pow((c+0.055)/1.055, 2.4)
+}
+
+// toLab converts an sRGB colour, after the matrix m acts on its linear RGB
+// (clipped to [0, 1]), to CIELAB under D65. The sRGB-to-XYZ matrix and the
+// D65 white are those of IEC 61966-2-1, and the Lab formulas CIE 15
+// (both from memory).
+func toLab(r, g, b uint8, m [3][3]float64) [3]float64 {
+	lin := [3]float64{srgbToLinear(r), srgbToLinear(g), srgbToLinear(b)}
+	var s [3]float64
+	for i := range 3 {
+		s[i] = math.Min(1, math.Max(0, m[i][0]*lin[0]+m[i][1]*lin[1]+m[i][2]*lin[2]))
+	}
+	x := 0.4124*s[0] + 0.3576*s[1] + 0.1805*s[2]
+	y := 0.2126*s[0] + 0.7152*s[1] + 0.0722*s[2]
+	z := 0.0193*s[0] + 0.1192*s[1] + 0.9505*s[2]
+	f := func(t float64) float64 {
+		if t > 216.0/24389 {
+			return math.Cbrt(t)
+		}
+		return (24389.0/27*t + 16) / 116
+	}
+	fx, fy, fz := f(x/0.95047), f(y), f(z/1.08883)
+	return [3]float64{116*fy - 16, 500 * (fx - fy), 200 * (fy - fz)}
+}
+
+func deltaE76(a, b [3]float64) float64 {
+	return math.Sqrt((a[0]-b[0])*(a[0]-b[0]) + (a[1]-b[1])*(a[1]-b[1]) + (a[2]-b[2])*(a[2]-b[2]))
+}
+
+// TestColourScience checks the conversions the palette tests rely on.
+func TestColourScience(t *testing.T) {
+	// sRGB red is L* 53.24, a* 80.09, b* 67.20 (common practice: the
+	// widely tabulated value; from memory).
+	red := toLab(255, 0, 0, identity)
+	for i, want := range []float64{53.24, 80.09, 67.20} {
+		if math.Abs(red[i]-want) > 0.05 {
+			t.Errorf("sRGB red in CIELAB %v, want L*a*b* 53.24, 80.09, 67.20", red)
+			break
+		}
+	}
+	if w := toLab(255, 255, 255, identity); math.Abs(w[0]-100) > 0.01 || math.Abs(w[1]) > 0.05 || math.Abs(w[2]) > 0.05 {
+		t.Errorf("white in CIELAB %v, want 100, 0, 0", w)
+	}
+	for _, cvd := range cvdMatrices {
+		// Each row of the published matrices sums to 1 (white stays white).
+		for i, row := range cvd.m {
+			if s := row[0] + row[1] + row[2]; math.Abs(s-1) > 2e-6 {
+				t.Errorf("%s row %d sums to %v, not 1: transcription error?", cvd.name, i, s)
+			}
+		}
+	}
+	// The simulations must really confuse the classic pairs: pure red
+	// against pure green under protanopia and deuteranopia, blue against
+	// green... the tritan confusion line runs through blue and green.
+	pairs := []struct {
+		cvd  int
+		a, b [3]uint8
+	}{
+		{0, [3]uint8{255, 0, 0}, [3]uint8{0, 255, 0}},
+		{1, [3]uint8{255, 0, 0}, [3]uint8{0, 255, 0}},
+		{2, [3]uint8{0, 0, 255}, [3]uint8{0, 255, 0}},
+	}
+	for _, p := range pairs {
+		m := cvdMatrices[p.cvd]
+		normal := deltaE76(toLab(p.a[0], p.a[1], p.a[2], identity), toLab(p.b[0], p.b[1], p.b[2], identity))
+		sim := deltaE76(toLab(p.a[0], p.a[1], p.a[2], m.m), toLab(p.b[0], p.b[1], p.b[2], m.m))
+		if sim > normal/2 {
+			t.Errorf("%s: %v vs %v ΔE %.1f simulated, %.1f normal: the simulation hardly confuses them", m.name, p.a, p.b, sim, normal)
+		}
+	}
+}
+
+// minSeriesDeltaE is the smallest CIELAB ΔE76 allowed between any two of
+// the first six series colours, under normal vision and each simulated
+// dichromacy. About 2.3 is a just-noticeable difference; 10 keeps colours
+// apart as categories on thin lines and small markers (common practice; the
+// threshold is our choice).
+const minSeriesDeltaE = 10
+
+func TestPaletteUnderColourVisionDeficiency(t *testing.T) {
+	sims := append([]struct {
+		name string
+		m    [3][3]float64
+	}{{"normal vision", identity}}, cvdMatrices...)
+	for _, sim := range sims {
+		for i := range 6 {
+			for j := i + 1; j < 6; j++ {
+				a, b := styleOf(i).colour, styleOf(j).colour
+				d := deltaE76(toLab(a.R, a.G, a.B, sim.m), toLab(b.R, b.G, b.B, sim.m))
+				if d < minSeriesDeltaE {
+					t.Errorf("%s: series %d (%s) and %d (%s) are ΔE76 %.1f apart, want ≥ %d",
+						sim.name, i, styleOf(i).colourName, j, styleOf(j).colourName, d, minSeriesDeltaE)
+				}
+			}
+		}
+	}
+}
+
+// similarGrey is the CIELAB L* difference below which two series cannot be
+// told apart by grey level alone in a greyscale print (our choice: a fifth
+// of the L* range).
+const similarGrey = 20
+
+func TestPaletteInGreyscale(t *testing.T) {
+	const n = 8
+	similar := 0
+	for i := range n {
+		for j := i + 1; j < n; j++ {
+			a, b := styleOf(i), styleOf(j)
+			la := toLab(a.colour.R, a.colour.G, a.colour.B, identity)[0]
+			lb := toLab(b.colour.R, b.colour.G, b.colour.B, identity)[0]
+			if math.Abs(la-lb) >= similarGrey {
+				continue
+			}
+			similar++
+			if a.markerName == b.markerName && a.dashName == b.dashName {
+				t.Errorf("series %d and %d have grey levels L* %.0f and %.0f yet share marker %s and dash %s", i, j, la, lb, a.markerName, a.dashName)
+			}
+		}
+	}
+	// The Okabe & Ito mid tones (L* 46–71) are alike in grey, so the check
+	// above must have had pairs to look at.
+	if similar == 0 {
+		t.Error("no series pair has a similar grey level; the greyscale check did nothing")
+	}
+	// Stronger: the first eight series each have their own marker and dash.
+	markers, dashes := map[string]bool{}, map[string]bool{}
+	for i := range n {
+		s := styleOf(i)
+		markers[s.markerName] = true
+		dashes[s.dashName] = true
+	}
+	if len(markers) != n || len(dashes) != n {
+		t.Errorf("first %d series use %d markers and %d dashes; want all distinct", n, len(markers), len(dashes))
+	}
+	// Beyond eight, combinations still differ.
+	seen := map[[3]string]int{}
+	for i := range 64 {
+		s := styleOf(i)
+		key := [3]string{s.colourName, s.markerName, s.dashName}
+		if j, ok := seen[key]; ok {
+			t.Fatalf("series %d and %d look the same: %v", j, i, key)
+		}
+		seen[key] = i
+	}
+}

@@ -1,0 +1,404 @@
+package results
+
+import (
+	"bytes"
+	"encoding/base64"
+	"encoding/xml"
+	"errors"
+	"image/png"
+	"io"
+	"math"
+	"slices"
+	"strconv"
+	"strings"
+	"sync"
+	"testing"
+)
+
+// fixtureFigures renders each fixture's figures once for all report tests.
+var fixtureFigures = struct {
+	sync.Mutex
+	figs map[string][]Figure
+}{figs: map[string][]Figure{}}
+
+func figuresOf(t *testing.T, name string) (*Results, []Figure) {
+	t.Helper()
+	r := readFixture(t, name)
+	fixtureFigures.Lock()
+	defer fixtureFigures.Unlock()
+	figs, ok := fixtureFigures.figs[name]
+	if !ok {
+		var err error
+		figs, err = Figures(r)
+		if err != nil {
+			t.Fatal(err)
+		}
+		fixtureFigures.figs[name] = figs
+	}
+	return r, figs
+}
+
+// page is what the strict XML walk of a report finds.
+type page struct {
+	elements map[string]int      // element name → count
+	ids      []string            // every id attribute
+	imgs     []map[string]string // attributes of each <img>
+	links    []string            // every src and href
+	title    string
+	figures  int // <figure> elements with a <figcaption> inside
+	text     string
+}
+
+// parsePage walks the report as strict XML (the report promises to be
+// well-formed) and collects its structure.
+func parsePage(t *testing.T, doc []byte) page {
+	t.Helper()
+	dec := xml.NewDecoder(bytes.NewReader(doc))
+	dec.Strict = true
+	p := page{elements: map[string]int{}}
+	var stack []string
+	var text strings.Builder
+	inFigure, captioned := false, false
+	for {
+		tok, err := dec.Token()
+		if errors.Is(err, io.EOF) {
+			break
+		}
+		if err != nil {
+			t.Fatalf("report is not well-formed: %v", err)
+		}
+		switch tk := tok.(type) {
+		case xml.StartElement:
+			name := tk.Name.Local
+			stack = append(stack, name)
+			p.elements[name]++
+			attrs := map[string]string{}
+			for _, a := range tk.Attr {
+				attrs[a.Name.Local] = a.Value
+				switch a.Name.Local {
+				case "id":
+					p.ids = append(p.ids, a.Value)
+				case "src", "href":
+					p.links = append(p.links, a.Value)
+				}
+			}
+			switch name {
+			case "img":
+				p.imgs = append(p.imgs, attrs)
+			case "figure":
+				inFigure, captioned = true, false
+			case "figcaption":
+				captioned = captioned || inFigure
+			}
+		case xml.EndElement:
+			if tk.Name.Local == "figure" {
+				if captioned {
+					p.figures++
+				}
+				inFigure = false
+			}
+			stack = stack[:len(stack)-1]
+		case xml.CharData:
+			if len(stack) > 0 && stack[len(stack)-1] == "title" {
+				p.title += string(tk)
+			}
+			if len(stack) > 0 && stack[len(stack)-1] != "script" && stack[len(stack)-1] != "style" {
+				text.Write(tk)
+			}
+		}
+	}
+	p.text = text.String()
+	return p
+}
+
+func TestWriteReportFromFixtures(t *testing.T) {
+	cases := []struct {
+		fixture string
+		// mentions are texts the page must show, taken from the fixture's
+		// own definition (see readFixture), not from the report.
+		mentions []string
+	}{
+		{"bench-faults", []string{"contamination.spikes.fraction", "contamination.mislabelled.fraction", "bisquare"}},
+		{"bench-breakdown", []string{"contamination.mislabelled.at", "iteration-limit", "bisquare-s"}},
+		{"bench-tuning", []string{"estimators.huber.tuning", "0.75, 1.345, 2.5"}},
+	}
+	for _, c := range cases {
+		t.Run(c.fixture, func(t *testing.T) {
+			r, figs := figuresOf(t, c.fixture)
+			var buf bytes.Buffer
+			if err := WriteReport(&buf, r, figs); err != nil {
+				t.Fatal(err)
+			}
+			doc := buf.Bytes()
+			p := parsePage(t, doc)
+			for _, el := range []string{"html", "head", "body", "title", "style", "script"} {
+				if p.elements[el] != 1 {
+					t.Errorf("%d <%s> elements, want 1", p.elements[el], el)
+				}
+			}
+			if !strings.Contains(p.title, r.Scenario.Name) {
+				t.Errorf("title %q does not name the scenario", p.title)
+			}
+			for _, id := range []string{"job", "scenario", "best", "figures", "convergence", "provenance"} {
+				if !slices.Contains(p.ids, id) {
+					t.Errorf("section id %q missing", id)
+				}
+			}
+			// One figure image per figure, each a PNG data URI that decodes.
+			if len(p.imgs) != len(figs) || p.figures != len(figs) {
+				t.Errorf("%d <img>, %d captioned <figure>, want %d each", len(p.imgs), p.figures, len(figs))
+			}
+			for i, img := range p.imgs {
+				if img["class"] != "figure" {
+					t.Errorf("img %d class %q, want figure", i, img["class"])
+				}
+				const prefix = "data:image/png;base64,"
+				src := img["src"]
+				if !strings.HasPrefix(src, prefix) {
+					t.Errorf("img %d src does not start with %s", i, prefix)
+					continue
+				}
+				raw, err := base64.StdEncoding.DecodeString(src[len(prefix):])
+				if err != nil {
+					t.Errorf("img %d: base64: %v", i, err)
+					continue
+				}
+				pic, err := png.Decode(bytes.NewReader(raw))
+				if err != nil {
+					t.Errorf("img %d: PNG: %v", i, err)
+					continue
+				}
+				if s := pic.Bounds().Size(); s.X != figurePixelsX || s.Y != figurePixelsY {
+					t.Errorf("img %d is %v", i, s)
+				}
+			}
+			// Nothing outside the page: links are data URIs or in-page anchors.
+			svgLinks := 0
+			for _, l := range p.links {
+				switch {
+				case strings.HasPrefix(l, "#"), strings.HasPrefix(l, "data:image/png;base64,"):
+				case strings.HasPrefix(l, "data:image/svg+xml;base64,"):
+					svgLinks++
+				default:
+					t.Errorf("link %.60q points outside the page", l)
+				}
+			}
+			if svgLinks != len(figs) {
+				t.Errorf("%d SVG links, want one per figure (%d)", svgLinks, len(figs))
+			}
+			if bytes.Contains(doc, []byte("http://")) || bytes.Contains(doc, []byte("https://")) {
+				t.Error("report contains an http(s) URL")
+			}
+			if !strings.Contains(p.text, "Simulation results hold for the simulated model only; check an estimator on your own data before relying on it for decisions.") {
+				t.Error("caution sentence missing")
+			}
+			if !bytes.Contains(doc, []byte(figuresLoadedScript)) || !bytes.Contains(doc, []byte("data-figures-loaded")) {
+				t.Error("figure-load script missing")
+			}
+			for _, m := range append(c.mentions, r.Scenario.Hash, "seed") {
+				if !strings.Contains(p.text, m) {
+					t.Errorf("page does not mention %q", m)
+				}
+			}
+		})
+	}
+}
+
+// TestWriteReportEscapes feeds text with markup characters through every
+// place the report quotes results text; the page must stay well-formed and
+// show the text, not obey it.
+func TestWriteReportEscapes(t *testing.T) {
+	r := handResults(false)
+	r.Scenario.Name = `bench <b>&"x"`
+	r.Scenario.Normalised = []byte(`{"about": "spikes <script>alert(1)</script> & drift", "model": {"n": 20}}`)
+	r.Cells[0].Estimators[1].Label = `hub<er>&`
+	r.Cells[0].Settings[0].Value = `0 </td>`
+	r.Provenance.Build = map[string]string{"vcs.revision": `<i>abc</i>`}
+	var buf bytes.Buffer
+	if err := WriteReport(&buf, r, nil); err != nil {
+		t.Fatal(err)
+	}
+	p := parsePage(t, buf.Bytes())
+	for _, want := range []string{`bench <b>&"x"`, "spikes <script>alert(1)</script> & drift", `hub<er>&`, `0 </td>`, `<i>abc</i>`} {
+		if !strings.Contains(p.text, want) {
+			t.Errorf("page text lacks %q", want)
+		}
+	}
+	if p.elements["b"] != 0 || p.elements["i"] != 0 || p.elements["script"] != 1 {
+		t.Errorf("markup from results text became elements: %v", p.elements)
+	}
+	if !slices.Contains(p.ids, "figures") || p.elements["img"] != 0 {
+		t.Error("without figures the section should be there and hold no image")
+	}
+}
+
+func TestWriteReportIncomplete(t *testing.T) {
+	r := handResults(false)
+	r.Complete = false
+	r.Cells[2].Replicates = 40
+	var html, md bytes.Buffer
+	if err := WriteReport(&html, r, nil); err != nil {
+		t.Fatal(err)
+	}
+	if err := WriteMarkdownSummary(&md, r); err != nil {
+		t.Fatal(err)
+	}
+	if !strings.Contains(html.String(), "stopped early") || !strings.Contains(html.String(), "40 of 100 replicates") {
+		t.Error("report does not say the run stopped early and how far cell 3 got")
+	}
+	if !strings.Contains(md.String(), "incomplete") || !strings.Contains(md.String(), "40 of 100 replicates") {
+		t.Error("summary does not say the run stopped early and how far cell 3 got")
+	}
+}
+
+func TestPickBest(t *testing.T) {
+	c := func(label string, score, mcse float64) candidate {
+		return candidate{label: label, score: score, mcse: mcse, m: Measure{Value: Num(score), MCSE: Num(mcse)}}
+	}
+	cases := []struct {
+		name     string
+		cands    []candidate
+		best     string
+		equal    []string
+		tied     []string
+		runnerUp string
+	}{
+		// 0.11 − 0.10 = 0.01 ≤ 2·√(0.01² + 0.01²) = 0.028: a tie.
+		{"tie within 2 combined MCSE", []candidate{c("a", 0.10, 0.01), c("b", 0.50, 0.01), c("c", 0.11, 0.01)}, "a", nil, []string{"c"}, "b"},
+		// 0.13 − 0.10 = 0.03 > 0.028: clear.
+		{"just clear", []candidate{c("a", 0.13, 0.01), c("b", 0.10, 0.01)}, "b", nil, nil, "a"},
+		{"not-a-number skipped", []candidate{c("a", math.NaN(), 0.01), c("b", 0.2, 0.01), c("c", 0.3, math.NaN())}, "b", nil, nil, "c"},
+		{"exact equals", []candidate{c("a", 0, 0), c("b", 0, 0), c("c", 0.002, 0.002)}, "a", []string{"b"}, []string{"c"}, ""},
+	}
+	for _, tc := range cases {
+		t.Run(tc.name, func(t *testing.T) {
+			e, ok := pickBest(bestBias, "volume", tc.cands)
+			if !ok {
+				t.Fatal("no best")
+			}
+			if e.best.label != tc.best || !slices.Equal(e.equal, tc.equal) || !slices.Equal(e.tied, tc.tied) || e.runnerUp != tc.runnerUp {
+				t.Errorf("best %s equal %v tied %v runner-up %q; want %s %v %v %q", e.best.label, e.equal, e.tied, e.runnerUp, tc.best, tc.equal, tc.tied, tc.runnerUp)
+			}
+		})
+	}
+	if _, ok := pickBest(bestBias, "x", []candidate{c("a", math.NaN(), 1)}); ok {
+		t.Error("a best among no finite values")
+	}
+}
+
+// TestBestInCell checks the measures compared, on the hand-built results
+// whose values are known: in cell 2 huber's bias is a quarter of least
+// squares' and clearly smaller; the emp. SEs are equal; nothing failed.
+func TestBestInCell(t *testing.T) {
+	r := handResults(false)
+	entries := bestInCell(r, r.Cells[1])
+	type key struct{ measure, coef string }
+	got := map[key]bestEntry{}
+	for _, e := range entries {
+		got[key{e.measure, e.coefficient}] = e
+	}
+	if e := got[key{bestBias, "intercept"}]; e.best.label != "huber" || len(e.tied) != 0 || e.runnerUp != "ls" {
+		t.Errorf("intercept bias: %+v, want huber clearly ahead of ls", e)
+	}
+	if e := got[key{bestEmpSE, "volume"}]; len(e.equal) != 1 {
+		t.Errorf("volume emp. SE: %+v, want ls and huber equal", e)
+	}
+	if e := got[key{bestFailure, ""}]; !e.allZero || e.compared != 2 {
+		t.Errorf("failure rate: %+v, want nothing failed among 2", e)
+	}
+	if len(entries) != 3*2+1 {
+		t.Errorf("%d entries, want 3 measures × 2 coefficients + failure rate", len(entries))
+	}
+}
+
+func TestWriteMarkdownSummary(t *testing.T) {
+	cases := []struct {
+		fixture  string
+		headings []string
+		mentions []string
+	}{
+		{"bench-faults", []string{"# rhomark summary: bench-faults", "## What did best", "## Convergence problems"},
+			[]string{"None: every fit ended with a usable solution."}},
+		{"bench-breakdown", []string{"# rhomark summary: bench-breakdown", "## What did best", "## Convergence problems", "## Simulation against theory"},
+			[]string{"iteration-limit", "Largest |theory gap|"}},
+		{"bench-tuning", []string{"# rhomark summary: bench-tuning", "## What did best", "## Convergence problems", "## Simulation against theory"},
+			[]string{"None: every fit ended with a usable solution.", "Largest |theory gap|"}},
+	}
+	for _, c := range cases {
+		t.Run(c.fixture, func(t *testing.T) {
+			r := readFixture(t, c.fixture)
+			var buf bytes.Buffer
+			if err := WriteMarkdownSummary(&buf, r); err != nil {
+				t.Fatal(err)
+			}
+			md := buf.String()
+			var heads []string
+			for _, line := range strings.Split(md, "\n") {
+				if strings.HasPrefix(line, "#") {
+					heads = append(heads, line)
+				}
+			}
+			if !slices.Equal(heads, c.headings) {
+				t.Errorf("headings %q, want %q", heads, c.headings)
+			}
+			for _, m := range append(c.mentions, cautionSentence, "seed "+strconv.FormatUint(r.Seed, 10), "16 replicates per cell", "complete") {
+				if !strings.Contains(md, m) {
+					t.Errorf("summary lacks %q", m)
+				}
+			}
+			if n := strings.Count(md, "**Cell "); n != min(len(r.Cells), markdownMaxCells) {
+				t.Errorf("%d cell blocks, want %d", n, min(len(r.Cells), markdownMaxCells))
+			}
+		})
+	}
+}
+
+func TestMarkdownEscaping(t *testing.T) {
+	cases := []struct{ in, want string }{
+		{"a_b*c", `a\_b\*c`},
+		{"x|y", `x\|y`},
+		{"two\nlines", "two lines"},
+	}
+	for _, c := range cases {
+		if got := mdText(c.in); got != c.want {
+			t.Errorf("mdText(%q) = %q, want %q", c.in, got, c.want)
+		}
+	}
+	codes := []struct{ in, want string }{
+		{"huber", "`huber`"},
+		{"a`b", "`` a`b ``"},
+	}
+	for _, c := range codes {
+		if got := mdCode(c.in); got != c.want {
+			t.Errorf("mdCode(%q) = %q, want %q", c.in, got, c.want)
+		}
+	}
+}
+
+// TestReportOfEmptyResults: a results value with no cells (a run stopped
+// before any replicate) still gives a well-formed page and a summary.
+func TestReportOfEmptyResults(t *testing.T) {
+	r := &Results{Schema: SchemaVersion, Scenario: ScenarioInfo{Name: "bench-empty"}, Replicates: 10}
+	var html, md bytes.Buffer
+	if err := WriteReport(&html, r, nil); err != nil {
+		t.Fatal(err)
+	}
+	p := parsePage(t, html.Bytes())
+	for _, id := range []string{"job", "scenario", "best", "figures", "convergence", "provenance"} {
+		if !slices.Contains(p.ids, id) {
+			t.Errorf("section id %q missing", id)
+		}
+	}
+	if err := WriteMarkdownSummary(&md, r); err != nil {
+		t.Fatal(err)
+	}
+	if !strings.HasPrefix(md.String(), "# rhomark summary: bench-empty\n") || !strings.Contains(md.String(), "incomplete") {
+		t.Errorf("summary of empty results:\n%s", md.String())
+	}
+	if err := WriteReport(&html, nil, nil); err == nil {
+		t.Error("WriteReport(nil) gave no error")
+	}
+	if err := WriteMarkdownSummary(&md, nil); err == nil {
+		t.Error("WriteMarkdownSummary(nil) gave no error")
+	}
+}
