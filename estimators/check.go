@@ -218,6 +218,25 @@ func settled(f func(float64) float64, u float64) bool {
 	return math.Abs(left-right) <= 1e-3*math.Max(1, math.Abs(left))
 }
 
+// Discontinuous reports whether psi jumps somewhere: for a built-in family,
+// at one of its declared kinks; for any other psi (a custom one's declared
+// kinks are optional), anywhere a scan of [0, 20] finds.
+func Discontinuous(psi Psi) bool {
+	if _, custom := psi.(*Custom); custom {
+		return len(findJumps(psi, checkGrid())) > 0
+	}
+	if k, ok := psi.(Kinked); ok {
+		for _, x := range k.Kinks() {
+			lo, hi := psi.Psi(x*(1-1e-9)), psi.Psi(x*(1+1e-9))
+			if math.Abs(hi-lo) > 1e-6*math.Max(1, math.Abs(lo)) {
+				return true
+			}
+		}
+		return false
+	}
+	return len(findJumps(psi, checkGrid())) > 0
+}
+
 // findJumps locates discontinuities of psi on [0, 20]: for each grid
 // interval whose change is large, bisection follows the half with the larger
 // change; a jump is where that change does not shrink.

@@ -133,7 +133,12 @@ func (e Estimator) Fit(x *mat.Dense, y []float64, ws *Workspace, res *Result) er
 		}
 		if e.Scale.Rule == ScaleStart {
 			if start.Scale == 0 {
-				res.Status, res.Scale = ExactFit, 0
+				// An exact fit only if the data lie on it, not merely the
+				// observations a start passes through.
+				res.Status, res.Scale = ZeroScale, 0
+				if allZero(ws.r) {
+					res.Status = ExactFit
+				}
 				return nil
 			}
 			e.Scale = Scale{Rule: ScaleFixed, Value: start.Scale}

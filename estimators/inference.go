@@ -2,6 +2,7 @@ package estimators
 
 import (
 	"math"
+	"reflect"
 
 	"gonum.org/v1/gonum/mat"
 )
@@ -22,7 +23,10 @@ import (
 //	K = 1 + (p/n) · Var(ψ')/mean(ψ')²,
 //
 // with u_i = r_i/σ at the final fit. S, LTS and exact LAD get none (false),
-// nor do fits that did not converge or whose mean ψ' is not positive.
+// nor do fits that did not converge or whose mean ψ' is not positive, nor
+// M-estimators whose psi jumps (Talwar's, say): the mean of the pointwise
+// ψ' then misses the jumps' share of E[ψ'], and the standard errors would
+// be too small.
 func (ws *Workspace) StandardErrors(e Estimator, x *mat.Dense, res *Result, se []float64) bool {
 	raw := x.RawMatrix()
 	n, p := raw.Rows, raw.Cols
@@ -39,7 +43,7 @@ func (ws *Workspace) StandardErrors(e Estimator, x *mat.Dense, res *Result, se [
 			psi = Bisquare{C: mmDefaultC}
 		}
 		sigma := res.Scale
-		if !(sigma > 0) {
+		if !(sigma > 0) || ws.jumps(psi) {
 			return false
 		}
 		var s2, s1, s11 float64
@@ -69,4 +73,17 @@ func (ws *Workspace) StandardErrors(e Estimator, x *mat.Dense, res *Result, se [
 		se[j] = math.Sqrt(factor * se[j])
 	}
 	return true
+}
+
+// jumps reports whether psi is discontinuous, remembering the answer for
+// the last psi asked about (the check scans psi when it declares no kinks).
+func (ws *Workspace) jumps(psi Psi) bool {
+	if t := reflect.TypeOf(psi); t != nil && t.Comparable() && ws.jumpPsi != nil && reflect.TypeOf(ws.jumpPsi) == t && ws.jumpPsi == psi {
+		return ws.jumpy
+	}
+	ws.jumpy = Discontinuous(psi)
+	if t := reflect.TypeOf(psi); t != nil && t.Comparable() {
+		ws.jumpPsi = psi
+	}
+	return ws.jumpy
 }

@@ -74,3 +74,30 @@ func TestStandardErrorsHuber(t *testing.T) {
 		t.Error("standard errors claimed for an S-estimate")
 	}
 }
+
+// TestNoIntervalsForJumps: Talwar's psi jumps at ±c, so the mean of the
+// pointwise psi' misses part of E[psi'] and Huber's covariance would be too
+// small (coverage near 0.85 instead of 0.95 in simulation); no interval is
+// given. Continuous psi keep theirs.
+func TestNoIntervalsForJumps(t *testing.T) {
+	x, y := simulated(14, 120, 3, 0)
+	se := make([]float64, 3)
+	for _, c := range []struct {
+		psi  Psi
+		want bool
+	}{{Talwar{C: 2.795}, false}, {Huber{K: 1.345}, true}, {Bisquare{C: 4.685}, true}} {
+		var ws Workspace
+		var res Result
+		e := Estimator{Method: MethodIRLS, Psi: c.psi}
+		if err := e.Fit(x, y, &ws, &res); err != nil {
+			t.Fatal(err)
+		}
+		if got := ws.StandardErrors(e, x, &res, se); got != c.want {
+			t.Errorf("%T: intervals %v, want %v", c.psi, got, c.want)
+		}
+	}
+	jump, _ := NewCustom(CustomSpec{Psi: "abs(r) <= 2 ? r : 0"})
+	if !Discontinuous(jump) || Discontinuous(Huber{K: 1}) {
+		t.Error("jump detection")
+	}
+}

@@ -77,7 +77,7 @@ func householderFactor(a []float64, n, p int, rdiag, colScale []float64) bool {
 		col[k] -= alpha // v = x − alpha e_k, stored in place of x
 		v := col[k:]
 		for j := k + 1; j < p; j++ {
-			reflect(v, a[j*n+k:(j+1)*n], alpha)
+			applyReflector(v, a[j*n+k:(j+1)*n], alpha)
 		}
 		rdiag[k] = alpha
 	}
@@ -94,9 +94,9 @@ func householderFactor(a []float64, n, p int, rdiag, colScale []float64) bool {
 	return true
 }
 
-// reflect applies the Householder reflector I − vvᵀ/(|α|·|v₀|) to c, where
+// applyReflector applies the Householder reflector I − vvᵀ/(|α|·|v₀|) to c, where
 // v = x − αe₁ and α = −sign(x₀)‖x‖; then vᵀv/2 = |α|(|α| + |x₀|) = |α|·|v₀|.
-func reflect(v, c []float64, alpha float64) {
+func applyReflector(v, c []float64, alpha float64) {
 	var s float64
 	for i, vi := range v {
 		s += vi * c[i]
@@ -111,7 +111,7 @@ func reflect(v, c []float64, alpha float64) {
 // overwriting y with Qᵀy, and undoes the column scaling.
 func qrSolve(a []float64, n, p int, rdiag, colScale, y, b []float64) {
 	for k := 0; k < p; k++ {
-		reflect(a[k*n+k:(k+1)*n], y[k:], rdiag[k])
+		applyReflector(a[k*n+k:(k+1)*n], y[k:], rdiag[k])
 	}
 	// Back substitution; R's strict upper part is a[j*n+i], i < j.
 	for k := p - 1; k >= 0; k-- {

@@ -234,3 +234,20 @@ func minOf(a []float64) float64 {
 	}
 	return m
 }
+
+// TestSmallSampleNotExact: with n < 2p every elemental fit leaves half the
+// residuals at zero; that is not an exact fit of the data, and must not be
+// reported as one.
+func TestSmallSampleNotExact(t *testing.T) {
+	x, y := simulated(30, 5, 3, 0)
+	for _, e := range []Estimator{{Method: MethodS}, {Method: MethodMM},
+		{Method: MethodIRLS, Psi: Huber{K: 1.345}, StartFrom: MethodLAD, Scale: Scale{Rule: ScaleStart}}} {
+		res, err := Fit(e, x, y)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if res.Status == ExactFit {
+			t.Errorf("%v: n = 5, p = 3 reported as an exact fit", e.Method)
+		}
+	}
+}

@@ -119,10 +119,22 @@ func (ws *Workspace) sFit(x blas64.General, y, beta []float64, rs Resampling) (s
 		ws.residuals(x, y, cur)
 		s := MAD(ws.r, ws.buf)
 		if s == 0 {
-			// More than half the observations lie exactly on this fit:
-			// its M-scale is 0 and no fit can do better.
-			copy(beta, cur)
-			return 0, 0, ExactFit
+			// At least half the residuals are zero. If more than half the
+			// observations, and more than the p the subset was fitted
+			// through, lie exactly on this fit, its M-scale is 0 and no fit
+			// can do better; otherwise (n < 2p) the subset only fits itself
+			// and is no candidate.
+			zeros := 0
+			for _, r := range ws.r {
+				if r == 0 {
+					zeros++
+				}
+			}
+			if 2*zeros > ws.n && zeros > p {
+				copy(beta, cur)
+				return 0, 0, ExactFit
+			}
+			continue
 		}
 		ok := true
 		for k := 0; k < sRefineSteps && ok; k++ {

@@ -41,9 +41,11 @@ type Theory struct {
 	Monotone     bool `json:"monotone"`
 	Redescending bool `json:"redescending"`
 	// ScaleConsistency is b = E[rho(Z)], the constant that makes an
-	// S-scale built on this rho consistent at the normal; Breakdown is
-	// b / sup rho, its breakdown point; RhoMax is sup rho. They are NaN
-	// when rho is unbounded.
+	// S-scale built on this rho consistent at the normal; Breakdown is its
+	// breakdown point min(b/sup rho, 1 − b/sup rho) (Rousseeuw & Yohai
+	// (1984): too many outliers can blow the scale up, too many inliers
+	// can implode it); RhoMax is sup rho. They are NaN when rho is
+	// unbounded.
 	ScaleConsistency float64 `json:"scale_consistency"`
 	Breakdown        float64 `json:"breakdown"`
 	RhoMax           float64 `json:"rho_max"`
@@ -82,9 +84,9 @@ func breaksOf(psi Psi) []float64 {
 }
 
 // Moments returns A = E[psi(κZ)²] and B = E[Z psi(κZ)] for Z standard
-// normal, the two integrals of the asymptotic variance κ²A/B² of an
-// M-estimator whose residuals, of standard deviation 1, are standardised
-// by 1/κ. With κ = 1 the efficiency is B²/A.
+// normal. An M-estimator whose residuals, of standard deviation s, are
+// divided by s/κ before psi is applied has asymptotic variance s²A/B²,
+// so B²/A is its efficiency against least squares for any κ.
 func Moments(psi Psi, kappa float64) (a, b float64) {
 	var breaks []float64
 	for _, k := range breaksOf(psi) {
@@ -132,7 +134,8 @@ func Analyse(psi Psi, models ...ErrorModel) (Theory, error) {
 	if rmax, ok := rhoSup(psi); ok {
 		t.RhoMax = rmax
 		t.ScaleConsistency = ScaleConsistency(psi)
-		t.Breakdown = t.ScaleConsistency / rmax
+		r := t.ScaleConsistency / rmax
+		t.Breakdown = math.Min(r, 1-r)
 	}
 	for _, m := range models {
 		mt, err := AnalyseUnder(psi, m)

@@ -149,6 +149,12 @@ func TestBisquareSScale(t *testing.T) {
 	if math.Abs(th.Breakdown-0.5) > 0.001 {
 		t.Errorf("breakdown at c = 1.547: %.4f", th.Breakdown)
 	}
+	// Below c = 1.547 b/sup rho passes 1/2, and the breakdown point is
+	// 1 − b/sup rho (Rousseeuw & Yohai 1984): at c = 1 it is below 1/2.
+	small, _ := Analyse(Bisquare{C: 1})
+	if r := small.ScaleConsistency / small.RhoMax; math.Abs(small.Breakdown-(1-r)) > 1e-12 || !(small.Breakdown < 0.5) {
+		t.Errorf("breakdown at c = 1: %v (b/sup rho = %v)", small.Breakdown, r)
+	}
 	if th.RejectionPoint != 1.547 || !th.Redescending || th.Monotone {
 		t.Errorf("shape: rejection %v redescending %v monotone %v", th.RejectionPoint, th.Redescending, th.Monotone)
 	}

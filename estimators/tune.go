@@ -105,7 +105,9 @@ func (f Family) TuneEfficiency(target float64) ([]float64, error) {
 
 // TuneBreakdown returns the tuning constants at which an S-scale built on
 // the family's rho has breakdown point target (0 < target ≤ 0.5), with the
-// consistency constant b = E[rho(Z)]. The family's rho must be bounded.
+// consistency constant b = E[rho(Z)]: the solution of b/sup rho = target,
+// the larger (more efficient) of the two constants with that breakdown
+// point. The family's rho must be bounded.
 func (f Family) TuneBreakdown(target float64) ([]float64, error) {
 	if !(target > 0 && target <= 0.5) {
 		return nil, fmt.Errorf("target breakdown point must be in (0, 0.5], got %v", target)

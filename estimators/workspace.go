@@ -40,6 +40,8 @@ type Workspace struct {
 	cand      []float64  // keep×p, candidate coefficients
 	candScale []float64  // keep, candidate scales
 	sC, sB    float64    // cached bisquare constant and its consistency b
+	jumpPsi   Psi        // the psi whose continuity was last checked
+	jumpy     bool       // whether jumpPsi jumps
 	lts       ltsWork    // least trimmed squares
 	lad       ladWork    // exact least absolute deviations
 }

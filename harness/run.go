@@ -414,6 +414,10 @@ func (w *worker) replicate(r int) {
 	for i := range p.ests {
 		res := &w.res[i]
 		if !res.Status.Converged() {
+			// A fit that fails is counted as broken down.
+			if p.threshold > 0 {
+				w.tally.ests[i].past++
+			}
 			continue
 		}
 		et := &w.tally.ests[i]

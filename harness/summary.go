@@ -54,7 +54,7 @@ func summarise(st *scenarios.Study, plans []cellPlan, tallies []*cellTally, seed
 			}
 			est.SlopeBias = slopeBias(p, et)
 			if p.threshold > 0 {
-				r := results.Wilson(et.past, et.coefs[0].n)
+				r := results.Wilson(et.past, et.fits)
 				est.PastThreshold = &r
 			}
 			for k, name := range names {
@@ -286,10 +286,12 @@ func coefficient(name string, truth float64, t *coefTally) results.Coefficient {
 	return c
 }
 
-// slopeBias returns the norm of the slope bias vector b with the
-// delta-method MCSE √(uᵀΣu/n), u = b/‖b‖ and Σ the covariance of the slope
-// errors (√(tr Σ/n) when b = 0). Beyond maxCrossSlopes slopes the cross
-// covariances are not kept and Σ is taken as diagonal.
+// slopeBias returns the norm of the slope bias vector b, debiased: the
+// plain norm of the mean error overshoots, E‖b̂‖² = ‖b‖² + tr Σ/n, so the
+// value is √max(0, ‖b̂‖² − tr Σ̂/n). Its MCSE is the delta-method √(uᵀΣu/n),
+// u = b̂/‖b̂‖ and Σ the covariance of the slope errors (√(tr Σ/n) when
+// b̂ = 0). Beyond maxCrossSlopes slopes the cross covariances are not kept
+// and Σ is taken as diagonal.
 func slopeBias(p cellPlan, et *estTally) results.Measure {
 	nan := results.Num(math.NaN())
 	first := p.firstSlope
@@ -321,11 +323,14 @@ func slopeBias(p cellPlan, et *estTally) results.Measure {
 		return crossCentred(&ta.s1, &tc.s1, &et.cross[idx], n) / (nf - 1)
 	}
 	norm := math.Sqrt(norm2)
+	var trace float64
+	for j := 0; j < k; j++ {
+		trace += cov(j, j)
+	}
+	debiased := math.Sqrt(math.Max(0, norm2-trace/nf))
 	var v float64
 	if norm == 0 {
-		for j := 0; j < k; j++ {
-			v += cov(j, j)
-		}
+		v = trace
 	} else {
 		for a := 0; a < k; a++ {
 			for c := 0; c < k; c++ {
@@ -333,7 +338,7 @@ func slopeBias(p cellPlan, et *estTally) results.Measure {
 			}
 		}
 	}
-	return results.Measure{Value: results.Num(norm), MCSE: results.Num(math.Sqrt(math.Max(0, v) / nf))}
+	return results.Measure{Value: results.Num(debiased), MCSE: results.Num(math.Sqrt(math.Max(0, v) / nf))}
 }
 
 // convergence summarises the statuses and iterations of one estimator.

@@ -102,10 +102,12 @@ type Estimator struct {
 	// Coefficients holds the performance of each coefficient.
 	Coefficients []Coefficient `json:"coefficients"`
 	// SlopeBias is the Euclidean norm of the bias of the slopes (every
-	// coefficient but the intercept), with a delta-method MCSE.
+	// coefficient but the intercept), debiased for the noise in the mean
+	// (√max(0, ‖b̂‖² − tr Σ̂/n)), with a delta-method MCSE.
 	SlopeBias Measure `json:"slope_bias"`
 	// PastThreshold is the rate of replicates whose slope error norm
-	// exceeds the scenario's breakdown threshold (absent without one).
+	// exceeds the scenario's breakdown threshold, counting failed fits as
+	// past it (absent without a threshold).
 	PastThreshold *Rate `json:"past_threshold,omitempty"`
 	// Convergence summarises how the fits ended.
 	Convergence Convergence `json:"convergence"`
@@ -279,7 +281,9 @@ type BiasPoint struct {
 	Fraction  float64   `json:"fraction"`
 	Estimator string    `json:"estimator"`
 	// Bias is the mean, over the group's positions, of the slope-bias
-	// norm; Worst the largest, at WorstAt (the worst-over values).
+	// norm; Worst the largest, at WorstAt (the worst-over values), with
+	// that cell's MCSE. Being the largest of noisy estimates, Worst is
+	// biased upward, by up to about its MCSE when positions are alike.
 	Bias    Measure   `json:"bias"`
 	Worst   Measure   `json:"worst"`
 	WorstAt []Setting `json:"worst_at,omitempty"`

@@ -518,6 +518,13 @@ func (s *Scenario) validateEstimators(c checker) {
 				c.fail(path+".resampling.h", "LTS keeps h observations, between the %d coefficients and n = %d; got %d", p, s.Model.N, rs.H)
 			}
 		}
+		resampled := m == estimators.MethodS || m == estimators.MethodMM || m == estimators.MethodLTS
+		if from, ok := estimators.ParseMethod(e.Start.From); ok && e.Start.From != "" {
+			resampled = resampled || from == estimators.MethodS || from == estimators.MethodMM || from == estimators.MethodLTS
+		}
+		if resampled && s.Model.N < 2*p {
+			c.fail(path+".method", "the S, MM and LTS estimators (and starts from them) need n ≥ 2 × coefficients = %d observations, got n = %d: with fewer, an elemental subset fits half the data exactly", 2*p, s.Model.N)
+		}
 		if m.Direct() && m != estimators.MethodMM {
 			for _, key := range []string{"psi", "tuning", "scale", "start", "stop"} {
 				if c.d.given(path + "." + key) {
