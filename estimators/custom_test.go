@@ -63,6 +63,37 @@ func TestCustomMatchesBuiltin(t *testing.T) {
 	}
 }
 
+// TestCustomRhoTable: rho integrated through the cached table matches the
+// closed forms of smooth and piecewise families everywhere, at the knots,
+// between them, at the kinks and beyond the table's reach.
+func TestCustomRhoTable(t *testing.T) {
+	cases := []struct {
+		spec    CustomSpec
+		builtin Psi
+	}{
+		{CustomSpec{Psi: "r * exp(-(r/c)^2)", Constants: []Constant{{"c", 2.9846}}}, Welsch{C: 2.9846}},
+		{CustomSpec{Psi: "r / (1 + (r/c)^2)", Constants: []Constant{{"c", 2.3849}}}, Cauchy{C: 2.3849}},
+		{CustomSpec{Psi: "abs(r) <= c ? r * (1 - (r/c)^2)^2 : 0", Constants: []Constant{{"c", 4.685}}, Kinks: []float64{4.685}}, Bisquare{C: 4.685}},
+	}
+	for _, c := range cases {
+		cu, err := NewCustom(c.spec)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for u := -45.0; u <= 45; u += 0.0371 {
+			for _, v := range []float64{u, math.Round(u*16) / 16} {
+				want := c.builtin.Rho(v)
+				if got := cu.Rho(v); math.Abs(got-want) > 1e-11*(1+want) {
+					t.Fatalf("%s: rho(%v) = %.15g, closed form %.15g", c.spec.Psi, v, got, want)
+				}
+			}
+		}
+		if got, want := cu.Rho(4.685), c.builtin.Rho(4.685); math.Abs(got-want) > 1e-11*(1+want) {
+			t.Errorf("%s: rho at the kink %v, closed form %v", c.spec.Psi, got, want)
+		}
+	}
+}
+
 func TestCustomGivenRhoAndDeriv(t *testing.T) {
 	spec := CustomSpec{
 		Psi:       "r / (1 + abs(r)/c)",
@@ -110,6 +141,32 @@ func TestCustomRejectsUnsafe(t *testing.T) {
 		if _, err := NewCustom(b.spec); err == nil {
 			t.Errorf("accepted %q", b.spec.Psi)
 		}
+	}
+}
+
+// A psi, rho or derivative that is not finite somewhere is refused when
+// it is compiled, naming the expression and the residual.
+func TestCustomRejectsNonFinite(t *testing.T) {
+	cases := []struct {
+		spec CustomSpec
+		want string
+	}{
+		{CustomSpec{Psi: "r / abs(r)"}, "at r = 0"},
+		{CustomSpec{Psi: "1 / (r - 1)"}, "at r = 1"},
+		{CustomSpec{Psi: "r", Rho: "log(abs(r))"}, `rho expression "log(abs(r))" gives -Inf at r = 0`},
+		{CustomSpec{Psi: "r", Deriv: "1/r"}, "psi'"},
+		{CustomSpec{Psi: "r * sqrt(k - abs(r))", Constants: []Constant{{"k", 3}}}, "gives NaN"},
+		{CustomSpec{Psi: "r < 7 ? r : 1/(r - 7.5)", Kinks: []float64{7.5}}, "at r = 7.5"},
+	}
+	for _, c := range cases {
+		_, err := NewCustom(c.spec)
+		if err == nil || !strings.Contains(err.Error(), c.want) {
+			t.Errorf("%q: error %v, want one containing %q", c.spec.Psi, err, c.want)
+		}
+	}
+	// Finite everywhere, including a jump: accepted.
+	if _, err := NewCustom(CustomSpec{Psi: "abs(r) < 2 ? r : 0", Kinks: []float64{2}}); err != nil {
+		t.Errorf("finite psi refused: %v", err)
 	}
 }
 

@@ -56,8 +56,8 @@ type Iteration struct {
 	Change float64
 	// Halvings and Fallback report the safeguards fired in this iteration:
 	// step halvings, and whether an IRLS step replaced a Newton step.
-	Halvings int
-	Fallback bool
+	Halvings int  // step halvings of the line search
+	Fallback bool // an IRLS step replaced the Newton step
 	// QR reports that the weighted solve fell back from Cholesky to QR.
 	QR bool
 	// MinWeight and MaxWeight are the extreme IRLS weights (or psi'

@@ -175,7 +175,9 @@ func (lw *ltsWork) reserve(n, p, h, keep int) {
 // *rand.Rand from math/rand/v2; the caller seeds it per fit, so the result is
 // deterministic for a given seed). It returns the raw LTS objective (sum of
 // the h smallest squared residuals), a consistency-corrected scale estimate,
-// the total concentration steps taken, and a Status.
+// the C-steps taken by the returned candidate (its first s.CSteps and its
+// final concentration; as for the S-estimate, the work of the losing starts
+// is not counted), and a Status.
 //
 // The search (Rousseeuw & Van Driessen (2006), "Computing LTS regression for
 // large data sets", Data Mining and Knowledge Discovery 12:29-45):
@@ -247,6 +249,7 @@ func (lw *ltsWork) fit(x blas64.General, y, beta []float64, rng *rand.Rand, s lt
 
 	// Starts and their first C-steps.
 	var starts int
+	firstSteps := 0   // C-steps each kept start took before concentration
 	var singular bool // some start met a singular h-subset
 	for attempts := 0; starts < s.Subsets && attempts < ltsAttemptsPerSubset*s.Subsets; attempts++ {
 		if lw.draw(x, y, rng) == 0 {
@@ -261,12 +264,12 @@ func (lw *ltsWork) fit(x blas64.General, y, beta []float64, rng *rand.Rand, s lt
 				ok = false
 				break
 			}
-			steps++
 			obj, ok = lw.evaluate(x, y, b)
 		}
 		if !ok {
 			continue
 		}
+		firstSteps = s.CSteps
 		lw.offer(obj, b, s.Keep)
 	}
 	switch {
@@ -284,9 +287,8 @@ func (lw *ltsWork) fit(x blas64.General, y, beta []float64, rng *rand.Rand, s lt
 		b := lw.candBeta[c*p : (c+1)*p]
 		var taken int
 		lw.candObj[c], lw.candSt[c], taken = lw.concentrate(x, y, b, s.MaxSteps)
-		steps += taken
 		if best < 0 || lw.better(c, best) {
-			best = c
+			best, steps = c, firstSteps+taken
 		}
 	}
 	copy(beta, lw.candBeta[best*p:(best+1)*p])

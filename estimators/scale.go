@@ -39,8 +39,8 @@ func (s ScaleRule) String() string {
 
 // Scale is the scale rule of an M-estimator; Value is used by ScaleFixed.
 type Scale struct {
-	Rule  ScaleRule
-	Value float64
+	Rule  ScaleRule // how sigma is set; the zero value is ScaleMAD
+	Value float64   // sigma for ScaleFixed, a positive finite number; ignored otherwise
 }
 
 // MAD returns the normalised median absolute value of r, median|r_i| /

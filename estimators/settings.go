@@ -35,8 +35,8 @@ const (
 	MethodLAD
 )
 
-// String returns the method's name as used in scenario files: "ls", "irls"
-// or "newton".
+// String returns the method's name as used in scenario files: "ls",
+// "irls", "newton", "s-estimate", "mm-estimate", "lts" or "lad".
 func (m Method) String() string {
 	switch m {
 	case MethodLS:
@@ -73,8 +73,8 @@ func Methods() []Method {
 }
 
 // Direct reports whether the method computes its estimate without a psi of
-// the user's (least squares, S, LTS, exact LAD), so that it can serve as
-// the start of an M-estimator.
+// the user's (least squares, S, MM with its fixed bisquare, LTS, exact
+// LAD), so that it can serve as the start of an M-estimator.
 func (m Method) Direct() bool {
 	switch m {
 	case MethodLS, MethodS, MethodMM, MethodLTS, MethodLAD:

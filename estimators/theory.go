@@ -37,9 +37,9 @@ type Theory struct {
 	SupPsi float64 `json:"sup_psi"`
 	// Bounded, Monotone and Redescending describe the shape of psi on
 	// [0, ∞): psi bounded; non-decreasing; tending to zero.
-	Bounded      bool `json:"bounded"`
-	Monotone     bool `json:"monotone"`
-	Redescending bool `json:"redescending"`
+	Bounded      bool `json:"bounded"`      // sup|psi| is finite
+	Monotone     bool `json:"monotone"`     // psi never decreases on the grid checked
+	Redescending bool `json:"redescending"` // bounded, and |psi(1e12)| ≤ 1e-6 sup|psi|
 	// ScaleConsistency is b = E[rho(Z)], the constant that makes an
 	// S-scale built on this rho consistent at the normal; Breakdown is its
 	// breakdown point min(b/sup rho, 1 − b/sup rho) (Rousseeuw & Yohai
@@ -47,8 +47,8 @@ type Theory struct {
 	// can implode it); RhoMax is sup rho. They are NaN when rho is
 	// unbounded.
 	ScaleConsistency float64 `json:"scale_consistency"`
-	Breakdown        float64 `json:"breakdown"`
-	RhoMax           float64 `json:"rho_max"`
+	Breakdown        float64 `json:"breakdown"` // min(b/RhoMax, 1 − b/RhoMax); NaN if rho is unbounded
+	RhoMax           float64 `json:"rho_max"`   // sup rho; NaN if rho is unbounded
 	// Models holds the efficiency under each requested error model.
 	Models []ModelTheory `json:"models,omitempty"`
 }
@@ -69,7 +69,7 @@ type ModelTheory struct {
 	// Fisher is I, and FisherClosedForm says whether it has a closed form
 	// (otherwise it was computed by quadrature).
 	Fisher           float64 `json:"fisher_information"`
-	FisherClosedForm bool    `json:"fisher_closed_form"`
+	FisherClosedForm bool    `json:"fisher_closed_form"` // false when Fisher came from quadrature
 	// RelativeToLS is Var(X)/AsymptoticVariance, the efficiency against
 	// least squares (+Inf where least squares has infinite variance).
 	RelativeToLS float64 `json:"relative_to_ls"`

@@ -33,8 +33,8 @@ func (f Family) WithFirst(c float64) []float64 {
 
 // solveRay finds m > 0 with g(m) = 0 for g monotone in m: two walkers
 // leave m = 1 upwards and downwards in powers of two (at most 2^±20) until
-// one sees the sign
-// of g change; then bisection on log m narrows the bracket.
+// one sees the sign of g change; then bisection on log m narrows the
+// bracket.
 func solveRay(g func(m float64) (float64, error)) (float64, error) {
 	g1, err := g(1)
 	if err != nil {
@@ -171,11 +171,11 @@ func HuberMinimax(eps float64) (float64, error) {
 
 // SweepRow is one row of a tuning sweep.
 type SweepRow struct {
-	Tuning                []float64 `json:"tuning"`
-	Efficiency            float64   `json:"efficiency"`
-	GrossErrorSensitivity float64   `json:"gross_error_sensitivity"`
-	RejectionPoint        float64   `json:"rejection_point"`
-	Breakdown             float64   `json:"breakdown"`
+	Tuning                []float64 `json:"tuning"`                  // all tuning constants of the psi at this row
+	Efficiency            float64   `json:"efficiency"`              // asymptotic efficiency at the normal, as Theory.Efficiency
+	GrossErrorSensitivity float64   `json:"gross_error_sensitivity"` // as Theory.GrossErrorSensitivity; +Inf if psi is unbounded
+	RejectionPoint        float64   `json:"rejection_point"`         // as Theory.RejectionPoint; +Inf if there is none
+	Breakdown             float64   `json:"breakdown"`               // S-scale breakdown point, as Theory.Breakdown; NaN if rho is unbounded
 }
 
 // Sweep returns efficiency, gross-error sensitivity, rejection point and

@@ -32,7 +32,9 @@ import (
 
 // NamedEstimator is an estimator with its label.
 type NamedEstimator struct {
-	Label     string
+	// Label names the estimator in results, as in the scenario file.
+	Label string
+	// Estimator is the configured estimator.
 	Estimator estimators.Estimator
 }
 
@@ -52,6 +54,8 @@ type ReplacementOptions struct {
 
 // DirectionBreakdown is the outcome in one direction.
 type DirectionBreakdown struct {
+	// Direction names the direction d: "vertical", "leverage", or
+	// "random-1", "random-2", ... for the random ones.
 	Direction string `json:"direction"`
 	// M is the smallest number of replaced observations that broke the
 	// estimate; 0 if none up to MaxM did.
@@ -60,10 +64,12 @@ type DirectionBreakdown struct {
 
 // ReplacementBreakdown is the finite-sample breakdown of one estimator.
 type ReplacementBreakdown struct {
-	Estimator string `json:"estimator"`
-	N         int    `json:"n"`
-	// MaxM is the largest number of replacements tried, ⌊n/2⌋ (half the
-	// data replaced breaks every regression equivariant estimator).
+	Estimator string `json:"estimator"` // the estimator's label
+	N         int    `json:"n"`         // number of observations in the dataset
+	// MaxM is the largest number of replacements tried, ⌊n/2⌋. For even n,
+	// replacing half the data can break every regression equivariant
+	// estimator; for odd n, ⌊n/2⌋ is just under half, so an estimator that
+	// survives it (the median, say) has the highest breakdown possible.
 	MaxM int `json:"max_m"`
 	// M is the smallest breaking m over all directions (0: none broke it
 	// up to MaxM, so its breakdown point is at least (MaxM+1)/n).

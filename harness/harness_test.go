@@ -8,6 +8,7 @@ import (
 	"runtime"
 	"testing"
 
+	"github.com/rhomark/rhomark/estimators"
 	"github.com/rhomark/rhomark/results"
 	"github.com/rhomark/rhomark/scenarios"
 )
@@ -188,5 +189,26 @@ func TestHistMedian(t *testing.T) {
 		if got := histMedian(c.hist, n); got != c.want {
 			t.Errorf("median of %v = %v, want %v", c.hist, got, c.want)
 		}
+	}
+}
+
+// TestIterationHistogramCapped: a fit with a huge iteration count lands in
+// the last bin, while the mean and the maximum stay exact.
+func TestIterationHistogramCapped(t *testing.T) {
+	e := newEstTally(1, 0)
+	for _, k := range []int{3, 3, 25000} {
+		e.record(&estimators.Result{Iterations: k, Status: estimators.IterationLimit})
+	}
+	if len(e.iterHist) != iterHistCap+1 || e.iterHist[iterHistCap] != 1 || e.iterHist[3] != 2 {
+		t.Fatalf("histogram of %d bins, last %d", len(e.iterHist), e.iterHist[len(e.iterHist)-1])
+	}
+	c := convergence(&e)
+	if c.MaxIterations != 25000 || float64(c.MeanIterations.Value) != (3+3+25000)/3.0 {
+		t.Errorf("max %d, mean %v", c.MaxIterations, c.MeanIterations.Value)
+	}
+	u := newEstTally(1, 0)
+	u.merge(&e)
+	if u.iterMax != 25000 {
+		t.Errorf("merged max %d", u.iterMax)
 	}
 }

@@ -27,20 +27,20 @@ type Partial struct {
 	// full text, so the work can be summarised or resumed from the partial
 	// alone; Hash is the scenario's hash.
 	Scenario string `json:"scenario"`
-	File     string `json:"file"`
-	Source   string `json:"source"`
-	Hash     string `json:"hash"`
+	File     string `json:"file"`   // file name the scenario was loaded from (Study.File)
+	Source   string `json:"source"` // full text of the scenario file
+	Hash     string `json:"hash"`   // scenario hash (Study.Hash); a resumed run must match it
 	// Seed and Replicates are the run's.
 	Seed       uint64 `json:"seed"`
-	Replicates int    `json:"replicates"`
+	Replicates int    `json:"replicates"` // replicates per cell, after any override by Options
 	// Shard and Shards identify a shard (Shards 0 when the run is not
 	// sharded).
 	Shard  int `json:"shard"`
-	Shards int `json:"shards"`
+	Shards int `json:"shards"` // number of shards; this one is Shard, counted from 0
 	// Units is the total number of units of the run; Done marks the
 	// finished ones (a bitmap in hexadecimal, unit u at bit u).
 	Units int    `json:"units"`
-	Done  string `json:"done"`
+	Done  string `json:"done"` // set by WritePartial; read back into the unexported bitmap
 	// Cells holds the tallies of each cell.
 	Cells []tallyJSON `json:"cells"`
 
@@ -77,6 +77,7 @@ type estJSON struct {
 	IterHist  []int64    `json:"iteration_histogram"`
 	IterSum   int64      `json:"iteration_sum"`
 	IterSum2  int64      `json:"iteration_sum2"`
+	IterMax   int64      `json:"iteration_max"`
 	Halvings  int64      `json:"halvings"`
 	Fallbacks int64      `json:"fallbacks"`
 	QRSolves  int64      `json:"qr_solves"`
@@ -110,7 +111,7 @@ func (c *cellTally) encode() tallyJSON {
 	for i := range c.ests {
 		e := &c.ests[i]
 		ej := estJSON{Fits: e.fits, Statuses: append([]int64(nil), e.statuses[:]...), IterHist: append([]int64(nil), e.iterHist...),
-			IterSum: e.iterSum, IterSum2: e.iterSum2, Halvings: e.halvings, Fallbacks: e.fallbacks, QRSolves: e.qrSolves,
+			IterSum: e.iterSum, IterSum2: e.iterSum2, IterMax: e.iterMax, Halvings: e.halvings, Fallbacks: e.fallbacks, QRSolves: e.qrSolves,
 			Nanos: e.nanos, Past: e.past}
 		for j := range e.coefs {
 			t := &e.coefs[j]
@@ -143,7 +144,11 @@ func (c *cellTally) decode(j tallyJSON) error {
 		e.fits, e.iterSum, e.iterSum2, e.halvings, e.fallbacks, e.qrSolves, e.nanos, e.past =
 			ej.Fits, ej.IterSum, ej.IterSum2, ej.Halvings, ej.Fallbacks, ej.QRSolves, ej.Nanos, ej.Past
 		copy(e.statuses[:], ej.Statuses)
+		if len(ej.IterHist) > iterHistCap+1 {
+			return fmt.Errorf("an iteration histogram has %d bins; at most %d are written", len(ej.IterHist), iterHistCap+1)
+		}
 		e.iterHist = append([]int64(nil), ej.IterHist...)
+		e.iterMax = ej.IterMax
 		for k := range e.coefs {
 			t, cj := &e.coefs[k], ej.Coefs[k]
 			if len(cj.Sums) != 10 {

@@ -52,7 +52,7 @@ type Options struct {
 	// CheckpointEvery (if positive) and once at the end, also when the run
 	// is cancelled. It must write it somewhere safe (atomically).
 	Checkpoint      func(*Partial) error
-	CheckpointEvery time.Duration
+	CheckpointEvery time.Duration // interval between checkpoints; 0 or less writes only the final one
 	// Adjust, if not nil, may change each estimator after it is built from
 	// the scenario, without changing the scenario (and so its hash): the way
 	// to run a modified solver against a baseline of the same scenario.

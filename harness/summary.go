@@ -135,9 +135,9 @@ func functionCurves(p cellPlan) []results.FunctionCurve {
 		for k := 0; k <= 240; k++ {
 			u := 8 * float64(k) / 240
 			fc.U = append(fc.U, u)
-			fc.PsiValues = append(fc.PsiValues, psi.Psi(u))
-			fc.Rho = append(fc.Rho, psi.Rho(u))
-			fc.Weight = append(fc.Weight, psi.Weight(u))
+			fc.PsiValues = append(fc.PsiValues, results.Num(psi.Psi(u)))
+			fc.Rho = append(fc.Rho, results.Num(psi.Rho(u)))
+			fc.Weight = append(fc.Weight, results.Num(psi.Weight(u)))
 		}
 		out = append(out, fc)
 	}
@@ -193,7 +193,7 @@ func tuningCurves(st *scenarios.Study, plans []cellPlan) []results.TuningCurve {
 			e := p.ests[idx]
 			e.Psi = psi
 			tc.Constants = append(tc.Constants, c)
-			tc.Efficiency = append(tc.Efficiency, methodTheory(e, sd, n, len(p.truth))/refEff)
+			tc.Efficiency = append(tc.Efficiency, results.Num(methodTheory(e, sd, n, len(p.truth))/refEff))
 		}
 		out = append(out, tc)
 	}
@@ -269,8 +269,7 @@ func coefficient(name string, truth float64, t *coefTally) results.Coefficient {
 	c.Coverage, c.Width = nan, nan
 	if t.nInt > 0 {
 		n := float64(t.nInt)
-		cov := float64(t.covered) / n
-		c.Coverage = results.Measure{Value: results.Num(cov), MCSE: results.Num(math.Sqrt(cov * (1 - cov) / n))}
+		c.Coverage = results.Proportion(t.covered, t.nInt)
 		w := t.w1.Float64() / n
 		c.Width = results.Measure{Value: results.Num(w), MCSE: results.Num(math.Sqrt(math.Max(0, centred(&t.w1, &t.w2, t.nInt)) / (n * (n - 1))))}
 	}
@@ -371,9 +370,9 @@ func convergence(t *estTally) results.Convergence {
 		c.MeanIterations = results.Measure{Value: results.Num(mean), MCSE: results.Num(math.Sqrt(math.Max(0, ss) / (n * (n - 1))))}
 		c.MedianIterations = results.Num(histMedian(t.iterHist, t.fits))
 	}
+	c.MaxIterations = t.iterMax
 	for k := len(t.iterHist) - 1; k >= 0; k-- {
 		if t.iterHist[k] > 0 {
-			c.MaxIterations = int64(k)
 			c.IterationHistogram = append([]int64(nil), t.iterHist[:k+1]...)
 			break
 		}

@@ -80,11 +80,17 @@ func (t *coefTally) merge(u *coefTally) {
 	t.w2.Merge(&u.w2)
 }
 
+// iterHistCap bounds the iteration histogram: fits that took iterHistCap
+// or more iterations share its last bin, so a study with a huge iteration
+// cap does not carry a huge histogram.
+const iterHistCap = 10000
+
 // estTally accumulates the fits of one estimator in one cell.
 type estTally struct {
 	fits      int64
 	statuses  [statusSlots]int64
-	iterHist  []int64 // iterHist[k] = fits that took k iterations
+	iterHist  []int64 // iterHist[k] = fits that took k iterations; the last bin, iterHistCap, counts k ≥ iterHistCap
+	iterMax   int64   // most iterations of any fit
 	iterSum   int64
 	iterSum2  int64 // Σ iterations², for the MCSE of the mean
 	halvings  int64
@@ -121,15 +127,16 @@ func (t *estTally) record(res *estimators.Result) {
 	if s := int(res.Status); s >= 0 && s < statusSlots {
 		t.statuses[s]++
 	}
-	k := res.Iterations
+	k := min(res.Iterations, iterHistCap)
+	t.iterMax = max(t.iterMax, int64(res.Iterations))
 	if k >= len(t.iterHist) {
 		grown := make([]int64, k+1)
 		copy(grown, t.iterHist)
 		t.iterHist = grown
 	}
 	t.iterHist[k]++
-	t.iterSum += int64(k)
-	t.iterSum2 += int64(k) * int64(k)
+	t.iterSum += int64(res.Iterations)
+	t.iterSum2 += int64(res.Iterations) * int64(res.Iterations)
 	t.halvings += int64(res.Halvings)
 	t.fallbacks += int64(res.Fallbacks)
 	t.qrSolves += int64(res.QRSolves)
@@ -150,6 +157,7 @@ func (t *estTally) merge(u *estTally) {
 	}
 	t.iterSum += u.iterSum
 	t.iterSum2 += u.iterSum2
+	t.iterMax = max(t.iterMax, u.iterMax)
 	t.halvings += u.halvings
 	t.fallbacks += u.fallbacks
 	t.qrSolves += u.qrSolves

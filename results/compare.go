@@ -39,64 +39,64 @@ var ErrDifferentScenarios = errors.New("the runs simulate different scenarios")
 
 // Difference is one compared summary measure.
 type Difference struct {
-	Cell        int       `json:"cell"`
-	Settings    []Setting `json:"settings,omitempty"`
-	Estimator   string    `json:"estimator"`
-	Coefficient string    `json:"coefficient,omitempty"`
-	Measure     string    `json:"measure"`
-	Baseline    Num       `json:"baseline"`
-	Candidate   Num       `json:"candidate"`
-	Diff        Num       `json:"diff"`
-	MCSE        Num       `json:"mcse"`
-	Z           Num       `json:"z"`
-	Flagged     bool      `json:"flagged"`
+	Cell        int       `json:"cell"`                  // the baseline cell's index, from 0
+	Settings    []Setting `json:"settings,omitempty"`    // the baseline cell's swept values
+	Estimator   string    `json:"estimator"`             // the estimator's label
+	Coefficient string    `json:"coefficient,omitempty"` // coefficient name; empty for per-estimator measures
+	Measure     string    `json:"measure"`               // bias, emp_se, rel_eff, failure_rate or mean_iterations
+	Baseline    Num       `json:"baseline"`              // the measure in the baseline run
+	Candidate   Num       `json:"candidate"`             // the measure in the candidate run
+	Diff        Num       `json:"diff"`                  // Candidate − Baseline
+	MCSE        Num       `json:"mcse"`                  // √(MCSE_b² + MCSE_c²), the MCSE of Diff
+	Z           Num       `json:"z"`                     // Diff/MCSE; 0 when Diff is 0, +Inf when one value is NaN, NaN when untestable
+	Flagged     bool      `json:"flagged"`               // rejected by Holm's procedure at level Comparison.Alpha
 }
 
 // PairedEstimator summarises paired differences of one estimator in one
 // cell.
 type PairedEstimator struct {
-	Cell             int     `json:"cell"`
-	Estimator        string  `json:"estimator"`
-	Fits             int     `json:"fits"`
-	MaxAbsDiff       float64 `json:"max_abs_diff"`
-	Moved            int     `json:"moved"`
-	StatusChanged    int     `json:"status_changed"`
-	IterationChanged int     `json:"iteration_changed"`
-	MeanIterDelta    float64 `json:"mean_iteration_delta"`
+	Cell             int     `json:"cell"`                 // cell index, from 0
+	Estimator        string  `json:"estimator"`            // the estimator's label in the baseline file
+	Fits             int     `json:"fits"`                 // replicates present in both files
+	MaxAbsDiff       float64 `json:"max_abs_diff"`         // largest |candidate − baseline| over coefficients and replicates
+	Moved            int     `json:"moved"`                // replicates whose largest coefficient change exceeds the tolerance
+	StatusChanged    int     `json:"status_changed"`       // replicates whose final status differs
+	IterationChanged int     `json:"iteration_changed"`    // replicates whose iteration count differs
+	MeanIterDelta    float64 `json:"mean_iteration_delta"` // mean of candidate minus baseline iterations
 }
 
 // PairedChange is one replicate whose fit changed.
 type PairedChange struct {
-	Cell, Replicate int
-	Estimator       string
-	MaxAbsDiff      float64
-	Status          string // "a → b" when the status changed
-	Iterations      string // "a → b" when they changed
+	Cell, Replicate int     // cell index and replicate index, both from 0
+	Estimator       string  // the estimator's label in the baseline file
+	MaxAbsDiff      float64 // largest |candidate − baseline| over the coefficients
+	Status          string  // "a → b" when the status changed
+	Iterations      string  // "a → b" when they changed
 }
 
 // PairedReport is the replicate-by-replicate comparison.
 type PairedReport struct {
-	Tolerance        float64           `json:"tolerance"`
-	Fits             int               `json:"fits"`
-	Missing          int               `json:"missing"`
-	MaxAbsDiff       float64           `json:"max_abs_diff"`
-	Moved            int               `json:"moved"`
-	StatusChanged    int               `json:"status_changed"`
-	IterationChanged int               `json:"iteration_changed"`
-	Transitions      map[string]int    `json:"status_transitions,omitempty"`
-	Estimators       []PairedEstimator `json:"estimators"`
-	Examples         []PairedChange    `json:"examples,omitempty"`
+	Tolerance        float64           `json:"tolerance"`                    // largest coefficient change not counted as a move
+	Fits             int               `json:"fits"`                         // records present in both files
+	Missing          int               `json:"missing"`                      // records present in only one file
+	MaxAbsDiff       float64           `json:"max_abs_diff"`                 // largest coefficient change over all fits
+	Moved            int               `json:"moved"`                        // fits whose largest coefficient change exceeds Tolerance
+	StatusChanged    int               `json:"status_changed"`               // fits whose final status differs
+	IterationChanged int               `json:"iteration_changed"`            // fits whose iteration count differs
+	Transitions      map[string]int    `json:"status_transitions,omitempty"` // count of each status change, keyed "baseline → candidate"
+	Estimators       []PairedEstimator `json:"estimators"`                   // per cell and estimator, in order of first appearance
+	Examples         []PairedChange    `json:"examples,omitempty"`           // the first 20 fits that moved or changed status or iterations
 }
 
 // Comparison is the outcome of Compare.
 type Comparison struct {
-	Baseline, Candidate string
+	Baseline, Candidate string // names of the two runs (file paths from the command line); Compare leaves them empty
 	// Notes say what differs between the runs' set-ups.
 	Notes []string
 	// Threshold, Alpha and Correction describe the summary test.
 	Threshold  float64
-	Alpha      float64
-	Correction string
+	Alpha      float64 // family-wise level, P(|Z| > Threshold) for standard normal Z
+	Correction string  // the multiplicity correction, "Holm"
 	// Differences holds every summary comparison, flagged ones first.
 	Differences []Difference
 	// Paired is set when both runs kept replicates of the same scenario
@@ -113,6 +113,18 @@ func (c *Comparison) Flagged() bool {
 		}
 	}
 	return c.Paired != nil && (c.Paired.Moved > 0 || c.Paired.StatusChanged > 0 || c.Paired.Missing > 0)
+}
+
+// Uncomparable returns the summary differences that could not be tested
+// because their z is undefined (a NaN MCSE).
+func (c *Comparison) Uncomparable() []Difference {
+	var out []Difference
+	for _, d := range c.Differences {
+		if math.IsNaN(float64(d.Z)) {
+			out = append(out, d)
+		}
+	}
+	return out
 }
 
 // FlaggedCount returns the number of flagged summary differences.
@@ -159,11 +171,18 @@ func Compare(base, cand *Results, baseReps, candReps ReplicateSource, opt Compar
 	}
 	c.Differences = summaryDiffs(base, cand, sameScenario)
 	holm(c.Differences, c.Alpha)
+	// Flagged first, then by |z|, untestable (NaN z) last.
+	absZ := func(d Difference) float64 {
+		if z := math.Abs(float64(d.Z)); !math.IsNaN(z) {
+			return z
+		}
+		return -1
+	}
 	sort.SliceStable(c.Differences, func(i, j int) bool {
 		if c.Differences[i].Flagged != c.Differences[j].Flagged {
 			return c.Differences[i].Flagged
 		}
-		return math.Abs(float64(c.Differences[i].Z)) > math.Abs(float64(c.Differences[j].Z))
+		return absZ(c.Differences[i]) > absZ(c.Differences[j])
 	})
 	if sameScenario && base.Seed == cand.Seed && baseReps != nil && candReps != nil {
 		p, err := comparePaired(baseReps, candReps, opt.Tolerance)
@@ -172,7 +191,10 @@ func Compare(base, cand *Results, baseReps, candReps ReplicateSource, opt Compar
 		}
 		c.Paired = p
 	} else if sameScenario && base.Seed == cand.Seed {
-		c.Notes = append(c.Notes, "paired mode needs the replicate files of both runs (run with --keep-replicates)")
+		// Same scenario and seed: both runs simulate the same datasets, so
+		// their estimates are positively correlated and the summary z,
+		// which treats them as independent, understates changes.
+		c.Notes = append(c.Notes, "same scenario and seed: the runs fit the same datasets, so the summary z (which assumes independent runs) is conservative; keep replicates in both runs (--keep-replicates) for the exact paired comparison")
 	}
 	return c, nil
 }
@@ -196,7 +218,8 @@ func describeScenarioDiff(a, b *Results) string {
 	return strings.Join(parts, "; ")
 }
 
-// key identifies a summary measure across runs.
+// cellKey identifies a cell across runs by its swept settings, so cells of
+// runs with differently ordered or different sweeps can be matched.
 func cellKey(c Cell) string {
 	parts := make([]string, len(c.Settings))
 	for i, s := range c.Settings {
@@ -272,25 +295,29 @@ func summaryDiffs(base, cand *Results, sameScenario bool) []Difference {
 	return out
 }
 
-// rateMeasure returns the failure rate with the binomial MCSE √(p(1−p)/n).
+// rateMeasure returns the failure rate with its MCSE (see Proportion).
 func rateMeasure(c Convergence) Measure {
-	p := float64(c.FailureRate.Value)
-	n := float64(c.Fits)
-	return Measure{Value: Num(p), MCSE: Num(math.Sqrt(p * (1 - p) / n))}
+	return Proportion(c.Fits-c.Converged, c.Fits)
 }
 
 // holm flags differences by Holm's step-down procedure: with p-values
 // p = P(|Z| > |z|) sorted ascending, the k-th smallest (k from 0) is
 // flagged while p ≤ α/(m−k) (Holm (1979), "A simple sequentially
 // rejective multiple test procedure", Scand. J. Statist. 6:65-70).
+//
+// A difference whose z is NaN (its MCSE is undefined, for example an
+// efficiency from fewer than two fits) is not tested and does not count
+// in m; Uncomparable lists it.
 func holm(d []Difference, alpha float64) {
-	idx := make([]int, len(d))
-	for i := range idx {
-		idx[i] = i
+	idx := make([]int, 0, len(d))
+	for i := range d {
+		if !math.IsNaN(float64(d[i].Z)) {
+			idx = append(idx, i)
+		}
 	}
 	pval := func(i int) float64 { return math.Erfc(math.Abs(float64(d[i].Z)) / math.Sqrt2) }
 	sort.SliceStable(idx, func(a, b int) bool { return pval(idx[a]) < pval(idx[b]) })
-	m := len(d)
+	m := len(idx)
 	for k, i := range idx {
 		if pval(i) > alpha/float64(m-k) {
 			return
@@ -334,12 +361,17 @@ func comparePaired(baseSrc, candSrc ReplicateSource, tol float64) (*PairedReport
 	}
 	ra, errA := a.Next()
 	rb, errB := b.Next()
-	for errA == nil || errB == nil {
+	for {
+		// A damaged file is an error whenever it shows, including after
+		// the other file has ended.
 		if errA != nil && !errors.Is(errA, io.EOF) {
 			return nil, fmt.Errorf("baseline replicates: %w", errA)
 		}
 		if errB != nil && !errors.Is(errB, io.EOF) {
 			return nil, fmt.Errorf("candidate replicates: %w", errB)
+		}
+		if errA != nil && errB != nil {
+			break
 		}
 		switch {
 		case errA != nil:

@@ -60,7 +60,8 @@ func WriteComparison(w io.Writer, c *Comparison) error {
 			}
 		}
 	}
-	unchanged := len(c.Differences) - flagged
+	unc := c.Uncomparable()
+	unchanged := len(c.Differences) - flagged - len(unc)
 	fmt.Fprintf(b, "  %d unchanged within Monte Carlo error", unchanged)
 	for _, d := range c.Differences {
 		if !d.Flagged && !math.IsNaN(float64(d.Z)) && d.Z != 0 {
@@ -69,6 +70,9 @@ func WriteComparison(w io.Writer, c *Comparison) error {
 		}
 	}
 	b.WriteString("\n")
+	if len(unc) > 0 {
+		fmt.Fprintf(b, "  %d not testable (Monte Carlo error undefined, e.g. fewer than two fits), such as %s\n", len(unc), differenceWhere(unc[0]))
+	}
 	if p := c.Paired; p != nil {
 		fmt.Fprintf(b, "\npaired: %d fits compared replicate by replicate (tolerance %g)\n", p.Fits, p.Tolerance)
 		fmt.Fprintf(b, "  largest |change of an estimate| %.3g · %d fits moved · %d status changes · %d iteration changes",
@@ -108,8 +112,12 @@ func WriteComparisonMarkdown(w io.Writer, c *Comparison) error {
 	for _, n := range c.Notes {
 		fmt.Fprintf(b, "- note: %s\n", n)
 	}
-	fmt.Fprintf(b, "\n**Summary.** %d measures compared; %d flagged (|z| past %g after Holm's correction, family-wise level %.2g).\n\n",
+	fmt.Fprintf(b, "\n**Summary.** %d measures compared; %d flagged (|z| past %g after Holm's correction, family-wise level %.2g)",
 		len(c.Differences), c.FlaggedCount(), c.Threshold, c.Alpha)
+	if unc := c.Uncomparable(); len(unc) > 0 {
+		fmt.Fprintf(b, "; %d not testable (Monte Carlo error undefined)", len(unc))
+	}
+	b.WriteString(".\n\n")
 	if c.FlaggedCount() > 0 {
 		b.WriteString("| cell | estimator | coefficient | measure | baseline | candidate | diff | z |\n|---:|---|---|---|---:|---:|---:|---:|\n")
 		for _, d := range c.Differences {

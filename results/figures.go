@@ -35,7 +35,7 @@ type Figure struct {
 	Caption string
 	// SVG and PNG are the rendered figure.
 	SVG []byte
-	PNG []byte
+	PNG []byte // PNG image, figurePixelsX × figurePixelsY pixels on a white background
 }
 
 // Figure geometry: every figure is figureWidth × figureHeight, and its PNG
@@ -55,9 +55,9 @@ const (
 	markerRadius    = 3
 )
 
-// sansFace is the typeface of every figure text (Liberation Sans, shipped
+// sansFace returns the typeface of every figure text (Liberation Sans, shipped
 // with gonum/plot, so no system font is needed).
-var sansFace = font.Font{Typeface: "Liberation", Variant: "Sans"}
+func sansFace() font.Font { return font.Font{Typeface: "Liberation", Variant: "Sans"} }
 
 // isFailureStatus reports whether a fit status is a failure: anything but
 // solved, exact-fit and the converged-* statuses.
@@ -265,11 +265,17 @@ func settingsText(settings []Setting) string {
 	return strings.Join(parts, ", ")
 }
 
-// cellName names a cell for titles: "cell 1 of 4 (a = 1, b = 2)".
+// cellNumber names a cell by its index, the number every command takes
+// (run --cell, replay --cell) and every file records: "cell 2 (cells 0–3)".
+func cellNumber(r *Results, c Cell) string {
+	return fmt.Sprintf("cell %d (cells 0–%d)", c.Index, len(r.Cells)-1)
+}
+
+// cellName names a cell for titles: "cell 2 (cells 0–3): a = 1, b = 2".
 func cellName(r *Results, c Cell) string {
-	s := fmt.Sprintf("cell %d of %d", c.Index+1, len(r.Cells))
+	s := cellNumber(r, c)
 	if len(c.Settings) > 0 {
-		s += " (" + settingsText(c.Settings) + ")"
+		s += ": " + settingsText(c.Settings)
 	}
 	return s
 }
@@ -310,11 +316,11 @@ func finite(vs ...float64) bool {
 }
 
 // finiteXYs pairs xs and ys, leaving out pairs that are not finite.
-func finiteXYs(xs, ys []float64) plotter.XYs {
+func finiteXYs[X, Y ~float64](xs []X, ys []Y) plotter.XYs {
 	var out plotter.XYs
 	for i := range xs {
-		if i < len(ys) && finite(xs[i], ys[i]) {
-			out = append(out, plotter.XY{X: xs[i], Y: ys[i]})
+		if i < len(ys) && finite(float64(xs[i]), float64(ys[i])) {
+			out = append(out, plotter.XY{X: float64(xs[i]), Y: float64(ys[i])})
 		}
 	}
 	return out
@@ -332,12 +338,12 @@ func newPlot() *plot.Plot { return newPlotGrid(true) }
 // or without its vertical lines (a nominal x axis has none).
 func newPlotGrid(vertical bool) *plot.Plot {
 	p := plot.New()
-	p.Title.TextStyle.Font = font.From(sansFace, 10)
-	p.X.Label.TextStyle.Font = font.From(sansFace, 10)
-	p.Y.Label.TextStyle.Font = font.From(sansFace, 10)
-	p.X.Tick.Label.Font = font.From(sansFace, 8.5)
-	p.Y.Tick.Label.Font = font.From(sansFace, 8.5)
-	p.Legend.TextStyle.Font = font.From(sansFace, 8.5)
+	p.Title.TextStyle.Font = font.From(sansFace(), 10)
+	p.X.Label.TextStyle.Font = font.From(sansFace(), 10)
+	p.Y.Label.TextStyle.Font = font.From(sansFace(), 10)
+	p.X.Tick.Label.Font = font.From(sansFace(), 8.5)
+	p.Y.Tick.Label.Font = font.From(sansFace(), 8.5)
+	p.Legend.TextStyle.Font = font.From(sansFace(), 8.5)
 	grid := plotter.NewGrid()
 	grid.Vertical.Color = color.Gray{Y: 225}
 	grid.Horizontal.Color = color.Gray{Y: 225}
@@ -354,7 +360,7 @@ func newPlotGrid(vertical bool) *plot.Plot {
 // column to the right of the panels.
 func newLegend() *plot.Legend {
 	l := plot.NewLegend()
-	l.TextStyle.Font = font.From(sansFace, 8.5)
+	l.TextStyle.Font = font.From(sansFace(), 8.5)
 	l.Top = true
 	l.Left = true
 	l.ThumbnailWidth = vg.Points(30)
@@ -553,10 +559,10 @@ func (s *figureSpec) paint(c draw.Canvas) {
 		if t == "" {
 			continue
 		}
-		ts := draw.TextStyle{Color: color.Black, Font: font.From(sansFace, 11.5), XAlign: draw.XCenter, YAlign: draw.YTop, Handler: plot.DefaultTextHandler}
+		ts := draw.TextStyle{Color: color.Black, Font: font.From(sansFace(), 11.5), XAlign: draw.XCenter, YAlign: draw.YTop, Handler: plot.DefaultTextHandler}
 		if i == 1 {
 			ts.Color = color.Gray{Y: 70}
-			ts.Font = font.From(sansFace, 9)
+			ts.Font = font.From(sansFace(), 9)
 		}
 		if ts.Handler == nil {
 			ts.Handler = text.Plain{Fonts: font.DefaultCache}
@@ -838,7 +844,7 @@ func (fc *figureContext) biasCurves() (*figureSpec, error) {
 	if len(notes) > 0 {
 		caption += " " + strings.Join(notes, " ")
 	}
-	p.X.Label.Text = "contamination fraction (" + fracPath + ")"
+	p.X.Label.Text = "nominal contamination fraction (" + fracPath + ")"
 	p.Y.Label.Text = "slope-bias norm (units of the slopes)"
 	p.Y.Min = math.Min(p.Y.Min, 0)
 	subtitle := ""
@@ -1420,4 +1426,12 @@ func hasSettings(c Cell, want []Setting) bool {
 		}
 	}
 	return true
+}
+
+// capitalise upper-cases the first letter of an ASCII sentence.
+func capitalise(s string) string {
+	if s == "" || s[0] < 'a' || s[0] > 'z' {
+		return s
+	}
+	return string(s[0]-'a'+'A') + s[1:]
 }

@@ -151,7 +151,7 @@ func TestFiguresFromFixtures(t *testing.T) {
 				}
 				switch f.Name {
 				case "iterations", "coverage", "psi-functions":
-					if !strings.Contains(f.Title, "cell 1 of") {
+					if !strings.Contains(f.Title, "cell 0 (cells 0–") {
 						t.Errorf("%s: title %q does not say which cell", what, f.Title)
 					}
 				}
@@ -203,9 +203,9 @@ func TestFigureColours(t *testing.T) {
 		t.FailNow()
 	}
 	for i := range 4 {
-		c := seriesColours[i]
+		c := seriesColours()[i]
 		if !hasColourNear(img, [3]uint8{c.R, c.G, c.B}, 6) {
-			t.Errorf("series %d colour (%s) not found in the bias-curve figure", i, seriesColourNames[i])
+			t.Errorf("series %d colour (%s) not found in the bias-curve figure", i, seriesColourNames()[i])
 		}
 	}
 }
@@ -276,7 +276,7 @@ func TestFiguresFromHandResults(t *testing.T) {
 	tuning := func(r *Results) {
 		// The asymptotic curve over model.n stands in for a tuning sweep:
 		// any swept numeric path works the same way.
-		r.TuningTheory = []TuningCurve{{Path: "model.n", Estimator: "huber", Constants: []float64{10, 30, 50}, Efficiency: []float64{0.9, 0.94, 0.95}}}
+		r.TuningTheory = []TuningCurve{{Path: "model.n", Estimator: "huber", Constants: []float64{10, 30, 50}, Efficiency: []Num{0.9, 0.94, 0.95}}}
 	}
 	cases := []struct {
 		name        string
@@ -338,7 +338,7 @@ func TestFiguresOfEmptyOrOddResults(t *testing.T) {
 	nan := Num(math.NaN())
 	r.Cells[1].Estimators[0].SlopeBias = Measure{Value: nan, MCSE: nan}
 	r.Cells[0].Estimators[1].Coefficients[0].Coverage = Measure{Value: 0.9, MCSE: nan}
-	r.Functions = []FunctionCurve{{Estimator: "huber", Psi: "huber 1.345", U: []float64{0, 1, 2, math.NaN()}, PsiValues: []float64{0, 1, 1.345, 1.345}, Rho: []float64{0, 0.5, 1.7, 3}, Weight: []float64{1, 1, 0.67, 0.5}}}
+	r.Functions = []FunctionCurve{{Estimator: "huber", Psi: "huber 1.345", U: []float64{0, 1, 2, math.NaN()}, PsiValues: []Num{0, 1, 1.345, 1.345}, Rho: []Num{0, 0.5, 1.7, 3}, Weight: []Num{1, 1, 0.67, 0.5}}}
 	figs, err = Figures(r)
 	if err != nil {
 		t.Fatal(err)

@@ -57,7 +57,7 @@ func WriteMarkdownSummary(w io.Writer, r *Results) error {
 			fmt.Fprintf(b, "\n… and %d more cells (see the HTML report).\n", len(r.Cells)-markdownMaxCells)
 			break
 		}
-		head := fmt.Sprintf("\n**Cell %d of %d**", c.Index+1, len(r.Cells))
+		head := "\n**" + capitalise(cellNumber(r, c)) + "**"
 		if len(c.Settings) > 0 {
 			parts := make([]string, len(c.Settings))
 			for j, s := range c.Settings {
@@ -99,7 +99,7 @@ func WriteMarkdownSummary(w io.Writer, r *Results) error {
 					continue
 				}
 				problems = append(problems, fmt.Sprintf("- cell %d, %s: %s in %d of %d fits (%s, Wilson 95%% CI %s–%s)",
-					c.Index+1, mdCode(e.Label), mdText(s.Status), s.Count, e.Convergence.Fits,
+					c.Index, mdCode(e.Label), mdText(s.Status), s.Count, e.Convergence.Fits,
 					percent(float64(s.Rate.Value)), percent(float64(s.Rate.Low)), percent(float64(s.Rate.High))))
 			}
 		}

@@ -47,6 +47,7 @@ func (m Moments) MeanSquaredError() Measure {
 // Paired are the summaries of the errors of an estimator (A) and the
 // reference estimator (B) over the N replicates where both converged.
 type Paired struct {
+	// N is the number of replicates in which both estimators converged.
 	N int64
 	// SSA and SSB are the centred sums of squares of A's and B's errors,
 	// SAB their centred cross product.
@@ -63,6 +64,24 @@ func (p Paired) RelativeEfficiency() Measure {
 	rho := p.SAB / math.Sqrt(p.SSA*p.SSB)
 	rho2 := math.Min(1, rho*rho)
 	return Measure{Value: Num(re), MCSE: Num(2 * re * math.Sqrt((1-rho2)/(n-1)))}
+}
+
+// Proportion returns k/n with its MCSE. Inside (0, 1) the MCSE is the
+// binomial √(p(1−p)/n) (Morris et al. 2019, Stat. Med., Table 6). At k = 0
+// or k = n that formula gives 0, which would claim certainty from a finite
+// run; there the MCSE is the half-width of the Wilson 95% interval divided
+// by 1.96, so 0 of 1000 fits reads "0 ± 0.001" (the Wilson interval is
+// [0, 0.0038]), which says what 1000 fits can show.
+func Proportion(k, n int64) Measure {
+	if n <= 0 {
+		return Measure{Value: Num(math.NaN()), MCSE: Num(math.NaN())}
+	}
+	p := float64(k) / float64(n)
+	if k == 0 || k == n {
+		w := Wilson(k, n)
+		return Measure{Value: Num(p), MCSE: (w.High - w.Low) / Num(2*distuv.UnitNormal.Quantile(0.975))}
+	}
+	return Measure{Value: Num(p), MCSE: Num(math.Sqrt(p * (1 - p) / float64(n)))}
 }
 
 // Wilson returns k/n with its Wilson score 95% interval (Wilson 1927,

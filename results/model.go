@@ -49,8 +49,8 @@ type Results struct {
 
 // Tool identifies the program and its build.
 type Tool struct {
-	Name    string `json:"name"`
-	Version string `json:"version"`
+	Name    string `json:"name"`    // program name, "rhomark"
+	Version string `json:"version"` // program version, with the VCS revision appended when the build recorded one
 }
 
 // ScenarioInfo identifies a scenario.
@@ -68,8 +68,8 @@ type ScenarioInfo struct {
 
 // Setting is the value of one swept field in a cell.
 type Setting struct {
-	Path  string `json:"path"`
-	Value string `json:"value"`
+	Path  string `json:"path"`  // dotted path of the swept field, as written under vary
+	Value string `json:"value"` // the field's value in this cell, as YAML text
 }
 
 // Cell is the outcome of one cell: one combination of swept values.
@@ -88,7 +88,8 @@ type Cell struct {
 type Estimator struct {
 	// Label names the estimator.
 	Label string `json:"label"`
-	// Method is ls, irls or newton.
+	// Method is the estimation method as named in scenario files: ls, irls,
+	// newton, s-estimate, mm-estimate, lts or lad.
 	Method string `json:"method"`
 	// Psi is the psi family ("" for least squares).
 	Psi string `json:"psi,omitempty"`
@@ -142,7 +143,7 @@ type Coefficient struct {
 	// Coverage is the fraction of those intervals that contain the true
 	// value, and Width their mean width, each with its MCSE.
 	Coverage Measure `json:"coverage"`
-	Width    Measure `json:"width"`
+	Width    Measure `json:"width"` // mean width of the 95% intervals, with its MCSE
 	// TheoryGap is (RelEff − TheoryEfficiency) / MCSE of RelEff: how far,
 	// in Monte Carlo standard errors, the simulation lies from the
 	// asymptotic theory; null where there is no theory.
@@ -164,37 +165,38 @@ type Convergence struct {
 	// MeanIterations (with its MCSE), MedianIterations and MaxIterations
 	// describe the iterations of all fits.
 	MeanIterations   Measure `json:"mean_iterations"`
-	MedianIterations Num     `json:"median_iterations"`
+	MedianIterations Num     `json:"median_iterations"` // median iterations of all fits; null when there are none
 	// IterationHistogram counts the fits by iterations taken: entry k is the
-	// number of fits that took k iterations.
+	// number of fits that took k iterations, except that entry 10000 (the
+	// last possible) counts every fit that took 10000 or more.
 	IterationHistogram []int64 `json:"iteration_histogram,omitempty"`
-	MaxIterations      int64   `json:"max_iterations"`
+	MaxIterations      int64   `json:"max_iterations"` // most iterations of any fit; 0 when there are none
 	// Halvings, Fallbacks and QRSolves total the safeguards fired: Newton
 	// step halvings, IRLS steps taken in place of Newton steps, and weighted
 	// solves that fell back from Cholesky to QR.
 	Halvings  int64 `json:"halvings"`
-	Fallbacks int64 `json:"fallbacks"`
-	QRSolves  int64 `json:"qr_solves"`
+	Fallbacks int64 `json:"fallbacks"` // iterations that took an IRLS step instead of a Newton step
+	QRSolves  int64 `json:"qr_solves"` // weighted solves that fell back from Cholesky to QR
 }
 
 // StatusCount is how many fits ended with one status.
 type StatusCount struct {
-	Status string `json:"status"`
-	Count  int64  `json:"count"`
-	Rate   Rate   `json:"rate"`
+	Status string `json:"status"` // name of the final status
+	Count  int64  `json:"count"`  // number of fits that ended with it
+	Rate   Rate   `json:"rate"`   // Count over all fits, with its Wilson 95% interval
 }
 
 // Rate is a proportion with its Wilson score 95% interval.
 type Rate struct {
-	Value Num `json:"value"`
-	Low   Num `json:"low"`
-	High  Num `json:"high"`
+	Value Num `json:"value"` // the proportion k/n; null (as are Low and High) when n = 0
+	Low   Num `json:"low"`   // lower end of the interval, in [0, 1]
+	High  Num `json:"high"`  // upper end of the interval, in [0, 1]
 }
 
 // Measure is a performance measure with its Monte Carlo standard error.
 type Measure struct {
-	Value Num `json:"value"`
-	MCSE  Num `json:"mcse"`
+	Value Num `json:"value"` // the estimate; null when it is undefined
+	MCSE  Num `json:"mcse"`  // its Monte Carlo standard error; null when undefined
 }
 
 // Num is a float64 that encodes NaN and infinities as JSON null (JSON has
@@ -227,12 +229,12 @@ func (n *Num) UnmarshalJSON(b []byte) error {
 // Provenance records the circumstances of a run. Nothing here enters the
 // CSV, so two runs of the same scenario and seed give identical CSV files.
 type Provenance struct {
-	GoVersion string    `json:"go_version"`
-	OS        string    `json:"os"`
-	Arch      string    `json:"arch"`
-	Workers   int       `json:"workers"`
-	Started   time.Time `json:"started"`
-	Finished  time.Time `json:"finished"`
+	GoVersion string    `json:"go_version"` // runtime.Version() of the binary
+	OS        string    `json:"os"`         // runtime.GOOS
+	Arch      string    `json:"arch"`       // runtime.GOARCH
+	Workers   int       `json:"workers"`    // goroutines fitting in parallel; 0 for results summarised from merged partials
+	Started   time.Time `json:"started"`    // start of the run, in UTC; for merged partials, the time of the merge
+	Finished  time.Time `json:"finished"`   // end of the run, in UTC; for merged partials, the time of the merge
 	// Build holds build information of the binary (module version, VCS
 	// revision and time) where Go recorded it.
 	Build map[string]string `json:"build,omitempty"`
@@ -250,9 +252,9 @@ func (p Provenance) WithoutRunDetails() Provenance {
 
 // Timing is the mean time per fit of one estimator in one cell, in seconds.
 type Timing struct {
-	Cell       int     `json:"cell"`
-	Estimator  string  `json:"estimator"`
-	SecondsPer float64 `json:"seconds_per_fit"`
+	Cell       int     `json:"cell"`            // index of the cell (Cell.Index), from 0
+	Estimator  string  `json:"estimator"`       // the estimator's label
+	SecondsPer float64 `json:"seconds_per_fit"` // wall time spent fitting divided by the number of fits
 }
 
 // Breakdown is the bias-curve view of a run: the norm of the slope bias
@@ -277,16 +279,19 @@ type Breakdown struct {
 type BiasPoint struct {
 	// Settings are the group's swept values other than the worst-over
 	// paths (the fraction among them).
-	Settings  []Setting `json:"settings"`
-	Fraction  float64   `json:"fraction"`
-	Estimator string    `json:"estimator"`
+	Settings []Setting `json:"settings"`
+	// Fraction is the nominal contamination fraction f as written in the
+	// scenario. The rows replaced are round(f·n), so the realised fraction
+	// round(f·n)/n can differ from f at small n.
+	Fraction  float64 `json:"fraction"`
+	Estimator string  `json:"estimator"` // the estimator's label
 	// Bias is the mean, over the group's positions, of the slope-bias
 	// norm; Worst the largest, at WorstAt (the worst-over values), with
 	// that cell's MCSE. Being the largest of noisy estimates, Worst is
 	// biased upward, by up to about its MCSE when positions are alike.
 	Bias    Measure   `json:"bias"`
-	Worst   Measure   `json:"worst"`
-	WorstAt []Setting `json:"worst_at,omitempty"`
+	Worst   Measure   `json:"worst"`              // largest slope-bias norm over the positions, with that cell's MCSE
+	WorstAt []Setting `json:"worst_at,omitempty"` // the worst-over settings of the cell where Worst occurred
 	// PastThreshold is the rate of replicates past the threshold in the
 	// worst cell.
 	PastThreshold *Rate `json:"past_threshold,omitempty"`
@@ -297,7 +302,7 @@ type BreakdownPoint struct {
 	// Settings are the swept values other than the fraction and the
 	// worst-over paths.
 	Settings  []Setting `json:"settings,omitempty"`
-	Estimator string    `json:"estimator"`
+	Estimator string    `json:"estimator"` // the estimator's label
 	// Fraction is the smallest swept fraction whose worst slope-bias norm
 	// exceeds the threshold; null if none does.
 	Fraction Num `json:"fraction"`
@@ -308,12 +313,12 @@ type BreakdownPoint struct {
 // FunctionCurve is a psi function of one estimator sampled on a grid of
 // standardised residuals u ≥ 0 (psi is odd, rho and the weight even).
 type FunctionCurve struct {
-	Estimator string    `json:"estimator"`
-	Psi       string    `json:"psi"`
-	U         []float64 `json:"u"`
-	PsiValues []float64 `json:"psi_values"`
-	Rho       []float64 `json:"rho"`
-	Weight    []float64 `json:"weight"`
+	Estimator string    `json:"estimator"`  // the estimator's label
+	Psi       string    `json:"psi"`        // the psi drawn: its family name followed by any tuning constants
+	U         []float64 `json:"u"`          // the grid of residuals, equally spaced from 0 to 8
+	PsiValues []Num     `json:"psi_values"` // psi(U[i]) at each grid point
+	Rho       []Num     `json:"rho"`        // rho(U[i]) at each grid point
+	Weight    []Num     `json:"weight"`     // Weight(U[i]), the IRLS weight psi(u)/u, at each grid point
 }
 
 // TuningCurve is the asymptotic efficiency (against the reference, at the
@@ -321,7 +326,7 @@ type FunctionCurve struct {
 type TuningCurve struct {
 	// Path is the swept path of the constant.
 	Path       string    `json:"path"`
-	Estimator  string    `json:"estimator"`
-	Constants  []float64 `json:"constants"`
-	Efficiency []float64 `json:"efficiency"`
+	Estimator  string    `json:"estimator"`  // the estimator's label
+	Constants  []float64 `json:"constants"`  // values of the first tuning constant, geometrically spaced, increasing
+	Efficiency []Num     `json:"efficiency"` // efficiency at Constants[i], against the reference estimator
 }

@@ -20,49 +20,61 @@ import (
 // and its own dash pattern; figures_test.go checks the colours under
 // simulated colour-vision deficiencies and the shapes and dashes for series
 // whose grey levels are alike.
-var seriesColours = []color.RGBA{
-	{R: 0x00, G: 0x72, B: 0xB2, A: 0xFF}, // blue
-	{R: 0xD5, G: 0x5E, B: 0x00, A: 0xFF}, // vermillion
-	{R: 0x00, G: 0x9E, B: 0x73, A: 0xFF}, // bluish green
-	{R: 0xCC, G: 0x79, B: 0xA7, A: 0xFF}, // reddish purple
-	{R: 0xE6, G: 0x9F, B: 0x00, A: 0xFF}, // orange
-	{R: 0x56, G: 0xB4, B: 0xE9, A: 0xFF}, // sky blue
-	{R: 0x00, G: 0x00, B: 0x00, A: 0xFF}, // black
-	{R: 0xF0, G: 0xE4, B: 0x42, A: 0xFF}, // yellow
+func seriesColours() []color.RGBA {
+	return []color.RGBA{
+		{R: 0x00, G: 0x72, B: 0xB2, A: 0xFF}, // blue
+		{R: 0xD5, G: 0x5E, B: 0x00, A: 0xFF}, // vermillion
+		{R: 0x00, G: 0x9E, B: 0x73, A: 0xFF}, // bluish green
+		{R: 0xCC, G: 0x79, B: 0xA7, A: 0xFF}, // reddish purple
+		{R: 0xE6, G: 0x9F, B: 0x00, A: 0xFF}, // orange
+		{R: 0x56, G: 0xB4, B: 0xE9, A: 0xFF}, // sky blue
+		{R: 0x00, G: 0x00, B: 0x00, A: 0xFF}, // black
+		{R: 0xF0, G: 0xE4, B: 0x42, A: 0xFF}, // yellow
+	}
 }
 
 // seriesColourNames names seriesColours, for test messages and captions.
-var seriesColourNames = []string{"blue", "vermillion", "bluish green", "reddish purple", "orange", "sky blue", "black", "yellow"}
+func seriesColourNames() []string {
+	return []string{"blue", "vermillion", "bluish green", "reddish purple", "orange", "sky blue", "black", "yellow"}
+}
 
 // seriesMarkers are the marker shapes, filled and open shapes alternating so
 // that neighbours in the order differ in both outline and fill.
-var seriesMarkers = []struct {
+type namedMarker struct {
 	name  string
 	shape draw.GlyphDrawer
-}{
-	{"filled circle", draw.CircleGlyph{}},
-	{"open triangle", draw.TriangleGlyph{}},
-	{"filled square", draw.BoxGlyph{}},
-	{"cross", draw.CrossGlyph{}},
-	{"filled triangle", draw.PyramidGlyph{}},
-	{"open circle", draw.RingGlyph{}},
-	{"plus", draw.PlusGlyph{}},
-	{"open square", draw.SquareGlyph{}},
+}
+
+func seriesMarkers() []namedMarker {
+	return []namedMarker{
+		{"filled circle", draw.CircleGlyph{}},
+		{"open triangle", draw.TriangleGlyph{}},
+		{"filled square", draw.BoxGlyph{}},
+		{"cross", draw.CrossGlyph{}},
+		{"filled triangle", draw.PyramidGlyph{}},
+		{"open circle", draw.RingGlyph{}},
+		{"plus", draw.PlusGlyph{}},
+		{"open square", draw.SquareGlyph{}},
+	}
 }
 
 // seriesDashes are the dash patterns (on, off, ... in points); nil is solid.
-var seriesDashes = []struct {
+type namedDashes struct {
 	name    string
 	pattern []vg.Length
-}{
-	{"solid", nil},
-	{"dashed", []vg.Length{vg.Points(6), vg.Points(3)}},
-	{"dotted", []vg.Length{vg.Points(1.5), vg.Points(2.5)}},
-	{"dash-dot", []vg.Length{vg.Points(7), vg.Points(3), vg.Points(1.5), vg.Points(3)}},
-	{"long dash", []vg.Length{vg.Points(12), vg.Points(4)}},
-	{"dash-dot-dot", []vg.Length{vg.Points(7), vg.Points(2.5), vg.Points(1.5), vg.Points(2.5), vg.Points(1.5), vg.Points(2.5)}},
-	{"short dash", []vg.Length{vg.Points(3), vg.Points(2)}},
-	{"long-short", []vg.Length{vg.Points(12), vg.Points(3), vg.Points(4), vg.Points(3)}},
+}
+
+func seriesDashes() []namedDashes {
+	return []namedDashes{
+		{"solid", nil},
+		{"dashed", []vg.Length{vg.Points(6), vg.Points(3)}},
+		{"dotted", []vg.Length{vg.Points(1.5), vg.Points(2.5)}},
+		{"dash-dot", []vg.Length{vg.Points(7), vg.Points(3), vg.Points(1.5), vg.Points(3)}},
+		{"long dash", []vg.Length{vg.Points(12), vg.Points(4)}},
+		{"dash-dot-dot", []vg.Length{vg.Points(7), vg.Points(2.5), vg.Points(1.5), vg.Points(2.5), vg.Points(1.5), vg.Points(2.5)}},
+		{"short dash", []vg.Length{vg.Points(3), vg.Points(2)}},
+		{"long-short", []vg.Length{vg.Points(12), vg.Points(3), vg.Points(4), vg.Points(3)}},
+	}
 }
 
 // seriesStyle is how one series is drawn.
@@ -82,17 +94,18 @@ func styleOf(i int) seriesStyle {
 	if i < 0 {
 		i = 0
 	}
-	n := len(seriesColours)
+	colours, names, markers, dashes := seriesColours(), seriesColourNames(), seriesMarkers(), seriesDashes()
+	n := len(colours)
 	c := i % n
-	m := (i + i/n) % len(seriesMarkers)
-	d := (i + 2*(i/n)) % len(seriesDashes)
+	m := (i + i/n) % len(markers)
+	d := (i + 2*(i/n)) % len(dashes)
 	return seriesStyle{
-		colour:     seriesColours[c],
-		colourName: seriesColourNames[c],
-		marker:     seriesMarkers[m].shape,
-		markerName: seriesMarkers[m].name,
-		dashes:     seriesDashes[d].pattern,
-		dashName:   seriesDashes[d].name,
+		colour:     colours[c],
+		colourName: names[c],
+		marker:     markers[m].shape,
+		markerName: markers[m].name,
+		dashes:     dashes[d].pattern,
+		dashName:   dashes[d].name,
 	}
 }
 

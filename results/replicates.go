@@ -2,6 +2,7 @@ package results
 
 import (
 	"bufio"
+	"cmp"
 	"compress/gzip"
 	"encoding/binary"
 	"encoding/json"
@@ -31,26 +32,26 @@ const replicateMagic = "rhomark replicates 1\n"
 
 // ReplicateHeader describes a replicate file.
 type ReplicateHeader struct {
-	Scenario   string            `json:"scenario"`
-	Hash       string            `json:"hash"`
-	Seed       uint64            `json:"seed"`
-	Replicates int               `json:"replicates"`
-	Statuses   []string          `json:"statuses"`
-	Cells      []ReplicateLayout `json:"cells"`
+	Scenario   string            `json:"scenario"`   // the scenario's name
+	Hash       string            `json:"hash"`       // the scenario's hash (see ScenarioInfo.Hash)
+	Seed       uint64            `json:"seed"`       // the run's root seed
+	Replicates int               `json:"replicates"` // replicates per cell
+	Statuses   []string          `json:"statuses"`   // status names, indexed by the status byte of a record
+	Cells      []ReplicateLayout `json:"cells"`      // the layout of each cell, indexed by cell
 }
 
 // ReplicateLayout is the shape of one cell's records.
 type ReplicateLayout struct {
-	Estimators   []string `json:"estimators"`
-	Coefficients []string `json:"coefficients"`
+	Estimators   []string `json:"estimators"`   // estimator labels, in record order
+	Coefficients []string `json:"coefficients"` // coefficient names, in the order of each record's values
 }
 
 // ReplicateRecord is one estimator's fit of one replicate.
 type ReplicateRecord struct {
-	Cell, Replicate, Estimator int
-	Status                     string
-	Iterations                 int
-	Coefficients               []float64
+	Cell, Replicate, Estimator int       // indices from 0; Estimator indexes the cell's ReplicateLayout.Estimators
+	Status                     string    // name of the fit's final status
+	Iterations                 int       // iterations the fit took
+	Coefficients               []float64 // estimates, in the order of ReplicateLayout.Coefficients
 }
 
 // ReplicateWriter writes a replicate file.
@@ -113,7 +114,7 @@ func (rw *ReplicateWriter) Close() error {
 
 // ReplicateReader reads a replicate file record by record.
 type ReplicateReader struct {
-	Header ReplicateHeader
+	Header ReplicateHeader // the file's header, read by NewReplicateReader
 	br     *bufio.Reader
 	// the current block
 	cell, next, left int
@@ -168,7 +169,7 @@ func (rr *ReplicateReader) Next() (ReplicateRecord, error) {
 		}
 		first, err1 := binary.ReadUvarint(rr.br)
 		count, err2 := binary.ReadUvarint(rr.br)
-		if err := errors.Join(err1, err2); err != nil {
+		if err := cmp.Or(err1, err2); err != nil {
 			return rec, corrupt(err)
 		}
 		if cell >= uint64(len(rr.Header.Cells)) || count == 0 || count > 1<<30 || first > 1<<40 {

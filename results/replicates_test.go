@@ -87,6 +87,32 @@ func TestReplicateCorruption(t *testing.T) {
 	}
 }
 
+// TestPairedReportsDamage: paired comparison reports a damaged replicate
+// file on either side, even when the damage shows only after the other
+// file has ended.
+func TestPairedReportsDamage(t *testing.T) {
+	good := sampleReplicates(t)
+	damaged := good[:len(good)-9]
+	src := func(b []byte) ReplicateSource {
+		return func() (io.ReadCloser, error) { return io.NopCloser(bytes.NewReader(b)), nil }
+	}
+	if _, err := comparePaired(src(good), src(good), 1e-9); err != nil {
+		t.Fatalf("intact files: %v", err)
+	}
+	for _, c := range []struct {
+		name       string
+		base, cand []byte
+		want       string
+	}{
+		{"candidate damaged", good, damaged, "candidate replicates"},
+		{"baseline damaged", damaged, good, "baseline replicates"},
+	} {
+		if _, err := comparePaired(src(c.base), src(c.cand), 1e-9); err == nil || !strings.Contains(err.Error(), c.want) {
+			t.Errorf("%s: error %v, want one naming the %s", c.name, err, c.want)
+		}
+	}
+}
+
 func TestHolm(t *testing.T) {
 	// Holm (1979), Scand. J. Statist. 6:65-70: p-values sorted ascending
 	// are rejected while p_(k) ≤ α/(m − k).
@@ -103,6 +129,21 @@ func TestHolm(t *testing.T) {
 	for i := range d {
 		if d[i].Flagged != want[i] {
 			t.Errorf("z = %v: flagged %v, want %v", zs[i], d[i].Flagged, want[i])
+		}
+	}
+	// An undefined z is neither flagged nor counted: with the NaN out,
+	// m = 3 and 4.2σ (p 2.7e-5 ≤ α/2 = 3.2e-5) is flagged; counting the
+	// NaN would make m = 4 and stop at 4.2σ as above.
+	zs = []float64{math.NaN(), 5, 4.2, 0.5}
+	d = make([]Difference, len(zs))
+	for i, z := range zs {
+		d[i].Z = Num(z)
+	}
+	holm(d, alpha)
+	want = []bool{false, true, true, false}
+	for i := range d {
+		if d[i].Flagged != want[i] {
+			t.Errorf("with a NaN: z = %v: flagged %v, want %v", zs[i], d[i].Flagged, want[i])
 		}
 	}
 }

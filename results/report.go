@@ -357,10 +357,8 @@ func bestInCell(r *Results, c Cell) []bestEntry {
 			continue
 		}
 		failed := cv.Fits - cv.Converged
-		p := float64(failed) / float64(cv.Fits)
-		// MCSE of a proportion, √(p(1−p)/n) (Morris et al. 2019, Table 6).
-		m := math.Sqrt(p * (1 - p) / float64(cv.Fits))
-		cands = append(cands, candidate{label: e.Label, m: Measure{Value: Num(p), MCSE: Num(m)}, score: p, mcse: m, failed: failed, fits: cv.Fits})
+		m := Proportion(failed, cv.Fits)
+		cands = append(cands, candidate{label: e.Label, m: m, score: float64(m.Value), mcse: float64(m.MCSE), failed: failed, fits: cv.Fits})
 	}
 	add(pickBest(bestFailure, "", cands))
 	return out
@@ -409,7 +407,7 @@ func writeBestSection(b *strings.Builder, r *Results) {
 		fmt.Fprintf(b, "<p>Against the asymptotic theory at the normal model, the largest gap is %s MCSE: %s.</p>\n", esc(strconv.FormatFloat(math.Abs(g.gap), 'f', 1, 64)), esc(g.where(r)))
 	}
 	for _, c := range r.Cells {
-		fmt.Fprintf(b, "<h3 id=\"best-cell-%d\">Cell %d of %d</h3>\n", c.Index+1, c.Index+1, len(r.Cells))
+		fmt.Fprintf(b, "<h3 id=\"best-cell-%d\">%s</h3>\n", c.Index, esc(capitalise(cellNumber(r, c))))
 		if len(c.Settings) > 0 {
 			fmt.Fprintf(b, "<p class=\"settings\">%s</p>\n", esc(settingsText(c.Settings)))
 		}
@@ -545,7 +543,7 @@ func writeConvergenceSection(b *strings.Builder, r *Results) {
 		for i, e := range c.Estimators {
 			cell := ""
 			if i == 0 {
-				cell = fmt.Sprintf("%d", c.Index+1)
+				cell = fmt.Sprintf("%d", c.Index)
 			}
 			cv := e.Convergence
 			conv := fmt.Sprintf("%d / %d", cv.Converged, cv.Fits)

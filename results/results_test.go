@@ -59,6 +59,25 @@ func TestWilson(t *testing.T) {
 	}
 }
 
+func TestProportion(t *testing.T) {
+	// Inside (0, 1): the binomial MCSE √(p(1−p)/n) (Morris, White &
+	// Crowther (2019), Stat. Med. 38:2074-2102, Table 6).
+	if m := Proportion(30, 200); math.Abs(float64(m.MCSE)-math.Sqrt(0.15*0.85/200)) > 1e-15 || m.Value != 0.15 {
+		t.Errorf("30/200: %+v", m)
+	}
+	// At the edges: half the Wilson interval over 1.96, never 0. From
+	// Newcombe (1998) above, 0/20 → [0, 0.1611], so MCSE ≈ 0.1611/3.92.
+	for _, k := range []int64{0, 20} {
+		m := Proportion(k, 20)
+		if math.Abs(float64(m.MCSE)-0.1611/3.92) > 5e-5 {
+			t.Errorf("%d/20: MCSE %v, want %.5f", k, m.MCSE, 0.1611/3.92)
+		}
+	}
+	if m := Proportion(0, 0); !math.IsNaN(float64(m.Value)) || !math.IsNaN(float64(m.MCSE)) {
+		t.Errorf("0/0: %+v", m)
+	}
+}
+
 // TestMomentsFormulas checks the MCSE formulas against their definitions
 // computed directly from a sample (Morris, White & Crowther (2019), Stat.
 // Med. 38:2074-2102, Table 6).

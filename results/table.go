@@ -33,7 +33,7 @@ func WriteTable(w io.Writer, r *Results, width int) error {
 
 func writeCellBlock(b *strings.Builder, r *Results, c Cell, width int) {
 	b.WriteString("\n")
-	rule := fmt.Sprintf("── cell %d of %d ", c.Index+1, len(r.Cells))
+	rule := "── " + cellNumber(r, c) + " "
 	if c.Replicates != int64(r.Replicates) {
 		rule += fmt.Sprintf("(%d of %d replicates) ", c.Replicates, r.Replicates)
 	}

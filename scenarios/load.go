@@ -50,8 +50,8 @@ type Cell struct {
 
 // Setting is one swept field's value in a cell.
 type Setting struct {
-	Path  string `json:"path"`
-	Value string `json:"value"`
+	Path  string `json:"path"`  // the field's dotted path, as written under vary
+	Value string `json:"value"` // the field's value in this cell, as YAML text (see Sweep.Values)
 }
 
 // Limits bounds what a scenario may ask for, so that a typing slip cannot

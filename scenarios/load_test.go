@@ -239,4 +239,10 @@ vary:
 	if err == nil || !strings.Contains(err.Error(), "custom.yaml:9:") || strings.Contains(err.Error(), "in the cell") || !strings.Contains(err.Error(), `unknown name "q"`) {
 		t.Errorf("bad expression error: %v", err)
 	}
+	// A psi that is not finite for some residuals is refused at load.
+	nonFinite := strings.Replace(src, "r / (1 + abs(r)/c)", "r * sqrt(c - abs(r))", 1)
+	_, err = Parse("custom.yaml", []byte(nonFinite), Limits{})
+	if err == nil || !strings.Contains(err.Error(), "custom.yaml:9:") || !strings.Contains(err.Error(), "gives NaN") {
+		t.Errorf("non-finite psi error: %v", err)
+	}
 }

@@ -95,17 +95,33 @@ type Column struct {
 //	levels       levels (required): row i takes levels[i mod len], a fixed design
 //	grid         min (0), max (1): n equally spaced values, a fixed design
 type Distribution struct {
-	Dist    string    `yaml:"dist" json:"dist"`
-	Mean    *float64  `yaml:"mean" json:"mean,omitempty"`
-	SD      *float64  `yaml:"sd" json:"sd,omitempty"`
-	Min     *float64  `yaml:"min" json:"min,omitempty"`
-	Max     *float64  `yaml:"max" json:"max,omitempty"`
-	DF      *float64  `yaml:"df" json:"df,omitempty"`
-	Scale   *float64  `yaml:"scale" json:"scale,omitempty"`
-	Meanlog *float64  `yaml:"meanlog" json:"meanlog,omitempty"`
-	Sdlog   *float64  `yaml:"sdlog" json:"sdlog,omitempty"`
-	Rate    *float64  `yaml:"rate" json:"rate,omitempty"`
-	Levels  []float64 `yaml:"levels" json:"levels,omitempty"`
+	// Dist is the distribution: normal, uniform, student-t, laplace,
+	// lognormal, exponential, levels or grid. Default normal.
+	Dist string `yaml:"dist" json:"dist"`
+	// Mean is the location of normal, student-t and laplace. Default 0.
+	Mean *float64 `yaml:"mean" json:"mean,omitempty"`
+	// SD is the standard deviation of normal; positive. Default 1.
+	SD *float64 `yaml:"sd" json:"sd,omitempty"`
+	// Min is the lower end of uniform and grid. Default 0.
+	Min *float64 `yaml:"min" json:"min,omitempty"`
+	// Max is the upper end of uniform and grid; it must exceed min.
+	// Default 1.
+	Max *float64 `yaml:"max" json:"max,omitempty"`
+	// DF is the degrees of freedom of student-t; positive, required.
+	DF *float64 `yaml:"df" json:"df,omitempty"`
+	// Scale is the scale parameter of student-t (not its standard
+	// deviation) and of laplace (b, with SD = b√2); positive. Default 1.
+	Scale *float64 `yaml:"scale" json:"scale,omitempty"`
+	// Meanlog is the mean of log x for lognormal. Default 0.
+	Meanlog *float64 `yaml:"meanlog" json:"meanlog,omitempty"`
+	// Sdlog is the standard deviation of log x for lognormal; positive.
+	// Default 1.
+	Sdlog *float64 `yaml:"sdlog" json:"sdlog,omitempty"`
+	// Rate is the rate λ of exponential (mean 1/λ); positive. Default 1.
+	Rate *float64 `yaml:"rate" json:"rate,omitempty"`
+	// Levels are the values a levels column cycles through, row i
+	// (counting from 0) taking levels[i mod len]; required for levels.
+	Levels []float64 `yaml:"levels" json:"levels,omitempty"`
 }
 
 // Noise is the distribution of the errors of clean observations, chosen by
@@ -167,14 +183,30 @@ type Growth struct {
 type Contamination struct {
 	// Label names the contamination in sweep paths. Default: its kind,
 	// made unique with a number.
-	Label    string   `yaml:"label" json:"label"`
-	Kind     string   `yaml:"kind" json:"kind"`
-	Fraction float64  `yaml:"fraction" json:"fraction"`
-	Shift    *float64 `yaml:"shift" json:"shift,omitempty"`
-	Spread   *float64 `yaml:"spread" json:"spread,omitempty"`
-	Sides    string   `yaml:"sides" json:"sides,omitempty"`
-	At       Numbers  `yaml:"at" json:"at,omitempty"`
+	Label string `yaml:"label" json:"label"`
+	// Kind is vertical, bad-leverage or good-leverage; required.
+	Kind string `yaml:"kind" json:"kind"`
+	// Fraction is the share of observations replaced: at least 0 and
+	// below 0.5, round(fraction·n) rows. Default 0.
+	Fraction float64 `yaml:"fraction" json:"fraction"`
+	// Shift is where the errors of vertical outliers sit, in units of y;
+	// required for vertical.
+	Shift *float64 `yaml:"shift" json:"shift,omitempty"`
+	// Spread is the standard deviation of the outliers' errors about
+	// ±shift (vertical) or of their y about response (bad-leverage); ≥ 0.
+	// Default 0.
+	Spread *float64 `yaml:"spread" json:"spread,omitempty"`
+	// Sides is one (every vertical outlier at +shift) or two (at +shift
+	// or −shift, each with probability 1/2). Default one.
+	Sides string `yaml:"sides" json:"sides,omitempty"`
+	// At is the x position of leverage points: one number for every
+	// column or one per column; required for both leverage kinds.
+	At Numbers `yaml:"at" json:"at,omitempty"`
+	// AtSpread is the standard deviation of each leverage point's x about
+	// at, per column; ≥ 0. Default 0.
 	AtSpread *float64 `yaml:"at-spread" json:"at_spread,omitempty"`
+	// Response is the y value bad-leverage points take before spread is
+	// added; required for bad-leverage.
 	Response *float64 `yaml:"response" json:"response,omitempty"`
 }
 

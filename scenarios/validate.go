@@ -415,6 +415,7 @@ func (s *Scenario) validateNoise(c checker) {
 
 func (s *Scenario) validateContamination(c checker) {
 	total := 0.0
+	rows := 0 // rows replaced, as the generator counts them
 	labels := map[string]bool{}
 	k := len(s.Model.Columns)
 	for i := range s.Contamination {
@@ -430,6 +431,9 @@ func (s *Scenario) validateContamination(c checker) {
 			c.fail(path+".fraction", "must be at least 0 and below 0.5, got %v", ct.Fraction)
 		}
 		total += ct.Fraction
+		if ct.Fraction >= 0 && ct.Fraction < 0.5 {
+			rows += int(math.Floor(ct.Fraction*float64(s.Model.N) + 0.5))
+		}
 		var allowed []string
 		switch ct.Kind {
 		case "vertical":
@@ -478,8 +482,13 @@ func (s *Scenario) validateContamination(c checker) {
 			c.fail(path+".at-spread", "must be ≥ 0, got %v", *ct.AtSpread)
 		}
 	}
-	if total >= 0.5 {
+	switch {
+	case total >= 0.5:
 		c.fail("contamination", "fractions add up to %v; the total must stay below 0.5", total)
+	case s.Model.N > 0 && 2*rows >= s.Model.N:
+		// Each contamination replaces round(fraction·n) rows, so small
+		// fractions can round up to half the data between them.
+		c.fail("contamination", "with n = %d the contaminations replace %d rows (round(fraction·n) each), not fewer than half; lower a fraction or raise model.n", s.Model.N, rows)
 	}
 }
 

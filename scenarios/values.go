@@ -131,11 +131,19 @@ type PsiSpec struct {
 
 // CustomPsi is the mapping form of a psi of the user's own.
 type CustomPsi struct {
-	Expr      string       `yaml:"expr" json:"expr"`
-	Rho       string       `yaml:"rho" json:"rho,omitempty"`
-	Deriv     string       `yaml:"deriv" json:"deriv,omitempty"`
+	// Expr is psi as an expression in the standardised residual r;
+	// required.
+	Expr string `yaml:"expr" json:"expr"`
+	// Rho is the rho expression. Default: the integral of psi from 0 to
+	// |r|, by quadrature.
+	Rho string `yaml:"rho" json:"rho,omitempty"`
+	// Deriv is the expression of psi'. Default: a numerical derivative.
+	Deriv string `yaml:"deriv" json:"deriv,omitempty"`
+	// Constants are the named constants the expressions use, in order.
 	Constants NamedNumbers `yaml:"constants" json:"constants,omitempty"`
-	Kinks     []float64    `yaml:"kinks" json:"kinks,omitempty"`
+	// Kinks lists points ≥ 0 where psi or psi' jumps, to guide
+	// quadrature (optional).
+	Kinks []float64 `yaml:"kinks" json:"kinks,omitempty"`
 }
 
 // NamedNumbers is an ordered mapping from names to numbers.
@@ -143,8 +151,8 @@ type NamedNumbers []NamedNumber
 
 // NamedNumber is one entry of a NamedNumbers.
 type NamedNumber struct {
-	Name  string
-	Value float64
+	Name  string  // the key, as written in the file
+	Value float64 // the number it maps to
 }
 
 func (v *NamedNumbers) decodeNode(d *decoder, n *yaml.Node, path string) {

@@ -163,6 +163,18 @@ func TestFitGroupsAndBadData(t *testing.T) {
 	if code != exitUsage || !strings.Contains(errs, "bench.csv:3: column reading") {
 		t.Errorf("bad data: exit %d, stderr %q", code, errs)
 	}
+	// Without --x, a predictor column with one bad cell is reported, not
+	// silently left out of the fit.
+	badX := "volume,reading,run\n5,5.2,A\n10,10.1,A\n2O,19.7,B\n"
+	os.WriteFile(path, []byte(badX), 0o644)
+	code, _, errs = rhomark(t, "fit", path, "--y", "reading", "--method", "ls")
+	if code != exitUsage || !strings.Contains(errs, "bench.csv:4: column volume") {
+		t.Errorf("bad predictor cell: exit %d, stderr %q", code, errs)
+	}
+	code, _, errs = rhomark(t, "fit", path, "--y", "reading", "--x", "volume,volume")
+	if code != exitUsage || !strings.Contains(errs, "listed twice") {
+		t.Errorf("duplicated predictor: exit %d, stderr %q", code, errs)
+	}
 	ragged := "volume,reading\n5,5.2\n10\n"
 	os.WriteFile(path, []byte(ragged), 0o644)
 	code, _, errs = rhomark(t, "fit", path, "--y", "reading")
@@ -249,6 +261,13 @@ func TestTuneCommand(t *testing.T) {
 		{"tune", "--psi", "bisquare", "--minimax", "0.1"}, {"tune", "--psi", "huber", "--breakdown", "0.5"}} {
 		if code, _, _ := rhomark(t, bad...); code == exitOK {
 			t.Errorf("%v succeeded", bad)
+		}
+	}
+	// Targets out of range are usage errors (exit 2) naming the flag.
+	for _, bad := range [][]string{{"--efficiency", "1.2"}, {"--efficiency", "0"}, {"--breakdown", "0.7"}, {"--sweep", "1:2:100000"}} {
+		code, _, errs := rhomark(t, append([]string{"tune", "--psi", "bisquare"}, bad...)...)
+		if code != exitUsage || !strings.Contains(errs, bad[0]) {
+			t.Errorf("%v: exit %d, stderr %q", bad, code, errs)
 		}
 	}
 }
@@ -434,7 +453,7 @@ func TestReplayReproducesRun(t *testing.T) {
 	code, out, _ = rhomark(t, "fit", csvPath, "--y", "y", "--method", "ls", "--json")
 	var fit fitOutput
 	json.Unmarshal([]byte(out), &fit)
-	if code != exitOK || fit.Fits[0].Coefficients["x1"] != recorded["ls"][1] {
+	if code != exitOK || float64(fit.Fits[0].Coefficients["x1"]) != recorded["ls"][1] {
 		t.Errorf("refit of the replayed dataset: %v vs %v", fit.Fits[0].Coefficients, recorded["ls"])
 	}
 }

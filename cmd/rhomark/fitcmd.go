@@ -4,6 +4,7 @@ import (
 	"encoding/json"
 	"fmt"
 	"os"
+	"slices"
 	"strings"
 
 	"gonum.org/v1/gonum/mat"
@@ -33,24 +34,24 @@ type fitEstimator struct {
 }
 
 type fitJSON struct {
-	Group        string             `json:"group"`
-	Rows         int                `json:"rows"`
-	Coefficients map[string]float64 `json:"coefficients,omitempty"`
-	Order        []string           `json:"coefficient_order"`
-	Scale        float64            `json:"scale"`
-	Iterations   int                `json:"iterations"`
-	Status       string             `json:"status"`
-	Converged    bool               `json:"converged"`
-	EquationNorm float64            `json:"equation_norm"`
-	Objective    float64            `json:"objective"`
-	Error        string             `json:"error,omitempty"`
+	Group        string               `json:"group"`
+	Rows         int                  `json:"rows"`
+	Coefficients map[string]jsonFloat `json:"coefficients,omitempty"`
+	Order        []string             `json:"coefficient_order"`
+	Scale        jsonFloat            `json:"scale"`
+	Iterations   int                  `json:"iterations"`
+	Status       string               `json:"status"`
+	Converged    bool                 `json:"converged"`
+	EquationNorm jsonFloat            `json:"equation_norm"`
+	Objective    jsonFloat            `json:"objective"`
+	Error        string               `json:"error,omitempty"`
 }
 
 func fitCmd(e env, args []string) error {
 	fs := newFlags(e, "fit", "DATA.csv --y COLUMN [options]",
 		"Fits a regression to a CSV file (a header row, then one row per observation),\nonce per group if --group is given.")
 	yCol := fs.String("y", "", "response `column` (required)")
-	xCols := fs.String("x", "", "predictor `columns`, comma-separated (default: every other numeric column)")
+	xCols := fs.String("x", "", "predictor `columns`, comma-separated (default: every other column holding numbers)")
 	group := fs.String("group", "", "fit once per value of this `column`")
 	noIntercept := fs.Bool("no-intercept", false, "fit without an intercept")
 	method := fs.String("method", "irls", "`method`: ls, irls, newton, s-estimate, mm-estimate, lts or lad")
@@ -123,12 +124,12 @@ func fitCmd(e env, args []string) error {
 			fj.Status, fj.Error = "not-fitted", err.Error()
 			failed++
 		} else {
-			fj.Coefficients = map[string]float64{}
+			fj.Coefficients = map[string]jsonFloat{}
 			for k, n := range names {
-				fj.Coefficients[n] = res.Coefficients[k]
+				fj.Coefficients[n] = jsonFloat(res.Coefficients[k])
 			}
-			fj.Scale, fj.Iterations, fj.Status = res.Scale, res.Iterations, res.Status.String()
-			fj.Converged, fj.EquationNorm, fj.Objective = res.Status.Converged(), res.EquationNorm, res.Objective
+			fj.Scale, fj.Iterations, fj.Status = jsonFloat(res.Scale), res.Iterations, res.Status.String()
+			fj.Converged, fj.EquationNorm, fj.Objective = res.Status.Converged(), jsonFloat(res.EquationNorm), jsonFloat(res.Objective)
 		}
 		out.Fits = append(out.Fits, fj)
 	}
@@ -238,12 +239,17 @@ func chooseColumns(t *csvdata.Table, yName, xList, groupName string) (design, er
 			if j == d.y || j == gcol {
 				return d, fmt.Errorf("%s: column %q cannot be both a predictor and the response or group", t.File, name)
 			}
+			if slices.Contains(d.x, j) {
+				return d, fmt.Errorf("%s: column %q is listed twice in the predictors; list each column once", t.File, name)
+			}
 			d.x = append(d.x, j)
 			d.names = append(d.names, name)
 		}
 	} else {
 		for j, name := range t.Names {
-			if j != d.y && j != gcol && t.Numeric(j) {
+			// A column with any number in it is a predictor, so a stray
+			// bad cell is reported rather than the column silently dropped.
+			if j != d.y && j != gcol && t.HasNumber(j) {
 				d.x = append(d.x, j)
 				d.names = append(d.names, name)
 			}

@@ -29,15 +29,8 @@ func writeJSON(e env, v any) error {
 	return enc.Encode(v)
 }
 
-// jsonFloat encodes NaN and infinities as null.
-type jsonFloat float64
-
-func (f jsonFloat) MarshalJSON() ([]byte, error) {
-	if math.IsNaN(float64(f)) || math.IsInf(float64(f), 0) {
-		return []byte("null"), nil
-	}
-	return json.Marshal(float64(f))
-}
+// jsonFloat encodes NaN and infinities as null, and decodes null as NaN.
+type jsonFloat = results.Num
 
 func theoryCmd(e env, args []string) error {
 	fs := newFlags(e, "theory", "--psi FAMILY [--tuning C] [options]",
@@ -215,12 +208,18 @@ func tuneCmd(e env, args []string) error {
 		}
 		res.Target, res.Value, res.Tuning = "minimax", *mm, []float64{k}
 	case given["efficiency"]:
+		if !(*effT > 0 && *effT < 1) {
+			return usagef("--efficiency %v: want a target strictly between 0 and 1, such as 0.95", *effT)
+		}
 		t, err := fam.TuneEfficiency(*effT)
 		if err != nil {
 			return err
 		}
 		res.Target, res.Value, res.Tuning = "efficiency", *effT, t
 	case given["breakdown"]:
+		if !(*bd > 0 && *bd <= 0.5) {
+			return usagef("--breakdown %v: want a target in (0, 0.5], such as 0.5", *bd)
+		}
 		t, err := fam.TuneBreakdown(*bd)
 		if err != nil {
 			return err
@@ -267,6 +266,10 @@ func tuneSweep(e env, fam estimators.Family, ch choice, spec string, asJSON bool
 	}
 	if err1 != nil || err2 != nil || err3 != nil {
 		return usagef("--sweep %q: FROM and TO must be numbers and STEPS a whole number", spec)
+	}
+	const maxSteps = 1000
+	if steps < 2 || steps > maxSteps {
+		return usagef("--sweep %q: STEPS must be from 2 to %d", spec, maxSteps)
 	}
 	rows, err := fam.Sweep(lo, hi, steps)
 	if err != nil {

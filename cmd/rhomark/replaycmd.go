@@ -76,6 +76,11 @@ func replayCmd(e env, args []string) error {
 		}
 	}
 	sc := st.Cells[*cell].Scenario
+	if *rep >= sc.Replicates {
+		// Still well defined (the stream exists), but no run of this file
+		// at its own replicate count fitted it; say so, then go on.
+		fmt.Fprintf(e.stderr, "rhomark replay: note: replicate %d is beyond the scenario's %d replicates (0 to %d); a run with --replicates larger than %d would have fitted it\n", *rep, sc.Replicates, sc.Replicates-1, *rep)
+	}
 	x, y, err := replicateData(sc, seed, *cell, *rep)
 	if err != nil {
 		return err

@@ -27,6 +27,9 @@ type Table struct {
 	Names []string
 	// Cells holds the rows' text, row by row.
 	Cells [][]string
+	// lines holds the file line on which each row starts (a quoted field
+	// may span lines, so it is not simply the row index plus two).
+	lines []int
 }
 
 // Read reads a CSV table from r; file names it in errors.
@@ -68,7 +71,9 @@ func Read(file string, r io.Reader) (*Table, error) {
 		if len(t.Cells) >= maxRows {
 			return nil, fmt.Errorf("%s: more than %d rows; split the file", file, maxRows)
 		}
+		line, _ := cr.FieldPos(0)
 		t.Cells = append(t.Cells, rec)
+		t.lines = append(t.lines, line)
 	}
 	if len(t.Cells) == 0 {
 		return nil, fmt.Errorf("%s: no data rows after the header", file)
@@ -105,12 +110,32 @@ func (t *Table) Numeric(j int) bool {
 	return true
 }
 
+// HasNumber reports whether any cell of column j parses as a finite number:
+// a column meant to be numeric, in which a bad cell is an error to report
+// rather than a reason to drop the column.
+func (t *Table) HasNumber(j int) bool {
+	for _, rec := range t.Cells {
+		if _, err := parse(rec[j]); err == nil {
+			return true
+		}
+	}
+	return false
+}
+
+// Line returns the file line on which data row i (0-based) starts.
+func (t *Table) Line(i int) int {
+	if i < len(t.lines) {
+		return t.lines[i]
+	}
+	return i + 2
+}
+
 // Float returns the value of row i (0-based data row), column j, or an
 // error naming the file line and column.
 func (t *Table) Float(i, j int) (float64, error) {
 	v, err := parse(t.Cells[i][j])
 	if err != nil {
-		return 0, fmt.Errorf("%s:%d: column %s: %v", t.File, i+2, t.Names[j], err)
+		return 0, fmt.Errorf("%s:%d: column %s: %v", t.File, t.Line(i), t.Names[j], err)
 	}
 	return v, nil
 }

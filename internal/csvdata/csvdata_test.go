@@ -29,8 +29,17 @@ func TestReadErrors(t *testing.T) {
 	if _, err := tab.Float(1, 1); err == nil || !strings.Contains(err.Error(), "data.csv:3: column reading") {
 		t.Errorf("missing value: %v", err)
 	}
-	if tab.Numeric(2) || !tab.Numeric(0) {
+	if tab.Numeric(2) || !tab.Numeric(0) || tab.Numeric(1) || !tab.HasNumber(1) || tab.HasNumber(2) {
 		t.Error("numeric column detection")
+	}
+	// A quoted field spanning lines moves later rows down the file; the
+	// error names the line the bad row starts on.
+	tab, err = Read("data.csv", strings.NewReader("note,volume\n\"line one\nline two\",5\nok,oops\n"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := tab.Float(1, 1); err == nil || !strings.Contains(err.Error(), "data.csv:4: column volume") {
+		t.Errorf("line after a multi-line field: %v", err)
 	}
 }
 

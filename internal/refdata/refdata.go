@@ -61,8 +61,8 @@ func NISTDir() (string, error) {
 
 // Table is a numeric table read from a CSV file with a header row.
 type Table struct {
-	Names []string
-	Rows  [][]float64
+	Names []string    // column names from the header row, in file order
+	Rows  [][]float64 // Rows[i][j] is data row i (0-based, header excluded) of column Names[j]
 }
 
 // Column returns the values of the named column.
@@ -115,15 +115,15 @@ func ReadCSV(name string) (Table, error) {
 // NISTData is one NIST StRD linear-regression dataset with its certified
 // parameter estimates.
 type NISTData struct {
-	Name string
+	Name string // dataset name, as in the file name Name.dat
 	// Y and X hold the response and the predictor columns as NIST prints
 	// them (one x for the polynomial datasets).
 	Y []float64
-	X [][]float64
+	X [][]float64 // X[i] holds the predictor values of observation i, in file order
 	// Certified maps a parameter name (B0, B1, ...) to its certified value
 	// as NIST prints it, and parsed.
 	Certified       map[string]float64
-	CertifiedString map[string]string
+	CertifiedString map[string]string // the certified values as printed, keyed like Certified
 }
 
 // ReadNIST reads dataset name (for example "Longley") from dir.
@@ -137,6 +137,9 @@ func ReadNIST(dir, name string) (NISTData, error) {
 	recs, err := csv.NewReader(cert).ReadAll()
 	if err != nil {
 		return d, err
+	}
+	if len(recs) < 2 {
+		return d, fmt.Errorf("%s: no certified values", cert.Name())
 	}
 	var first, last int
 	for _, r := range recs[1:] {
