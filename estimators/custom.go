@@ -153,30 +153,28 @@ func (w *whitelist) Visit(node *ast.Node) {
 	case *ast.BuiltinNode:
 		// The parser marks names it knows (abs, max, min, ...) as builtins;
 		// only those of our list are accepted, and they compile to ours.
-		arity, ok := w.funcs[n.Name]
-		if !ok {
-			w.err = fmt.Errorf("function %q is not allowed; allowed: %s", n.Name, funcList(w.funcs))
-			return
-		}
-		if len(n.Arguments) != arity {
-			w.err = fmt.Errorf("%s takes %d argument(s), got %d", n.Name, arity, len(n.Arguments))
-		}
+		w.checkCall(n.Name, len(n.Arguments))
 	case *ast.CallNode:
 		id, ok := n.Callee.(*ast.IdentifierNode)
 		if !ok {
 			w.err = errors.New("only the listed math functions may be called")
 			return
 		}
-		arity, ok := w.funcs[id.Value]
-		if !ok {
-			w.err = fmt.Errorf("function %q is not allowed; allowed: %s", id.Value, funcList(w.funcs))
-			return
-		}
-		if len(n.Arguments) != arity {
-			w.err = fmt.Errorf("%s takes %d argument(s), got %d", id.Value, arity, len(n.Arguments))
-		}
+		w.checkCall(id.Value, len(n.Arguments))
 	default:
 		w.err = fmt.Errorf("%T is not allowed in a psi expression (only arithmetic, comparisons, ?: and math functions)", n)
+	}
+}
+
+// checkCall records an error unless name is a listed function taking
+// args arguments.
+func (w *whitelist) checkCall(name string, args int) {
+	arity, ok := w.funcs[name]
+	switch {
+	case !ok:
+		w.err = fmt.Errorf("function %q is not allowed; allowed: %s", name, funcList(w.funcs))
+	case args != arity:
+		w.err = fmt.Errorf("%s takes %d argument(s), got %d", name, arity, args)
 	}
 }
 

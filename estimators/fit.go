@@ -191,9 +191,12 @@ func (ws *Workspace) direct(e Estimator, m Method, x blas64.General, y []float64
 			return
 		}
 		mm := e
-		if mm.Psi == nil {
-			mm.Psi = Bisquare{C: mmDefaultC}
+		if e.Method != MethodMM {
+			// The MM-estimate as the start of another fit: its own psi
+			// (the default bisquare), and not the caller's trace.
+			mm = Estimator{Method: MethodMM, Settings: e.Settings, Resampling: e.Resampling}
 		}
+		mm.Psi = mm.MStepPsi()
 		mm.Scale = Scale{Rule: ScaleFixed, Value: scale}
 		mm.Method = MethodIRLS
 		ws.iterate(mm, x, y, res)
@@ -249,6 +252,8 @@ func (e Estimator) check(raw blas64.General, y []float64) error {
 		return fmt.Errorf("LTS keeps h = %d observations; h must lie between p = %d and n = %d", e.Resampling.H, p, n)
 	case e.Start != nil && len(e.Start) != p:
 		return fmt.Errorf("start has %d coefficients, design has %d columns", len(e.Start), p)
+	case e.Start != nil && e.Scale.Rule == ScaleStart:
+		return errors.New("the start scale rule takes the scale of a start method's fit; with given start coefficients there is none: use the MAD or a fixed scale")
 	}
 	if err := e.Settings.Validate(); err != nil {
 		return err

@@ -38,10 +38,7 @@ func (ws *Workspace) StandardErrors(e Estimator, x *mat.Dense, res *Result, se [
 	case MethodLS:
 		factor = res.Scale * res.Scale
 	case MethodIRLS, MethodNewton, MethodMM:
-		psi := e.Psi
-		if psi == nil && e.Method == MethodMM {
-			psi = Bisquare{C: mmDefaultC}
-		}
+		psi := e.MStepPsi()
 		sigma := res.Scale
 		if !(sigma > 0) || ws.jumps(psi) {
 			return false

@@ -644,26 +644,14 @@ func ladLUSolve(a []float64, p int, piv []int, b []float64) {
 		}
 		b[i] = s
 	}
-	for i := p - 1; i >= 0; i-- {
-		s := b[i]
-		for j := i + 1; j < p; j++ {
-			s -= a[i*p+j] * b[j]
-		}
-		b[i] = s / a[i*p+i]
-	}
+	solveUpper(a, p, b)
 }
 
 // ladLUSolveT solves Aᵀz = b with the factorisation from ladLUFactor,
 // overwriting b with z. With PA = LU, Aᵀ = UᵀLᵀP, so it solves Uᵀ and Lᵀ
 // in turn and undoes the interchanges in reverse order.
 func ladLUSolveT(a []float64, p int, piv []int, b []float64) {
-	for i := 0; i < p; i++ {
-		s := b[i]
-		for j := 0; j < i; j++ {
-			s -= a[j*p+i] * b[j]
-		}
-		b[i] = s / a[i*p+i]
-	}
+	solveUpperT(a, p, b)
 	for i := p - 2; i >= 0; i-- {
 		s := b[i]
 		for j := i + 1; j < p; j++ {

@@ -194,22 +194,34 @@ func choleskySolve(m []float64, p int, g, scale []float64) bool {
 		return false
 	}
 	// Solve Uᵀz = g, then U d = z.
-	for i := 0; i < p; i++ {
-		s := g[i]
-		for k := 0; k < i; k++ {
-			s -= m[k*p+i] * g[k]
-		}
-		g[i] = s / m[i*p+i]
-	}
-	for i := p - 1; i >= 0; i-- {
-		s := g[i]
-		for k := i + 1; k < p; k++ {
-			s -= m[i*p+k] * g[k]
-		}
-		g[i] = s / m[i*p+i]
-	}
+	solveUpperT(m, p, g)
+	solveUpper(m, p, g)
 	for i := 0; i < p; i++ {
 		g[i] *= scale[i]
 	}
 	return true
+}
+
+// solveUpper overwrites b with the solution x of U x = b, where U is the
+// upper triangle (diagonal included) of the p×p row-major matrix u.
+func solveUpper(u []float64, p int, b []float64) {
+	for i := p - 1; i >= 0; i-- {
+		s := b[i]
+		for k := i + 1; k < p; k++ {
+			s -= u[i*p+k] * b[k]
+		}
+		b[i] = s / u[i*p+i]
+	}
+}
+
+// solveUpperT overwrites b with the solution z of Uᵀz = b, U as in
+// solveUpper.
+func solveUpperT(u []float64, p int, b []float64) {
+	for i := 0; i < p; i++ {
+		s := b[i]
+		for k := 0; k < i; k++ {
+			s -= u[k*p+i] * b[k]
+		}
+		b[i] = s / u[i*p+i]
+	}
 }

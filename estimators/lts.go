@@ -64,7 +64,7 @@ type ltsSettings struct {
 // n×p problem.
 func (s ltsSettings) withDefaults(n, p int) ltsSettings {
 	if s.H == 0 {
-		s.H = (n + p + 1) / 2
+		s.H = Resampling{}.LTSKeep(n, p)
 	}
 	if s.Subsets == 0 {
 		s.Subsets = ElementalSubsets(p)

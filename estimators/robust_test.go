@@ -192,6 +192,33 @@ func TestStartsFromRobustFits(t *testing.T) {
 	if _, err := Fit(Estimator{Method: MethodIRLS, Psi: Huber{K: 1.345}, StartFrom: MethodNewton}, x, y); err == nil {
 		t.Error("an iterative method was accepted as a start")
 	}
+	// An MM start is the MM-estimate (default bisquare M-step), whatever
+	// psi the fit it starts uses: a Huber fit from it, traced, sees only
+	// its own iterations, and a Huber fit given the MM coefficients as its
+	// start with the MM scale lands on the same estimate.
+	var traced int
+	fromMM, err := Fit(Estimator{Method: MethodIRLS, Psi: Huber{K: 1.345}, StartFrom: MethodMM, Scale: Scale{Rule: ScaleStart},
+		Trace: func(Iteration) { traced++ }}, x, y)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if traced != fromMM.Iterations {
+		t.Errorf("trace saw %d iterations, the fit took %d: the start's iterations leaked into it", traced, fromMM.Iterations)
+	}
+	given, err := Fit(Estimator{Method: MethodIRLS, Psi: Huber{K: 1.345}, Start: mm.Coefficients, Scale: Scale{Rule: ScaleFixed, Value: mm.Scale}}, x, y)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for j := range given.Coefficients {
+		if math.Abs(given.Coefficients[j]-fromMM.Coefficients[j]) > 1e-9 {
+			t.Errorf("coefficient %d: Huber from the MM start %v, from the MM coefficients %v", j, fromMM.Coefficients[j], given.Coefficients[j])
+		}
+	}
+	// The start scale rule needs a start method's scale; given start
+	// coefficients have none.
+	if _, err := Fit(Estimator{Method: MethodIRLS, Psi: Huber{K: 1.345}, Start: mm.Coefficients, Scale: Scale{Rule: ScaleStart}}, x, y); err == nil {
+		t.Error("start scale with given start coefficients was accepted")
+	}
 }
 
 // TestResamplingDeterministic: the same stream gives the same S-estimate;

@@ -91,11 +91,8 @@ func (ws *Workspace) iStep(psi Bisquare, x blas64.General, y, beta []float64, s 
 // refinement steps of the winner and the status.
 func (ws *Workspace) sFit(x blas64.General, y, beta []float64, rs Resampling) (scale float64, iters int, st Status) {
 	p := ws.p
-	c := rs.SC
-	if c == 0 {
-		c = sDefaultC
-	}
-	psi := Bisquare{C: c}
+	psi := rs.SScale()
+	c := psi.C
 	b := ws.sConsistency(c)
 	subsets := rs.Subsets
 	if subsets == 0 {

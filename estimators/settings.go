@@ -99,6 +99,35 @@ type Resampling struct {
 	H int
 }
 
+// SScale returns the bisquare whose rho defines the S-scale: constant SC,
+// or 1.547 when SC is zero.
+func (r Resampling) SScale() Bisquare {
+	if r.SC == 0 {
+		return Bisquare{C: sDefaultC}
+	}
+	return Bisquare{C: r.SC}
+}
+
+// LTSKeep returns the number of the n observations (p coefficients) LTS
+// keeps: H, or ⌊(n+p+1)/2⌋ when H is zero.
+func (r Resampling) LTSKeep(n, p int) int {
+	if r.H == 0 {
+		return (n + p + 1) / 2
+	}
+	return r.H
+}
+
+// MStepPsi returns the psi of the M-step of e: e.Psi, or for an
+// MM-estimator without one the default bisquare with c = 4.685 (95%
+// efficiency at the normal). It is nil for methods without an M-step and
+// no psi.
+func (e Estimator) MStepPsi() Psi {
+	if e.Psi == nil && e.Method == MethodMM {
+		return Bisquare{C: mmDefaultC}
+	}
+	return e.Psi
+}
+
 // Rule is a set of stopping rules, combined with bitwise or.
 type Rule uint8
 

@@ -116,14 +116,11 @@ func functionCurves(p cellPlan) []results.FunctionCurve {
 		switch e.Method {
 		case estimators.MethodMM:
 			if psi == nil {
-				psi, desc = estimators.Bisquare{C: 4.685}, "bisquare"
+				psi, desc = e.MStepPsi(), "bisquare"
 			}
 		case estimators.MethodS:
-			c := e.Resampling.SC
-			if c == 0 {
-				c = 1.547
-			}
-			psi, desc = estimators.Bisquare{C: c}, "S-scale bisquare "+strconv.FormatFloat(c, 'g', -1, 64)
+			b := e.Resampling.SScale()
+			psi, desc = b, "S-scale bisquare "+strconv.FormatFloat(b.C, 'g', -1, 64)
 		}
 		if psi == nil {
 			continue
@@ -219,26 +216,15 @@ func methodTheory(e estimators.Estimator, sd float64, n, p int) float64 {
 		}
 		return eff(e.Psi, kappa)
 	case estimators.MethodMM:
-		psi := e.Psi
-		if psi == nil {
-			psi = estimators.Bisquare{C: 4.685}
-		}
-		return eff(psi, 1)
+		return eff(e.MStepPsi(), 1)
 	case estimators.MethodS:
-		c := e.Resampling.SC
-		if c == 0 {
-			c = 1.547
-		}
-		return eff(estimators.Bisquare{C: c}, 1)
+		return eff(e.Resampling.SScale(), 1)
 	case estimators.MethodLTS:
 		// LTS keeping a fraction α of the data is asymptotically the
 		// M-estimator with psi(u) = u·1(|u| ≤ q), q = Φ⁻¹((1+α)/2)
 		// (common practice): its efficiency is α − 2qφ(q), about 7.1% at
 		// α = 1/2.
-		h := e.Resampling.H
-		if h == 0 {
-			h = (n + p + 1) / 2
-		}
+		h := e.Resampling.LTSKeep(n, p)
 		q := distuv.UnitNormal.Quantile((1 + float64(h)/float64(n)) / 2)
 		return eff(estimators.Talwar{C: q}, 1)
 	case estimators.MethodLAD:

@@ -16,7 +16,8 @@ type CompareOptions struct {
 	// α = P(|Z| > Threshold) of Holm's procedure. Default 4.
 	Threshold float64
 	// Tolerance is the largest absolute change of an estimate that paired
-	// mode accepts. Default 1e-9.
+	// mode accepts; zero demands bit-identical estimates. The command line
+	// defaults it to 1e-9.
 	Tolerance float64
 	// AnyScenario allows comparing runs of different scenarios (summary
 	// mode only, matching cells by their settings).
@@ -26,9 +27,6 @@ type CompareOptions struct {
 func (o CompareOptions) withDefaults() CompareOptions {
 	if o.Threshold == 0 {
 		o.Threshold = 4
-	}
-	if o.Tolerance == 0 {
-		o.Tolerance = 1e-9
 	}
 	return o
 }
@@ -138,8 +136,8 @@ func (c *Comparison) FlaggedCount() int {
 	return n
 }
 
-// ReplicateSource opens a run's replicate file, or returns nil, nil when the
-// run kept none.
+// ReplicateSource opens a run's replicate file. Compare takes a nil
+// ReplicateSource for a run that kept none.
 type ReplicateSource func() (io.ReadCloser, error)
 
 // Compare compares a candidate run with a baseline. Summary mode compares

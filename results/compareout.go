@@ -169,10 +169,37 @@ type junitFailure struct {
 	Text    string `xml:",chardata"`
 }
 
-// WriteComparisonJUnit writes the comparison as JUnit XML: one test case
-// per cell and estimator in each mode, failing when anything of it was
+// JUnitRun is one comparison to write as JUnit XML, under a suite name.
+type JUnitRun struct {
+	// Suite names the comparison's test suites (one per mode).
+	Suite string
+	// Comparison is the outcome to report.
+	Comparison *Comparison
+}
+
+// WriteComparisonJUnit writes comparisons as one JUnit XML document: per
+// comparison a summary suite and, in paired mode, a paired suite, with one
+// test case per cell and estimator, failing when anything of it was
 // flagged.
-func WriteComparisonJUnit(w io.Writer, c *Comparison, suite string) error {
+func WriteComparisonJUnit(w io.Writer, runs []JUnitRun) error {
+	var out junitSuites
+	for _, r := range runs {
+		out.Suites = append(out.Suites, junitSuitesOf(r.Comparison, r.Suite)...)
+	}
+	if _, err := io.WriteString(w, xml.Header); err != nil {
+		return err
+	}
+	enc := xml.NewEncoder(w)
+	enc.Indent("", "  ")
+	if err := enc.Encode(out); err != nil {
+		return err
+	}
+	_, err := io.WriteString(w, "\n")
+	return err
+}
+
+// junitSuitesOf returns the suites of one comparison.
+func junitSuitesOf(c *Comparison, suite string) []junitSuite {
 	type group struct {
 		name  string
 		fails []string
@@ -201,7 +228,7 @@ func WriteComparisonJUnit(w io.Writer, c *Comparison, suite string) error {
 		s.Cases = append(s.Cases, tc)
 	}
 	s.Tests = len(s.Cases)
-	out := junitSuites{Suites: []junitSuite{s}}
+	out := []junitSuite{s}
 	if p := c.Paired; p != nil {
 		ps := junitSuite{Name: suite + " paired"}
 		for _, pe := range p.Estimators {
@@ -219,16 +246,7 @@ func WriteComparisonJUnit(w io.Writer, c *Comparison, suite string) error {
 			ps.Failures++
 		}
 		ps.Tests = len(ps.Cases)
-		out.Suites = append(out.Suites, ps)
+		out = append(out, ps)
 	}
-	if _, err := io.WriteString(w, xml.Header); err != nil {
-		return err
-	}
-	enc := xml.NewEncoder(w)
-	enc.Indent("", "  ")
-	if err := enc.Encode(out); err != nil {
-		return err
-	}
-	_, err := io.WriteString(w, "\n")
-	return err
+	return out
 }

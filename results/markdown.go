@@ -119,9 +119,8 @@ func WriteMarkdownSummary(w io.Writer, r *Results) error {
 	// Theory.
 	if g, ok := largestTheoryGap(r); ok {
 		b.WriteString("\n## Simulation against theory\n\n")
-		fmt.Fprintf(b, "Largest |theory gap|: %s MCSE (cell %d, %s, %s: simulated efficiency %s, asymptotic %s).\n",
-			strconv.FormatFloat(math.Abs(g.gap), 'f', 1, 64), g.cell+1, mdCode(g.estimator), mdCode(g.coefficient),
-			mdText(pm(g.relEff, false)), strconv.FormatFloat(g.theory, 'f', 4, 64))
+		fmt.Fprintf(b, "Largest |theory gap|: %s MCSE (%s).\n",
+			strconv.FormatFloat(math.Abs(g.gap), 'f', 1, 64), mdText(g.where(r)))
 	}
 	_, err := io.WriteString(w, b.String())
 	return err

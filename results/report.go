@@ -465,7 +465,7 @@ type theoryGap struct {
 
 func (g theoryGap) where(r *Results) string {
 	return fmt.Sprintf("cell %d, %s, %s: simulated efficiency %s against %s from theory",
-		g.cell+1, g.estimator, g.coefficient, pm(g.relEff, false), strconv.FormatFloat(g.theory, 'f', 4, 64))
+		g.cell, g.estimator, g.coefficient, pm(g.relEff, false), strconv.FormatFloat(g.theory, 'f', 4, 64))
 }
 
 // largestTheoryGap finds the coefficient whose simulated efficiency lies
@@ -473,7 +473,7 @@ func (g theoryGap) where(r *Results) string {
 func largestTheoryGap(r *Results) (theoryGap, bool) {
 	var best theoryGap
 	found := false
-	for ci, c := range r.Cells {
+	for _, c := range r.Cells {
 		for _, e := range c.Estimators {
 			if e.Label == r.Reference || !finite(float64(e.TheoryEfficiency)) {
 				continue
@@ -484,7 +484,7 @@ func largestTheoryGap(r *Results) (theoryGap, bool) {
 					continue
 				}
 				if !found || math.Abs(g) > math.Abs(best.gap) {
-					best = theoryGap{gap: g, cell: ci, estimator: e.Label, coefficient: k.Name, relEff: k.RelEff, theory: float64(e.TheoryEfficiency)}
+					best = theoryGap{gap: g, cell: c.Index, estimator: e.Label, coefficient: k.Name, relEff: k.RelEff, theory: float64(e.TheoryEfficiency)}
 					found = true
 				}
 			}

@@ -402,3 +402,17 @@ func TestReportOfEmptyResults(t *testing.T) {
 		t.Error("WriteMarkdownSummary(nil) gave no error")
 	}
 }
+
+// TestTheoryGapCellNumber: the largest theory gap is located by the cell's
+// own number, the one --cell takes.
+func TestTheoryGapCellNumber(t *testing.T) {
+	coef := func(gap float64) Coefficient { return Coefficient{Name: "x", TheoryGap: Num(gap)} }
+	r := &Results{Reference: "ls", Cells: []Cell{
+		{Index: 0, Estimators: []Estimator{{Label: "huber", TheoryEfficiency: 0.95, Coefficients: []Coefficient{coef(-3.9)}}}},
+		{Index: 1, Estimators: []Estimator{{Label: "huber", TheoryEfficiency: 0.95, Coefficients: []Coefficient{coef(1.2)}}}},
+	}}
+	g, ok := largestTheoryGap(r)
+	if !ok || !strings.HasPrefix(g.where(r), "cell 0, huber, x") {
+		t.Errorf("largest gap at %q, want cell 0", g.where(r))
+	}
+}

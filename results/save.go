@@ -61,23 +61,40 @@ func SafeName(name string) (string, error) {
 	return name, nil
 }
 
-// WriteFileAtomic writes data to path through a temporary file in the same
-// directory, synced and renamed, so path holds either its old content or
-// all of data.
-func WriteFileAtomic(path string, data []byte) error {
-	dir := filepath.Dir(path)
-	tmp, err := os.CreateTemp(dir, "."+filepath.Base(path)+".tmp-*")
+// WriteError is the error of a failed write of an output file (disk full,
+// no permission): a failure of the machine, not of the user's input.
+type WriteError struct {
+	// Path is the file that could not be written.
+	Path string
+	// Err is the underlying error.
+	Err error
+}
+
+func (e *WriteError) Error() string { return fmt.Sprintf("cannot write %s: %v", e.Path, e.Err) }
+
+// Unwrap returns the underlying error.
+func (e *WriteError) Unwrap() error { return e.Err }
+
+// CreateTemp creates the temporary file that CommitTemp later renames to
+// path, in path's directory.
+func CreateTemp(path string) (*os.File, error) {
+	tmp, err := os.CreateTemp(filepath.Dir(path), "."+filepath.Base(path)+".tmp-*")
 	if err != nil {
-		return fmt.Errorf("cannot write %s: %w", path, err)
+		return nil, &WriteError{Path: path, Err: err}
 	}
+	return tmp, nil
+}
+
+// CommitTemp makes the temporary file tmp (from CreateTemp) the file path:
+// it syncs, closes and renames tmp, then syncs the directory, so path holds
+// either its old content or all of tmp's. On failure tmp is removed and
+// path is untouched.
+func CommitTemp(tmp *os.File, path string) error {
 	name := tmp.Name()
 	fail := func(err error) error {
 		tmp.Close()
 		os.Remove(name)
-		return fmt.Errorf("cannot write %s: %w", path, err)
-	}
-	if _, err := tmp.Write(data); err != nil {
-		return fail(err)
+		return &WriteError{Path: path, Err: err}
 	}
 	if err := tmp.Chmod(0o644); err != nil {
 		return fail(err)
@@ -86,16 +103,30 @@ func WriteFileAtomic(path string, data []byte) error {
 		return fail(err)
 	}
 	if err := tmp.Close(); err != nil {
-		os.Remove(name)
-		return fmt.Errorf("cannot write %s: %w", path, err)
+		return fail(err)
 	}
 	if err := os.Rename(name, path); err != nil {
-		os.Remove(name)
-		return fmt.Errorf("cannot write %s: %w", path, err)
+		return fail(err)
 	}
-	if d, err := os.Open(dir); err == nil {
+	if d, err := os.Open(filepath.Dir(path)); err == nil {
 		d.Sync() // best effort: make the rename durable
 		d.Close()
 	}
 	return nil
+}
+
+// WriteFileAtomic writes data to path through a temporary file in the same
+// directory, synced and renamed, so path holds either its old content or
+// all of data.
+func WriteFileAtomic(path string, data []byte) error {
+	tmp, err := CreateTemp(path)
+	if err != nil {
+		return err
+	}
+	if _, err := tmp.Write(data); err != nil {
+		tmp.Close()
+		os.Remove(tmp.Name())
+		return &WriteError{Path: path, Err: err}
+	}
+	return CommitTemp(tmp, path)
 }

@@ -67,6 +67,10 @@ type Limits struct {
 	// MaxWork bounds cells × replicates × n × coefficients, a proxy for the
 	// run time. Default 1e13 (several hours on one core).
 	MaxWork float64
+	// Replicates, when positive, is the replicate count the study will run
+	// instead of the file's (a command-line override): the replicate and
+	// work limits apply to it rather than to the file's value.
+	Replicates int
 }
 
 // WithDefaults returns l with zero fields replaced by the defaults.
@@ -221,11 +225,19 @@ func checkWork(file string, st *Study, limits Limits) error {
 	var work float64
 	for _, c := range st.Cells {
 		sc := c.Scenario
-		work += float64(sc.Replicates) * float64(sc.Model.N) * float64(sc.Coefficients()) * float64(len(sc.Estimators))
+		reps := sc.Replicates
+		if limits.Replicates > 0 {
+			reps = limits.Replicates
+		}
+		work += float64(reps) * float64(sc.Model.N) * float64(sc.Coefficients()) * float64(len(sc.Estimators))
 	}
 	if work > limits.MaxWork {
+		how := "reduce replicates, n or the sweeps"
+		if limits.Replicates > 0 {
+			how = fmt.Sprintf("reduce --replicates (%d), n or the sweeps", limits.Replicates)
+		}
 		return &Error{File: file, Field: "replicates",
-			Msg: fmt.Sprintf("the study needs about %.3g units of work (cells × replicates × n × coefficients × estimators); the limit is %.3g (raise it with --max-work, or reduce replicates, n or the sweeps)", work, limits.MaxWork)}
+			Msg: fmt.Sprintf("the study needs about %.3g units of work (cells × replicates × n × coefficients × estimators); the limit is %.3g (raise it with --max-work, or %s)", work, limits.MaxWork, how)}
 	}
 	return nil
 }

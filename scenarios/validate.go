@@ -229,7 +229,7 @@ func (s *Scenario) validate(d *decoder, limits Limits) {
 	if !scenarioNamePattern.MatchString(s.Name) || len(s.Name) > 100 {
 		c.fail("name", "%q is not a valid name: use up to 100 letters, digits, '.', '_' or '-', not starting with '.'", s.Name)
 	}
-	if s.Replicates < 1 || s.Replicates > limits.MaxReplicates {
+	if s.Replicates < 1 || (limits.Replicates == 0 && s.Replicates > limits.MaxReplicates) {
 		c.fail("replicates", "must be from 1 to %d, got %d (raise the limit with --max-replicates)", limits.MaxReplicates, s.Replicates)
 	}
 	s.validateModel(c, limits)

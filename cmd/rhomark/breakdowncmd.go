@@ -8,7 +8,6 @@ import (
 
 	"github.com/rhomark/rhomark/harness"
 	"github.com/rhomark/rhomark/internal/csvdata"
-	"github.com/rhomark/rhomark/scenarios"
 )
 
 func breakdownCmd(e env, args []string) error {
@@ -18,10 +17,11 @@ func breakdownCmd(e env, args []string) error {
 	rep := fs.Int("replicate", 0, "replicate `R` whose dataset is used")
 	data := fs.String("data", "", "measure on this CSV `file` instead of a simulated dataset")
 	yCol := fs.String("y", "", "response `column` of --data")
-	xCols := fs.String("x", "", "predictor `columns` of --data (default: every other numeric column)")
+	xCols := fs.String("x", "", "predictor `columns` of --data (default: every other column holding numbers)")
 	dirs := fs.Int("directions", 6, "random `directions` besides vertical and leverage")
 	seed := fs.Uint64("seed", 1, "`seed` of the replaced rows, directions and resampling")
 	asJSON := fs.Bool("json", false, "print JSON")
+	lim := addLimitFlags(fs.FlagSet)
 	pos, err := parseFlags(fs, args)
 	if err != nil {
 		return err
@@ -32,7 +32,7 @@ func breakdownCmd(e env, args []string) error {
 	if *dirs < 0 || *dirs > 1000 {
 		return usagef("--directions must be from 0 to 1000, got %d", *dirs)
 	}
-	st, err := loadScenario(pos[0], scenarios.Limits{})
+	st, err := loadScenario(pos[0], lim.limits())
 	if err != nil {
 		return err
 	}

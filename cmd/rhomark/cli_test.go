@@ -3,6 +3,7 @@ package main
 import (
 	"bytes"
 	"encoding/json"
+	"encoding/xml"
 	"os"
 	"path/filepath"
 	"strings"
@@ -74,6 +75,39 @@ func TestRunBadScenario(t *testing.T) {
 	}
 	if !strings.Contains(errs, "fraction-half.yaml:11:") || !strings.Contains(errs, "contamination[0].fraction") {
 		t.Errorf("error does not name file, line and field:\n%s", errs)
+	}
+}
+
+// TestLimitsFollowOverrides: the work limit applies to the replicates that
+// will run, so --replicates can bring a study under it; every command that
+// loads a scenario takes the flags that raise the limits.
+func TestLimitsFollowOverrides(t *testing.T) {
+	dir := t.TempDir()
+	path := filepath.Join(dir, "bench.yaml")
+	os.WriteFile(path, []byte("replicates: 1000\nmodel: {n: 100, columns: [{name: volume, slope: 1}]}\nnoise: {dist: normal}\nestimators: [{method: ls}]\n"), 0o644)
+	// 1000 replicates × n 100 × 2 coefficients × 1 estimator = 2e5 units.
+	code, _, errs := rhomark(t, "run", path, "--max-work", "1e5", "--quiet")
+	if code != exitUsage || !strings.Contains(errs, "--max-work") {
+		t.Errorf("over the work limit: exit %d %q", code, errs)
+	}
+	if code, _, errs := rhomark(t, "run", path, "--max-work", "1e5", "--replicates", "10", "--quiet"); code != exitOK {
+		t.Errorf("--replicates 10 brings it under the limit: exit %d %q", code, errs)
+	}
+	code, _, errs = rhomark(t, "run", path, "--replicates", "20000000", "--quiet")
+	if code != exitUsage || !strings.Contains(errs, "--max-replicates") {
+		t.Errorf("--replicates over its limit: exit %d %q", code, errs)
+	}
+	for _, c := range []struct {
+		cmd   string
+		extra []string
+	}{{"replay", []string{"--data-out", filepath.Join(dir, "d.csv")}}, {"breakdown", nil}} {
+		code, _, errs := rhomark(t, append([]string{c.cmd, path, "--max-work", "1e5"}, c.extra...)...)
+		if code != exitUsage || !strings.Contains(errs, "--max-work") {
+			t.Errorf("%s over the work limit: exit %d %q", c.cmd, code, errs)
+		}
+		if code, _, errs := rhomark(t, append([]string{c.cmd, path, "--max-work", "1e6"}, c.extra...)...); code != exitOK {
+			t.Errorf("%s with the limit raised: exit %d %q", c.cmd, code, errs)
+		}
 	}
 }
 
@@ -398,6 +432,38 @@ func TestCompareCommand(t *testing.T) {
 	}
 	if code, _, _ := rhomark(t, "compare", a, "/no/such/dir"); code != exitUsage {
 		t.Errorf("missing candidate: exit %d", code)
+	}
+	// Directories with two scenarios each: one JUnit document holding the
+	// suites of both pairs.
+	for _, d := range []string{a, b} {
+		rhomark(t, "run", "heavy-tails", "--replicates", "8", "--out", d)
+	}
+	junitPath := filepath.Join(dir, "two.xml")
+	if code, _, errs := rhomark(t, "compare", a, b, "--junit", junitPath); code != exitOK {
+		t.Fatalf("two scenarios: exit %d %s", code, errs)
+	}
+	data, _ := os.ReadFile(junitPath)
+	var doc struct {
+		Suites []struct {
+			Name string `xml:"name,attr"`
+		} `xml:"testsuite"`
+	}
+	if err := xml.Unmarshal(data, &doc); err != nil || len(doc.Suites) != 3 || bytes.Count(data, []byte("<?xml")) != 1 {
+		t.Errorf("JUnit for two scenarios: %v, %d suites\n%s", err, len(doc.Suites), data)
+	}
+	// A recorded replicate file that has gone missing is an error, not a
+	// quiet fall-back to summary mode.
+	os.Rename(filepath.Join(b, "vertical-outliers.replicates"), filepath.Join(dir, "moved.replicates"))
+	code, _, errs = rhomark(t, "compare", filepath.Join(a, "vertical-outliers.json"), filepath.Join(b, "vertical-outliers.json"))
+	if code != exitUsage || !strings.Contains(errs, "vertical-outliers.replicates") {
+		t.Errorf("missing replicate file: exit %d %q", code, errs)
+	}
+	// A damaged results file in a directory is reported, not skipped.
+	full, _ := os.ReadFile(filepath.Join(b, "heavy-tails.json"))
+	os.WriteFile(filepath.Join(b, "heavy-tails.json"), full[:len(full)/2], 0o644)
+	code, _, errs = rhomark(t, "compare", a, b)
+	if code != exitUsage || !strings.Contains(errs, "heavy-tails.json") {
+		t.Errorf("damaged results file: exit %d %q", code, errs)
 	}
 }
 

@@ -1,6 +1,8 @@
 package main
 
 import (
+	"bytes"
+	"encoding/json"
 	"errors"
 	"fmt"
 	"io"
@@ -35,17 +37,17 @@ func compareCmd(e env, args []string) error {
 	}
 	opt := results.CompareOptions{Threshold: *threshold, Tolerance: *tol, AnyScenario: *anyScenario}
 	flagged := false
-	var junitOut io.Writer
-	if *junit != "" {
-		f, err := os.Create(*junit)
+	var junitRuns []results.JUnitRun
+	for i, pr := range pairs {
+		baseReps, err := pr.base.replicates()
 		if err != nil {
 			return err
 		}
-		defer f.Close()
-		junitOut = f
-	}
-	for i, pr := range pairs {
-		c, err := results.Compare(pr.base.res, pr.cand.res, pr.base.replicates(), pr.cand.replicates(), opt)
+		candReps, err := pr.cand.replicates()
+		if err != nil {
+			return err
+		}
+		c, err := results.Compare(pr.base.res, pr.cand.res, baseReps, candReps, opt)
 		if err != nil {
 			if errors.Is(err, results.ErrDifferentScenarios) {
 				return usageError{err}
@@ -64,12 +66,17 @@ func compareCmd(e env, args []string) error {
 		if err != nil {
 			return err
 		}
-		if junitOut != nil {
-			if err := results.WriteComparisonJUnit(junitOut, c, "rhomark "+pr.base.res.Scenario.Name); err != nil {
-				return err
-			}
-		}
+		junitRuns = append(junitRuns, results.JUnitRun{Suite: "rhomark " + pr.base.res.Scenario.Name, Comparison: c})
 		flagged = flagged || c.Flagged()
+	}
+	if *junit != "" {
+		var b bytes.Buffer
+		if err := results.WriteComparisonJUnit(&b, junitRuns); err != nil {
+			return err
+		}
+		if err := results.WriteFileAtomic(*junit, b.Bytes()); err != nil {
+			return err
+		}
 	}
 	if flagged {
 		return changed{}
@@ -89,19 +96,34 @@ type loadedRun struct {
 	res  *results.Results
 }
 
-// replicates returns the source of the run's replicate file, or nil.
-func (r loadedRun) replicates() results.ReplicateSource {
+// replicates returns the source of the run's replicate file, or nil when
+// the run kept none. A run that recorded one that is now missing is an
+// error: falling back to summary mode would hide what paired mode catches.
+func (r loadedRun) replicates() (results.ReplicateSource, error) {
 	if r.res.ReplicateFile == "" {
-		return nil
+		return nil, nil
 	}
 	path := filepath.Join(filepath.Dir(r.path), filepath.Base(r.res.ReplicateFile))
 	if _, err := os.Stat(path); err != nil {
-		return nil
+		return nil, dataError{fmt.Errorf("%s records the replicate file %s, which cannot be read (%v); restore it, or rerun with --keep-replicates", r.path, path, err)}
 	}
-	return func() (io.ReadCloser, error) { return os.Open(path) }
+	return func() (io.ReadCloser, error) { return os.Open(path) }, nil
 }
 
 type runPair struct{ base, cand loadedRun }
+
+// looksLikeResults reports whether data is meant as a results file: a JSON
+// object with a "schema" key, or JSON that does not parse (a damaged file
+// is reported, not skipped).
+func looksLikeResults(data []byte) bool {
+	var top map[string]json.RawMessage
+	if err := json.Unmarshal(data, &top); err != nil {
+		var syn *json.SyntaxError
+		return errors.As(err, &syn) || errors.Is(err, io.ErrUnexpectedEOF)
+	}
+	_, ok := top["schema"]
+	return ok
+}
 
 // loadRuns reads a results file, or every results file in a directory.
 func loadRuns(arg string) ([]loadedRun, error) {
@@ -120,12 +142,16 @@ func loadRuns(arg string) ([]loadedRun, error) {
 		if err != nil {
 			return nil, err
 		}
-		res, err := results.ReadJSON(f)
+		data, err := io.ReadAll(f)
 		f.Close()
 		if err != nil {
-			if info.IsDir() {
-				continue // not a results file
-			}
+			return nil, err
+		}
+		if info.IsDir() && !looksLikeResults(data) {
+			continue // some other JSON file
+		}
+		res, err := results.ReadJSON(bytes.NewReader(data))
+		if err != nil {
 			return nil, dataError{fmt.Errorf("%s: %w", p, err)}
 		}
 		out = append(out, loadedRun{path: p, res: res})

@@ -12,11 +12,14 @@ import (
 )
 
 // flagLine matches a flag in a command's --help text: "  -name value" then
-// its description on the next line.
-var flagLine = regexp.MustCompile(`^  -([a-z0-9-]+)`)
+// its description on the next line; the value word is absent for a switch.
+var flagLine = regexp.MustCompile(`^  -([a-z0-9-]+)( [A-Za-z]+)?`)
 
 // commandFlag is a flag and its description, read from the help text.
-type commandFlag struct{ name, help string }
+type commandFlag struct {
+	name, help string
+	value      string // the value's placeholder word, "" for a switch
+}
 
 // commandFlags lists a command's flags by asking it for its help.
 func commandFlags(c command) []commandFlag {
@@ -33,7 +36,7 @@ func commandFlags(c command) []commandFlag {
 		if i+1 < len(lines) {
 			help = strings.TrimSpace(lines[i+1])
 		}
-		flags = append(flags, commandFlag{m[1], help})
+		flags = append(flags, commandFlag{m[1], help, strings.TrimSpace(m[2])})
 	}
 	return flags
 }
@@ -146,12 +149,21 @@ func zshCompletion(cmds []command, shipped []string) string {
 			action := ""
 			if w := valueWords(f.name); w != nil {
 				action = fmt.Sprintf(":%s:(%s)", f.name, strings.Join(w, " "))
+			} else if f.value != "" {
+				// Offer files where the value names one; otherwise just
+				// say what is expected.
+				action = fmt.Sprintf(":%s: ", f.value)
+				switch strings.ToLower(f.value) {
+				case "file", "directory", "dir", "path":
+					action = fmt.Sprintf(":%s:_files", f.value)
+				}
 			}
 			fmt.Fprintf(&b, "        '--%s[%s]%s' \\\n", f.name, zshQuote(f.help), action)
 		}
 		switch c.name {
 		case "run", "breakdown", "replay", "scenarios":
-			fmt.Fprintf(&b, "        '*:scenario:(%s)' '*:file:_files' ;;\n", strings.Join(shipped, " "))
+			// One rest specification: zsh refuses two.
+			fmt.Fprintf(&b, "        '*: :_alternative \"scenarios:shipped scenario:(%s)\" \"files:file:_files\"' ;;\n", strings.Join(shipped, " "))
 		case "completion":
 			b.WriteString("        '1:shell:(bash zsh)' ;;\n")
 		default:

@@ -63,6 +63,50 @@ func TestCompletionScripts(t *testing.T) {
 	}
 }
 
+// TestZshCompletes drives an interactive zsh through a pseudo-terminal
+// (zsh/zpty), types a partial command and Tab, and checks what the line
+// became: parsing the script (zsh -n) does not exercise _arguments, which
+// refuses some specifications only when a completion runs.
+func TestZshCompletes(t *testing.T) {
+	zsh, err := exec.LookPath("zsh")
+	if err != nil {
+		if os.Getenv(requireToolsEnv) != "" {
+			t.Fatal("zsh is not installed; .ci/run installs it")
+		}
+		t.Skip("zsh is not installed here (.ci/run installs it)")
+	}
+	dir := t.TempDir()
+	_, script, _ := rhomark(t, "completion", "zsh")
+	path := filepath.Join(dir, "_rhomark.zsh")
+	os.WriteFile(path, []byte(script), 0o644)
+	cases := []struct{ typed, want string }{
+		{"rhomark run flo", "rhomark run flow-meter"},
+		{"rhomark fit x.csv --meth", "rhomark fit x.csv --method"},
+		{"rhomark theory --psi bisq", "rhomark theory --psi bisquare"},
+	}
+	for _, c := range cases {
+		driver := `zmodload zsh/zpty
+zpty z zsh -f -i
+zpty -w z 'PS1="> "; autoload -U compinit; compinit -u -D; source ` + path + `'
+sleep 0.5
+zpty -w -n z "` + c.typed + `"$'\t'
+sleep 1.5
+all=""
+while zpty -r -t z chunk 2>/dev/null; do all+=$chunk; done
+print -r -- "$all"
+zpty -d z
+`
+		out, _ := exec.Command(zsh, "-f", "-c", driver).CombinedOutput()
+		text := string(out)
+		if strings.Contains(text, "_arguments:") || strings.Contains(text, "doubled") {
+			t.Errorf("%q: zsh reports an error in the completion:\n%s", c.typed, text)
+		}
+		if !strings.Contains(text, c.want) {
+			t.Errorf("%q: the line did not become %q:\n%q", c.typed, c.want, text)
+		}
+	}
+}
+
 // requireToolsEnv, when set, makes the tests that need outside programs
 // (Chromium, zsh) fail instead of skipping where those are missing: .ci/run
 // installs them and sets it.

@@ -49,13 +49,16 @@ func waitFor(t *testing.T, path string, limit time.Duration) {
 		if _, err := os.Stat(path); err == nil {
 			return
 		}
-		time.Sleep(20 * time.Millisecond)
+		time.Sleep(5 * time.Millisecond)
 	}
 	t.Fatalf("%s did not appear within %v", path, limit)
 }
 
 // killedRunArgs is a run long enough to be interrupted part-way.
-var killedRunArgs = []string{"run", "clean-normal", "--replicates", "4000", "--workers", "2", "--checkpoint-every", "50ms", "--quiet"}
+// About 4.5 s on a 2-core machine, against a first checkpoint after 50 ms
+// and a kill within a few ms of it: a machine would need to be some 50
+// times faster for the run to finish first.
+var killedRunArgs = []string{"run", "clean-normal", "--replicates", "20000", "--workers", "2", "--checkpoint-every", "50ms", "--quiet"}
 
 // TestKillAndResume kills a run with SIGKILL after its first checkpoint,
 // resumes it, and checks the results are byte-identical (CSV) to an
@@ -73,7 +76,6 @@ func TestKillAndResume(t *testing.T) {
 		t.Fatal(err)
 	}
 	waitFor(t, filepath.Join(part, "clean-normal.checkpoint"), 60*time.Second)
-	time.Sleep(100 * time.Millisecond)
 	cmd.Process.Signal(syscall.SIGKILL)
 	cmd.Wait()
 	if _, err := os.Stat(filepath.Join(part, "clean-normal.csv")); err == nil {
@@ -128,53 +130,60 @@ func TestInterruptStopsCleanly(t *testing.T) {
 	}
 }
 
-// TestWriteFailureKeepsOldResults: when the disk is full the run reports
-// a clear error and the previous results file is left intact. A small
-// tmpfs stands for the full disk (which needs root), else a read-only
-// directory (which root ignores).
-func TestWriteFailureKeepsOldResults(t *testing.T) {
+// TestInterruptedShardSaysHowToResume: a shard stopped by SIGINT keeps its
+// finished work and prints a resume command that works.
+func TestInterruptedShardSaysHowToResume(t *testing.T) {
 	bin := binary(t)
 	dir := t.TempDir()
-	out := filepath.Join(dir, "out")
-	os.MkdirAll(out, 0o755)
-	full := func() (func(), bool) {
-		if os.Geteuid() == 0 {
-			if err := exec.Command("mount", "-t", "tmpfs", "-o", "size=400k", "tmpfs", out).Run(); err == nil {
-				return func() { exec.Command("umount", out).Run() }, true
-			}
-			return nil, false
-		}
-		return nil, true
+	cmd := exec.Command(bin, append(killedRunArgs, "--shard", "1/2", "--out", dir)...)
+	var stderr bytes.Buffer
+	cmd.Stderr = &stderr
+	if err := cmd.Start(); err != nil {
+		t.Fatal(err)
 	}
-	cleanup, ok := full()
-	if !ok {
-		t.Skip("cannot simulate a failing disk here: running as root without permission to mount a tmpfs")
+	waitFor(t, filepath.Join(dir, "clean-normal.shard-1-of-2.partial"), 60*time.Second)
+	cmd.Process.Signal(syscall.SIGINT)
+	cmd.Wait()
+	if cmd.ProcessState.ExitCode() == 0 {
+		t.Skip("the shard finished before SIGINT arrived")
 	}
-	if cleanup != nil {
-		defer cleanup()
+	want := "rhomark run --resume " + dir + " --shard 1/2"
+	if !strings.Contains(stderr.String(), want) {
+		t.Fatalf("stderr does not give %q: %s", want, stderr.String())
 	}
+	if out, err := exec.Command(bin, "run", "--resume", dir, "--shard", "1/2", "--quiet").CombinedOutput(); err != nil {
+		t.Errorf("the printed resume command failed: %v\n%s", err, out)
+	}
+}
+
+// TestWriteFailureKeepsOldResults: when a write fails the run reports a
+// clear error, exits 1 (a failure, not bad input) and leaves the previous
+// results file intact. The failure is a file-size limit on the process
+// (RLIMIT_FSIZE, set by the shell's ulimit): writes past it fail with
+// "file too large", as they would on a full disk, for root and other users
+// alike and without touching the machine's file systems.
+func TestWriteFailureKeepsOldResults(t *testing.T) {
+	bin := binary(t)
+	out := filepath.Join(t.TempDir(), "out")
 	if o, err := exec.Command(bin, "run", "flow-meter", "--replicates", "16", "--out", out, "--quiet").CombinedOutput(); err != nil {
 		t.Fatalf("first run: %v\n%s", err, o)
 	}
 	before, _ := os.ReadFile(filepath.Join(out, "flow-meter.json"))
-	if cleanup != nil {
-		// Fill the tmpfs.
-		f, _ := os.Create(filepath.Join(out, "filler"))
-		f.Write(make([]byte, 1<<20))
-		f.Close()
-	} else {
-		os.Chmod(out, 0o555)
-		defer os.Chmod(out, 0o755)
+	// 8 blocks of 512 bytes: far less than the results file.
+	cmd := exec.Command("/bin/sh", "-c", `ulimit -f 8 && exec "$0" "$@"`,
+		bin, "run", "flow-meter", "--replicates", "16", "--seed", "7", "--out", out, "--quiet")
+	o, err := cmd.CombinedOutput()
+	if ee, ok := err.(*exec.ExitError); !ok || ee.ExitCode() != exitFailure {
+		t.Fatalf("exit %v, want %d (failure); output:\n%s", err, exitFailure, o)
 	}
-	o, err := exec.Command(bin, "run", "flow-meter", "--replicates", "16", "--seed", "7", "--out", out, "--quiet").CombinedOutput()
-	if err == nil {
-		t.Fatal("the run reported success writing to a full disk")
-	}
-	if !strings.Contains(string(o), "cannot write") {
+	if !strings.Contains(string(o), "cannot write") || !strings.Contains(string(o), "file too large") {
 		t.Errorf("unclear error: %s", o)
 	}
 	after, _ := os.ReadFile(filepath.Join(out, "flow-meter.json"))
-	if !bytes.Equal(before, after) {
+	if len(before) == 0 || !bytes.Equal(before, after) {
 		t.Error("the previous results file was changed by the failed write")
+	}
+	if tmps, _ := filepath.Glob(filepath.Join(out, ".*tmp-*")); len(tmps) > 0 {
+		t.Errorf("temporary files left behind: %v", tmps)
 	}
 }

@@ -52,6 +52,7 @@ func replayCmd(e env, args []string) error {
 	dataOut := fs.String("data-out", "", "write the dataset to this CSV `file` (default NAME-cC-rR.csv)")
 	seedFlag := fs.String("seed", "", "the run's root `seed`, if it overrode the scenario's")
 	asJSON := fs.Bool("json", false, "print JSON")
+	lim := addLimitFlags(fs.FlagSet)
 	pos, err := parseFlags(fs, args)
 	if err != nil {
 		return err
@@ -59,7 +60,7 @@ func replayCmd(e env, args []string) error {
 	if len(pos) != 1 {
 		return usagef("want one scenario, got %d arguments", len(pos))
 	}
-	st, err := loadScenario(pos[0], scenarios.Limits{})
+	st, err := loadScenario(pos[0], lim.limits())
 	if err != nil {
 		return err
 	}

@@ -64,6 +64,12 @@ func runCmd(e env, args []string) error {
 		return usagef("--keep-replicates needs --out, and works only for a whole run (not --resume or --shard)")
 	}
 	limits := lim.limits()
+	if *reps > 0 {
+		if l := limits.WithDefaults(); *reps > l.MaxReplicates {
+			return usagef("--replicates %d exceeds the limit of %d (raise it with --max-replicates)", *reps, l.MaxReplicates)
+		}
+		limits.Replicates = *reps
+	}
 
 	var st *scenarios.Study
 	switch {
@@ -97,9 +103,6 @@ func runCmd(e env, args []string) error {
 			return err
 		}
 	}
-	if err := checkOverrides(st, opt, limits); err != nil {
-		return err
-	}
 	name, err := results.SafeName(st.Base.Name)
 	if err != nil {
 		return err
@@ -125,9 +128,10 @@ func runCmd(e env, args []string) error {
 		}
 	}
 	var repFile *os.File
+	repPath := filepath.Join(*out, name+".replicates")
 	if *keep {
-		if repFile, err = os.CreateTemp(*out, "."+name+".replicates.tmp-*"); err != nil {
-			return fmt.Errorf("cannot write the replicate file: %w", err)
+		if repFile, err = results.CreateTemp(repPath); err != nil {
+			return err
 		}
 		defer os.Remove(repFile.Name()) // a no-op once renamed
 		opt.KeepReplicates = repFile
@@ -152,14 +156,13 @@ func runCmd(e env, args []string) error {
 			fmt.Fprintf(e.stderr, "rhomark run: wrote %s (shard %d of %d: %d units); combine the shards with rhomark merge\n",
 				checkpointPath(*out, name, opt.Shard, opt.Shards), opt.Shard, opt.Shards, part.DoneUnits())
 		}
-		return stopped(runErr, *out)
+		return stoppedShard(runErr, *out, name, opt.Shard, opt.Shards)
 	}
 	if repFile != nil {
-		final := filepath.Join(*out, name+".replicates")
-		if err := finishFile(repFile, final); err != nil {
+		if err := results.CommitTemp(repFile, repPath); err != nil {
 			return err
 		}
-		res.ReplicateFile = filepath.Base(final)
+		res.ReplicateFile = filepath.Base(repPath)
 	}
 	if *out != "" {
 		paths, err := results.Save(*out, res)
@@ -205,6 +208,16 @@ func stopped(runErr error, out string) error {
 		return interrupted{msg}
 	}
 	return runErr
+}
+
+// stoppedShard is stopped for a shard, whose finished work is its partial
+// file rather than a summary.
+func stoppedShard(runErr error, out, name string, shard, shards int) error {
+	if !errors.Is(runErr, context.Canceled) {
+		return runErr
+	}
+	return interrupted{fmt.Sprintf("stopped early; shard %d of %d saved its finished work in %s; continue with: rhomark run --resume %s --shard %d/%d",
+		shard, shards, checkpointPath(out, name, shard, shards), out, shard, shards)}
 }
 
 // checkpointPath names the checkpoint (or a shard's partial) file.
@@ -274,26 +287,6 @@ func shardOf(flagValue string, shards int, getenv func(string) string) (int, int
 	return 0, 0, usagef("--shards %d needs the shard index: give --shard I/%d, or run inside a Slurm job array (SLURM_ARRAY_TASK_ID) or a Kubernetes indexed job (JOB_COMPLETION_INDEX)", shards, shards)
 }
 
-// checkOverrides refuses command-line overrides beyond the limits.
-func checkOverrides(st *scenarios.Study, opt harness.Options, limits scenarios.Limits) error {
-	if opt.Replicates == 0 {
-		return nil
-	}
-	l := limits.WithDefaults()
-	if opt.Replicates > l.MaxReplicates {
-		return usagef("--replicates %d exceeds the limit of %d (raise it with --max-replicates)", opt.Replicates, l.MaxReplicates)
-	}
-	var work float64
-	for _, c := range st.Cells {
-		sc := c.Scenario
-		work += float64(opt.Replicates) * float64(sc.Model.N) * float64(sc.Coefficients()) * float64(len(sc.Estimators))
-	}
-	if work > l.MaxWork {
-		return usagef("%d replicates make about %.3g units of work (cells × replicates × n × coefficients × estimators); the limit is %.3g (raise it with --max-work)", opt.Replicates, work, l.MaxWork)
-	}
-	return nil
-}
-
 // limitFlags are the options that raise the resource limits.
 type limitFlags struct {
 	cells, n, reps *int
@@ -311,25 +304,6 @@ func addLimitFlags(fs *flag.FlagSet) limitFlags {
 
 func (l limitFlags) limits() scenarios.Limits {
 	return scenarios.Limits{MaxCells: *l.cells, MaxN: *l.n, MaxReplicates: *l.reps, MaxWork: *l.work}
-}
-
-// finishFile syncs and closes a temporary file and renames it to path.
-func finishFile(f *os.File, path string) error {
-	if err := f.Chmod(0o644); err != nil {
-		f.Close()
-		return fmt.Errorf("cannot write %s: %w", path, err)
-	}
-	if err := f.Sync(); err != nil {
-		f.Close()
-		return fmt.Errorf("cannot write %s: %w", path, err)
-	}
-	if err := f.Close(); err != nil {
-		return fmt.Errorf("cannot write %s: %w", path, err)
-	}
-	if err := os.Rename(f.Name(), path); err != nil {
-		return fmt.Errorf("cannot write %s: %w", path, err)
-	}
-	return nil
 }
 
 // loadScenario loads a scenario file, or a shipped scenario by name when no
@@ -350,8 +324,13 @@ func loadScenario(arg string, limits scenarios.Limits) (*scenarios.Study, error)
 	return nil, err
 }
 
-// isInputError reports errors caused by the user's input files.
+// isInputError reports errors caused by the user's input files. A failed
+// write of an output file is not one: it is a failure (exit 1).
 func isInputError(err error) bool {
+	var we *results.WriteError
+	if errors.As(err, &we) {
+		return false
+	}
 	var se *scenarios.Error
 	var pe *fs.PathError
 	var de dataError
