@@ -97,21 +97,31 @@ type Result struct {
 // res. ws holds the buffers of the fit; reusing it across fits of one shape
 // makes Fit allocate nothing. ws and res may not be used concurrently.
 //
-// Fit returns an error, and leaves res unspecified, only on misuse: mismatched
-// dimensions, fewer rows than columns, NaN or infinite data, a missing psi,
-// a bad start, scale or settings. Every other outcome is a Status in res.
+// Fit returns an error only on misuse: mismatched dimensions, fewer rows
+// than columns, NaN or infinite data, a missing psi, a bad start, scale or
+// settings. Every other outcome is a Status in res. Whatever happens, res
+// holds nothing of an earlier fit: on an error its coefficients are NaN and
+// its status is NotRun, or NonFinite when the data hold NaN or infinite
+// values (the error then wraps ErrNonFinite).
 func (e Estimator) Fit(x *mat.Dense, y []float64, ws *Workspace, res *Result) error {
 	raw := x.RawMatrix()
 	n, p := raw.Rows, raw.Cols
-	if err := e.check(raw, y); err != nil {
-		return err
-	}
-	ws.reserve(n, p)
 	if cap(res.Coefficients) < p {
 		res.Coefficients = make([]float64, p)
 	}
 	*res = Result{Coefficients: res.Coefficients[:p]}
 	beta := res.Coefficients
+	if err := e.check(raw, y); err != nil {
+		for j := range beta {
+			beta[j] = math.NaN()
+		}
+		res.Scale, res.EquationNorm, res.Objective = math.NaN(), math.NaN(), math.NaN()
+		if errors.Is(err, ErrNonFinite) {
+			res.Status = NonFinite
+		}
+		return err
+	}
+	ws.reserve(n, p)
 
 	if e.Method.Direct() {
 		ws.direct(e, e.Method, raw, y, res)

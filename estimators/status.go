@@ -50,6 +50,10 @@ const (
 	numStatuses
 )
 
+// NumStatuses is the number of Status values, NotRun included: every
+// Status s satisfies 0 ≤ s < NumStatuses, so it can index an array.
+const NumStatuses = int(numStatuses)
+
 // String returns the status name used in results files, for example
 // "converged-change".
 func (s Status) String() string {

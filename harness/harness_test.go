@@ -212,3 +212,48 @@ func TestIterationHistogramCapped(t *testing.T) {
 		t.Errorf("merged max %d", u.iterMax)
 	}
 }
+
+// TestNonFiniteDatasetsDeterministic: a model heavy-tailed enough that some
+// datasets overflow float64. Those fits end NonFinite with NaN estimates
+// and nothing carried over from the worker's previous fit, so the results
+// and the kept replicates are the same bytes for any number of workers.
+func TestNonFiniteDatasetsDeterministic(t *testing.T) {
+	st := parse(t, `
+seed: 7
+model:
+  n: 30
+  columns:
+    - {name: x, slope: 1, dist: student-t, df: 0.015}
+noise: {dist: normal}
+estimators:
+  - {label: ls, method: ls}
+  - {label: nb, method: newton, psi: bisquare}
+  - {label: h, method: irls, psi: huber}
+`)
+	var want, wantReps []byte
+	for _, w := range []int{1, 2, 5} {
+		var reps bytes.Buffer
+		res, err := Run(context.Background(), st, Options{Workers: w, Replicates: 640, KeepReplicates: &reps})
+		if err != nil {
+			t.Fatal(err)
+		}
+		nonFinite := false
+		for _, s := range res.Cells[0].Estimators[0].Convergence.Statuses {
+			nonFinite = nonFinite || (s.Status == estimators.NonFinite.String() && s.Count > 0)
+		}
+		if !nonFinite {
+			t.Fatal("no dataset overflowed; the test needs a heavier tail")
+		}
+		cells, _ := json.Marshal(res.Cells)
+		if want == nil {
+			want, wantReps = cells, reps.Bytes()
+			continue
+		}
+		if !bytes.Equal(cells, want) {
+			t.Errorf("%d workers: results differ from 1 worker", w)
+		}
+		if !bytes.Equal(reps.Bytes(), wantReps) {
+			t.Errorf("%d workers: kept replicates differ from 1 worker", w)
+		}
+	}
+}

@@ -24,18 +24,27 @@ func StudyOf(p *Partial, limits scenarios.Limits) (*scenarios.Study, error) {
 	return st, nil
 }
 
-// attach decodes a read partial's tallies against the scenario's plans.
+// attach gives a partial its tallies against the scenario's plans,
+// decoding those it was read with; a partial made by a run has them
+// already.
 func attach(p *Partial, plans []cellPlan) error {
-	if len(p.Cells) != len(plans) {
-		return fmt.Errorf("%d cells, the scenario has %d", len(p.Cells), len(plans))
+	if p.cells != nil {
+		if len(p.cells) != len(plans) {
+			return fmt.Errorf("%d cells, the scenario has %d", len(p.cells), len(plans))
+		}
+		return nil
 	}
-	p.cells = make([]*cellTally, len(plans))
+	if len(p.raw) != len(plans) {
+		return fmt.Errorf("%d cells, the scenario has %d", len(p.raw), len(plans))
+	}
+	cells := make([]*cellTally, len(plans))
 	for i, pl := range plans {
-		p.cells[i] = newCellTally(len(pl.ests), len(pl.truth), pl.slopes())
-		if err := p.cells[i].decode(p.Cells[i]); err != nil {
+		cells[i] = pl.newTally()
+		if err := cells[i].decode(p.raw[i]); err != nil {
 			return fmt.Errorf("cell %d: %w", i, err)
 		}
 	}
+	p.cells, p.raw = cells, nil
 	return nil
 }
 
@@ -107,10 +116,10 @@ func MergePartials(parts []*Partial, limits scenarios.Limits) (*Partial, *scenar
 	sort.SliceStable(parts, func(i, j int) bool { return parts[i].Shard < parts[j].Shard })
 	merged := *first
 	merged.Shard, merged.Shards = 0, 0
-	merged.done = new(big.Int)
+	merged.done, merged.raw = new(big.Int), nil
 	merged.cells = make([]*cellTally, len(plans))
 	for i, pl := range plans {
-		merged.cells[i] = newCellTally(len(pl.ests), len(pl.truth), pl.slopes())
+		merged.cells[i] = pl.newTally()
 	}
 	for _, p := range parts {
 		if err := attach(p, plans); err != nil {
@@ -130,14 +139,15 @@ func MergePartials(parts []*Partial, limits scenarios.Limits) (*Partial, *scenar
 // Summarise turns the work in a partial (merged shards, or a checkpoint)
 // into results, exactly as the run that did all of it would have.
 func Summarise(st *scenarios.Study, p *Partial, tool results.Tool) (*results.Results, error) {
+	if st.Hash != p.Hash {
+		return nil, fmt.Errorf("the partial results are of scenario %s (hash %.12s…), not of %s (hash %.12s…)", p.Scenario, p.Hash, st.Base.Name, st.Hash)
+	}
 	plans, err := plan(st, p.Replicates)
 	if err != nil {
 		return nil, err
 	}
-	if p.cells == nil {
-		if err := attach(p, plans); err != nil {
-			return nil, err
-		}
+	if err := attach(p, plans); err != nil {
+		return nil, err
 	}
 	res := summariseAll(st, plans, p.cells, p.Seed, p.Replicates, tool)
 	res.Complete = p.Complete()

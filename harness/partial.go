@@ -8,6 +8,7 @@ import (
 	"fmt"
 	"io"
 	"math/big"
+	"math/bits"
 	"strings"
 
 	"github.com/rhomark/rhomark/internal/exactsum"
@@ -37,24 +38,27 @@ type Partial struct {
 	// sharded).
 	Shard  int `json:"shard"`
 	Shards int `json:"shards"` // number of shards; this one is Shard, counted from 0
-	// Units is the total number of units of the run; Done marks the
-	// finished ones (a bitmap in hexadecimal, unit u at bit u).
-	Units int    `json:"units"`
-	Done  string `json:"done"` // set by WritePartial; read back into the unexported bitmap
-	// Cells holds the tallies of each cell.
-	Cells []tallyJSON `json:"cells"`
+	// Units is the total number of units of the run.
+	Units int `json:"units"`
 
-	done  *big.Int
-	cells []*cellTally
+	done  *big.Int     // the finished units, unit u at bit u
+	cells []*cellTally // the tallies, once attached to the scenario's plans
+	raw   []tallyJSON  // the tallies as read, until attached
+}
+
+// partialWire is the JSON form of a Partial: its exported fields, the
+// finished units as a hexadecimal bitmap, and each cell's tallies.
+type partialWire struct {
+	Partial
+	Done  string      `json:"done"`
+	Cells []tallyJSON `json:"cells"`
 }
 
 // DoneUnits returns how many units are finished.
 func (p *Partial) DoneUnits() int {
 	n := 0
 	for _, w := range p.done.Bits() {
-		for x := uint64(w); x != 0; x &= x - 1 {
-			n++
-		}
+		n += bits.OnesCount(uint(w))
 	}
 	return n
 }
@@ -93,11 +97,6 @@ type coefJSON struct {
 	NInt    int64    `json:"intervals"`
 	Covered int64    `json:"covered"`
 	Sums    []string `json:"sums"` // s1 s2 s4 pa1 pb1 pa2 pb2 pab w1 w2
-}
-
-// sums lists a coefTally's exact sums in their serialised order.
-func (t *coefTally) sums() []*exactsum.Sum {
-	return []*exactsum.Sum{&t.s1, &t.s2, &t.s4, &t.pa1, &t.pb1, &t.pa2, &t.pb2, &t.pab, &t.w1, &t.w2}
 }
 
 func encodeSum(s *exactsum.Sum) string {
@@ -151,7 +150,7 @@ func (c *cellTally) decode(j tallyJSON) error {
 		e.iterMax = ej.IterMax
 		for k := range e.coefs {
 			t, cj := &e.coefs[k], ej.Coefs[k]
-			if len(cj.Sums) != 10 {
+			if len(cj.Sums) != len(t.sums()) {
 				return errors.New("a coefficient tally has the wrong number of sums")
 			}
 			t.n, t.np, t.nInt, t.covered = cj.N, cj.NP, cj.NInt, cj.Covered
@@ -180,14 +179,16 @@ type partialFile struct {
 
 const partialFormat = "rhomark partial 1"
 
-// WritePartial writes p with its checksum.
+// WritePartial writes p with its checksum. p is not changed.
 func WritePartial(w io.Writer, p *Partial) error {
-	p.Done = p.done.Text(16)
-	p.Cells = p.Cells[:0]
-	for _, c := range p.cells {
-		p.Cells = append(p.Cells, c.encode())
+	wire := partialWire{Partial: *p, Done: p.done.Text(16), Cells: p.raw}
+	if p.cells != nil {
+		wire.Cells = make([]tallyJSON, len(p.cells))
+		for i, c := range p.cells {
+			wire.Cells[i] = c.encode()
+		}
 	}
-	payload, err := json.Marshal(p)
+	payload, err := json.Marshal(wire)
 	if err != nil {
 		return err
 	}
@@ -214,15 +215,16 @@ func ReadPartial(r io.Reader) (*Partial, error) {
 	if hex.EncodeToString(sum[:]) != f.SHA256 {
 		return nil, errors.New("the partial-results file is corrupted: its checksum does not match its content")
 	}
-	var p Partial
-	if err := json.Unmarshal(f.Payload, &p); err != nil {
+	var wire partialWire
+	if err := json.Unmarshal(f.Payload, &wire); err != nil {
 		return nil, fmt.Errorf("partial-results payload: %v", err)
 	}
-	done, ok := new(big.Int).SetString(p.Done, 16)
+	p := wire.Partial
+	done, ok := new(big.Int).SetString(wire.Done, 16)
 	if !ok || done.Sign() < 0 || done.BitLen() > p.Units {
 		return nil, errors.New("the partial-results file is corrupted: bad set of finished units")
 	}
-	p.done = done
+	p.done, p.raw = done, wire.Cells
 	return &p, nil
 }
 
@@ -242,7 +244,7 @@ func newPartial(st *scenarios.Study, plans []cellPlan, seed uint64, reps int, op
 	p := &Partial{Tool: opt.Tool.Version, Scenario: st.Base.Name, File: st.File, Source: string(st.Source), Hash: st.Hash,
 		Seed: seed, Replicates: reps, Shard: opt.Shard, Shards: opt.Shards, Units: total, done: new(big.Int)}
 	for _, pl := range plans {
-		p.cells = append(p.cells, newCellTally(len(pl.ests), len(pl.truth), pl.slopes()))
+		p.cells = append(p.cells, pl.newTally())
 	}
 	r := opt.Resume
 	if r == nil {
@@ -255,15 +257,16 @@ func newPartial(st *scenarios.Study, plans []cellPlan, seed uint64, reps int, op
 		return nil, fmt.Errorf("the checkpoint is of seed %d with %d replicates, this run seed %d with %d", r.Seed, r.Replicates, seed, reps)
 	case r.Tool != opt.Tool.Version:
 		return nil, fmt.Errorf("the checkpoint was written by rhomark %s, this is %s; resume with the same version", r.Tool, opt.Tool.Version)
-	case r.Units != total || len(r.Cells) != len(plans):
+	case r.Units != total:
 		return nil, errors.New("the checkpoint's units do not match the scenario")
 	case r.Shards != opt.Shards || r.Shard != opt.Shard:
 		return nil, fmt.Errorf("the checkpoint is of shard %d/%d, this run of %d/%d", r.Shard, r.Shards, opt.Shard, opt.Shards)
 	}
+	if err := attach(r, plans); err != nil {
+		return nil, fmt.Errorf("checkpoint: %w", err)
+	}
 	for i := range p.cells {
-		if err := p.cells[i].decode(r.Cells[i]); err != nil {
-			return nil, fmt.Errorf("checkpoint cell %d: %w", i, err)
-		}
+		p.cells[i].merge(r.cells[i])
 	}
 	p.done.Set(r.done)
 	return p, nil
@@ -274,7 +277,7 @@ func newPartial(st *scenarios.Study, plans []cellPlan, seed uint64, reps int, op
 func (p *Partial) snapshot() *Partial {
 	c := *p
 	c.done = new(big.Int).Set(p.done)
-	c.Cells = nil
+	c.raw = nil
 	c.cells = make([]*cellTally, len(p.cells))
 	for i, t := range p.cells {
 		cp := &cellTally{ests: make([]estTally, len(t.ests))}

@@ -80,6 +80,11 @@ type cellPlan struct {
 // slopes returns the number of slopes.
 func (p *cellPlan) slopes() int { return len(p.truth) - p.firstSlope }
 
+// newTally returns an empty tally shaped for the cell.
+func (p *cellPlan) newTally() *cellTally {
+	return newCellTally(len(p.ests), len(p.truth), p.slopes())
+}
+
 // Run runs every cell of the study and returns the results. If ctx is
 // cancelled, Run stops at the next replicate, and returns the results of
 // the units that finished, marked incomplete, with ctx's error.
@@ -356,7 +361,7 @@ func newWorker(p *cellPlan, seed uint64, cell int) *worker {
 		ws:      make([]estimators.Workspace, len(p.ests)),
 		res:     make([]estimators.Result, len(p.ests)),
 		se:      make([]float64, k),
-		tally:   newCellTally(len(p.ests), k, p.slopes()),
+		tally:   p.newTally(),
 	}
 }
 
@@ -396,9 +401,8 @@ func (w *worker) replicate(r int) {
 				return
 			}
 			// The model drew a value beyond float64 (an extreme draw of
-			// a heavy-tailed distribution): the dataset cannot be fitted.
-			w.res[i].Status = estimators.NonFinite
-			w.res[i].Iterations = 0
+			// a heavy-tailed distribution): the dataset cannot be fitted,
+			// and Fit left res as a NonFinite outcome with NaN estimates.
 		}
 		w.tally.ests[i].nanos += int64(time.Since(t0))
 		w.tally.ests[i].record(&w.res[i])
@@ -476,8 +480,8 @@ type orderedBlocks struct {
 
 func newOrderedBlocks(dst io.Writer, st *scenarios.Study, plans []cellPlan, seed uint64, reps int) (*orderedBlocks, error) {
 	h := results.ReplicateHeader{Scenario: st.Base.Name, Hash: st.Hash, Seed: seed, Replicates: reps}
-	for s := estimators.NotRun; s.String() != "unknown-status"; s++ {
-		h.Statuses = append(h.Statuses, s.String())
+	for s := range estimators.NumStatuses {
+		h.Statuses = append(h.Statuses, estimators.Status(s).String())
 	}
 	for _, p := range plans {
 		var lay results.ReplicateLayout

@@ -55,29 +55,30 @@ func (t *coefTally) addPair(a, b float64) {
 	t.pab.AddProduct(a, b)
 }
 
+// sums lists a coefTally's exact sums, in their serialised order (an array,
+// so that listing them allocates nothing).
+func (t *coefTally) sums() [10]*exactsum.Sum {
+	return [10]*exactsum.Sum{&t.s1, &t.s2, &t.s4, &t.pa1, &t.pb1, &t.pa2, &t.pb2, &t.pab, &t.w1, &t.w2}
+}
+
 // reset empties the tally, keeping the sums' storage.
 func (t *coefTally) reset() {
 	t.n, t.np, t.nInt, t.covered = 0, 0, 0, 0
-	for _, s := range []*exactsum.Sum{&t.s1, &t.s2, &t.s4, &t.pa1, &t.pb1, &t.pa2, &t.pb2, &t.pab, &t.w1, &t.w2} {
+	for _, s := range t.sums() {
 		s.Reset()
 	}
 }
 
+// merge adds u's counts and sums to t's.
 func (t *coefTally) merge(u *coefTally) {
 	t.n += u.n
-	t.s1.Merge(&u.s1)
-	t.s2.Merge(&u.s2)
-	t.s4.Merge(&u.s4)
 	t.np += u.np
-	t.pa1.Merge(&u.pa1)
-	t.pb1.Merge(&u.pb1)
-	t.pa2.Merge(&u.pa2)
-	t.pb2.Merge(&u.pb2)
-	t.pab.Merge(&u.pab)
 	t.nInt += u.nInt
 	t.covered += u.covered
-	t.w1.Merge(&u.w1)
-	t.w2.Merge(&u.w2)
+	us := u.sums()
+	for k, s := range t.sums() {
+		s.Merge(us[k])
+	}
 }
 
 // iterHistCap bounds the iteration histogram: fits that took iterHistCap
@@ -110,8 +111,8 @@ type estTally struct {
 // maxCrossSlopes bounds the slopes whose cross moments are kept.
 const maxCrossSlopes = 16
 
-// statusSlots bounds the Status values counted.
-const statusSlots = 32
+// statusSlots is the number of Status values counted.
+const statusSlots = estimators.NumStatuses
 
 func newEstTally(p, slopes int) estTally {
 	t := estTally{coefs: make([]coefTally, p)}
@@ -214,19 +215,7 @@ func (c *cellTally) reset() {
 const prec = 256
 
 // centred returns Σx² − (Σx)²/n from exact sums, rounded once.
-func centred(s1, s2 *exactsum.Sum, n int64) float64 {
-	a, ok1 := s1.Big()
-	b, ok2 := s2.Big()
-	if !ok1 || !ok2 || n == 0 {
-		return nan()
-	}
-	nb := new(big.Float).SetPrec(prec).SetInt64(n)
-	sq := new(big.Float).SetPrec(prec).Mul(a, a)
-	sq.Quo(sq, nb)
-	r := new(big.Float).SetPrec(prec).Sub(b, sq)
-	f, _ := r.Float64()
-	return f
-}
+func centred(s1, s2 *exactsum.Sum, n int64) float64 { return crossCentred(s1, s1, s2, n) }
 
 // crossCentred returns Σab − (Σa)(Σb)/n from exact sums.
 func crossCentred(a1, b1, ab *exactsum.Sum, n int64) float64 {
@@ -234,7 +223,7 @@ func crossCentred(a1, b1, ab *exactsum.Sum, n int64) float64 {
 	b, ok2 := b1.Big()
 	c, ok3 := ab.Big()
 	if !ok1 || !ok2 || !ok3 || n == 0 {
-		return nan()
+		return math.NaN()
 	}
 	nb := new(big.Float).SetPrec(prec).SetInt64(n)
 	p := new(big.Float).SetPrec(prec).Mul(a, b)
@@ -248,5 +237,3 @@ func crossCentred(a1, b1, ab *exactsum.Sum, n int64) float64 {
 func fourthCentred(s2, s4 *exactsum.Sum, n int64) float64 {
 	return centred(s2, s4, n) // the same identity, with x = e²
 }
-
-func nan() float64 { return math.NaN() }

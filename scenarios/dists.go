@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"slices"
 	"strings"
 
 	"gonum.org/v1/gonum/stat/distuv"
@@ -106,7 +107,7 @@ func (d *Distribution) check(c checker, path string) bool {
 		takesText = strings.Join(takes, ", ")
 	}
 	for _, key := range distKeys() {
-		if *d.param(key) != nil && !contains(takes, key) {
+		if *d.param(key) != nil && !slices.Contains(takes, key) {
 			c.fail(path+"."+key, "is not used by dist %s; %s takes %s", d.Dist, d.Dist, takesText)
 		}
 	}
@@ -126,8 +127,13 @@ func (d *Distribution) check(c checker, path string) bool {
 	for _, k := range []string{"sd", "df", "scale", "sdlog", "rate"} {
 		positive(k)
 	}
-	if d.Min != nil && d.Max != nil && !(*d.Max > *d.Min) {
-		c.fail(path+".max", "max (%v) must exceed min (%v)", *d.Max, *d.Min)
+	if d.Min != nil && d.Max != nil {
+		switch {
+		case !(*d.Max > *d.Min):
+			c.fail(path+".max", "max (%v) must exceed min (%v)", *d.Max, *d.Min)
+		case math.IsInf(*d.Max-*d.Min, 0):
+			c.fail(path+".max", "the range max − min (%v − %v) is beyond float64; every value drawn would make the data non-finite", *d.Max, *d.Min)
+		}
 	}
 	if d.Dist == "levels" && len(d.Levels) == 0 {
 		c.fail(path+".levels", "missing: list the values the column cycles through")

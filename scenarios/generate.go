@@ -93,7 +93,7 @@ func NewGenerator(s *Scenario) (*Generator, error) {
 		g.growRate = gw.Rate
 	}
 	for _, c := range s.Contamination {
-		cs := contamSampler{kind: c.Kind, rows: int(math.Floor(c.Fraction*float64(g.n) + 0.5))}
+		cs := contamSampler{kind: c.Kind, rows: c.rows(g.n)}
 		switch c.Kind {
 		case "vertical":
 			cs.shift, cs.spread, cs.twoSided = *c.Shift, *c.Spread, c.Sides == "two"
@@ -253,4 +253,11 @@ func uniformInt(src rand.Source, n int) int {
 			return int(hi)
 		}
 	}
+}
+
+// rows returns the number of the n rows the contamination replaces:
+// round(fraction·n), halves rounded up. Generation and validation both use
+// it, so what validation allows is what is generated.
+func (c *Contamination) rows(n int) int {
+	return int(math.Floor(c.Fraction*float64(n) + 0.5))
 }

@@ -9,6 +9,7 @@ import (
 	"os"
 	"path/filepath"
 	"reflect"
+	"slices"
 	"strconv"
 	"strings"
 
@@ -144,6 +145,13 @@ func Parse(file string, data []byte, limits Limits) (*Study, error) {
 				Msg: fmt.Sprintf("the sweeps make more than %d cells; the limit is %d (raise it with --max-cells, or Limits.MaxCells from Go)", cells, limits.MaxCells)}
 		}
 	}
+	// Each cell decodes its own copy of the document, so the cost of
+	// loading grows as cells × the size of the file. Bound it before
+	// expanding (a long list of levels swept over many cells).
+	if nodes := countNodes(root); cells > 1 && float64(cells)*float64(nodes) > maxExpandedNodes {
+		return nil, &Error{File: file, Field: "vary",
+			Msg: fmt.Sprintf("%d cells of a document with %d YAML values would mean decoding %.3g values; the limit is %.0g: sweep fewer values, or move long lists (levels) out of swept scenarios", cells, nodes, float64(cells)*float64(nodes), float64(maxExpandedNodes))}
+	}
 	for _, sw := range base.Vary {
 		checkSweepPath(e, root, sw)
 	}
@@ -163,19 +171,37 @@ func Parse(file string, data []byte, limits Limits) (*Study, error) {
 	for idx := 0; idx < cells; idx++ {
 		settings, picks := cellPicks(base.Vary, idx)
 		tree := root
+		ce := &errs{file: file}
 		if len(picks) > 0 {
 			tree = deepCopy(root)
 			for i, sw := range base.Vary {
-				applySweep(tree, sw.Path, picks[i])
+				if err := applySweep(tree, sw.Path, picks[i]); err != nil {
+					ce.add(sw.line, sw.col, "vary."+sw.Path, "does not apply in the cell where %s, because another sweep replaced what it names: %v", describe(settings), err)
+				}
 			}
 		}
-		ce := &errs{file: file}
 		cd := &decoder{errs: ce, pos: map[string]position{}}
 		sc := new(Scenario)
 		cd.decode(tree, reflect.ValueOf(sc).Elem(), "")
 		if ce.err() == nil {
+			// The reference is the study's, not worked out again from a
+			// cell's (possibly swept) methods.
+			if sc.Reference == "" {
+				sc.Reference = base.Reference
+			}
 			sc.fillDefaults(cd, defaultName)
 			sc.validate(cd, limits)
+			if got, want := sc.estimatorLabels(), base.estimatorLabels(); ce.err() == nil && !slices.Equal(got, want) {
+				line, col := 0, 0
+				for _, sw := range base.Vary {
+					if sw.Path == "estimators" || strings.HasPrefix(sw.Path, "estimators.") {
+						line, col = sw.line, sw.col
+						break
+					}
+				}
+				ce.add(line, col, "vary", "a sweep changes the estimators to %s, but every cell must have the file's estimators, %s, in that order (sweep their settings instead)",
+					strings.Join(got, ", "), strings.Join(want, ", "))
+			}
 		}
 		for _, x := range ce.list {
 			key := fmt.Sprintf("%d:%d:%s:%s", x.Line, x.Column, x.Field, x.Msg)
@@ -201,6 +227,19 @@ func Parse(file string, data []byte, limits Limits) (*Study, error) {
 	}
 	st.Normalised, st.Hash = normalise(base)
 	return st, nil
+}
+
+// maxExpandedNodes bounds cells × YAML values decoded by Parse: about ten
+// seconds of loading.
+const maxExpandedNodes = 1e7
+
+// countNodes counts the nodes of a tree.
+func countNodes(n *yaml.Node) int {
+	c := 1
+	for _, k := range n.Content {
+		c += countNodes(k)
+	}
+	return c
 }
 
 // markLines records the lines of a node tree.
@@ -299,6 +338,8 @@ func fixedTopLevel(key string) (string, bool) {
 		return "the sweeps", true
 	case "reference":
 		return "the reference estimator", true
+	case "breakdown":
+		return "the breakdown settings (they apply across cells)", true
 	}
 	return "", false
 }
@@ -382,30 +423,37 @@ func child(n *yaml.Node, seg string) (*yaml.Node, error) {
 }
 
 // applySweep replaces the value at path with a copy of val. The path was
-// checked by checkSweepPath.
-func applySweep(root *yaml.Node, path string, val *yaml.Node) {
+// checked against the file by checkSweepPath, but another sweep of the same
+// cell may have replaced what it runs through (a whole list swept, say), so
+// a path that no longer resolves is an error for this cell.
+func applySweep(root *yaml.Node, path string, val *yaml.Node) error {
 	segs := strings.Split(path, ".")
 	parent, err := locate(root, segs)
 	if err != nil {
-		return
+		return err
 	}
 	last := segs[len(segs)-1]
 	v := deepCopy(val)
 	if parent.Kind == yaml.SequenceNode {
+		c, err := child(parent, last)
+		if err != nil {
+			return err
+		}
 		for i, el := range parent.Content {
-			if c, _ := child(parent, last); c == el {
+			if el == c {
 				parent.Content[i] = v
-				return
+				return nil
 			}
 		}
-		return
+		return nil
 	}
 	for i := 0; i+1 < len(parent.Content); i += 2 {
 		if parent.Content[i].Value == last {
 			parent.Content[i+1] = v
-			return
+			return nil
 		}
 	}
 	key := &yaml.Node{Kind: yaml.ScalarNode, Tag: "!!str", Value: last, Line: val.Line, Column: val.Column}
 	parent.Content = append(parent.Content, key, v)
+	return nil
 }

@@ -246,3 +246,43 @@ vary:
 		t.Errorf("non-finite psi error: %v", err)
 	}
 }
+
+// TestReferenceFixedAcrossCells: the default reference is chosen once for
+// the study, not again in each cell from its swept methods.
+func TestReferenceFixedAcrossCells(t *testing.T) {
+	src := `
+model: {n: 30, columns: [{name: x, slope: 1}]}
+noise: {dist: normal}
+estimators: [{label: a, method: lad}, {label: b, method: ls}]
+vary:
+  estimators.b.method: [ls, lad]
+`
+	st, err := Parse("ref.yaml", []byte(src), Limits{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, c := range st.Cells {
+		if c.Scenario.Reference != "b" {
+			t.Errorf("cell %d: reference %q, want the study's b", c.Index, c.Scenario.Reference)
+		}
+	}
+}
+
+// TestExpansionBounded: a long list of levels in a scenario with many
+// cells is refused before the document is decoded once per cell (it would
+// take minutes), with the figures.
+func TestExpansionBounded(t *testing.T) {
+	var levels, scales []string
+	for i := 0; i < 150_000; i++ {
+		levels = append(levels, strconv.Itoa(i%7))
+	}
+	for i := 1; i <= 100; i++ {
+		scales = append(scales, strconv.Itoa(i))
+	}
+	src := "model: {n: 30, columns: [{name: x, dist: levels, levels: [" + strings.Join(levels, ", ") + "]}]}\n" +
+		"noise: {dist: normal}\nestimators: [{method: ls}]\nvary:\n  noise.scale: [" + strings.Join(scales, ", ") + "]\n"
+	_, err := Parse("long.yaml", []byte(src), Limits{})
+	if err == nil || !strings.Contains(err.Error(), "100 cells") || !strings.Contains(err.Error(), "vary") {
+		t.Errorf("error %v, want one refusing 100 cells of a long document", err)
+	}
+}

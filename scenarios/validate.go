@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"regexp"
+	"slices"
 	"strings"
 
 	"gonum.org/v1/gonum/mat"
@@ -305,6 +306,9 @@ func (s *Scenario) validateModel(c checker, limits Limits) {
 		if col.Distribution.check(c, path) {
 			random++
 		}
+		if d := col.Distribution; d.Dist == "levels" && len(d.Levels) > 0 && !m.Intercept.None && slices.Min(d.Levels) == slices.Max(d.Levels) {
+			c.fail(path+".levels", "all levels are %v: a constant column duplicates the intercept, so no design could be fitted; give at least two distinct levels, or use intercept: none", d.Levels[0])
+		}
 	}
 	if m.Correlation.Given {
 		k := len(m.Columns)
@@ -383,7 +387,7 @@ func (s *Scenario) validateNoise(c checker) {
 	given := map[string]*float64{"df": n.DF, "mix-fraction": n.MixFraction, "mix-factor": n.MixFactor, "shape": n.Shape}
 	for _, key := range []string{"df", "mix-fraction", "mix-factor", "shape"} {
 		v := given[key]
-		allowed := contains(info.params, key)
+		allowed := slices.Contains(info.params, key)
 		if v != nil && !allowed {
 			c.fail("noise."+key, "is not used by noise %s; %s takes %s", n.Dist, n.Dist, paramList(info.params))
 		}
@@ -432,7 +436,7 @@ func (s *Scenario) validateContamination(c checker) {
 		}
 		total += ct.Fraction
 		if ct.Fraction >= 0 && ct.Fraction < 0.5 {
-			rows += int(math.Floor(ct.Fraction*float64(s.Model.N) + 0.5))
+			rows += ct.rows(s.Model.N)
 		}
 		var allowed []string
 		switch ct.Kind {
@@ -471,7 +475,7 @@ func (s *Scenario) validateContamination(c checker) {
 		present := map[string]bool{"shift": ct.Shift != nil, "spread": ct.Spread != nil, "sides": ct.Sides != "",
 			"at": len(ct.At) > 0, "at-spread": ct.AtSpread != nil, "response": ct.Response != nil}
 		for _, key := range []string{"shift", "spread", "sides", "at", "at-spread", "response"} {
-			if present[key] && !contains(allowed, key) {
+			if present[key] && !slices.Contains(allowed, key) {
 				c.fail(path+"."+key, "is not used by kind %s; %s takes fraction, %s", ct.Kind, ct.Kind, strings.Join(allowed, ", "))
 			}
 		}
@@ -513,24 +517,39 @@ func (s *Scenario) validateEstimators(c checker) {
 			c.fail(path+".method", "unknown method %q; want %s", e.Method, strings.Join(methodNames(), ", "))
 			continue
 		}
+		// The methods this estimator runs: its own and its start's.
+		used := []estimators.Method{m}
+		if from, ok := estimators.ParseMethod(e.Start.From); ok && e.Start.From != "" {
+			used = append(used, from)
+		}
+		usesS := slices.Contains(used, estimators.MethodS) || slices.Contains(used, estimators.MethodMM)
+		usesLTS := slices.Contains(used, estimators.MethodLTS)
 		if rs := e.Resampling; rs != nil {
+			if !usesS && !usesLTS {
+				c.fail(path+".resampling", "is not used by method %s: only s-estimate, mm-estimate and lts (or starts from them) draw elemental subsets", e.Method)
+			}
 			if rs.Subsets < 0 || rs.Subsets > 1_000_000 {
 				c.fail(path+".resampling.subsets", "must be from 1 to 1000000, got %d", rs.Subsets)
 			}
 			if rs.Keep < 0 || rs.Keep > 1000 {
 				c.fail(path+".resampling.keep", "must be from 1 to 1000, got %d", rs.Keep)
 			}
-			if rs.SC < 0 {
-				c.fail(path+".resampling.s-tuning", "must be positive, got %v", rs.SC)
+			switch {
+			case rs.SC != 0 && !usesS:
+				c.fail(path+".resampling.s-tuning", "is used only by s-estimate and mm-estimate (the S-scale's bisquare)")
+			case rs.SC != 0 && !(rs.SC >= 0.1 && rs.SC <= 100):
+				// Our bounds: 1.547 gives the S-scale 50% breakdown; far
+				// below 0.1 or above 100 the scale is numerically meaningless.
+				c.fail(path+".resampling.s-tuning", "must be from 0.1 to 100 (1.547 gives 50%% breakdown), got %v", rs.SC)
 			}
-			if rs.H != 0 && (rs.H < p || rs.H > s.Model.N) {
+			switch {
+			case rs.H != 0 && !usesLTS:
+				c.fail(path+".resampling.h", "is used only by lts")
+			case rs.H != 0 && (rs.H < p || rs.H > s.Model.N):
 				c.fail(path+".resampling.h", "LTS keeps h observations, between the %d coefficients and n = %d; got %d", p, s.Model.N, rs.H)
 			}
 		}
-		resampled := m == estimators.MethodS || m == estimators.MethodMM || m == estimators.MethodLTS
-		if from, ok := estimators.ParseMethod(e.Start.From); ok && e.Start.From != "" {
-			resampled = resampled || from == estimators.MethodS || from == estimators.MethodMM || from == estimators.MethodLTS
-		}
+		resampled := usesS || usesLTS
 		if resampled && s.Model.N < 2*p {
 			c.fail(path+".method", "the S, MM and LTS estimators (and starts from them) need n ≥ 2 × coefficients = %d observations, got n = %d: with fewer, an elemental subset fits half the data exactly", 2*p, s.Model.N)
 		}
@@ -712,15 +731,6 @@ func (s *Scenario) estimatorLabels() []string {
 		out[i] = e.Label
 	}
 	return out
-}
-
-func contains(list []string, s string) bool {
-	for _, x := range list {
-		if x == s {
-			return true
-		}
-	}
-	return false
 }
 
 func paramList(p []string) string {
