@@ -469,8 +469,13 @@ func TestNewFamiliesConverge(t *testing.T) {
 				t.Errorf("%s seed %d: status %v after %d iterations", c.name, seed, res.Status, res.Iterations)
 				continue
 			}
+			// Least squares is off by about 1 in the intercept here (10%
+			// of outliers at +10); a robust fit must stay within half of
+			// that. The coefficients' SE is about 0.1 at n = 100, so 0.5
+			// leaves room for the bias a bounded psi keeps (at most 0.35
+			// here, Fair's) without letting a least-squares-like fit pass.
 			for j, v := range res.Coefficients {
-				if math.Abs(v-1) > 1 {
+				if math.Abs(v-1) > 0.5 {
 					t.Errorf("%s seed %d: coefficient %d = %v, true 1", c.name, seed, j, v)
 				}
 			}

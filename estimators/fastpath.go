@@ -1,5 +1,7 @@
 package estimators
 
+import "math"
+
 // Loops of evaluate specialised to the built-in families used most, so that
 // psi and the weight are computed inline instead of by two interface calls
 // per residual. Each must give bit-for-bit the values of evaluateAny
@@ -56,6 +58,31 @@ func (ws *Workspace) evaluateBisquare(b Bisquare, sigma float64) (csum float64) 
 			off++
 		}
 		csum += w
+	}
+	ws.nOff = off
+	return csum
+}
+
+// evaluateCustom is evaluateAny for a custom psi's IRLS weights: the weight
+// psi(u)/u reuses the psi value just computed instead of running the
+// expression a second time (Custom.Weight computes the same quotient).
+func (ws *Workspace) evaluateCustom(cu *Custom, sigma float64) (csum float64) {
+	r := ws.r
+	c, ps := ws.c[:len(r)], ws.psi[:len(r)]
+	off := 0
+	for i, ri := range r {
+		u := ri / sigma
+		ps[i] = cu.Psi(u)
+		if u == 0 {
+			c[i] = cu.Weight(0)
+		} else {
+			c[i] = ps[i] / u
+		}
+		if c[i] != 1 {
+			ws.off[off] = i
+			off++
+		}
+		csum += math.Abs(c[i])
 	}
 	ws.nOff = off
 	return csum

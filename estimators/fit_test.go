@@ -275,6 +275,9 @@ func TestNewtonSafeguards(t *testing.T) {
 	if nw.Fallbacks == 0 {
 		t.Errorf("expected IRLS fallbacks from a poor start, got none (halvings %d)", nw.Halvings)
 	}
+	// Both stop at a relative change of 1e-12 from the same fixed point;
+	// 1e-7 absolute allows for the fixed point's conditioning (coefficients
+	// near 1, and the two methods approach it from different sides).
 	for j := range nw.Coefficients {
 		if math.Abs(nw.Coefficients[j]-ir.Coefficients[j]) > 1e-7 {
 			t.Errorf("coefficient %d: Newton %v IRLS %v", j, nw.Coefficients[j], ir.Coefficients[j])
@@ -315,7 +318,11 @@ func TestFastPathsMatch(t *testing.T) {
 		}
 	}
 	copy(b.r, a.r)
-	for _, psi := range []Psi{Huber{K: 1.345}, Huber{K: 0.5}, Bisquare{C: 4.685}, Bisquare{C: 1}} {
+	custom, err := NewCustom(CustomSpec{Psi: "r / (1 + abs(r)/c)", Constants: []Constant{{"c", 1.4}}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, psi := range []Psi{Huber{K: 1.345}, Huber{K: 0.5}, Bisquare{C: 4.685}, Bisquare{C: 1}, custom} {
 		for _, sigma := range []float64{0.3, 1, 2.5} {
 			got := a.evaluate(psi, sigma, false)
 			want := b.evaluateAny(psi, sigma, false)
@@ -327,6 +334,41 @@ func TestFastPathsMatch(t *testing.T) {
 					t.Fatalf("%T sigma %v row %d: fast (%v, %v) general (%v, %v)", psi, sigma, i, a.psi[i], a.c[i], b.psi[i], b.c[i])
 				}
 			}
+		}
+	}
+}
+
+// TestFitZeroAllocs: once a workspace has seen a shape, a fit allocates
+// nothing, for every method (the hot loop of a study). Benchmarks report
+// the same figure; this test makes it a requirement.
+func TestFitZeroAllocs(t *testing.T) {
+	x, y := simulated(31, 120, 4, 0.1)
+	cases := []Estimator{
+		{Method: MethodLS},
+		{Method: MethodIRLS, Psi: Huber{K: 1.345}},
+		{Method: MethodNewton, Psi: Huber{K: 1.345}},
+		{Method: MethodIRLS, Psi: Bisquare{C: 4.685}},
+		{Method: MethodNewton, Psi: Welsch{C: 2.9846}},
+		{Method: MethodS, Resampling: Resampling{Subsets: 50}},
+		{Method: MethodMM, Resampling: Resampling{Subsets: 50}},
+		{Method: MethodLTS, Resampling: Resampling{Subsets: 50}},
+		{Method: MethodLAD},
+		{Method: MethodIRLS, Psi: Huber{K: 1.345}, StartFrom: MethodLAD},
+	}
+	for _, e := range cases {
+		var ws Workspace
+		var res Result
+		if err := e.Fit(x, y, &ws, &res); err != nil {
+			t.Fatal(err)
+		}
+		seed := uint64(0)
+		allocs := testing.AllocsPerRun(5, func() {
+			seed++
+			ws.SeedRandom(seed, 0)
+			e.Fit(x, y, &ws, &res)
+		})
+		if allocs != 0 {
+			t.Errorf("%v %T: %v allocations per fit after warm-up", e.Method, e.Psi, allocs)
 		}
 	}
 }

@@ -187,6 +187,8 @@ func (ws *Workspace) evaluate(psi Psi, sigma float64, newton bool) float64 {
 			return ws.evaluateHuber(p, sigma)
 		case Bisquare:
 			return ws.evaluateBisquare(p, sigma)
+		case *Custom:
+			return ws.evaluateCustom(p, sigma)
 		}
 	}
 	return ws.evaluateAny(psi, sigma, newton)
@@ -263,6 +265,24 @@ func (ws *Workspace) psiSums(x blas64.General) {
 	blas64.Gemv(blas.Trans, 1, x, blas64.Vector{N: ws.n, Data: ws.psi, Inc: 1}, 0, blas64.Vector{N: ws.p, Data: ws.h, Inc: 1})
 }
 
+// gram makes ws.base hold XᵀX (upper triangle), computed once per fit.
+// Every user of ws.base goes through it, so XᵀX is the same bits whichever
+// computation asked for it first.
+func (ws *Workspace) gram(x blas64.General) {
+	if ws.baseOK {
+		return
+	}
+	p, n := ws.p, ws.n
+	clear(ws.base)
+	for i := 0; i+1 < n; i += 2 {
+		rankTwo(ws.base, x, i, i+1, p, 1, 1)
+	}
+	if n%2 == 1 {
+		rankTwo(ws.base, x, n-1, n-1, p, 1, 0)
+	}
+	ws.baseOK = true
+}
+
 // normalMatrix sets ws.m (upper triangle) to Σ c_i x_i x_iᵀ. When fewer
 // than half the rows have c_i ≠ 1 (Huber's psi leaves most weights at
 // exactly 1), it starts from XᵀX, computed once per fit, and adds
@@ -270,16 +290,7 @@ func (ws *Workspace) psiSums(x blas64.General) {
 func (ws *Workspace) normalMatrix(x blas64.General) {
 	p, n := ws.p, ws.n
 	if 2*ws.nOff < n {
-		if !ws.baseOK {
-			clear(ws.base)
-			for i := 0; i+1 < n; i += 2 {
-				rankTwo(ws.base, x, i, i+1, p, 1, 1)
-			}
-			if n%2 == 1 {
-				rankTwo(ws.base, x, n-1, n-1, p, 1, 0)
-			}
-			ws.baseOK = true
-		}
+		ws.gram(x)
 		copy(ws.m, ws.base)
 		off := ws.off[:ws.nOff]
 		for t := 0; t+1 < len(off); t += 2 {

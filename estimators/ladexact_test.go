@@ -213,6 +213,10 @@ func TestLADExactStackloss(t *testing.T) {
 		}
 	}
 	checkCertificate(t, "stack loss", x, y, beta)
+	// The public Fit gives the same estimate.
+	if res, err := Fit(Estimator{Method: MethodLAD}, x, y); err != nil || res.Status != Solved || fmt.Sprint(res.Coefficients) != fmt.Sprint(beta) {
+		t.Errorf("Fit: %v %v %v, want %v", res.Coefficients, res.Status, err, beta)
+	}
 	if f, min := l1Objective(x, y, beta), bruteForceL1(x, y); math.Abs(f-min) > 1e-9*min {
 		t.Errorf("objective %.12g, brute-force minimum over all 4-subsets %.12g", f, min)
 	}

@@ -2,6 +2,7 @@ package estimators
 
 import (
 	"math"
+	"slices"
 
 	"gonum.org/v1/gonum/integrate/quad"
 )
@@ -95,5 +96,5 @@ func integrateHalfLine(f func(float64) float64, breaks []float64) float64 {
 	return sum + integrate(f, pts[len(pts)-1], math.Inf(1))
 }
 
-// sortFloats sorts a short slice in place.
-func sortFloats(a []float64) { insertionSort(a) }
+// sortFloats sorts a slice in place.
+func sortFloats(a []float64) { slices.Sort(a) }

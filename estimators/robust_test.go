@@ -116,7 +116,8 @@ func TestHBK(t *testing.T) {
 
 // TestStarsCYG uses the star cluster CYG OB1 data, Rousseeuw & Leroy
 // (1987), Robust Regression and Outlier Detection, Wiley, Table 3: least
-// squares gives slope −0.4133 (published), pulled by the four giants (rows
+// squares gives slope −0.4133 (from memory, and recorded with the data in
+// the shared reference notes), pulled by the four giants (rows
 // 11, 20, 30, 34); high-breakdown fits give a positive slope and expose the
 // giants.
 func TestStarsCYG(t *testing.T) {
@@ -126,7 +127,7 @@ func TestStarsCYG(t *testing.T) {
 		t.Fatal(err)
 	}
 	if math.Abs(ls.Coefficients[1]-(-0.4133)) > 0.00005 {
-		t.Errorf("least-squares slope %.5f, published -0.4133", ls.Coefficients[1])
+		t.Errorf("least-squares slope %.5f, published -0.4133 (half a unit in the last digit allowed)", ls.Coefficients[1])
 	}
 	giants := []int{10, 19, 29, 33}
 	for _, e := range []Estimator{{Method: MethodS}, {Method: MethodMM}, {Method: MethodLTS}} {
@@ -140,25 +141,6 @@ func TestStarsCYG(t *testing.T) {
 			}
 		}
 		t.Logf("%v: slope %.3f", e.Method, res.Coefficients[1])
-	}
-}
-
-// TestStacklossLADExact: the exact least-absolute-deviations fit of
-// Brownlee's stack loss data, −39.69 + 0.8319 Air.Flow + 0.5739 Water.Temp
-// − 0.0609 Acid.Conc. (Rousseeuw & Leroy (1987), Robust Regression and
-// Outlier Detection; Birkes & Dodge (1993), Alternative Methods of
-// Regression; values from memory), through the public Fit.
-func TestStacklossLADExact(t *testing.T) {
-	x, y := stackloss(t)
-	res, err := Fit(Estimator{Method: MethodLAD}, x, y)
-	if err != nil || res.Status != Solved {
-		t.Fatalf("%v %v", res.Status, err)
-	}
-	want := []struct{ v, half float64 }{{-39.69, 0.005}, {0.8319, 0.00005}, {0.5739, 0.00005}, {-0.0609, 0.00005}}
-	for j, w := range want {
-		if math.Abs(res.Coefficients[j]-w.v) > w.half {
-			t.Errorf("coefficient %d = %.6f, published %v", j, res.Coefficients[j], w.v)
-		}
 	}
 }
 

@@ -1,6 +1,10 @@
 package estimators
 
-import "math"
+import (
+	"math"
+	"math/bits"
+	"slices"
+)
 
 // MADConsistency is Φ⁻¹(3/4), the median of |Z| for a standard normal Z.
 // Dividing the median absolute residual by it gives a scale estimate that is
@@ -77,18 +81,18 @@ func median(a []float64) float64 {
 // selectKth partially sorts a so that a[k] holds the k-th smallest value
 // (0-based), every a[i] ≤ a[k] for i < k and every a[i] ≥ a[k] for i > k, and
 // returns a[k]. Quickselect with a median-of-three pivot; when a partition
-// goes badly too often it switches to heap selection, so the worst case stays
+// goes badly too often it sorts the rest, so the worst case stays
 // O(n log n).
 func selectKth(a []float64, k int) float64 {
 	lo, hi := 0, len(a)-1
-	budget := 2 * bitsLen(len(a))
+	budget := 2 * bits.Len(uint(len(a)))
 	for hi > lo {
 		if hi-lo < 12 {
 			insertionSort(a[lo : hi+1])
 			return a[k]
 		}
 		if budget == 0 {
-			heapSelect(a[lo:hi+1], k-lo)
+			slices.Sort(a[lo : hi+1]) // pdqsort: O(n log n) worst case, no allocation
 			return a[k]
 		}
 		budget--
@@ -141,43 +145,4 @@ func insertionSort(a []float64) {
 		}
 		a[j] = v
 	}
-}
-
-// bitsLen returns the number of bits needed to represent n.
-func bitsLen(n int) int {
-	b := 0
-	for ; n > 0; n >>= 1 {
-		b++
-	}
-	return b
-}
-
-// heapSelect places the k-th smallest element of a at a[k] with the
-// partition property of selectKth, by heapsort. O(n log n), no allocation.
-func heapSelect(a []float64, k int) {
-	n := len(a)
-	sift := func(root, end int) {
-		for {
-			child := 2*root + 1
-			if child >= end {
-				return
-			}
-			if child+1 < end && a[child+1] > a[child] {
-				child++
-			}
-			if a[root] >= a[child] {
-				return
-			}
-			a[root], a[child] = a[child], a[root]
-			root = child
-		}
-	}
-	for i := n/2 - 1; i >= 0; i-- {
-		sift(i, n)
-	}
-	for end := n - 1; end > 0; end-- {
-		a[0], a[end] = a[end], a[0]
-		sift(0, end)
-	}
-	_ = k // a is fully sorted, so every k holds
 }

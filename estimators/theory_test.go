@@ -25,8 +25,13 @@ var hollandWelsch = []struct {
 	{"talwar", 2.795},
 }
 
-// TestHollandWelschConstants: each published constant gives 0.950 ± 0.001,
-// and tuning for 95% returns the constant to 3 decimals.
+// TestHollandWelschConstants: each published constant gives 0.950 ± 0.00025,
+// and tuning for 95% returns the constant to 3 decimals. The constants are
+// printed to 3 decimals, so each stands for an interval of ±0.0005 in c;
+// over it the efficiency moves by at most 1.2e-4 for these families (Talwar,
+// whose efficiency is steepest in c; measured with this package), so the
+// band is that printing error with a factor of two to spare, and tuning
+// must land within the half unit 0.0005 of the printed constant.
 func TestHollandWelschConstants(t *testing.T) {
 	for _, hw := range hollandWelsch {
 		f, ok := LookupFamily(hw.family)
@@ -39,7 +44,7 @@ func TestHollandWelschConstants(t *testing.T) {
 			t.Fatal(err)
 		}
 		eff := EfficiencyAtNormal(psi)
-		if math.Abs(eff-0.95) > 0.001 {
+		if math.Abs(eff-0.95) > 0.00025 {
 			t.Errorf("%s c = %v: efficiency %.5f, published 0.950", hw.family, hw.c, eff)
 		}
 		tuned, err := f.TuneEfficiency(0.95)
@@ -61,6 +66,7 @@ func TestTalwarJump(t *testing.T) {
 	_, b := Moments(psi, 1)
 	// Stein: E[Z psi(Z)] = P(|Z| ≤ c) − 2cφ(c) (the jump contributes −2cφ(c)).
 	want := (2*distuv.UnitNormal.CDF(c) - 1) - 2*c*distuv.UnitNormal.Prob(c)
+	// 1e-12: the quadrature's relative tolerance is 1e-13 (quadrature.go).
 	if math.Abs(b-want) > 1e-12 {
 		t.Errorf("E[psi'] = %.15g, want %.15g", b, want)
 	}
@@ -80,6 +86,9 @@ func TestHuberClosedForms(t *testing.T) {
 		p, d := distuv.UnitNormal.CDF(k), distuv.UnitNormal.Prob(k)
 		a := 2*p - 1 - 2*k*d + 2*k*k*(1-p)
 		b := 2*p - 1
+		// Relative 1e-11 and 1e-9: a few hundred times the quadrature's
+		// 1e-13, for the ratios of integrals (and, for the sensitivity,
+		// the grid search for sup |psi|).
 		if got, want := th.AsymptoticVariance, a/(b*b); math.Abs(got-want) > 1e-11*want {
 			t.Errorf("k=%v: asymptotic variance %.15g, closed form %.15g", k, got, want)
 		}
@@ -143,9 +152,12 @@ func TestBisquareSScale(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if math.Abs(th.Efficiency-0.287) > 0.001 {
+	// 0.287 is printed to 3 decimals: half a unit in the last digit.
+	if math.Abs(th.Efficiency-0.287) > 0.0005 {
 		t.Errorf("efficiency at c = 1.547: %.4f, published 0.287", th.Efficiency)
 	}
+	// c = 1.547 is the truncated constant, 6.4e-4 below 1.54764; the
+	// breakdown moves by less than 1e-3 over that.
 	if math.Abs(th.Breakdown-0.5) > 0.001 {
 		t.Errorf("breakdown at c = 1.547: %.4f", th.Breakdown)
 	}

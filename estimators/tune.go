@@ -43,20 +43,24 @@ func solveRay(g func(m float64) (float64, error)) (float64, error) {
 	if g1 == 0 {
 		return 1, nil
 	}
+	// The two walkers take turns, so a root below 1 costs as few
+	// evaluations as one above.
 	var lo, hi float64
 	found := false
-	for _, factor := range []float64{2, 0.5} {
-		prev := 1.0
-		for step := 0; step < 20 && !found; step++ {
-			m := prev * factor
+	up, down := 1.0, 1.0
+	for step := 0; step < 20 && !found; step++ {
+		for _, w := range []*float64{&up, &down} {
+			prev := *w
+			m := prev * 2
+			if w == &down {
+				m = prev / 2
+			}
+			*w = m
 			gm, err := g(m)
 			if err == nil && math.Signbit(gm) != math.Signbit(g1) {
 				lo, hi, found = math.Min(prev, m), math.Max(prev, m), true
+				break
 			}
-			prev = m
-		}
-		if found {
-			break
 		}
 	}
 	if !found {

@@ -183,13 +183,7 @@ func (ws *Workspace) finishLS(x blas64.General, res *Result) {
 // It reports false when XᵀX is not positive definite.
 func (ws *Workspace) inverseGramDiag(x blas64.General, d []float64) bool {
 	p := ws.p
-	if !ws.baseOK {
-		clear(ws.base)
-		for i := 0; i < ws.n; i++ {
-			rankTwo(ws.base, x, i, i, p, 1, 0)
-		}
-		ws.baseOK = true
-	}
+	ws.gram(x)
 	m := ws.m
 	copy(m, ws.base)
 	scale := ws.pscale

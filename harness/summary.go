@@ -340,7 +340,7 @@ func convergence(t *estTally) results.Convergence {
 			c.Converged += k
 		}
 		if k > 0 {
-			c.Statuses = append(c.Statuses, results.StatusCount{Status: s.String(), Count: k, Rate: results.Wilson(k, t.fits)})
+			c.Statuses = append(c.Statuses, results.StatusCount{Status: s.String(), Converged: s.Converged(), Count: k, Rate: results.Wilson(k, t.fits)})
 		}
 	}
 	c.FailureRate = results.Wilson(t.fits-c.Converged, t.fits)

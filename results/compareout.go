@@ -4,7 +4,9 @@ import (
 	"encoding/xml"
 	"fmt"
 	"io"
+	"maps"
 	"math"
+	"slices"
 	"strings"
 )
 
@@ -81,8 +83,8 @@ func WriteComparison(w io.Writer, c *Comparison) error {
 			fmt.Fprintf(b, " · %d fits in one run only", p.Missing)
 		}
 		b.WriteString("\n")
-		for t, n := range p.Transitions {
-			fmt.Fprintf(b, "  status %s: %d fits\n", t, n)
+		for _, t := range slices.Sorted(maps.Keys(p.Transitions)) {
+			fmt.Fprintf(b, "  status %s: %d fits\n", t, p.Transitions[t])
 		}
 		for _, pe := range p.Estimators {
 			if pe.Moved+pe.StatusChanged+pe.IterationChanged == 0 {

@@ -59,11 +59,8 @@ const (
 // with gonum/plot, so no system font is needed).
 func sansFace() font.Font { return font.Font{Typeface: "Liberation", Variant: "Sans"} }
 
-// isFailureStatus reports whether a fit status is a failure: anything but
-// solved, exact-fit and the converged-* statuses.
-func isFailureStatus(s string) bool {
-	return !(s == "solved" || s == "exact-fit" || strings.HasPrefix(s, "converged"))
-}
+// isFailure reports whether fits that ended with s failed.
+func isFailure(s StatusCount) bool { return !s.Converged }
 
 // Figures renders every figure that r's contents support, in a fixed order:
 // bias-curves, efficiency-vs-tuning, psi-functions, iterations, failures,
@@ -1274,7 +1271,7 @@ func (fc *figureContext) failures() (*figureSpec, error) {
 			}
 			t.fits += e.Convergence.Fits
 			for _, s := range e.Convergence.Statuses {
-				if !isFailureStatus(s.Status) || s.Count == 0 {
+				if !isFailure(s) || s.Count == 0 {
 					continue
 				}
 				if _, seen := statusTotal[s.Status]; !seen {
@@ -1410,7 +1407,7 @@ func (fc *figureContext) coverage() (*figureSpec, error) {
 	p.Y.Max = math.Max(p.Y.Max, 1)
 	p.X.Label.Text = "coefficient"
 	p.Y.Label.Text = "coverage of 95% intervals"
-	caption := fmt.Sprintf("Share of the 95%% intervals in %s that contain the true coefficient, per estimator and coefficient, with bars of ±2 MCSE (cut at 0 and 1; a bar of no length means every interval, or none, covered). The dotted line is the nominal 0.95.", cellName(r, c))
+	caption := fmt.Sprintf("Share of the 95%% intervals in %s that contain the true coefficient, per estimator and coefficient, with bars of ±2 MCSE (cut at 0 and 1, so where every interval or none covered the bar is one-sided, its length from the Wilson interval). The dotted line is the nominal 0.95.", cellName(r, c))
 	if len(without) > 0 {
 		caption += " No intervals: " + strings.Join(without, ", ") + "."
 	}

@@ -227,9 +227,9 @@ func handResults(extraSweep bool) *Results {
 		}
 		return Cell{Settings: settings, Replicates: 100, Estimators: []Estimator{
 			{Label: "ls", Method: "ls", Coefficients: coef(bias), SlopeBias: Measure{Value: Num(bias / 10), MCSE: 0.001},
-				Convergence: Convergence{Fits: 100, Converged: 100, Statuses: []StatusCount{{Status: "solved", Count: 100}}, IterationHistogram: []int64{100}}},
+				Convergence: Convergence{Fits: 100, Converged: 100, Statuses: []StatusCount{{Status: "solved", Converged: true, Count: 100}}, IterationHistogram: []int64{100}}},
 			{Label: "huber", Method: "irls", Psi: "huber", Tuning: []float64{1.345}, Coefficients: coef(bias / 4), SlopeBias: Measure{Value: Num(bias / 40), MCSE: 0.001},
-				Convergence: Convergence{Fits: 100, Converged: 100, Statuses: []StatusCount{{Status: "converged-change", Count: 100}}, IterationHistogram: []int64{0, 0, 0, 10, 40, 30, 20}}},
+				Convergence: Convergence{Fits: 100, Converged: 100, Statuses: []StatusCount{{Status: "converged-change", Converged: true, Count: 100}}, IterationHistogram: []int64{0, 0, 0, 10, 40, 30, 20}}},
 		}}
 	}
 	r := &Results{Schema: SchemaVersion, Scenario: ScenarioInfo{Name: "bench-hand"}, Seed: 1, Replicates: 100, Complete: true, Reference: "ls"}
@@ -247,7 +247,7 @@ func TestFiguresFromHandResults(t *testing.T) {
 	iterLimit := func(r *Results) {
 		cv := &r.Cells[1].Estimators[1].Convergence
 		cv.Converged = 97
-		cv.Statuses = []StatusCount{{Status: "converged-change", Count: 97}, {Status: "iteration-limit", Count: 3}}
+		cv.Statuses = []StatusCount{{Status: "converged-change", Converged: true, Count: 97}, {Status: "iteration-limit", Count: 3}}
 	}
 	twoFractions := func(r *Results) {
 		for i := range r.Cells {

@@ -95,7 +95,7 @@ func WriteMarkdownSummary(w io.Writer, r *Results) error {
 	for _, c := range r.Cells {
 		for _, e := range c.Estimators {
 			for _, s := range e.Convergence.Statuses {
-				if !isFailureStatus(s.Status) || s.Count == 0 {
+				if !isFailure(s) || s.Count == 0 {
 					continue
 				}
 				problems = append(problems, fmt.Sprintf("- cell %d, %s: %s in %d of %d fits (%s, Wilson 95%% CI %s–%s)",

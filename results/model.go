@@ -182,8 +182,11 @@ type Convergence struct {
 // StatusCount is how many fits ended with one status.
 type StatusCount struct {
 	Status string `json:"status"` // name of the final status
-	Count  int64  `json:"count"`  // number of fits that ended with it
-	Rate   Rate   `json:"rate"`   // Count over all fits, with its Wilson 95% interval
+	// Converged is set when the status is a usable solution (solved, an
+	// exact fit, or converged by a stopping rule); the others are failures.
+	Converged bool  `json:"converged"`
+	Count     int64 `json:"count"` // number of fits that ended with it
+	Rate      Rate  `json:"rate"`  // Count over all fits, with its Wilson 95% interval
 }
 
 // Rate is a proportion with its Wilson score 95% interval.

@@ -572,7 +572,7 @@ func writeConvergenceSection(b *strings.Builder, r *Results) {
 			}
 			var fails []string
 			for _, s := range cv.Statuses {
-				if isFailureStatus(s.Status) && s.Count > 0 {
+				if isFailure(s) && s.Count > 0 {
 					fails = append(fails, fmt.Sprintf("%s: %d (%s, 95%% CI %s–%s)", s.Status, s.Count,
 						percent(float64(s.Rate.Value)), percent(float64(s.Rate.Low)), percent(float64(s.Rate.High))))
 				}

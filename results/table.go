@@ -81,7 +81,7 @@ func writeEstimator(b *strings.Builder, r *Results, e Estimator, width int) {
 		b.WriteString(head + "\n   " + conv + "\n")
 	}
 	for _, s := range cv.Statuses {
-		if s.Status == "solved" || strings.HasPrefix(s.Status, "converged") || s.Status == "exact-fit" {
+		if !isFailure(s) {
 			continue
 		}
 		v, _ := FormatMeasure(Measure{Value: s.Rate.Value * 100, MCSE: 0.05}, false)

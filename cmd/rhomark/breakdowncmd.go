@@ -3,6 +3,7 @@ package main
 import (
 	"fmt"
 	"os"
+	"strconv"
 
 	"gonum.org/v1/gonum/mat"
 
@@ -20,6 +21,7 @@ func breakdownCmd(e env, args []string) error {
 	xCols := fs.String("x", "", "predictor `columns` of --data (default: every other column holding numbers)")
 	dirs := fs.Int("directions", 6, "random `directions` besides vertical and leverage")
 	seed := fs.Uint64("seed", 1, "`seed` of the replaced rows, directions and resampling")
+	runSeed := fs.String("run-seed", "", "the run's root `seed`, if it overrode the scenario's (as replay --seed), to rebuild that run's replicate")
 	asJSON := fs.Bool("json", false, "print JSON")
 	lim := addLimitFlags(fs.FlagSet)
 	pos, err := parseFlags(fs, args)
@@ -65,7 +67,13 @@ func breakdownCmd(e env, args []string) error {
 		if *rep < 0 {
 			return usagef("--replicate must be ≥ 0")
 		}
-		if x, y, err = replicateData(sc, st.Base.Seed, *cell, *rep); err != nil {
+		dataSeed := st.Base.Seed
+		if *runSeed != "" {
+			if dataSeed, err = strconv.ParseUint(*runSeed, 10, 64); err != nil {
+				return usagef("--run-seed %q is not a whole number", *runSeed)
+			}
+		}
+		if x, y, err = replicateData(sc, dataSeed, *cell, *rep); err != nil {
 			return err
 		}
 	}

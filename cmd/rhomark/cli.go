@@ -95,14 +95,10 @@ func report(stderr io.Writer, cmd string, err error) int {
 	if errors.As(err, new(changed)) {
 		return exitFailure
 	}
-	var cancelled interrupted
-	status := exitFailure
+	status := exitFailure // a failure or an interruption
 	var u usageError
-	switch {
-	case errors.As(err, &u), isInputError(err):
+	if errors.As(err, &u) || isInputError(err) {
 		status = exitUsage
-	case errors.As(err, &cancelled):
-		status = exitFailure
 	}
 	for _, line := range strings.Split(strings.TrimRight(err.Error(), "\n"), "\n") {
 		fmt.Fprintf(stderr, "rhomark %s: %s\n", cmd, line)

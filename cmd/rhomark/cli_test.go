@@ -4,6 +4,8 @@ import (
 	"bytes"
 	"encoding/json"
 	"encoding/xml"
+	"errors"
+	"io"
 	"os"
 	"path/filepath"
 	"strings"
@@ -272,8 +274,11 @@ func TestTuneCommand(t *testing.T) {
 		{[]string{"--psi", "bisquare", "--efficiency", "0.95"}, 4.685, 0.0005},
 		// Huber (1964), Ann. Math. Statist. 35:73-101, from memory: eps = 0.1 → k ≈ 1.140.
 		{[]string{"--psi", "huber", "--minimax", "0.1"}, 1.140, 0.001},
-		// Rousseeuw & Yohai (1984): c = 1.547 (truncated) for 50% breakdown.
-		{[]string{"--psi", "bisquare", "--breakdown", "0.5"}, 1.5476, 0.0001},
+		// Rousseeuw & Yohai (1984), "Robust regression by means of
+		// S-estimators", Lecture Notes in Statistics 26: c = 1.547
+		// (truncated) for 50% breakdown, so the constant lies in
+		// [1.547, 1.548).
+		{[]string{"--psi", "bisquare", "--breakdown", "0.5"}, 1.5475, 0.0005},
 	}
 	for _, c := range cases {
 		code, out, errs := rhomark(t, append(append([]string{"tune"}, c.args...), "--json")...)
@@ -298,7 +303,8 @@ func TestTuneCommand(t *testing.T) {
 		}
 	}
 	// Targets out of range are usage errors (exit 2) naming the flag.
-	for _, bad := range [][]string{{"--efficiency", "1.2"}, {"--efficiency", "0"}, {"--breakdown", "0.7"}, {"--sweep", "1:2:100000"}} {
+	for _, bad := range [][]string{{"--efficiency", "1.2"}, {"--efficiency", "0"}, {"--breakdown", "0.7"}, {"--sweep", "1:2:100000"},
+		{"--plot", "p.svg", "--efficiency", "0.9"}, {"--plot", "p.pdf", "--sweep", "1:4"}} {
 		code, _, errs := rhomark(t, append([]string{"tune", "--psi", "bisquare"}, bad...)...)
 		if code != exitUsage || !strings.Contains(errs, bad[0]) {
 			t.Errorf("%v: exit %d, stderr %q", bad, code, errs)
@@ -361,8 +367,16 @@ func TestFitHighBreakdown(t *testing.T) {
 	if code != exitOK || code2 != exitOK || viaStart.Fits[0].Coefficients["X1"] != mm.Fits[0].Coefficients["X1"] {
 		t.Errorf("bisquare from the S-estimate with its scale should equal MM: %v vs %v", viaStart.Fits[0].Coefficients, mm.Fits[0].Coefficients)
 	}
-	if code, _, _ := rhomark(t, "fit", "../../testdata/refdata/hbk.csv", "--y", "Y", "--method", "lts", "--psi", "huber"); code != exitUsage {
-		t.Errorf("--psi with lts: exit %d", code)
+	if mm.Estimator.Scale != "s-estimate" {
+		t.Errorf("MM reported scale %q, want the S-estimate's", mm.Estimator.Scale)
+	}
+	// Every psi option is refused with a method that has no psi, not
+	// silently ignored.
+	for _, opt := range [][]string{{"--psi", "huber"}, {"--const", "c=3"}, {"--kinks", "1"}, {"--rho-expr", "r*r"}} {
+		code, _, errs := rhomark(t, append([]string{"fit", "../../testdata/refdata/hbk.csv", "--y", "Y", "--method", "lts"}, opt...)...)
+		if code != exitUsage || !strings.Contains(errs, opt[0]) {
+			t.Errorf("%s with lts: exit %d %q", opt[0], code, errs)
+		}
 	}
 }
 
@@ -486,12 +500,18 @@ func TestReplayReproducesRun(t *testing.T) {
 	recorded := map[string][]float64{}
 	for {
 		rec, err := rr.Next()
-		if err != nil {
+		if errors.Is(err, io.EOF) {
 			break
+		}
+		if err != nil {
+			t.Fatal(err)
 		}
 		if rec.Cell == 2 && rec.Replicate == 33 {
 			recorded[rr.Header.Cells[2].Estimators[rec.Estimator]] = rec.Coefficients
 		}
+	}
+	if len(recorded) != len(rr.Header.Cells[2].Estimators) {
+		t.Fatalf("recorded fits of %d estimators, the cell has %d", len(recorded), len(rr.Header.Cells[2].Estimators))
 	}
 	csvPath := filepath.Join(dir, "replicate.csv")
 	code, out, errs := rhomark(t, "replay", "bad-leverage", "--cell", "2", "--replicate", "33", "--data-out", csvPath, "--json")
@@ -504,8 +524,14 @@ func TestReplayReproducesRun(t *testing.T) {
 	if err := json.Unmarshal([]byte(out), &got); err != nil {
 		t.Fatal(err)
 	}
+	if len(got.Fits) != len(recorded) {
+		t.Fatalf("replay fitted %d estimators, the run %d", len(got.Fits), len(recorded))
+	}
 	for _, f := range got.Fits {
 		want := recorded[f.Estimator]
+		if len(want) == 0 || len(f.Coefficients) != len(want) {
+			t.Fatalf("%s: replay %v, run %v", f.Estimator, f.Coefficients, want)
+		}
 		for j := range want {
 			if f.Coefficients[j] != want[j] {
 				t.Errorf("%s coefficient %d: replay %v, run %v", f.Estimator, j, f.Coefficients[j], want[j])

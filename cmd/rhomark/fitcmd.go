@@ -156,7 +156,7 @@ func buildFitEstimator(method, start string, pf *psiFlags, scale string, tol flo
 	}
 	desc := fitEstimator{Method: m.String()}
 	if m.Direct() && m != estimators.MethodMM {
-		for _, name := range []string{"psi", "tuning", "psi-expr", "scale", "tol", "max-iter", "start"} {
+		for _, name := range append(psiFlagNames(), "scale", "tol", "max-iter", "start") {
 			if given[name] {
 				return estimators.Estimator{}, desc, usagef("--%s is not used with --method %s", name, method)
 			}
@@ -197,6 +197,9 @@ func buildFitEstimator(method, start string, pf *psiFlags, scale string, tol flo
 		est.Scale = estimators.Scale{Rule: estimators.ScaleStart}
 	}
 	desc.Psi, desc.Tuning, desc.Scale = ch.name, tc, sc.String()
+	if m == estimators.MethodMM {
+		desc.Scale = "s-estimate" // the M-step holds the S-estimate's scale
+	}
 	if ch.name == "custom" {
 		desc.Psi = "custom: " + pf.expr
 	}

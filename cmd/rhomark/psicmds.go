@@ -170,6 +170,14 @@ func tuneCmd(e env, args []string) error {
 	if targets != 1 {
 		return usagef("give exactly one of --efficiency, --minimax, --breakdown or --sweep")
 	}
+	if given["plot"] {
+		if !given["sweep"] {
+			return usagef("--plot draws a sweep; give --sweep FROM:TO[:STEPS] with it")
+		}
+		if ext := strings.ToLower(filepath.Ext(*plot)); ext != ".svg" && ext != ".png" {
+			return usagef("--plot %q: want a .svg or .png file", *plot)
+		}
+	}
 	ch, err := pf.build(given)
 	if err != nil {
 		return err

@@ -37,6 +37,15 @@ func (c *constFlag) Set(s string) error {
 	return nil
 }
 
+// exprFlagNames returns the names of the psi flags that only go with
+// --psi-expr.
+func exprFlagNames() []string { return []string{"rho-expr", "deriv-expr", "const", "kinks"} }
+
+// psiFlagNames returns the names of every flag addPsiFlags defines.
+func psiFlagNames() []string {
+	return append([]string{"psi", "tuning", "psi-expr"}, exprFlagNames()...)
+}
+
 func addPsiFlags(fs *flag.FlagSet, defaultFamily string) *psiFlags {
 	p := &psiFlags{}
 	fs.StringVar(&p.family, "psi", defaultFamily, "psi `family`: "+strings.Join(estimators.FamilyNames(), ", "))
@@ -83,7 +92,7 @@ func (p *psiFlags) build(given map[string]bool) (choice, error) {
 		}
 		return choice{psi: c, family: fam, name: "custom", tuning: fam.Defaults, desc: desc}, nil
 	}
-	for _, f := range []string{"rho-expr", "deriv-expr", "const", "kinks"} {
+	for _, f := range exprFlagNames() {
 		if given[f] {
 			return choice{}, usagef("--%s goes with --psi-expr", f)
 		}

@@ -3,8 +3,10 @@ package main
 import (
 	"bytes"
 	"encoding/csv"
+	"errors"
 	"fmt"
 	"math/rand/v2"
+	"slices"
 	"strconv"
 	"strings"
 
@@ -87,6 +89,13 @@ func replayCmd(e env, args []string) error {
 		return err
 	}
 
+	if *label != "" && !slices.ContainsFunc(sc.Estimators, func(s scenarios.EstimatorSpec) bool { return s.Label == *label }) {
+		var labels []string
+		for _, s := range sc.Estimators {
+			labels = append(labels, s.Label)
+		}
+		return usagef("--estimator %q: no such estimator; labels: %s", *label, strings.Join(labels, ", "))
+	}
 	path := *dataOut
 	if path == "" {
 		path = fmt.Sprintf("%s-c%d-r%d.csv", sc.Name, *cell, *rep)
@@ -95,12 +104,10 @@ func replayCmd(e env, args []string) error {
 		return err
 	}
 	var fits []replayFit
-	found := false
 	for i, spec := range sc.Estimators {
 		if *label != "" && spec.Label != *label {
 			continue
 		}
-		found = true
 		est, err := spec.Build()
 		if err != nil {
 			return err
@@ -115,18 +122,11 @@ func replayCmd(e env, args []string) error {
 		var res estimators.Result
 		// The same stream the run gave this estimator for this replicate.
 		ws.SeedRandom(harness.EstimatorStream(seed, *cell, *rep, i))
-		if err := est.Fit(x, y, &ws, &res); err != nil {
+		if err := est.Fit(x, y, &ws, &res); err != nil && !errors.Is(err, estimators.ErrNonFinite) {
 			return fmt.Errorf("estimator %s: %w", spec.Label, err)
-		}
+		} // an overflowed dataset is a NonFinite outcome, as in the run
 		f.Status, f.Iterations, f.Scale, f.Coefficients = res.Status.String(), res.Iterations, res.Scale, append([]float64(nil), res.Coefficients...)
 		fits = append(fits, f)
-	}
-	if !found {
-		var labels []string
-		for _, s := range sc.Estimators {
-			labels = append(labels, s.Label)
-		}
-		return usagef("--estimator %q: no such estimator; labels: %s", *label, strings.Join(labels, ", "))
 	}
 	if *asJSON {
 		return writeJSON(e, struct {
