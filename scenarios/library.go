@@ -46,20 +46,33 @@ func Library() ([]LibraryEntry, error) {
 // LibraryFile returns the YAML text of the shipped scenario name.
 func LibraryFile(name string) ([]byte, error) {
 	if strings.ContainsAny(name, "/\\") || strings.HasPrefix(name, ".") {
-		return nil, fmt.Errorf("no shipped scenario %q", name)
+		return nil, notShipped{name}
 	}
 	data, err := library.ReadFile("library/" + name + ".yaml")
 	if err != nil {
-		return nil, fmt.Errorf("no shipped scenario %q (see `rhomark scenarios` for the list)", name)
+		return nil, notShipped{name}
 	}
 	return data, nil
 }
 
+// notShipped is the error for a name that is not a shipped scenario; it
+// matches fs.ErrNotExist.
+type notShipped struct{ name string }
+
+func (e notShipped) Error() string {
+	return fmt.Sprintf("no shipped scenario %q (see `rhomark scenarios` for the list)", e.name)
+}
+
+func (e notShipped) Is(target error) bool { return target == fs.ErrNotExist }
+
 // LoadLibrary loads the shipped scenario name.
-func LoadLibrary(name string) (*Study, error) {
+func LoadLibrary(name string) (*Study, error) { return LoadLibraryWith(name, Limits{}) }
+
+// LoadLibraryWith loads the shipped scenario name under limits.
+func LoadLibraryWith(name string, limits Limits) (*Study, error) {
 	data, err := LibraryFile(name)
 	if err != nil {
 		return nil, err
 	}
-	return Parse(name+".yaml", data, Limits{})
+	return Parse(name+".yaml", data, limits)
 }

@@ -122,27 +122,5 @@ func readDesign(path, yName, xList string, intercept bool) (*mat.Dense, []float6
 	if err != nil {
 		return nil, nil, dataError{err}
 	}
-	rows := d.groups[0].rows
-	off := 0
-	if intercept {
-		off = 1
-	}
-	x := mat.NewDense(len(rows), off+len(d.x), nil)
-	y := make([]float64, len(rows))
-	for r, i := range rows {
-		if intercept {
-			x.Set(r, 0, 1)
-		}
-		for k, j := range d.x {
-			v, err := t.Float(i, j)
-			if err != nil {
-				return nil, nil, dataError{err}
-			}
-			x.Set(r, off+k, v)
-		}
-		if y[r], err = t.Float(i, d.y); err != nil {
-			return nil, nil, dataError{err}
-		}
-	}
-	return x, y, nil
+	return d.matrices(t, d.groups[0].rows, intercept)
 }

@@ -96,30 +96,15 @@ func fitCmd(e env, args []string) error {
 	out := fitOutput{Estimator: desc}
 	failed := 0
 	for _, g := range design.groups {
-		x := mat.NewDense(len(g.rows), len(names), nil)
-		y := make([]float64, len(g.rows))
-		for r, i := range g.rows {
-			off := 0
-			if !*noIntercept {
-				x.Set(r, 0, 1)
-				off = 1
-			}
-			for k, j := range design.x {
-				v, err := t.Float(i, j)
-				if err != nil {
-					return dataError{err}
-				}
-				x.Set(r, off+k, v)
-			}
-			if y[r], err = t.Float(i, design.y); err != nil {
-				return dataError{err}
-			}
+		x, y, err := design.matrices(t, g.rows, !*noIntercept)
+		if err != nil {
+			return err
 		}
 		fj := fitJSON{Group: g.name, Rows: len(g.rows), Order: names}
 		var ws estimators.Workspace
 		var res estimators.Result
 		ws.SeedRandom(*seed, 0)
-		err := est.Fit(x, y, &ws, &res)
+		err = est.Fit(x, y, &ws, &res)
 		if err != nil {
 			fj.Status, fj.Error = "not-fitted", err.Error()
 			failed++
@@ -204,6 +189,35 @@ func buildFitEstimator(method, start string, pf *psiFlags, scale string, tol flo
 		desc.Psi = "custom: " + pf.expr
 	}
 	return est, desc, nil
+}
+
+// matrices builds the design matrix (an intercept column first when asked)
+// and the response of the given data rows; a cell that is not a number is
+// an error naming its line and column.
+func (d design) matrices(t *csvdata.Table, rows []int, intercept bool) (*mat.Dense, []float64, error) {
+	off := 0
+	if intercept {
+		off = 1
+	}
+	x := mat.NewDense(len(rows), off+len(d.x), nil)
+	y := make([]float64, len(rows))
+	for r, i := range rows {
+		if intercept {
+			x.Set(r, 0, 1)
+		}
+		for k, j := range d.x {
+			v, err := t.Float(i, j)
+			if err != nil {
+				return nil, nil, dataError{err}
+			}
+			x.Set(r, off+k, v)
+		}
+		var err error
+		if y[r], err = t.Float(i, d.y); err != nil {
+			return nil, nil, dataError{err}
+		}
+	}
+	return x, y, nil
 }
 
 // design is the columns and groups chosen for a fit.

@@ -314,10 +314,9 @@ func loadScenario(arg string, limits scenarios.Limits) (*scenarios.Study, error)
 		return st, nil
 	}
 	if errors.Is(err, fs.ErrNotExist) && !strings.ContainsAny(arg, `/\`) {
-		name := strings.TrimSuffix(arg, ".yaml")
-		if _, lerr := scenarios.LibraryFile(name); lerr == nil {
-			data, _ := scenarios.LibraryFile(name)
-			return scenarios.Parse(name+".yaml", data, limits)
+		st, lerr := scenarios.LoadLibraryWith(strings.TrimSuffix(arg, ".yaml"), limits)
+		if lerr == nil || !errors.Is(lerr, fs.ErrNotExist) {
+			return st, lerr
 		}
 		return nil, usagef("%s: no such file, and no shipped scenario of that name (see 'rhomark scenarios')", arg)
 	}
