@@ -24,11 +24,19 @@ import (
 // follow (moving x and y at the same rate only tilts a fit, which stays
 // bounded). The estimate has broken down when, between a moderate and a
 // very large t, it moved by a factor of at least ten and ended far from the
-// clean estimate. Directions d: vertical (d = 0, the predictors at their
-// centre), leverage (every predictor out together) and random unit
-// directions. For each direction the smallest breaking m is found by
-// bisection, which assumes that more replaced points never break the
-// estimate less.
+// clean estimate. A fit that ends in a failure status under contamination
+// is neither: it is recorded as its own outcome, because an estimator that
+// returns no estimate has shown no resistance. Directions d: vertical
+// (d = 0, the predictors at their centre), leverage (every predictor out
+// together) and random unit directions.
+//
+// Breakdown need not be monotone in m on a finite sample (a resampling
+// estimator can miss at m what it catches at m+1), so each direction is
+// scanned upwards from m = 1, never bisected. The scan stops at the
+// equivariance bound ⌊(n−p)/2⌋+1: no regression equivariant estimator
+// survives that many replacements in every configuration (Rousseeuw &
+// Leroy (1987), Robust Regression and Outlier Detection, Wiley, ch. 3), so
+// no figure above it is ever reported.
 
 // NamedEstimator is an estimator with its label.
 type NamedEstimator struct {
@@ -52,39 +60,168 @@ type ReplacementOptions struct {
 	Seed uint64
 }
 
+// BreakdownOutcome is what m replaced observations did to an estimate, or,
+// for a whole measurement, what ended it.
+type BreakdownOutcome int
+
+const (
+	// BreakdownHeld: the estimate stayed bounded (for a measurement:
+	// nothing broke it and no fit failed up to the equivariance bound).
+	BreakdownHeld BreakdownOutcome = iota + 1
+	// BreakdownBroken: the estimate was carried away (for a measurement:
+	// the first non-held trial broke it).
+	BreakdownBroken
+	// BreakdownFitFailed: the fit under contamination ended in a failure
+	// status, so it showed neither resistance nor breakdown (for a
+	// measurement: a fit failed at or below the smallest breaking m, so
+	// the breakdown point is only bounded).
+	BreakdownFitFailed
+)
+
+// String returns the outcome's name: "held", "broken" or "fit-failed".
+func (o BreakdownOutcome) String() string {
+	switch o {
+	case BreakdownHeld:
+		return "held"
+	case BreakdownBroken:
+		return "broken"
+	case BreakdownFitFailed:
+		return "fit-failed"
+	}
+	return "unknown"
+}
+
+// MarshalText writes the outcome's name.
+func (o BreakdownOutcome) MarshalText() ([]byte, error) { return []byte(o.String()), nil }
+
+// UnmarshalText reads an outcome's name.
+func (o *BreakdownOutcome) UnmarshalText(b []byte) error {
+	for _, v := range []BreakdownOutcome{BreakdownHeld, BreakdownBroken, BreakdownFitFailed} {
+		if string(b) == v.String() {
+			*o = v
+			return nil
+		}
+	}
+	return fmt.Errorf("unknown breakdown outcome %q (want held, broken or fit-failed)", b)
+}
+
+// BreakdownTrial is the outcome of m replacements in one direction.
+type BreakdownTrial struct {
+	M       int              `json:"m"`
+	Outcome BreakdownOutcome `json:"outcome"`
+	// Status is the failing fit's status when Outcome is fit-failed
+	// ("singular-design", ...; "error" when Fit refused the data).
+	Status string `json:"status,omitempty"`
+}
+
 // DirectionBreakdown is the outcome in one direction.
 type DirectionBreakdown struct {
 	// Direction names the direction d: "vertical", "leverage", or
 	// "random-1", "random-2", ... for the random ones.
 	Direction string `json:"direction"`
 	// M is the smallest number of replaced observations that broke the
-	// estimate; 0 if none up to MaxM did.
+	// estimate; 0 if none up to Scanned did.
 	M int `json:"m"`
+	// FailedM is the smallest m at which the fit failed; 0 if none did.
+	FailedM int `json:"failed_m"`
+	// Scanned is the largest m tried; every m from 1 to Scanned was tried.
+	// It is below the bound when another direction had already broken the
+	// estimate at Scanned+1 or less.
+	Scanned int `json:"scanned"`
+	// Trials lists the outcome of every m tried, in order.
+	Trials []BreakdownTrial `json:"trials"`
 }
 
 // ReplacementBreakdown is the finite-sample breakdown of one estimator.
 type ReplacementBreakdown struct {
 	Estimator string `json:"estimator"` // the estimator's label
 	N         int    `json:"n"`         // number of observations in the dataset
-	// MaxM is the largest number of replacements tried, ⌊n/2⌋. For even n,
-	// replacing half the data can break every regression equivariant
-	// estimator; for odd n, ⌊n/2⌋ is just under half, so an estimator that
-	// survives it (the median, say) has the highest breakdown possible.
-	MaxM int `json:"max_m"`
-	// M is the smallest breaking m over all directions (0: none broke it
-	// up to MaxM, so its breakdown point is at least (MaxM+1)/n).
+	P         int    `json:"p"`         // number of coefficients
+	// Bound is the equivariance bound ⌊(n−p)/2⌋+1, the most replacements
+	// tried: at most Bound/n for any regression equivariant estimator
+	// (Rousseeuw & Leroy 1987, ch. 3).
+	Bound int `json:"bound"`
+	// Outcome says what ended the measurement: broken (Fraction = M/n),
+	// held (nothing broke it and no fit failed up to Bound: Fraction =
+	// Bound/n, a lower bound that the equivariance bound makes exact), or
+	// fit-failed (a fit failed at FailedM before anything broke it: the
+	// breakdown point is at least FailedM/n and, when M > 0, at most M/n).
+	Outcome BreakdownOutcome `json:"outcome"`
+	// M is the smallest breaking m over all directions (0: none broke it).
 	M int `json:"m"`
-	// Fraction is M/n, or (MaxM+1)/n when nothing broke it.
-	Fraction float64 `json:"fraction"`
-	// AtLeast is set when nothing broke the estimate: Fraction is a lower
-	// bound.
-	AtLeast bool `json:"at_least"`
 	// Direction names the direction that broke it at M.
 	Direction string `json:"direction"`
+	// FailedM is the smallest m at which a fit failed in any direction (0:
+	// none), FailedDirection where, FailedStatus with which status.
+	FailedM         int    `json:"failed_m"`
+	FailedDirection string `json:"failed_direction,omitempty"`
+	FailedStatus    string `json:"failed_status,omitempty"`
+	// Fraction is the reported breakdown point: M/n when broken, Bound/n
+	// when held, FailedM/n when a fit failed first. It never exceeds
+	// Bound/n.
+	Fraction float64 `json:"fraction"`
+	// AtLeast is set when Fraction is a lower bound (held, fit-failed).
+	AtLeast bool `json:"at_least"`
 	// Directions holds the outcome in every direction.
 	Directions []DirectionBreakdown `json:"directions"`
 	// Method says how the figure was found, in a sentence.
 	Method string `json:"method"`
+}
+
+// equivarianceBound returns ⌊(n−p)/2⌋+1, the number of replaced
+// observations that can break any regression equivariant estimator
+// (Rousseeuw & Leroy (1987), Robust Regression and Outlier Detection,
+// Wiley, ch. 3).
+func equivarianceBound(n, p int) int { return (n-p)/2 + 1 }
+
+// scanDirection tries m = 1, 2, ..., limit in turn and stops at the first m
+// that breaks the estimate. Fit failures are recorded and the scan goes on
+// past them, since a failure shows neither resistance nor breakdown. No
+// monotonicity in m is assumed.
+func scanDirection(limit int, try func(m int) (BreakdownOutcome, string)) DirectionBreakdown {
+	var d DirectionBreakdown
+	for m := 1; m <= limit; m++ {
+		o, status := try(m)
+		d.Scanned = m
+		d.Trials = append(d.Trials, BreakdownTrial{M: m, Outcome: o, Status: status})
+		switch o {
+		case BreakdownFitFailed:
+			if d.FailedM == 0 {
+				d.FailedM = m
+			}
+		case BreakdownBroken:
+			d.M = m
+			return d
+		}
+	}
+	return d
+}
+
+// summariseDirections combines the directions' scans into the
+// measurement's outcome.
+func summariseDirections(rb *ReplacementBreakdown) {
+	for _, d := range rb.Directions {
+		if d.M > 0 && (rb.M == 0 || d.M < rb.M) {
+			rb.M, rb.Direction = d.M, d.Direction
+		}
+		if d.FailedM > 0 && (rb.FailedM == 0 || d.FailedM < rb.FailedM) {
+			rb.FailedM, rb.FailedDirection = d.FailedM, d.Direction
+			for _, t := range d.Trials {
+				if t.M == d.FailedM {
+					rb.FailedStatus = t.Status
+				}
+			}
+		}
+	}
+	n := float64(rb.N)
+	switch {
+	case rb.FailedM > 0 && (rb.M == 0 || rb.FailedM <= rb.M):
+		rb.Outcome, rb.Fraction, rb.AtLeast = BreakdownFitFailed, float64(rb.FailedM)/n, true
+	case rb.M > 0:
+		rb.Outcome, rb.Fraction, rb.AtLeast = BreakdownBroken, float64(rb.M)/n, false
+	default:
+		rb.Outcome, rb.Fraction, rb.AtLeast = BreakdownHeld, float64(rb.Bound)/n, true
+	}
 }
 
 // direction is a direction of the predictors (intercept excluded).
@@ -145,7 +282,7 @@ func MeasureBreakdown(x *mat.Dense, y []float64, intercept bool, ests []NamedEst
 		}
 	}
 	order := rng.Perm(n)
-	maxM := n / 2
+	bound := equivarianceBound(n, p)
 
 	var out []ReplacementBreakdown
 	xm := mat.NewDense(n, p, nil)
@@ -153,19 +290,28 @@ func MeasureBreakdown(x *mat.Dense, y []float64, intercept bool, ests []NamedEst
 	for _, ne := range ests {
 		var ws estimators.Workspace
 		var res estimators.Result
-		fit := func(xx *mat.Dense, yy []float64) ([]float64, bool) {
+		// fit returns the coefficients, or the status that made the fit
+		// unusable ("error" when Fit refused the data).
+		fit := func(xx *mat.Dense, yy []float64) ([]float64, string) {
 			ws.SeedRandom(opt.Seed, 0x5eed)
-			if err := ne.Estimator.Fit(xx, yy, &ws, &res); err != nil || !finite(res.Coefficients) {
-				return nil, false
+			if err := ne.Estimator.Fit(xx, yy, &ws, &res); err != nil {
+				return nil, "error"
 			}
-			return append([]float64(nil), res.Coefficients...), true
+			if !res.Status.Converged() {
+				return nil, res.Status.String()
+			}
+			if !finite(res.Coefficients) {
+				return nil, estimators.NonFinite.String()
+			}
+			return append([]float64(nil), res.Coefficients...), ""
 		}
-		clean, ok := fit(x, y)
-		if !ok {
-			return nil, fmt.Errorf("estimator %s does not fit the clean data", ne.Label)
+		clean, bad := fit(x, y)
+		if bad != "" {
+			return nil, fmt.Errorf("estimator %s does not fit the clean data (%s)", ne.Label, bad)
 		}
-		// broken reports whether m replacements along d break the estimate.
-		broken := func(d direction, m int) bool {
+		far := 1e3 * (1 + floats.Norm(clean, 2))
+		// try reports what m replacements along d do to the estimate.
+		try := func(d direction, m int) (BreakdownOutcome, string) {
 			var dist [2]float64
 			for s, t := range []float64{opt.Near, opt.Far} {
 				xm.Copy(x)
@@ -176,43 +322,30 @@ func MeasureBreakdown(x *mat.Dense, y []float64, intercept bool, ests []NamedEst
 					}
 					ym[i] = cy + t*t*sy
 				}
-				b, ok := fit(xm, ym)
-				if !ok {
-					// A fit that fails far out counts as broken.
-					return s == 1
+				b, bad := fit(xm, ym)
+				if bad != "" {
+					return BreakdownFitFailed, bad
 				}
 				dist[s] = floats.Distance(b, clean, 2)
 			}
-			far := 1e3 * (1 + floats.Norm(clean, 2))
-			return dist[1] >= 10*dist[0] && dist[1] > far
+			if dist[1] >= 10*dist[0] && dist[1] > far {
+				return BreakdownBroken, ""
+			}
+			return BreakdownHeld, ""
 		}
-		rb := ReplacementBreakdown{Estimator: ne.Label, N: n, MaxM: maxM,
-			Method: fmt.Sprintf("m of %d observations moved together to x = centre + t·spread·d, y = centre + t²·spread for t = %g and %g along %d directions d; broken when the estimate moves at least 10 times further and ends beyond 1000 (1 + ‖clean estimate‖); smallest m by bisection", n, opt.Near, opt.Far, len(dirs))}
+		rb := ReplacementBreakdown{Estimator: ne.Label, N: n, P: p, Bound: bound,
+			Method: fmt.Sprintf("m of %d observations moved together to x = centre + t·spread·d, y = centre + t²·spread for t = %g and %g along %d directions d; broken when the estimate moves at least 10 times further and ends beyond 1000 (1 + ‖clean estimate‖); a fit ending in a failure status counts as neither; every m from 1 up to the equivariance bound ⌊(n−p)/2⌋+1 = %d scanned (no monotonicity assumed), stopping at the smallest m broken so far", n, opt.Near, opt.Far, len(dirs), bound)}
+		limit := bound
 		for _, d := range dirs {
-			db := DirectionBreakdown{Direction: d.name}
-			if maxM >= 1 && broken(d, maxM) {
-				lo, hi := 0, maxM // lo not broken (m = 0 never is), hi broken
-				for hi-lo > 1 {
-					mid := (lo + hi) / 2
-					if broken(d, mid) {
-						hi = mid
-					} else {
-						lo = mid
-					}
-				}
-				db.M = hi
-			}
+			db := scanDirection(limit, func(m int) (BreakdownOutcome, string) { return try(d, m) })
+			db.Direction = d.name
 			rb.Directions = append(rb.Directions, db)
-			if db.M > 0 && (rb.M == 0 || db.M < rb.M) {
-				rb.M, rb.Direction = db.M, d.name
+			if db.M > 0 {
+				// A larger m elsewhere cannot lower the smallest.
+				limit = db.M - 1
 			}
 		}
-		if rb.M == 0 {
-			rb.AtLeast = true
-			rb.Fraction = float64(maxM+1) / float64(n)
-		} else {
-			rb.Fraction = float64(rb.M) / float64(n)
-		}
+		summariseDirections(&rb)
 		out = append(out, rb)
 	}
 	return out, nil

@@ -11,25 +11,42 @@ import (
 	"github.com/rhomark/rhomark/estimators"
 )
 
-// TestReplacementBreakdown measures finite-sample replacement breakdown on
-// a clean dataset (n = 40, p = 3). Published values, Rousseeuw & Leroy
-// (1987), Robust Regression and Outlier Detection, Wiley (from memory):
-// least squares breaks with one replaced point (1/n); M-estimators with
-// monotone psi break with one bad leverage point (1/n); the S-estimator
-// with b = sup rho / 2 and LTS with h = ⌊(n+p+1)/2⌋ reach the largest
-// possible value for regression equivariant estimators, (⌊(n−p)/2⌋ + 1)/n
-// = 19/40 here (Donoho & Huber (1983), "The notion of breakdown point");
-// the MM-estimator inherits the S-estimator's.
-func TestReplacementBreakdown(t *testing.T) {
-	rng := rand.New(rand.NewPCG(11, 12))
-	n, p := 40, 3
+// breakdownData draws n rows of an intercept and p−1 standard normal
+// columns, y = 1 + Σx + 0.5·noise.
+func breakdownData(n, p int, seed uint64) (*mat.Dense, []float64) {
+	rng := rand.New(rand.NewPCG(seed, 12))
 	x := mat.NewDense(n, p, nil)
 	y := make([]float64, n)
 	for i := 0; i < n; i++ {
-		a, b := rng.NormFloat64(), rng.NormFloat64()
-		x.SetRow(i, []float64{1, a, b})
-		y[i] = 1 + a - b + 0.5*rng.NormFloat64()
+		x.Set(i, 0, 1)
+		y[i] = 1
+		for j := 1; j < p; j++ {
+			v := rng.NormFloat64()
+			x.Set(i, j, v)
+			y[i] += v
+		}
+		y[i] += 0.5 * rng.NormFloat64()
 	}
+	return x, y
+}
+
+// TestReplacementBreakdown measures finite-sample replacement breakdown on
+// clean datasets of n = 40 rows with p = 3 and p = 6 coefficients. Sources
+// (Rousseeuw & Leroy (1987), Robust Regression and Outlier Detection,
+// Wiley, ch. 3, from memory): least squares breaks with one replaced point
+// (1/n); M-estimators with monotone psi (and LAD) break with one bad
+// leverage point (1/n); no regression equivariant estimator exceeds the
+// bound (⌊(n−p)/2⌋+1)/n; LTS with h = ⌊(n+p+1)/2⌋ attains it; the
+// S-estimator with b = sup rho / 2 has (⌊n/2⌋−p+2)/n for data in general
+// position, below the bound once p ≥ 4; the MM-estimator inherits the
+// S-estimator's (Yohai (1987), "High breakdown-point and high efficiency
+// robust estimates for regression", Ann. Statist. 15:642-656). The
+// measurement is an upper bound on the true breakdown point when it
+// breaks (a configuration that breaks the estimate was found) and a lower
+// bound as far as the configurations tried go, so S and MM must be
+// reported at most at their formula and nothing ever above the
+// equivariance bound.
+func TestReplacementBreakdown(t *testing.T) {
 	ests := []NamedEstimator{
 		{"ls", estimators.Estimator{}},
 		{"huber", estimators.Estimator{Method: estimators.MethodIRLS, Psi: estimators.Huber{K: 1.345}}},
@@ -38,17 +55,126 @@ func TestReplacementBreakdown(t *testing.T) {
 		{"mm", estimators.Estimator{Method: estimators.MethodMM}},
 		{"lts", estimators.Estimator{Method: estimators.MethodLTS}},
 	}
-	got, err := MeasureBreakdown(x, y, true, ests, ReplacementOptions{Seed: 5, Directions: 3})
-	if err != nil {
-		t.Fatal(err)
-	}
-	best := (n-p)/2 + 1
-	want := map[string]int{"ls": 1, "huber": 1, "lad": 1, "s": best, "mm": best, "lts": best}
-	for _, r := range got {
-		if r.M != want[r.Estimator] {
-			t.Errorf("%s: breaks at m = %d (%s), want %d", r.Estimator, r.M, r.Direction, want[r.Estimator])
+	for _, tc := range []struct {
+		p      int
+		at     map[string]int // exactly this m
+		atMost map[string]int // broken at this m or fewer
+	}{
+		// p = 3: (⌊n/2⌋−p+2) = 19 = ⌊(n−p)/2⌋+1, so S and MM reach the bound.
+		{p: 3, at: map[string]int{"ls": 1, "huber": 1, "lad": 1, "s": 19, "mm": 19, "lts": 19}},
+		// p = 6: S and MM break at (⌊n/2⌋−p+2) = 16 at most; LTS at the
+		// bound ⌊(n−p)/2⌋+1 = 18.
+		{p: 6, at: map[string]int{"ls": 1, "huber": 1, "lad": 1, "lts": 18}, atMost: map[string]int{"s": 16, "mm": 16}},
+	} {
+		n := 40
+		x, y := breakdownData(n, tc.p, 11)
+		got, err := MeasureBreakdown(x, y, true, ests, ReplacementOptions{Seed: 5, Directions: 3})
+		if err != nil {
+			t.Fatal(err)
 		}
-		t.Logf("%-5s m = %2d, fraction %.3f, direction %s", r.Estimator, r.M, r.Fraction, r.Direction)
+		bound := (n-tc.p)/2 + 1
+		for _, r := range got {
+			t.Logf("p = %d %-5s %-10s m = %2d, fraction %.3f, direction %s, first failure m = %d (%s)", tc.p, r.Estimator, r.Outcome, r.M, r.Fraction, r.Direction, r.FailedM, r.FailedStatus)
+			if r.Bound != bound || r.Fraction > float64(bound)/float64(n) {
+				t.Errorf("p = %d %s: fraction %v above the equivariance bound %d/%d", tc.p, r.Estimator, r.Fraction, bound, n)
+			}
+			if r.Outcome != BreakdownBroken {
+				t.Errorf("p = %d %s: outcome %s (failed at m = %d, %s), want broken", tc.p, r.Estimator, r.Outcome, r.FailedM, r.FailedStatus)
+				continue
+			}
+			if want, ok := tc.at[r.Estimator]; ok && r.M != want {
+				t.Errorf("p = %d %s: breaks at m = %d (%s), want %d", tc.p, r.Estimator, r.M, r.Direction, want)
+			}
+			if most, ok := tc.atMost[r.Estimator]; ok && r.M > most {
+				t.Errorf("p = %d %s: breaks at m = %d (%s), want at most %d", tc.p, r.Estimator, r.M, r.Direction, most)
+			}
+			if r.Fraction != float64(r.M)/float64(n) || r.AtLeast {
+				t.Errorf("p = %d %s: fraction %v (at least %v) for m = %d", tc.p, r.Estimator, r.Fraction, r.AtLeast, r.M)
+			}
+		}
+	}
+}
+
+// TestScanDirection drives the search with made-up outcomes: breakdown
+// that is not monotone in m, fit failures, and nothing at all.
+func TestScanDirection(t *testing.T) {
+	const n, limit = 40, 18
+	for _, tc := range []struct {
+		name     string
+		outcome  func(m int) BreakdownOutcome
+		m, fail  int
+		want     BreakdownOutcome
+		fraction float64
+		atLeast  bool
+	}{
+		// Broken at 7 only, and again from 12 on: bisection between 0 and
+		// the broken limit would report 12 (it probes 9, 10, 11 as held);
+		// the scan must find 7.
+		{"non-monotone", func(m int) BreakdownOutcome {
+			if m == 7 || m >= 12 {
+				return BreakdownBroken
+			}
+			return BreakdownHeld
+		}, 7, 0, BreakdownBroken, 7.0 / n, false},
+		// Fits fail from 5 and break from 9: the breakdown point lies
+		// between 5/n and 9/n, so only the lower bound is reported.
+		{"failure first", func(m int) BreakdownOutcome {
+			switch {
+			case m >= 9:
+				return BreakdownBroken
+			case m >= 5:
+				return BreakdownFitFailed
+			}
+			return BreakdownHeld
+		}, 9, 5, BreakdownFitFailed, 5.0 / n, true},
+		// Failures from 10 on and nothing broken: a failure is not
+		// resistance, so the estimator must not be reported as held.
+		{"only failures", func(m int) BreakdownOutcome {
+			if m >= 10 {
+				return BreakdownFitFailed
+			}
+			return BreakdownHeld
+		}, 0, 10, BreakdownFitFailed, 10.0 / n, true},
+		// A failure after the breaking m changes nothing.
+		{"failure after", func(m int) BreakdownOutcome {
+			if m == 3 {
+				return BreakdownBroken
+			}
+			return BreakdownFitFailed
+		}, 3, 1, BreakdownFitFailed, 1.0 / n, true},
+		{"held", func(int) BreakdownOutcome { return BreakdownHeld }, 0, 0, BreakdownHeld, float64(limit) / n, true},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			var tried []int
+			d := scanDirection(limit, func(m int) (BreakdownOutcome, string) {
+				tried = append(tried, m)
+				o := tc.outcome(m)
+				if o == BreakdownFitFailed {
+					return o, "singular-design"
+				}
+				return o, ""
+			})
+			if d.M != tc.m || d.FailedM != tc.fail {
+				t.Errorf("m = %d, failed m = %d; want %d and %d", d.M, d.FailedM, tc.m, tc.fail)
+			}
+			for i, m := range tried {
+				if m != i+1 || m > limit {
+					t.Fatalf("tried %v, want 1, 2, ... up to %d", tried, limit)
+				}
+			}
+			d.Direction = "test"
+			rb := ReplacementBreakdown{N: n, Bound: limit, Directions: []DirectionBreakdown{d}}
+			summariseDirections(&rb)
+			if rb.Outcome != tc.want || rb.Fraction != tc.fraction || rb.AtLeast != tc.atLeast {
+				t.Errorf("outcome %s, fraction %v, at least %v; want %s, %v, %v", rb.Outcome, rb.Fraction, rb.AtLeast, tc.want, tc.fraction, tc.atLeast)
+			}
+			if tc.fail > 0 && rb.FailedStatus != "singular-design" {
+				t.Errorf("failed status %q", rb.FailedStatus)
+			}
+			if rb.Fraction > float64(limit)/n {
+				t.Errorf("fraction %v above the bound", rb.Fraction)
+			}
+		})
 	}
 }
 

@@ -90,20 +90,28 @@ func breakdownCmd(e env, args []string) error {
 	n, _ := x.Dims()
 	fmt.Fprintf(e.stdout, "replacement breakdown · %s · n = %d\n", source, n)
 	for _, r := range out {
-		frac := fmt.Sprintf("%d/%d = %.3f", r.M, r.N, r.Fraction)
-		if r.AtLeast {
-			frac = fmt.Sprintf("at least %d/%d = %.3f (nothing broke it)", r.MaxM+1, r.N, r.Fraction)
-		}
-		fmt.Fprintf(e.stdout, "  %-16s %s", r.Estimator, frac)
-		if !r.AtLeast {
-			fmt.Fprintf(e.stdout, " · first broken %s", r.Direction)
-		}
-		fmt.Fprintln(e.stdout)
+		fmt.Fprintf(e.stdout, "  %-16s %s\n", r.Estimator, describeBreakdown(r))
 	}
 	if len(out) > 0 {
 		fmt.Fprintf(e.stdout, "method: %s\n", out[0].Method)
 	}
 	return nil
+}
+
+// describeBreakdown says in words what the measurement found.
+func describeBreakdown(r harness.ReplacementBreakdown) string {
+	switch r.Outcome {
+	case harness.BreakdownBroken:
+		return fmt.Sprintf("%d/%d = %.3f · first broken %s", r.M, r.N, r.Fraction, r.Direction)
+	case harness.BreakdownFitFailed:
+		s := fmt.Sprintf("undetermined: the fit failed (%s) at m = %d, direction %s, before anything broke it; at least %d/%d = %.3f",
+			r.FailedStatus, r.FailedM, r.FailedDirection, r.FailedM, r.N, r.Fraction)
+		if r.M > 0 {
+			s += fmt.Sprintf(", at most %d/%d = %.3f (broken %s)", r.M, r.N, float64(r.M)/float64(r.N), r.Direction)
+		}
+		return s
+	}
+	return fmt.Sprintf("at least %d/%d = %.3f (nothing broke it up to the equivariance bound ⌊(n−p)/2⌋+1 = %d)", r.Bound, r.N, r.Fraction, r.Bound)
 }
 
 // readDesign reads a CSV into a design matrix (intercept first when asked)

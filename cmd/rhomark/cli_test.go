@@ -399,6 +399,9 @@ estimators:
 			Estimator string
 			M         int
 			N         int
+			Outcome   string
+			Bound     int
+			Fraction  float64
 		}
 	}
 	if err := json.Unmarshal([]byte(out), &got); err != nil || len(got.Breakdown) != 2 {
@@ -406,8 +409,14 @@ estimators:
 	}
 	// Rousseeuw & Leroy (1987), from memory: least squares 1/n; the S-
 	// estimator (⌊(n−p)/2⌋+1)/n = 15/30 here.
+	// Neither may be reported above the equivariance bound 15/30.
 	if got.Breakdown[0].M != 1 || got.Breakdown[1].M != 15 {
 		t.Errorf("breakdown m: %+v", got.Breakdown)
+	}
+	for _, r := range got.Breakdown {
+		if r.Outcome != "broken" || r.Bound != 15 || r.Fraction > 0.5 {
+			t.Errorf("%s: outcome %q, bound %d, fraction %v", r.Estimator, r.Outcome, r.Bound, r.Fraction)
+		}
 	}
 	if code, out, _ := rhomark(t, "breakdown", scen, "--data", "../../testdata/refdata/stars_cyg.csv", "--y", "log.light"); code != exitOK || !strings.Contains(out, "stars_cyg.csv") {
 		t.Errorf("--data: exit %d\n%s", code, out)
