@@ -4,8 +4,10 @@ import (
 	"bytes"
 	"context"
 	"encoding/json"
+	"fmt"
 	"math"
 	"runtime"
+	"slices"
 	"testing"
 
 	"github.com/rhomark/rhomark/estimators"
@@ -192,24 +194,73 @@ func TestHistMedian(t *testing.T) {
 	}
 }
 
-// TestIterationHistogramCapped: a fit with a huge iteration count lands in
-// the last bin, while the mean and the maximum stay exact.
-func TestIterationHistogramCapped(t *testing.T) {
+// TestIterationHistogramExact: fits with more iterations than the old
+// 10,000-bin histogram held keep their exact counts, so the median of a
+// run where every fit took 100,000 iterations is 100,000, also after a
+// merge and a round trip through a partial's encoding; only counts beyond
+// the largest iteration cap a scenario accepts share the last bin.
+func TestIterationHistogramExact(t *testing.T) {
+	cases := []struct {
+		iters  []int
+		median float64
+	}{
+		{[]int{100000, 100000, 100000}, 100000},
+		{[]int{3, 3, 25000}, 3},
+		{[]int{12000, 25000, 40000, 70000}, 32500},
+	}
+	for _, tc := range cases {
+		e := newEstTally(1, 0)
+		for _, k := range tc.iters {
+			e.record(&estimators.Result{Iterations: k, Status: estimators.IterationLimit})
+		}
+		c := convergence(&e)
+		if float64(c.MedianIterations) != tc.median {
+			t.Errorf("%v: median %v, want %v", tc.iters, c.MedianIterations, tc.median)
+		}
+		last := slices.Max(tc.iters)
+		if c.MaxIterations != int64(last) || len(c.IterationHistogram) != last+1 {
+			t.Errorf("%v: max %d, histogram of %d bins", tc.iters, c.MaxIterations, len(c.IterationHistogram))
+		}
+		// Merge into a fresh tally, then through a partial's encoding.
+		ct := newCellTally(1, 1, 0)
+		ct.ests[0].merge(&e)
+		back := newCellTally(1, 1, 0)
+		if err := back.decode(ct.encode()); err != nil {
+			t.Fatalf("%v: %v", tc.iters, err)
+		}
+		if m := histMedian(back.ests[0].iterHist, back.ests[0].fits); m != tc.median {
+			t.Errorf("%v: median %v after merge and decode", tc.iters, m)
+		}
+	}
+	// Beyond the cap, the last bin; the mean and the maximum stay exact.
 	e := newEstTally(1, 0)
-	for _, k := range []int{3, 3, 25000} {
+	for _, k := range []int{3, 3, iterHistCap + 5} {
 		e.record(&estimators.Result{Iterations: k, Status: estimators.IterationLimit})
 	}
 	if len(e.iterHist) != iterHistCap+1 || e.iterHist[iterHistCap] != 1 || e.iterHist[3] != 2 {
 		t.Fatalf("histogram of %d bins, last %d", len(e.iterHist), e.iterHist[len(e.iterHist)-1])
 	}
 	c := convergence(&e)
-	if c.MaxIterations != 25000 || float64(c.MeanIterations.Value) != (3+3+25000)/3.0 {
+	if c.MaxIterations != iterHistCap+5 || float64(c.MeanIterations.Value) != (3+3+iterHistCap+5)/3.0 {
 		t.Errorf("max %d, mean %v", c.MaxIterations, c.MeanIterations.Value)
 	}
-	u := newEstTally(1, 0)
-	u.merge(&e)
-	if u.iterMax != 25000 {
-		t.Errorf("merged max %d", u.iterMax)
+}
+
+// TestIterationCapWithinHistogram: the largest stop.max-iter a scenario
+// accepts must fit the histogram, or the median of an iterative fit could
+// land in the shared last bin.
+func TestIterationCapWithinHistogram(t *testing.T) {
+	const scen = `
+model: {n: 20, intercept: 1, columns: [{name: x, slope: 1}]}
+noise: {dist: normal}
+estimators:
+  - {label: h, method: irls, psi: huber, stop: {max-iter: %d}}
+`
+	if _, err := scenarios.Parse("cap.yaml", []byte(fmt.Sprintf(scen, iterHistCap)), scenarios.Limits{}); err != nil {
+		t.Errorf("max-iter %d refused: %v", iterHistCap, err)
+	}
+	if _, err := scenarios.Parse("cap.yaml", []byte(fmt.Sprintf(scen, iterHistCap+1)), scenarios.Limits{}); err == nil {
+		t.Errorf("max-iter %d accepted, beyond the histogram", iterHistCap+1)
 	}
 }
 

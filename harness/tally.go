@@ -82,9 +82,13 @@ func (t *coefTally) merge(u *coefTally) {
 }
 
 // iterHistCap bounds the iteration histogram: fits that took iterHistCap
-// or more iterations share its last bin, so a study with a huge iteration
-// cap does not carry a huge histogram.
-const iterHistCap = 10000
+// or more iterations share its last bin. It is the largest iteration cap
+// a scenario accepts (stop.max-iter ≤ 1,000,000), so an iterative fit
+// never reaches the shared bin and the median is exact. The histogram
+// grows only to the most iterations any fit took, so its size follows the
+// work actually done (a bin per iteration of the longest fit), not the
+// cap.
+const iterHistCap = 1_000_000
 
 // estTally accumulates the fits of one estimator in one cell.
 type estTally struct {

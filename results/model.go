@@ -167,8 +167,9 @@ type Convergence struct {
 	MeanIterations   Measure `json:"mean_iterations"`
 	MedianIterations Num     `json:"median_iterations"` // median iterations of all fits; null when there are none
 	// IterationHistogram counts the fits by iterations taken: entry k is the
-	// number of fits that took k iterations, except that entry 10000 (the
-	// last possible) counts every fit that took 10000 or more.
+	// number of fits that took k iterations, except that entry 1,000,000
+	// (the last possible, the largest iteration cap a scenario accepts)
+	// counts every fit that took that many or more.
 	IterationHistogram []int64 `json:"iteration_histogram,omitempty"`
 	MaxIterations      int64   `json:"max_iterations"` // most iterations of any fit; 0 when there are none
 	// Halvings, Fallbacks and QRSolves total the safeguards fired: Newton
