@@ -64,6 +64,10 @@ func summarise(st *scenarios.Study, plans []cellPlan, tallies []*cellTally, seed
 					c.TheoryGap = results.Num(math.NaN())
 				}
 				est.Coefficients = append(est.Coefficients, c)
+				if k >= p.firstSlope && c.HeavyTails {
+					// The slope-bias MCSE rests on the slopes' covariance.
+					est.SlopeBias.MCSE = results.Num(math.NaN())
+				}
 			}
 			cell.Estimators = append(cell.Estimators, est)
 		}
@@ -243,6 +247,7 @@ func coefficient(name string, truth float64, t *coefTally) results.Coefficient {
 			N:     t.n,
 			Mean:  t.s1.Float64() / float64(t.n),
 			SS:    centred(&t.s1, &t.s2, t.n),
+			SS4:   fourthAbout(&t.s1, &t.s2, &t.s3, &t.s4, t.n),
 			MSE:   t.s2.Float64() / float64(t.n),
 			SSMSE: fourthCentred(&t.s2, &t.s4, t.n),
 		}
@@ -250,6 +255,13 @@ func coefficient(name string, truth float64, t *coefTally) results.Coefficient {
 		c.Mean = results.Measure{Value: c.Bias.Value + results.Num(truth), MCSE: c.Bias.MCSE}
 		c.EmpSE = m.EmpSE()
 		c.MSE = m.MeanSquaredError()
+		c.TailRatio = results.Num(results.TailRatio(m.SS, m.SS4))
+		if m.HeavyTailed() {
+			// The spread rests on a few replicates: no MCSE built on a
+			// second moment means anything.
+			c.HeavyTails = true
+			c.Bias.MCSE, c.Mean.MCSE, c.EmpSE.MCSE, c.MSE.MCSE = nan.MCSE, nan.MCSE, nan.MCSE, nan.MCSE
+		}
 	}
 	c.Intervals = t.nInt
 	c.Coverage, c.Width = nan, nan
@@ -261,12 +273,19 @@ func coefficient(name string, truth float64, t *coefTally) results.Coefficient {
 	}
 	if t.np > 1 {
 		pr := results.Paired{
-			N:   t.np,
-			SSA: centred(&t.pa1, &t.pa2, t.np),
-			SSB: centred(&t.pb1, &t.pb2, t.np),
-			SAB: crossCentred(&t.pa1, &t.pb1, &t.pab, t.np),
+			N:     t.np,
+			SSA:   centred(&t.pa1, &t.pa2, t.np),
+			SSB:   centred(&t.pb1, &t.pb2, t.np),
+			SAB:   crossCentred(&t.pa1, &t.pb1, &t.pab, t.np),
+			SSA4:  fourthAbout(&t.pa1, &t.pa2, &t.pa3, &t.pa4, t.np),
+			SSB4:  fourthAbout(&t.pb1, &t.pb2, &t.pb3, &t.pb4, t.np),
+			SAB22: crossFourthAbout(&t.pa1, &t.pb1, &t.pa2, &t.pb2, &t.pab, &t.pa2b, &t.pab2, &t.pa2b2, t.np),
 		}
 		c.RelEff = pr.RelativeEfficiency()
+		if pr.HeavyTailed() {
+			c.RelEffHeavyTails = true
+			c.RelEff.MCSE = nan.MCSE
+		}
 	}
 	return c
 }

@@ -13,12 +13,16 @@ import (
 type coefTally struct {
 	n      int64
 	s1, s2 exactsum.Sum // Σe, Σe² over converged fits
-	s4     exactsum.Sum // Σe⁴ (for the MCSE of the MSE)
+	s3, s4 exactsum.Sum // Σe³, Σe⁴ (for the MCSEs of the MSE and the SE)
 	// Over replicates where this estimator and the reference converged:
 	// a = this estimator's error, b = the reference's.
 	np                 int64
 	pa1, pb1, pa2, pb2 exactsum.Sum
 	pab                exactsum.Sum
+	// Third and fourth moments of the pairs, for the MCSE of the relative
+	// efficiency: Σa³, Σa⁴, Σb³, Σb⁴, Σa²b, Σab², Σa²b².
+	pa3, pa4, pb3, pb4 exactsum.Sum
+	pa2b, pab2, pa2b2  exactsum.Sum
 	// 95% intervals: how many, how many covered the truth, Σwidth, Σwidth².
 	nInt, covered int64
 	w1, w2        exactsum.Sum
@@ -40,7 +44,10 @@ func (t *coefTally) add(e float64) {
 	t.n++
 	t.s1.Add(e)
 	t.s2.AddProduct(e, e)
+	// e² is rounded once; the sums of e²·e and e²·e² are then exact, so
+	// they are the same for any order of replicates.
 	e2 := e * e
+	t.s3.AddProduct(e2, e)
 	t.s4.AddProduct(e2, e2)
 }
 
@@ -53,12 +60,24 @@ func (t *coefTally) addPair(a, b float64) {
 	t.pa2.AddProduct(a, a)
 	t.pb2.AddProduct(b, b)
 	t.pab.AddProduct(a, b)
+	a2, b2 := a*a, b*b
+	t.pa3.AddProduct(a2, a)
+	t.pa4.AddProduct(a2, a2)
+	t.pb3.AddProduct(b2, b)
+	t.pb4.AddProduct(b2, b2)
+	t.pa2b.AddProduct(a2, b)
+	t.pab2.AddProduct(a, b2)
+	t.pa2b2.AddProduct(a2, b2)
 }
 
 // sums lists a coefTally's exact sums, in their serialised order (an array,
-// so that listing them allocates nothing).
-func (t *coefTally) sums() [10]*exactsum.Sum {
-	return [10]*exactsum.Sum{&t.s1, &t.s2, &t.s4, &t.pa1, &t.pb1, &t.pa2, &t.pb2, &t.pab, &t.w1, &t.w2}
+// so that listing them allocates nothing). The first ten are those of
+// partials written before the third and fourth moments were kept; a
+// partial with ten sums per coefficient is refused when read (its
+// moments cannot be recovered).
+func (t *coefTally) sums() [18]*exactsum.Sum {
+	return [18]*exactsum.Sum{&t.s1, &t.s2, &t.s4, &t.pa1, &t.pb1, &t.pa2, &t.pb2, &t.pab, &t.w1, &t.w2,
+		&t.s3, &t.pa3, &t.pa4, &t.pb3, &t.pb4, &t.pa2b, &t.pab2, &t.pa2b2}
 }
 
 // reset empties the tally, keeping the sums' storage.
@@ -235,6 +254,82 @@ func crossCentred(a1, b1, ab *exactsum.Sum, n int64) float64 {
 	r := new(big.Float).SetPrec(prec).Sub(c, p)
 	f, _ := r.Float64()
 	return f
+}
+
+// bigSums converts exact sums to big floats; ok is false if any is not
+// finite.
+func bigSums(sums ...*exactsum.Sum) ([]*big.Float, bool) {
+	out := make([]*big.Float, len(sums))
+	for i, s := range sums {
+		v, ok := s.Big()
+		if !ok {
+			return nil, false
+		}
+		out[i] = new(big.Float).SetPrec(prec).Set(v)
+	}
+	return out, true
+}
+
+// polyAt returns Σ c_k·x_k for big floats, rounded once to float64.
+func polyAt(terms ...[2]*big.Float) float64 {
+	acc := new(big.Float).SetPrec(prec)
+	t := new(big.Float).SetPrec(prec)
+	for _, c := range terms {
+		acc.Add(acc, t.Mul(c[0], c[1]))
+	}
+	f, _ := acc.Float64()
+	return f
+}
+
+// bf returns x as a big float of the working precision.
+func bf(x float64) *big.Float { return new(big.Float).SetPrec(prec).SetFloat64(x) }
+
+// bmul returns the product of its arguments in big floats.
+func bmul(xs ...*big.Float) *big.Float {
+	p := new(big.Float).SetPrec(prec).SetInt64(1)
+	for _, x := range xs {
+		p.Mul(p, x)
+	}
+	return p
+}
+
+// fourthAbout returns Σ(e−μ)⁴ = S4 − 4μS3 + 6μ²S2 − 3nμ⁴ with μ = S1/n,
+// from exact sums.
+func fourthAbout(s1, s2, s3, s4 *exactsum.Sum, n int64) float64 {
+	v, ok := bigSums(s1, s2, s3, s4)
+	if !ok || n == 0 {
+		return math.NaN()
+	}
+	nb := new(big.Float).SetPrec(prec).SetInt64(n)
+	mu := new(big.Float).SetPrec(prec).Quo(v[0], nb)
+	mu2 := bmul(mu, mu)
+	return polyAt(
+		[2]*big.Float{bf(1), v[3]},
+		[2]*big.Float{bf(-4), bmul(mu, v[2])},
+		[2]*big.Float{bf(6), bmul(mu2, v[1])},
+		[2]*big.Float{bf(-3), bmul(nb, mu2, mu2)},
+	)
+}
+
+// crossFourthAbout returns Σ(a−α)²(b−β)² with α = Σa/n, β = Σb/n:
+// Σa²b² − 2βΣa²b − 2αΣab² + β²Σa² + α²Σb² + 4αβΣab − 3nα²β².
+func crossFourthAbout(a1, b1, a2, b2, ab, a2b, ab2, a2b2 *exactsum.Sum, n int64) float64 {
+	v, ok := bigSums(a1, b1, a2, b2, ab, a2b, ab2, a2b2)
+	if !ok || n == 0 {
+		return math.NaN()
+	}
+	nb := new(big.Float).SetPrec(prec).SetInt64(n)
+	al := new(big.Float).SetPrec(prec).Quo(v[0], nb)
+	be := new(big.Float).SetPrec(prec).Quo(v[1], nb)
+	return polyAt(
+		[2]*big.Float{bf(1), v[7]},
+		[2]*big.Float{bf(-2), bmul(be, v[5])},
+		[2]*big.Float{bf(-2), bmul(al, v[6])},
+		[2]*big.Float{bf(1), bmul(be, be, v[2])},
+		[2]*big.Float{bf(1), bmul(al, al, v[3])},
+		[2]*big.Float{bf(4), bmul(al, be, v[4])},
+		[2]*big.Float{bf(-3), bmul(nb, al, al, be, be)},
+	)
 }
 
 // fourthCentred returns Σ(e² − m)² = Σe⁴ − 2mΣe² + n m² with m = Σe²/n.

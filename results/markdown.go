@@ -69,6 +69,9 @@ func WriteMarkdownSummary(w io.Writer, r *Results) error {
 			head += fmt.Sprintf(" — %d of %d replicates", c.Replicates, r.Replicates)
 		}
 		b.WriteString(head + "\n\n")
+		if note := heavyTailNote(r, c); note != "" {
+			b.WriteString(mdText(note) + "\n\n")
+		}
 		entries := bestInCell(r, c)
 		if len(entries) == 0 {
 			b.WriteString("- nothing to compare\n")

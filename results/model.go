@@ -144,6 +144,19 @@ type Coefficient struct {
 	// value, and Width their mean width, each with its MCSE.
 	Coverage Measure `json:"coverage"`
 	Width    Measure `json:"width"` // mean width of the 95% intervals, with its MCSE
+	// TailRatio is Σ(e−ē)⁴/(Σ(e−ē)²)², the sample kurtosis over Used: how
+	// far the sum of squares rests on a few replicates (1/TailRatio
+	// replicates carry it, in effect); see TailRatio.
+	TailRatio Num `json:"tail_ratio"`
+	// HeavyTails is set when TailRatio exceeds 2/√Used: the estimates
+	// behave as if they had no finite variance, so the empirical SE and
+	// the MSE, and the MCSEs of the mean, bias, SE and MSE (null then), are
+	// not meaningful.
+	HeavyTails bool `json:"heavy_tails"`
+	// RelEffHeavyTails is the same check on the paired errors of this
+	// estimator or of the reference: the relative efficiency and its MCSE
+	// (null then) are not meaningful.
+	RelEffHeavyTails bool `json:"rel_eff_heavy_tails"`
 	// TheoryGap is (RelEff − TheoryEfficiency) / MCSE of RelEff: how far,
 	// in Monte Carlo standard errors, the simulation lies from the
 	// asymptotic theory; null where there is no theory.

@@ -337,6 +337,11 @@ func bestInCell(r *Results, c Cell) []bestEntry {
 					if k.Name != name {
 						continue
 					}
+					// A measure that rests on a variance the estimates do
+					// not appear to have is left out (see heavyTailNote).
+					if (measure != bestEff && k.HeavyTails) || (measure == bestEff && k.RelEffHeavyTails) {
+						continue
+					}
 					switch measure {
 					case bestBias:
 						cands = append(cands, candidate{label: e.Label, m: k.Bias, score: math.Abs(float64(k.Bias.Value)), mcse: float64(k.Bias.MCSE)})
@@ -362,6 +367,42 @@ func bestInCell(r *Results, c Cell) []bestEntry {
 	}
 	add(pickBest(bestFailure, "", cands))
 	return out
+}
+
+// heavyTailNote says which measures of cell c are not meaningful because
+// the estimates behind them are heavy-tailed (Coefficient.HeavyTails,
+// RelEffHeavyTails), or returns "" if none are.
+func heavyTailNote(r *Results, c Cell) string {
+	var se, eff []string
+	for _, e := range c.Estimators {
+		var a, b []string
+		for _, k := range e.Coefficients {
+			if k.HeavyTails {
+				a = append(a, k.Name)
+			}
+			if k.RelEffHeavyTails && !k.HeavyTails && e.Label != r.Reference {
+				b = append(b, k.Name)
+			}
+		}
+		if len(a) > 0 {
+			se = append(se, e.Label+" ("+strings.Join(a, ", ")+")")
+		}
+		if len(b) > 0 {
+			eff = append(eff, e.Label+" ("+strings.Join(b, ", ")+")")
+		}
+	}
+	if len(se) == 0 && len(eff) == 0 {
+		return ""
+	}
+	var parts []string
+	if len(se) > 0 {
+		parts = append(parts, "the emp. SE, the efficiency and every MCSE resting on a variance of "+strings.Join(se, ", "))
+	}
+	if len(eff) > 0 {
+		parts = append(parts, "the efficiency against a heavy-tailed reference of "+strings.Join(eff, ", "))
+	}
+	return "Heavy tails: a few replicates carry most of the spread, as when the estimates have no finite variance, so " +
+		strings.Join(parts, "; and ") + " are not meaningful and are left out of this comparison."
 }
 
 // measureTitle is the measure's name with the reference for efficiency.
@@ -413,6 +454,9 @@ func writeBestSection(b *strings.Builder, r *Results) {
 		}
 		if c.Replicates != int64(r.Replicates) {
 			fmt.Fprintf(b, "<p class=\"flag\">%d of %d replicates finished.</p>\n", c.Replicates, r.Replicates)
+		}
+		if note := heavyTailNote(r, c); note != "" {
+			fmt.Fprintf(b, "<p class=\"flag\">%s</p>\n", esc(note))
 		}
 		entries := bestInCell(r, c)
 		if len(entries) == 0 {

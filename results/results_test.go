@@ -9,6 +9,8 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"gonum.org/v1/gonum/stat/distuv"
 )
 
 func TestFormatMeasure(t *testing.T) {
@@ -104,7 +106,11 @@ func TestMomentsFormulas(t *testing.T) {
 		ss += (v - mean) * (v - mean)
 		ssmse += (v*v - mse) * (v*v - mse)
 	}
-	m := Moments{N: int64(n), Mean: mean, SS: ss, MSE: mse, SSMSE: ssmse}
+	var ss4 float64
+	for _, v := range e {
+		ss4 += math.Pow(v-mean, 4)
+	}
+	m := Moments{N: int64(n), Mean: mean, SS: ss, SS4: ss4, MSE: mse, SSMSE: ssmse}
 	nf := float64(n)
 	if got, want := float64(m.Bias().MCSE), math.Sqrt(ss/(nf-1))/math.Sqrt(nf); math.Abs(got-want) > 1e-12 {
 		t.Errorf("bias MCSE %v, want EmpSE/√N = %v", got, want)
@@ -113,24 +119,95 @@ func TestMomentsFormulas(t *testing.T) {
 	if got := float64(m.EmpSE().Value); math.Abs(got-emp) > 1e-12 {
 		t.Errorf("EmpSE %v, want %v", got, emp)
 	}
+	// The delta-method MCSE of the SE, √Var(s²)/(2s) with Var(s²) =
+	// (m₄ − (N−3)/(N−1) s⁴)/N, computed here from the sample directly.
+	s2 := ss / (nf - 1)
+	if got, want := float64(m.EmpSE().MCSE), math.Sqrt((ss4/nf-(nf-3)/(nf-1)*s2*s2)/nf)/(2*emp); math.Abs(got-want) > 1e-12*want {
+		t.Errorf("EmpSE MCSE %v, want %v", got, want)
+	}
+	// With the normal's fourth moment m₄ = 3s⁴ it is the normal-theory
+	// s/√(2(N−1)) of Morris, White & Crowther (2019), Table 6.
+	normal := m
+	normal.SS4 = 3 * s2 * s2 * nf
+	if got, want := float64(normal.EmpSE().MCSE), emp/math.Sqrt(2*(nf-1)); math.Abs(got-want) > 1e-12*want {
+		t.Errorf("EmpSE MCSE at m₄ = 3s⁴: %v, want %v", got, want)
+	}
 	// Relative efficiency of e against ref.
 	var refMean float64
 	for _, v := range ref {
 		refMean += v
 	}
 	refMean /= nf
-	var ssb, sab float64
+	var ssb, sab, ssb4, sab22 float64
 	for i := range e {
-		ssb += (ref[i] - refMean) * (ref[i] - refMean)
-		sab += (e[i] - mean) * (ref[i] - refMean)
+		da, db := e[i]-mean, ref[i]-refMean
+		ssb += db * db
+		sab += da * db
+		ssb4 += db * db * db * db
+		sab22 += da * da * db * db
 	}
-	re := Paired{N: int64(n), SSA: ss, SSB: ssb, SAB: sab}.RelativeEfficiency()
+	pr := Paired{N: int64(n), SSA: ss, SSB: ssb, SAB: sab, SSA4: ss4, SSB4: ssb4, SAB22: sab22}
+	re := pr.RelativeEfficiency()
 	if got, want := float64(re.Value), ssb/ss; math.Abs(got-want) > 1e-12 {
 		t.Errorf("relative efficiency %v, want %v", got, want)
 	}
-	rho := sab / math.Sqrt(ss*ssb)
-	if got, want := float64(re.MCSE), 2*(ssb/ss)*math.Sqrt((1-rho*rho)/(nf-1)); math.Abs(got-want) > 1e-12 {
+	// The paired delta method on log RE, computed here term by term.
+	sa2, sb2, sab1 := s2, ssb/(nf-1), sab/(nf-1)
+	va := (ss4/nf - (nf-3)/(nf-1)*sa2*sa2) / nf
+	vb := (ssb4/nf - (nf-3)/(nf-1)*sb2*sb2) / nf
+	cv := (sab22/nf-sa2*sb2)/nf + 2*sab1*sab1/(nf*(nf-1))
+	want := (ssb / ss) * math.Sqrt(va/(sa2*sa2)+vb/(sb2*sb2)-2*cv/(sa2*sb2))
+	if got := float64(re.MCSE); math.Abs(got-want) > 1e-12*want {
 		t.Errorf("relative efficiency MCSE %v, want %v", got, want)
+	}
+	// With bivariate-normal fourth moments (m₄ = 3s⁴, m₂₂ = s_A²s_B² +
+	// 2s_AB²) it is 2·RE·√((1−ρ²)/(N−1)), Morris, White & Crowther
+	// (2019), Table 6.
+	pn := pr
+	pn.SSA4, pn.SSB4, pn.SAB22 = 3*sa2*sa2*nf, 3*sb2*sb2*nf, (sa2*sb2+2*sab1*sab1)*nf
+	rho := sab / math.Sqrt(ss*ssb)
+	if got, want := float64(pn.RelativeEfficiency().MCSE), 2*(ssb/ss)*math.Sqrt((1-rho*rho)/(nf-1)); math.Abs(got-want) > 1e-9*want {
+		t.Errorf("relative efficiency MCSE at normal moments %v, want %v", got, want)
+	}
+}
+
+// TestHeavyTails: the tail ratio flags iid Cauchy samples (no variance)
+// and not normal or t5 samples (finite variance), with fixed seeds, at the
+// sample sizes of typical runs. Its rates are stated on tailThreshold.
+func TestHeavyTails(t *testing.T) {
+	for _, tc := range []struct {
+		name  string
+		draw  func(*rand.Rand) float64
+		heavy bool
+	}{
+		{"normal", func(r *rand.Rand) float64 { return r.NormFloat64() }, false},
+		{"t5", func(r *rand.Rand) float64 {
+			return distuv.StudentsT{Mu: 0, Sigma: 1, Nu: 5, Src: r}.Rand()
+		}, false},
+		{"cauchy", func(r *rand.Rand) float64 {
+			return distuv.StudentsT{Mu: 0, Sigma: 1, Nu: 1, Src: r}.Rand()
+		}, true},
+	} {
+		for _, n := range []int{500, 1000, 5000} {
+			rng := rand.New(rand.NewPCG(uint64(n), 17))
+			x := make([]float64, n)
+			var mean float64
+			for i := range x {
+				x[i] = tc.draw(rng)
+				mean += x[i]
+			}
+			mean /= float64(n)
+			var ss, ss4 float64
+			for _, v := range x {
+				d := (v - mean) * (v - mean)
+				ss += d
+				ss4 += d * d
+			}
+			m := Moments{N: int64(n), SS: ss, SS4: ss4}
+			if got := m.HeavyTailed(); got != tc.heavy {
+				t.Errorf("%s, n = %d: heavy %v (tail ratio %.4g, threshold %.4g), want %v", tc.name, n, got, TailRatio(ss, ss4), 2/math.Sqrt(float64(n)), tc.heavy)
+			}
+		}
 	}
 }
 

@@ -98,10 +98,20 @@ func writeEstimator(b *strings.Builder, r *Results, e Estimator, width int) {
 		gapHead = "gap"
 	}
 	row(b, "coefficient", "bias", "emp. SE", eff, gapHead)
+	heavySE, heavyRE := false, false
 	for _, k := range e.Coefficients {
 		bias := pm(k.Bias, true)
 		se := pm(k.EmpSE, false)
 		re := pm(k.RelEff, false)
+		if k.HeavyTails {
+			heavySE = true
+			bias += "*"
+			se = notMeaningful
+		}
+		if k.RelEffHeavyTails && e.Label != r.Reference {
+			heavyRE = true
+			re = notMeaningful
+		}
 		if e.Label == r.Reference {
 			re = "1"
 		}
@@ -121,9 +131,23 @@ func writeEstimator(b *strings.Builder, r *Results, e Estimator, width int) {
 	if hasTheory {
 		b.WriteString("   (gap: simulated minus asymptotic efficiency, in Monte Carlo SEs)\n")
 	}
+	switch {
+	case heavySE:
+		b.WriteString("   * heavy tails: a few replicates carry most of the spread, as when the\n" +
+			"     estimates have no finite variance; the emp. SE, the efficiency and\n" +
+			"     every Monte Carlo SE resting on a variance (the bias's too) are not\n" +
+			"     meaningful (tail_ratio in the JSON)\n")
+	case heavyRE:
+		b.WriteString("   * heavy tails in the reference's estimates: a few replicates carry most\n" +
+			"     of its spread, so the efficiency and its Monte Carlo SE are not\n" +
+			"     meaningful (tail_ratio in the JSON)\n")
+	}
 	writeCoverage(b, e, width)
 	if sb := e.SlopeBias; !math.IsNaN(float64(sb.Value)) && len(e.Coefficients) > 2 {
 		line := "   slope bias norm " + pm(sb, false)
+		if heavySE {
+			line = "   slope bias norm " + notMeaningful
+		}
 		if pt := e.PastThreshold; pt != nil {
 			v, _ := FormatMeasure(Measure{Value: pt.Value * 100, MCSE: 0.05}, false)
 			line += fmt.Sprintf(" · past threshold in %s%% of replicates", v)
@@ -154,6 +178,10 @@ func writeCoverage(b *strings.Builder, e Estimator, width int) {
 	}
 	b.WriteString(strings.TrimSuffix(line, ",") + "\n")
 }
+
+// notMeaningful stands in for a measure that rests on a variance the
+// estimates do not appear to have.
+const notMeaningful = "not meaningful*"
 
 // row writes one coefficient row, without trailing blanks; a column whose
 // text fills it is followed by one space.
