@@ -68,7 +68,7 @@ func TestReplacementBreakdown(t *testing.T) {
 	} {
 		n := 40
 		x, y := breakdownData(n, tc.p, 11)
-		got, err := MeasureBreakdown(x, y, true, ests, ReplacementOptions{Seed: 5, Directions: 3})
+		got, err := MeasureBreakdown(x, y, true, ests, ReplacementOptions{Seed: 5, Directions: 1})
 		if err != nil {
 			t.Fatal(err)
 		}
