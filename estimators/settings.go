@@ -114,8 +114,8 @@ const (
 	// gives 0.4998).
 	DefaultSTuning = 1.5476449809282259
 	// DefaultMMTuning is the bisquare constant of 95% asymptotic efficiency
-	// at the normal, the default psi of the MM-estimator's M-step (the
-	// rounded 4.685 is common practice, Holland & Welsch (1977)).
+	// at the normal: the bisquare family's default and the default psi of
+	// the MM-estimator's M-step (Holland & Welsch (1977) print 4.685).
 	DefaultMMTuning = 4.6850649485433758
 )
 
