@@ -85,8 +85,10 @@ type Result struct {
 	// Halvings counts Newton step halvings over the fit.
 	Halvings int
 	// Fallbacks counts Newton iterations that took an IRLS step instead,
-	// because psi' gave a Jacobian that was not positive definite or the
-	// Newton direction did not lower the objective.
+	// because psi' gave a Jacobian that was not positive definite, the
+	// Newton direction did not lower the objective, or Newton had made no
+	// progress for several iterations and handed the rest of the fit over
+	// to IRLS (every IRLS iteration after the handover counts).
 	Fallbacks int
 	// QRSolves counts weighted solves that fell back from the Cholesky
 	// factorisation of the normal equations to QR because of conditioning.

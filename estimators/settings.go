@@ -14,7 +14,8 @@ const (
 	// MethodIRLS is iteratively reweighted least squares.
 	MethodIRLS
 	// MethodNewton is Newton's method on the estimating equations, with step
-	// halving and IRLS steps as safeguards.
+	// halving and IRLS steps as safeguards; after five iterations in a row
+	// without progress it hands the fit over to IRLS.
 	MethodNewton
 	// MethodS is the S-estimator: the coefficients minimising an M-scale of
 	// the residuals built on the bisquare rho, by random elemental subsets
@@ -213,6 +214,11 @@ const (
 
 // maxHalvings bounds the step halvings of one Newton iteration.
 const maxHalvings = 40
+
+// newtonPatience is the number of Newton iterations in a row without a new
+// smallest equation norm, or in a row needing the IRLS fallback, after
+// which Newton hands over to IRLS for the rest of the fit.
+const newtonPatience = 5
 
 // divergeFactor: coefficients larger than this multiple of the start's norm
 // mean the iteration diverged.
