@@ -50,7 +50,7 @@ const (
 	sZeroTol       = 1e-10
 	scaleMaxSteps  = 500
 	scaleRelTol    = 1e-12
-	subsetAttempts = 50 // draws allowed per requested subset
+	subsetAttempts = 50 // draws allowed per requested subset, over a round
 )
 
 // sConsistency returns b = E[rho_c(Z)] for the bisquare with constant c,
@@ -242,8 +242,11 @@ func (ws *Workspace) sCandidates(x blas64.General, y, beta []float64, psi Bisqua
 	for _, v := range y {
 		yMax = math.Max(yMax, math.Abs(v))
 	}
+	// Draws are budgeted over the whole round, so a run of singular
+	// subsets (many identical rows) does not end it early.
+	budget := subsetAttempts * subsets
 	for j := 0; j < subsets; j++ {
-		if !ws.elementalFit(x, y, cur, subsetAttempts) {
+		if !ws.elementalFit(x, y, cur, &budget) {
 			break
 		}
 		ws.residuals(x, y, cur)

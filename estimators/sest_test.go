@@ -73,12 +73,14 @@ func replacedRows(seed uint64, n, p, m int) (*mat.Dense, []float64) {
 // TestResamplingDegenerateSubsets: with n = 40, p = 6 and m identical far
 // rows, most elemental fits through a far row also fit m + 5 rows to
 // rounding, so their bisquare weights leave a rank-deficient weighted
-// design. On this full-rank design S, MM and LTS must still return a
-// usable fit: a converged status (an exact fit when more than half the
-// rows lie on one hyperplane, as from m = 15 + 1 on) and finite
-// coefficients, never singular-design.
+// design; from m = 24 on, most elemental subsets are singular. On this
+// design, of full rank up to m = 34 (n − m ≥ p − 1 clean rows), S, MM
+// and LTS must still return a usable fit: a converged status (an exact fit
+// when more than half the rows lie on one hyperplane, as from m = 15 + 1
+// on) and finite coefficients, never singular-design or
+// elemental-failure.
 func TestResamplingDegenerateSubsets(t *testing.T) {
-	for m := 12; m <= 20; m += 2 {
+	for m := 12; m <= 34; m += 2 {
 		for seed := uint64(1); seed <= 4; seed++ {
 			x, y := replacedRows(seed, 40, 6, m)
 			for _, meth := range []Method{MethodS, MethodMM, MethodLTS} {
