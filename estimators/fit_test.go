@@ -351,6 +351,7 @@ func TestFitZeroAllocs(t *testing.T) {
 		{Method: MethodNewton, Psi: Welsch{C: 2.9846}},
 		{Method: MethodS, Resampling: Resampling{Subsets: 50}},
 		{Method: MethodMM, Resampling: Resampling{Subsets: 50}},
+		{Method: MethodMM, Resampling: Resampling{Subsets: 50, SDivisor: DivideByNMinusP}},
 		{Method: MethodLTS, Resampling: Resampling{Subsets: 50}},
 		{Method: MethodLAD},
 		{Method: MethodIRLS, Psi: Huber{K: 1.345}, StartFrom: MethodLAD},
