@@ -9,11 +9,13 @@ import "math"
 //	psi(u) = u (1 - v²)²           for |u| ≤ C,   0 otherwise,
 //	w(u)   = (1 - v²)²             for |u| ≤ C,   0 otherwise.
 //
-// The default C = 4.685 gives 95% asymptotic efficiency at the normal model
-// (Holland & Welsch (1977), Comm. Statist. Theory Methods 6:813-827). Used as
-// the rho of an S-scale, C = 1.547 gives a 50% breakdown point (Rousseeuw &
-// Yohai (1984)). Being redescending, its estimating equations can have
-// several roots: a start near the bulk of the data matters.
+// The default C = DefaultMMTuning = 4.6850649… gives 95% asymptotic
+// efficiency at the normal model (Holland & Welsch (1977), Comm. Statist.
+// Theory Methods 6:813-827, print 4.685). Used as the rho of an S-scale,
+// C = DefaultSTuning = 1.5476449… gives a 50% breakdown point (Rousseeuw &
+// Yohai (1984); the rounded 1.547 gives 0.4998). Being redescending, its
+// estimating equations can have several roots: a start near the bulk of
+// the data matters.
 type Bisquare struct {
 	// C is the tuning constant, C > 0.
 	C float64

@@ -69,8 +69,8 @@ func familyTable() []Family {
 			build: func(t []float64) Psi { return Huber{K: t[0]} },
 		},
 		{
-			Name: "bisquare", Params: []string{"c"}, Defaults: []float64{4.685},
-			About: "c = 4.685 gives 95% efficiency at the normal (Holland & Welsch 1977)",
+			Name: "bisquare", Params: []string{"c"}, Defaults: []float64{DefaultMMTuning},
+			About: "c = 4.68506 gives 95% efficiency at the normal (the exact root; Holland & Welsch 1977 print 4.685)",
 			build: func(t []float64) Psi { return Bisquare{C: t[0]} },
 		},
 		{

@@ -85,12 +85,61 @@ type Result struct {
 	// Halvings counts Newton step halvings over the fit.
 	Halvings int
 	// Fallbacks counts Newton iterations that took an IRLS step instead,
-	// because psi' gave a Jacobian that was not positive definite or the
-	// Newton direction did not lower the objective.
+	// because psi' gave a Jacobian that was not positive definite, the
+	// Newton direction did not lower the objective, or Newton had made no
+	// progress for several iterations and handed the rest of the fit over
+	// to IRLS (every IRLS iteration after the handover counts).
 	Fallbacks int
 	// QRSolves counts weighted solves that fell back from the Cholesky
 	// factorisation of the normal equations to QR because of conditioning.
 	QRSolves int
+	// SRefinement says how the refinement of the winning S candidate
+	// ended, for S and MM fits (and fits started from them);
+	// RefinementNone otherwise.
+	SRefinement Refinement
+	// SSteps counts the refinement steps of the winning S candidate.
+	SSteps int
+}
+
+// Refinement says how the refinement of an S-estimate's winning candidate
+// ended.
+type Refinement uint8
+
+const (
+	// RefinementNone: no S-estimate was refined (another method, or an
+	// exact fit found among the elemental subsets).
+	RefinementNone Refinement = iota
+	// RefinementConverged: the refinement reached its tolerance.
+	RefinementConverged
+	// RefinementAtCap: the refinement stopped at its step cap. The scale
+	// is still the M-scale of the coefficients returned, a valid S-scale
+	// no larger than that of any other candidate, but the coefficients
+	// are not at the minimum to tolerance.
+	RefinementAtCap
+)
+
+// String returns "none", "converged" or "at-cap".
+func (r Refinement) String() string {
+	switch r {
+	case RefinementNone:
+		return "none"
+	case RefinementConverged:
+		return "converged"
+	case RefinementAtCap:
+		return "at-cap"
+	}
+	return "unknown-refinement"
+}
+
+// note records the S refinement's outcome in res.
+func (o sOutcome) note(res *Result) {
+	res.SSteps = o.steps
+	switch {
+	case o.status == IterationLimit:
+		res.SRefinement = RefinementAtCap
+	case o.status.Converged() && o.scale > 0:
+		res.SRefinement = RefinementConverged
+	}
 }
 
 // Fit fits e to the design x (n×p) and response y, writing the outcome to
@@ -137,7 +186,11 @@ func (e Estimator) Fit(x *mat.Dense, y []float64, ws *Workspace, res *Result) er
 		start.Coefficients = beta
 		ws.direct(e, e.StartFrom, raw, y, &start)
 		classifyNonFinite(&start)
-		if !start.Status.Converged() {
+		res.SRefinement, res.SSteps = start.SRefinement, start.SSteps
+		// An S refinement stopped at its cap is still an S-scale and the
+		// best candidate, as for MM.
+		capped := e.StartFrom == MethodS && start.Status == IterationLimit
+		if !start.Status.Converged() && !capped {
 			res.Status = start.Status
 			return nil
 		}
@@ -188,28 +241,12 @@ func (ws *Workspace) direct(e Estimator, m Method, x blas64.General, y []float64
 		ws.residuals(x, y, beta)
 		ws.finishLS(x, res)
 	case MethodS:
-		res.Scale, res.Iterations, res.Status = ws.sFit(x, y, beta, e.Resampling)
+		out := ws.sFit(x, y, beta, e.Resampling)
+		res.Scale, res.Iterations, res.Status = out.scale, out.steps, out.status
 		res.Objective = res.Scale
+		out.note(res)
 	case MethodMM:
-		scale, its, st := ws.sFit(x, y, beta, e.Resampling)
-		if !st.Converged() {
-			res.Status, res.Iterations = st, its
-			return
-		}
-		if scale == 0 {
-			res.Status, res.Scale = ExactFit, 0
-			return
-		}
-		mm := e
-		if e.Method != MethodMM {
-			// The MM-estimate as the start of another fit: its own psi
-			// (the default bisquare), and not the caller's trace.
-			mm = Estimator{Method: MethodMM, Settings: e.Settings, Resampling: e.Resampling}
-		}
-		mm.Psi = mm.MStepPsi()
-		mm.Scale = Scale{Rule: ScaleFixed, Value: scale}
-		mm.Method = MethodIRLS
-		ws.iterate(mm, x, y, res)
+		ws.mmStep(e, x, y, res, ws.sFit(x, y, beta, e.Resampling))
 	case MethodLTS:
 		res.Objective, res.Scale, res.Iterations, res.Status = ws.lts.fit(x, y, beta, ws.rng,
 			ltsSettings{H: e.Resampling.H, Subsets: e.Resampling.Subsets, Keep: e.Resampling.Keep})
@@ -226,6 +263,33 @@ func (ws *Workspace) direct(e Estimator, m Method, x blas64.General, y []float64
 	default:
 		res.Status = NotRun
 	}
+}
+
+// mmStep completes an MM fit from the S outcome out, whose coefficients are
+// in res.Coefficients and residuals in ws.r: the M-step by IRLS with the
+// MM psi at the S-scale. A refinement stopped at its cap still leaves a
+// valid S-scale and the best candidate's coefficients, so the M-step starts
+// from them, and res.SRefinement says so.
+func (ws *Workspace) mmStep(e Estimator, x blas64.General, y []float64, res *Result, out sOutcome) {
+	if !out.status.Converged() && out.status != IterationLimit {
+		res.Status, res.Iterations = out.status, out.steps
+		return
+	}
+	out.note(res)
+	if out.scale == 0 {
+		res.Status, res.Scale = ExactFit, 0
+		return
+	}
+	mm := e
+	if e.Method != MethodMM {
+		// The MM-estimate as the start of another fit: its own psi (the
+		// default bisquare), and not the caller's trace.
+		mm = Estimator{Method: MethodMM, Settings: e.Settings, Resampling: e.Resampling}
+	}
+	mm.Psi = mm.MStepPsi()
+	mm.Scale = Scale{Rule: ScaleFixed, Value: out.scale}
+	mm.Method = MethodIRLS
+	ws.iterate(mm, x, y, res)
 }
 
 // Fit fits e to x and y with a fresh workspace. It is a convenience for
@@ -258,6 +322,10 @@ func (e Estimator) check(raw blas64.General, y []float64) error {
 		return fmt.Errorf("method %v cannot start an iterative fit; use ls, s-estimate, mm-estimate, lts or lad", e.StartFrom)
 	case e.Resampling.Subsets < 0 || e.Resampling.Keep < 0 || e.Resampling.H < 0 || e.Resampling.SC < 0:
 		return errors.New("resampling settings must not be negative")
+	case e.Resampling.SDivisor > DivideByNMinusP:
+		return fmt.Errorf("unknown S-scale divisor %d", e.Resampling.SDivisor)
+	case e.Resampling.SDivisor == DivideByNMinusP && n == p:
+		return fmt.Errorf("the S-scale divisor n − p is 0 with n = p = %d", n)
 	case e.Resampling.H != 0 && (e.Resampling.H < p || e.Resampling.H > n):
 		return fmt.Errorf("LTS keeps h = %d observations; h must lie between p = %d and n = %d", e.Resampling.H, p, n)
 	case e.Start != nil && len(e.Start) != p:

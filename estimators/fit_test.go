@@ -351,6 +351,7 @@ func TestFitZeroAllocs(t *testing.T) {
 		{Method: MethodNewton, Psi: Welsch{C: 2.9846}},
 		{Method: MethodS, Resampling: Resampling{Subsets: 50}},
 		{Method: MethodMM, Resampling: Resampling{Subsets: 50}},
+		{Method: MethodMM, Resampling: Resampling{Subsets: 50, SDivisor: DivideByNMinusP}},
 		{Method: MethodLTS, Resampling: Resampling{Subsets: 50}},
 		{Method: MethodLAD},
 		{Method: MethodIRLS, Psi: Huber{K: 1.345}, StartFrom: MethodLAD},
@@ -371,4 +372,35 @@ func TestFitZeroAllocs(t *testing.T) {
 			t.Errorf("%v %T: %v allocations per fit after warm-up", e.Method, e.Psi, allocs)
 		}
 	}
+}
+
+// TestNewtonHandsOverToIRLS: on the aircraft data (Rousseeuw & Leroy
+// (1987), Robust Regression and Outlier Detection, Wiley, Table 22) the
+// bisquare from the least-squares start with the MAD rescaled every
+// iteration makes Newton cycle (its equation norm stays near 0.05 and the
+// iteration cap is reached) while IRLS converges. Newton must hand over to
+// IRLS, count the IRLS iterations as fallbacks, and reach IRLS's root.
+func TestNewtonHandsOverToIRLS(t *testing.T) {
+	x, y := design(t, "aircraft.csv", []string{"X1", "X2", "X3", "X4"}, "Y")
+	set := Settings{ChangeTol: 1e-12, MaxIterations: 200}
+	irls, err := Fit(Estimator{Method: MethodIRLS, Psi: Bisquare{C: DefaultMMTuning}, Settings: set}, x, y)
+	if err != nil {
+		t.Fatal(err)
+	}
+	newton, err := Fit(Estimator{Method: MethodNewton, Psi: Bisquare{C: DefaultMMTuning}, Settings: set}, x, y)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !irls.Status.Converged() || !newton.Status.Converged() {
+		t.Fatalf("IRLS %v, Newton %v", irls.Status, newton.Status)
+	}
+	if newton.Fallbacks == 0 {
+		t.Error("Newton reached the root without counting the IRLS steps it took")
+	}
+	for j := range irls.Coefficients {
+		if d := math.Abs(newton.Coefficients[j] - irls.Coefficients[j]); d > 1e-8*math.Abs(irls.Coefficients[j]) {
+			t.Errorf("coefficient %d: Newton %.12g, IRLS %.12g", j, newton.Coefficients[j], irls.Coefficients[j])
+		}
+	}
+	t.Logf("IRLS %d iterations; Newton %d iterations, %d of them IRLS", irls.Iterations, newton.Iterations, newton.Fallbacks)
 }

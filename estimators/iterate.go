@@ -16,8 +16,16 @@ func (ws *Workspace) iterate(e Estimator, x blas64.General, y []float64, res *Re
 	startNorm := norm2(beta)
 	change := math.Inf(1) // relative change of the last step; none yet
 	newton := e.Method == MethodNewton
+	// Newton hands over to IRLS for the rest of the fit when it stops
+	// making progress: newtonPatience iterations in a row without a new
+	// smallest equation norm, or needing the IRLS fallback.
+	handedOver := false
+	bestEq, stalls, fallbacks := math.Inf(1), 0, 0
 
 	for {
+		if newton && (stalls >= newtonPatience || fallbacks >= newtonPatience) {
+			newton, handedOver = false, true
+		}
 		// The scale, psi values, objective and equation norm at β.
 		sigma := e.Scale.Value
 		if e.Scale.Rule == ScaleMAD {
@@ -41,6 +49,11 @@ func (ws *Workspace) iterate(e Estimator, x blas64.General, y []float64, res *Re
 		if math.IsNaN(res.EquationNorm) || math.IsNaN(wsum) {
 			res.Status = NonFinite
 			return
+		}
+		if res.EquationNorm < bestEq {
+			bestEq, stalls = res.EquationNorm, 0
+		} else {
+			stalls++
 		}
 		if st, done := stopped(s, change, res.EquationNorm); done {
 			res.Status = st
@@ -72,6 +85,14 @@ func (ws *Workspace) iterate(e Estimator, x blas64.General, y []float64, res *Re
 		if !ok {
 			res.Status = status
 			return
+		}
+		if newton && it.Fallback {
+			fallbacks++
+		} else {
+			fallbacks = 0
+		}
+		if handedOver {
+			it.Fallback = true
 		}
 		if it.Fallback {
 			res.Fallbacks++

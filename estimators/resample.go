@@ -31,13 +31,13 @@ func ElementalSubsets(p int) int {
 
 // elementalFit draws p distinct rows from ws's random stream and solves the
 // exact fit through them into beta, redrawing when the p×p system is
-// singular. It reports false after maxAttempts draws without a regular
-// subset. The rows are drawn by rejection of repeats, so the draw depends
-// only on the stream.
-func (ws *Workspace) elementalFit(x blas64.General, y, beta []float64, maxAttempts int) bool {
+// singular. Every draw takes one from *budget; it reports false when the
+// budget runs out without a regular subset. The rows are drawn by
+// rejection of repeats, so the draw depends only on the stream.
+func (ws *Workspace) elementalFit(x blas64.General, y, beta []float64, budget *int) bool {
 	p := ws.p
 	rows := ws.subset[:p]
-	for attempt := 0; attempt < maxAttempts; attempt++ {
+	for ; *budget > 0; *budget-- {
 		for k := 0; k < p; {
 			i := ws.rng.IntN(ws.n)
 			fresh := true
@@ -64,6 +64,7 @@ func (ws *Workspace) elementalFit(x blas64.General, y, beta []float64, maxAttemp
 				}
 			}
 			if ok {
+				*budget--
 				return true
 			}
 		}

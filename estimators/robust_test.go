@@ -153,7 +153,7 @@ func TestStartsFromRobustFits(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	viaStart, err := Fit(Estimator{Method: MethodIRLS, Psi: Bisquare{C: 4.685}, StartFrom: MethodS, Scale: Scale{Rule: ScaleStart}}, x, y)
+	viaStart, err := Fit(Estimator{Method: MethodIRLS, Psi: Bisquare{C: DefaultMMTuning}, StartFrom: MethodS, Scale: Scale{Rule: ScaleStart}}, x, y)
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -7,28 +7,50 @@ import (
 )
 
 // The S-estimator minimises an M-scale s(β) of the residuals, the solution
-// of (1/n) Σ rho(r_i/s) = b with rho the bisquare and b = E[rho(Z)] at the
-// normal (Rousseeuw & Yohai (1984), "Robust regression by means of
-// S-estimators", Lecture Notes in Statistics 26:256-272). It is computed by
+// of (1/d) Σ rho(r_i/s) = b with rho the bisquare, b = E[rho(Z)] at the
+// normal and d = n (Rousseeuw & Yohai (1984), "Robust regression by means
+// of S-estimators", Lecture Notes in Statistics 26:256-272) or, as a
+// small-sample correction, d = n − p (Resampling.SDivisor). It is computed by
 // fast-S (Salibian-Barrera & Yohai (2006), "A fast algorithm for
 // S-regression estimates", J. Comput. Graph. Statist. 15:414-427): each of
 // many random elemental subsets gives an exact fit, refined by two
 // I-steps (an IRLS step with bisquare weights at the current scale, then one
 // update of the scale); candidates whose residuals cannot beat the current
 // best scales are skipped without solving for their scale; the best few are
-// refined to convergence and the one with the smallest scale wins.
+// refined to convergence (by Newton steps guarded by I-steps, see sRefine)
+// and the one with the smallest scale wins.
 
-// Fast-S settings (Salibian-Barrera & Yohai 2006, from memory).
+// Fast-S settings (Salibian-Barrera & Yohai 2006, from memory, except the
+// stopping rule of the refinement and the rounds, which are ours).
 const (
-	sRefineSteps   = 2 // I-steps applied to every elemental start
-	sDefaultKeep   = 5 // candidates refined to convergence
-	sMaxRefine     = 500
-	sRefineTol     = 1e-10
-	sDefaultC      = 1.547
-	mmDefaultC     = 4.685
+	sRefineSteps = 2 // I-steps applied to every elemental start
+	sDefaultKeep = 5 // candidates refined to convergence
+	sMaxRefine   = 500
+	// sRefineTol stops the refinement of a candidate when an I-step
+	// changes the coefficients by at most this fraction of their norm.
+	sRefineTol = 1e-10
+	// sScaleTol stops it when a step lowers the M-scale by at most this
+	// fraction. The scale is minimised, so it settles quadratically in
+	// the coefficients' error: I-steps alone, contracting by about
+	// 1 − E[psi']/E[w] ≈ 0.72 per step for the 50% bisquare at the normal,
+	// reach it in some 35 steps where a change in coefficients below 1e-10
+	// takes some 60; Newton steps (sNewtonStep) reach it in 3 or 4.
+	sScaleTol = 1e-12
+	// sMaxRounds bounds the rounds of drawing: a round is drawn again,
+	// admitting only candidates with a larger scale than those dropped,
+	// when every kept candidate of the last round was dropped because its
+	// I-step met a singular weighted design.
+	sMaxRounds = 4
+	// sNewtonRefusals: after this many Newton steps refused (no positive
+	// definite Jacobian, or no lower scale), a candidate is refined by
+	// I-steps alone.
+	sNewtonRefusals = 3
+	// sZeroTol: a residual is zero to rounding when it is at most this
+	// fraction of the sizes it was computed from (see roundingZeros).
+	sZeroTol       = 1e-10
 	scaleMaxSteps  = 500
 	scaleRelTol    = 1e-12
-	subsetAttempts = 50 // draws allowed per requested subset
+	subsetAttempts = 50 // draws allowed per requested subset, over a round
 )
 
 // sConsistency returns b = E[rho_c(Z)] for the bisquare with constant c,
@@ -40,25 +62,25 @@ func (ws *Workspace) sConsistency(c float64) float64 {
 	return ws.sB
 }
 
-// meanRho returns (1/n) Σ rho(r_i/s) for the bisquare psi.
-func meanRho(psi Bisquare, r []float64, s float64) float64 {
+// meanRho returns (1/d) Σ rho(r_i/s) for the bisquare psi.
+func meanRho(psi Bisquare, r []float64, s, d float64) float64 {
 	var sum float64
 	for _, v := range r {
 		sum += psi.Rho(v / s)
 	}
-	return sum / float64(len(r))
+	return sum / d
 }
 
-// mScale solves (1/n) Σ rho(r_i/s) = b for s by the fixed-point iteration
+// mScale solves (1/d) Σ rho(r_i/s) = b for s by the fixed-point iteration
 // s ← s·√(mean rho(r/s)/b), from s0 > 0. The iteration converges
 // monotonically for a bounded rho. It returns 0 if s0 is 0.
-func mScale(psi Bisquare, r []float64, b, s0 float64) float64 {
+func mScale(psi Bisquare, r []float64, b, d, s0 float64) float64 {
 	s := s0
 	if s == 0 {
 		return 0
 	}
 	for k := 0; k < scaleMaxSteps; k++ {
-		next := s * math.Sqrt(meanRho(psi, r, s)/b)
+		next := s * math.Sqrt(meanRho(psi, r, s, d)/b)
 		if math.Abs(next-s) <= scaleRelTol*s || next == 0 || math.IsNaN(next) {
 			return next
 		}
@@ -69,7 +91,9 @@ func mScale(psi Bisquare, r []float64, b, s0 float64) float64 {
 
 // iStep applies one fast-S I-step to beta at scale s: an IRLS step with
 // bisquare weights, then the residuals. It reports false when the weighted
-// system has no solution (the candidate is dropped).
+// system has no solution (the candidate is dropped). Because rho(√t) is
+// concave in t for the bisquare, the step does not raise Σ rho(r_i/s), so
+// the M-scale of the new residuals is at most s.
 func (ws *Workspace) iStep(psi Bisquare, x blas64.General, y, beta []float64, s float64) bool {
 	if ws.evaluateBisquare(psi, s) == 0 {
 		return false
@@ -87,13 +111,89 @@ func (ws *Workspace) iStep(psi Bisquare, x blas64.General, y, beta []float64, s 
 	return true
 }
 
-// sFit computes the S-estimate into beta and returns its scale, the
-// refinement steps of the winner and the status.
-func (ws *Workspace) sFit(x blas64.General, y, beta []float64, rs Resampling) (scale float64, iters int, st Status) {
+// sNewtonStep takes a Newton step for the S-estimate from beta at its
+// M-scale s: Δ = s (Σ psi'(u_i) x_i x_iᵀ)⁻¹ Σ psi(u_i) x_i, u = r/s. The
+// scale's own dependence on β drops out of the Jacobian at the minimum
+// (there ∂s/∂β ∝ Σ psi(u_i) x_i = 0), so near it the step converges
+// quadratically where the I-step contracts by about 1 − E[psi']/E[w]. It
+// reports false, leaving beta unchanged, when psi' gives no positive
+// definite matrix; the caller checks that the step lowers the scale.
+func (ws *Workspace) sNewtonStep(psi Bisquare, x blas64.General, y, beta []float64, s float64) bool {
+	if ws.evaluateBisquareDeriv(psi, s) == 0 {
+		return false
+	}
+	ws.psiSums(x)
+	ws.normalMatrix(x)
+	for j, hj := range ws.h {
+		ws.delta[j] = s * hj
+	}
+	if !choleskySolve(ws.m, ws.p, ws.delta, ws.pscale) {
+		return false
+	}
+	for j := range beta {
+		beta[j] += ws.delta[j]
+	}
+	ws.residuals(x, y, beta)
+	return true
+}
+
+// evaluateBisquareDeriv is evaluateAny for the bisquare with Newton's
+// psi' values, without the interface calls (and the boxing of psi) of the
+// general loop.
+func (ws *Workspace) evaluateBisquareDeriv(b Bisquare, sigma float64) (csum float64) {
+	r := ws.r
+	c, ps := ws.c[:len(r)], ws.psi[:len(r)]
+	cc := b.C
+	offs := ws.off[:len(r)]
+	off := 0
+	for i, ri := range r {
+		u := ri / sigma
+		if u >= cc || u <= -cc {
+			ps[i], c[i] = 0, 0
+			offs[off] = i
+			off++
+			continue
+		}
+		v := u / cc
+		v2 := v * v
+		t := 1 - v2
+		d := t * (1 - 5*v2)
+		ps[i], c[i] = u*t*t, d
+		if d != 1 {
+			offs[off] = i
+			off++
+		}
+		csum += math.Abs(d)
+	}
+	ws.nOff = off
+	return csum
+}
+
+// sOutcome is how an S fit ended.
+type sOutcome struct {
+	scale  float64 // the M-scale of the returned coefficients
+	steps  int     // refinement steps of the winning candidate
+	status Status
+}
+
+// sFit computes the S-estimate into beta. A candidate whose I-step meets a
+// singular weighted design (it fits more than half the data to rounding,
+// so that the bisquare weights leave too few rows) is dropped; when every
+// kept candidate of a round is dropped, another round of subsets is drawn
+// from the stream, admitting only candidates whose scale exceeds that of
+// every dropped one, up to sMaxRounds rounds. A full-rank design therefore
+// ends in SingularDesign only if every round fails.
+func (ws *Workspace) sFit(x blas64.General, y, beta []float64, rs Resampling) sOutcome {
+	return ws.sFitCapped(x, y, beta, rs, sMaxRefine)
+}
+
+// sFitCapped is sFit with at most maxRefine refinement steps per
+// candidate.
+func (ws *Workspace) sFitCapped(x blas64.General, y, beta []float64, rs Resampling, maxRefine int) sOutcome {
 	p := ws.p
 	psi := rs.SScale()
-	c := psi.C
-	b := ws.sConsistency(c)
+	b := ws.sConsistency(psi.C)
+	d := rs.SDivisor.divisor(ws.n, p)
 	subsets := rs.Subsets
 	if subsets == 0 {
 		subsets = ElementalSubsets(p)
@@ -103,45 +203,79 @@ func (ws *Workspace) sFit(x blas64.General, y, beta []float64, rs Resampling) (s
 		keep = sDefaultKeep
 	}
 	ws.reserveCandidates(keep, p)
+	floor := 0.0
+	drawn := false
+	for round := 0; round < sMaxRounds; round++ {
+		found, exact := ws.sCandidates(x, y, beta, psi, b, d, subsets, keep, floor)
+		if exact {
+			return sOutcome{status: ExactFit}
+		}
+		if found == 0 {
+			break
+		}
+		drawn = true
+		out, dropped := ws.sRefine(x, y, beta, psi, b, d, keep, maxRefine)
+		if out.status != SingularDesign {
+			return out
+		}
+		floor = dropped
+	}
+	if !drawn {
+		return sOutcome{status: ElementalFailure}
+	}
+	return sOutcome{status: SingularDesign}
+}
+
+// sCandidates draws subsets elemental fits and keeps in ws.cand the keep
+// whose M-scales, after sRefineSteps I-steps, are the smallest above floor
+// (their scales in ws.candScale, +Inf for empty places). It returns the
+// number of candidates that survived their I-steps and whether one fits
+// the data exactly (beta then holds it).
+func (ws *Workspace) sCandidates(x blas64.General, y, beta []float64, psi Bisquare, b, d float64, subsets, keep int, floor float64) (found int, exact bool) {
+	p, n := ws.p, ws.n
 	cands, scales := ws.cand[:keep*p], ws.candScale[:keep]
 	for k := range scales {
 		scales[k] = math.Inf(1)
 	}
-	found := 0
 	cur := ws.trial
+	var yMax float64
+	for _, v := range y {
+		yMax = math.Max(yMax, math.Abs(v))
+	}
+	// Draws are budgeted over the whole round, so a run of singular
+	// subsets (many identical rows) does not end it early.
+	budget := subsetAttempts * subsets
 	for j := 0; j < subsets; j++ {
-		if !ws.elementalFit(x, y, cur, subsetAttempts) {
+		if !ws.elementalFit(x, y, cur, &budget) {
 			break
 		}
 		ws.residuals(x, y, cur)
 		s := MAD(ws.r, ws.buf)
-		if s == 0 {
-			// At least half the residuals are zero. If more than half the
-			// observations, and more than the p the subset was fitted
-			// through, lie exactly on this fit, its M-scale is 0 and no fit
-			// can do better; otherwise (n < 2p) the subset only fits itself
-			// and is no candidate.
-			zeros := 0
-			for _, r := range ws.r {
-				if r == 0 {
-					zeros++
-				}
-			}
-			if 2*zeros > ws.n && zeros > p {
+		if s <= sZeroTol*yMax {
+			// At least half the residuals are zero, or zero to rounding.
+			// If so many observations, and more than the p the subset was
+			// fitted through, lie on this fit that the rest cannot reach
+			// b·d (n − zeros < d/2), its M-scale is 0 and no fit can do
+			// better; otherwise (n < 2p, or exactly half the rows on the
+			// fit) the subset fits too few rows to be scaled and is no
+			// candidate. Its I-steps would see weights on a rank-deficient
+			// set of rows.
+			zeros := roundingZeros(x, y, cur, ws.r)
+			if 2*zeros > 2*n-int(d) && zeros > p {
 				copy(beta, cur)
-				return 0, 0, ExactFit
+				return found, true
 			}
 			continue
 		}
-		ok := true
-		for k := 0; k < sRefineSteps && ok; k++ {
-			ok = ws.iStep(psi, x, y, cur, s)
-			s *= math.Sqrt(meanRho(psi, ws.r, s) / b)
+		good := true
+		for k := 0; k < sRefineSteps && good; k++ {
+			good = ws.iStep(psi, x, y, cur, s)
+			s *= math.Sqrt(meanRho(psi, ws.r, s, d) / b)
 			if !(s > 0) || math.IsInf(s, 0) {
-				ok = false
+				good = false
 			}
 		}
-		if !ok {
+		if !good {
 			continue
 		}
 		found++
@@ -153,57 +287,112 @@ func (ws *Workspace) sFit(x blas64.General, y, beta []float64, rs Resampling) (s
 		}
 		// The M-scale is decreasing in its left side, so a candidate beats
 		// the worst kept scale exactly when mean rho(r/s_worst) < b.
-		if !math.IsInf(scales[worst], 1) && meanRho(psi, ws.r, scales[worst]) >= b {
+		if !math.IsInf(scales[worst], 1) && meanRho(psi, ws.r, scales[worst], d) >= b {
 			continue
 		}
-		s = mScale(psi, ws.r, b, s)
+		s = mScale(psi, ws.r, b, d, s)
+		if s <= floor {
+			continue
+		}
 		if s < scales[worst] {
 			scales[worst] = s
 			copy(cands[worst*p:(worst+1)*p], cur)
 		}
 	}
-	if found == 0 {
-		return 0, 0, ElementalFailure
-	}
-	// Refine each kept candidate to convergence; keep the smallest scale.
+	return found, false
+}
+
+// sRefine refines every kept candidate by steps that lower its M-scale: a
+// Newton step when it lowers the scale, otherwise an I-step (after
+// sNewtonRefusals refused Newton steps, I-steps only), until a step lowers
+// the M-scale by at most the fraction sScaleTol or changes the
+// coefficients by at most the fraction sRefineTol, or sMaxRefine steps
+// (maxRefine) are taken, and puts the candidate with the smallest final scale in beta
+// (its residuals in ws.r). Candidates whose I-step fails are dropped; if
+// all are, the status is SingularDesign and dropped is the largest kept
+// scale among them.
+func (ws *Workspace) sRefine(x blas64.General, y, beta []float64, psi Bisquare, b, d float64, keep, maxRefine int) (out sOutcome, dropped float64) {
+	p := ws.p
+	cands, scales := ws.cand[:keep*p], ws.candScale[:keep]
+	cur := ws.trial
 	best := math.Inf(1)
-	st = IterationLimit
+	out.status = SingularDesign
 	for k := 0; k < keep; k++ {
 		if math.IsInf(scales[k], 1) {
 			continue
 		}
-		copy(cur, cands[k*p:(k+1)*p])
+		// The candidate's slot keeps the coefficients before each step,
+		// for a Newton step that is refused.
+		back := cands[k*p : (k+1)*p]
+		copy(cur, back)
 		ws.residuals(x, y, cur)
 		s := scales[k]
 		steps, kst := 0, IterationLimit
-		for steps < sMaxRefine {
+		refused := 0
+		for steps < maxRefine {
 			old := norm2(cur)
-			if !ws.iStep(psi, x, y, cur, s) {
-				kst = SingularDesign
-				break
+			prev := s
+			newton := false
+			if refused < sNewtonRefusals {
+				copy(back, cur)
+				if ws.sNewtonStep(psi, x, y, cur, s) {
+					if next := mScale(psi, ws.r, b, d, s); next < s {
+						s, newton = next, true
+					}
+				}
+				if !newton {
+					refused++
+					copy(cur, back)
+					ws.residuals(x, y, cur)
+				}
+			}
+			if !newton {
+				if !ws.iStep(psi, x, y, cur, s) {
+					kst = SingularDesign
+					break
+				}
+				s = mScale(psi, ws.r, b, d, s)
 			}
 			steps++
-			s = mScale(psi, ws.r, b, s)
 			if s == 0 {
 				kst = ExactFit
 				break
 			}
-			if norm2(ws.delta) <= sRefineTol*math.Max(old, math.SmallestNonzeroFloat64) {
+			if s >= prev*(1-sScaleTol) || norm2(ws.delta) <= sRefineTol*math.Max(old, math.SmallestNonzeroFloat64) {
 				kst = ConvergedChange
 				break
 			}
 		}
 		if kst == SingularDesign {
+			dropped = math.Max(dropped, scales[k])
 			continue
 		}
 		if s < best {
-			best, iters, st = s, steps, kst
+			best = s
+			out = sOutcome{scale: s, steps: steps, status: kst}
 			copy(beta, cur)
 		}
 	}
-	if math.IsInf(best, 1) {
-		return 0, 0, SingularDesign
+	if out.status != SingularDesign {
+		ws.residuals(x, y, beta)
 	}
-	ws.residuals(x, y, beta)
-	return best, iters, st
+	return out, dropped
+}
+
+// roundingZeros counts the residuals r_i = y_i − x_iᵀβ that are zero to
+// rounding: |r_i| ≤ sZeroTol·(|y_i| + Σ_j |x_ij β_j|). An elemental fit
+// through rows that lie on one hyperplane leaves such residuals, a few
+// units in the last place, where exact arithmetic would give zeros.
+func roundingZeros(x blas64.General, y, beta, r []float64) int {
+	zeros := 0
+	for i, ri := range r {
+		size := math.Abs(y[i])
+		for j, v := range row(x, i) {
+			size += math.Abs(v * beta[j])
+		}
+		if math.Abs(ri) <= sZeroTol*size {
+			zeros++
+		}
+	}
+	return zeros
 }

@@ -14,18 +14,19 @@ const (
 	// MethodIRLS is iteratively reweighted least squares.
 	MethodIRLS
 	// MethodNewton is Newton's method on the estimating equations, with step
-	// halving and IRLS steps as safeguards.
+	// halving and IRLS steps as safeguards; after five iterations in a row
+	// without progress it hands the fit over to IRLS.
 	MethodNewton
 	// MethodS is the S-estimator: the coefficients minimising an M-scale of
 	// the residuals built on the bisquare rho, by random elemental subsets
 	// and refinement steps (fast-S, Salibian-Barrera & Yohai (2006),
-	// J. Comput. Graph. Statist. 15:414-427). With the default c = 1.547
-	// its breakdown point is 50%.
+	// J. Comput. Graph. Statist. 15:414-427). With the default c =
+	// 1.5476449809… its breakdown point is 50%.
 	MethodS
 	// MethodMM is the MM-estimator (Yohai (1987), Ann. Statist.
 	// 15:642-656): an S-estimate and its scale, then an M-step by IRLS from
 	// the S-estimate with the scale held fixed; the default psi is the
-	// bisquare with c = 4.685 (95% efficiency).
+	// bisquare with c = 4.6850649… (95% efficiency).
 	MethodMM
 	// MethodLTS is least trimmed squares by FAST-LTS (Rousseeuw & Van
 	// Driessen (2006), Data Min. Knowl. Discov. 12:29-45).
@@ -92,18 +93,81 @@ type Resampling struct {
 	// Keep is the number of best candidates refined fully; zero means 5
 	// for S and 10 for LTS.
 	Keep int
-	// SC is the bisquare constant of the S-scale; zero means 1.547 (50%
-	// breakdown point, Rousseeuw & Yohai (1984)).
+	// SC is the bisquare constant of the S-scale; zero means
+	// DefaultSTuning, the constant of a 50% breakdown point.
 	SC float64
+	// SDivisor is the divisor of the S-scale's equation: n (the zero
+	// value) or n − p.
+	SDivisor ScaleDivisor
 	// H is the number of observations LTS keeps; zero means ⌊(n+p+1)/2⌋.
 	H int
 }
 
+// Default tuning constants of the S and MM estimators. Both are roots
+// computed by this package's tuning code (Family.TuneBreakdown(0.5) and
+// Family.TuneEfficiency(0.95) of the bisquare; TestDefaultConstants checks
+// them against it) and agree with an independent 30-digit quadrature to
+// all the digits given.
+const (
+	// DefaultSTuning is the bisquare constant whose S-scale, with b =
+	// E[rho(Z)], has breakdown point exactly 50%: b/sup rho = 1/2
+	// (Rousseeuw & Yohai (1984); the rounded 1.547 is common practice and
+	// gives 0.4998).
+	DefaultSTuning = 1.5476449809282259
+	// DefaultMMTuning is the bisquare constant of 95% asymptotic efficiency
+	// at the normal: the bisquare family's default and the default psi of
+	// the MM-estimator's M-step (Holland & Welsch (1977) print 4.685).
+	DefaultMMTuning = 4.6850649485433758
+)
+
+// ScaleDivisor is the divisor of the S-scale's equation
+// (1/d) Σ rho(r_i/s) = b.
+type ScaleDivisor uint8
+
+const (
+	// DivideByN uses d = n, the definition of Rousseeuw & Yohai (1984).
+	DivideByN ScaleDivisor = iota
+	// DivideByNMinusP uses d = n − p, a small-sample correction that makes
+	// the scale larger; many published MM fits use it.
+	DivideByNMinusP
+)
+
+// String returns "n" or "n-p", the names used in scenario files and on the
+// command line.
+func (d ScaleDivisor) String() string {
+	switch d {
+	case DivideByN:
+		return "n"
+	case DivideByNMinusP:
+		return "n-p"
+	}
+	return "unknown-divisor"
+}
+
+// ParseScaleDivisor returns the ScaleDivisor named by s ("n" or "n-p").
+func ParseScaleDivisor(s string) (ScaleDivisor, bool) {
+	for _, d := range []ScaleDivisor{DivideByN, DivideByNMinusP} {
+		if d.String() == s {
+			return d, true
+		}
+	}
+	return 0, false
+}
+
+// divisor returns d of the S-scale equation for n observations and p
+// coefficients.
+func (d ScaleDivisor) divisor(n, p int) float64 {
+	if d == DivideByNMinusP {
+		return float64(n - p)
+	}
+	return float64(n)
+}
+
 // SScale returns the bisquare whose rho defines the S-scale: constant SC,
-// or 1.547 when SC is zero.
+// or DefaultSTuning when SC is zero.
 func (r Resampling) SScale() Bisquare {
 	if r.SC == 0 {
-		return Bisquare{C: sDefaultC}
+		return Bisquare{C: DefaultSTuning}
 	}
 	return Bisquare{C: r.SC}
 }
@@ -118,12 +182,12 @@ func (r Resampling) LTSKeep(n, p int) int {
 }
 
 // MStepPsi returns the psi of the M-step of e: e.Psi, or for an
-// MM-estimator without one the default bisquare with c = 4.685 (95%
+// MM-estimator without one the bisquare with c = DefaultMMTuning (95%
 // efficiency at the normal). It is nil for methods without an M-step and
 // no psi.
 func (e Estimator) MStepPsi() Psi {
 	if e.Psi == nil && e.Method == MethodMM {
-		return Bisquare{C: mmDefaultC}
+		return Bisquare{C: DefaultMMTuning}
 	}
 	return e.Psi
 }
@@ -150,6 +214,11 @@ const (
 
 // maxHalvings bounds the step halvings of one Newton iteration.
 const maxHalvings = 40
+
+// newtonPatience is the number of Newton iterations in a row without a new
+// smallest equation norm, or in a row needing the IRLS fallback, after
+// which Newton hands over to IRLS for the rest of the fit.
+const newtonPatience = 5
 
 // divergeFactor: coefficients larger than this multiple of the start's norm
 // mean the iteration diverged.

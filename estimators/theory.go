@@ -218,16 +218,20 @@ func describeShape(psi Psi) shape {
 		grid = append(grid, u)
 	}
 	for _, k := range breaksOf(psi) {
-		grid = append(grid, k*(1-1e-12), k, k*(1+1e-12))
+		// At a jump sup|psi| may be a one-sided limit: the neighbouring
+		// floats stand for it.
+		grid = append(grid, k*(1-1e-12), math.Nextafter(k, 0), k, math.Nextafter(k, math.Inf(1)), k*(1+1e-12))
 	}
 	sortFloats(grid)
 	s := shape{monotone: true}
 	prev := math.Inf(-1)
 	lastNonZero := 0.0
-	for _, u := range grid {
+	top := 0 // index of the grid's largest |psi|
+	for i, u := range grid {
 		p := psi.Psi(u)
 		if math.Abs(p) > s.sup {
 			s.sup = math.Abs(p)
+			top = i
 		}
 		if p < prev-1e-12*math.Max(1, math.Abs(prev)) {
 			s.monotone = false
@@ -236,6 +240,12 @@ func describeShape(psi Psi) shape {
 		if p != 0 {
 			lastNonZero = u
 		}
+	}
+	// The grid's spacing (0.005 near 0) leaves sup|psi| short by up to
+	// about 1e-5 relative where the maximum is smooth: refine it between
+	// the grid neighbours of the largest value.
+	if top > 0 && top+1 < len(grid) && !math.IsInf(s.sup, 0) {
+		s.sup = math.Max(s.sup, maxAbsPsi(psi, grid[top-1], grid[top+1]))
 	}
 	// Unbounded when psi keeps growing far out.
 	far, farther := math.Abs(psi.Psi(1e6)), math.Abs(psi.Psi(1e12))
@@ -280,4 +290,33 @@ func nextAfter(grid []float64, x float64) float64 {
 		}
 	}
 	return x
+}
+
+// maxAbsPsi returns the largest |psi| that a golden-section search finds
+// on [a, b], where |psi| is taken to have one maximum. The search narrows
+// the bracket to a relative width of 1e-10; at a smooth maximum |psi|
+// differs from its peak by the square of that distance, far below
+// rounding. If the maximum is a one-sided limit at a jump or a kink, the
+// search closes in on it from the side where it is approached. The
+// largest value evaluated is returned, so a bracket with no interior
+// maximum does no harm.
+func maxAbsPsi(psi Psi, a, b float64) float64 {
+	const invPhi = 0.6180339887498949 // (√5 − 1)/2
+	f := func(u float64) float64 { return math.Abs(psi.Psi(u)) }
+	best := math.Max(f(a), f(b))
+	c, d := b-invPhi*(b-a), a+invPhi*(b-a)
+	fc, fd := f(c), f(d)
+	for i := 0; i < 200 && b-a > 1e-10*math.Max(math.Abs(b), 1e-300); i++ {
+		best = math.Max(best, math.Max(fc, fd))
+		if fc >= fd {
+			b, d, fd = d, c, fc
+			c = b - invPhi*(b-a)
+			fc = f(c)
+		} else {
+			a, c, fc = c, d, fd
+			d = a + invPhi*(b-a)
+			fd = f(d)
+		}
+	}
+	return math.Max(best, math.Max(fc, fd))
 }

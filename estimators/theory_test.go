@@ -101,6 +101,44 @@ func TestHuberClosedForms(t *testing.T) {
 	}
 }
 
+// TestSupPsiRefined: sup|psi| is refined beyond the 0.005 grid.
+//
+// Huber: psi is constant at k beyond k, so sup|psi| = k exactly and the
+// gross-error sensitivity is k/E[psi'] with E[psi'] = 2Φ(k) − 1 (closed
+// forms as in TestHuberClosedForms; E[psi'] here is the package's own
+// quadrature, so the ratio checks only the supremum).
+//
+// Bisquare: psi(u) = u(1 − v²)², v = u/c, has psi'(u) = (1 − v²)(1 − 5v²),
+// which vanishes inside (0, c) only at v² = 1/5, u* = c/√5. There
+// psi(u*) = (c/√5)(1 − 1/5)² = 16c/(25√5), the maximum (psi(0) = psi(c) =
+// 0). Both to 1e-12 relative; the grid alone is off by up to 1e-5.
+func TestSupPsiRefined(t *testing.T) {
+	for _, k := range []float64{0.7, 1.345, 2.5} {
+		th, err := Analyse(Huber{K: k})
+		if err != nil {
+			t.Fatal(err)
+		}
+		_, b := Moments(Huber{K: k}, 1)
+		if th.SupPsi != k || math.Abs(th.GrossErrorSensitivity-k/b) > 1e-12*k/b {
+			t.Errorf("Huber k=%v: sup|psi| %.17g, GES %.17g, want %.17g", k, th.SupPsi, th.GrossErrorSensitivity, k/b)
+		}
+	}
+	for _, c := range []float64{1, DefaultSTuning, 3.3, DefaultMMTuning, 7.01} {
+		th, err := Analyse(Bisquare{C: c})
+		if err != nil {
+			t.Fatal(err)
+		}
+		want := 16 * c / (25 * math.Sqrt(5))
+		if math.Abs(th.SupPsi-want) > 1e-12*want {
+			t.Errorf("bisquare c=%v: sup|psi| %.17g, closed form %.17g", c, th.SupPsi, want)
+		}
+		_, b := Moments(Bisquare{C: c}, 1)
+		if math.Abs(th.GrossErrorSensitivity-want/b) > 1e-12*want/b {
+			t.Errorf("bisquare c=%v: GES %.17g, want %.17g", c, th.GrossErrorSensitivity, want/b)
+		}
+	}
+}
+
 // TestHuberMinimax: Huber (1964), "Robust estimation of a location
 // parameter", Ann. Math. Statist. 35:73-101: the minimax k solves
 // 2φ(k)/k − 2Φ(−k) = eps/(1−eps). The exact check is the equation itself.

@@ -251,9 +251,12 @@ type Resampling struct {
 	// Keep is how many best candidates are refined fully. Default 5 (S) or
 	// 10 (LTS).
 	Keep int `yaml:"keep" json:"keep,omitempty"`
-	// SC is the bisquare constant of the S-scale. Default 1.547 (50%
-	// breakdown point).
+	// SC is the bisquare constant of the S-scale. Default 1.5476449809…
+	// (the exact 50% breakdown point).
 	SC float64 `yaml:"s-tuning" json:"s_tuning,omitempty"`
+	// SDivisor is the divisor d of the S-scale's equation
+	// (1/d) Σ rho(r_i/s) = b: n or n-p. Default n.
+	SDivisor string `yaml:"s-divisor" json:"s_divisor,omitempty"`
 	// H is the number of observations LTS keeps. Default ⌊(n+p+1)/2⌋.
 	H int `yaml:"h" json:"h,omitempty"`
 }

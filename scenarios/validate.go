@@ -540,7 +540,14 @@ func (s *Scenario) validateEstimators(c checker) {
 			case rs.SC != 0 && !(rs.SC >= 0.1 && rs.SC <= 100):
 				// Our bounds: 1.547 gives the S-scale 50% breakdown; far
 				// below 0.1 or above 100 the scale is numerically meaningless.
-				c.fail(path+".resampling.s-tuning", "must be from 0.1 to 100 (1.547 gives 50%% breakdown), got %v", rs.SC)
+				c.fail(path+".resampling.s-tuning", "must be from 0.1 to 100 (1.5476 gives 50%% breakdown), got %v", rs.SC)
+			}
+			if rs.SDivisor != "" {
+				if _, ok := estimators.ParseScaleDivisor(rs.SDivisor); !ok {
+					c.fail(path+".resampling.s-divisor", "must be n or n-p, got %q", rs.SDivisor)
+				} else if !usesS {
+					c.fail(path+".resampling.s-divisor", "is used only by s-estimate and mm-estimate (the S-scale's equation)")
+				}
 			}
 			switch {
 			case rs.H != 0 && !usesLTS:
@@ -634,7 +641,8 @@ func (e EstimatorSpec) Build() (estimators.Estimator, error) {
 	}
 	out := estimators.Estimator{Method: m}
 	if rs := e.Resampling; rs != nil {
-		out.Resampling = estimators.Resampling{Subsets: rs.Subsets, Keep: rs.Keep, SC: rs.SC, H: rs.H}
+		div, _ := estimators.ParseScaleDivisor(rs.SDivisor)
+		out.Resampling = estimators.Resampling{Subsets: rs.Subsets, Keep: rs.Keep, SC: rs.SC, SDivisor: div, H: rs.H}
 	}
 	if m.Direct() && m != estimators.MethodMM {
 		return out, nil

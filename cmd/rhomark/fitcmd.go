@@ -44,7 +44,11 @@ type fitJSON struct {
 	Converged    bool                 `json:"converged"`
 	EquationNorm jsonFloat            `json:"equation_norm"`
 	Objective    jsonFloat            `json:"objective"`
-	Error        string               `json:"error,omitempty"`
+	// SRefinement and SSteps say how the refinement of the S-estimate
+	// ended and its steps, for fits that compute one.
+	SRefinement string `json:"s_refinement,omitempty"`
+	SSteps      int    `json:"s_steps,omitempty"`
+	Error       string `json:"error,omitempty"`
 }
 
 func fitCmd(e env, args []string) error {
@@ -59,6 +63,7 @@ func fitCmd(e env, args []string) error {
 	pf := addPsiFlags(fs.FlagSet, "huber")
 	scale := fs.String("scale", "mad", "scale `rule`: mad, start (held at the start's scale), or fixed:S for a known scale S")
 	seed := fs.Uint64("seed", 1, "`seed` of the random subsets of s-estimate, mm-estimate and lts")
+	sDivisor := fs.String("s-divisor", "n", "`divisor` d of the S-scale equation (1/d) Σ rho(r/s) = b: n or n-p (s-estimate, mm-estimate and starts from them)")
 	tol := fs.Float64("tol", estimators.DefaultChangeTol, "stop when the relative change in coefficients is below `T`")
 	maxIter := fs.Int("max-iter", estimators.DefaultMaxIterations, "iteration cap `N`")
 	asJSON := fs.Bool("json", false, "print JSON instead of a table")
@@ -72,10 +77,20 @@ func fitCmd(e env, args []string) error {
 	if *yCol == "" {
 		return usagef("--y is required: the name of the response column")
 	}
-	est, desc, err := buildFitEstimator(*method, *start, pf, *scale, *tol, *maxIter, givenFlags(fs.FlagSet))
+	given := givenFlags(fs.FlagSet)
+	est, desc, err := buildFitEstimator(*method, *start, pf, *scale, *tol, *maxIter, given)
 	if err != nil {
 		return err
 	}
+	div, ok := estimators.ParseScaleDivisor(*sDivisor)
+	if !ok {
+		return usagef("--s-divisor %q: want n or n-p", *sDivisor)
+	}
+	usesS := func(m estimators.Method) bool { return m == estimators.MethodS || m == estimators.MethodMM }
+	if given["s-divisor"] && !usesS(est.Method) && !(!est.Method.Direct() && usesS(est.StartFrom)) {
+		return usagef("--s-divisor is used only by s-estimate and mm-estimate (or a start from them)")
+	}
+	est.Resampling.SDivisor = div
 	f, err := os.Open(pos[0])
 	if err != nil {
 		return err
@@ -115,6 +130,9 @@ func fitCmd(e env, args []string) error {
 			}
 			fj.Scale, fj.Iterations, fj.Status = jsonFloat(res.Scale), res.Iterations, res.Status.String()
 			fj.Converged, fj.EquationNorm, fj.Objective = res.Status.Converged(), jsonFloat(res.EquationNorm), jsonFloat(res.Objective)
+			if res.SRefinement != estimators.RefinementNone {
+				fj.SRefinement, fj.SSteps = res.SRefinement.String(), res.SSteps
+			}
 		}
 		out.Fits = append(out.Fits, fj)
 	}
@@ -312,7 +330,11 @@ func writeFitTable(e env, out fitOutput) {
 			fmt.Fprintf(e.stdout, ": %s\n", f.Error)
 			continue
 		}
-		fmt.Fprintf(e.stdout, " after %d iterations · scale %.6g\n", f.Iterations, f.Scale)
+		fmt.Fprintf(e.stdout, " after %d iterations · scale %.6g", f.Iterations, f.Scale)
+		if f.SRefinement != "" {
+			fmt.Fprintf(e.stdout, " · S refinement %s after %d steps", f.SRefinement, f.SSteps)
+		}
+		fmt.Fprintln(e.stdout)
 		for _, n := range f.Order {
 			fmt.Fprintf(e.stdout, "   %-20s %14.8g\n", n, f.Coefficients[n])
 		}
