@@ -5,7 +5,7 @@
 # and munge installed:
 #
 #   apt-get install -y slurm-wlm munge
-#   deploy/slurm/start-local-cluster.sh          # start (or: start)
+#   deploy/slurm/start-local-cluster.sh          # start (the default)
 #   deploy/slurm/start-local-cluster.sh status
 #   deploy/slurm/start-local-cluster.sh stop
 #
@@ -255,6 +255,7 @@ TaskPlugin=task/none
 SelectType=select/cons_tres
 SelectTypeParameters=CR_Core
 SchedulerType=sched/backfill
+# Start jobs at once (no batch delay, backfill every second): tests wait on them.
 SchedulerParameters=batch_sched_delay=0,bf_interval=1
 ReturnToService=2
 SlurmUser=root
