@@ -142,7 +142,9 @@ func zshCompletion(cmds []command, shipped []string) string {
 	for _, c := range cmds {
 		fmt.Fprintf(&b, "    '%s:%s'\n", c.name, zshQuote(c.summary))
 	}
-	b.WriteString("  )\n  if (( CURRENT == 2 )); then\n    _describe 'command' commands\n    return\n  fi\n  case $words[2] in\n")
+	// For the command's own arguments, drop "rhomark" from the words so
+	// that _arguments counts positions from the command name.
+	b.WriteString("  )\n  if (( CURRENT == 2 )); then\n    _describe 'command' commands\n    return\n  fi\n  shift words\n  (( CURRENT-- ))\n  case $words[1] in\n")
 	for _, c := range cmds {
 		fmt.Fprintf(&b, "    %s)\n      _arguments \\\n", c.name)
 		for _, f := range commandFlags(c) {
@@ -163,7 +165,7 @@ func zshCompletion(cmds []command, shipped []string) string {
 		switch c.name {
 		case "run", "breakdown", "replay", "scenarios":
 			// One rest specification: zsh refuses two.
-			fmt.Fprintf(&b, "        '*: :_alternative \"scenarios:shipped scenario:(%s)\" \"files:file:_files\"' ;;\n", strings.Join(shipped, " "))
+			fmt.Fprintf(&b, "        '*:scenario or file: _alternative \"scenarios:shipped scenario:(%s)\" \"files:file:_files\"' ;;\n", strings.Join(shipped, " "))
 		case "completion":
 			b.WriteString("        '1:shell:(bash zsh)' ;;\n")
 		default:
