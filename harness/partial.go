@@ -24,6 +24,10 @@ type Partial struct {
 	// Tool is the program version that produced the work; partials from
 	// different versions are not merged.
 	Tool string `json:"tool"`
+	// Build identifies the build of the program that did the work (see
+	// BuildID). Builds of one version may compute different numbers, so
+	// partials from different builds are neither resumed nor merged.
+	Build string `json:"build"`
 	// Scenario, File and Source are the scenario's name, file name and
 	// full text, so the work can be summarised or resumed from the partial
 	// alone; Hash is the scenario's hash.
@@ -40,6 +44,9 @@ type Partial struct {
 	Shards int `json:"shards"` // number of shards; this one is Shard, counted from 0
 	// Units is the total number of units of the run.
 	Units int `json:"units"`
+	// Path is the file the partial was read from, if the caller sets it;
+	// errors about the partial name it. It is not written.
+	Path string `json:"-"`
 
 	done  *big.Int     // the finished units, unit u at bit u
 	cells []*cellTally // the tallies, once attached to the scenario's plans
@@ -241,7 +248,8 @@ func newPartial(st *scenarios.Study, plans []cellPlan, seed uint64, reps int, op
 	for _, p := range plans {
 		total += p.blocks
 	}
-	p := &Partial{Tool: opt.Tool.Version, Scenario: st.Base.Name, File: st.File, Source: string(st.Source), Hash: st.Hash,
+	build := opt.buildID()
+	p := &Partial{Tool: opt.Tool.Version, Build: build, Scenario: st.Base.Name, File: st.File, Source: string(st.Source), Hash: st.Hash,
 		Seed: seed, Replicates: reps, Shard: opt.Shard, Shards: opt.Shards, Units: total, done: new(big.Int)}
 	for _, pl := range plans {
 		p.cells = append(p.cells, pl.newTally())
@@ -257,6 +265,8 @@ func newPartial(st *scenarios.Study, plans []cellPlan, seed uint64, reps int, op
 		return nil, fmt.Errorf("the checkpoint is of seed %d with %d replicates, this run seed %d with %d", r.Seed, r.Replicates, seed, reps)
 	case r.Tool != opt.Tool.Version:
 		return nil, fmt.Errorf("the checkpoint was written by rhomark %s, this is %s; resume with the same version", r.Tool, opt.Tool.Version)
+	case r.Build != build:
+		return nil, fmt.Errorf("the checkpoint was written by build %s, this is build %s: builds may compute different numbers, so resume with the build that started the run, or start afresh", orUnknown(r.Build), build)
 	case r.Units != total:
 		return nil, errors.New("the checkpoint's units do not match the scenario")
 	case r.Shards != opt.Shards || r.Shard != opt.Shard:
@@ -270,6 +280,15 @@ func newPartial(st *scenarios.Study, plans []cellPlan, seed uint64, reps int, op
 	}
 	p.done.Set(r.done)
 	return p, nil
+}
+
+// orUnknown names a missing build identity (a partial written before
+// builds were recorded).
+func orUnknown(b string) string {
+	if b == "" {
+		return "(none recorded)"
+	}
+	return b
 }
 
 // snapshot returns a deep copy of the state, safe to write while the run

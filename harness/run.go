@@ -36,6 +36,9 @@ type Options struct {
 	Progress func(done, total int64)
 	// Tool names the program for the results' provenance.
 	Tool results.Tool
+	// Build identifies the build doing the work, recorded in its Partial
+	// and checked against a resumed checkpoint's; empty means BuildID().
+	Build string
 	// KeepReplicates, if not nil, receives the replicate file: every
 	// replicate's estimates, iterations and status (see results). The
 	// blocks are written in cell and replicate order, so the file does not
