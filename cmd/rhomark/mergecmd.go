@@ -59,6 +59,14 @@ func mergeCmd(e env, args []string) error {
 	if err != nil {
 		return dataError{err}
 	}
+	if err := os.MkdirAll(*out, 0o755); err != nil {
+		return fmt.Errorf("cannot create the output directory: %w", err)
+	}
+	lock, err := lockRun(*out, st.Base.Name, 0, 0)
+	if err != nil {
+		return err
+	}
+	defer lock.Unlock()
 	res, err := harness.Summarise(st, merged, results.Tool{Name: "rhomark", Version: merged.Tool})
 	if err != nil {
 		return err
