@@ -49,6 +49,7 @@ func commands() []command {
 		{"compare", "compare two runs: summary within Monte Carlo error, or paired replicate by replicate", compareCmd},
 		{"replay", "regenerate one replicate's dataset and trace each solver on it", replayCmd},
 		{"merge", "merge the partial results of the shards of one run", mergeCmd},
+		{"unpack", "print a replicate file's estimates as a tidy CSV", unpackCmd},
 		{"report", "write an HTML report, a Markdown summary and figures of a run", reportCmd},
 		{"completion", "print a bash or zsh completion script", completionCmd},
 	}
