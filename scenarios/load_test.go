@@ -286,3 +286,27 @@ func TestExpansionBounded(t *testing.T) {
 		t.Errorf("error %v, want one refusing 100 cells of a long document", err)
 	}
 }
+
+// TestWorkGrowsWithSquareOfCoefficients: the work limit counts a fit as
+// n × p², so ten times the columns is a hundred times the work, not ten.
+func TestWorkGrowsWithSquareOfCoefficients(t *testing.T) {
+	study := func(columns int) string {
+		var b strings.Builder
+		b.WriteString("replicates: 1000\nmodel:\n  n: 100\n  intercept: none\n  columns:\n")
+		for j := range columns {
+			fmt.Fprintf(&b, "    - {name: x%d}\n", j)
+		}
+		b.WriteString("estimators: [{method: ls}]\n")
+		return b.String()
+	}
+	// 1000 replicates × 100 × 2² = 4e5 units; with 20 columns 4e7 (2e6 if
+	// the work were linear in the columns).
+	lim := Limits{MaxWork: 1e7}
+	if _, err := Parse("two.yaml", []byte(study(2)), lim); err != nil {
+		t.Errorf("2 columns: %v", err)
+	}
+	_, err := Parse("twenty.yaml", []byte(study(20)), lim)
+	if err == nil || !strings.Contains(err.Error(), "4e+07 units of work") || !strings.Contains(err.Error(), "coefficients²") {
+		t.Errorf("20 columns under a limit of 1e7: %v, want a refusal at 4e+07 units", err)
+	}
+}

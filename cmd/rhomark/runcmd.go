@@ -43,8 +43,8 @@ func runCmd(e env, args []string) error {
 	if *reps < 0 {
 		return usagef("--replicates must be positive, got %d", *reps)
 	}
-	if *workers < 0 {
-		return usagef("--workers must be positive, got %d", *workers)
+	if *workers < 0 || *workers > maxWorkers {
+		return usagef("--workers must be from 1 to %d (or 0: one per core), got %d", maxWorkers, *workers)
 	}
 	if *every < 0 {
 		return usagef("--checkpoint-every must not be negative")
@@ -215,6 +215,10 @@ func runCmd(e env, args []string) error {
 	}
 	return stopped(runErr, *out)
 }
+
+// maxWorkers bounds --workers: each worker holds a workspace per estimator,
+// and far more workers than cores only costs memory.
+const maxWorkers = 1024
 
 // stopped turns the error of a run into the command's: an interruption
 // says the work is safe and how to continue it.
@@ -420,7 +424,7 @@ func addLimitFlags(fs *flag.FlagSet) limitFlags {
 		cells: fs.Int("max-cells", 0, "refuse scenarios with more than `N` cells (default 10000)"),
 		n:     fs.Int("max-n", 0, "refuse datasets of more than `N` observations (default 1000000)"),
 		reps:  fs.Int("max-replicates", 0, "refuse more than `N` replicates per cell (default 10000000)"),
-		work:  fs.Float64("max-work", 0, "refuse studies of more than `W` cells × replicates × n × coefficients × estimators (default 1e13)"),
+		work:  fs.Float64("max-work", 0, "refuse studies of more than `W` units of work, cells × replicates × estimators × n × coefficients² (default 1e13)"),
 	}
 }
 
