@@ -212,3 +212,23 @@ func TestOutputLockAcrossProcesses(t *testing.T) {
 	}
 	l.Unlock()
 }
+
+// TestSavedJSONIsWriteJSON: the results file, written cell by cell to
+// bound memory, is byte for byte what WriteJSON prints.
+func TestSavedJSONIsWriteJSON(t *testing.T) {
+	dir := t.TempDir()
+	code, out, errs := rhomark(t, "run", "flow-meter", "--replicates", "40", "--out", dir, "--json", "--quiet")
+	if code != exitOK {
+		t.Fatalf("exit %d: %s", code, errs)
+	}
+	saved, err := os.ReadFile(filepath.Join(dir, "flow-meter.json"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !bytes.Equal(saved, []byte(out)) {
+		t.Errorf("the saved JSON (%d bytes) differs from WriteJSON's (%d bytes)", len(saved), len(out))
+	}
+	if !bytes.Contains(saved, []byte(`"cells": [`)) || bytes.Count(saved, []byte(`"settings"`)) < 4 {
+		t.Error("the saved JSON lacks its cells")
+	}
+}

@@ -6,6 +6,7 @@ import (
 	"errors"
 	"flag"
 	"fmt"
+	"io"
 	"io/fs"
 	"os"
 	"os/signal"
@@ -142,11 +143,7 @@ func runCmd(e env, args []string) error {
 		}
 		opt.CheckpointEvery = *every
 		opt.Checkpoint = func(p *harness.Partial) error {
-			var b bytes.Buffer
-			if err := harness.WritePartial(&b, p); err != nil {
-				return err
-			}
-			return results.WriteFileAtomic(cpPath, b.Bytes())
+			return results.WriteAtomic(cpPath, func(w io.Writer) error { return harness.WritePartial(w, p) })
 		}
 	}
 	var repFile *os.File
