@@ -86,7 +86,7 @@ func exprOptions(env map[string]any) []expr.Option {
 		},
 	}
 	binary := map[string]func(float64, float64) float64{"min": math.Min, "max": math.Max, "pow": math.Pow}
-	opts := []expr.Option{expr.Env(env), expr.DisableAllBuiltins(), expr.AsFloat64(), expr.MaxNodes(maxExprNodes)}
+	opts := []expr.Option{expr.Env(env), expr.DisableAllBuiltins(), expr.AsFloat64(), expr.MaxNodes(maxExprNodes), expr.Patch(floatLiterals{})}
 	names := make([]string, 0, len(unary))
 	for n := range unary {
 		names = append(names, n)
@@ -105,6 +105,20 @@ func exprOptions(env map[string]any) []expr.Option {
 		}, new(func(float64, float64) float64)))
 	}
 	return opts
+}
+
+// floatLiterals turns every integer literal into a float64 literal, so that
+// all arithmetic of an expression is in float64: integer arithmetic in the
+// expr VM wraps around silently on overflow (10000000000 * 10000000000 would
+// be negative), while float64 arithmetic rounds and overflows to ±Inf, which
+// the finiteness checks catch.
+type floatLiterals struct{}
+
+// Visit replaces an integer literal by the same value as a float literal.
+func (floatLiterals) Visit(node *ast.Node) {
+	if n, ok := (*node).(*ast.IntegerNode); ok {
+		ast.Patch(node, &ast.FloatNode{Value: float64(n.Value)})
+	}
 }
 
 // toFloat converts a numeric value from the expr VM to float64.

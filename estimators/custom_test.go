@@ -203,3 +203,33 @@ func TestCustomConcurrent(t *testing.T) {
 	}
 	wg.Wait()
 }
+
+// TestCustomIntegerArithmeticIsFloat: integer literals are computed in
+// float64, so products that would overflow int64 round instead of
+// wrapping around to a wrong sign or size.
+func TestCustomIntegerArithmeticIsFloat(t *testing.T) {
+	cases := []struct {
+		psi  string
+		at   float64
+		want float64
+	}{
+		// 1e10 × 1e10 overflows int64 (wrapping to 7766279631452241920).
+		{"r * (10000000000 * 10000000000) / 1e20", 1.5, 1.5 * (1e10 * 1e10) / 1e20},
+		// The largest int64 doubled wraps to -2 in integer arithmetic.
+		{"r * (9223372036854775807 + 9223372036854775807) / 1.8e19", 2, 2 * (9223372036854775807.0 + 9223372036854775807.0) / 1.8e19},
+		// Integer division stays true division.
+		{"r * (7 / 2)", 2, 7},
+		// -(-9223372036854775808) cannot be an int64.
+		{"r * -(-9223372036854775807 - 1) / 9.2e18", 3, 3 * -(-9223372036854775807.0 - 1) / 9.2e18},
+	}
+	for _, c := range cases {
+		p, err := NewCustom(CustomSpec{Psi: c.psi})
+		if err != nil {
+			t.Errorf("%s: %v", c.psi, err)
+			continue
+		}
+		if got := p.Psi(c.at); got != c.want {
+			t.Errorf("%s at r = %v: %v, want %v", c.psi, c.at, got, c.want)
+		}
+	}
+}

@@ -71,11 +71,14 @@ func MergePartials(parts []*Partial, limits scenarios.Limits) (*Partial, *scenar
 		if p.Tool != first.Tool {
 			why = append(why, fmt.Sprintf("rhomark %s vs %s", p.Tool, first.Tool))
 		}
+		if p.Build != first.Build {
+			why = append(why, fmt.Sprintf("build %s vs %s (builds may compute different numbers; rerun the shards with one build)", orUnknown(p.Build), orUnknown(first.Build)))
+		}
 		if p.Shards != first.Shards {
 			why = append(why, fmt.Sprintf("split into %d vs %d shards", p.Shards, first.Shards))
 		}
 		if len(why) > 0 {
-			return nil, nil, fmt.Errorf("partial %d does not belong with partial 1: %s", i+2, strings.Join(why, "; "))
+			return nil, nil, fmt.Errorf("%s does not belong with %s: %s", p.name(i+1), first.name(0), strings.Join(why, "; "))
 		}
 	}
 	m := first.Shards
@@ -83,8 +86,10 @@ func MergePartials(parts []*Partial, limits scenarios.Limits) (*Partial, *scenar
 		m = 1
 	}
 	count := map[int]int{}
-	for _, p := range parts {
+	files := map[int][]string{}
+	for i, p := range parts {
 		count[p.Shard]++
+		files[p.Shard] = append(files[p.Shard], p.name(i))
 	}
 	var missing, dup []string
 	for s := 0; s < m; s++ {
@@ -92,7 +97,7 @@ func MergePartials(parts []*Partial, limits scenarios.Limits) (*Partial, *scenar
 		case count[s] == 0:
 			missing = append(missing, fmt.Sprint(s))
 		case count[s] > 1:
-			dup = append(dup, fmt.Sprintf("%d (%d times)", s, count[s]))
+			dup = append(dup, fmt.Sprintf("%d (%d times: %s)", s, count[s], strings.Join(files[s], ", ")))
 		}
 	}
 	if len(missing) > 0 || len(dup) > 0 {
@@ -107,7 +112,7 @@ func MergePartials(parts []*Partial, limits scenarios.Limits) (*Partial, *scenar
 	}
 	st, err := StudyOf(first, limits)
 	if err != nil {
-		return nil, nil, err
+		return nil, nil, fmt.Errorf("%s: %w", first.name(0), err)
 	}
 	plans, err := plan(st, first.Replicates)
 	if err != nil {
@@ -123,10 +128,10 @@ func MergePartials(parts []*Partial, limits scenarios.Limits) (*Partial, *scenar
 	}
 	for _, p := range parts {
 		if err := attach(p, plans); err != nil {
-			return nil, nil, fmt.Errorf("shard %d: %w", p.Shard, err)
+			return nil, nil, fmt.Errorf("%s (shard %d): %w", p.name(-1), p.Shard, err)
 		}
 		if overlap := new(big.Int).And(merged.done, p.done); overlap.Sign() != 0 {
-			return nil, nil, fmt.Errorf("shard %d repeats work another shard already did", p.Shard)
+			return nil, nil, fmt.Errorf("%s (shard %d) repeats work another shard already did", p.name(-1), p.Shard)
 		}
 		merged.done.Or(merged.done, p.done)
 		for i := range plans {
@@ -134,6 +139,18 @@ func MergePartials(parts []*Partial, limits scenarios.Limits) (*Partial, *scenar
 		}
 	}
 	return &merged, st, nil
+}
+
+// name names a partial in messages: its file, or its position i (from 0)
+// among the partials merged, or its shard number when i < 0.
+func (p *Partial) name(i int) string {
+	switch {
+	case p.Path != "":
+		return p.Path
+	case i >= 0:
+		return fmt.Sprintf("partial %d", i+1)
+	}
+	return fmt.Sprintf("the partial of shard %d", p.Shard)
 }
 
 // Summarise turns the work in a partial (merged shards, or a checkpoint)

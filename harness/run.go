@@ -36,6 +36,9 @@ type Options struct {
 	Progress func(done, total int64)
 	// Tool names the program for the results' provenance.
 	Tool results.Tool
+	// Build identifies the build doing the work, recorded in its Partial
+	// and checked against a resumed checkpoint's; empty means BuildID().
+	Build string
 	// KeepReplicates, if not nil, receives the replicate file: every
 	// replicate's estimates, iterations and status (see results). The
 	// blocks are written in cell and replicate order, so the file does not
@@ -173,10 +176,7 @@ func RunPartial(ctx context.Context, st *scenarios.Study, opt Options) (*results
 		if opt.Checkpoint == nil {
 			return nil
 		}
-		mu.Lock()
-		snap := state.snapshot()
-		mu.Unlock()
-		return opt.Checkpoint(snap)
+		return opt.Checkpoint(state.snapshot(&mu, firstUnit))
 	}
 	tickerDone := make(chan struct{})
 	var tickerWG sync.WaitGroup
@@ -248,16 +248,20 @@ func RunPartial(ctx context.Context, st *scenarios.Study, opt Options) (*results
 		}
 	}
 	// The last checkpoint records everything finished, also when the run
-	// was stopped, so that it can be resumed.
-	if err := checkpoint(); err != nil && failure == nil {
-		failure = fmt.Errorf("writing a checkpoint: %w", err)
+	// was stopped, so that it can be resumed. The workers have stopped,
+	// so the state itself is handed over (and returned below) rather than
+	// a copy: at 10,000 cells a copy of the tallies is hundreds of MB.
+	if opt.Checkpoint != nil {
+		if err := opt.Checkpoint(state); err != nil && failure == nil {
+			failure = fmt.Errorf("writing a checkpoint: %w", err)
+		}
 	}
 	res := summariseAll(st, plans, state.cells, seed, reps, opt.Tool)
 	res.Provenance = provenance(workers, started, plans, state.cells)
 	if !state.Complete() {
 		res.Complete = false
 	}
-	final := state.snapshot()
+	final := state
 	if failure != nil {
 		res.Complete = false
 		return res, final, failure

@@ -81,7 +81,7 @@ func TestMergeRefusals(t *testing.T) {
 		want  string
 	}{
 		{[]*Partial{a0, a2}, "missing shards 1"},
-		{[]*Partial{a0, a1, a1, a2}, "duplicated shards 1 (2 times)"},
+		{[]*Partial{a0, a1, a1, a2}, "duplicated shards 1 (2 times: partial 2, partial 3)"},
 		{[]*Partial{a0, a1, shard(2, 3, 41)}, "replicates 41 vs 40"},
 	}
 	other := parse(t, strings.Replace(flowMeterLike, "scale: 0.15", "scale: 0.2", 1))

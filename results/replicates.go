@@ -3,6 +3,7 @@ package results
 import (
 	"bufio"
 	"cmp"
+	"compress/flate"
 	"compress/gzip"
 	"encoding/binary"
 	"encoding/json"
@@ -26,6 +27,21 @@ import (
 //
 // 100,000 replicates of five estimators with five coefficients take about
 // 21 MB before compression.
+
+// ErrDamagedReplicates is wrapped by every error of ReplicateReader about
+// the content of a replicate file (not a replicate file, truncated,
+// corrupted, out of range): bad input rather than a failure of the reader.
+var ErrDamagedReplicates = errors.New("damaged replicate file")
+
+// damaged is an error about a replicate file's content: its message, and
+// ErrDamagedReplicates for errors.Is.
+type damaged struct{ msg string }
+
+func (d damaged) Error() string        { return d.msg }
+func (d damaged) Is(target error) bool { return target == ErrDamagedReplicates }
+
+// damagedf returns a damaged error.
+func damagedf(format string, args ...any) error { return damaged{fmt.Sprintf(format, args...)} }
 
 // replicateMagic opens every replicate file.
 const replicateMagic = "rhomark replicates 1\n"
@@ -125,23 +141,23 @@ type ReplicateReader struct {
 func NewReplicateReader(r io.Reader) (*ReplicateReader, error) {
 	gz, err := gzip.NewReader(r)
 	if err != nil {
-		return nil, fmt.Errorf("not a replicate file (%v)", err)
+		return nil, damagedf("not a replicate file (%v)", err)
 	}
 	br := bufio.NewReader(gz)
 	magic := make([]byte, len(replicateMagic))
 	if _, err := io.ReadFull(br, magic); err != nil || string(magic) != replicateMagic {
-		return nil, errors.New("not a replicate file of this version (bad first line)")
+		return nil, damagedf("not a replicate file of this version (bad first line)")
 	}
 	line, err := br.ReadBytes('\n')
 	if err != nil {
-		return nil, fmt.Errorf("replicate file header: %w", corrupt(err))
+		return nil, damagedf("replicate file header: %v", corrupt(err))
 	}
 	rr := &ReplicateReader{br: br}
 	if err := json.Unmarshal(line, &rr.Header); err != nil {
-		return nil, fmt.Errorf("replicate file header: %v", err)
+		return nil, damagedf("replicate file header: %v", err)
 	}
 	if len(rr.Header.Statuses) > 256 {
-		return nil, errors.New("replicate file header: too many statuses")
+		return nil, damagedf("replicate file header: too many statuses")
 	}
 	return rr, nil
 }
@@ -149,8 +165,10 @@ func NewReplicateReader(r io.Reader) (*ReplicateReader, error) {
 // corrupt turns the errors of a cut or damaged gzip stream into a clear
 // message.
 func corrupt(err error) error {
-	if errors.Is(err, io.ErrUnexpectedEOF) || errors.Is(err, gzip.ErrChecksum) || errors.Is(err, io.EOF) {
-		return fmt.Errorf("the file is truncated or corrupted (%v); re-run to regenerate it", err)
+	var flateErr flate.CorruptInputError
+	if errors.Is(err, io.ErrUnexpectedEOF) || errors.Is(err, gzip.ErrChecksum) || errors.Is(err, gzip.ErrHeader) ||
+		errors.Is(err, io.EOF) || errors.As(err, &flateErr) {
+		return damagedf("the file is truncated or corrupted (%v); re-run to regenerate it", err)
 	}
 	return err
 }
@@ -172,8 +190,8 @@ func (rr *ReplicateReader) Next() (ReplicateRecord, error) {
 		if err := cmp.Or(err1, err2); err != nil {
 			return rec, corrupt(err)
 		}
-		if cell >= uint64(len(rr.Header.Cells)) || count == 0 || count > 1<<30 || first > 1<<40 {
-			return rec, errors.New("the replicate file is corrupted (a block is out of range)")
+		if cell >= uint64(len(rr.Header.Cells)) || count == 0 || count > 1<<30 || first > 1<<40 || len(rr.Header.Cells[cell].Estimators) == 0 {
+			return rec, damagedf("the replicate file is corrupted (a block is out of range)")
 		}
 		rr.cell, rr.next, rr.est = int(cell), int(first), 0
 		rr.left = int(count) * len(rr.Header.Cells[cell].Estimators)
@@ -188,7 +206,7 @@ func (rr *ReplicateReader) Next() (ReplicateRecord, error) {
 		return rec, corrupt(err)
 	}
 	if int(s) >= len(rr.Header.Statuses) {
-		return rec, errors.New("the replicate file is corrupted (unknown status code)")
+		return rec, damagedf("the replicate file is corrupted (unknown status code)")
 	}
 	rec = ReplicateRecord{Cell: rr.cell, Replicate: rr.next, Estimator: rr.est, Status: rr.Header.Statuses[s], Iterations: int(it),
 		Coefficients: make([]float64, len(lay.Coefficients))}

@@ -1,7 +1,9 @@
 package results
 
 import (
+	"bufio"
 	"bytes"
+	"encoding/json"
 	"fmt"
 	"io"
 	"os"
@@ -27,7 +29,7 @@ func Save(dir string, r *Results) ([]string, error) {
 		ext   string
 		write func(io.Writer) error
 	}{
-		{".json", func(w io.Writer) error { return WriteJSON(w, r) }},
+		{".json", func(w io.Writer) error { return writeJSONByCell(w, r) }},
 		{".csv", func(w io.Writer) error { return WriteCSV(w, r) }},
 		{".txt", func(w io.Writer) error { return WriteTable(w, r, 80) }},
 	}
@@ -39,17 +41,55 @@ func Save(dir string, r *Results) ([]string, error) {
 	}
 	var paths []string
 	for _, o := range outputs {
-		var buf bytes.Buffer
-		if err := o.write(&buf); err != nil {
-			return paths, err
-		}
 		p := filepath.Join(dir, base+o.ext)
-		if err := WriteFileAtomic(p, buf.Bytes()); err != nil {
+		if err := WriteAtomic(p, o.write); err != nil {
 			return paths, err
 		}
 		paths = append(paths, p)
 	}
 	return paths, nil
+}
+
+// WriteAtomic streams what write produces into a temporary file beside
+// path, then commits it (see CommitTemp). Streaming rather than buffering
+// keeps large results (hundreds of MB of JSON at 10,000 cells) out of
+// memory. A failure of the file is a *WriteError; an error of write itself
+// is returned as it is. Either way path is untouched.
+func WriteAtomic(path string, write func(io.Writer) error) error {
+	tmp, err := CreateTemp(path)
+	if err != nil {
+		return err
+	}
+	fw := &fileWriter{f: tmp}
+	bw := bufio.NewWriterSize(fw, 1<<16)
+	err = write(bw)
+	if err == nil {
+		err = bw.Flush()
+	}
+	if err != nil {
+		tmp.Close()
+		os.Remove(tmp.Name())
+		if fw.err != nil {
+			return &WriteError{Path: path, Err: fw.err}
+		}
+		return err
+	}
+	return CommitTemp(tmp, path)
+}
+
+// fileWriter writes to a file and keeps its first error, to tell a failed
+// write from a failed encoding.
+type fileWriter struct {
+	f   *os.File
+	err error
+}
+
+func (w *fileWriter) Write(p []byte) (int, error) {
+	n, err := w.f.Write(p)
+	if err != nil && w.err == nil {
+		w.err = err
+	}
+	return n, err
 }
 
 // SafeName checks that name can be used as a file name inside an output
@@ -129,4 +169,54 @@ func WriteFileAtomic(path string, data []byte) error {
 		return &WriteError{Path: path, Err: err}
 	}
 	return CommitTemp(tmp, path)
+}
+
+// writeJSONByCell writes exactly what WriteJSON writes, but encodes the
+// cells one at a time: encoding/json holds the whole document twice
+// (compact, then indented), which at 10,000 cells is over 400 MB.
+func writeJSONByCell(w io.Writer, r *Results) error {
+	if len(r.Cells) == 0 {
+		return WriteJSON(w, r)
+	}
+	shell := *r
+	shell.Cells = []Cell{}
+	head, err := json.MarshalIndent(&shell, "", "  ")
+	if err != nil {
+		return err
+	}
+	// The top-level key is the only one indented by exactly two spaces
+	// after a newline (a quote inside a string is escaped).
+	const marker = "\n  \"cells\": []"
+	at := bytes.Index(head, []byte(marker))
+	if at < 0 || bytes.Contains(head[at+len(marker):], []byte(marker)) {
+		return WriteJSON(w, r) // not the expected shape: the plain way
+	}
+	cut := at + len(marker) - 1 // before the closing bracket
+	if _, err := w.Write(head[:cut]); err != nil {
+		return err
+	}
+	for i := range r.Cells {
+		b, err := json.MarshalIndent(&r.Cells[i], "    ", "  ")
+		if err != nil {
+			return err
+		}
+		sep := ",\n    "
+		if i == 0 {
+			sep = "\n    "
+		}
+		if _, err := io.WriteString(w, sep); err != nil {
+			return err
+		}
+		if _, err := w.Write(b); err != nil {
+			return err
+		}
+	}
+	if _, err := io.WriteString(w, "\n  "); err != nil {
+		return err
+	}
+	if _, err := w.Write(head[cut:]); err != nil {
+		return err
+	}
+	_, err = io.WriteString(w, "\n")
+	return err
 }

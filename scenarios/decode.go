@@ -72,12 +72,21 @@ func parseDocument(file string, data []byte) (root *yaml.Node, err error) {
 		return nil, &Error{File: file, Msg: "not a YAML document"}
 	}
 	budget := maxNodes
-	out, ok := expand(doc.Content[0], &budget, 0)
-	if !ok {
-		return nil, &Error{File: file, Msg: fmt.Sprintf("document expands to more than %d nodes (aliases referring to aliases?); scenario files that large are refused", maxNodes)}
+	out, bad := expand(doc.Content[0], &budget, 0)
+	switch {
+	case bad == nil:
+		return out, nil
+	case bad.Kind == yaml.AliasNode && bad.Alias == nil:
+		return nil, &Error{File: file, Line: bad.Line, Column: bad.Column, Msg: "an alias refers to no anchor"}
+	case budget <= 0:
+		return nil, &Error{File: file, Line: bad.Line, Column: bad.Column, Msg: fmt.Sprintf("document expands to more than %d nodes (aliases referring to aliases?); scenario files that large are refused", maxNodes)}
 	}
-	return out, nil
+	return nil, &Error{File: file, Line: bad.Line, Column: bad.Column,
+		Msg: fmt.Sprintf("values are nested more than %d levels deep here (lists or mappings inside each other); a scenario needs fewer than ten", maxDepth)}
 }
+
+// maxDepth bounds how deep values may nest in a scenario document.
+const maxDepth = 200
 
 // yamlError turns a yaml.v3 error into an *Error, keeping its line.
 func yamlError(file string, err error) error {
@@ -93,23 +102,27 @@ func yamlError(file string, err error) error {
 }
 
 // expand returns a deep copy of n with every alias replaced by a copy of its
-// anchor's node, counting nodes against budget. It reports false when the
-// budget runs out or nesting is absurdly deep.
-func expand(n *yaml.Node, budget *int, depth int) (*yaml.Node, bool) {
-	if *budget <= 0 || depth > 200 || n == nil {
-		return nil, false
+// anchor's node, counting nodes against budget. When it cannot (the budget
+// runs out, nesting passes maxDepth, an alias has no anchor) it returns the
+// node where it stopped as bad: budget ≤ 0 says the budget ran out.
+func expand(n *yaml.Node, budget *int, depth int) (out, bad *yaml.Node) {
+	if n == nil {
+		return nil, &yaml.Node{}
+	}
+	if *budget <= 0 || depth > maxDepth {
+		return nil, n
 	}
 	*budget--
 	if n.Kind == yaml.AliasNode {
 		if n.Alias == nil {
-			return nil, false
+			return nil, n
 		}
-		c, ok := expand(n.Alias, budget, depth+1)
-		if !ok {
-			return nil, false
+		c, bad := expand(n.Alias, budget, depth+1)
+		if bad != nil {
+			return nil, bad
 		}
 		c.Line, c.Column = n.Line, n.Column
-		return c, true
+		return c, nil
 	}
 	c := *n
 	c.Anchor = ""
@@ -117,13 +130,13 @@ func expand(n *yaml.Node, budget *int, depth int) (*yaml.Node, bool) {
 	if len(n.Content) > 0 {
 		c.Content = make([]*yaml.Node, len(n.Content))
 		for i, k := range n.Content {
-			var ok bool
-			if c.Content[i], ok = expand(k, budget, depth+1); !ok {
-				return nil, false
+			var bad *yaml.Node
+			if c.Content[i], bad = expand(k, budget, depth+1); bad != nil {
+				return nil, bad
 			}
 		}
 	}
-	return &c, true
+	return &c, nil
 }
 
 // kindName names a node's kind for messages.

@@ -374,6 +374,16 @@ func (v Correlation) matrix(k int) (*mat.SymDense, error) {
 	return out, nil
 }
 
+// The range of noise.scale. The Monte Carlo standard errors of variances
+// use fourth powers of the estimation errors, which scale with the noise:
+// within [1e-50, 1e50] they stay normal float64 values (about 1e±200) with
+// room for heavy tails, while a denormal scale gave underflowed sums and
+// nonsense such as a gap of -1e30 MCSE.
+const (
+	minNoiseScale = 1e-50
+	maxNoiseScale = 1e50
+)
+
 func (s *Scenario) validateNoise(c checker) {
 	n := &s.Noise
 	info, ok := noiseInfo(n.Dist)
@@ -381,8 +391,8 @@ func (s *Scenario) validateNoise(c checker) {
 		c.fail("noise.dist", "unknown noise %q; valid: %s", n.Dist, strings.Join(noiseNames(), ", "))
 		return
 	}
-	if !(*n.Scale > 0) {
-		c.fail("noise.scale", "must be a positive number, got %v", *n.Scale)
+	if v := *n.Scale; !(v >= minNoiseScale && v <= maxNoiseScale) {
+		c.fail("noise.scale", "must be a number from %g to %g, got %v (rescale the model's units if the noise really is that small or large)", minNoiseScale, maxNoiseScale, v)
 	}
 	given := map[string]*float64{"df": n.DF, "mix-fraction": n.MixFraction, "mix-factor": n.MixFactor, "shape": n.Shape}
 	for _, key := range []string{"df", "mix-fraction", "mix-factor", "shape"} {

@@ -7,7 +7,10 @@ import (
 	"io"
 	"runtime/debug"
 	"sort"
+	"strconv"
 	"strings"
+
+	"github.com/rhomark/rhomark/harness"
 )
 
 // Exit statuses.
@@ -46,6 +49,7 @@ func commands() []command {
 		{"compare", "compare two runs: summary within Monte Carlo error, or paired replicate by replicate", compareCmd},
 		{"replay", "regenerate one replicate's dataset and trace each solver on it", replayCmd},
 		{"merge", "merge the partial results of the shards of one run", mergeCmd},
+		{"unpack", "print a replicate file's estimates as a tidy CSV", unpackCmd},
 		{"report", "write an HTML report, a Markdown summary and figures of a run", reportCmd},
 		{"completion", "print a bash or zsh completion script", completionCmd},
 	}
@@ -172,6 +176,7 @@ func versionText() string {
 		}
 		b.WriteString(")")
 	}
+	fmt.Fprintf(&b, "\nbuild %s (checkpoints and shards are resumed and merged only by the same build)", harness.BuildID())
 	return b.String()
 }
 
@@ -215,4 +220,54 @@ func parseFlags(fs *cmdFlags, args []string) ([]string, error) {
 		pos = append(pos, args[0])
 		args = args[1:]
 	}
+}
+
+// seedFlag is the value of every --seed option: an unsigned 64-bit integer
+// written in decimal digits only (no sign, exponent, underscore, base
+// prefix or fraction), so that "1e3" or "0x10" is refused rather than read
+// as something else.
+type seedFlag struct {
+	value uint64
+	set   bool
+}
+
+// String returns the seed, or "" when it was not given.
+func (s *seedFlag) String() string {
+	if s == nil || !s.set {
+		return ""
+	}
+	return strconv.FormatUint(s.value, 10)
+}
+
+// Set parses a seed.
+func (s *seedFlag) Set(v string) error {
+	u, err := parseSeed(v)
+	if err != nil {
+		return err
+	}
+	s.value, s.set = u, true
+	return nil
+}
+
+// get returns the seed and whether it was given.
+func (s *seedFlag) get() (uint64, bool) { return s.value, s.set }
+
+// parseSeed reads a seed: decimal digits, 0 to 18446744073709551615.
+func parseSeed(v string) (uint64, error) {
+	const valid = "want a whole number from 0 to 18446744073709551615 in decimal digits"
+	if v == "" || strings.TrimLeft(v, "0123456789") != "" {
+		return 0, fmt.Errorf("%q is not a seed: %s", v, valid)
+	}
+	u, err := strconv.ParseUint(v, 10, 64)
+	if err != nil {
+		return 0, fmt.Errorf("%q is too large for a seed: %s", v, valid)
+	}
+	return u, nil
+}
+
+// addSeedFlag defines a --seed-like option on fs with the shared parser.
+func addSeedFlag(fs *flag.FlagSet, name, usage string) *seedFlag {
+	s := new(seedFlag)
+	fs.Var(s, name, usage)
+	return s
 }

@@ -87,7 +87,7 @@ func TestLimitsFollowOverrides(t *testing.T) {
 	dir := t.TempDir()
 	path := filepath.Join(dir, "bench.yaml")
 	os.WriteFile(path, []byte("replicates: 1000\nmodel: {n: 100, columns: [{name: volume, slope: 1}]}\nnoise: {dist: normal}\nestimators: [{method: ls}]\n"), 0o644)
-	// 1000 replicates × n 100 × 2 coefficients × 1 estimator = 2e5 units.
+	// 1000 replicates × n 100 × 2² coefficients × 1 estimator = 4e5 units.
 	code, _, errs := rhomark(t, "run", path, "--max-work", "1e5", "--quiet")
 	if code != exitUsage || !strings.Contains(errs, "--max-work") {
 		t.Errorf("over the work limit: exit %d %q", code, errs)
@@ -120,6 +120,8 @@ func TestUsageErrors(t *testing.T) {
 		{"run", "no-such-scenario"},
 		{"run", "flow-meter", "--replicates", "-3"},
 		{"run", "flow-meter", "--seed", "abc"},
+		{"run", "flow-meter", "--workers", "1025"},
+		{"run", "flow-meter", "--workers", "-1"},
 		{"run", "flow-meter", "--bogus"},
 		{"fit", "x.csv"},
 		{"fit", "../../testdata/refdata/stackloss.csv", "--y", "stack.loss", "--method", "lms"},

@@ -52,6 +52,10 @@ func compareCmd(e env, args []string) error {
 			if errors.Is(err, results.ErrDifferentScenarios) {
 				return usageError{err}
 			}
+			if errors.Is(err, results.ErrDamagedReplicates) {
+				// Bad input (exit 2), not a flagged change.
+				return dataError{fmt.Errorf("%w (baseline %s, candidate %s)", err, pr.base.replicatePath(), pr.cand.replicatePath())}
+			}
 			return err
 		}
 		c.Baseline, c.Candidate = pr.base.path, pr.cand.path
@@ -103,11 +107,20 @@ func (r loadedRun) replicates() (results.ReplicateSource, error) {
 	if r.res.ReplicateFile == "" {
 		return nil, nil
 	}
-	path := filepath.Join(filepath.Dir(r.path), filepath.Base(r.res.ReplicateFile))
+	path := r.replicatePath()
 	if _, err := os.Stat(path); err != nil {
 		return nil, dataError{fmt.Errorf("%s records the replicate file %s, which cannot be read (%v); restore it, or rerun with --keep-replicates", r.path, path, err)}
 	}
 	return func() (io.ReadCloser, error) { return os.Open(path) }, nil
+}
+
+// replicatePath returns the path of the run's replicate file, or "none"
+// when it kept none.
+func (r loadedRun) replicatePath() string {
+	if r.res.ReplicateFile == "" {
+		return "none"
+	}
+	return filepath.Join(filepath.Dir(r.path), filepath.Base(r.res.ReplicateFile))
 }
 
 type runPair struct{ base, cand loadedRun }

@@ -13,7 +13,7 @@ import (
 
 func mergeCmd(e env, args []string) error {
 	fs := newFlags(e, "merge", "PARTIAL|DIR ... --out DIR [options]",
-		"Merges the partial results of the shards of one run (NAME.shard-I-of-M.partial\nfiles, or directories holding them) into the results a single run would have\ngiven: the same summaries, bit for bit. It refuses partials of different\nscenarios, seeds, replicate counts or rhomark versions, and names missing or\nduplicated shards.")
+		"Merges the partial results of the shards of one run (NAME.shard-I-of-M.partial\nfiles, or directories holding them) into the results a single run would have\ngiven: the same summaries, bit for bit. It refuses partials of different\nscenarios, seeds, replicate counts, rhomark versions or builds, and names missing or\nduplicated shards.")
 	out := fs.String("out", "", "write NAME.json, NAME.csv and NAME.txt into this `directory` (required)")
 	asJSON := fs.Bool("json", false, "print the results as JSON instead of the table")
 	lim := addLimitFlags(fs.FlagSet)
@@ -52,12 +52,21 @@ func mergeCmd(e env, args []string) error {
 		if err != nil {
 			return dataError{fmt.Errorf("%s: %w", f, err)}
 		}
+		p.Path = f
 		parts = append(parts, p)
 	}
 	merged, st, err := harness.MergePartials(parts, lim.limits())
 	if err != nil {
 		return dataError{err}
 	}
+	if err := os.MkdirAll(*out, 0o755); err != nil {
+		return fmt.Errorf("cannot create the output directory: %w", err)
+	}
+	lock, err := lockRun(*out, st.Base.Name, 0, 0)
+	if err != nil {
+		return err
+	}
+	defer lock.Unlock()
 	res, err := harness.Summarise(st, merged, results.Tool{Name: "rhomark", Version: merged.Tool})
 	if err != nil {
 		return err

@@ -52,7 +52,7 @@ func replayCmd(e env, args []string) error {
 	rep := fs.Int("replicate", 0, "replicate `R`")
 	label := fs.String("estimator", "", "replay only the estimator with this `label`")
 	dataOut := fs.String("data-out", "", "write the dataset to this CSV `file` (default NAME-cC-rR.csv)")
-	seedFlag := fs.String("seed", "", "the run's root `seed`, if it overrode the scenario's")
+	seedFlag := addSeedFlag(fs.FlagSet, "seed", "the run's root `seed` (decimal digits), if it overrode the scenario's")
 	asJSON := fs.Bool("json", false, "print JSON")
 	lim := addLimitFlags(fs.FlagSet)
 	pos, err := parseFlags(fs, args)
@@ -73,10 +73,8 @@ func replayCmd(e env, args []string) error {
 		return usagef("--replicate must be ≥ 0")
 	}
 	seed := st.Base.Seed
-	if *seedFlag != "" {
-		if seed, err = strconv.ParseUint(*seedFlag, 10, 64); err != nil {
-			return usagef("--seed %q is not a whole number", *seedFlag)
-		}
+	if s, ok := seedFlag.get(); ok {
+		seed = s
 	}
 	sc := st.Cells[*cell].Scenario
 	if *rep >= sc.Replicates {

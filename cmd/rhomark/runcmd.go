@@ -6,6 +6,7 @@ import (
 	"errors"
 	"flag"
 	"fmt"
+	"io"
 	"io/fs"
 	"os"
 	"os/signal"
@@ -25,7 +26,7 @@ func runCmd(e env, args []string) error {
 		"Runs a scenario: SCENARIO is a YAML file, or the name of a shipped scenario\n(see 'rhomark scenarios'). Prints a summary table unless --json is given.\nWith --out, finished work is checkpointed to DIR/NAME.checkpoint, and an\ninterrupted run continues with --resume DIR. With --shard I/M (or --shards M\nunder a Slurm job array or a Kubernetes indexed job) it runs one share of the\nwork into DIR/NAME.shard-I-of-M.partial, for rhomark merge.")
 	out := fs.String("out", "", "write NAME.json, NAME.csv and NAME.txt into this `directory`")
 	reps := fs.Int("replicates", 0, "replicates per cell (`N`; default: the scenario's)")
-	seed := fs.String("seed", "", "root seed (`S`; default: the scenario's)")
+	seed := addSeedFlag(fs.FlagSet, "seed", "root seed (`S`, decimal digits; default: the scenario's)")
 	workers := fs.Int("workers", 0, "parallel workers (`W`; default: all cores)")
 	asJSON := fs.Bool("json", false, "print the results as JSON instead of the table")
 	report := fs.Bool("report", false, "with --out, also write NAME.html (a self-contained report), NAME.md and the figures")
@@ -43,18 +44,14 @@ func runCmd(e env, args []string) error {
 	if *reps < 0 {
 		return usagef("--replicates must be positive, got %d", *reps)
 	}
-	if *workers < 0 {
-		return usagef("--workers must be positive, got %d", *workers)
+	if *workers < 0 || *workers > maxWorkers {
+		return usagef("--workers must be from 1 to %d (or 0: one per core), got %d", maxWorkers, *workers)
 	}
 	if *every < 0 {
 		return usagef("--checkpoint-every must not be negative")
 	}
 	opt := harness.Options{Replicates: *reps, Workers: *workers, Tool: results.Tool{Name: "rhomark", Version: toolVersion()}}
-	if *seed != "" {
-		var s uint64
-		if _, err := fmt.Sscan(*seed, &s); err != nil {
-			return usagef("--seed must be a whole number from 0 to 18446744073709551615, got %q", *seed)
-		}
+	if s, ok := seed.get(); ok {
 		opt.Seed = &s
 	}
 	if opt.Shard, opt.Shards, err = shardOf(*shardFlag, *shards, os.Getenv); err != nil {
@@ -77,18 +74,34 @@ func runCmd(e env, args []string) error {
 		if len(pos) > 1 {
 			return usagef("--resume takes the scenario from the checkpoint; give no other argument (got %q)", pos)
 		}
-		if *reps != 0 || *seed != "" {
-			return usagef("--resume continues with the checkpoint's seed and replicates; do not give --seed or --replicates")
-		}
 		cp, err := findCheckpoint(*resume, opt.Shard, opt.Shards)
 		if err != nil {
 			return err
 		}
+		if cp.Build != harness.BuildID() {
+			build := cp.Build
+			if build == "" {
+				build = "(none recorded)"
+			}
+			return dataError{fmt.Errorf("%s was written by build %s of rhomark %s, this is build %s of rhomark %s: builds may compute different numbers, so resume with the build that started the run, or delete the checkpoint and start afresh",
+				cp.Path, build, cp.Tool, harness.BuildID(), toolVersion())}
+		}
+		// A script may repeat the run's options when it resumes: they are
+		// accepted when they agree with the checkpoint, refused otherwise.
+		if s, ok := seed.get(); ok && s != cp.Seed {
+			return usagef("--seed %d differs from the checkpoint's seed %d (%s); resume with --seed %d or without --seed, or start afresh in another directory", s, cp.Seed, cp.Path, cp.Seed)
+		}
+		if *reps != 0 && *reps != cp.Replicates {
+			return usagef("--replicates %d differs from the checkpoint's %d replicates (%s); resume with --replicates %d or without it, or start afresh in another directory", *reps, cp.Replicates, cp.Path, cp.Replicates)
+		}
+		limits.Replicates = cp.Replicates
 		if st, err = harness.StudyOf(cp, limits); err != nil {
 			return err
 		}
-		if len(pos) == 1 && pos[0] != st.Base.Name && filepath.Base(pos[0]) != filepath.Base(cp.File) {
-			return usagef("the checkpoint in %s is of scenario %s, not %s", *resume, st.Base.Name, pos[0])
+		if len(pos) == 1 {
+			if err := sameScenario(pos[0], cp, st, limits); err != nil {
+				return err
+			}
 		}
 		opt.Resume, opt.Replicates = cp, cp.Replicates
 		s := cp.Seed
@@ -118,13 +131,19 @@ func runCmd(e env, args []string) error {
 			return fmt.Errorf("cannot create the output directory: %w", err)
 		}
 		cpPath := checkpointPath(*out, name, opt.Shard, opt.Shards)
-		opt.CheckpointEvery = *every
-		opt.Checkpoint = func(p *harness.Partial) error {
-			var b bytes.Buffer
-			if err := harness.WritePartial(&b, p); err != nil {
+		lock, err := lockRun(*out, name, opt.Shard, opt.Shards)
+		if err != nil {
+			return err
+		}
+		defer lock.Unlock()
+		if opt.Resume == nil || !samePath(opt.Resume.Path, cpPath) {
+			if err := refuseCheckpoint(cpPath, *out, opt.Shard, opt.Shards); err != nil {
 				return err
 			}
-			return results.WriteFileAtomic(cpPath, b.Bytes())
+		}
+		opt.CheckpointEvery = *every
+		opt.Checkpoint = func(p *harness.Partial) error {
+			return results.WriteAtomic(cpPath, func(w io.Writer) error { return harness.WritePartial(w, p) })
 		}
 	}
 	var repFile *os.File
@@ -194,6 +213,10 @@ func runCmd(e env, args []string) error {
 	return stopped(runErr, *out)
 }
 
+// maxWorkers bounds --workers: each worker holds a workspace per estimator,
+// and far more workers than cores only costs memory.
+const maxWorkers = 1024
+
 // stopped turns the error of a run into the command's: an interruption
 // says the work is safe and how to continue it.
 func stopped(runErr error, out string) error {
@@ -218,6 +241,105 @@ func stoppedShard(runErr error, out, name string, shard, shards int) error {
 	}
 	return interrupted{fmt.Sprintf("stopped early; shard %d of %d saved its finished work in %s; continue with: rhomark run --resume %s --shard %d/%d",
 		shard, shards, checkpointPath(out, name, shard, shards), out, shard, shards)}
+}
+
+// sameScenario refuses to resume cp with a scenario (the argument arg,
+// loaded) other than the one it was made from: an edit of the file since the
+// run started would otherwise be silently ignored.
+func sameScenario(arg string, cp *harness.Partial, st *scenarios.Study, limits scenarios.Limits) error {
+	given, err := loadScenario(arg, limits)
+	if err != nil {
+		return err
+	}
+	if bytes.Equal(given.Source, st.Source) {
+		return nil
+	}
+	if given.Base.Name != st.Base.Name {
+		return usagef("the checkpoint %s is of scenario %s, not %s (%s)", cp.Path, st.Base.Name, given.Base.Name, arg)
+	}
+	line := firstDifferentLine(given.Source, st.Source)
+	return usagef("%s:%d: the scenario differs from the one the checkpoint %s was made from (first difference on line %d); "+
+		"resume without naming the scenario to continue the checkpoint's copy, or delete the checkpoint and start afresh with the edited file", arg, line, cp.Path, line)
+}
+
+// firstDifferentLine returns the number (from 1) of the first line at which
+// a and b differ.
+func firstDifferentLine(a, b []byte) int {
+	la, lb := strings.Split(string(a), "\n"), strings.Split(string(b), "\n")
+	for i := range min(len(la), len(lb)) {
+		if strings.TrimRight(la[i], "\r") != strings.TrimRight(lb[i], "\r") {
+			return i + 1
+		}
+	}
+	return min(len(la), len(lb)) + 1
+}
+
+// samePath reports whether two paths name the same file.
+func samePath(a, b string) bool {
+	if a == "" || b == "" {
+		return false
+	}
+	fa, errA := os.Stat(a)
+	fb, errB := os.Stat(b)
+	if errA != nil || errB != nil {
+		return filepath.Clean(a) == filepath.Clean(b)
+	}
+	return os.SameFile(fa, fb)
+}
+
+// lockRun takes the lock on a run's outputs in dir (a whole run's, or one
+// shard's, so that the shards of a job array can share a directory), and
+// removes the temporary files a killed run of the same outputs left behind.
+func lockRun(dir, name string, shard, shards int) (*results.OutputLock, error) {
+	lockName, temps := name, []string{".checkpoint", ".json", ".csv", ".txt", "-bias.csv", ".replicates", ".html", ".md"}
+	if shards > 0 {
+		lockName = fmt.Sprintf("%s.shard-%d-of-%d", name, shard, shards)
+		temps = []string{".partial"}
+	}
+	lock, err := results.LockOutputs(dir, lockName)
+	if err != nil {
+		if errors.Is(err, results.ErrLocked) {
+			return nil, usageError{err}
+		}
+		return nil, err
+	}
+	// Holding the lock, no other run is writing these files: temporary
+	// files of them are leftovers of a run that was killed.
+	for _, ext := range temps {
+		leftovers, _ := filepath.Glob(filepath.Join(dir, "."+lockName+ext+".tmp-*"))
+		for _, f := range leftovers {
+			os.Remove(f)
+		}
+	}
+	return lock, nil
+}
+
+// refuseCheckpoint refuses to start a run afresh over the checkpoint (or
+// shard partial) at path, which it would overwrite: it says how to resume
+// the run or discard the checkpoint.
+func refuseCheckpoint(path, dir string, shard, shards int) error {
+	f, err := os.Open(path)
+	if errors.Is(err, fs.ErrNotExist) {
+		return nil
+	}
+	if err != nil {
+		return err
+	}
+	defer f.Close()
+	resume := "rhomark run --resume " + dir
+	if shards > 0 {
+		resume += fmt.Sprintf(" --shard %d/%d", shard, shards)
+	}
+	p, err := harness.ReadPartial(f)
+	switch {
+	case err != nil:
+		return dataError{fmt.Errorf("%s: a damaged checkpoint is in the way (%v); delete it to start afresh", path, err)}
+	case p.Complete() && shards > 0:
+		return dataError{fmt.Errorf("%s holds this shard's finished work (%d units); merge it with rhomark merge, or delete it to run the shard again", path, p.DoneUnits())}
+	case p.Complete():
+		return dataError{fmt.Errorf("%s holds the checkpoint of a finished run whose results were not all written; write them with: %s, or delete %s to start afresh", path, resume, path)}
+	}
+	return dataError{fmt.Errorf("%s holds the checkpoint of a run not yet finished (%d of %d units done); continue it with: %s, or delete %s to start afresh", path, p.DoneUnits(), shareOf(p), resume, path)}
 }
 
 // checkpointPath names the checkpoint (or a shard's partial) file.
@@ -252,6 +374,7 @@ func findCheckpoint(dir string, shard, shards int) (*harness.Partial, error) {
 	if err != nil {
 		return nil, dataError{fmt.Errorf("%s: %w", matches[0], err)}
 	}
+	p.Path = matches[0]
 	return p, nil
 }
 
@@ -298,7 +421,7 @@ func addLimitFlags(fs *flag.FlagSet) limitFlags {
 		cells: fs.Int("max-cells", 0, "refuse scenarios with more than `N` cells (default 10000)"),
 		n:     fs.Int("max-n", 0, "refuse datasets of more than `N` observations (default 1000000)"),
 		reps:  fs.Int("max-replicates", 0, "refuse more than `N` replicates per cell (default 10000000)"),
-		work:  fs.Float64("max-work", 0, "refuse studies of more than `W` cells × replicates × n × coefficients × estimators (default 1e13)"),
+		work:  fs.Float64("max-work", 0, "refuse studies of more than `W` units of work, cells × replicates × estimators × n × coefficients² (default 1e13)"),
 	}
 }
 

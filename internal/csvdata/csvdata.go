@@ -4,6 +4,7 @@
 package csvdata
 
 import (
+	"bufio"
 	"encoding/csv"
 	"errors"
 	"fmt"
@@ -11,6 +12,7 @@ import (
 	"math"
 	"strconv"
 	"strings"
+	"unicode/utf8"
 )
 
 // Limits on what a data file may hold.
@@ -32,9 +34,11 @@ type Table struct {
 	lines []int
 }
 
-// Read reads a CSV table from r; file names it in errors.
+// Read reads a CSV table from r; file names it in errors. Lines may end in
+// LF, CRLF or a lone CR (as some spreadsheets write); a lone CR, also one
+// inside a quoted field, is read as LF.
 func Read(file string, r io.Reader) (*Table, error) {
-	cr := csv.NewReader(r)
+	cr := csv.NewReader(&crReader{r: bufio.NewReader(r)})
 	cr.ReuseRecord = false
 	cr.TrimLeadingSpace = true
 	header, err := cr.Read()
@@ -55,7 +59,7 @@ func Read(file string, r io.Reader) (*Table, error) {
 			return nil, fmt.Errorf("%s:1: column %d has no name; every column needs a header", file, j+1)
 		}
 		if k, ok := seen[h]; ok {
-			return nil, fmt.Errorf("%s:1: column name %q is used by columns %d and %d; names must be unique", file, h, k+1, j+1)
+			return nil, fmt.Errorf("%s:1: column name %s is used by columns %d and %d; names must be unique", file, quote(h), k+1, j+1)
 		}
 		seen[h] = j
 		t.Names = append(t.Names, h)
@@ -97,7 +101,14 @@ func (t *Table) Column(name string) (int, error) {
 			return j, nil
 		}
 	}
-	return 0, fmt.Errorf("%s: no column %q; columns: %s", t.File, name, strings.Join(t.Names, ", "))
+	var names []string
+	for _, n := range t.Names[:min(len(t.Names), 20)] {
+		names = append(names, cutName(n))
+	}
+	if len(t.Names) > 20 {
+		names = append(names, fmt.Sprintf("… (%d in all)", len(t.Names)))
+	}
+	return 0, fmt.Errorf("%s: no column %s; columns: %s", t.File, quote(name), strings.Join(names, ", "))
 }
 
 // Numeric reports whether every cell of column j parses as a finite number.
@@ -122,6 +133,15 @@ func (t *Table) HasNumber(j int) bool {
 	return false
 }
 
+// cutName returns a column name for an error message, cut like quote's
+// fields but unquoted.
+func cutName(s string) string {
+	if len(s) <= maxQuoted {
+		return s
+	}
+	return quote(s)
+}
+
 // Line returns the file line on which data row i (0-based) starts.
 func (t *Table) Line(i int) int {
 	if i < len(t.lines) {
@@ -135,26 +155,115 @@ func (t *Table) Line(i int) int {
 func (t *Table) Float(i, j int) (float64, error) {
 	v, err := parse(t.Cells[i][j])
 	if err != nil {
-		return 0, fmt.Errorf("%s:%d: column %s: %v", t.File, t.Line(i), t.Names[j], err)
+		return 0, fmt.Errorf("%s:%d: column %s: %v", t.File, t.Line(i), cutName(t.Names[j]), err)
 	}
 	return v, nil
 }
 
-// parse reads one numeric cell.
+// parse reads one numeric cell: a decimal number, such as 12, -0.5, 3.1e-4
+// or .5. Go's other literal forms (1_000, 0x1p-2), which strconv accepts,
+// are refused: in a data file they are typing slips or other encodings.
 func parse(s string) (float64, error) {
 	s = strings.TrimSpace(s)
 	if s == "" || s == "NA" || s == "NaN" || s == "nan" || s == "." {
-		return 0, fmt.Errorf("%q is a missing value; rhomark fit needs complete numeric data (remove or impute the row)", s)
+		return 0, fmt.Errorf("%s is a missing value; rhomark fit needs complete numeric data (remove or impute the row)", quote(s))
+	}
+	if !isDecimal(s) {
+		if l := strings.ToLower(strings.TrimLeft(s, "+-")); l == "inf" || l == "infinity" {
+			return 0, fmt.Errorf("%s is not a finite number", quote(s))
+		}
+		return 0, fmt.Errorf("%s is not a number (want a decimal number such as 12, -0.5 or 3.1e-4)", quote(s))
 	}
 	v, err := strconv.ParseFloat(s, 64)
 	if errors.Is(err, strconv.ErrRange) {
-		return 0, fmt.Errorf("%q is beyond the range of a float64 (about ±1.8e308, smallest 4.9e-324)", s)
+		return 0, fmt.Errorf("%s is beyond the range of a float64 (about ±1.8e308, smallest 4.9e-324)", quote(s))
 	}
 	if err != nil {
-		return 0, fmt.Errorf("%q is not a number", s)
+		return 0, fmt.Errorf("%s is not a number (want a decimal number such as 12, -0.5 or 3.1e-4)", quote(s))
 	}
 	if math.IsInf(v, 0) || math.IsNaN(v) {
-		return 0, fmt.Errorf("%q is not a finite number", s)
+		return 0, fmt.Errorf("%s is not a finite number", quote(s))
 	}
 	return v, nil
+}
+
+// isDecimal reports whether s is [+-]digits[.digits][(e|E)[+-]digits],
+// with at least one digit before the exponent.
+func isDecimal(s string) bool {
+	i := 0
+	if i < len(s) && (s[i] == '+' || s[i] == '-') {
+		i++
+	}
+	digits := 0
+	for ; i < len(s) && s[i] >= '0' && s[i] <= '9'; i++ {
+		digits++
+	}
+	if i < len(s) && s[i] == '.' {
+		i++
+		for ; i < len(s) && s[i] >= '0' && s[i] <= '9'; i++ {
+			digits++
+		}
+	}
+	if digits == 0 {
+		return false
+	}
+	if i < len(s) && (s[i] == 'e' || s[i] == 'E') {
+		i++
+		if i < len(s) && (s[i] == '+' || s[i] == '-') {
+			i++
+		}
+		exp := 0
+		for ; i < len(s) && s[i] >= '0' && s[i] <= '9'; i++ {
+			exp++
+		}
+		if exp == 0 {
+			return false
+		}
+	}
+	return i == len(s)
+}
+
+// maxQuoted is the most bytes of a cell or name an error message repeats.
+const maxQuoted = 40
+
+// quote quotes s for an error message, cut to maxQuoted bytes (on a rune
+// boundary) with its full length said, so that a huge field is not echoed
+// whole.
+func quote(s string) string {
+	if len(s) <= maxQuoted {
+		return strconv.Quote(s)
+	}
+	cut := maxQuoted
+	for cut > 0 && !utf8.RuneStart(s[cut]) {
+		cut--
+	}
+	return fmt.Sprintf("%s… (%d bytes)", strconv.Quote(s[:cut]), len(s))
+}
+
+// crReader reads lone CR line ends as LF, leaving CRLF as it is, so that
+// files with old Mac line ends read as rows rather than as one long line.
+type crReader struct {
+	r *bufio.Reader
+}
+
+// Read reads from the underlying reader, turning each CR not followed by
+// LF into LF.
+func (c *crReader) Read(p []byte) (int, error) {
+	n, err := c.r.Read(p)
+	for i := 0; i < n; i++ {
+		if p[i] != '\r' {
+			continue
+		}
+		if i+1 < n {
+			if p[i+1] != '\n' {
+				p[i] = '\n'
+			}
+			continue
+		}
+		// The last byte read: look at the next one without taking it.
+		if next, perr := c.r.Peek(1); perr != nil || next[0] != '\n' {
+			p[i] = '\n'
+		}
+	}
+	return n, err
 }

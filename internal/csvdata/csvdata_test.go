@@ -1,8 +1,11 @@
 package csvdata
 
 import (
+	"bufio"
+	"io"
 	"strings"
 	"testing"
+	"testing/iotest"
 )
 
 func TestReadErrors(t *testing.T) {
@@ -65,4 +68,65 @@ func FuzzRead(f *testing.F) {
 			}
 		}
 	})
+}
+
+// TestNumberSyntax: only decimal numbers are numbers; Go's other literal
+// forms, which strconv.ParseFloat accepts, are refused.
+func TestNumberSyntax(t *testing.T) {
+	good := map[string]float64{"12": 12, "-0.5": -0.5, "+3": 3, ".5": 0.5, "5.": 5, "3.1e-4": 3.1e-4, "1E3": 1000, " 7 ": 7}
+	for s, want := range good {
+		if v, err := parse(s); err != nil || v != want {
+			t.Errorf("parse(%q) = %v, %v; want %v", s, v, err, want)
+		}
+	}
+	for _, s := range []string{"1_000", "0x1p-2", "0X10", "0b101", "1e", "e5", "--1", "1.2.3", "Inf", "-infinity", "1,5", "½"} {
+		if v, err := parse(s); err == nil {
+			t.Errorf("parse(%q) = %v, want an error", s, v)
+		}
+	}
+}
+
+// TestHugeFieldIsCut: an error about a 20 MB field repeats only its start
+// and says how long it is.
+func TestHugeFieldIsCut(t *testing.T) {
+	huge := strings.Repeat("x", 20<<20)
+	tab, err := Read("data.csv", strings.NewReader("a,b\n1,"+huge+"\n"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	_, err = tab.Float(0, 1)
+	if err == nil || len(err.Error()) > 300 || !strings.Contains(err.Error(), "data.csv:2: column b") || !strings.Contains(err.Error(), "(20971520 bytes)") {
+		t.Errorf("error of %d bytes: %.300v", len(err.Error()), err)
+	}
+	_, err = tab.Column(huge)
+	if err == nil || len(err.Error()) > 300 {
+		t.Errorf("unknown column: error of %d bytes", len(err.Error()))
+	}
+}
+
+// TestLineEndings: LF, CRLF and lone CR line ends all read as rows, with
+// the right line numbers in errors.
+func TestLineEndings(t *testing.T) {
+	for name, nl := range map[string]string{"LF": "\n", "CRLF": "\r\n", "CR": "\r"} {
+		data := "volume" + nl + "5" + nl + "10" + nl + "x" + nl
+		tab, err := Read("data.csv", strings.NewReader(data))
+		if err != nil {
+			t.Fatalf("%s: %v", name, err)
+		}
+		if len(tab.Cells) != 3 {
+			t.Errorf("%s: %d rows, want 3", name, len(tab.Cells))
+		}
+		if v, err := tab.Float(1, 0); err != nil || v != 10 {
+			t.Errorf("%s: row 2 = %v, %v", name, v, err)
+		}
+		if _, err := tab.Float(2, 0); err == nil || !strings.Contains(err.Error(), "data.csv:4: column volume") {
+			t.Errorf("%s: %v, want an error on line 4", name, err)
+		}
+	}
+	// A CR at the end of one read and LF at the start of the next is CRLF.
+	r := &crReader{r: bufio.NewReaderSize(iotest.OneByteReader(strings.NewReader("a\r\nb\rc")), 16)}
+	got, _ := io.ReadAll(r)
+	if string(got) != "a\r\nb\nc" {
+		t.Errorf("crReader gave %q", got)
+	}
 }
