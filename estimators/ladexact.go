@@ -40,8 +40,11 @@ import (
 // data and were chosen, not tuned: each is far above the rounding error of
 // the quantity it guards and far below any value that matters to a fit.
 const (
-	// ladZeroTol: a residual with |r_i| ≤ ladZeroTol·(max|y| + Σ_j
-	// max_i|x_ij|·|β_j|) is treated as zero.
+	// ladZeroTol: a residual with |r_i| ≤ ladZeroTol·(|y_i| + Σ_j
+	// |x_ij β_j|), the size of the terms it is computed from, is treated as
+	// zero. The bound is per row: one relative to the largest |y| made
+	// every clean residual "zero" once a few responses were 1e10, and the
+	// exchanges then cycled among tied vertices.
 	ladZeroTol = 1e-12
 	// ladSlopeTol: an edge slope D is treated as negative only when
 	// D < −ladSlopeTol·(1 + Σ_{i∉B} Σ_j |x_ij u_jk|), the size of its terms.
@@ -147,7 +150,7 @@ func (lw *ladWork) fit(x blas64.General, y, beta, start []float64) (iterations i
 	if n < p || p == 0 {
 		return 0, SingularDesign
 	}
-	ymax, ok := lw.columnStats(x, y)
+	_, ok := lw.columnStats(x, y)
 	if !ok {
 		return 0, NonFinite
 	}
@@ -184,7 +187,7 @@ func (lw *ladWork) fit(x blas64.General, y, beta, start []float64) (iterations i
 		if !ladFinite(beta) {
 			return iterations, NonFinite
 		}
-		exact, ok := lw.price(x, y, beta, ymax)
+		exact, ok := lw.price(x, y, beta)
 		if !ok {
 			return iterations, NonFinite
 		}
@@ -352,13 +355,8 @@ func (lw *ladWork) factor(x blas64.General) bool {
 // lw.r, the signs lw.sigma (with the perturbed residuals lw.rho of the zero
 // residuals off the basis) and lw.g = Σ_{i∉B} σ_i x_i. It reports exact
 // when every residual is zero, and false when a residual is not finite.
-func (lw *ladWork) price(x blas64.General, y, beta []float64, ymax float64) (exact, ok bool) {
+func (lw *ladWork) price(x blas64.General, y, beta []float64) (exact, ok bool) {
 	n, p := lw.n, lw.p
-	scale := ymax
-	for j, b := range beta {
-		scale += lw.colMax[j] * math.Abs(b)
-	}
-	zeroTol := ladZeroTol * scale
 	// The perturbation's fit, X_B⁻¹ π_B.
 	for k, b := range lw.basis {
 		lw.bpi[k] = ladPerturbation(b)
@@ -377,13 +375,15 @@ func (lw *ladWork) price(x blas64.General, y, beta []float64, ymax float64) (exa
 			continue
 		}
 		xi := data[i*stride : i*stride+p : i*stride+p]
-		s := y[i]
+		s, size := y[i], math.Abs(y[i])
 		for j, v := range xi {
-			s -= v * beta[j]
+			t := v * beta[j]
+			s -= t
+			size += math.Abs(t)
 		}
 		total += math.Abs(s)
 		sg := 1.0
-		if math.Abs(s) > zeroTol {
+		if math.Abs(s) > ladZeroTol*size {
 			nonzero++
 			if s < 0 {
 				sg = -1

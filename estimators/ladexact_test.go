@@ -7,6 +7,7 @@ import (
 	"testing"
 
 	"gonum.org/v1/gonum/mat"
+	"gonum.org/v1/gonum/stat"
 )
 
 // ladFitDense runs the exact LAD solver on a dense design.
@@ -545,5 +546,53 @@ func BenchmarkLADExact(b *testing.B) {
 			}
 			b.ReportMetric(float64(iters)/float64(b.N), "iters/fit")
 		})
+	}
+}
+
+// TestLADExactFarCluster: m rows replaced by one far point (x at the
+// centre of the predictors, y at 1e10 standard deviations), as in a
+// replacement-breakdown experiment. With a zero tolerance relative to the
+// largest |y|, clean residuals below 1e-12·|y|max counted as zero and the
+// exchanges cycled to the cap (seen at n = 40, m = 9); the per-row
+// tolerance solves each case. The objective is checked against every
+// vertex (brute force over the C(40, 3) subsets).
+func TestLADExactFarCluster(t *testing.T) {
+	var lw ladWork
+	const n, p = 40, 3
+	rng := rand.New(rand.NewPCG(11, 12))
+	x := mat.NewDense(n, p, nil)
+	y := make([]float64, n)
+	for i := 0; i < n; i++ {
+		x.Set(i, 0, 1)
+		y[i] = 1
+		for j := 1; j < p; j++ {
+			v := rng.NormFloat64()
+			x.Set(i, j, v)
+			y[i] += v
+		}
+		y[i] += 0.5 * rng.NormFloat64()
+	}
+	cx1, cx2 := stat.Mean(mat.Col(nil, 1, x), nil), stat.Mean(mat.Col(nil, 2, x), nil)
+	cy, sy := stat.Mean(y, nil), stat.StdDev(y, nil)
+	order := rng.Perm(n)
+	for _, far := range []float64{1e10} {
+		for _, m := range []int{5, 9, 15, 17} {
+			xm, ym := mat.DenseCopyOf(x), append([]float64(nil), y...)
+			for _, i := range order[:m] {
+				xm.Set(i, 1, cx1)
+				xm.Set(i, 2, cx2)
+				ym[i] = cy + far*sy
+			}
+			name := fmt.Sprintf("far=%g/m=%d", far, m)
+			beta, it, st := ladFitDense(&lw, xm, ym, nil)
+			if st != Solved {
+				t.Errorf("%s: status %v after %d exchanges", name, st, it)
+				continue
+			}
+			got, want := l1Objective(xm, ym, beta), bruteForceL1(xm, ym)
+			if math.Abs(got-want) > 1e-12*want {
+				t.Errorf("%s: objective %.17g, brute-force minimum %.17g", name, got, want)
+			}
+		}
 	}
 }
