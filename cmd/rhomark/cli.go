@@ -271,3 +271,11 @@ func addSeedFlag(fs *flag.FlagSet, name, usage string) *seedFlag {
 	fs.Var(s, name, usage)
 	return s
 }
+
+// or returns the seed given on the command line, or def when none was.
+func (s *seedFlag) or(def uint64) uint64 {
+	if s.set {
+		return s.value
+	}
+	return def
+}

@@ -62,7 +62,7 @@ func fitCmd(e env, args []string) error {
 	start := fs.String("start", "ls", "`method` whose estimate starts irls or newton: ls, s-estimate, mm-estimate, lts or lad")
 	pf := addPsiFlags(fs.FlagSet, "huber")
 	scale := fs.String("scale", "mad", "scale `rule`: mad, start (held at the start's scale), or fixed:S for a known scale S")
-	seed := fs.Uint64("seed", 1, "`seed` of the random subsets of s-estimate, mm-estimate and lts")
+	seed := addSeedFlag(fs.FlagSet, "seed", "`seed` of the random subsets of s-estimate, mm-estimate and lts (decimal digits; default 1)")
 	sDivisor := fs.String("s-divisor", "n", "`divisor` d of the S-scale equation (1/d) Σ rho(r/s) = b: n or n-p (s-estimate, mm-estimate and starts from them)")
 	tol := fs.Float64("tol", estimators.DefaultChangeTol, "stop when the relative change in coefficients is below `T`")
 	maxIter := fs.Int("max-iter", estimators.DefaultMaxIterations, "iteration cap `N`")
@@ -118,7 +118,7 @@ func fitCmd(e env, args []string) error {
 		fj := fitJSON{Group: g.name, Rows: len(g.rows), Order: names}
 		var ws estimators.Workspace
 		var res estimators.Result
-		ws.SeedRandom(*seed, 0)
+		ws.SeedRandom(seed.or(1), 0)
 		err = est.Fit(x, y, &ws, &res)
 		if err != nil {
 			fj.Status, fj.Error = "not-fitted", err.Error()
