@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math"
 	"path/filepath"
+	"regexp"
 	"strconv"
 	"strings"
 
@@ -349,6 +350,9 @@ func checkPsiCmd(e env, args []string) error {
 		return err
 	}
 	rep := estimators.CheckPsi(ch.psi)
+	for i := range rep.Checks {
+		rep.Checks[i].Detail = checkDetail(rep.Checks[i], rep.Jumps)
+	}
 	if *asJSON {
 		type checkJSON struct {
 			Property string    `json:"property"`
@@ -389,4 +393,38 @@ func checkPsiCmd(e env, args []string) error {
 		return fmt.Errorf("the psi fails a required property (see above)")
 	}
 	return nil
+}
+
+// checkDigits is the number of significant digits check-psi prints: enough
+// to place a failure, without the float64 noise of 17 digits.
+const checkDigits = 6
+
+// numberPattern matches a decimal number as Go's %g or %v prints it.
+var numberPattern = regexp.MustCompile(`-?\d+(\.\d+)?(e[-+]?\d+)?`)
+
+// checkDetail returns the detail of a check-psi finding with its numbers
+// rounded to checkDigits significant digits, and jumps listed as ±a, ±b.
+func checkDetail(c estimators.PsiCheck, jumps []float64) string {
+	if c.Property == "continuous" && len(jumps) > 0 {
+		at := make([]string, len(jumps))
+		for i, j := range jumps {
+			at[i] = "±" + strconv.FormatFloat(j, 'g', checkDigits, 64)
+		}
+		return "psi jumps at " + strings.Join(at, ", ")
+	}
+	return roundNumbers(c.Detail)
+}
+
+// roundNumbers rewrites every number in s that has more than checkDigits
+// significant digits with checkDigits; shorter numbers stay as written.
+func roundNumbers(s string) string {
+	return numberPattern.ReplaceAllStringFunc(s, func(m string) string {
+		mant, _, _ := strings.Cut(m, "e")
+		digits := strings.TrimLeft(strings.NewReplacer("-", "", ".", "").Replace(mant), "0")
+		v, err := strconv.ParseFloat(m, 64)
+		if err != nil || len(digits) <= checkDigits {
+			return m
+		}
+		return strconv.FormatFloat(v, 'g', checkDigits, 64)
+	})
 }

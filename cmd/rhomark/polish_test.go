@@ -1,0 +1,47 @@
+package main
+
+import (
+	"regexp"
+	"strings"
+	"testing"
+)
+
+// TestCheckPsiRoundsNumbers: check-psi's findings show numbers to six
+// significant digits, never float64 noise such as 0.3000000000000001.
+func TestCheckPsiRoundsNumbers(t *testing.T) {
+	for _, tc := range []struct{ in, want string }{
+		{"at 0.3100000000000001 rho' ≈ 0.253313010116496 but psi = 0", "at 0.31 rho' ≈ 0.253313 but psi = 0"},
+		{"at 0.01 rho' ≈ 0.01999999999999913 but psi = 0.01", "at 0.01 rho' ≈ 0.02 but psi = 0.01"},
+		{"weight(0) = 1 but weight(1e-9) = 0.5", "weight(0) = 1 but weight(1e-9) = 0.5"},
+		{"psi(-0.1234567891) = -1.5e-20", "psi(-0.123457) = -1.5e-20"},
+	} {
+		if got := roundNumbers(tc.in); got != tc.want {
+			t.Errorf("roundNumbers(%q) = %q, want %q", tc.in, got, tc.want)
+		}
+	}
+	sig := regexp.MustCompile(`[1-9][0-9]*`)
+	for _, args := range [][]string{
+		{"check-psi", "--psi-expr", "abs(r) < 0.1+0.2 ? r : 0"},
+		{"check-psi", "--psi-expr", "r", "--rho-expr", "r*r", "--deriv-expr", "2"},
+		{"check-psi", "--psi-expr", "abs(r) < 0.1+0.2 ? r : 0", "--json"},
+	} {
+		_, out, _ := rhomark(t, args...)
+		if !strings.Contains(out, "FAIL") && !strings.Contains(out, `"ok": false`) {
+			t.Errorf("%v: expected a failing check:\n%s", args, out)
+		}
+		for _, line := range strings.Split(out, "\n") {
+			if args[len(args)-1] == "--json" && !strings.Contains(line, `"detail"`) {
+				continue // JSON numbers (at, jumps) stay exact; only the words are rounded
+			}
+			for _, num := range numberPattern.FindAllString(line, -1) {
+				mant, _, _ := strings.Cut(num, "e")
+				if d := sig.FindString(strings.ReplaceAll(mant, ".", "")); len(d) > checkDigits {
+					t.Errorf("%v: unrounded number %s in %q", args, num, line)
+				}
+			}
+		}
+	}
+	if _, out, _ := rhomark(t, "check-psi", "--psi-expr", "abs(r) < 0.1+0.2 ? r : 0"); !strings.Contains(out, "psi jumps at ±0.3") {
+		t.Errorf("jumps not listed as ±0.3:\n%s", out)
+	}
+}
