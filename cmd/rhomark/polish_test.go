@@ -45,3 +45,32 @@ func TestCheckPsiRoundsNumbers(t *testing.T) {
 		t.Errorf("jumps not listed as ±0.3:\n%s", out)
 	}
 }
+
+// TestNoRejectionPointWording: every command says a missing rejection
+// point the same way, and a present one as a number.
+func TestNoRejectionPointWording(t *testing.T) {
+	const none = "none (psi is not 0 beyond any point)"
+	for _, tc := range []struct {
+		args     []string
+		want     string
+		unwanted []string
+	}{
+		{[]string{"theory", "--psi", "huber"}, "rejection point                " + none, nil},
+		{[]string{"theory", "--psi", "welsch"}, "rejection point                " + none, nil},
+		{[]string{"theory", "--psi", "bisquare"}, "rejection point                4.68506\n", []string{"none"}},
+		{[]string{"check-psi", "--psi", "huber"}, "rejection point " + none, nil},
+		{[]string{"check-psi", "--psi", "welsch"}, "psi tends to 0; rejection point " + none, nil},
+		{[]string{"check-psi", "--psi", "bisquare"}, "psi is 0 beyond 4.68506 (the rejection point)", []string{"none"}},
+		{[]string{"tune", "--psi", "huber", "--sweep", "1:2:3"}, "none", []string{"unbounded", "never"}},
+	} {
+		code, out, errs := rhomark(t, tc.args...)
+		if code != exitOK || !strings.Contains(out, tc.want) {
+			t.Errorf("%v: exit %d %s; output lacks %q:\n%s", tc.args, code, errs, tc.want, out)
+		}
+		for _, u := range tc.unwanted {
+			if strings.Contains(out, u) {
+				t.Errorf("%v: output has %q:\n%s", tc.args, u, out)
+			}
+		}
+	}
+}
