@@ -74,3 +74,38 @@ func TestNoRejectionPointWording(t *testing.T) {
 		}
 	}
 }
+
+// TestFirstSentence: the scenario list shows the whole first sentence of
+// each scenario's about, whatever dots it holds, wrapped to the width.
+func TestFirstSentence(t *testing.T) {
+	for _, tc := range []struct{ in, want string }{
+		{"Choosing Huber's tuning constant: k swept from 0.5 to 3\n on clean data. Every cell", "Choosing Huber's tuning constant: k swept from 0.5 to 3 on clean data."},
+		{"Positions (x, y), e.g. near 10. More", "Positions (x, y), e.g. near 10."},
+		{"Demo: a bench.", "Demo: a bench."},
+		{"No full stop at all", "No full stop at all"},
+		{"Is it? Yes.", "Is it?"},
+		{"", ""},
+	} {
+		if got := firstSentence(tc.in); got != tc.want {
+			t.Errorf("firstSentence(%q) = %q, want %q", tc.in, got, tc.want)
+		}
+	}
+	code, out, _ := rhomark(t, "scenarios")
+	if code != exitOK {
+		t.Fatal(code)
+	}
+	joined := strings.Join(strings.Fields(out), " ")
+	for _, want := range []string{
+		"tuning-huber 16 cell(s) Choosing Huber's tuning constant: k swept from 0.5 to 3 on clean normal data, where efficiency against least squares is the whole story, and on data with 10% one-sided vertical outliers, where a small k pays off in bias. ",
+		"(x1 near 10) with a response that ignores the model (y near 0). ",
+	} {
+		if !strings.Contains(joined, want) {
+			t.Errorf("scenario list lacks %q:\n%s", want, out)
+		}
+	}
+	for _, line := range strings.Split(out, "\n") {
+		if n := len([]rune(line)); n > listWidth {
+			t.Errorf("line of %d runes: %q", n, line)
+		}
+	}
+}
