@@ -1,6 +1,8 @@
 package main
 
 import (
+	"os"
+	"path/filepath"
 	"regexp"
 	"strings"
 	"testing"
@@ -107,5 +109,32 @@ func TestFirstSentence(t *testing.T) {
 		if n := len([]rune(line)); n > listWidth {
 			t.Errorf("line of %d runes: %q", n, line)
 		}
+	}
+}
+
+// TestLabelsShowConstants: run's table names each estimator's psi with its
+// constants, a custom psi's included, to six digits.
+func TestLabelsShowConstants(t *testing.T) {
+	path := filepath.Join(t.TempDir(), "bench.yaml")
+	os.WriteFile(path, []byte(`name: bench
+replicates: 4
+model: {n: 30, intercept: 0.3, columns: [{name: volume, slope: 0.98}]}
+estimators:
+  - {label: ls, method: ls}
+  - {label: meter, method: irls, psi: {expr: "r / (1 + abs(r)/c)", constants: {c: 1.2}}}
+  - {label: mm, method: mm-estimate}
+`), 0o644)
+	code, out, errs := rhomark(t, "run", path, "--quiet")
+	if code != exitOK {
+		t.Fatalf("exit %d: %s", code, errs)
+	}
+	for _, want := range []string{"▸ meter (irls · custom c = 1.2)", "▸ mm (mm-estimate · bisquare 4.68506)"} {
+		if !strings.Contains(out, want) {
+			t.Errorf("table lacks %q:\n%s", want, out)
+		}
+	}
+	_, out, _ = rhomark(t, "fit", "../../testdata/refdata/stackloss.csv", "--y", "stack.loss", "--method", "mm-estimate")
+	if !strings.HasPrefix(out, "fit · mm-estimate · bisquare c = 4.68506\n") {
+		t.Errorf("fit heading: %q", strings.SplitN(out, "\n", 2)[0])
 	}
 }
