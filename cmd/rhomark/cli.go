@@ -24,6 +24,11 @@ const (
 // VCS revision when there is one.
 const version = "0.1.0-dev"
 
+// commit is the commit the build was made from when the linker was told it
+// (go build -ldflags "-X main.commit=$(git rev-parse HEAD)"), for builds
+// that carry no VCS stamp; empty otherwise. Only the linker sets it.
+var commit string
+
 // env is what a command can touch: its streams.
 type env struct {
 	stdin          io.Reader
@@ -133,6 +138,13 @@ func writeHelp(w io.Writer) {
 // from different builds is not merged or resumed together.
 func toolVersion() string {
 	v := version
+	if bi, ok := debug.ReadBuildInfo(); ok && commitFromVCS(bi.Settings) == "" && commit != "" {
+		c := commit
+		if len(c) > 12 {
+			c = c[:12]
+		}
+		v += "+" + c
+	}
 	if bi, ok := debug.ReadBuildInfo(); ok {
 		for _, s := range bi.Settings {
 			switch s.Key {
@@ -150,6 +162,16 @@ func toolVersion() string {
 		}
 	}
 	return v
+}
+
+// commitFromVCS returns the VCS revision Go stamped, or "".
+func commitFromVCS(settings []debug.BuildSetting) string {
+	for _, st := range settings {
+		if st.Key == "vcs.revision" {
+			return st.Value
+		}
+	}
+	return ""
 }
 
 // versionText returns the version line and the build information.
@@ -176,8 +198,39 @@ func versionText() string {
 		}
 		b.WriteString(")")
 	}
+	var settings []debug.BuildSetting
+	if bi, ok := debug.ReadBuildInfo(); ok {
+		settings = bi.Settings
+	}
+	fmt.Fprintf(&b, "\n%s", commitLine(settings, commit))
 	fmt.Fprintf(&b, "\nbuild %s (checkpoints and shards are resumed and merged only by the same build)", harness.BuildID())
 	return b.String()
+}
+
+// commitLine names the commit a build was made from: from the VCS stamp Go
+// records (go build or go install in a git checkout), else from the commit
+// the linker was given, else it says that nothing records it. Go does not
+// stamp go run or go test builds, nor builds with -buildvcs=false.
+func commitLine(settings []debug.BuildSetting, linked string) string {
+	var rev, modified string
+	for _, s := range settings {
+		switch s.Key {
+		case "vcs.revision":
+			rev = s.Value
+		case "vcs.modified":
+			if s.Value == "true" {
+				modified = ", with uncommitted changes"
+			}
+		}
+	}
+	switch {
+	case rev != "":
+		return "commit " + rev + modified + " (from the VCS stamp)"
+	case linked != "":
+		return "commit " + linked + " (given to the linker with -X main.commit)"
+	}
+	return "commit unknown: this build carries no VCS stamp (go run and go test builds never do); " +
+		"the build id below still identifies the executable"
 }
 
 // cmdFlags is a command's flag set with its help printer.

@@ -2,8 +2,10 @@ package main
 
 import (
 	"os"
+	"os/exec"
 	"path/filepath"
 	"regexp"
+	"runtime/debug"
 	"strings"
 	"testing"
 )
@@ -136,5 +138,35 @@ estimators:
 	_, out, _ = rhomark(t, "fit", "../../testdata/refdata/stackloss.csv", "--y", "stack.loss", "--method", "mm-estimate")
 	if !strings.HasPrefix(out, "fit · mm-estimate · bisquare c = 4.68506\n") {
 		t.Errorf("fit heading: %q", strings.SplitN(out, "\n", 2)[0])
+	}
+}
+
+// TestVersionNamesCommit: --version names the commit from the VCS stamp,
+// or from the linker, or says plainly that nothing records it; a binary
+// linked with -X main.commit names that commit.
+func TestVersionNamesCommit(t *testing.T) {
+	const rev = "0123456789abcdef0123456789abcdef01234567"
+	for _, tc := range []struct {
+		settings []debug.BuildSetting
+		linked   string
+		want     string
+	}{
+		{[]debug.BuildSetting{{Key: "vcs.revision", Value: rev}}, "", "commit " + rev + " (from the VCS stamp)"},
+		{[]debug.BuildSetting{{Key: "vcs.revision", Value: rev}, {Key: "vcs.modified", Value: "true"}}, "other", "commit " + rev + ", with uncommitted changes (from the VCS stamp)"},
+		{nil, "feedbeef", "commit feedbeef (given to the linker with -X main.commit)"},
+		{[]debug.BuildSetting{{Key: "GOOS", Value: "linux"}}, "", "commit unknown: this build carries no VCS stamp"},
+	} {
+		if got := commitLine(tc.settings, tc.linked); !strings.HasPrefix(got, tc.want) {
+			t.Errorf("commitLine(%v, %q) = %q, want %q", tc.settings, tc.linked, got, tc.want)
+		}
+	}
+	// A test binary has no VCS stamp and no linked commit.
+	if _, out, _ := rhomark(t, "--version"); !strings.Contains(out, "\ncommit unknown: this build carries no VCS stamp") {
+		t.Errorf("--version of a test build:\n%s", out)
+	}
+	bin := binary(t) // linked with -X main.commit=testCommit
+	out, err := exec.Command(bin, "--version").Output()
+	if err != nil || !strings.Contains(string(out), "\ncommit "+testCommit+" (given to the linker") {
+		t.Errorf("--version of a build linked with the commit: %v\n%s", err, out)
 	}
 }
