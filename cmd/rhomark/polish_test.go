@@ -170,3 +170,33 @@ func TestVersionNamesCommit(t *testing.T) {
 		t.Errorf("--version of a build linked with the commit: %v\n%s", err, out)
 	}
 }
+
+// TestReplayJSONWritesNoCSV: replay --json prints and writes nothing else
+// unless --data-out asks for the dataset; the table writes it to the
+// default file.
+func TestReplayJSONWritesNoCSV(t *testing.T) {
+	dir := t.TempDir()
+	t.Chdir(dir)
+	code, out, errs := rhomark(t, "replay", "clean-normal", "--estimator", "ls", "--json")
+	if code != exitOK {
+		t.Fatalf("exit %d: %s", code, errs)
+	}
+	if strings.Contains(out, `"dataset"`) {
+		t.Errorf("--json without --data-out names a dataset:\n%s", out)
+	}
+	if files, _ := os.ReadDir(dir); len(files) != 0 {
+		t.Errorf("--json without --data-out wrote %v", files)
+	}
+	if code, out, _ := rhomark(t, "replay", "clean-normal", "--estimator", "ls", "--json", "--data-out", "d.csv"); code != exitOK || !strings.Contains(out, `"dataset": "d.csv"`) {
+		t.Errorf("--json --data-out: exit %d\n%s", code, out)
+	}
+	if _, err := os.Stat(filepath.Join(dir, "d.csv")); err != nil {
+		t.Errorf("--data-out d.csv: %v", err)
+	}
+	if code, _, _ := rhomark(t, "replay", "clean-normal", "--estimator", "ls"); code != exitOK {
+		t.Fatalf("table: exit %d", code)
+	}
+	if _, err := os.Stat(filepath.Join(dir, "clean-normal-c0-r0.csv")); err != nil {
+		t.Errorf("the table's default dataset file: %v", err)
+	}
+}
