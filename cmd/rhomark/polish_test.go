@@ -1,13 +1,20 @@
 package main
 
 import (
+	"bytes"
+	"context"
+	"io"
 	"os"
 	"os/exec"
 	"path/filepath"
 	"regexp"
 	"runtime/debug"
+	"slices"
 	"strings"
 	"testing"
+
+	"github.com/rhomark/rhomark/harness"
+	"github.com/rhomark/rhomark/scenarios"
 )
 
 // TestCheckPsiRoundsNumbers: check-psi's findings show numbers to six
@@ -198,5 +205,61 @@ func TestReplayJSONWritesNoCSV(t *testing.T) {
 	}
 	if _, err := os.Stat(filepath.Join(dir, "clean-normal-c0-r0.csv")); err != nil {
 		t.Errorf("the table's default dataset file: %v", err)
+	}
+}
+
+// TestProgressCellOrder: the progress bar's map from finished replicates to
+// cells agrees with the harness's order of work, for a whole run and for a
+// shard (whose units depend on the harness's block of 32 replicates): with
+// one worker, the finished count passes through the end of every cell.
+func TestProgressCellOrder(t *testing.T) {
+	st, err := scenarios.LoadLibrary("flow-meter")
+	if err != nil {
+		t.Fatal(err)
+	}
+	const reps = 40
+	for _, sh := range []struct{ shard, shards int }{{0, 0}, {1, 3}, {0, 2}} {
+		order := newCellOrder(len(st.Cells), reps, sh.shard, sh.shards)
+		var dones []int64
+		_, _, err := harness.RunPartial(context.Background(), st, harness.Options{Replicates: reps, Workers: 1,
+			Shard: sh.shard, Shards: sh.shards, Progress: func(done, total int64) { dones = append(dones, done) }})
+		if err != nil {
+			t.Fatal(err)
+		}
+		for c, end := range order.ends {
+			if c > 0 && end == order.ends[c-1] {
+				continue // the shard has no work in cell c
+			}
+			if !slices.Contains(dones, end) {
+				t.Errorf("shard %d/%d: cell %d ends after %d replicates, but the run reported %v", sh.shard, sh.shards, c, end, dones)
+			}
+		}
+		if last := dones[len(dones)-1]; last != order.ends[len(order.ends)-1] {
+			t.Errorf("shard %d/%d: the run finished %d replicates, the order counts %d", sh.shard, sh.shards, last, order.ends[len(order.ends)-1])
+		}
+		if got := order.cellAt(0); got != 0 && sh.shards == 0 {
+			t.Errorf("cellAt(0) = %d", got)
+		}
+	}
+	if (cellOrder{}).cellAt(5) != -1 {
+		t.Error("an empty order names a cell")
+	}
+}
+
+// TestProgressShowsCell: on a terminal, the bar names the cell running.
+func TestProgressShowsCell(t *testing.T) {
+	cmd := exec.Command(binary(t), "run", "flow-meter", "--replicates", "3000", "--workers", "1")
+	master, err := startInTerminal(cmd)
+	if err != nil {
+		t.Skipf("no pseudo-terminal: %v", err)
+	}
+	defer master.Close()
+	var screen bytes.Buffer
+	io.Copy(&screen, master) // until the terminal closes with the run (EIO)
+	cmd.Wait()
+	for _, want := range []string{"flow-meter · cell 0 (cells 0–3)", "flow-meter · cell 3 (cells 0–3)"} {
+		if !strings.Contains(screen.String(), want) {
+			t.Errorf("the terminal never showed %q:\n%q", want, screen.String())
+		}
 	}
 }
