@@ -5,6 +5,7 @@ import (
 	"flag"
 	"fmt"
 	"io"
+	"regexp"
 	"runtime/debug"
 	"sort"
 	"strconv"
@@ -248,11 +249,36 @@ func newFlags(e env, name, synopsis, about string) *cmdFlags {
 	fs.Usage = func() {}
 	return &cmdFlags{FlagSet: fs, help: func() {
 		fmt.Fprintf(e.stderr, "Usage: rhomark %s %s\n\n%s\n\nOptions:\n", name, synopsis, about)
-		fs.SetOutput(e.stderr)
-		fs.PrintDefaults()
-		fs.SetOutput(io.Discard)
+		writeOptions(e.stderr, fs)
 	}}
 }
+
+// writeOptions lists the options of fs as the README writes them: each on
+// a line "  --name VALUE" (no VALUE for a switch), its description and
+// default on the next. The flag package's own listing writes one dash.
+func writeOptions(w io.Writer, fs *flag.FlagSet) {
+	fs.VisitAll(func(f *flag.Flag) {
+		value, usage := flag.UnquoteUsage(f)
+		line := "  --" + f.Name
+		if b, ok := f.Value.(interface{ IsBoolFlag() bool }); !ok || !b.IsBoolFlag() {
+			if value == "" {
+				value = "value"
+			}
+			line += " " + strings.ToUpper(value)
+		}
+		switch f.DefValue {
+		case "", "0", "false", "0s":
+		default:
+			usage += " (default " + f.DefValue + ")"
+		}
+		fmt.Fprintf(w, "%s\n        %s\n", line, strings.ReplaceAll(usage, "\n", "\n        "))
+	})
+}
+
+// flagInMessage finds an option named with one dash in the flag package's
+// errors ("flag provided but not defined: -x", "invalid value ... for flag
+// -x: ..."), to name it with two as everywhere else.
+var flagInMessage = regexp.MustCompile(`(flag|for|argument:|defined:) -([A-Za-z0-9][A-Za-z0-9_-]*)`)
 
 // parseFlags parses args, allowing flags after positional arguments, and
 // returns the positional arguments.
@@ -264,7 +290,8 @@ func parseFlags(fs *cmdFlags, args []string) ([]string, error) {
 				fs.help()
 				return nil, err
 			}
-			return nil, usageError{fmt.Errorf("%v (rhomark %s --help lists the options)", err, fs.Name())}
+			msg := flagInMessage.ReplaceAllString(err.Error(), "$1 --$2")
+			return nil, usageError{fmt.Errorf("%s (rhomark %s --help lists the options)", msg, fs.Name())}
 		}
 		args = fs.Args()
 		if len(args) == 0 {

@@ -263,3 +263,39 @@ func TestProgressShowsCell(t *testing.T) {
 		}
 	}
 }
+
+// TestHelpWritesTwoDashes: every command's --help lists its options as the
+// README writes them, --name VALUE, and flag errors name them the same way.
+func TestHelpWritesTwoDashes(t *testing.T) {
+	option := regexp.MustCompile(`^  --[a-z0-9-]+( [A-Z][A-Z0-9=:_/\[\]-]*)?$`)
+	for _, c := range commands() {
+		code, _, errs := rhomark(t, c.name, "--help")
+		if code != exitOK {
+			t.Errorf("%s --help: exit %d", c.name, code)
+		}
+		options := 0
+		for _, line := range strings.Split(errs, "\n") {
+			switch {
+			case option.MatchString(line):
+				options++
+			case strings.HasPrefix(line, "  -"):
+				t.Errorf("%s --help: option line %q is not --name VALUE", c.name, line)
+			}
+		}
+		if options == 0 && c.name != "completion" && c.name != "unpack" {
+			t.Errorf("%s --help lists no options:\n%s", c.name, errs)
+		}
+	}
+	_, _, errs := rhomark(t, "fit", "--help")
+	for _, want := range []string{"  --y COLUMN\n        response column (required)\n", "  --json\n", "(default irls)"} {
+		if !strings.Contains(errs, want) {
+			t.Errorf("fit --help lacks %q", want)
+		}
+	}
+	for _, args := range [][]string{{"fit", "x.csv", "--bogus"}, {"run", "flow-meter", "--seed"}, {"run", "flow-meter", "--workers", "x"}} {
+		_, _, errs := rhomark(t, args...)
+		if !strings.Contains(errs, " --"+strings.TrimPrefix(args[2], "--")) || regexp.MustCompile(` -[a-z]`).MatchString(errs) {
+			t.Errorf("%v: %q; want the option named with two dashes", args, errs)
+		}
+	}
+}
