@@ -57,6 +57,9 @@ func breakdownCmd(e env, args []string) error {
 		if *yCol == "" {
 			return usagef("--data needs --y, the response column")
 		}
+		if _, ok := runSeed.get(); ok {
+			return usagef("--run-seed rebuilds a run's simulated replicate; it is not used with --data")
+		}
 		x, y, err = readDesign(*data, *yCol, *xCols, intercept)
 		if err != nil {
 			return err

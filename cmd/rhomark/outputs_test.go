@@ -58,6 +58,9 @@ func TestSeedHasOneParser(t *testing.T) {
 			}
 		}
 	}
+	if code, _, errs := rhomark(t, "breakdown", "clean-normal", "--data", "../../testdata/refdata/stackloss.csv", "--y", "stack.loss", "--run-seed", "5"); code != exitUsage || !strings.Contains(errs, "--run-seed") {
+		t.Errorf("--run-seed with --data: exit %d, %s; want it refused", code, errs)
+	}
 	for _, good := range []struct {
 		in   string
 		want uint64
