@@ -145,10 +145,12 @@ func lre(est, cert float64) float64 {
 }
 
 // TestFitInference: standard errors and intervals on the stack loss data.
-// Least squares: the standard errors printed with the data's least-squares
-// fit in texts that use it (11.8960, 0.1349, 0.3680, 0.1563 for intercept,
-// Air.Flow, Water.Temp, Acid.Conc.; from memory), checked to half a unit
-// of the last printed digit, and 95% intervals of half-width t(0.975, 17)
+// Least squares: the standard errors of the data's least-squares fit as
+// printed in Rousseeuw & Leroy (1987), Robust Regression and Outlier
+// Detection, Wiley, chapter 2 (11.8960, 0.1349, 0.3680, 0.1563 for
+// intercept, Air.Flow, Water.Temp, Acid.Conc.; from memory, the book not at
+// hand: TestFitLeastSquaresNIST is the certified check), to half a unit of
+// the last printed digit, and 95% intervals of half-width t(0.975, 17)
 // × SE, with t(0.975, 17) = 2.110 from a table of Student's t (common
 // practice). M-estimators and MM: exactly the standard errors of
 // Workspace.StandardErrors, the formula a run's coverage uses, and Wald
