@@ -57,13 +57,7 @@ const (
 )
 
 func writeEstimator(b *strings.Builder, r *Results, e Estimator, width int) {
-	desc := e.Method
-	if e.Psi != "" {
-		desc += " · " + e.Psi
-		for _, t := range e.Tuning {
-			desc += " " + strconv.FormatFloat(t, 'g', -1, 64)
-		}
-	}
+	desc := EstimatorDesc(r, e)
 	cv := e.Convergence
 	conv := fmt.Sprintf("converged %d/%d", cv.Converged, cv.Fits)
 	if cv.MaxIterations > 0 {

@@ -3,7 +3,6 @@ package main
 import (
 	"fmt"
 	"os"
-	"strconv"
 
 	"gonum.org/v1/gonum/mat"
 
@@ -20,8 +19,8 @@ func breakdownCmd(e env, args []string) error {
 	yCol := fs.String("y", "", "response `column` of --data")
 	xCols := fs.String("x", "", "predictor `columns` of --data (default: every other column holding numbers)")
 	dirs := fs.Int("directions", 6, "random `directions` besides vertical and leverage")
-	seed := fs.Uint64("seed", 1, "`seed` of the replaced rows, directions and resampling")
-	runSeed := fs.String("run-seed", "", "the run's root `seed`, if it overrode the scenario's (as replay --seed), to rebuild that run's replicate")
+	seed := addSeedFlag(fs.FlagSet, "seed", "`seed` of the replaced rows, directions and resampling (decimal digits; default 1)")
+	runSeed := addSeedFlag(fs.FlagSet, "run-seed", "the run's root `seed` (decimal digits), if it overrode the scenario's (as replay --seed), to rebuild that run's replicate")
 	asJSON := fs.Bool("json", false, "print JSON")
 	lim := addLimitFlags(fs.FlagSet)
 	pos, err := parseFlags(fs, args)
@@ -58,6 +57,9 @@ func breakdownCmd(e env, args []string) error {
 		if *yCol == "" {
 			return usagef("--data needs --y, the response column")
 		}
+		if _, ok := runSeed.get(); ok {
+			return usagef("--run-seed rebuilds a run's simulated replicate; it is not used with --data")
+		}
 		x, y, err = readDesign(*data, *yCol, *xCols, intercept)
 		if err != nil {
 			return err
@@ -67,17 +69,11 @@ func breakdownCmd(e env, args []string) error {
 		if *rep < 0 {
 			return usagef("--replicate must be ≥ 0")
 		}
-		dataSeed := st.Base.Seed
-		if *runSeed != "" {
-			if dataSeed, err = strconv.ParseUint(*runSeed, 10, 64); err != nil {
-				return usagef("--run-seed %q is not a whole number", *runSeed)
-			}
-		}
-		if x, y, err = replicateData(sc, dataSeed, *cell, *rep); err != nil {
+		if x, y, err = replicateData(sc, runSeed.or(st.Base.Seed), *cell, *rep); err != nil {
 			return err
 		}
 	}
-	out, err := harness.MeasureBreakdown(x, y, intercept, ests, harness.ReplacementOptions{Directions: *dirs, Seed: *seed})
+	out, err := harness.MeasureBreakdown(x, y, intercept, ests, harness.ReplacementOptions{Directions: *dirs, Seed: seed.or(1)})
 	if err != nil {
 		return err
 	}

@@ -5,6 +5,7 @@ import (
 	"flag"
 	"fmt"
 	"io"
+	"regexp"
 	"runtime/debug"
 	"sort"
 	"strconv"
@@ -23,6 +24,11 @@ const (
 // version is the release of this build; module build information adds the
 // VCS revision when there is one.
 const version = "0.1.0-dev"
+
+// commit is the commit the build was made from when the linker was told it
+// (go build -ldflags "-X main.commit=$(git rev-parse HEAD)"), for builds
+// that carry no VCS stamp; empty otherwise. Only the linker sets it.
+var commit string
 
 // env is what a command can touch: its streams.
 type env struct {
@@ -133,6 +139,13 @@ func writeHelp(w io.Writer) {
 // from different builds is not merged or resumed together.
 func toolVersion() string {
 	v := version
+	if bi, ok := debug.ReadBuildInfo(); ok && commitFromVCS(bi.Settings) == "" && commit != "" {
+		c := commit
+		if len(c) > 12 {
+			c = c[:12]
+		}
+		v += "+" + c
+	}
 	if bi, ok := debug.ReadBuildInfo(); ok {
 		for _, s := range bi.Settings {
 			switch s.Key {
@@ -150,6 +163,16 @@ func toolVersion() string {
 		}
 	}
 	return v
+}
+
+// commitFromVCS returns the VCS revision Go stamped, or "".
+func commitFromVCS(settings []debug.BuildSetting) string {
+	for _, st := range settings {
+		if st.Key == "vcs.revision" {
+			return st.Value
+		}
+	}
+	return ""
 }
 
 // versionText returns the version line and the build information.
@@ -176,8 +199,39 @@ func versionText() string {
 		}
 		b.WriteString(")")
 	}
+	var settings []debug.BuildSetting
+	if bi, ok := debug.ReadBuildInfo(); ok {
+		settings = bi.Settings
+	}
+	fmt.Fprintf(&b, "\n%s", commitLine(settings, commit))
 	fmt.Fprintf(&b, "\nbuild %s (checkpoints and shards are resumed and merged only by the same build)", harness.BuildID())
 	return b.String()
+}
+
+// commitLine names the commit a build was made from: from the VCS stamp Go
+// records (go build or go install in a git checkout), else from the commit
+// the linker was given, else it says that nothing records it. Go does not
+// stamp go run or go test builds, nor builds with -buildvcs=false.
+func commitLine(settings []debug.BuildSetting, linked string) string {
+	var rev, modified string
+	for _, s := range settings {
+		switch s.Key {
+		case "vcs.revision":
+			rev = s.Value
+		case "vcs.modified":
+			if s.Value == "true" {
+				modified = ", with uncommitted changes"
+			}
+		}
+	}
+	switch {
+	case rev != "":
+		return "commit " + rev + modified + " (from the VCS stamp)"
+	case linked != "":
+		return "commit " + linked + " (given to the linker with -X main.commit)"
+	}
+	return "commit unknown: this build carries no VCS stamp (go run and go test builds never do); " +
+		"the build id below still identifies the executable"
 }
 
 // cmdFlags is a command's flag set with its help printer.
@@ -195,11 +249,36 @@ func newFlags(e env, name, synopsis, about string) *cmdFlags {
 	fs.Usage = func() {}
 	return &cmdFlags{FlagSet: fs, help: func() {
 		fmt.Fprintf(e.stderr, "Usage: rhomark %s %s\n\n%s\n\nOptions:\n", name, synopsis, about)
-		fs.SetOutput(e.stderr)
-		fs.PrintDefaults()
-		fs.SetOutput(io.Discard)
+		writeOptions(e.stderr, fs)
 	}}
 }
+
+// writeOptions lists the options of fs as the README writes them: each on
+// a line "  --name VALUE" (no VALUE for a switch), its description and
+// default on the next. The flag package's own listing writes one dash.
+func writeOptions(w io.Writer, fs *flag.FlagSet) {
+	fs.VisitAll(func(f *flag.Flag) {
+		value, usage := flag.UnquoteUsage(f)
+		line := "  --" + f.Name
+		if b, ok := f.Value.(interface{ IsBoolFlag() bool }); !ok || !b.IsBoolFlag() {
+			if value == "" {
+				value = "value"
+			}
+			line += " " + strings.ToUpper(value)
+		}
+		switch f.DefValue {
+		case "", "0", "false", "0s":
+		default:
+			usage += " (default " + f.DefValue + ")"
+		}
+		fmt.Fprintf(w, "%s\n        %s\n", line, strings.ReplaceAll(usage, "\n", "\n        "))
+	})
+}
+
+// flagInMessage finds an option named with one dash in the flag package's
+// errors ("flag provided but not defined: -x", "invalid value ... for flag
+// -x: ..."), to name it with two as everywhere else.
+var flagInMessage = regexp.MustCompile(`(flag|for|argument:|defined:) -([A-Za-z0-9][A-Za-z0-9_-]*)`)
 
 // parseFlags parses args, allowing flags after positional arguments, and
 // returns the positional arguments.
@@ -211,7 +290,8 @@ func parseFlags(fs *cmdFlags, args []string) ([]string, error) {
 				fs.help()
 				return nil, err
 			}
-			return nil, usageError{fmt.Errorf("%v (rhomark %s --help lists the options)", err, fs.Name())}
+			msg := flagInMessage.ReplaceAllString(err.Error(), "$1 --$2")
+			return nil, usageError{fmt.Errorf("%s (rhomark %s --help lists the options)", msg, fs.Name())}
 		}
 		args = fs.Args()
 		if len(args) == 0 {
@@ -270,4 +350,12 @@ func addSeedFlag(fs *flag.FlagSet, name, usage string) *seedFlag {
 	s := new(seedFlag)
 	fs.Var(s, name, usage)
 	return s
+}
+
+// or returns the seed given on the command line, or def when none was.
+func (s *seedFlag) or(def uint64) uint64 {
+	if s.set {
+		return s.value
+	}
+	return def
 }

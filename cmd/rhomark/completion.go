@@ -11,9 +11,10 @@ import (
 	"github.com/rhomark/rhomark/scenarios"
 )
 
-// flagLine matches a flag in a command's --help text: "  -name value" then
-// its description on the next line; the value word is absent for a switch.
-var flagLine = regexp.MustCompile(`^  -([a-z0-9-]+)( [A-Za-z]+)?`)
+// flagLine matches a flag in a command's --help text: "  --name VALUE"
+// then its description on the next line; the value word is absent for a
+// switch.
+var flagLine = regexp.MustCompile(`^  --([a-z0-9-]+)( \S+)?$`)
 
 // commandFlag is a flag and its description, read from the help text.
 type commandFlag struct {

@@ -48,12 +48,18 @@ func TestSeedHasOneParser(t *testing.T) {
 		for _, args := range [][]string{
 			{"run", "clean-normal", "--replicates", "4", "--seed", bad},
 			{"replay", "clean-normal", "--seed", bad, "--data-out", filepath.Join(t.TempDir(), "d.csv")},
+			{"fit", "../../testdata/refdata/stackloss.csv", "--y", "stack.loss", "--method", "lts", "--seed", bad},
+			{"breakdown", "clean-normal", "--seed", bad},
+			{"breakdown", "clean-normal", "--run-seed", bad},
 		} {
 			code, _, errs := rhomark(t, args...)
 			if code != exitUsage || !strings.Contains(errs, "-seed") || !strings.Contains(errs, "decimal digits") {
-				t.Errorf("%s --seed %q: exit %d, %s; want exit 2 saying what a seed is", args[0], bad, code, errs)
+				t.Errorf("%v: exit %d, %s; want exit 2 saying what a seed is", args, code, errs)
 			}
 		}
+	}
+	if code, _, errs := rhomark(t, "breakdown", "clean-normal", "--data", "../../testdata/refdata/stackloss.csv", "--y", "stack.loss", "--run-seed", "5"); code != exitUsage || !strings.Contains(errs, "--run-seed") {
+		t.Errorf("--run-seed with --data: exit %d, %s; want it refused", code, errs)
 	}
 	for _, good := range []struct {
 		in   string

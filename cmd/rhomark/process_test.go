@@ -18,8 +18,12 @@ var (
 	buildErr  error
 )
 
+// testCommit is the commit the test binary is linked with, as a release
+// build would be (go build -ldflags "-X main.commit=...").
+const testCommit = "0123456789abcdef0123456789abcdef01234567"
+
 // binary builds the rhomark command once for tests that need a real process
-// (signals, killing).
+// (signals, killing, the linked commit).
 func binary(t *testing.T) string {
 	t.Helper()
 	buildOnce.Do(func() {
@@ -29,7 +33,7 @@ func binary(t *testing.T) string {
 			return
 		}
 		binPath = filepath.Join(dir, "rhomark")
-		out, err := exec.Command("go", "build", "-o", binPath, ".").CombinedOutput()
+		out, err := exec.Command("go", "build", "-buildvcs=false", "-ldflags", "-X main.commit="+testCommit, "-o", binPath, ".").CombinedOutput()
 		if err != nil {
 			buildErr = err
 			t.Logf("%s", out)

@@ -5,12 +5,28 @@ import (
 	"fmt"
 	"math"
 	"path/filepath"
+	"regexp"
 	"strconv"
 	"strings"
 
 	"github.com/rhomark/rhomark/estimators"
 	"github.com/rhomark/rhomark/results"
 )
+
+// noRejection is how every command writes a rejection point that does not
+// exist (JSON writes null), and noRejectionWhy what it means.
+const (
+	noRejection    = "none"
+	noRejectionWhy = "psi is not 0 beyond any point"
+)
+
+// rejectionText formats a rejection point, +Inf meaning there is none.
+func rejectionText(v float64, digits int) string {
+	if math.IsInf(v, 1) {
+		return noRejection
+	}
+	return num(v, digits)
+}
 
 // num formats a theory figure: "none" for +Inf, "—" for NaN.
 func num(v float64, digits int) string {
@@ -101,9 +117,9 @@ func theoryCmd(e env, args []string) error {
 	fmt.Fprintf(w, "  efficiency (vs least squares)  %s\n", num(th.Efficiency, 6))
 	fmt.Fprintf(w, "  asymptotic variance            %s\n", num(th.AsymptoticVariance, 6))
 	fmt.Fprintf(w, "  gross-error sensitivity        %s\n", num(th.GrossErrorSensitivity, 6))
-	rej := num(th.RejectionPoint, 6)
+	rej := rejectionText(th.RejectionPoint, 6)
 	if math.IsInf(th.RejectionPoint, 1) {
-		rej = "none (psi is never identically 0)"
+		rej += " (" + noRejectionWhy + ")"
 	}
 	fmt.Fprintf(w, "  rejection point                %s\n", rej)
 	fmt.Fprintf(w, "  shape                          %s\n", shapeWords(th))
@@ -327,7 +343,7 @@ func tuneSweep(e env, fam estimators.Family, ch choice, spec string, asJSON bool
 	fmt.Fprintf(w, "%s: trade-off against %s\n", ch.name, fam.Params[0])
 	fmt.Fprintf(w, "  %10s %12s %14s %12s %12s\n", fam.Params[0], "efficiency", "gross-error", "rejection", "S breakdown")
 	for _, r := range rows {
-		fmt.Fprintf(w, "  %10.4g %12.4f %14s %12s %12s\n", r.Tuning[0], r.Efficiency, num(r.GrossErrorSensitivity, 5), num(r.RejectionPoint, 5), num(r.Breakdown, 4))
+		fmt.Fprintf(w, "  %10.4g %12.4f %14s %12s %12s\n", r.Tuning[0], r.Efficiency, num(r.GrossErrorSensitivity, 5), rejectionText(r.RejectionPoint, 5), num(r.Breakdown, 4))
 	}
 	return nil
 }
@@ -349,6 +365,9 @@ func checkPsiCmd(e env, args []string) error {
 		return err
 	}
 	rep := estimators.CheckPsi(ch.psi)
+	for i := range rep.Checks {
+		rep.Checks[i].Detail = checkDetail(rep.Checks[i], rep.Jumps)
+	}
 	if *asJSON {
 		type checkJSON struct {
 			Property string    `json:"property"`
@@ -389,4 +408,46 @@ func checkPsiCmd(e env, args []string) error {
 		return fmt.Errorf("the psi fails a required property (see above)")
 	}
 	return nil
+}
+
+// checkDigits is the number of significant digits check-psi prints: enough
+// to place a failure, without the float64 noise of 17 digits.
+const checkDigits = 6
+
+// numberPattern matches a decimal number as Go's %g or %v prints it.
+var numberPattern = regexp.MustCompile(`-?\d+(\.\d+)?(e[-+]?\d+)?`)
+
+// checkDetail returns the detail of a check-psi finding with its numbers
+// rounded to checkDigits significant digits, and jumps listed as ±a, ±b.
+func checkDetail(c estimators.PsiCheck, jumps []float64) string {
+	if c.Property == "continuous" && len(jumps) > 0 {
+		at := make([]string, len(jumps))
+		for i, j := range jumps {
+			at[i] = "±" + strconv.FormatFloat(j, 'g', checkDigits, 64)
+		}
+		return "psi jumps at " + strings.Join(at, ", ")
+	}
+	d := roundNumbers(c.Detail)
+	if c.Property == "redescending" {
+		// Say the rejection point in the words theory and tune use.
+		if strings.Contains(d, "beyond") {
+			return d + " (the rejection point)"
+		}
+		return d + "; rejection point " + noRejection + " (" + noRejectionWhy + ")"
+	}
+	return d
+}
+
+// roundNumbers rewrites every number in s that has more than checkDigits
+// significant digits with checkDigits; shorter numbers stay as written.
+func roundNumbers(s string) string {
+	return numberPattern.ReplaceAllStringFunc(s, func(m string) string {
+		mant, _, _ := strings.Cut(m, "e")
+		digits := strings.TrimLeft(strings.NewReplacer("-", "", ".", "").Replace(mant), "0")
+		v, err := strconv.ParseFloat(m, 64)
+		if err != nil || len(digits) <= checkDigits {
+			return m
+		}
+		return strconv.FormatFloat(v, 'g', checkDigits, 64)
+	})
 }

@@ -88,7 +88,7 @@ func (p *psiFlags) build(given map[string]bool) (choice, error) {
 		fam, _ := c.Family("")
 		desc := "custom psi " + p.expr
 		for _, k := range p.consts {
-			desc += fmt.Sprintf(", %s = %g", k.Name, k.Value)
+			desc += fmt.Sprintf(", %s = %s", k.Name, constText(k.Value))
 		}
 		return choice{psi: c, family: fam, name: "custom", tuning: fam.Defaults, desc: desc}, nil
 	}
@@ -117,7 +117,7 @@ func (p *psiFlags) build(given map[string]bool) (choice, error) {
 	}
 	desc := fam.Name
 	for i, n := range fam.Params {
-		desc += fmt.Sprintf(" %s = %g", n, tc[i])
+		desc += fmt.Sprintf(" %s = %s", n, constText(tc[i]))
 	}
 	return choice{psi: psi, family: fam, name: fam.Name, tuning: tc, desc: desc}, nil
 }
@@ -141,3 +141,7 @@ func givenFlags(fs *flag.FlagSet) map[string]bool {
 	fs.Visit(func(f *flag.Flag) { given[f.Name] = true })
 	return given
 }
+
+// constText formats a psi constant for headings, to six significant digits
+// as estimator descriptions in results tables show them.
+func constText(v float64) string { return strconv.FormatFloat(v, 'g', 6, 64) }

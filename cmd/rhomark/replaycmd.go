@@ -51,7 +51,7 @@ func replayCmd(e env, args []string) error {
 	cell := fs.Int("cell", 0, "cell `C`")
 	rep := fs.Int("replicate", 0, "replicate `R`")
 	label := fs.String("estimator", "", "replay only the estimator with this `label`")
-	dataOut := fs.String("data-out", "", "write the dataset to this CSV `file` (default NAME-cC-rR.csv)")
+	dataOut := fs.String("data-out", "", "write the dataset to this CSV `file` (default NAME-cC-rR.csv; with --json, only when given)")
 	seedFlag := addSeedFlag(fs.FlagSet, "seed", "the run's root `seed` (decimal digits), if it overrode the scenario's")
 	asJSON := fs.Bool("json", false, "print JSON")
 	lim := addLimitFlags(fs.FlagSet)
@@ -94,12 +94,16 @@ func replayCmd(e env, args []string) error {
 		}
 		return usagef("--estimator %q: no such estimator; labels: %s", *label, strings.Join(labels, ", "))
 	}
+	// The table writes the dataset to a default file; --json writes only
+	// what it prints unless --data-out asks for the file.
 	path := *dataOut
-	if path == "" {
+	if path == "" && !*asJSON {
 		path = fmt.Sprintf("%s-c%d-r%d.csv", sc.Name, *cell, *rep)
 	}
-	if err := results.WriteFileAtomic(path, datasetCSV(sc, x, y)); err != nil {
-		return err
+	if path != "" {
+		if err := results.WriteFileAtomic(path, datasetCSV(sc, x, y)); err != nil {
+			return err
+		}
 	}
 	var fits []replayFit
 	for i, spec := range sc.Estimators {
@@ -128,7 +132,7 @@ func replayCmd(e env, args []string) error {
 	}
 	if *asJSON {
 		return writeJSON(e, struct {
-			Dataset      string      `json:"dataset"`
+			Dataset      string      `json:"dataset,omitempty"` // the CSV written, with --data-out
 			Cell         int         `json:"cell"`
 			Replicate    int         `json:"replicate"`
 			Coefficients []string    `json:"coefficient_names"`

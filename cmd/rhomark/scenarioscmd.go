@@ -5,6 +5,8 @@ import (
 	"os"
 	"path/filepath"
 	"strings"
+	"unicode"
+	"unicode/utf8"
 
 	"github.com/rhomark/rhomark/results"
 	"github.com/rhomark/rhomark/scenarios"
@@ -25,11 +27,19 @@ func scenariosCmd(e env, args []string) error {
 			return err
 		}
 		for _, en := range entries {
-			about := en.About
-			if i := strings.IndexAny(about, ".\n"); i > 0 {
-				about = about[:i]
+			head := fmt.Sprintf("%-18s %3d cell(s)  ", en.Name, en.Cells)
+			lines := wrapWords(firstSentence(en.About), listWidth-len(head))
+			indent := strings.Repeat(" ", len(head))
+			for i, l := range lines {
+				if i == 0 {
+					fmt.Fprintf(e.stdout, "%s%s\n", head, l)
+				} else {
+					fmt.Fprintf(e.stdout, "%s%s\n", indent, l)
+				}
 			}
-			fmt.Fprintf(e.stdout, "%-18s %3d cell(s)  %s\n", en.Name, en.Cells, about)
+			if len(lines) == 0 {
+				fmt.Fprintln(e.stdout, strings.TrimRight(head, " "))
+			}
 		}
 		fmt.Fprintln(e.stdout, "\nrhomark scenarios NAME prints one; rhomark run NAME runs it.")
 		return nil
@@ -53,4 +63,49 @@ func scenariosCmd(e env, args []string) error {
 		return nil
 	}
 	return usagef("want at most one scenario name, got %d", len(pos))
+}
+
+// listWidth is the width the scenario list is wrapped to.
+const listWidth = 80
+
+// firstSentence returns the first sentence of text, its lines joined: up to
+// the first '.', '!' or '?' that is followed by the end of the text, or by
+// white space and a capital letter, so that "1.345", "e.g. a" and "(x, y)."
+// inside a sentence do not end it.
+func firstSentence(text string) string {
+	words := strings.Fields(text)
+	for i, w := range words {
+		if !strings.ContainsAny(w[len(w)-1:], ".!?") {
+			continue
+		}
+		if i == len(words)-1 {
+			break
+		}
+		if next := []rune(words[i+1]); unicode.IsUpper(next[0]) {
+			return strings.Join(words[:i+1], " ")
+		}
+	}
+	return strings.Join(words, " ")
+}
+
+// wrapWords breaks text into lines of at most width runes, between words
+// (a longer word gets a line of its own).
+func wrapWords(text string, width int) []string {
+	var lines []string
+	var line string
+	for _, w := range strings.Fields(text) {
+		switch {
+		case line == "":
+			line = w
+		case utf8.RuneCountInString(line)+1+utf8.RuneCountInString(w) <= width:
+			line += " " + w
+		default:
+			lines = append(lines, line)
+			line = w
+		}
+	}
+	if line != "" {
+		lines = append(lines, line)
+	}
+	return lines
 }

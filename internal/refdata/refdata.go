@@ -124,11 +124,14 @@ type NISTData struct {
 	// as NIST prints it, and parsed.
 	Certified       map[string]float64
 	CertifiedString map[string]string // the certified values as printed, keyed like Certified
+	// StdDev maps a parameter name to the certified standard deviation of
+	// its estimate.
+	StdDev map[string]float64
 }
 
 // ReadNIST reads dataset name (for example "Longley") from dir.
 func ReadNIST(dir, name string) (NISTData, error) {
-	d := NISTData{Name: name, Certified: map[string]float64{}, CertifiedString: map[string]string{}}
+	d := NISTData{Name: name, Certified: map[string]float64{}, CertifiedString: map[string]string{}, StdDev: map[string]float64{}}
 	cert, err := os.Open(filepath.Join(dir, "certified_values.csv"))
 	if err != nil {
 		return d, err
@@ -158,6 +161,12 @@ func ReadNIST(dir, name string) (NISTData, error) {
 			}
 			d.Certified[r[2]] = v
 			d.CertifiedString[r[2]] = r[3]
+		case "std_dev":
+			v, err := strconv.ParseFloat(r[3], 64)
+			if err != nil {
+				return d, err
+			}
+			d.StdDev[r[2]] = v
 		}
 	}
 	if first == 0 {
