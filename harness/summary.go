@@ -71,6 +71,8 @@ func summarise(st *scenarios.Study, plans []cellPlan, tallies []*cellTally, seed
 			}
 			cell.Estimators = append(cell.Estimators, est)
 		}
+		v := results.Decide(cell, res.Reference)
+		cell.Verdict = &v
 		res.Cells = append(res.Cells, cell)
 	}
 	return res

@@ -82,6 +82,10 @@ type Cell struct {
 	Replicates int64 `json:"replicates"`
 	// Estimators holds one entry per estimator, in scenario order.
 	Estimators []Estimator `json:"estimators"`
+	// Verdict says which estimator to choose in this cell and how sure
+	// that choice is (see Decide); absent in files written before it
+	// existed, where VerdictOf computes it.
+	Verdict *Verdict `json:"verdict,omitempty"`
 }
 
 // Estimator is the outcome of one estimator in one cell.
