@@ -89,8 +89,54 @@ type CoefficientVerdict struct {
 
 // Exclusion says why an estimator is not recommended.
 type Exclusion struct {
-	Estimator string `json:"estimator"`
-	Reason    string `json:"reason"`
+	Estimator string          `json:"estimator"`
+	Reason    ExclusionReason `json:"reason"`
+	Detail    string          `json:"detail"` // the reason in a sentence, with the figures
+}
+
+// ExclusionReason is why an estimator is left out of a verdict.
+type ExclusionReason int
+
+// The reasons an estimator is not recommended.
+const (
+	// NoConvergedFit: no fit of the estimator converged.
+	NoConvergedFit ExclusionReason = iota
+	// TooManyFailures: more than MaxFailureRate of its fits failed.
+	TooManyFailures
+	// HeavyTailedEstimates: some coefficient's estimates are heavy-tailed,
+	// so its MSE is not meaningful.
+	HeavyTailedEstimates
+	// NoUsableRMSE: its RMSE relative to the others could not be formed.
+	NoUsableRMSE
+)
+
+// String names the reason as the JSON does.
+func (r ExclusionReason) String() string {
+	switch r {
+	case NoConvergedFit:
+		return "no-converged-fit"
+	case TooManyFailures:
+		return "too-many-failures"
+	case HeavyTailedEstimates:
+		return "heavy-tails"
+	case NoUsableRMSE:
+		return "no-usable-rmse"
+	}
+	return "unknown"
+}
+
+// MarshalText encodes the reason by its name.
+func (r ExclusionReason) MarshalText() ([]byte, error) { return []byte(r.String()), nil }
+
+// UnmarshalText decodes a reason's name.
+func (r *ExclusionReason) UnmarshalText(b []byte) error {
+	for _, c := range []ExclusionReason{NoConvergedFit, TooManyFailures, HeavyTailedEstimates, NoUsableRMSE} {
+		if c.String() == string(b) {
+			*r = c
+			return nil
+		}
+	}
+	return fmt.Errorf("unknown exclusion reason %q", b)
 }
 
 // Decide ranks the estimators of cell c for the reference estimator
@@ -111,13 +157,13 @@ func Decide(c Cell, reference string) Verdict {
 		failed := cv.Fits - cv.Converged
 		switch {
 		case cv.Fits == 0 || cv.Converged == 0 || len(e.Coefficients) == 0:
-			v.NotRecommended = append(v.NotRecommended, Exclusion{e.Label, "no fit converged"})
+			v.NotRecommended = append(v.NotRecommended, Exclusion{e.Label, NoConvergedFit, "no fit converged"})
 		case float64(failed) > MaxFailureRate*float64(cv.Fits):
-			v.NotRecommended = append(v.NotRecommended, Exclusion{e.Label,
+			v.NotRecommended = append(v.NotRecommended, Exclusion{e.Label, TooManyFailures,
 				fmt.Sprintf("%d of %d fits failed (%s, above %s): its figures describe only the datasets it could fit",
 					failed, cv.Fits, percent(float64(failed)/float64(cv.Fits)), percent(MaxFailureRate))})
 		case heavyAny(e):
-			v.NotRecommended = append(v.NotRecommended, Exclusion{e.Label,
+			v.NotRecommended = append(v.NotRecommended, Exclusion{e.Label, HeavyTailedEstimates,
 				"heavy-tailed estimates: a few replicates carry most of the squared error, so its MSE is not meaningful"})
 		default:
 			ok[i] = true
@@ -185,7 +231,7 @@ func Decide(c Cell, reference string) Verdict {
 			}
 		}
 		if !finite(s.score) {
-			v.NotRecommended = append(v.NotRecommended, Exclusion{e.Label, "no usable RMSE"})
+			v.NotRecommended = append(v.NotRecommended, Exclusion{e.Label, NoUsableRMSE, "no usable RMSE"})
 			continue
 		}
 		if !finite(s.mcse) {

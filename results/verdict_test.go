@@ -103,7 +103,7 @@ func TestDecide(t *testing.T) {
 			var ex []string
 			for _, e := range v.NotRecommended {
 				ex = append(ex, e.Estimator)
-				if e.Reason == "" {
+				if e.Detail == "" {
 					t.Errorf("%s excluded without a reason", e.Estimator)
 				}
 			}
