@@ -66,8 +66,9 @@ type Ranked struct {
 	// the reference, 0.5 half its RMSE. The reference's is exactly 1, MCSE
 	// null.
 	Score Measure `json:"score"`
-	// Worst names the coefficient the score comes from.
-	Worst string `json:"worst"`
+	// Worst names the coefficient the score comes from (empty for the
+	// reference, whose every coefficient scores 1).
+	Worst string `json:"worst,omitempty"`
 	// Tied is set when Score is within TieMCSE combined MCSE of the best.
 	Tied bool `json:"tied"`
 }
@@ -240,6 +241,7 @@ func Decide(c Cell, reference string) Verdict {
 		s.m = Measure{Value: Num(s.score), MCSE: Num(s.mcse)}
 		if useRef && i == ref {
 			s.m.MCSE = Num(math.NaN())
+			delete(worst, e.Label) // every coefficient is 1: none is worst
 		}
 		all = append(all, s)
 	}
