@@ -92,17 +92,8 @@ func verdictLine(r *Results, c Cell) string {
 			}
 			line += ", RMSE " + strings.Join(parts, ", ")
 		}
-		// Others as multiples q of the choice's score s_b, with the MCSE of
-		// the difference of the scores, √(m_o² + m_b²), over s_b: the
-		// quantity Decide's tie rule uses, so "tied" means exactly
-		// q − 1 ≤ TieMCSE·MCSE here. (For the reference as the choice, m_b
-		// is 0 and m_o is paired.)
-		rel := func(k Ranked) string {
-			sb := float64(best.Score.Value)
-			q := float64(k.Score.Value) / sb
-			m := math.Hypot(nanZero(float64(k.Score.MCSE)), nanZero(float64(best.Score.MCSE))) / sb
-			return k.Estimator + " ×" + pm(Measure{Value: Num(q), MCSE: Num(m)}, false)
-		}
+		// Others as multiples of the choice's score (see relativeScore).
+		rel := func(k Ranked) string { return k.Estimator + " " + relativeScore(best, k) }
 		var tied []string
 		next := ""
 		for _, k := range v.Ranking[1:] {
@@ -132,6 +123,18 @@ func verdictLine(r *Results, c Cell) string {
 		line += "; not recommended: " + strings.Join(ex, ", ")
 	}
 	return line
+}
+
+// relativeScore formats k's score as a multiple q of best's, "×q ± m",
+// with m the MCSE of the difference of the scores, √(m_k² + m_best²),
+// over best's score: the quantity Decide's tie rule uses, so k is tied
+// exactly when q − 1 ≤ TieMCSE·m. (For the reference as best, m_best is
+// 0 and m_k is paired.)
+func relativeScore(best, k Ranked) string {
+	sb := float64(best.Score.Value)
+	q := float64(k.Score.Value) / sb
+	m := math.Hypot(nanZero(float64(k.Score.MCSE)), nanZero(float64(best.Score.MCSE))) / sb
+	return "×" + pm(Measure{Value: Num(q), MCSE: Num(m)}, false)
 }
 
 // nanZero returns x, or 0 when x is not finite (a null MCSE).

@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"slices"
+	"strings"
 )
 
 // MaxFailureRate is the largest fraction of failed fits an estimator may
@@ -196,6 +197,13 @@ func Decide(c Cell, reference string) Verdict {
 	// Overall: the worst coefficient relative to the reference, or to the
 	// best RMSE when the reference cannot serve.
 	useRef := ref >= 0 && ok[ref]
+	for i, e := range c.Estimators {
+		for _, k := range e.Coefficients {
+			if ok[i] && i != ref && !(float64(k.MSERatio.Value) > 0 && finite(float64(k.MSERatio.Value))) {
+				useRef = false // no paired ratio to rank by (results from before it existed)
+			}
+		}
+	}
 	if useRef {
 		v.Criterion = "worst-coefficient RMSE relative to " + reference
 	} else {
@@ -350,9 +358,77 @@ func bestRMSE(cvs []CoefficientVerdict, name string) float64 {
 
 // VerdictOf returns c's verdict: the stored one, or, for results written
 // before verdicts were stored, one computed by Decide.
+//
+// Files from before the RMSE was reported have an MSE but no RMSE and no
+// MSE ratio; for those the RMSE is formed from the MSE (as
+// Moments.RootMeanSquaredError does) and the estimators are ranked against
+// the best RMSE per coefficient, since the paired ratio cannot be
+// recovered.
 func VerdictOf(r *Results, c Cell) Verdict {
 	if c.Verdict != nil {
 		return *c.Verdict
 	}
+	ests := make([]Estimator, len(c.Estimators))
+	for i, e := range c.Estimators {
+		e.Coefficients = slices.Clone(e.Coefficients)
+		for j := range e.Coefficients {
+			k := &e.Coefficients[j]
+			if k.RMSE.Value == 0 && k.RMSE.MCSE == 0 && k.MSE.Value != 0 {
+				rmse := math.Sqrt(float64(k.MSE.Value))
+				k.RMSE = Measure{Value: Num(rmse), MCSE: k.MSE.MCSE / Num(2*rmse)}
+				k.MSERatio = Measure{Value: Num(math.NaN()), MCSE: Num(math.NaN())}
+			}
+		}
+		ests[i] = e
+	}
+	c.Estimators = ests
 	return Decide(c, r.Reference)
+}
+
+// verdictRow is one line of a verdict as the report and the Markdown
+// summary show it.
+type verdictRow struct {
+	what        string // "choice", "smallest RMSE", "smallest |bias|", "not recommended"
+	coefficient string // "" for the whole estimator
+	best        string // the estimator's label
+	value       string // value ± MCSE, or ""
+	others      string // ties or the runner-up, or the reason; plain text
+	tied        []string
+}
+
+// verdictRows lays out c's verdict: the overall choice, then per
+// coefficient the smallest RMSE and the smallest |bias|, then the
+// estimators not recommended.
+func verdictRows(r *Results, c Cell) []verdictRow {
+	v := VerdictOf(r, c)
+	var rows []verdictRow
+	if v.Choice != "" {
+		best := v.Ranking[0]
+		row := verdictRow{what: "choice (" + v.Criterion + ")", best: best.Estimator, value: "×" + pm(best.Score, false)}
+		if best.Estimator == r.Reference && strings.HasSuffix(v.Criterion, " "+r.Reference) {
+			row.value = "×1 (the reference)"
+		}
+		var next string
+		for _, k := range v.Ranking[1:] {
+			if k.Tied {
+				row.tied = append(row.tied, k.Estimator)
+			} else if next == "" {
+				next = k.Estimator + " " + relativeScore(best, k) + " of the choice's score, more than " + fmt.Sprint(TieMCSE) + " MCSE behind"
+			}
+		}
+		if len(row.tied) == 0 {
+			row.others = next
+		}
+		rows = append(rows, row)
+	}
+	for _, cv := range v.Coefficients {
+		rows = append(rows, verdictRow{what: "smallest RMSE", coefficient: cv.Coefficient, best: cv.BestRMSE, value: pm(cv.RMSE, false), tied: cv.TiedRMSE})
+		if cv.SmallestBias != "" {
+			rows = append(rows, verdictRow{what: "smallest |bias|", coefficient: cv.Coefficient, best: cv.SmallestBias, value: pm(cv.Bias, true), tied: cv.TiedBias})
+		}
+	}
+	for _, e := range v.NotRecommended {
+		rows = append(rows, verdictRow{what: "not recommended", best: e.Estimator, others: e.Detail})
+	}
+	return rows
 }
