@@ -286,8 +286,11 @@ func TestHeavyTailsFlagged(t *testing.T) {
 				if c.RelEffHeavyTails != tc.heavyLS {
 					t.Errorf("%s %s %s: efficiency flagged %v, want %v", tc.noise, e.Label, c.Name, c.RelEffHeavyTails, tc.heavyLS)
 				}
-				if c.HeavyTails && !math.IsNaN(float64(c.EmpSE.MCSE)) {
-					t.Errorf("%s %s %s: SE MCSE %v printed under heavy tails", tc.noise, e.Label, c.Name, c.EmpSE.MCSE)
+				if c.HeavyTails && !(math.IsNaN(float64(c.EmpSE.MCSE)) && math.IsNaN(float64(c.RMSE.MCSE))) {
+					t.Errorf("%s %s %s: SE MCSE %v or RMSE MCSE %v given under heavy tails", tc.noise, e.Label, c.Name, c.EmpSE.MCSE, c.RMSE.MCSE)
+				}
+				if c.RelEffHeavyTails && !math.IsNaN(float64(c.MSERatio.MCSE)) {
+					t.Errorf("%s %s %s: MSE ratio MCSE %v given under heavy tails", tc.noise, e.Label, c.Name, c.MSERatio.MCSE)
 				}
 			}
 		}
@@ -297,6 +300,13 @@ func TestHeavyTailsFlagged(t *testing.T) {
 		}
 		if got := bytes.Contains(table.Bytes(), []byte("not meaningful")); got != tc.heavyLS {
 			t.Errorf("%s: table says 'not meaningful': %v, want %v\n%s", tc.noise, got, tc.heavyLS, table.String())
+		}
+		// Heavy-tailed least squares has no meaningful MSE: it must not be
+		// recommended, and the verdict must say why.
+		v := results.Decide(res.Cells[0], res.Reference)
+		excluded := len(v.NotRecommended) > 0 && v.NotRecommended[0].Estimator == "ls" && v.NotRecommended[0].Reason == results.HeavyTailedEstimates
+		if excluded != tc.heavyLS {
+			t.Errorf("%s: least squares not recommended for heavy tails: %v, want %v (%+v)", tc.noise, excluded, tc.heavyLS, v.NotRecommended)
 		}
 	}
 }

@@ -258,13 +258,13 @@ func heavyTailNote(r *Results, c Cell) string {
 	}
 	var parts []string
 	if len(se) > 0 {
-		parts = append(parts, "the emp. SE, the efficiency and every MCSE resting on a variance of "+strings.Join(se, ", "))
+		parts = append(parts, "the emp. SE, the RMSE, the MSE ratio, the variance efficiency and every MCSE resting on a variance of "+strings.Join(se, ", "))
 	}
 	if len(eff) > 0 {
-		parts = append(parts, "the efficiency against a heavy-tailed reference of "+strings.Join(eff, ", "))
+		parts = append(parts, "the MSE ratio and variance efficiency against a heavy-tailed reference of "+strings.Join(eff, ", "))
 	}
 	return "Heavy tails: a few replicates carry most of the spread, as when the estimates have no finite variance, so " +
-		strings.Join(parts, "; and ") + " are not meaningful and are left out of this comparison."
+		strings.Join(parts, "; and ") + " are not meaningful; such estimators are not recommended."
 }
 
 // percent formats a proportion as a percentage with two significant digits.

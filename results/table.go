@@ -110,7 +110,7 @@ func verdictLine(r *Results, c Cell) string {
 				line += "; next " + next
 			}
 		case next != "":
-			line += "; clearly ahead of " + next
+			line += "; next " + next + ", not tied"
 		default:
 			line += "; the only estimator ranked"
 		}
@@ -270,7 +270,7 @@ func writeCellTable(b *strings.Builder, r *Results, c Cell, width int) {
 	}
 	header := [2][7]string{
 		{"", "", "", "", "MSE ratio", "var. eff.", ""},
-		{"coefficient", "bias", "SE", "RMSE", "vs " + ref, "vs " + ref, "cover"},
+		{"coef.", "bias", "SE", "RMSE", "vs " + ref, "vs " + ref, "cover"},
 	}
 	writeColumns(b, header, rows, width)
 	if heavySE || heavyRatio {
