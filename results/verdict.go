@@ -74,7 +74,8 @@ type Ranked struct {
 	Tied bool `json:"tied"`
 }
 
-// CoefficientVerdict ranks the estimators on one coefficient.
+// CoefficientVerdict ranks the recommended estimators (those not in
+// Verdict.NotRecommended) on one coefficient.
 type CoefficientVerdict struct {
 	Coefficient string `json:"coefficient"`
 	// BestRMSE has the smallest RMSE (RMSE its value ± MCSE); TiedRMSE the
