@@ -127,8 +127,8 @@ func bootstrapSD(rng *rand.Rand, n, b int, stat func(idx []int) float64) (sd, se
 	return sd, sd * math.Sqrt((m4/(m2*m2)-1)/(4*float64(b)))
 }
 
-// TestMCSEAgainstBootstrap checks the MCSEs of the empirical SE and of the
-// relative efficiency against a bootstrap over the run's own kept
+// TestMCSEAgainstBootstrap checks the MCSEs of the empirical SE, the RMSE,
+// the MSE ratio and the relative efficiency against a bootstrap over the run's own kept
 // replicates (Efron & Tibshirani (1993), An Introduction to the Bootstrap,
 // Chapman & Hall, ch. 6, from memory), under normal noise and under t3
 // noise, where the normal-theory forms of Morris, White & Crowther (2019),
@@ -189,10 +189,43 @@ func TestMCSEAgainstBootstrap(t *testing.T) {
 				if c.HeavyTails {
 					t.Errorf("%s %s %s: flagged heavy-tailed (tail ratio %v)", noise, est.Label, c.Name, c.TailRatio)
 				}
+				// RMSE: √mean(e²) over the same replicates.
+				rmse := func(x []float64, idx []int) float64 {
+					var s float64
+					for _, i := range idx {
+						s += x[i] * x[i]
+					}
+					return math.Sqrt(s / float64(len(idx)))
+				}
+				sd, se = bootstrapSD(rng, n, boot, func(idx []int) float64 { return rmse(e, idx) })
+				tol = 4*se + 0.02*sd
+				got = float64(c.RMSE.MCSE)
+				t.Logf("%-8s %-5s %-9s RMSE MCSE: formula %.5f, bootstrap %.5f ± %.5f", noise, est.Label, c.Name, got, sd, se)
+				if math.Abs(got-sd) > tol {
+					t.Errorf("%s %s %s: RMSE MCSE %.5f, bootstrap %.5f (tolerance %.5f)", noise, est.Label, c.Name, got, sd, tol)
+				}
+				if d := math.Abs(float64(c.RMSE.Value) - rmse(e, all)); d > 1e-12*rmse(e, all) {
+					t.Errorf("%s %s %s: RMSE %v from the tallies, %v from the replicates", noise, est.Label, c.Name, c.RMSE.Value, rmse(e, all))
+				}
 				if est.Label == res.Reference {
+					if c.MSERatio.Value != 1 || !math.IsNaN(float64(c.MSERatio.MCSE)) {
+						t.Errorf("%s %s %s: reference's MSE ratio %v ± %v, want exactly 1 with no MCSE", noise, est.Label, c.Name, c.MSERatio.Value, c.MSERatio.MCSE)
+					}
 					continue
 				}
 				ref := errs[0][k]
+				// MSE ratio MSE(ref)/MSE(e), paired.
+				ratio := func(idx []int) float64 { r := rmse(ref, idx) / rmse(e, idx); return r * r }
+				sd, se = bootstrapSD(rng, n, boot, ratio)
+				tol = 4*se + 0.02*sd
+				got = float64(c.MSERatio.MCSE)
+				t.Logf("%-8s %-5s %-9s MSE ratio %.4f MCSE: formula %.5f, bootstrap %.5f ± %.5f", noise, est.Label, c.Name, float64(c.MSERatio.Value), got, sd, se)
+				if math.Abs(got-sd) > tol {
+					t.Errorf("%s %s %s: MSE ratio MCSE %.5f, bootstrap %.5f (tolerance %.5f)", noise, est.Label, c.Name, got, sd, tol)
+				}
+				if d := math.Abs(float64(c.MSERatio.Value) - ratio(all)); d > 1e-12*ratio(all) {
+					t.Errorf("%s %s %s: MSE ratio %v from the tallies, %v from the replicates", noise, est.Label, c.Name, c.MSERatio.Value, ratio(all))
+				}
 				sd, se = bootstrapSD(rng, n, boot, func(idx []int) float64 { return variance(ref, idx) / variance(e, idx) })
 				tol = 4*se + 0.02*sd
 				got = float64(c.RelEff.MCSE)
@@ -253,8 +286,11 @@ func TestHeavyTailsFlagged(t *testing.T) {
 				if c.RelEffHeavyTails != tc.heavyLS {
 					t.Errorf("%s %s %s: efficiency flagged %v, want %v", tc.noise, e.Label, c.Name, c.RelEffHeavyTails, tc.heavyLS)
 				}
-				if c.HeavyTails && !math.IsNaN(float64(c.EmpSE.MCSE)) {
-					t.Errorf("%s %s %s: SE MCSE %v printed under heavy tails", tc.noise, e.Label, c.Name, c.EmpSE.MCSE)
+				if c.HeavyTails && !(math.IsNaN(float64(c.EmpSE.MCSE)) && math.IsNaN(float64(c.RMSE.MCSE))) {
+					t.Errorf("%s %s %s: SE MCSE %v or RMSE MCSE %v given under heavy tails", tc.noise, e.Label, c.Name, c.EmpSE.MCSE, c.RMSE.MCSE)
+				}
+				if c.RelEffHeavyTails && !math.IsNaN(float64(c.MSERatio.MCSE)) {
+					t.Errorf("%s %s %s: MSE ratio MCSE %v given under heavy tails", tc.noise, e.Label, c.Name, c.MSERatio.MCSE)
 				}
 			}
 		}
@@ -264,6 +300,13 @@ func TestHeavyTailsFlagged(t *testing.T) {
 		}
 		if got := bytes.Contains(table.Bytes(), []byte("not meaningful")); got != tc.heavyLS {
 			t.Errorf("%s: table says 'not meaningful': %v, want %v\n%s", tc.noise, got, tc.heavyLS, table.String())
+		}
+		// Heavy-tailed least squares has no meaningful MSE: it must not be
+		// recommended, and the verdict must say why.
+		v := results.Decide(res.Cells[0], res.Reference)
+		excluded := len(v.NotRecommended) > 0 && v.NotRecommended[0].Estimator == "ls" && v.NotRecommended[0].Reason == results.HeavyTailedEstimates
+		if excluded != tc.heavyLS {
+			t.Errorf("%s: least squares not recommended for heavy tails: %v, want %v (%+v)", tc.noise, excluded, tc.heavyLS, v.NotRecommended)
 		}
 	}
 }

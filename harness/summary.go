@@ -58,7 +58,7 @@ func summarise(st *scenarios.Study, plans []cellPlan, tallies []*cellTally, seed
 				est.PastThreshold = &r
 			}
 			for k, name := range names {
-				c := coefficient(name, p.truth[k], &et.coefs[k])
+				c := coefficient(name, p.truth[k], &et.coefs[k], j == p.ref)
 				c.TheoryGap = results.Num((float64(c.RelEff.Value) - theory[j]) / float64(c.RelEff.MCSE))
 				if j == p.ref || math.IsNaN(theory[j]) {
 					c.TheoryGap = results.Num(math.NaN())
@@ -71,6 +71,8 @@ func summarise(st *scenarios.Study, plans []cellPlan, tallies []*cellTally, seed
 			}
 			cell.Estimators = append(cell.Estimators, est)
 		}
+		v := results.Decide(cell, res.Reference)
+		cell.Verdict = &v
 		res.Cells = append(res.Cells, cell)
 	}
 	return res
@@ -238,10 +240,11 @@ func methodTheory(e estimators.Estimator, sd float64, n, p int) float64 {
 }
 
 // coefficient computes the measures of one coefficient.
-func coefficient(name string, truth float64, t *coefTally) results.Coefficient {
+// reference says the coefficient is the reference estimator's own.
+func coefficient(name string, truth float64, t *coefTally, reference bool) results.Coefficient {
 	c := results.Coefficient{Name: name, True: truth, Used: t.n, Paired: t.np}
 	nan := results.Measure{Value: results.Num(math.NaN()), MCSE: results.Num(math.NaN())}
-	c.Mean, c.Bias, c.EmpSE, c.MSE, c.RelEff = nan, nan, nan, nan, nan
+	c.Mean, c.Bias, c.EmpSE, c.MSE, c.RMSE, c.MSERatio, c.RelEff = nan, nan, nan, nan, nan, nan, nan
 	if t.n > 0 {
 		m := results.Moments{
 			N:     t.n,
@@ -255,12 +258,13 @@ func coefficient(name string, truth float64, t *coefTally) results.Coefficient {
 		c.Mean = results.Measure{Value: c.Bias.Value + results.Num(truth), MCSE: c.Bias.MCSE}
 		c.EmpSE = m.EmpSE()
 		c.MSE = m.MeanSquaredError()
+		c.RMSE = m.RootMeanSquaredError()
 		c.TailRatio = results.Num(results.TailRatio(m.SS, m.SS4))
 		if m.HeavyTailed() {
 			// The spread rests on a few replicates: no MCSE built on a
 			// second moment means anything.
 			c.HeavyTails = true
-			c.Bias.MCSE, c.Mean.MCSE, c.EmpSE.MCSE, c.MSE.MCSE = nan.MCSE, nan.MCSE, nan.MCSE, nan.MCSE
+			c.Bias.MCSE, c.Mean.MCSE, c.EmpSE.MCSE, c.MSE.MCSE, c.RMSE.MCSE = nan.MCSE, nan.MCSE, nan.MCSE, nan.MCSE, nan.MCSE
 		}
 	}
 	c.Intervals = t.nInt
@@ -282,10 +286,23 @@ func coefficient(name string, truth float64, t *coefTally) results.Coefficient {
 			SAB22: crossFourthAbout(&t.pa1, &t.pb1, &t.pa2, &t.pb2, &t.pab, &t.pa2b, &t.pab2, &t.pa2b2, t.np),
 		}
 		c.RelEff = pr.RelativeEfficiency()
+		sq := results.PairedSquares{
+			N:     t.np,
+			SumA2: t.pa2.Float64(),
+			SumB2: t.pb2.Float64(),
+			SSA2:  centred(&t.pa2, &t.pa4, t.np),
+			SSB2:  centred(&t.pb2, &t.pb4, t.np),
+			SA2B2: crossCentred(&t.pa2, &t.pb2, &t.pa2b2, t.np),
+		}
+		c.MSERatio = sq.MSERatio()
 		if pr.HeavyTailed() {
 			c.RelEffHeavyTails = true
-			c.RelEff.MCSE = nan.MCSE
+			c.RelEff.MCSE, c.MSERatio.MCSE = nan.MCSE, nan.MCSE
 		}
+	}
+	if reference && t.n > 0 {
+		// Against itself the ratio is 1 by definition, not a measurement.
+		c.MSERatio = results.Measure{Value: 1, MCSE: nan.MCSE}
 	}
 	return c
 }

@@ -41,7 +41,9 @@ func csvFloat(f float64) string {
 }
 
 // WriteCSV writes r as tidy CSV: one row per cell × estimator ×
-// coefficient, with one column per swept field. Provenance and timing are
+// coefficient, with one column per swept field. heavy_tails and
+// rel_eff_heavy_tails are true or false (see Coefficient); where they are
+// true the MCSEs they cover are NA. Provenance and timing are
 // left out, so two runs of the same scenario and seed give identical files.
 func WriteCSV(w io.Writer, r *Results) error {
 	cw := csv.NewWriter(w)
@@ -56,8 +58,9 @@ func WriteCSV(w io.Writer, r *Results) error {
 	header = append(header,
 		"estimator", "method", "psi", "tuning", "coefficient", "true", "replicates", "used",
 		"mean", "mean_mcse", "bias", "bias_mcse", "emp_se", "emp_se_mcse", "mse", "mse_mcse",
+		"rmse", "rmse_mcse", "mse_ratio", "mse_ratio_mcse",
 		"rel_eff", "rel_eff_mcse", "paired", "theory_efficiency", "theory_gap_mcse",
-		"intervals", "coverage", "coverage_mcse", "width", "width_mcse", "slope_bias", "slope_bias_mcse",
+		"heavy_tails", "rel_eff_heavy_tails", "intervals", "coverage", "coverage_mcse", "width", "width_mcse", "slope_bias", "slope_bias_mcse",
 		"failure_rate", "failure_low", "failure_high", "mean_iterations", "mean_iterations_mcse", "median_iterations", "max_iterations")
 	if err := cw.Write(header); err != nil {
 		return err
@@ -80,9 +83,11 @@ func WriteCSV(w io.Writer, r *Results) error {
 					csvFloat(float64(k.Bias.Value)), csvFloat(float64(k.Bias.MCSE)),
 					csvFloat(float64(k.EmpSE.Value)), csvFloat(float64(k.EmpSE.MCSE)),
 					csvFloat(float64(k.MSE.Value)), csvFloat(float64(k.MSE.MCSE)),
+					csvFloat(float64(k.RMSE.Value)), csvFloat(float64(k.RMSE.MCSE)),
+					csvFloat(float64(k.MSERatio.Value)), csvFloat(float64(k.MSERatio.MCSE)),
 					csvFloat(float64(k.RelEff.Value)), csvFloat(float64(k.RelEff.MCSE)),
 					strconv.FormatInt(k.Paired, 10), csvFloat(float64(e.TheoryEfficiency)), csvFloat(float64(k.TheoryGap)),
-					strconv.FormatInt(k.Intervals, 10), csvFloat(float64(k.Coverage.Value)), csvFloat(float64(k.Coverage.MCSE)),
+					strconv.FormatBool(k.HeavyTails), strconv.FormatBool(k.RelEffHeavyTails), strconv.FormatInt(k.Intervals, 10), csvFloat(float64(k.Coverage.Value)), csvFloat(float64(k.Coverage.MCSE)),
 					csvFloat(float64(k.Width.Value)), csvFloat(float64(k.Width.MCSE)),
 					csvFloat(float64(e.SlopeBias.Value)), csvFloat(float64(e.SlopeBias.MCSE)),
 					csvFloat(float64(cv.FailureRate.Value)), csvFloat(float64(cv.FailureRate.Low)), csvFloat(float64(cv.FailureRate.High)),

@@ -16,8 +16,9 @@ const (
 )
 
 // WriteMarkdownSummary writes a short Markdown summary of r for a code
-// review: the scenario, seed, replicates and whether the run completed; what
-// did best in each cell (value ± MCSE, ties within 2 combined MCSE); any
+// review: the scenario, seed, replicates and whether the run completed; the
+// verdict of each cell (what to choose by RMSE, ties within 2 combined
+// MCSE, and the estimators not recommended); any
 // failed fits by status with their rates; and, where asymptotic theory
 // applies, the largest gap between simulation and theory in MCSE units.
 func WriteMarkdownSummary(w io.Writer, r *Results) error {
@@ -38,7 +39,7 @@ func WriteMarkdownSummary(w io.Writer, r *Results) error {
 		fmt.Fprintf(b, "- scenario hash %s · %s\n", mdCode(h), mdText(toolName(r)))
 	}
 	if r.Reference != "" {
-		fmt.Fprintf(b, "- efficiencies relative to %s\n", mdCode(r.Reference))
+		fmt.Fprintf(b, "- MSE ratios and variance efficiencies relative to %s\n", mdCode(r.Reference))
 	}
 	if sw := sweepsOf(r); len(sw) > 0 {
 		parts := make([]string, len(sw))
@@ -51,7 +52,7 @@ func WriteMarkdownSummary(w io.Writer, r *Results) error {
 
 	// What did best.
 	b.WriteString("\n## What did best\n\n")
-	fmt.Fprintf(b, "Per cell, the best estimator on each measure as value ± MCSE; *tie* lists the others within %d combined MCSE.\n", tieFactor)
+	fmt.Fprintf(b, "Per cell, the estimator to choose by RMSE (its worst coefficient's RMSE as a multiple of %s's, ± MCSE), then the smallest RMSE and |bias| per coefficient; *tie* lists the others within %d combined MCSE. Not recommended: more than %s of fits failed, or heavy tails.\n", mdCode(r.Reference), TieMCSE, mdText(percent(MaxFailureRate)))
 	for i, c := range r.Cells {
 		if i == markdownMaxCells {
 			fmt.Fprintf(b, "\n… and %d more cells (see the HTML report).\n", len(r.Cells)-markdownMaxCells)
@@ -72,23 +73,30 @@ func WriteMarkdownSummary(w io.Writer, r *Results) error {
 		if note := heavyTailNote(r, c); note != "" {
 			b.WriteString(mdText(note) + "\n\n")
 		}
-		entries := bestInCell(r, c)
-		if len(entries) == 0 {
+		rows := verdictRows(r, c)
+		if len(rows) == 0 {
 			b.WriteString("- nothing to compare\n")
 			continue
 		}
-		// One line per measure; coefficients joined.
-		var order []string
-		lines := map[string][]string{}
-		for _, e := range entries {
-			t := measureTitle(r, e.measure)
-			if _, ok := lines[t]; !ok {
-				order = append(order, t)
+		for _, row := range rows {
+			line := "- " + mdText(row.what) + ": "
+			if row.coefficient != "" {
+				line += mdText(row.coefficient) + " "
 			}
-			lines[t] = append(lines[t], markdownBest(e))
-		}
-		for _, t := range order {
-			fmt.Fprintf(b, "- %s: %s\n", mdText(t), strings.Join(lines[t], "; "))
+			line += mdCode(row.best)
+			if row.value != "" {
+				line += " " + mdText(row.value)
+			}
+			if len(row.tied) > 0 {
+				tied := make([]string, len(row.tied))
+				for i, t := range row.tied {
+					tied[i] = mdCode(t)
+				}
+				line += " (*tie* with " + strings.Join(tied, ", ") + ")"
+			} else if row.others != "" {
+				line += " (" + mdText(row.others) + ")"
+			}
+			b.WriteString(line + "\n")
 		}
 	}
 
@@ -127,30 +135,6 @@ func WriteMarkdownSummary(w io.Writer, r *Results) error {
 	}
 	_, err := io.WriteString(w, b.String())
 	return err
-}
-
-// markdownBest renders one "what did best" entry.
-func markdownBest(e bestEntry) string {
-	prefix := ""
-	if e.coefficient != "" {
-		prefix = mdText(e.coefficient) + " "
-	}
-	if e.allZero {
-		return prefix + fmt.Sprintf("no fit failed (all %d estimators)", e.compared)
-	}
-	names := make([]string, 0, 1+len(e.equal))
-	for _, l := range append([]string{e.best.label}, e.equal...) {
-		names = append(names, mdCode(l))
-	}
-	s := prefix + strings.Join(names, ", ") + " " + mdText(bestValue(e))
-	if len(e.tied) > 0 {
-		tied := make([]string, len(e.tied))
-		for i, t := range e.tied {
-			tied[i] = mdCode(t)
-		}
-		s += " (*tie* with " + strings.Join(tied, ", ") + ")"
-	}
-	return s
 }
 
 // mdCode renders s as a Markdown code span, with a fence longer than any

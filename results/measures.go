@@ -62,6 +62,19 @@ func (m Moments) MeanSquaredError() Measure {
 	return Measure{Value: Num(m.MSE), MCSE: Num(math.Sqrt(m.SSMSE / (n * (n - 1))))}
 }
 
+// RootMeanSquaredError returns RMSE = √MSE with the delta-method MCSE
+// MCSE(MSE)/(2·RMSE) (d√x/dx = 1/(2√x); common practice), MCSE(MSE) as in
+// MeanSquaredError. At RMSE = 0 (every error exactly 0) the MCSE is 0.
+func (m Moments) RootMeanSquaredError() Measure {
+	mse := m.MeanSquaredError()
+	rmse := math.Sqrt(float64(mse.Value))
+	mcse := float64(mse.MCSE) / (2 * rmse)
+	if rmse == 0 {
+		mcse = 0
+	}
+	return Measure{Value: Num(rmse), MCSE: Num(mcse)}
+}
+
 // HeavyTailed reports whether the errors look as if they had no finite
 // variance, in which case the empirical SE, the MSE, the relative
 // efficiency and every MCSE built on a second moment are not meaningful.
@@ -137,6 +150,36 @@ func (p Paired) RelativeEfficiency() Measure {
 	vb := varianceOfVariance(p.SSB4/n, sb2, n) / (sb2 * sb2)
 	cov := ((p.SAB22/n-sa2*sb2)/n + 2*sab*sab/(n*(n-1))) / (sa2 * sb2)
 	return Measure{Value: Num(re), MCSE: Num(re * math.Sqrt(math.Max(0, va+vb-2*cov)))}
+}
+
+// PairedSquares are the summaries of the squared errors of an estimator
+// (a) and the reference (b) over the N replicates where both converged,
+// for the MSE ratio. The harness forms them from exact sums.
+type PairedSquares struct {
+	// N is the number of replicates in which both estimators converged.
+	N int64
+	// SumA2 and SumB2 are Σa² and Σb².
+	SumA2, SumB2 float64
+	// SSA2 and SSB2 are Σ(a² − Σa²/N)² and Σ(b² − Σb²/N)², SA2B2 the
+	// centred cross product Σ(a² − Σa²/N)(b² − Σb²/N).
+	SSA2, SSB2, SA2B2 float64
+}
+
+// MSERatio returns R = MSE_B/MSE_A = Σb²/Σa², the reference's MSE over
+// this estimator's on the same replicates (above 1: A is the more
+// accurate), with an MCSE by the delta method on
+// log R = log mean(b²) − log mean(a²), the two means being paired:
+//
+//	Var(log R) = N/(N−1) · (SSB2/SumB2² + SSA2/SumA2² − 2·SA2B2/(SumA2·SumB2)),
+//
+// since Var(mean x) ≈ Σ(x − x̄)²/(N(N−1)) and Var(log x̄) ≈ Var(x̄)/x̄²
+// (the delta method for a ratio of paired means; common practice), and
+// MCSE(R) = R·√Var(log R). It needs finite fourth moments of the errors.
+func (p PairedSquares) MSERatio() Measure {
+	n := float64(p.N)
+	r := p.SumB2 / p.SumA2
+	v := n / (n - 1) * (p.SSB2/(p.SumB2*p.SumB2) + p.SSA2/(p.SumA2*p.SumA2) - 2*p.SA2B2/(p.SumA2*p.SumB2))
+	return Measure{Value: Num(r), MCSE: Num(r * math.Sqrt(math.Max(0, v)))}
 }
 
 // HeavyTailed reports whether either estimator's paired errors look as if

@@ -82,6 +82,10 @@ type Cell struct {
 	Replicates int64 `json:"replicates"`
 	// Estimators holds one entry per estimator, in scenario order.
 	Estimators []Estimator `json:"estimators"`
+	// Verdict says which estimator to choose in this cell and how sure
+	// that choice is (see Decide); absent in files written before it
+	// existed, where VerdictOf computes it.
+	Verdict *Verdict `json:"verdict,omitempty"`
 }
 
 // Estimator is the outcome of one estimator in one cell.
@@ -132,10 +136,23 @@ type Coefficient struct {
 	EmpSE Measure `json:"emp_se"`
 	// MSE is the mean squared error about the true value.
 	MSE Measure `json:"mse"`
-	// RelEff is the relative efficiency against the reference estimator,
-	// EmpSE_ref² / EmpSE², over the replicates where both converged.
+	// RMSE is the root mean squared error √MSE, in the coefficient's units:
+	// it counts bias and spread together, so it is what the verdict ranks
+	// by. Its MCSE is MCSE(MSE)/(2·RMSE) (see Moments.RootMeanSquaredError);
+	// null under heavy tails.
+	RMSE Measure `json:"rmse"`
+	// MSERatio is MSE(reference)/MSE(this estimator) over the replicates
+	// where both converged: above 1 this estimator is the more accurate.
+	// Its MCSE is paired (see PairedSquares.MSERatio). For the reference
+	// itself it is exactly 1 with a null MCSE; its MCSE is also null when
+	// RelEffHeavyTails is set.
+	MSERatio Measure `json:"mse_ratio"`
+	// RelEff is the variance efficiency against the reference estimator,
+	// EmpSE_ref² / EmpSE², over the replicates where both converged. It
+	// ignores bias: a biased estimator can have a high one.
 	RelEff Measure `json:"rel_eff"`
-	// Paired is the number of replicates RelEff is computed from.
+	// Paired is the number of replicates RelEff and MSERatio are computed
+	// from.
 	Paired int64 `json:"paired"`
 	// Intervals is the number of replicates with a 95% interval (fits that
 	// converged, by a method with standard errors).
@@ -154,8 +171,8 @@ type Coefficient struct {
 	// not meaningful.
 	HeavyTails bool `json:"heavy_tails"`
 	// RelEffHeavyTails is the same check on the paired errors of this
-	// estimator or of the reference: the relative efficiency and its MCSE
-	// (null then) are not meaningful.
+	// estimator or of the reference: the relative efficiency and the MSE
+	// ratio, and their MCSEs (null then), are not meaningful.
 	RelEffHeavyTails bool `json:"rel_eff_heavy_tails"`
 	// TheoryGap is (RelEff − TheoryEfficiency) / MCSE of RelEff: how far,
 	// in Monte Carlo standard errors, the simulation lies from the

@@ -188,7 +188,7 @@ func jobStatement(r *Results) string {
 	}
 	labels := estimatorLabels(r)
 	fmt.Fprintf(&b, ". It fitted every dataset with each of %d estimators (%s), so comparisons within a cell are paired, ", len(labels), strings.Join(labels, ", "))
-	b.WriteString("and reports the bias, empirical standard error, efficiency")
+	b.WriteString("and reports the bias, empirical standard error, RMSE, MSE ratio and variance efficiency")
 	if r.Reference != "" {
 		fmt.Fprintf(&b, " relative to %s", r.Reference)
 	}
@@ -231,144 +231,6 @@ func writeScenarioSection(b *strings.Builder, r *Results) {
 // ---------------------------------------------------------------------------
 // What did best.
 
-// bestMeasure names the measures compared in "what did best".
-const (
-	bestBias    = "smallest |bias|"
-	bestEmpSE   = "smallest emp. SE"
-	bestEff     = "highest efficiency"
-	bestFailure = "lowest failure rate"
-)
-
-// candidate is one estimator's value of a compared measure.
-type candidate struct {
-	label string
-	m     Measure // the measure as reported (bias keeps its sign)
-	score float64 // the quantity ranked: |bias|, emp. SE, −efficiency, failure rate
-	mcse  float64
-	// For failure rates: failed and fits.
-	failed, fits int64
-}
-
-// bestEntry is the winner of one measure (of one coefficient) in one cell.
-type bestEntry struct {
-	measure     string
-	coefficient string // "" for the failure rate
-	best        candidate
-	equal       []string // others with exactly the best value (e.g. no failures)
-	tied        []string // others within 2 combined MCSE of the best
-	runnerUp    string   // the next best when it is not tied
-	compared    int
-	allZero     bool // failure rate: nothing failed at all
-}
-
-// tieFactor: a runner-up within tieFactor combined MCSE of the best is a tie.
-const tieFactor = 2
-
-// pickBest ranks candidates by score (lower is better), skipping ones
-// without a finite score, and marks ties: candidates whose score is within
-// tieFactor·√(MCSE_best² + MCSE_other²) of the best. The combined MCSE
-// treats the two estimates as independent; within a cell they are paired
-// and usually positively correlated, so this errs towards calling a tie.
-func pickBest(measure, coef string, cands []candidate) (bestEntry, bool) {
-	var ok []candidate
-	for _, c := range cands {
-		if finite(c.score) {
-			if !finite(c.mcse) {
-				c.mcse = 0
-			}
-			ok = append(ok, c)
-		}
-	}
-	if len(ok) == 0 {
-		return bestEntry{}, false
-	}
-	slices.SortStableFunc(ok, func(a, b candidate) int {
-		switch {
-		case a.score < b.score:
-			return -1
-		case a.score > b.score:
-			return 1
-		}
-		return 0
-	})
-	e := bestEntry{measure: measure, coefficient: coef, best: ok[0], compared: len(ok)}
-	for _, c := range ok[1:] {
-		if c.score == ok[0].score {
-			e.equal = append(e.equal, c.label)
-		} else if c.score-ok[0].score <= tieFactor*math.Hypot(ok[0].mcse, c.mcse) {
-			e.tied = append(e.tied, c.label)
-		} else if e.runnerUp == "" {
-			e.runnerUp = c.label
-		}
-	}
-	if measure == bestFailure {
-		e.allZero = true
-		for _, c := range ok {
-			if c.failed > 0 {
-				e.allZero = false
-			}
-		}
-	}
-	return e, true
-}
-
-// bestInCell compares the estimators of a cell on each measure: |bias|,
-// emp. SE and efficiency per coefficient, and the failure rate.
-func bestInCell(r *Results, c Cell) []bestEntry {
-	var coefs []string
-	for _, e := range c.Estimators {
-		for _, k := range e.Coefficients {
-			if !slices.Contains(coefs, k.Name) {
-				coefs = append(coefs, k.Name)
-			}
-		}
-	}
-	var out []bestEntry
-	add := func(e bestEntry, ok bool) {
-		if ok && e.compared > 1 {
-			out = append(out, e)
-		}
-	}
-	for _, measure := range []string{bestBias, bestEmpSE, bestEff} {
-		for _, name := range coefs {
-			var cands []candidate
-			for _, e := range c.Estimators {
-				for _, k := range e.Coefficients {
-					if k.Name != name {
-						continue
-					}
-					// A measure that rests on a variance the estimates do
-					// not appear to have is left out (see heavyTailNote).
-					if (measure != bestEff && k.HeavyTails) || (measure == bestEff && k.RelEffHeavyTails) {
-						continue
-					}
-					switch measure {
-					case bestBias:
-						cands = append(cands, candidate{label: e.Label, m: k.Bias, score: math.Abs(float64(k.Bias.Value)), mcse: float64(k.Bias.MCSE)})
-					case bestEmpSE:
-						cands = append(cands, candidate{label: e.Label, m: k.EmpSE, score: float64(k.EmpSE.Value), mcse: float64(k.EmpSE.MCSE)})
-					case bestEff:
-						cands = append(cands, candidate{label: e.Label, m: k.RelEff, score: -float64(k.RelEff.Value), mcse: float64(k.RelEff.MCSE)})
-					}
-				}
-			}
-			add(pickBest(measure, name, cands))
-		}
-	}
-	var cands []candidate
-	for _, e := range c.Estimators {
-		cv := e.Convergence
-		if cv.Fits == 0 {
-			continue
-		}
-		failed := cv.Fits - cv.Converged
-		m := Proportion(failed, cv.Fits)
-		cands = append(cands, candidate{label: e.Label, m: m, score: float64(m.Value), mcse: float64(m.MCSE), failed: failed, fits: cv.Fits})
-	}
-	add(pickBest(bestFailure, "", cands))
-	return out
-}
-
 // heavyTailNote says which measures of cell c are not meaningful because
 // the estimates behind them are heavy-tailed (Coefficient.HeavyTails,
 // RelEffHeavyTails), or returns "" if none are.
@@ -396,32 +258,13 @@ func heavyTailNote(r *Results, c Cell) string {
 	}
 	var parts []string
 	if len(se) > 0 {
-		parts = append(parts, "the emp. SE, the efficiency and every MCSE resting on a variance of "+strings.Join(se, ", "))
+		parts = append(parts, "the emp. SE, the RMSE, the MSE ratio, the variance efficiency and every MCSE resting on a variance of "+strings.Join(se, ", "))
 	}
 	if len(eff) > 0 {
-		parts = append(parts, "the efficiency against a heavy-tailed reference of "+strings.Join(eff, ", "))
+		parts = append(parts, "the MSE ratio and variance efficiency against a heavy-tailed reference of "+strings.Join(eff, ", "))
 	}
 	return "Heavy tails: a few replicates carry most of the spread, as when the estimates have no finite variance, so " +
-		strings.Join(parts, "; and ") + " are not meaningful and are left out of this comparison."
-}
-
-// measureTitle is the measure's name with the reference for efficiency.
-func measureTitle(r *Results, measure string) string {
-	if measure == bestEff && r.Reference != "" {
-		return "highest efficiency vs " + r.Reference
-	}
-	return measure
-}
-
-// bestValue formats the winner's value ± MCSE.
-func bestValue(e bestEntry) string {
-	if e.measure == bestFailure {
-		if e.best.failed == 0 {
-			return fmt.Sprintf("0 of %d fits failed", e.best.fits)
-		}
-		return fmt.Sprintf("%s of fits (%d of %d)", percent(float64(e.best.m.Value)), e.best.failed, e.best.fits)
-	}
-	return pm(e.best.m, e.measure == bestBias)
+		strings.Join(parts, "; and ") + " are not meaningful; such estimators are not recommended."
 }
 
 // percent formats a proportion as a percentage with two significant digits.
@@ -441,9 +284,10 @@ func percent(p float64) string {
 func writeBestSection(b *strings.Builder, r *Results) {
 	esc := html.EscapeString
 	fmt.Fprintf(b, "<section id=\"%s\">\n<h2>What did best</h2>\n", sectionBest)
-	b.WriteString("<p>For each cell, the estimator with the best value of each measure, shown as value ± MCSE. ")
-	fmt.Fprintf(b, "It is marked as a <span class=\"tie\">tie</span> with every other estimator within %d combined MCSE of it (√(MCSE₁² + MCSE₂²), which ignores the pairing within a cell and so leans towards calling ties). ", tieFactor)
-	b.WriteString("Bias, emp. SE and efficiency use the fits that converged; a small bias is only reassuring together with a low failure rate.</p>\n")
+	b.WriteString("<p>For each cell, the estimator to choose and how sure that is. Estimators are ranked by RMSE, which counts bias and spread together, never by variance efficiency alone: ")
+	fmt.Fprintf(b, "the score is the RMSE on an estimator's worst coefficient as a multiple of %s's on the same datasets (×0.5: half the error), ± MCSE. ", esc(r.Reference))
+	fmt.Fprintf(b, "Another estimator is marked as a <span class=\"tie\">tie</span> when it is within %d combined MCSE (√(MCSE₁² + MCSE₂²)). ", TieMCSE)
+	fmt.Fprintf(b, "Measures use the fits that converged, so an estimator whose fits failed more than %s of the time is not recommended.</p>\n", esc(percent(MaxFailureRate)))
 	if g, ok := largestTheoryGap(r); ok {
 		fmt.Fprintf(b, "<p>Against the asymptotic theory at the normal model, the largest gap is %s MCSE: %s.</p>\n", esc(strconv.FormatFloat(math.Abs(g.gap), 'f', 1, 64)), esc(g.where(r)))
 	}
@@ -458,30 +302,23 @@ func writeBestSection(b *strings.Builder, r *Results) {
 		if note := heavyTailNote(r, c); note != "" {
 			fmt.Fprintf(b, "<p class=\"flag\">%s</p>\n", esc(note))
 		}
-		entries := bestInCell(r, c)
-		if len(entries) == 0 {
-			b.WriteString("<p>Nothing to compare (fewer than two estimators with values).</p>\n")
+		rows := verdictRows(r, c)
+		if len(rows) == 0 {
+			b.WriteString("<p>Nothing to compare.</p>\n")
 			continue
 		}
-		b.WriteString("<table>\n<thead><tr><th>measure</th><th>coefficient</th><th>best</th><th>value</th><th>runner-up</th></tr></thead>\n<tbody>\n")
-		for _, e := range entries {
-			coef := e.coefficient
+		b.WriteString("<table>\n<thead><tr><th>measure</th><th>coefficient</th><th>estimator</th><th>value</th><th>others</th></tr></thead>\n<tbody>\n")
+		for _, row := range rows {
+			coef := row.coefficient
 			if coef == "" {
 				coef = "—"
 			}
-			best := codeList(append([]string{e.best.label}, e.equal...))
-			other := ""
-			switch {
-			case e.allZero:
-				best = "all " + strconv.Itoa(e.compared) + " tie"
-				other = "no fit failed"
-			case len(e.tied) > 0:
-				other = "<span class=\"tie\">tie</span> with " + codeList(e.tied)
-			case e.runnerUp != "":
-				other = "<code>" + esc(e.runnerUp) + "</code>, more than " + strconv.Itoa(tieFactor) + " MCSE behind"
+			other := esc(row.others)
+			if len(row.tied) > 0 {
+				other = "<span class=\"tie\">tie</span> with " + codeList(row.tied)
 			}
-			fmt.Fprintf(b, "<tr><td>%s</td><td>%s</td><td>%s</td><td class=\"num\">%s</td><td>%s</td></tr>\n",
-				esc(measureTitle(r, e.measure)), esc(coef), best, esc(bestValue(e)), other)
+			fmt.Fprintf(b, "<tr><td>%s</td><td>%s</td><td><code>%s</code></td><td class=\"num\">%s</td><td>%s</td></tr>\n",
+				esc(row.what), esc(coef), esc(row.best), esc(row.value), other)
 		}
 		b.WriteString("</tbody>\n</table>\n")
 	}

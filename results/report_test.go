@@ -7,7 +7,6 @@ import (
 	"errors"
 	"image/png"
 	"io"
-	"math"
 	"slices"
 	"strconv"
 	"strings"
@@ -251,63 +250,52 @@ func TestWriteReportIncomplete(t *testing.T) {
 	}
 }
 
-func TestPickBest(t *testing.T) {
-	c := func(label string, score, mcse float64) candidate {
-		return candidate{label: label, score: score, mcse: mcse, m: Measure{Value: Num(score), MCSE: Num(mcse)}}
-	}
-	cases := []struct {
-		name     string
-		cands    []candidate
-		best     string
-		equal    []string
-		tied     []string
-		runnerUp string
-	}{
-		// 0.11 − 0.10 = 0.01 ≤ 2·√(0.01² + 0.01²) = 0.028: a tie.
-		{"tie within 2 combined MCSE", []candidate{c("a", 0.10, 0.01), c("b", 0.50, 0.01), c("c", 0.11, 0.01)}, "a", nil, []string{"c"}, "b"},
-		// 0.13 − 0.10 = 0.03 > 0.028: clear.
-		{"just clear", []candidate{c("a", 0.13, 0.01), c("b", 0.10, 0.01)}, "b", nil, nil, "a"},
-		{"not-a-number skipped", []candidate{c("a", math.NaN(), 0.01), c("b", 0.2, 0.01), c("c", 0.3, math.NaN())}, "b", nil, nil, "c"},
-		{"exact equals", []candidate{c("a", 0, 0), c("b", 0, 0), c("c", 0.002, 0.002)}, "a", []string{"b"}, []string{"c"}, ""},
-	}
-	for _, tc := range cases {
-		t.Run(tc.name, func(t *testing.T) {
-			e, ok := pickBest(bestBias, "volume", tc.cands)
-			if !ok {
-				t.Fatal("no best")
-			}
-			if e.best.label != tc.best || !slices.Equal(e.equal, tc.equal) || !slices.Equal(e.tied, tc.tied) || e.runnerUp != tc.runnerUp {
-				t.Errorf("best %s equal %v tied %v runner-up %q; want %s %v %v %q", e.best.label, e.equal, e.tied, e.runnerUp, tc.best, tc.equal, tc.tied, tc.runnerUp)
-			}
-		})
-	}
-	if _, ok := pickBest(bestBias, "x", []candidate{c("a", math.NaN(), 1)}); ok {
-		t.Error("a best among no finite values")
-	}
-}
-
-// TestBestInCell checks the measures compared, on the hand-built results
-// whose values are known: in cell 2 huber's bias is a quarter of least
-// squares' and clearly smaller; the emp. SEs are equal; nothing failed.
-func TestBestInCell(t *testing.T) {
+// TestBestSectionUsesVerdict: the report and the summary show the verdict,
+// here of the hand-built results (written without RMSE, as older files
+// were, so it is formed from the MSE): in cell 1 huber's bias is a quarter
+// of least squares' with the same spread, so huber has the smaller RMSE and
+// |bias| and is the choice; least squares is never shown ranked against
+// itself.
+func TestBestSectionUsesVerdict(t *testing.T) {
 	r := handResults(false)
-	entries := bestInCell(r, r.Cells[1])
-	type key struct{ measure, coef string }
-	got := map[key]bestEntry{}
-	for _, e := range entries {
-		got[key{e.measure, e.coefficient}] = e
+	for i := range r.Cells {
+		for j := range r.Cells[i].Estimators {
+			for k := range r.Cells[i].Estimators[j].Coefficients {
+				c := &r.Cells[i].Estimators[j].Coefficients[k]
+				b, s := float64(c.Bias.Value), float64(c.EmpSE.Value)
+				c.MSE = Measure{Value: Num(b*b + s*s), MCSE: Num(0.01 * (b*b + s*s))}
+			}
+		}
 	}
-	if e := got[key{bestBias, "intercept"}]; e.best.label != "huber" || len(e.tied) != 0 || e.runnerUp != "ls" {
-		t.Errorf("intercept bias: %+v, want huber clearly ahead of ls", e)
+	rows := verdictRows(r, r.Cells[1])
+	type key struct{ what, coef string }
+	got := map[key]verdictRow{}
+	for _, row := range rows {
+		got[key{row.what, row.coefficient}] = row
 	}
-	if e := got[key{bestEmpSE, "volume"}]; len(e.equal) != 1 {
-		t.Errorf("volume emp. SE: %+v, want ls and huber equal", e)
+	if row := got[key{"smallest |bias|", "intercept"}]; row.best != "huber" || len(row.tied) != 0 {
+		t.Errorf("intercept bias: %+v, want huber clearly ahead", row)
 	}
-	if e := got[key{bestFailure, ""}]; !e.allZero || e.compared != 2 {
-		t.Errorf("failure rate: %+v, want nothing failed among 2", e)
+	if row := got[key{"smallest RMSE", "intercept"}]; row.best != "huber" {
+		t.Errorf("intercept RMSE: %+v, want huber", row)
 	}
-	if len(entries) != 3*2+1 {
-		t.Errorf("%d entries, want 3 measures × 2 coefficients + failure rate", len(entries))
+	if len(rows) == 0 || rows[0].best != "huber" || !strings.HasPrefix(rows[0].what, "choice") {
+		t.Errorf("first row %+v, want the choice, huber", rows)
+	}
+	var html, md strings.Builder
+	if err := WriteReport(&html, r, nil); err != nil {
+		t.Fatal(err)
+	}
+	if err := WriteMarkdownSummary(&md, r); err != nil {
+		t.Fatal(err)
+	}
+	for what, out := range map[string]string{"report": html.String(), "summary": md.String()} {
+		if !strings.Contains(out, "smallest RMSE") || !strings.Contains(out, "choice") {
+			t.Errorf("%s does not show the verdict", what)
+		}
+		if strings.Contains(out, "ls</code></td><td class=\"num\">1 ± 0") || strings.Contains(out, "`ls` 1 ± 0") {
+			t.Errorf("%s ranks ls against itself", what)
+		}
 	}
 }
 

@@ -31,7 +31,7 @@ func Save(dir string, r *Results) ([]string, error) {
 	}{
 		{".json", func(w io.Writer) error { return writeJSONByCell(w, r) }},
 		{".csv", func(w io.Writer) error { return WriteCSV(w, r) }},
-		{".txt", func(w io.Writer) error { return WriteTable(w, r, 80) }},
+		{".txt", func(w io.Writer) error { return WriteTable(w, r, 100) }},
 	}
 	if r.Breakdown != nil {
 		outputs = append(outputs, struct {

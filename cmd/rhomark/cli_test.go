@@ -28,7 +28,7 @@ func TestRunWritesResults(t *testing.T) {
 	if code != exitOK {
 		t.Fatalf("exit %d: %s", code, errs)
 	}
-	if !strings.Contains(out, "flow-meter") || !strings.Contains(out, "efficiency") {
+	if !strings.Contains(out, "flow-meter") || !strings.Contains(out, "what to choose") || !strings.Contains(out, "var. eff.") {
 		t.Errorf("table missing expected text:\n%s", out)
 	}
 	for _, ext := range []string{".json", ".csv", ".txt"} {

@@ -79,7 +79,7 @@ func mergeCmd(e env, args []string) error {
 	if *asJSON {
 		err = results.WriteJSON(e.stdout, res)
 	} else {
-		err = results.WriteTable(e.stdout, res, 80)
+		err = results.WriteTable(e.stdout, res, 100)
 	}
 	if err != nil {
 		return err

@@ -215,7 +215,7 @@ func runCmd(e env, args []string) error {
 		if err := results.WriteJSON(e.stdout, res); err != nil {
 			return err
 		}
-	} else if err := results.WriteTable(e.stdout, res, 80); err != nil {
+	} else if err := results.WriteTable(e.stdout, res, 100); err != nil {
 		return err
 	}
 	return stopped(runErr, *out)
