@@ -73,13 +73,13 @@ func (e *ScenarioMismatch) Error() string {
 	var parts []string
 	for _, s := range e.Changes {
 		if s.Kind != SettingSolver && s.Kind != SettingName {
-			parts = append(parts, fmt.Sprintf("%s (%s) %s → %s", s.Path, s.Kind, s.Baseline, s.Candidate))
+			parts = append(parts, fmt.Sprintf("%s (%s setting: %s → %s)", s.Path, s.Kind, s.Baseline, s.Candidate))
 		}
 	}
 	if len(parts) > 6 {
 		parts = append(parts[:6], fmt.Sprintf("and %d more", len(parts)-6))
 	}
-	return fmt.Sprintf("%v (%s vs %s): %s differ", ErrDifferentScenarios, e.Baseline, e.Candidate, strings.Join(parts, "; "))
+	return fmt.Sprintf("%v (%s vs %s): they differ in %s", ErrDifferentScenarios, e.Baseline, e.Candidate, strings.Join(parts, "; "))
 }
 
 // Is makes errors.Is(err, ErrDifferentScenarios) hold.
@@ -373,8 +373,10 @@ type Comparison struct {
 	CriticalZ Float `json:"critical_z"`
 	// Differences holds every summary comparison, flagged ones first.
 	Differences []Difference `json:"differences"`
-	// Paired is set when both runs kept replicates of the same data.
-	Paired *PairedReport `json:"paired,omitempty"`
+	// Paired is set when both runs kept replicates of the same data;
+	// otherwise Unpaired says why the runs were not paired.
+	Paired   *PairedReport `json:"paired,omitempty"`
+	Unpaired string        `json:"unpaired,omitempty"`
 	// Replay is the command that replays the first listed status change
 	// (or, without one, the first listed move) with the candidate's
 	// scenario.
@@ -553,6 +555,14 @@ func Compare(base, cand *Results, baseReps, candReps ReplicateSource, opt Compar
 		c.Failures.Test = FailurePaired
 		c.Failures.Tests = pairedFailureTests(p, base)
 	} else {
+		switch {
+		case !sameData:
+			c.Unpaired = "the data settings differ"
+		case base.Seed != cand.Seed:
+			c.Unpaired = "the seeds differ"
+		default:
+			c.Unpaired = "a run kept no replicates (run --keep-replicates)"
+		}
 		c.Failures.Tests = summaryFailureTests(pairs)
 		if sameData && base.Seed == cand.Seed {
 			// Same data and seed: both runs simulate the same datasets, so

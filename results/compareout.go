@@ -161,7 +161,7 @@ func failureNote(f FailureTest) string {
 	case f.Flagged:
 		return "fewer failures"
 	}
-	return "within chance"
+	return "not significant"
 }
 
 // failureCounts returns the "failed before/after" columns of a test.
@@ -186,7 +186,7 @@ func WriteComparison(w io.Writer, c *Comparison) error {
 	if p := c.Paired; p != nil {
 		fmt.Fprintf(b, "paired: %d fits present in both runs, compared replicate by replicate (seed %d, tolerance %g)\n", p.Fits, c.Baseline.Seed, p.Tolerance)
 	} else {
-		b.WriteString("summary mode: no replicates to pair; measures compared through their Monte Carlo errors\n")
+		fmt.Fprintf(b, "summary mode (not paired: %s): measures compared through their Monte Carlo errors\n", c.Unpaired)
 	}
 	if sv := c.settingsOf(SettingSolver); len(sv) > 0 {
 		b.WriteString("solver settings that differ:\n")
@@ -223,8 +223,10 @@ func WriteComparison(w io.Writer, c *Comparison) error {
 			}
 		}
 		tw.Flush()
-	} else {
+	} else if f.Test == FailurePaired {
 		b.WriteString("  no fit changed between converged and failed\n")
+	} else {
+		b.WriteString("  no failures in either run\n")
 	}
 
 	if p := c.Paired; p != nil {
@@ -346,7 +348,7 @@ func WriteComparisonMarkdown(w io.Writer, c *Comparison) error {
 	if c.Paired != nil {
 		fmt.Fprintf(b, "- paired: %d fits compared replicate by replicate (tolerance %g)\n", c.Paired.Fits, c.Paired.Tolerance)
 	} else {
-		b.WriteString("- summary mode (no replicates to pair)\n")
+		fmt.Fprintf(b, "- summary mode (not paired: %s)\n", c.Unpaired)
 	}
 	for _, n := range c.Notes {
 		fmt.Fprintf(b, "- note: %s\n", n)
