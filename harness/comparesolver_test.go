@@ -5,6 +5,8 @@ import (
 	"context"
 	"errors"
 	"io"
+	"reflect"
+	"sort"
 	"strconv"
 	"strings"
 	"testing"
@@ -122,6 +124,17 @@ func TestCapCutFlagsNewFailures(t *testing.T) {
 			s.BaselineIterations != ra.Iterations || s.CandidateIterations != 20 {
 			t.Errorf("listed %+v; the files say %s (%d) → %s (%d)", s, ra.Status, ra.Iterations, rb.Status, rb.Iterations)
 		}
+	}
+	// A short list keeps the new failures whose estimates moved most, in
+	// SE units, largest first.
+	short, err := results.Compare(base, cand, source(baseReps), source(candReps), results.CompareOptions{List: 5})
+	if err != nil {
+		t.Fatal(err)
+	}
+	all := append([]results.StatusChange(nil), c.Paired.StatusChanges...)
+	sort.SliceStable(all, func(i, j int) bool { return abs(float64(all[i].SEUnits)) > abs(float64(all[j].SEUnits)) })
+	if got := short.Paired.StatusChanges; len(got) != 5 || !reflect.DeepEqual(got, all[:5]) {
+		t.Errorf("--list 5 kept\n%+v\nwant\n%+v", got, all[:5])
 	}
 	// Each cell with new failures is tested exactly: McNemar with b new
 	// failures and no recovery has p = 2·2^−b, and a rise is flagged when

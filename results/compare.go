@@ -339,7 +339,7 @@ type PairedReport struct {
 	Estimators       []PairedEstimator `json:"estimators"`                   // per cell and estimator, in order of first appearance
 	// StatusChanges lists up to CompareOptions.List fits whose status
 	// changed: new failures first, then recoveries, then other changes,
-	// each in cell and replicate order.
+	// each with the largest move (in SE units) first.
 	StatusChanges []StatusChange `json:"status_changes,omitempty"`
 	// Moves lists up to CompareOptions.List fits whose status did not
 	// change but whose estimates moved beyond Tolerance, largest move in

@@ -307,7 +307,7 @@ func writeStatusChanges(b *strings.Builder, c *Comparison, p *PairedReport) {
 	if p.StatusChanged == 0 {
 		return
 	}
-	fmt.Fprintf(b, "\nstatus changes: %d fit%s (%d new failures, %d recovered); %d listed, new failures first\n",
+	fmt.Fprintf(b, "\nstatus changes: %d fit%s (%d new failures, %d recovered); %d listed, new failures first, largest move first\n",
 		p.StatusChanged, plural(p.StatusChanged), p.NewFailures, p.Recovered, len(p.StatusChanges))
 	if len(p.StatusChanges) == 0 {
 		return
@@ -326,8 +326,10 @@ func writeStatusChanges(b *strings.Builder, c *Comparison, p *PairedReport) {
 
 // writeMoves lists the largest moves.
 func writeMoves(b *strings.Builder, p *PairedReport) {
-	moved := p.Moved
-	if moved == 0 || len(p.Moves) == 0 {
+	if len(p.Moves) == 0 {
+		if p.StatusChanged > 0 {
+			b.WriteString("\nlargest moves: no fit whose status stayed the same moved beyond the tolerance\n")
+		}
 		return
 	}
 	fmt.Fprintf(b, "\nlargest moves among fits whose status did not change (%d listed; diff/SE in units of the coefficient's empirical SE)\n", len(p.Moves))
@@ -377,7 +379,7 @@ func WriteComparisonMarkdown(w io.Writer, c *Comparison) error {
 		b.WriteString("\n")
 	}
 	if p := c.Paired; p != nil && len(p.StatusChanges) > 0 {
-		fmt.Fprintf(b, "**Status changes.** %d fits (%d new failures, %d recovered); %d listed, new failures first.\n\n", p.StatusChanged, p.NewFailures, p.Recovered, len(p.StatusChanges))
+		fmt.Fprintf(b, "**Status changes.** %d fits (%d new failures, %d recovered); %d listed, new failures first, largest move first.\n\n", p.StatusChanged, p.NewFailures, p.Recovered, len(p.StatusChanges))
 		b.WriteString("| cell | replicate | estimator | baseline status | candidate status | iterations | largest move | diff | diff/SE |\n|---:|---:|---|---|---|---:|---|---:|---:|\n")
 		for _, s := range p.StatusChanges {
 			fmt.Fprintf(b, "| %d | %d | %s | %s | %s | %d → %d | %s | %s | %s |\n", s.Cell, s.Replicate, s.Estimator, s.Baseline, s.Candidate, s.BaselineIterations, s.CandidateIterations,

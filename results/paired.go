@@ -141,8 +141,8 @@ type pairedState struct {
 	p     *PairedReport
 	per   map[pairedKey]*PairedEstimator
 	order []pairedKey
-	// kept status changes by kind, each at most setup.list long
-	changes [3][]StatusChange
+	// kept status changes by kind, trimmed to the setup.list largest
+	changes [3][]scoredChange
 	moves   []scoredMove
 }
 
@@ -253,10 +253,14 @@ func (st *pairedState) pairFit(a *groupReader, label string, ra, rb ReplicateRec
 			pe.Recovered++
 			p.Recovered++
 		}
-		if len(st.changes[kind]) < st.setup.list {
-			st.changes[kind] = append(st.changes[kind], StatusChange{Cell: ra.Cell, Replicate: ra.Replicate, Estimator: label, Kind: kind,
+		if st.setup.list > 0 {
+			best.Move = Move{Coefficient: best.Coefficient, Diff: best.Diff, SEUnits: best.SEUnits}
+			st.changes[kind] = append(st.changes[kind], scoredChange{StatusChange{Cell: ra.Cell, Replicate: ra.Replicate, Estimator: label, Kind: kind,
 				Baseline: ra.Status, Candidate: rb.Status, BaselineIterations: ra.Iterations, CandidateIterations: rb.Iterations,
-				Coefficient: best.Coefficient, Diff: best.Diff, SEUnits: best.SEUnits})
+				Coefficient: best.Coefficient, Diff: best.Diff, SEUnits: best.SEUnits}, best})
+			if len(st.changes[kind]) >= 2*st.setup.list+64 {
+				st.trimChanges(kind)
+			}
 		}
 		return
 	}
@@ -266,6 +270,24 @@ func (st *pairedState) pairFit(a *groupReader, label string, ra, rb ReplicateRec
 			st.trimMoves()
 		}
 	}
+}
+
+// scoredChange is a status change ranked by the fit's largest move.
+type scoredChange struct {
+	StatusChange
+	rank scoredMove
+}
+
+// trimChanges keeps the status changes of a kind with the largest moves,
+// largest first; ties (fits that did not move) keep cell and replicate
+// order.
+func (st *pairedState) trimChanges(kind StatusChangeKind) {
+	ch := st.changes[kind]
+	sort.SliceStable(ch, func(i, j int) bool { return ch[i].rank.larger(ch[j].rank) })
+	if len(ch) > st.setup.list {
+		ch = ch[:st.setup.list]
+	}
+	st.changes[kind] = ch
 }
 
 // trimMoves keeps the largest moves, largest first.
@@ -286,10 +308,11 @@ func (st *pairedState) finish() *PairedReport {
 		}
 		p.Estimators = append(p.Estimators, *pe)
 	}
-	for _, ch := range st.changes {
-		for _, c := range ch {
+	for kind := range st.changes {
+		st.trimChanges(StatusChangeKind(kind))
+		for _, c := range st.changes[kind] {
 			if len(p.StatusChanges) < st.setup.list {
-				p.StatusChanges = append(p.StatusChanges, c)
+				p.StatusChanges = append(p.StatusChanges, c.StatusChange)
 			}
 		}
 	}
