@@ -231,7 +231,7 @@ func WriteComparison(w io.Writer, c *Comparison) error {
 
 	if p := c.Paired; p != nil {
 		writeStatusChanges(b, c, p)
-		writeMoves(b, p)
+		writeMoves(b, c, p)
 	}
 
 	// The other measures, Holm-corrected.
@@ -256,7 +256,7 @@ func WriteComparison(w io.Writer, c *Comparison) error {
 	fmt.Fprintf(b, "  %d unchanged within Monte Carlo error", len(c.Differences)-flagged-len(unc))
 	for _, d := range c.Differences {
 		if !d.Flagged && !math.IsNaN(float64(d.Z)) && d.Z != 0 {
-			fmt.Fprintf(b, " (largest |z| %.2g: %s)", math.Abs(float64(d.Z)), differenceWhere(d))
+			fmt.Fprintf(b, " (largest |z| %.3g: %s)", math.Abs(float64(d.Z)), differenceWhere(d))
 			break
 		}
 	}
@@ -325,7 +325,7 @@ func writeStatusChanges(b *strings.Builder, c *Comparison, p *PairedReport) {
 }
 
 // writeMoves lists the largest moves.
-func writeMoves(b *strings.Builder, p *PairedReport) {
+func writeMoves(b *strings.Builder, c *Comparison, p *PairedReport) {
 	if len(p.Moves) == 0 {
 		if p.StatusChanged > 0 {
 			b.WriteString("\nlargest moves: no fit whose status stayed the same moved beyond the tolerance\n")
@@ -333,12 +333,15 @@ func writeMoves(b *strings.Builder, p *PairedReport) {
 		return
 	}
 	fmt.Fprintf(b, "\nlargest moves among fits whose status did not change (%d listed; diff/SE in units of the coefficient's empirical SE)\n", len(p.Moves))
-	tw := tabwriter.NewWriter(b, 0, 0, 2, ' ', tabwriter.AlignRight)
-	fmt.Fprintln(tw, "cell\treplicate\testimator\tcoefficient\tbaseline\tcandidate\tdiff\tdiff/SE\t")
+	tw := tabwriter.NewWriter(b, 0, 0, 2, ' ', 0)
+	fmt.Fprintln(tw, "  cell\treplicate\testimator\tcoefficient\tbaseline\tcandidate\tdiff\tdiff/SE")
 	for _, m := range p.Moves {
-		fmt.Fprintf(tw, "%d\t%d\t%s\t%s\t%.6g\t%.6g\t%s\t%s\t\n", m.Cell, m.Replicate, m.Estimator, m.Coefficient, float64(m.Baseline), float64(m.Candidate), fmtSigned(m.Diff), fmtSigned(m.SEUnits))
+		fmt.Fprintf(tw, "  %d\t%d\t%s\t%s\t%.6g\t%.6g\t%s\t%s\n", m.Cell, m.Replicate, m.Estimator, m.Coefficient, float64(m.Baseline), float64(m.Candidate), fmtSigned(m.Diff), fmtSigned(m.SEUnits))
 	}
 	tw.Flush()
+	if len(p.StatusChanges) == 0 && c.Replay != "" {
+		fmt.Fprintf(b, "  replay the first: %s\n", c.Replay)
+	}
 }
 
 // WriteComparisonMarkdown writes the comparison as Markdown for a code
