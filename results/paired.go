@@ -254,7 +254,6 @@ func (st *pairedState) pairFit(a *groupReader, label string, ra, rb ReplicateRec
 			p.Recovered++
 		}
 		if st.setup.list > 0 {
-			best.Move = Move{Coefficient: best.Coefficient, Diff: best.Diff, SEUnits: best.SEUnits}
 			st.changes[kind] = append(st.changes[kind], scoredChange{StatusChange{Cell: ra.Cell, Replicate: ra.Replicate, Estimator: label, Kind: kind,
 				Baseline: ra.Status, Candidate: rb.Status, BaselineIterations: ra.Iterations, CandidateIterations: rb.Iterations,
 				Coefficient: best.Coefficient, Diff: best.Diff, SEUnits: best.SEUnits}, best})
