@@ -129,3 +129,46 @@ func TestSummaryFlagsRealChange(t *testing.T) {
 		t.Error("paired mode across different seeds")
 	}
 }
+
+// TestCompareOlderSchema: a results file of schema 1 has no RMSE or MSE
+// ratio; compared with a run of this build, those measures are left out,
+// not read as zeros and flagged, while the measures both record are still
+// compared (and here, the same run, equal).
+func TestCompareOlderSchema(t *testing.T) {
+	st := parse(t, flowMeterLike)
+	run, err := Run(context.Background(), st, Options{Replicates: 64})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var b bytes.Buffer
+	if err := results.WriteJSON(&b, run); err != nil {
+		t.Fatal(err)
+	}
+	old, err := results.ReadJSON(bytes.NewReader(b.Bytes()))
+	if err != nil {
+		t.Fatal(err)
+	}
+	old.Schema = 1
+	for ci := range old.Cells {
+		for ei := range old.Cells[ci].Estimators {
+			for ki := range old.Cells[ci].Estimators[ei].Coefficients {
+				k := &old.Cells[ci].Estimators[ei].Coefficients[ki]
+				k.RMSE, k.MSERatio = results.Measure{}, results.Measure{}
+			}
+		}
+	}
+	c, err := results.Compare(old, run, nil, nil, results.CompareOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	measures := map[string]int{}
+	for _, d := range c.Differences {
+		measures[d.Measure]++
+		if d.Flagged {
+			t.Errorf("flagged against an older schema: %+v", d)
+		}
+	}
+	if measures["rmse"] != 0 || measures["mse_ratio"] != 0 || measures["bias"] == 0 {
+		t.Errorf("measures compared: %v", measures)
+	}
+}

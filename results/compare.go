@@ -1,13 +1,20 @@
 package results
 
 import (
+	"encoding/json"
 	"errors"
 	"fmt"
 	"io"
 	"math"
 	"sort"
+	"strconv"
 	"strings"
 )
+
+// CompareSchemaVersion is the version of the JSON layout of a Comparison
+// (WriteComparisonJSON). It changes whenever a field is renamed or its
+// meaning changes.
+const CompareSchemaVersion = 1
 
 // CompareOptions control a comparison. Zero values mean the defaults.
 type CompareOptions struct {
@@ -15,12 +22,21 @@ type CompareOptions struct {
 	// before the multiplicity correction; it sets the family-wise level
 	// α = P(|Z| > Threshold) of Holm's procedure. Default 4.
 	Threshold float64
+	// FailureAlpha is the family-wise level at which a change of the
+	// failure rate is flagged (an exact test per cell × estimator, Holm's
+	// procedure across them). Default 0.05.
+	FailureAlpha float64
 	// Tolerance is the largest absolute change of an estimate that paired
 	// mode accepts; zero demands bit-identical estimates. The command line
 	// defaults it to 1e-9.
 	Tolerance float64
-	// AnyScenario allows comparing runs of different scenarios (summary
-	// mode only, matching cells by their settings).
+	// List is how many status changes, and how many of the largest moves,
+	// the paired report keeps for listing; 0 means 20, negative none.
+	List int
+	// AnyScenario allows comparing runs whose scenarios differ in more
+	// than solver settings. With the same data settings and seed the
+	// comparison is still paired; otherwise cells are matched by their
+	// swept settings and only summaries are compared.
 	AnyScenario bool
 }
 
@@ -28,12 +44,100 @@ func (o CompareOptions) withDefaults() CompareOptions {
 	if o.Threshold == 0 {
 		o.Threshold = 4
 	}
+	if o.FailureAlpha == 0 {
+		o.FailureAlpha = 0.05
+	}
+	switch {
+	case o.List == 0:
+		o.List = 20
+	case o.List < 0:
+		o.List = 0
+	}
 	return o
 }
 
-// ErrDifferentScenarios is wrapped by Compare's error when the runs
-// simulate different scenarios and AnyScenario is not set.
+// ErrDifferentScenarios is wrapped by Compare's error when the runs'
+// scenarios differ in more than solver settings and AnyScenario is not
+// set; the error is a *ScenarioMismatch.
 var ErrDifferentScenarios = errors.New("the runs simulate different scenarios")
+
+// ScenarioMismatch is the error of Compare for runs that are not one
+// study: their scenarios differ in a setting that is not a solver setting.
+type ScenarioMismatch struct {
+	Baseline, Candidate string          // the scenarios' names
+	Changes             []SettingChange // every setting that differs, solver settings included
+}
+
+// Error names the settings that are not solver settings.
+func (e *ScenarioMismatch) Error() string {
+	var parts []string
+	for _, s := range e.Changes {
+		if s.Kind != SettingSolver && s.Kind != SettingName {
+			parts = append(parts, fmt.Sprintf("%s (%s setting: %s → %s)", s.Path, s.Kind, s.Baseline, s.Candidate))
+		}
+	}
+	if len(parts) > 6 {
+		parts = append(parts[:6], fmt.Sprintf("and %d more", len(parts)-6))
+	}
+	return fmt.Sprintf("%v (%s vs %s): they differ in %s", ErrDifferentScenarios, e.Baseline, e.Candidate, strings.Join(parts, "; "))
+}
+
+// Is makes errors.Is(err, ErrDifferentScenarios) hold.
+func (e *ScenarioMismatch) Is(target error) bool { return target == ErrDifferentScenarios }
+
+// Float is a float64 whose JSON form keeps every value: a number, null for
+// NaN, or the string "+Inf" or "-Inf".
+type Float float64
+
+// MarshalJSON encodes the value.
+func (f Float) MarshalJSON() ([]byte, error) {
+	v := float64(f)
+	switch {
+	case math.IsNaN(v):
+		return []byte("null"), nil
+	case math.IsInf(v, 1):
+		return []byte(`"+Inf"`), nil
+	case math.IsInf(v, -1):
+		return []byte(`"-Inf"`), nil
+	}
+	return json.Marshal(v)
+}
+
+// UnmarshalJSON decodes what MarshalJSON writes.
+func (f *Float) UnmarshalJSON(b []byte) error {
+	switch string(b) {
+	case "null":
+		*f = Float(math.NaN())
+		return nil
+	case `"+Inf"`:
+		*f = Float(math.Inf(1))
+		return nil
+	case `"-Inf"`:
+		*f = Float(math.Inf(-1))
+		return nil
+	}
+	var v float64
+	if err := json.Unmarshal(b, &v); err != nil {
+		return fmt.Errorf("want a number, null, \"+Inf\" or \"-Inf\": %w", err)
+	}
+	*f = Float(v)
+	return nil
+}
+
+// RunInfo identifies one of the compared runs.
+type RunInfo struct {
+	Path          string `json:"path,omitempty"`           // the results file as named on the command line; Compare leaves it empty
+	Scenario      string `json:"scenario"`                 // the scenario's name
+	File          string `json:"file"`                     // the scenario file the run loaded
+	Hash          string `json:"hash"`                     // the scenario's hash
+	Seed          uint64 `json:"seed"`                     // the run's root seed
+	Replicates    int    `json:"replicates"`               // replicates per cell
+	ReplicateFile string `json:"replicate_file,omitempty"` // the kept replicate file, if any
+}
+
+func runInfo(r *Results) RunInfo {
+	return RunInfo{Scenario: r.Scenario.Name, File: r.Scenario.File, Hash: r.Scenario.Hash, Seed: r.Seed, Replicates: r.Replicates, ReplicateFile: r.ReplicateFile}
+}
 
 // Difference is one compared summary measure.
 type Difference struct {
@@ -41,76 +145,265 @@ type Difference struct {
 	Settings    []Setting `json:"settings,omitempty"`    // the baseline cell's swept values
 	Estimator   string    `json:"estimator"`             // the estimator's label
 	Coefficient string    `json:"coefficient,omitempty"` // coefficient name; empty for per-estimator measures
-	Measure     string    `json:"measure"`               // bias, emp_se, rel_eff, failure_rate or mean_iterations
-	Baseline    Num       `json:"baseline"`              // the measure in the baseline run
-	Candidate   Num       `json:"candidate"`             // the measure in the candidate run
-	Diff        Num       `json:"diff"`                  // Candidate − Baseline
-	MCSE        Num       `json:"mcse"`                  // √(MCSE_b² + MCSE_c²), the MCSE of Diff
-	Z           Num       `json:"z"`                     // Diff/MCSE; 0 when Diff is 0, +Inf when one value is NaN, NaN when untestable
+	Measure     string    `json:"measure"`               // the measure's name (see Compare)
+	Baseline    Float     `json:"baseline"`              // the measure in the baseline run
+	Candidate   Float     `json:"candidate"`             // the measure in the candidate run
+	Diff        Float     `json:"diff"`                  // Candidate − Baseline
+	MCSE        Float     `json:"mcse"`                  // √(MCSE_b² + MCSE_c²), the MCSE of Diff
+	Z           Float     `json:"z"`                     // Diff/MCSE; 0 when Diff is 0, +Inf when one value is NaN, NaN when untestable
 	Flagged     bool      `json:"flagged"`               // rejected by Holm's procedure at level Comparison.Alpha
+}
+
+// FailureTestKind names the exact test of a change of failures.
+type FailureTestKind int
+
+const (
+	// FailurePaired is the exact McNemar test on the fits whose outcome
+	// (converged or failed) differs between two runs of the same
+	// datasets (PairedExactP).
+	FailurePaired FailureTestKind = iota
+	// FailureFisher is Fisher's exact test of two independent failure
+	// rates (FisherExactP), used when no replicates were kept.
+	FailureFisher
+)
+
+// String returns the test's name as written in JSON.
+func (k FailureTestKind) String() string {
+	switch k {
+	case FailurePaired:
+		return "paired-exact-mcnemar"
+	case FailureFisher:
+		return "fisher-exact"
+	}
+	return fmt.Sprintf("FailureTestKind(%d)", int(k))
+}
+
+// MarshalText encodes the kind by name.
+func (k FailureTestKind) MarshalText() ([]byte, error) { return []byte(k.String()), nil }
+
+// UnmarshalText decodes a kind's name.
+func (k *FailureTestKind) UnmarshalText(b []byte) error {
+	for _, c := range []FailureTestKind{FailurePaired, FailureFisher} {
+		if c.String() == string(b) {
+			*k = c
+			return nil
+		}
+	}
+	return fmt.Errorf("unknown failure test %q (want paired-exact-mcnemar or fisher-exact)", b)
+}
+
+// FailureTest compares the failures of one estimator in one cell.
+type FailureTest struct {
+	Cell            int       `json:"cell"`               // the baseline cell's index, from 0
+	Settings        []Setting `json:"settings,omitempty"` // the cell's swept values
+	Estimator       string    `json:"estimator"`          // the estimator's label
+	BaselineFits    int64     `json:"baseline_fits"`      // fits compared in the baseline
+	BaselineFailed  int64     `json:"baseline_failed"`    // of which failed
+	CandidateFits   int64     `json:"candidate_fits"`     // fits compared in the candidate
+	CandidateFailed int64     `json:"candidate_failed"`   // of which failed
+	// NewFailures and Recovered are, in paired mode, the fits that
+	// converged in the baseline and failed in the candidate, and the
+	// reverse; zero in summary mode.
+	NewFailures int64 `json:"new_failures"`
+	Recovered   int64 `json:"recovered"`
+	// P is the exact test's two-sided p-value.
+	P Float `json:"p"`
+	// Flagged is set when Holm's procedure rejects at FailureReport.Alpha.
+	Flagged bool `json:"flagged"`
+}
+
+// Rise reports whether the candidate fails more often than the baseline.
+func (f FailureTest) Rise() bool {
+	return f.CandidateFailed*f.BaselineFits > f.BaselineFailed*f.CandidateFits
+}
+
+// FailureReport tests every cell × estimator for a change of its failure
+// rate, apart from the other measures.
+type FailureReport struct {
+	Test FailureTestKind `json:"test"`
+	// Alpha is the family-wise level of Holm's procedure over the tests.
+	Alpha float64 `json:"alpha"`
+	// Tested counts the tests that could reject: in paired mode those with
+	// a fit whose outcome changed, in summary mode those with a failure in
+	// either run (a test that cannot reject does not dilute the others;
+	// Tarone (1990), Biometrics 46:515-522, from memory).
+	Tested int `json:"tested"`
+	// Tests holds every cell × estimator: flagged rises first, then other
+	// flagged changes, then by p-value.
+	Tests []FailureTest `json:"tests"`
 }
 
 // PairedEstimator summarises paired differences of one estimator in one
 // cell.
 type PairedEstimator struct {
 	Cell             int     `json:"cell"`                 // cell index, from 0
-	Estimator        string  `json:"estimator"`            // the estimator's label in the baseline file
+	Estimator        string  `json:"estimator"`            // the estimator's label
 	Fits             int     `json:"fits"`                 // replicates present in both files
-	MaxAbsDiff       float64 `json:"max_abs_diff"`         // largest |candidate − baseline| over coefficients and replicates
+	MaxAbsDiff       Float   `json:"max_abs_diff"`         // largest |candidate − baseline| over coefficients and replicates
 	Moved            int     `json:"moved"`                // replicates whose largest coefficient change exceeds the tolerance
 	StatusChanged    int     `json:"status_changed"`       // replicates whose final status differs
+	NewFailures      int     `json:"new_failures"`         // converged in the baseline, failed in the candidate
+	Recovered        int     `json:"recovered"`            // failed in the baseline, converged in the candidate
+	BaselineFailed   int     `json:"baseline_failed"`      // fits that failed in the baseline
+	CandidateFailed  int     `json:"candidate_failed"`     // fits that failed in the candidate
 	IterationChanged int     `json:"iteration_changed"`    // replicates whose iteration count differs
 	MeanIterDelta    float64 `json:"mean_iteration_delta"` // mean of candidate minus baseline iterations
 }
 
-// PairedChange is one replicate whose fit changed.
-type PairedChange struct {
-	Cell, Replicate int     // cell index and replicate index, both from 0
-	Estimator       string  // the estimator's label in the baseline file
-	MaxAbsDiff      float64 // largest |candidate − baseline| over the coefficients
-	Status          string  // "a → b" when the status changed
-	Iterations      string  // "a → b" when they changed
+// StatusChangeKind says which way a fit's status changed.
+type StatusChangeKind int
+
+const (
+	// NewFailure: converged in the baseline, failed in the candidate.
+	NewFailure StatusChangeKind = iota
+	// Recovery: failed in the baseline, converged in the candidate.
+	Recovery
+	// OtherStatusChange: both converged (by different rules) or both
+	// failed (differently).
+	OtherStatusChange
+)
+
+// String returns the kind's name as written in JSON.
+func (k StatusChangeKind) String() string {
+	switch k {
+	case NewFailure:
+		return "new-failure"
+	case Recovery:
+		return "recovered"
+	case OtherStatusChange:
+		return "other"
+	}
+	return fmt.Sprintf("StatusChangeKind(%d)", int(k))
+}
+
+// MarshalText encodes the kind by name.
+func (k StatusChangeKind) MarshalText() ([]byte, error) { return []byte(k.String()), nil }
+
+// UnmarshalText decodes a kind's name.
+func (k *StatusChangeKind) UnmarshalText(b []byte) error {
+	for c := NewFailure; c <= OtherStatusChange; c++ {
+		if c.String() == string(b) {
+			*k = c
+			return nil
+		}
+	}
+	return fmt.Errorf("unknown status change %q (want new-failure, recovered or other)", b)
+}
+
+// StatusChange is one fit whose final status differs between the runs.
+type StatusChange struct {
+	Cell                int              `json:"cell"`                 // cell index, from 0
+	Replicate           int              `json:"replicate"`            // replicate index, from 0
+	Estimator           string           `json:"estimator"`            // the estimator's label
+	Kind                StatusChangeKind `json:"kind"`                 // which way it changed
+	Baseline            string           `json:"baseline"`             // the baseline's status
+	Candidate           string           `json:"candidate"`            // the candidate's status
+	BaselineIterations  int              `json:"baseline_iterations"`  // iterations in the baseline
+	CandidateIterations int              `json:"candidate_iterations"` // iterations in the candidate
+	// Coefficient, Diff and SEUnits give the fit's largest move (as in
+	// Move); Coefficient is empty when no estimate moved.
+	Coefficient string `json:"coefficient,omitempty"`
+	Diff        Float  `json:"diff"`
+	SEUnits     Float  `json:"se_units"`
+}
+
+// Move is one fit whose estimates moved, by its coefficient that moved
+// most in units of that coefficient's empirical SE.
+type Move struct {
+	Cell        int    `json:"cell"`        // cell index, from 0
+	Replicate   int    `json:"replicate"`   // replicate index, from 0
+	Estimator   string `json:"estimator"`   // the estimator's label
+	Status      string `json:"status"`      // the fit's status (the same in both runs)
+	Coefficient string `json:"coefficient"` // the coefficient that moved most
+	Baseline    Float  `json:"baseline"`    // its estimate in the baseline
+	Candidate   Float  `json:"candidate"`   // its estimate in the candidate
+	Diff        Float  `json:"diff"`        // Candidate − Baseline
+	// SEUnits is Diff over the baseline's empirical SE of the coefficient
+	// (in that cell, for that estimator): how large the move is against
+	// the spread of the estimates; NaN when the SE is undefined.
+	SEUnits Float `json:"se_units"`
 }
 
 // PairedReport is the replicate-by-replicate comparison.
 type PairedReport struct {
 	Tolerance        float64           `json:"tolerance"`                    // largest coefficient change not counted as a move
-	Fits             int               `json:"fits"`                         // records present in both files
-	Missing          int               `json:"missing"`                      // records present in only one file
-	MaxAbsDiff       float64           `json:"max_abs_diff"`                 // largest coefficient change over all fits
+	Fits             int               `json:"fits"`                         // fits present in both files
+	Missing          int               `json:"missing"`                      // fits present in only one file
+	MaxAbsDiff       Float             `json:"max_abs_diff"`                 // largest coefficient change over all fits
 	Moved            int               `json:"moved"`                        // fits whose largest coefficient change exceeds Tolerance
 	StatusChanged    int               `json:"status_changed"`               // fits whose final status differs
+	NewFailures      int               `json:"new_failures"`                 // fits that converged in the baseline and failed in the candidate
+	Recovered        int               `json:"recovered"`                    // fits that failed in the baseline and converged in the candidate
 	IterationChanged int               `json:"iteration_changed"`            // fits whose iteration count differs
 	Transitions      map[string]int    `json:"status_transitions,omitempty"` // count of each status change, keyed "baseline → candidate"
 	Estimators       []PairedEstimator `json:"estimators"`                   // per cell and estimator, in order of first appearance
-	Examples         []PairedChange    `json:"examples,omitempty"`           // the first 20 fits that moved or changed status or iterations
+	// StatusChanges lists up to CompareOptions.List fits whose status
+	// changed: new failures first, then recoveries, then other changes,
+	// each with the largest move (in SE units) first.
+	StatusChanges []StatusChange `json:"status_changes,omitempty"`
+	// Moves lists up to CompareOptions.List fits whose status did not
+	// change but whose estimates moved beyond Tolerance, largest move in
+	// SE units first (by absolute move where no SE is defined).
+	Moves []Move `json:"moves,omitempty"`
 }
 
 // Comparison is the outcome of Compare.
 type Comparison struct {
-	Baseline, Candidate string // names of the two runs (file paths from the command line); Compare leaves them empty
-	// Notes say what differs between the runs' set-ups.
-	Notes []string
-	// Threshold, Alpha and Correction describe the summary test.
-	Threshold  float64
-	Alpha      float64 // family-wise level, P(|Z| > Threshold) for standard normal Z
-	Correction string  // the multiplicity correction, "Holm"
+	// Schema is CompareSchemaVersion.
+	Schema int `json:"compare_schema"`
+	// Baseline and Candidate identify the runs.
+	Baseline  RunInfo `json:"baseline"`
+	Candidate RunInfo `json:"candidate"`
+	// Settings lists every scenario setting that differs between the runs
+	// (seed, replicates and description apart), with its kind.
+	Settings []SettingChange `json:"settings,omitempty"`
+	// Notes say what else differs between the runs' set-ups.
+	Notes []string `json:"notes,omitempty"`
+	// Failures tests the failure rates, apart from the other measures.
+	Failures FailureReport `json:"failures"`
+	// Threshold, Alpha and Correction describe the test of the other
+	// summary measures.
+	Threshold  float64 `json:"threshold"`
+	Alpha      float64 `json:"alpha"`      // family-wise level, P(|Z| > Threshold) for standard normal Z
+	Correction string  `json:"correction"` // the multiplicity correction, "Holm"
+	// Tested is the number of measures with a defined z, the m of Holm's
+	// procedure; CriticalZ is the |z| the largest of them had to pass,
+	// the two-sided normal quantile of Alpha/Tested.
+	Tested    int   `json:"tested"`
+	CriticalZ Float `json:"critical_z"`
 	// Differences holds every summary comparison, flagged ones first.
-	Differences []Difference
-	// Paired is set when both runs kept replicates of the same scenario
-	// and seed.
-	Paired *PairedReport
+	Differences []Difference `json:"differences"`
+	// Paired is set when both runs kept replicates of the same data;
+	// otherwise Unpaired says why the runs were not paired.
+	Paired   *PairedReport `json:"paired,omitempty"`
+	Unpaired string        `json:"unpaired,omitempty"`
+	// Replay is the command that replays the first listed status change
+	// (or, without one, the first listed move) with the candidate's
+	// scenario.
+	Replay string `json:"replay,omitempty"`
 }
 
-// Flagged reports whether anything changed beyond Monte Carlo error (summary)
-// or beyond the tolerance or in status (paired).
+// Flagged reports whether anything changed: a failure rate or another
+// measure beyond Monte Carlo error, or in paired mode an estimate beyond
+// the tolerance or a status.
 func (c *Comparison) Flagged() bool {
-	for _, d := range c.Differences {
-		if d.Flagged {
+	for _, f := range c.Failures.Tests {
+		if f.Flagged {
 			return true
 		}
 	}
-	return c.Paired != nil && (c.Paired.Moved > 0 || c.Paired.StatusChanged > 0 || c.Paired.Missing > 0)
+	return c.FlaggedCount() > 0 || c.Paired != nil && (c.Paired.Moved > 0 || c.Paired.StatusChanged > 0 || c.Paired.Missing > 0)
+}
+
+// FailureRises returns the flagged failure tests whose rate rose.
+func (c *Comparison) FailureRises() []FailureTest {
+	var out []FailureTest
+	for _, f := range c.Failures.Tests {
+		if f.Flagged && f.Rise() {
+			out = append(out, f)
+		}
+	}
+	return out
 }
 
 // Uncomparable returns the summary differences that could not be tested
@@ -140,23 +433,93 @@ func (c *Comparison) FlaggedCount() int {
 // ReplicateSource for a run that kept none.
 type ReplicateSource func() (io.ReadCloser, error)
 
-// Compare compares a candidate run with a baseline. Summary mode compares
-// every cell × estimator × measure (bias, empirical SE, relative efficiency
-// per coefficient; failure rate and mean iterations per estimator) through
-// the difference, its combined MCSE √(MCSE_b² + MCSE_c²) and z; it flags
-// differences by Holm's step-down procedure at the family-wise level
-// α = P(|Z| > Threshold). When both runs kept replicates of the same
-// scenario and seed, paired mode compares them replicate by replicate.
+// coefficientMeasure is a per-coefficient measure Compare tests.
+type coefficientMeasure struct {
+	name      string
+	get       func(*Coefficient) Measure
+	reference bool // whether the reference estimator has it
+	since     int  // the first results schema that records it
+}
+
+// coefficientMeasures lists the per-coefficient measures Compare tests, in
+// the order they are compared. Adding a measure is one line here.
+func coefficientMeasures() []coefficientMeasure {
+	return []coefficientMeasure{
+		{"bias", func(k *Coefficient) Measure { return k.Bias }, true, 1},
+		{"emp_se", func(k *Coefficient) Measure { return k.EmpSE }, true, 1},
+		{"rmse", func(k *Coefficient) Measure { return k.RMSE }, true, 2},
+		{"rel_eff", func(k *Coefficient) Measure { return k.RelEff }, false, 1},
+		{"mse_ratio", func(k *Coefficient) Measure { return k.MSERatio }, false, 2},
+	}
+}
+
+// estimatorMeasures lists the per-estimator measures Compare tests. The
+// failure rate is not among them: it has its own exact test.
+func estimatorMeasures() []struct {
+	name string
+	get  func(*Estimator) Measure
+} {
+	return []struct {
+		name string
+		get  func(*Estimator) Measure
+	}{
+		{"mean_iterations", func(e *Estimator) Measure { return e.Convergence.MeanIterations }},
+	}
+}
+
+// measureNames returns the names of the measures Compare tests with z.
+func measureNames() []string {
+	var out []string
+	for _, m := range coefficientMeasures() {
+		out = append(out, m.name)
+	}
+	for _, m := range estimatorMeasures() {
+		out = append(out, m.name)
+	}
+	return out
+}
+
+// Compare compares a candidate run with a baseline.
+//
+// Runs are one study when their normalised scenarios differ at most in
+// solver settings (SettingSolver) and the name; otherwise Compare returns
+// a *ScenarioMismatch unless AnyScenario is set. Every differing setting
+// is listed in Comparison.Settings.
+//
+// Failures are tested on their own, per cell × estimator: in paired mode
+// by the exact McNemar test on the fits whose outcome changed, otherwise
+// by Fisher's exact test, with Holm's procedure across cells and
+// estimators at FailureAlpha.
+//
+// The other measures (coefficientMeasures and estimatorMeasures) are
+// compared through the difference, its combined MCSE √(MCSE_b² + MCSE_c²)
+// and z, flagged by Holm's step-down procedure at the family-wise level
+// α = P(|Z| > Threshold).
+//
+// When both runs kept replicates of the same data (no data setting
+// differs, same seed), paired mode compares them replicate by replicate.
 func Compare(base, cand *Results, baseReps, candReps ReplicateSource, opt CompareOptions) (*Comparison, error) {
 	opt = opt.withDefaults()
-	c := &Comparison{Threshold: opt.Threshold, Correction: "Holm", Alpha: math.Erfc(opt.Threshold / math.Sqrt2)}
-	sameScenario := base.Scenario.Hash == cand.Scenario.Hash
-	if !sameScenario {
-		diff := describeScenarioDiff(base, cand)
-		if !opt.AnyScenario {
-			return nil, fmt.Errorf("%w (%s vs %s): %s; compare them anyway with the option to allow different scenarios", ErrDifferentScenarios, base.Scenario.Name, cand.Scenario.Name, diff)
+	c := &Comparison{Schema: CompareSchemaVersion, Baseline: runInfo(base), Candidate: runInfo(cand),
+		Threshold: opt.Threshold, Correction: "Holm", Alpha: math.Erfc(opt.Threshold / math.Sqrt2)}
+	c.Settings = scenarioChanges(base.Scenario.Normalised, cand.Scenario.Normalised)
+	sameData, oneStudy := true, true
+	for _, s := range c.Settings {
+		switch s.Kind {
+		case SettingData:
+			sameData, oneStudy = false, false
+		case SettingEstimator, SettingAnalysis:
+			oneStudy = false
 		}
-		c.Notes = append(c.Notes, "different scenarios: "+diff)
+	}
+	if !oneStudy {
+		if !opt.AnyScenario {
+			return nil, &ScenarioMismatch{Baseline: base.Scenario.Name, Candidate: cand.Scenario.Name, Changes: c.Settings}
+		}
+		c.Notes = append(c.Notes, "the scenarios differ in more than solver settings (compared as asked)")
+	}
+	if !sameData {
+		c.Notes = append(c.Notes, "the data settings differ: cells are matched by their swept settings, summary mode only")
 	}
 	if base.Seed != cand.Seed {
 		c.Notes = append(c.Notes, fmt.Sprintf("seeds differ (%d vs %d): independent runs, summary mode only", base.Seed, cand.Seed))
@@ -167,8 +530,10 @@ func Compare(base, cand *Results, baseReps, candReps ReplicateSource, opt Compar
 	if !base.Complete || !cand.Complete {
 		c.Notes = append(c.Notes, "a run is incomplete: only its finished replicates are compared")
 	}
-	c.Differences = summaryDiffs(base, cand, sameScenario)
-	holm(c.Differences, c.Alpha)
+	pairs := pairCells(base, cand, sameData)
+	c.Differences = summaryDiffs(pairs, base.Reference, min(base.Schema, cand.Schema))
+	c.Tested = holm(c.Differences, c.Alpha)
+	c.CriticalZ = Float(holmCriticalZ(c.Alpha, c.Tested))
 	// Flagged first, then by |z|, untestable (NaN z) last.
 	absZ := func(d Difference) float64 {
 		if z := math.Abs(float64(d.Z)); !math.IsNaN(z) {
@@ -182,38 +547,72 @@ func Compare(base, cand *Results, baseReps, candReps ReplicateSource, opt Compar
 		}
 		return absZ(c.Differences[i]) > absZ(c.Differences[j])
 	})
-	if sameScenario && base.Seed == cand.Seed && baseReps != nil && candReps != nil {
-		p, err := comparePaired(baseReps, candReps, opt.Tolerance)
+	c.Failures = FailureReport{Test: FailureFisher, Alpha: opt.FailureAlpha}
+	if sameData && base.Seed == cand.Seed && baseReps != nil && candReps != nil {
+		setup := pairedSetup{tol: opt.Tolerance, list: opt.List, converged: convergedStatuses(base, cand), se: empiricalSEs(base)}
+		p, err := comparePaired(baseReps, candReps, setup)
 		if err != nil {
 			return nil, err
 		}
 		c.Paired = p
-	} else if sameScenario && base.Seed == cand.Seed {
-		// Same scenario and seed: both runs simulate the same datasets, so
-		// their estimates are positively correlated and the summary z,
-		// which treats them as independent, understates changes.
-		c.Notes = append(c.Notes, "same scenario and seed: the runs fit the same datasets, so the summary z (which assumes independent runs) is conservative; keep replicates in both runs (--keep-replicates) for the exact paired comparison")
+		c.Failures.Test = FailurePaired
+		c.Failures.Tests = pairedFailureTests(p, base)
+	} else {
+		switch {
+		case !sameData:
+			c.Unpaired = "the data settings differ"
+		case base.Seed != cand.Seed:
+			c.Unpaired = "the seeds differ"
+		default:
+			c.Unpaired = "a run kept no replicates (run --keep-replicates)"
+		}
+		c.Failures.Tests = summaryFailureTests(pairs)
+		if sameData && base.Seed == cand.Seed {
+			// Same data and seed: both runs simulate the same datasets, so
+			// their estimates are positively correlated and the summary z,
+			// which treats them as independent, understates changes.
+			c.Notes = append(c.Notes, "same scenario data and seed: the runs fit the same datasets, so the summary z and Fisher's test (which assume independent runs) are conservative; keep replicates in both runs (--keep-replicates) for the exact paired comparison")
+		}
 	}
+	c.Failures.Tested = holmFailures(c.Failures.Tests, opt.FailureAlpha, c.Failures.Test)
+	sort.SliceStable(c.Failures.Tests, func(i, j int) bool {
+		a, b := c.Failures.Tests[i], c.Failures.Tests[j]
+		if ra, rb := a.Flagged && a.Rise(), b.Flagged && b.Rise(); ra != rb {
+			return ra
+		}
+		if a.Flagged != b.Flagged {
+			return a.Flagged
+		}
+		return a.P < b.P
+	})
+	c.Replay = replayCommand(cand, c.Paired)
 	return c, nil
 }
 
-// describeScenarioDiff names what differs between two runs' scenarios.
-func describeScenarioDiff(a, b *Results) string {
-	var parts []string
-	if a.Scenario.Name != b.Scenario.Name {
-		parts = append(parts, fmt.Sprintf("names %q and %q", a.Scenario.Name, b.Scenario.Name))
+// cellPair is a baseline cell and its candidate.
+type cellPair struct{ base, cand *Cell }
+
+// pairCells pairs cells by index when the data settings are the same, else
+// by their swept settings.
+func pairCells(base, cand *Results, sameData bool) []cellPair {
+	byKey := map[string]*Cell{}
+	for i := range cand.Cells {
+		byKey[cellKey(cand.Cells[i])] = &cand.Cells[i]
 	}
-	fields := diffJSON("", a.Scenario.Normalised, b.Scenario.Normalised)
-	if len(fields) > 6 {
-		fields = append(fields[:6], fmt.Sprintf("and %d more", len(fields)-6))
+	var out []cellPair
+	for i := range base.Cells {
+		bc := &base.Cells[i]
+		var cc *Cell
+		if sameData && i < len(cand.Cells) {
+			cc = &cand.Cells[i]
+		} else {
+			cc = byKey[cellKey(*bc)]
+		}
+		if cc != nil {
+			out = append(out, cellPair{bc, cc})
+		}
 	}
-	if len(fields) > 0 {
-		parts = append(parts, "fields "+strings.Join(fields, ", ")+" differ")
-	}
-	if len(parts) == 0 {
-		parts = append(parts, "hashes differ")
-	}
-	return strings.Join(parts, "; ")
+	return out
 }
 
 // cellKey identifies a cell across runs by its swept settings, so cells of
@@ -226,38 +625,30 @@ func cellKey(c Cell) string {
 	return strings.Join(parts, "\x00")
 }
 
-// summaryDiffs pairs cells (by index for the same scenario, else by
-// settings), estimators by label and coefficients by name.
-func summaryDiffs(base, cand *Results, sameScenario bool) []Difference {
-	byKey := map[string]*Cell{}
-	for i := range cand.Cells {
-		byKey[cellKey(cand.Cells[i])] = &cand.Cells[i]
+// estimatorIn returns the estimator of the cell with the label, or nil.
+func estimatorIn(c *Cell, label string) *Estimator {
+	for k := range c.Estimators {
+		if c.Estimators[k].Label == label {
+			return &c.Estimators[k]
+		}
 	}
+	return nil
+}
+
+// summaryDiffs compares the measures of paired cells, estimators by label
+// and coefficients by name. A measure that the older of the two results
+// schemas does not record (schema) is left out rather than read as zero.
+func summaryDiffs(pairs []cellPair, reference string, schema int) []Difference {
 	var out []Difference
-	for i := range base.Cells {
-		bc := &base.Cells[i]
-		var cc *Cell
-		if sameScenario && i < len(cand.Cells) {
-			cc = &cand.Cells[i]
-		} else {
-			cc = byKey[cellKey(*bc)]
-		}
-		if cc == nil {
-			continue
-		}
-		for _, be := range bc.Estimators {
-			var ce *Estimator
-			for k := range cc.Estimators {
-				if cc.Estimators[k].Label == be.Label {
-					ce = &cc.Estimators[k]
-				}
-			}
+	for _, cp := range pairs {
+		bc, cc := cp.base, cp.cand
+		for bi := range bc.Estimators {
+			be := &bc.Estimators[bi]
+			ce := estimatorIn(cc, be.Label)
 			if ce == nil {
 				continue
 			}
 			add := func(coef, measure string, a, b Measure) {
-				d := Difference{Cell: bc.Index, Settings: bc.Settings, Estimator: be.Label, Coefficient: coef, Measure: measure,
-					Baseline: a.Value, Candidate: b.Value}
 				av, bv := float64(a.Value), float64(b.Value)
 				if math.IsNaN(av) && math.IsNaN(bv) {
 					return
@@ -271,42 +662,78 @@ func summaryDiffs(base, cand *Results, sameScenario bool) []Difference {
 				case math.IsNaN(diff):
 					z = math.Inf(1) // a measure appeared or disappeared
 				}
-				d.Diff, d.MCSE, d.Z = Num(diff), Num(se), Num(z)
-				out = append(out, d)
+				out = append(out, Difference{Cell: bc.Index, Settings: bc.Settings, Estimator: be.Label, Coefficient: coef, Measure: measure,
+					Baseline: Float(av), Candidate: Float(bv), Diff: Float(diff), MCSE: Float(se), Z: Float(z)})
 			}
-			for _, bk := range be.Coefficients {
-				for _, ck := range ce.Coefficients {
+			for ki := range be.Coefficients {
+				bk := &be.Coefficients[ki]
+				for kj := range ce.Coefficients {
+					ck := &ce.Coefficients[kj]
 					if ck.Name != bk.Name {
 						continue
 					}
-					add(bk.Name, "bias", bk.Bias, ck.Bias)
-					add(bk.Name, "emp_se", bk.EmpSE, ck.EmpSE)
-					if be.Label != base.Reference {
-						add(bk.Name, "rel_eff", bk.RelEff, ck.RelEff)
+					for _, m := range coefficientMeasures() {
+						if m.since <= schema && (m.reference || be.Label != reference) {
+							add(bk.Name, m.name, m.get(bk), m.get(ck))
+						}
 					}
 				}
 			}
-			add("", "failure_rate", rateMeasure(be.Convergence), rateMeasure(ce.Convergence))
-			add("", "mean_iterations", be.Convergence.MeanIterations, ce.Convergence.MeanIterations)
+			for _, m := range estimatorMeasures() {
+				add("", m.name, m.get(be), m.get(ce))
+			}
 		}
 	}
 	return out
 }
 
-// rateMeasure returns the failure rate with its MCSE (see Proportion).
-func rateMeasure(c Convergence) Measure {
-	return Proportion(c.Fits-c.Converged, c.Fits)
+// summaryFailureTests compares the failure counts of paired cells by
+// Fisher's exact test.
+func summaryFailureTests(pairs []cellPair) []FailureTest {
+	var out []FailureTest
+	for _, cp := range pairs {
+		for bi := range cp.base.Estimators {
+			be := &cp.base.Estimators[bi]
+			ce := estimatorIn(cp.cand, be.Label)
+			if ce == nil {
+				continue
+			}
+			b, c := be.Convergence, ce.Convergence
+			f := FailureTest{Cell: cp.base.Index, Settings: cp.base.Settings, Estimator: be.Label,
+				BaselineFits: b.Fits, BaselineFailed: b.Fits - b.Converged, CandidateFits: c.Fits, CandidateFailed: c.Fits - c.Converged}
+			f.P = Float(FisherExactP(f.BaselineFailed, f.BaselineFits, f.CandidateFailed, f.CandidateFits))
+			out = append(out, f)
+		}
+	}
+	return out
+}
+
+// pairedFailureTests turns the paired counts into exact McNemar tests.
+func pairedFailureTests(p *PairedReport, base *Results) []FailureTest {
+	var out []FailureTest
+	for _, pe := range p.Estimators {
+		f := FailureTest{Cell: pe.Cell, Estimator: pe.Estimator, BaselineFits: int64(pe.Fits), CandidateFits: int64(pe.Fits),
+			BaselineFailed: int64(pe.BaselineFailed), CandidateFailed: int64(pe.CandidateFailed),
+			NewFailures: int64(pe.NewFailures), Recovered: int64(pe.Recovered)}
+		if pe.Cell < len(base.Cells) {
+			f.Settings = base.Cells[pe.Cell].Settings
+		}
+		f.P = Float(PairedExactP(f.NewFailures, f.Recovered))
+		out = append(out, f)
+	}
+	return out
 }
 
 // holm flags differences by Holm's step-down procedure: with p-values
 // p = P(|Z| > |z|) sorted ascending, the k-th smallest (k from 0) is
 // flagged while p ≤ α/(m−k) (Holm (1979), "A simple sequentially
-// rejective multiple test procedure", Scand. J. Statist. 6:65-70).
+// rejective multiple test procedure", Scand. J. Statist. 6:65-70). It
+// returns m.
 //
 // A difference whose z is NaN (its MCSE is undefined, for example an
 // efficiency from fewer than two fits) is not tested and does not count
 // in m; Uncomparable lists it.
-func holm(d []Difference, alpha float64) {
+func holm(d []Difference, alpha float64) int {
 	idx := make([]int, 0, len(d))
 	for i := range d {
 		if !math.IsNaN(float64(d[i].Z)) {
@@ -318,139 +745,108 @@ func holm(d []Difference, alpha float64) {
 	m := len(idx)
 	for k, i := range idx {
 		if pval(i) > alpha/float64(m-k) {
-			return
+			break
 		}
 		d[i].Flagged = true
 	}
+	return m
 }
 
-// comparePaired merges two replicate files on (cell, replicate,
-// estimator).
-func comparePaired(baseSrc, candSrc ReplicateSource, tol float64) (*PairedReport, error) {
-	br, err := baseSrc()
-	if err != nil {
-		return nil, fmt.Errorf("baseline replicates: %w", err)
-	}
-	defer br.Close()
-	cr, err := candSrc()
-	if err != nil {
-		return nil, fmt.Errorf("candidate replicates: %w", err)
-	}
-	defer cr.Close()
-	a, err := NewReplicateReader(br)
-	if err != nil {
-		return nil, fmt.Errorf("baseline replicates: %w", err)
-	}
-	b, err := NewReplicateReader(cr)
-	if err != nil {
-		return nil, fmt.Errorf("candidate replicates: %w", err)
-	}
-	p := &PairedReport{Tolerance: tol, Transitions: map[string]int{}}
-	per := map[[2]int]*PairedEstimator{}
-	var order [][2]int
-	less := func(x, y ReplicateRecord) bool {
-		if x.Cell != y.Cell {
-			return x.Cell < y.Cell
+// holmFailures applies Holm's procedure to the failure tests that can
+// reject and returns how many there were.
+func holmFailures(f []FailureTest, alpha float64, kind FailureTestKind) int {
+	var idx []int
+	for i := range f {
+		informative := f[i].BaselineFailed+f[i].CandidateFailed > 0
+		if kind == FailurePaired {
+			informative = f[i].NewFailures+f[i].Recovered > 0
 		}
-		if x.Replicate != y.Replicate {
-			return x.Replicate < y.Replicate
+		if informative {
+			idx = append(idx, i)
 		}
-		return x.Estimator < y.Estimator
 	}
-	ra, errA := a.Next()
-	rb, errB := b.Next()
-	for {
-		// A damaged file is an error whenever it shows, including after
-		// the other file has ended.
-		if errA != nil && !errors.Is(errA, io.EOF) {
-			return nil, fmt.Errorf("baseline replicates: %w", errA)
-		}
-		if errB != nil && !errors.Is(errB, io.EOF) {
-			return nil, fmt.Errorf("candidate replicates: %w", errB)
-		}
-		if errA != nil && errB != nil {
+	sort.SliceStable(idx, func(a, b int) bool { return f[idx[a]].P < f[idx[b]].P })
+	m := len(idx)
+	for k, i := range idx {
+		if float64(f[i].P) > alpha/float64(m-k) {
 			break
 		}
-		switch {
-		case errA != nil:
-			p.Missing++
-			rb, errB = b.Next()
-			continue
-		case errB != nil:
-			p.Missing++
-			ra, errA = a.Next()
-			continue
-		case less(ra, rb):
-			p.Missing++
-			ra, errA = a.Next()
-			continue
-		case less(rb, ra):
-			p.Missing++
-			rb, errB = b.Next()
-			continue
-		}
-		k := [2]int{ra.Cell, ra.Estimator}
-		pe, ok := per[k]
-		if !ok {
-			label := ""
-			if ra.Cell < len(a.Header.Cells) && ra.Estimator < len(a.Header.Cells[ra.Cell].Estimators) {
-				label = a.Header.Cells[ra.Cell].Estimators[ra.Estimator]
-			}
-			pe = &PairedEstimator{Cell: ra.Cell, Estimator: label}
-			per[k] = pe
-			order = append(order, k)
-		}
-		pe.Fits++
-		p.Fits++
-		var maxd float64
-		for j := range ra.Coefficients {
-			if j >= len(rb.Coefficients) {
-				break
-			}
-			d := math.Abs(ra.Coefficients[j] - rb.Coefficients[j])
-			if math.IsNaN(d) && !(math.IsNaN(ra.Coefficients[j]) && math.IsNaN(rb.Coefficients[j])) {
-				d = math.Inf(1)
-			}
-			if d > maxd {
-				maxd = d
-			}
-		}
-		pe.MaxAbsDiff = math.Max(pe.MaxAbsDiff, maxd)
-		p.MaxAbsDiff = math.Max(p.MaxAbsDiff, maxd)
-		change := PairedChange{Cell: ra.Cell, Replicate: ra.Replicate, Estimator: pe.Estimator, MaxAbsDiff: maxd}
-		interesting := false
-		if maxd > tol {
-			pe.Moved++
-			p.Moved++
-			interesting = true
-		}
-		if ra.Status != rb.Status {
-			pe.StatusChanged++
-			p.StatusChanged++
-			t := ra.Status + " → " + rb.Status
-			p.Transitions[t]++
-			change.Status = t
-			interesting = true
-		}
-		if ra.Iterations != rb.Iterations {
-			pe.IterationChanged++
-			p.IterationChanged++
-			change.Iterations = fmt.Sprintf("%d → %d", ra.Iterations, rb.Iterations)
-			interesting = true
-		}
-		pe.MeanIterDelta += float64(rb.Iterations - ra.Iterations)
-		if interesting && len(p.Examples) < 20 {
-			p.Examples = append(p.Examples, change)
-		}
-		ra, errA = a.Next()
-		rb, errB = b.Next()
+		f[i].Flagged = true
 	}
-	for _, k := range order {
-		pe := per[k]
-		if pe.Fits > 0 {
-			pe.MeanIterDelta /= float64(pe.Fits)
+	return m
+}
+
+// convergedStatuses returns which status names are usable solutions, as
+// the runs recorded them.
+func convergedStatuses(runs ...*Results) map[string]bool {
+	out := map[string]bool{}
+	for _, r := range runs {
+		for _, c := range r.Cells {
+			for _, e := range c.Estimators {
+				for _, s := range e.Convergence.Statuses {
+					out[s.Status] = s.Converged
+				}
+			}
 		}
-		p.Estimators = append(p.Estimators, *pe)
 	}
-	return p, nil
+	return out
+}
+
+// seKey identifies a coefficient's empirical SE.
+type seKey struct {
+	cell             int
+	estimator, coeff string
+}
+
+// empiricalSEs returns every coefficient's empirical SE in a run.
+func empiricalSEs(r *Results) map[seKey]float64 {
+	out := map[seKey]float64{}
+	for _, c := range r.Cells {
+		for _, e := range c.Estimators {
+			for _, k := range e.Coefficients {
+				out[seKey{c.Index, e.Label, k.Name}] = float64(k.EmpSE.Value)
+			}
+		}
+	}
+	return out
+}
+
+// replayCommand returns the command that replays the first listed status
+// change or move with the candidate's scenario, or "".
+func replayCommand(cand *Results, p *PairedReport) string {
+	if p == nil {
+		return ""
+	}
+	var cell, rep int
+	var label string
+	switch {
+	case len(p.StatusChanges) > 0:
+		s := p.StatusChanges[0]
+		cell, rep, label = s.Cell, s.Replicate, s.Estimator
+	case len(p.Moves) > 0:
+		m := p.Moves[0]
+		cell, rep, label = m.Cell, m.Replicate, m.Estimator
+	default:
+		return ""
+	}
+	file := cand.Scenario.File
+	if file == "" {
+		file = cand.Scenario.Name
+	}
+	cmd := fmt.Sprintf("rhomark replay %s --cell %d --replicate %d --estimator %s", shellWord(file), cell, rep, shellWord(label))
+	var sc struct {
+		Seed *uint64 `json:"seed"`
+	}
+	if json.Unmarshal(cand.Scenario.Normalised, &sc) != nil || sc.Seed == nil || *sc.Seed != cand.Seed {
+		cmd += " --seed " + strconv.FormatUint(cand.Seed, 10)
+	}
+	return cmd
+}
+
+// shellWord quotes a word for a POSIX shell when it needs it.
+func shellWord(s string) string {
+	if s != "" && strings.Trim(s, "abcdefghijklmnopqrstuvwxyzABCDEFGHIJKLMNOPQRSTUVWXYZ0123456789-_./:=+,") == "" {
+		return s
+	}
+	return "'" + strings.ReplaceAll(s, "'", `'\''`) + "'"
 }

@@ -1,24 +1,81 @@
 package results
 
 import (
+	"encoding/json"
 	"encoding/xml"
 	"fmt"
 	"io"
 	"maps"
 	"math"
 	"slices"
+	"strconv"
 	"strings"
+	"text/tabwriter"
 )
 
-// compareVerdict is the one-line outcome of a comparison.
+// verdict is the one-line outcome of a comparison, the most serious change
+// first.
 func (c *Comparison) verdict() string {
-	switch {
-	case c.Flagged():
-		return "CHANGED"
-	case c.Paired != nil:
-		return "unchanged: paired replicates agree to the tolerance, statuses identical"
+	if !c.Flagged() {
+		if c.Paired != nil {
+			return "unchanged: paired replicates agree to the tolerance, statuses identical"
+		}
+		return "unchanged within Monte Carlo error"
 	}
-	return "unchanged within Monte Carlo error"
+	var why []string
+	if rises := c.FailureRises(); len(rises) > 0 {
+		cells := map[string][]int{}
+		added := map[string]int64{}
+		var order []string
+		for _, f := range rises {
+			if _, ok := cells[f.Estimator]; !ok {
+				order = append(order, f.Estimator)
+			}
+			cells[f.Estimator] = append(cells[f.Estimator], f.Cell)
+			added[f.Estimator] += f.CandidateFailed - f.BaselineFailed
+		}
+		var parts []string
+		for _, e := range order {
+			slices.Sort(cells[e])
+			ids := make([]string, len(cells[e]))
+			for i, k := range cells[e] {
+				ids[i] = strconv.Itoa(k)
+			}
+			parts = append(parts, fmt.Sprintf("%s: %+d failed fits in cell%s %s", e, added[e], plural(len(ids)), strings.Join(ids, ", ")))
+		}
+		why = append(why, "MORE FAILURES ("+strings.Join(parts, "; ")+")")
+	}
+	nf := 0
+	for _, f := range c.Failures.Tests {
+		if f.Flagged && !f.Rise() {
+			nf++
+		}
+	}
+	if nf > 0 {
+		why = append(why, fmt.Sprintf("fewer failures in %d cell × estimator", nf))
+	}
+	if p := c.Paired; p != nil {
+		if p.StatusChanged > 0 {
+			why = append(why, fmt.Sprintf("%d fit%s changed status", p.StatusChanged, plural(p.StatusChanged)))
+		}
+		if p.Moved > 0 {
+			why = append(why, fmt.Sprintf("%d fit%s moved beyond %g", p.Moved, plural(p.Moved), p.Tolerance))
+		}
+		if p.Missing > 0 {
+			why = append(why, fmt.Sprintf("%d fit%s in one run only", p.Missing, plural(p.Missing)))
+		}
+	}
+	if n := c.FlaggedCount(); n > 0 {
+		why = append(why, fmt.Sprintf("%d measure%s changed beyond Monte Carlo error", n, plural(n)))
+	}
+	return "CHANGED: " + strings.Join(why, "; ")
+}
+
+func plural(n int) string {
+	if n == 1 {
+		return ""
+	}
+	return "s"
 }
 
 // differenceWhere names a difference's place.
@@ -31,7 +88,7 @@ func differenceWhere(d Difference) string {
 }
 
 // fmtNum formats a number compactly for comparison tables.
-func fmtNum(v Num) string {
+func fmtNum(v Float) string {
 	f := float64(v)
 	switch {
 	case math.IsNaN(f):
@@ -44,30 +101,145 @@ func fmtNum(v Num) string {
 	return fmt.Sprintf("%.4g", f)
 }
 
-// WriteComparison writes the comparison for a terminal.
-func WriteComparison(w io.Writer, c *Comparison) error {
-	b := &strings.Builder{}
-	fmt.Fprintf(b, "compare · baseline %s\n        · candidate %s\n", c.Baseline, c.Candidate)
-	for _, n := range c.Notes {
-		fmt.Fprintf(b, "  note: %s\n", n)
+// fmtSigned formats a difference with its sign.
+func fmtSigned(v Float) string {
+	if f := float64(v); !math.IsNaN(f) && !math.IsInf(f, 0) {
+		return fmt.Sprintf("%+.3g", f)
 	}
-	flagged := c.FlaggedCount()
-	fmt.Fprintf(b, "\nsummary: %d measures compared (bias, emp. SE, efficiency, failure rate, iterations)\n", len(c.Differences))
-	fmt.Fprintf(b, "  flagged when |z| is past %g after Holm's correction (family-wise level %.2g)\n", c.Threshold, c.Alpha)
-	if flagged > 0 {
-		fmt.Fprintf(b, "  %-34s %10s %10s %10s %7s\n", "where", "baseline", "candidate", "diff", "z")
-		for _, d := range c.Differences {
-			if d.Flagged {
-				fmt.Fprintf(b, "  ! %-32s %10s %10s %10s %7s\n", differenceWhere(d), fmtNum(d.Baseline), fmtNum(d.Candidate), fmtNum(d.Diff), fmtNum(d.Z))
-			}
+	return fmtNum(v)
+}
+
+// settingsOf returns the differing settings of the given kinds.
+func (c *Comparison) settingsOf(kinds ...SettingKind) []SettingChange {
+	var out []SettingChange
+	for _, s := range c.Settings {
+		if slices.Contains(kinds, s.Kind) {
+			out = append(out, s)
 		}
 	}
+	return out
+}
+
+// failureRows returns the failure tests worth a row: flagged ones and
+// those that could reject.
+func (c *Comparison) failureRows() []FailureTest {
+	var out []FailureTest
+	for _, f := range c.Failures.Tests {
+		informative := f.BaselineFailed+f.CandidateFailed > 0
+		if c.Failures.Test == FailurePaired {
+			informative = f.NewFailures+f.Recovered > 0
+		}
+		if f.Flagged || informative {
+			out = append(out, f)
+		}
+	}
+	return out
+}
+
+// failureNote is the verdict of one failure test for a table.
+func failureNote(f FailureTest) string {
+	switch {
+	case f.Flagged && f.Rise():
+		return "MORE FAILURES"
+	case f.Flagged:
+		return "fewer failures"
+	}
+	return "not significant"
+}
+
+// failureCounts returns the "failed before/after" columns of a test.
+func failureCounts(f FailureTest) (string, string) {
+	return fmt.Sprintf("%d/%d", f.BaselineFailed, f.BaselineFits), fmt.Sprintf("%d/%d", f.CandidateFailed, f.CandidateFits)
+}
+
+// failureTestDescription names the failure test for a heading.
+func (c *Comparison) failureTestDescription() string {
+	if c.Failures.Test == FailurePaired {
+		return "exact McNemar test on the fits whose outcome changed"
+	}
+	return "Fisher's exact test of two independent failure rates"
+}
+
+// WriteComparison writes the comparison for a terminal: what was
+// compared, the verdict, then failures, status changes, the largest moves
+// and the other measures.
+func WriteComparison(w io.Writer, c *Comparison) error {
+	b := &strings.Builder{}
+	fmt.Fprintf(b, "compare %s\n  baseline  %s\n  candidate %s\n", c.Baseline.Scenario, c.Baseline.Path, c.Candidate.Path)
+	if p := c.Paired; p != nil {
+		fmt.Fprintf(b, "paired: %d fits present in both runs, compared replicate by replicate (seed %d, tolerance %g)\n", p.Fits, c.Baseline.Seed, p.Tolerance)
+	} else {
+		fmt.Fprintf(b, "summary mode (not paired: %s): measures compared through their Monte Carlo errors\n", c.Unpaired)
+	}
+	if sv := c.settingsOf(SettingSolver); len(sv) > 0 {
+		b.WriteString("solver settings that differ:\n")
+		for _, s := range sv {
+			fmt.Fprintf(b, "  %s: %s → %s\n", s.Path, s.Baseline, s.Candidate)
+		}
+	}
+	if other := c.settingsOf(SettingEstimator, SettingAnalysis, SettingData, SettingName); len(other) > 0 {
+		b.WriteString("other settings that differ:\n")
+		for _, s := range other {
+			fmt.Fprintf(b, "  %s (%s): %s → %s\n", s.Path, s.Kind, s.Baseline, s.Candidate)
+		}
+	}
+	for _, n := range c.Notes {
+		fmt.Fprintf(b, "note: %s\n", n)
+	}
+	fmt.Fprintf(b, "\nresult: %s\n", c.verdict())
+
+	// Failures, on their own.
+	f := c.Failures
+	fmt.Fprintf(b, "\nfailures, per cell × estimator (%s; Holm at family-wise level %g over the %d tests that could reject):\n", c.failureTestDescription(), f.Alpha, f.Tested)
+	if rows := c.failureRows(); len(rows) > 0 {
+		tw := tabwriter.NewWriter(b, 0, 0, 2, ' ', 0)
+		if f.Test == FailurePaired {
+			fmt.Fprintln(tw, "  cell\tsettings\testimator\tfits\tnew failures\trecovered\tp\t")
+			for _, r := range rows {
+				fmt.Fprintf(tw, "  %d\t%s\t%s\t%d\t%d\t%d\t%.2g\t%s\n", r.Cell, shortSettings(r.Settings, "=", " "), r.Estimator, r.BaselineFits, r.NewFailures, r.Recovered, float64(r.P), failureNote(r))
+			}
+		} else {
+			fmt.Fprintln(tw, "  cell\tsettings\testimator\tfailed before\tfailed after\tp\t")
+			for _, r := range rows {
+				before, after := failureCounts(r)
+				fmt.Fprintf(tw, "  %d\t%s\t%s\t%s\t%s\t%.2g\t%s\n", r.Cell, shortSettings(r.Settings, "=", " "), r.Estimator, before, after, float64(r.P), failureNote(r))
+			}
+		}
+		tw.Flush()
+	} else if f.Test == FailurePaired {
+		b.WriteString("  no fit changed between converged and failed\n")
+	} else {
+		b.WriteString("  no failures in either run\n")
+	}
+
+	if p := c.Paired; p != nil {
+		writeStatusChanges(b, c, p)
+		writeMoves(b, c, p)
+	}
+
+	// The other measures, Holm-corrected.
+	flagged := c.FlaggedCount()
+	fmt.Fprintf(b, "\nmeasures (%s): %d compared, %d testable; Holm at family-wise level %.2g (|z| past %g)",
+		strings.Join(measureNames(), ", "), len(c.Differences), c.Tested, c.Alpha, c.Threshold)
+	if c.Tested > 0 {
+		fmt.Fprintf(b, ": the largest |z| had to pass %.2f", float64(c.CriticalZ))
+	}
+	b.WriteString("\n")
+	if flagged > 0 {
+		tw := tabwriter.NewWriter(b, 0, 0, 2, ' ', 0)
+		fmt.Fprintln(tw, "  \tcell\testimator\tcoefficient\tmeasure\tbaseline\tcandidate\tdiff\tz\t")
+		for _, d := range c.Differences {
+			if d.Flagged {
+				fmt.Fprintf(tw, "  !\t%d\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t\n", d.Cell, d.Estimator, orDash(d.Coefficient), d.Measure, fmtNum(d.Baseline), fmtNum(d.Candidate), fmtSigned(d.Diff), fmtNum(d.Z))
+			}
+		}
+		tw.Flush()
+	}
 	unc := c.Uncomparable()
-	unchanged := len(c.Differences) - flagged - len(unc)
-	fmt.Fprintf(b, "  %d unchanged within Monte Carlo error", unchanged)
+	fmt.Fprintf(b, "  %d unchanged within Monte Carlo error", len(c.Differences)-flagged-len(unc))
 	for _, d := range c.Differences {
 		if !d.Flagged && !math.IsNaN(float64(d.Z)) && d.Z != 0 {
-			fmt.Fprintf(b, " (largest |z| %.2g: %s)", math.Abs(float64(d.Z)), differenceWhere(d))
+			fmt.Fprintf(b, " (largest |z| %.3g: %s)", math.Abs(float64(d.Z)), differenceWhere(d))
 			break
 		}
 	}
@@ -76,9 +248,8 @@ func WriteComparison(w io.Writer, c *Comparison) error {
 		fmt.Fprintf(b, "  %d not testable (Monte Carlo error undefined, e.g. fewer than two fits), such as %s\n", len(unc), differenceWhere(unc[0]))
 	}
 	if p := c.Paired; p != nil {
-		fmt.Fprintf(b, "\npaired: %d fits compared replicate by replicate (tolerance %g)\n", p.Fits, p.Tolerance)
-		fmt.Fprintf(b, "  largest |change of an estimate| %.3g · %d fits moved · %d status changes · %d iteration changes",
-			p.MaxAbsDiff, p.Moved, p.StatusChanged, p.IterationChanged)
+		fmt.Fprintf(b, "\npaired totals: largest |change of an estimate| %.3g · %d moved · %d status changes (%d new failures, %d recovered) · %d iteration changes",
+			float64(p.MaxAbsDiff), p.Moved, p.StatusChanged, p.NewFailures, p.Recovered, p.IterationChanged)
 		if p.Missing > 0 {
 			fmt.Fprintf(b, " · %d fits in one run only", p.Missing)
 		}
@@ -91,31 +262,134 @@ func WriteComparison(w io.Writer, c *Comparison) error {
 				continue
 			}
 			fmt.Fprintf(b, "  cell %d %-14s max |Δ| %.3g · moved %d · status %d · iterations %d (mean Δ %+.2f)\n",
-				pe.Cell, pe.Estimator, pe.MaxAbsDiff, pe.Moved, pe.StatusChanged, pe.IterationChanged, pe.MeanIterDelta)
-		}
-		if len(p.Examples) > 0 {
-			b.WriteString("  first changed replicates (replay one with rhomark replay SCENARIO --cell C --replicate R):\n")
-			for _, e := range p.Examples {
-				fmt.Fprintf(b, "    cell %d replicate %d %s: |Δ| %.3g %s %s\n", e.Cell, e.Replicate, e.Estimator, e.MaxAbsDiff, e.Status, e.Iterations)
-			}
+				pe.Cell, pe.Estimator, float64(pe.MaxAbsDiff), pe.Moved, pe.StatusChanged, pe.IterationChanged, pe.MeanIterDelta)
 		}
 	}
-	fmt.Fprintf(b, "\nresult: %s\n", c.verdict())
-	_, err := io.WriteString(w, b.String())
+	_, err := io.WriteString(w, trimLines(b.String()))
 	return err
 }
 
+// trimLines removes the spaces that aligned columns leave at line ends.
+func trimLines(s string) string {
+	lines := strings.Split(s, "\n")
+	for i, l := range lines {
+		lines[i] = strings.TrimRight(l, " ")
+	}
+	return strings.Join(lines, "\n")
+}
+
+func orDash(s string) string {
+	if s == "" {
+		return "-"
+	}
+	return s
+}
+
+// writeStatusChanges lists the fits whose status changed.
+func writeStatusChanges(b *strings.Builder, c *Comparison, p *PairedReport) {
+	if p.StatusChanged == 0 {
+		return
+	}
+	fmt.Fprintf(b, "\nstatus changes: %d fit%s (%d new failures, %d recovered); %d listed, new failures first, largest move first\n",
+		p.StatusChanged, plural(p.StatusChanged), p.NewFailures, p.Recovered, len(p.StatusChanges))
+	if len(p.StatusChanges) == 0 {
+		return
+	}
+	tw := tabwriter.NewWriter(b, 0, 0, 2, ' ', 0)
+	fmt.Fprintln(tw, "  cell\treplicate\testimator\tbaseline → candidate status\titerations\tlargest move\tdiff\tdiff/SE")
+	for _, s := range p.StatusChanges {
+		fmt.Fprintf(tw, "  %d\t%d\t%s\t%s → %s\t%d → %d\t%s\t%s\t%s\n", s.Cell, s.Replicate, s.Estimator, s.Baseline, s.Candidate, s.BaselineIterations, s.CandidateIterations,
+			orDash(s.Coefficient), fmtSigned(s.Diff), fmtSigned(s.SEUnits))
+	}
+	tw.Flush()
+	if c.Replay != "" {
+		fmt.Fprintf(b, "  replay the first: %s\n", c.Replay)
+	}
+}
+
+// writeMoves lists the largest moves.
+func writeMoves(b *strings.Builder, c *Comparison, p *PairedReport) {
+	if len(p.Moves) == 0 {
+		if p.StatusChanged > 0 {
+			b.WriteString("\nlargest moves: no fit whose status stayed the same moved beyond the tolerance\n")
+		}
+		return
+	}
+	fmt.Fprintf(b, "\nlargest moves among fits whose status did not change (%d listed; diff/SE in units of the coefficient's empirical SE)\n", len(p.Moves))
+	tw := tabwriter.NewWriter(b, 0, 0, 2, ' ', 0)
+	fmt.Fprintln(tw, "  cell\treplicate\testimator\tcoefficient\tbaseline\tcandidate\tdiff\tdiff/SE")
+	for _, m := range p.Moves {
+		fmt.Fprintf(tw, "  %d\t%d\t%s\t%s\t%.6g\t%.6g\t%s\t%s\n", m.Cell, m.Replicate, m.Estimator, m.Coefficient, float64(m.Baseline), float64(m.Candidate), fmtSigned(m.Diff), fmtSigned(m.SEUnits))
+	}
+	tw.Flush()
+	if len(p.StatusChanges) == 0 && c.Replay != "" {
+		fmt.Fprintf(b, "  replay the first: %s\n", c.Replay)
+	}
+}
+
 // WriteComparisonMarkdown writes the comparison as Markdown for a code
-// review.
+// review, with the same parts as WriteComparison.
 func WriteComparisonMarkdown(w io.Writer, c *Comparison) error {
 	b := &strings.Builder{}
-	fmt.Fprintf(b, "### rhomark compare: %s\n\n", c.verdict())
-	fmt.Fprintf(b, "- baseline: `%s`\n- candidate: `%s`\n", c.Baseline, c.Candidate)
+	fmt.Fprintf(b, "### rhomark compare %s: %s\n\n", c.Baseline.Scenario, c.verdict())
+	fmt.Fprintf(b, "- baseline: `%s`\n- candidate: `%s`\n", c.Baseline.Path, c.Candidate.Path)
+	if c.Paired != nil {
+		fmt.Fprintf(b, "- paired: %d fits compared replicate by replicate (tolerance %g)\n", c.Paired.Fits, c.Paired.Tolerance)
+	} else {
+		fmt.Fprintf(b, "- summary mode (not paired: %s)\n", c.Unpaired)
+	}
 	for _, n := range c.Notes {
 		fmt.Fprintf(b, "- note: %s\n", n)
 	}
-	fmt.Fprintf(b, "\n**Summary.** %d measures compared; %d flagged (|z| past %g after Holm's correction, family-wise level %.2g)",
-		len(c.Differences), c.FlaggedCount(), c.Threshold, c.Alpha)
+	if len(c.Settings) > 0 {
+		b.WriteString("\n| setting | kind | baseline | candidate |\n|---|---|---|---|\n")
+		for _, s := range c.Settings {
+			fmt.Fprintf(b, "| `%s` | %s | `%s` | `%s` |\n", s.Path, s.Kind, s.Baseline, s.Candidate)
+		}
+	}
+	f := c.Failures
+	fmt.Fprintf(b, "\n**Failures**, per cell × estimator (%s; Holm at family-wise level %g over the %d tests that could reject).\n\n", c.failureTestDescription(), f.Alpha, f.Tested)
+	if rows := c.failureRows(); len(rows) > 0 {
+		if f.Test == FailurePaired {
+			b.WriteString("| cell | settings | estimator | fits | new failures | recovered | p | |\n|---:|---|---|---:|---:|---:|---:|---|\n")
+			for _, r := range rows {
+				fmt.Fprintf(b, "| %d | %s | %s | %d | %d | %d | %.2g | %s |\n", r.Cell, shortSettings(r.Settings, "=", " "), r.Estimator, r.BaselineFits, r.NewFailures, r.Recovered, float64(r.P), failureNote(r))
+			}
+		} else {
+			b.WriteString("| cell | settings | estimator | failed before | failed after | p | |\n|---:|---|---|---:|---:|---:|---|\n")
+			for _, r := range rows {
+				before, after := failureCounts(r)
+				fmt.Fprintf(b, "| %d | %s | %s | %s | %s | %.2g | %s |\n", r.Cell, shortSettings(r.Settings, "=", " "), r.Estimator, before, after, float64(r.P), failureNote(r))
+			}
+		}
+		b.WriteString("\n")
+	}
+	if p := c.Paired; p != nil && len(p.StatusChanges) > 0 {
+		fmt.Fprintf(b, "**Status changes.** %d fits (%d new failures, %d recovered); %d listed, new failures first, largest move first.\n\n", p.StatusChanged, p.NewFailures, p.Recovered, len(p.StatusChanges))
+		b.WriteString("| cell | replicate | estimator | baseline status | candidate status | iterations | largest move | diff | diff/SE |\n|---:|---:|---|---|---|---:|---|---:|---:|\n")
+		for _, s := range p.StatusChanges {
+			fmt.Fprintf(b, "| %d | %d | %s | %s | %s | %d → %d | %s | %s | %s |\n", s.Cell, s.Replicate, s.Estimator, s.Baseline, s.Candidate, s.BaselineIterations, s.CandidateIterations,
+				orDash(s.Coefficient), fmtSigned(s.Diff), fmtSigned(s.SEUnits))
+		}
+		b.WriteString("\n")
+	}
+	if c.Replay != "" {
+		fmt.Fprintf(b, "Replay the first: `%s`\n\n", c.Replay)
+	}
+	if p := c.Paired; p != nil && len(p.Moves) > 0 {
+		fmt.Fprintf(b, "**Largest moves** among fits whose status did not change (%d listed; diff/SE in units of the coefficient's empirical SE).\n\n", len(p.Moves))
+		b.WriteString("| cell | replicate | estimator | coefficient | baseline | candidate | diff | diff/SE |\n|---:|---:|---|---|---:|---:|---:|---:|\n")
+		for _, m := range p.Moves {
+			fmt.Fprintf(b, "| %d | %d | %s | %s | %.6g | %.6g | %s | %s |\n", m.Cell, m.Replicate, m.Estimator, m.Coefficient, float64(m.Baseline), float64(m.Candidate), fmtSigned(m.Diff), fmtSigned(m.SEUnits))
+		}
+		b.WriteString("\n")
+	}
+	fmt.Fprintf(b, "**Measures** (%s): %d compared; %d flagged (Holm over %d testable at family-wise level %.2g",
+		strings.Join(measureNames(), ", "), len(c.Differences), c.FlaggedCount(), c.Tested, c.Alpha)
+	if c.Tested > 0 {
+		fmt.Fprintf(b, "; the largest |z| had to pass %.2f", float64(c.CriticalZ))
+	}
+	b.WriteString(")")
 	if unc := c.Uncomparable(); len(unc) > 0 {
 		fmt.Fprintf(b, "; %d not testable (Monte Carlo error undefined)", len(unc))
 	}
@@ -125,19 +399,19 @@ func WriteComparisonMarkdown(w io.Writer, c *Comparison) error {
 		for _, d := range c.Differences {
 			if d.Flagged {
 				fmt.Fprintf(b, "| %d | %s | %s | %s | %s | %s | %s | %s |\n", d.Cell, d.Estimator, d.Coefficient, d.Measure,
-					fmtNum(d.Baseline), fmtNum(d.Candidate), fmtNum(d.Diff), fmtNum(d.Z))
+					fmtNum(d.Baseline), fmtNum(d.Candidate), fmtSigned(d.Diff), fmtNum(d.Z))
 			}
 		}
 		b.WriteString("\n")
 	}
 	if p := c.Paired; p != nil {
-		fmt.Fprintf(b, "**Paired.** %d fits compared replicate by replicate at tolerance %g: largest change %.3g, %d moved, %d status changes, %d iteration changes.\n\n",
-			p.Fits, p.Tolerance, p.MaxAbsDiff, p.Moved, p.StatusChanged, p.IterationChanged)
+		fmt.Fprintf(b, "**Paired totals.** %d fits at tolerance %g: largest change %.3g, %d moved, %d status changes, %d iteration changes.\n\n",
+			p.Fits, p.Tolerance, float64(p.MaxAbsDiff), p.Moved, p.StatusChanged, p.IterationChanged)
 		if p.Moved+p.StatusChanged+p.IterationChanged > 0 {
-			b.WriteString("| cell | estimator | max abs change | moved | status changed | iterations changed | mean iteration change |\n|---:|---|---:|---:|---:|---:|---:|\n")
+			b.WriteString("| cell | estimator | max abs change | moved | status changed | new failures | iterations changed | mean iteration change |\n|---:|---|---:|---:|---:|---:|---:|---:|\n")
 			for _, pe := range p.Estimators {
 				if pe.Moved+pe.StatusChanged+pe.IterationChanged > 0 {
-					fmt.Fprintf(b, "| %d | %s | %.3g | %d | %d | %d | %+.2f |\n", pe.Cell, pe.Estimator, pe.MaxAbsDiff, pe.Moved, pe.StatusChanged, pe.IterationChanged, pe.MeanIterDelta)
+					fmt.Fprintf(b, "| %d | %s | %.3g | %d | %d | %d | %d | %+.2f |\n", pe.Cell, pe.Estimator, float64(pe.MaxAbsDiff), pe.Moved, pe.StatusChanged, pe.NewFailures, pe.IterationChanged, pe.MeanIterDelta)
 				}
 			}
 			b.WriteString("\n")
@@ -145,6 +419,37 @@ func WriteComparisonMarkdown(w io.Writer, c *Comparison) error {
 	}
 	_, err := io.WriteString(w, b.String())
 	return err
+}
+
+// WriteComparisonJSON writes comparisons as a JSON array, one object per
+// compared pair of runs (the layout is documented in the README, section
+// "Regression-testing a solver change"; version CompareSchemaVersion).
+func WriteComparisonJSON(w io.Writer, cs []*Comparison) error {
+	if cs == nil {
+		cs = []*Comparison{}
+	}
+	b, err := json.MarshalIndent(cs, "", "  ")
+	if err != nil {
+		return err
+	}
+	_, err = w.Write(append(b, '\n'))
+	return err
+}
+
+// ReadComparisonJSON reads what WriteComparisonJSON writes.
+func ReadComparisonJSON(r io.Reader) ([]*Comparison, error) {
+	var cs []*Comparison
+	d := json.NewDecoder(r)
+	d.DisallowUnknownFields()
+	if err := d.Decode(&cs); err != nil {
+		return nil, fmt.Errorf("comparison JSON: %w", err)
+	}
+	for i, c := range cs {
+		if c == nil || c.Schema != CompareSchemaVersion {
+			return nil, fmt.Errorf("comparison JSON: entry %d is not a comparison of version %d", i, CompareSchemaVersion)
+		}
+	}
+	return cs, nil
 }
 
 // junit types: the JUnit XML layout CI systems read.
@@ -219,6 +524,20 @@ func junitSuitesOf(c *Comparison, suite string) []junitSuite {
 		if d.Flagged {
 			g.fails = append(g.fails, fmt.Sprintf("%s: %s → %s (z %s)", differenceWhere(d), fmtNum(d.Baseline), fmtNum(d.Candidate), fmtNum(d.Z)))
 		}
+	}
+	for _, f := range c.Failures.Tests {
+		if !f.Flagged {
+			continue
+		}
+		name := fmt.Sprintf("cell %d %s", f.Cell, f.Estimator)
+		g, ok := index[name]
+		if !ok {
+			g = &group{name: name}
+			index[name] = g
+			summary = append(summary, g)
+		}
+		before, after := failureCounts(f)
+		g.fails = append(g.fails, fmt.Sprintf("cell %d %s failures: %s → %s (%s, p %.2g)", f.Cell, f.Estimator, before, after, failureNote(f), float64(f.P)))
 	}
 	s := junitSuite{Name: suite + " summary"}
 	for _, g := range summary {

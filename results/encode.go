@@ -17,16 +17,17 @@ func WriteJSON(w io.Writer, r *Results) error {
 	return enc.Encode(r)
 }
 
-// ReadJSON reads results written by WriteJSON. It refuses files of another
-// schema version.
+// ReadJSON reads results written by WriteJSON. It reads files of this
+// schema version and of version 1, which lacks only measures added since
+// (compare leaves those out), and refuses any other.
 func ReadJSON(rd io.Reader) (*Results, error) {
 	var r Results
 	dec := json.NewDecoder(rd)
 	if err := dec.Decode(&r); err != nil {
 		return nil, fmt.Errorf("not a results file: %w", err)
 	}
-	if r.Schema != SchemaVersion {
-		return nil, fmt.Errorf("results schema version %d; this build reads version %d", r.Schema, SchemaVersion)
+	if r.Schema < 1 || r.Schema > SchemaVersion {
+		return nil, fmt.Errorf("results schema version %d; this build reads versions 1 to %d", r.Schema, SchemaVersion)
 	}
 	return &r, nil
 }

@@ -94,3 +94,22 @@ func customConstants(normalised json.RawMessage, label string) []string {
 	}
 	return nil
 }
+
+// shortSettings writes a cell's swept values compactly, each path without
+// its first segment when it has three or more and joined to its value by
+// kv ("spikes.fraction 0.1" or "spikes.fraction=0.1"), the settings
+// separated by sep; "-" when there are none.
+func shortSettings(ss []Setting, kv, sep string) string {
+	if len(ss) == 0 {
+		return "-"
+	}
+	parts := make([]string, len(ss))
+	for i, s := range ss {
+		p := s.Path
+		if seg := strings.Split(p, "."); len(seg) >= 3 {
+			p = strings.Join(seg[1:], ".")
+		}
+		parts[i] = p + kv + s.Value
+	}
+	return strings.Join(parts, sep)
+}

@@ -7,8 +7,10 @@ import (
 )
 
 // SchemaVersion is the version of the JSON layout written by this package.
-// It changes whenever a field is renamed or its meaning changes.
-const SchemaVersion = 1
+// It changes whenever a field is renamed, its meaning changes, or a measure
+// is added that compare must not read as zero in older files. Version 2
+// added rmse, mse_ratio, the verdict and the heavy-tail flags.
+const SchemaVersion = 2
 
 // Results is the outcome of one run of a scenario.
 type Results struct {

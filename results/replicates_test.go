@@ -96,7 +96,7 @@ func TestPairedReportsDamage(t *testing.T) {
 	src := func(b []byte) ReplicateSource {
 		return func() (io.ReadCloser, error) { return io.NopCloser(bytes.NewReader(b)), nil }
 	}
-	if _, err := comparePaired(src(good), src(good), 1e-9); err != nil {
+	if _, err := comparePaired(src(good), src(good), pairedSetup{tol: 1e-9}); err != nil {
 		t.Fatalf("intact files: %v", err)
 	}
 	for _, c := range []struct {
@@ -107,7 +107,7 @@ func TestPairedReportsDamage(t *testing.T) {
 		{"candidate damaged", good, damaged, "candidate replicates"},
 		{"baseline damaged", damaged, good, "baseline replicates"},
 	} {
-		if _, err := comparePaired(src(c.base), src(c.cand), 1e-9); err == nil || !strings.Contains(err.Error(), c.want) {
+		if _, err := comparePaired(src(c.base), src(c.cand), pairedSetup{tol: 1e-9}); err == nil || !strings.Contains(err.Error(), c.want) {
 			t.Errorf("%s: error %v, want one naming the %s", c.name, err, c.want)
 		}
 	}
@@ -119,7 +119,7 @@ func TestHolm(t *testing.T) {
 	zs := []float64{5, 4.2, 3.9, 0.5}
 	d := make([]Difference, len(zs))
 	for i, z := range zs {
-		d[i].Z = Num(z)
+		d[i].Z = Float(z)
 	}
 	alpha := math.Erfc(4 / math.Sqrt2)
 	holm(d, alpha)
@@ -137,7 +137,7 @@ func TestHolm(t *testing.T) {
 	zs = []float64{math.NaN(), 5, 4.2, 0.5}
 	d = make([]Difference, len(zs))
 	for i, z := range zs {
-		d[i].Z = Num(z)
+		d[i].Z = Float(z)
 	}
 	holm(d, alpha)
 	want = []bool{false, true, true, false}

@@ -66,7 +66,7 @@ func verdictLine(r *Results, c Cell) string {
 	v := VerdictOf(r, c)
 	head := fmt.Sprintf("cell %d", c.Index)
 	if len(c.Settings) > 0 {
-		head += " (" + shortSettings(c.Settings) + ")"
+		head += " (" + shortSettings(c.Settings, " ", ", ") + ")"
 	}
 	if c.Replicates != int64(r.Replicates) {
 		head += fmt.Sprintf(" [%d of %d replicates]", c.Replicates, r.Replicates)
@@ -162,20 +162,6 @@ func exclusionShort(c Cell, e Exclusion) string {
 		return "no fit converged"
 	}
 	return e.Reason.String()
-}
-
-// shortSettings writes a cell's swept values compactly: each path by its
-// last two parts ("spikes.fraction 0.1").
-func shortSettings(ss []Setting) string {
-	parts := make([]string, len(ss))
-	for i, s := range ss {
-		p := strings.Split(s.Path, ".")
-		if len(p) > 2 {
-			p = p[len(p)-2:]
-		}
-		parts[i] = strings.Join(p, ".") + " " + s.Value
-	}
-	return strings.Join(parts, ", ")
 }
 
 // wrap writes text as lines of at most width runes, breaking at spaces;
@@ -341,7 +327,7 @@ func writeColumns(b *strings.Builder, header [2][7]string, rows []cellRow, width
 func writeCellDetails(b *strings.Builder, r *Results, c Cell, width int) {
 	b.WriteString("\n   " + cellNumber(r, c))
 	if len(c.Settings) > 0 {
-		b.WriteString(": " + shortSettings(c.Settings))
+		b.WriteString(": " + shortSettings(c.Settings, " ", ", "))
 	}
 	b.WriteString("\n")
 	for _, e := range c.Estimators {

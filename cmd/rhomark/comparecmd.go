@@ -15,11 +15,14 @@ import (
 
 func compareCmd(e env, args []string) error {
 	fs := newFlags(e, "compare", "BASELINE CANDIDATE [options]",
-		"Compares two runs: results files (NAME.json) or directories of them (paired by\nscenario name). Summary mode compares every measure through its difference and\ncombined Monte Carlo SE, flagging |z| past --threshold after Holm's correction.\nWhen both runs kept replicates (run --keep-replicates) of the same scenario and\nseed, paired mode compares every fit replicate by replicate.\nExit status: 0 nothing flagged, 1 something flagged, 2 bad input.")
+		"Compares two runs: results files (NAME.json) or directories of them (paired by\nscenario name). Runs whose scenarios differ only in solver settings (stop rules,\nstart, resampling subsets/keep, irls vs newton) are one study; the settings that\ndiffer are listed. Failures are tested on their own per cell and estimator (exact\ntests, Holm at --failure-level); the other measures through their difference and\ncombined Monte Carlo SE, flagging |z| past --threshold after Holm's correction.\nWhen both runs kept replicates (run --keep-replicates) of the same data and seed,\npaired mode compares every fit replicate by replicate and lists the status\nchanges and the largest moves.\nExit status: 0 nothing flagged, 1 something flagged, 2 bad input.")
 	threshold := fs.Float64("threshold", 4, "flag |z| past this `Z` (sets the family-wise level of Holm's correction)")
 	tol := fs.Float64("tolerance", 1e-9, "paired mode: largest accepted change of an estimate (`T`)")
-	anyScenario := fs.Bool("any-scenario", false, "compare runs of different scenarios (summary mode, cells matched by their settings)")
+	failureLevel := fs.Float64("failure-level", 0.05, "family-wise `level` at which a change of failures is flagged")
+	list := fs.Int("list", 20, "paired mode: list up to `N` status changes and N largest moves (0: none)")
+	anyScenario := fs.Bool("any-scenario", false, "compare runs whose scenarios differ in more than solver settings (paired if the data settings and seed agree, else summary mode with cells matched by their settings)")
 	markdown := fs.Bool("markdown", false, "print Markdown (for a code review) instead of the terminal report")
+	asJSON := fs.Bool("json", false, "print the comparison as JSON (a list, one entry per pair of runs) instead of the terminal report")
 	junit := fs.String("junit", "", "also write JUnit XML to this `file`")
 	pos, err := parseFlags(fs, args)
 	if err != nil {
@@ -31,13 +34,26 @@ func compareCmd(e env, args []string) error {
 	if !(*threshold > 0) || !(*tol >= 0) {
 		return usagef("--threshold must be positive and --tolerance non-negative")
 	}
+	if !(*failureLevel > 0 && *failureLevel < 1) {
+		return usagef("--failure-level must be between 0 and 1, got %g", *failureLevel)
+	}
+	if *list < 0 {
+		return usagef("--list must be 0 or more, got %d", *list)
+	}
+	if *markdown && *asJSON {
+		return usagef("--markdown and --json each replace the terminal report; give one")
+	}
 	pairs, err := pairRuns(pos[0], pos[1])
 	if err != nil {
 		return err
 	}
-	opt := results.CompareOptions{Threshold: *threshold, Tolerance: *tol, AnyScenario: *anyScenario}
+	opt := results.CompareOptions{Threshold: *threshold, Tolerance: *tol, FailureAlpha: *failureLevel, List: *list, AnyScenario: *anyScenario}
+	if *list == 0 {
+		opt.List = -1
+	}
 	flagged := false
 	var junitRuns []results.JUnitRun
+	var all []*results.Comparison
 	for i, pr := range pairs {
 		baseReps, err := pr.base.replicates()
 		if err != nil {
@@ -50,7 +66,7 @@ func compareCmd(e env, args []string) error {
 		c, err := results.Compare(pr.base.res, pr.cand.res, baseReps, candReps, opt)
 		if err != nil {
 			if errors.Is(err, results.ErrDifferentScenarios) {
-				return usageError{err}
+				return usageError{fmt.Errorf("%w; only solver settings (stop rules, start, resampling subsets and keep, irls vs newton) may differ for runs to be one study: to compare them anyway, add --any-scenario", err)}
 			}
 			if errors.Is(err, results.ErrDamagedReplicates) {
 				// Bad input (exit 2), not a flagged change.
@@ -58,7 +74,13 @@ func compareCmd(e env, args []string) error {
 			}
 			return err
 		}
-		c.Baseline, c.Candidate = pr.base.path, pr.cand.path
+		c.Baseline.Path, c.Candidate.Path = pr.base.path, pr.cand.path
+		all = append(all, c)
+		junitRuns = append(junitRuns, results.JUnitRun{Suite: "rhomark " + pr.base.res.Scenario.Name, Comparison: c})
+		flagged = flagged || c.Flagged()
+		if *asJSON {
+			continue
+		}
 		if i > 0 {
 			fmt.Fprintln(e.stdout)
 		}
@@ -70,8 +92,11 @@ func compareCmd(e env, args []string) error {
 		if err != nil {
 			return err
 		}
-		junitRuns = append(junitRuns, results.JUnitRun{Suite: "rhomark " + pr.base.res.Scenario.Name, Comparison: c})
-		flagged = flagged || c.Flagged()
+	}
+	if *asJSON {
+		if err := results.WriteComparisonJSON(e.stdout, all); err != nil {
+			return err
+		}
 	}
 	if *junit != "" {
 		var b bytes.Buffer
