@@ -73,7 +73,7 @@ func breakdownCmd(e env, args []string) error {
 				return usagef("--run-seed %q is not a whole number", *runSeed)
 			}
 		}
-		if x, y, err = replicateData(sc, dataSeed, *cell, *rep); err != nil {
+		if x, y, _, err = replicateData(sc, dataSeed, *rep); err != nil {
 			return err
 		}
 	}
