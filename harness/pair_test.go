@@ -296,3 +296,74 @@ func TestFitIdentityCoversEstimator(t *testing.T) {
 		t.Error("traced estimators are shared")
 	}
 }
+
+// TestResumeKeepsGroupSize: a checkpoint records how many cells its units
+// cover, and a run resumed from it keeps that size (the unit numbers mean
+// nothing under another), however the resuming run would group cells.
+func TestResumeKeepsGroupSize(t *testing.T) {
+	st := parse(t, pairedScenario)
+	const reps = 100
+	full, err := Run(context.Background(), st, Options{Replicates: reps})
+	if err != nil {
+		t.Fatal(err)
+	}
+	ctx, cancel := context.WithCancel(context.Background())
+	var last *Partial
+	_, _, err = RunPartial(ctx, st, Options{Replicates: reps, Workers: 2, unitCells: 4,
+		Progress: func(done, total int64) {
+			if done > total/2 {
+				cancel()
+			}
+		},
+		Checkpoint: func(p *Partial) error { last = p; return nil }})
+	if err == nil || last == nil || last.Complete() {
+		t.Fatalf("the run was not interrupted: %v", err)
+	}
+	var buf bytes.Buffer
+	if err := WritePartial(&buf, last); err != nil {
+		t.Fatal(err)
+	}
+	back, err := ReadPartial(&buf)
+	if err != nil {
+		t.Fatal(err)
+	}
+	// Groups of 4 cut each 6-cell group in two: 4 groups of 4 blocks.
+	if back.UnitCells != 4 || back.Units != 16 {
+		t.Fatalf("checkpoint of %d units of %d cells, want 16 of 4", back.Units, back.UnitCells)
+	}
+	res, err := Run(context.Background(), st, Options{Replicates: reps, Resume: back})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !res.Complete || !bytes.Equal(csvOf(t, res), csvOf(t, full)) {
+		t.Error("the resumed run differs from the uninterrupted one")
+	}
+}
+
+// TestKeepUnitCellsBounded: a run that keeps its replicates groups fewer
+// cells as the replicates grow, so that the records held back for the
+// file's cell order stay within keepBudget, down to one cell a group.
+func TestKeepUnitCellsBounded(t *testing.T) {
+	st := parse(t, pairedScenario)
+	plans, err := plan(st, 1)
+	if err != nil {
+		t.Fatal(err)
+	}
+	// 4 estimators of 3 coefficients: at most 4 × (1 + 10 + 24) bytes a
+	// replicate.
+	perRep := 4 * (1 + 10 + 8*3)
+	prev := unitCells + 1
+	for _, reps := range []int{16, 1000, 100_000, 1_000_000, 10_000_000} {
+		size := keepUnitCells(plans, reps)
+		if size < 1 || size > unitCells || size > prev {
+			t.Errorf("%d replicates: groups of %d cells", reps, size)
+		}
+		if held := (size - 1) * reps * perRep; held > keepBudget {
+			t.Errorf("%d replicates: groups of %d cells hold back %d bytes, over the budget %d", reps, size, held, keepBudget)
+		}
+		prev = size
+	}
+	if keepUnitCells(plans, 16) != unitCells || keepUnitCells(plans, 10_000_000) != 1 {
+		t.Errorf("sizes %d and %d at the extremes", keepUnitCells(plans, 16), keepUnitCells(plans, 10_000_000))
+	}
+}
