@@ -11,6 +11,7 @@ import (
 	"gonum.org/v1/gonum/mat"
 
 	"github.com/rhomark/rhomark/estimators"
+	"github.com/rhomark/rhomark/scenarios"
 )
 
 // speedScenario is the reference workload of the speed target: n = 100, an
@@ -56,7 +57,7 @@ func BenchmarkReplicate(b *testing.B) {
 	b.ReportAllocs()
 	b.ResetTimer()
 	for i := 0; i < b.N; i++ {
-		pcg.Seed(ReplicateStream(99, 0, i))
+		pcg.Seed(ReplicateStream(99, p.dataKey, i))
 		p.gen.Draw(pcg, x, y, sc)
 		if err := e.Fit(x, y, &ws, &res); err != nil {
 			b.Fatal(err)
@@ -131,4 +132,28 @@ estimators: [{label: ls, method: ls}]
 			}
 		})
 	}
+}
+
+// BenchmarkRunTuningHuber measures a whole run of the shipped tuning-huber
+// scenario (16 cells: two contamination fractions × eight Huber constants,
+// least squares and Huber in each) on 2 workers. fits/s counts one fit per
+// cell, estimator and replicate, whether or not it was computed once and
+// shared by cells that fit the same estimator to the same data.
+func BenchmarkRunTuningHuber(b *testing.B) {
+	st, err := scenarios.LoadLibrary("tuning-huber")
+	if err != nil {
+		b.Fatal(err)
+	}
+	const reps = 256
+	fits := 0
+	for _, c := range st.Cells {
+		fits += reps * len(c.Scenario.Estimators)
+	}
+	b.ReportAllocs()
+	for i := 0; i < b.N; i++ {
+		if _, err := Run(context.Background(), st, Options{Workers: 2, Replicates: reps}); err != nil {
+			b.Fatal(err)
+		}
+	}
+	b.ReportMetric(float64(fits*b.N)/b.Elapsed().Seconds(), "fits/s")
 }

@@ -2,12 +2,16 @@
 // cell of a scenario, fits every estimator to each, and summarises the fits
 // into results with their Monte Carlo standard errors.
 //
-// Work is split into units of consecutive replicates of one cell and shared
-// among workers. Every replicate draws from its own random stream, derived
-// from (seed, cell, replicate) by [ReplicateStream], and every sum over
-// replicates is accumulated exactly (internal/exactsum), so the results are
-// bit-identical whatever the number of workers and the order in which units
-// finish. All estimators of a cell fit the same datasets (common random
-// numbers), so comparisons between them are paired. Memory does not grow
-// with the number of replicates.
+// Work is split into units of consecutive replicates of a group of cells
+// that draw the same datasets, and shared among workers. Every replicate's
+// dataset draws from its own random stream, derived from (seed, the cell's
+// data-generating settings, replicate) by [ReplicateStream] and [DataKey],
+// so cells that differ only in estimator settings fit the same datasets; an
+// estimator that is the same in several such cells is fitted once per
+// dataset. Every sum over replicates is accumulated exactly
+// (internal/exactsum), so the results are bit-identical whatever the number
+// of workers and the order in which units finish. All estimators of a cell
+// fit the same datasets (common random numbers), so comparisons between
+// them, and between cells that differ only in their estimators, are
+// paired. Memory does not grow with the number of replicates.
 package harness

@@ -43,5 +43,5 @@ estimators:
 	}
 	// Output:
 	// ls     intercept bias +0.59 (MCSE 0.02)
-	// huber  intercept bias +0.04 (MCSE 0.00)
+	// huber  intercept bias +0.03 (MCSE 0.00)
 }

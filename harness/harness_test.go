@@ -154,21 +154,25 @@ func TestMemoryFlatInReplicates(t *testing.T) {
 	}
 }
 
+// TestReplicateStreamsDistinct: the streams of different data keys,
+// replicates and estimators never coincide.
 func TestReplicateStreamsDistinct(t *testing.T) {
 	seen := map[[2]uint64]bool{}
-	for cell := 0; cell < 20; cell++ {
+	for key := uint64(0); key < 20; key++ {
 		for rep := 0; rep < 500; rep++ {
-			a, b := ReplicateStream(7, cell, rep)
+			a, b := ReplicateStream(7, key, rep)
 			if seen[[2]uint64{a, b}] {
-				t.Fatalf("stream of cell %d replicate %d repeats", cell, rep)
+				t.Fatalf("stream of data key %d replicate %d repeats", key, rep)
 			}
 			seen[[2]uint64{a, b}] = true
+			for _, label := range []string{"ls", "huber", "mm"} {
+				a, b := EstimatorStream(7, key, rep, EstimatorKey(label))
+				if seen[[2]uint64{a, b}] {
+					t.Fatalf("estimator %s's stream of data key %d replicate %d repeats", label, key, rep)
+				}
+				seen[[2]uint64{a, b}] = true
+			}
 		}
-	}
-	a1, _ := ReplicateStream(7, 0, 0)
-	a2, _ := EstimatorStream(7, 0, 0, 0)
-	if a1 == a2 {
-		t.Fatal("data and estimator streams coincide")
 	}
 }
 

@@ -29,9 +29,11 @@ estimators:
 `
 
 // keptErrors runs src with kept replicates and returns, per estimator and
-// coefficient, the errors of the replicates where every estimator
-// converged (so that pairs line up), with the run's results.
-func keptErrors(t *testing.T, src string, reps int) ([][][]float64, *results.Results) {
+// coefficient, the errors of its converged fits (own), and the errors of
+// the replicates where it and the reference (estimator 0) both converged,
+// its own (pair) and the reference's (ref), so that pairs line up; with
+// the run's results.
+func keptErrors(t *testing.T, src string, reps int) (own, pair, ref [][][]float64, res *results.Results) {
 	t.Helper()
 	var buf bytes.Buffer
 	res, err := Run(context.Background(), parse(t, src), Options{Replicates: reps, KeepReplicates: &buf})
@@ -43,8 +45,7 @@ func keptErrors(t *testing.T, src string, reps int) ([][][]float64, *results.Res
 		t.Fatal(err)
 	}
 	cell := res.Cells[0]
-	byRep := map[int][][]float64{}
-	bad := map[int]bool{}
+	byRep := map[int][][]float64{} // nil where the fit did not converge
 	for {
 		rec, err := rr.Next()
 		if errors.Is(err, io.EOF) {
@@ -53,12 +54,11 @@ func keptErrors(t *testing.T, src string, reps int) ([][][]float64, *results.Res
 		if err != nil {
 			t.Fatal(err)
 		}
-		if st, _ := estimators.ParseStatus(rec.Status); !st.Converged() {
-			bad[rec.Replicate] = true
-			continue
-		}
 		if byRep[rec.Replicate] == nil {
 			byRep[rec.Replicate] = make([][]float64, len(cell.Estimators))
+		}
+		if st, _ := estimators.ParseStatus(rec.Status); !st.Converged() {
+			continue
 		}
 		e := make([]float64, len(rec.Coefficients))
 		for k, b := range rec.Coefficients {
@@ -66,21 +66,27 @@ func keptErrors(t *testing.T, src string, reps int) ([][][]float64, *results.Res
 		}
 		byRep[rec.Replicate][rec.Estimator] = e
 	}
-	out := make([][][]float64, len(cell.Estimators))
-	for j := range out {
-		out[j] = make([][]float64, len(cell.Estimators[j].Coefficients))
-	}
-	for r := 0; r < reps; r++ {
-		if bad[r] || byRep[r] == nil {
-			continue
+	shape := func() [][][]float64 {
+		out := make([][][]float64, len(cell.Estimators))
+		for j := range out {
+			out[j] = make([][]float64, len(cell.Estimators[j].Coefficients))
 		}
-		for j, e := range byRep[r] {
+		return out
+	}
+	own, pair, ref = shape(), shape(), shape()
+	for r := 0; r < reps; r++ {
+		fits := byRep[r]
+		for j, e := range fits {
 			for k, v := range e {
-				out[j][k] = append(out[j][k], v)
+				own[j][k] = append(own[j][k], v)
+				if fits[0] != nil {
+					pair[j][k] = append(pair[j][k], v)
+					ref[j][k] = append(ref[j][k], fits[0][k])
+				}
 			}
 		}
 	}
-	return out, res
+	return own, pair, ref, res
 }
 
 func variance(x []float64, idx []int) float64 {
@@ -145,7 +151,7 @@ func TestMCSEAgainstBootstrap(t *testing.T) {
 	const reps, boot = 1000, 2000
 	for _, tc := range []struct{ name, noise string }{{"normal", "normal"}, {"t3", "student-t, df: 3"}} {
 		noise := tc.name
-		errs, res := keptErrors(t, fmt.Sprintf(mcseScenario, tc.noise), reps)
+		errs, pairs, refs, res := keptErrors(t, fmt.Sprintf(mcseScenario, tc.noise), reps)
 		cell := res.Cells[0]
 		rng := rand.New(rand.NewPCG(5, 6))
 		for j, est := range cell.Estimators {
@@ -213,7 +219,16 @@ func TestMCSEAgainstBootstrap(t *testing.T) {
 					}
 					continue
 				}
-				ref := errs[0][k]
+				// The efficiency pairs the replicates where both converged.
+				e, ref := pairs[j][k], refs[j][k]
+				n = len(e)
+				if int64(n) != c.Paired {
+					t.Fatalf("%s %s: %d kept pairs, %d used by the efficiency", est.Label, c.Name, n, c.Paired)
+				}
+				all = all[:0]
+				for i := range n {
+					all = append(all, i)
+				}
 				// MSE ratio MSE(ref)/MSE(e), paired.
 				ratio := func(idx []int) float64 { r := rmse(ref, idx) / rmse(e, idx); return r * r }
 				sd, se = bootstrapSD(rng, n, boot, ratio)

@@ -74,6 +74,9 @@ func MergePartials(parts []*Partial, limits scenarios.Limits) (*Partial, *scenar
 		if p.Build != first.Build {
 			why = append(why, fmt.Sprintf("build %s vs %s (builds may compute different numbers; rerun the shards with one build)", orUnknown(p.Build), orUnknown(first.Build)))
 		}
+		if p.UnitCells != first.UnitCells {
+			why = append(why, fmt.Sprintf("units of %d vs %d cells", p.UnitCells, first.UnitCells))
+		}
 		if p.Shards != first.Shards {
 			why = append(why, fmt.Sprintf("split into %d vs %d shards", p.Shards, first.Shards))
 		}

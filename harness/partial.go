@@ -44,8 +44,12 @@ type Partial struct {
 	// sharded).
 	Shard  int `json:"shard"`
 	Shards int `json:"shards"` // number of shards; this one is Shard, counted from 0
-	// Units is the total number of units of the run.
+	// Units is the total number of units of the run: blocks of
+	// replicates of groups of cells that draw the same datasets.
 	Units int `json:"units"`
+	// UnitCells is the most cells a unit covers (the size the groups of
+	// cells were cut to); a resumed run keeps it.
+	UnitCells int `json:"unit_cells"`
 	// Path is the file the partial was read from, if the caller sets it;
 	// errors about the partial name it. It is not written.
 	Path string `json:"-"`
@@ -187,9 +191,11 @@ type partialFile struct {
 }
 
 // partialFormat names the layout of the payload. Format 2 added the build
-// identity and the higher moments behind the heavy-tail MCSEs; a partial
-// of format 1 cannot be resumed or merged by this build.
-const partialFormat = "rhomark partial 2"
+// identity and the higher moments behind the heavy-tail MCSEs; format 3
+// made a unit a block of a group of cells that draw the same datasets
+// (with UnitCells), drawn from streams keyed by the data settings. A
+// partial of an earlier format cannot be resumed or merged by this build.
+const partialFormat = "rhomark partial 3"
 
 // WritePartial writes p with its checksum. p is not changed.
 //
@@ -290,14 +296,10 @@ func firstLine(s string) string {
 // newPartial starts the state of a run: empty tallies, or those of the
 // checkpoint being resumed (which must be of the same scenario, seed and
 // replicates).
-func newPartial(st *scenarios.Study, plans []cellPlan, seed uint64, reps int, opt Options) (*Partial, error) {
-	total := 0
-	for _, p := range plans {
-		total += p.blocks
-	}
+func newPartial(st *scenarios.Study, plans []cellPlan, total, size int, seed uint64, reps int, opt Options) (*Partial, error) {
 	build := opt.buildID()
 	p := &Partial{Tool: opt.Tool.Version, Build: build, Scenario: st.Base.Name, File: st.File, Source: string(st.Source), Hash: st.Hash,
-		Seed: seed, Replicates: reps, Shard: opt.Shard, Shards: opt.Shards, Units: total, done: new(big.Int)}
+		Seed: seed, Replicates: reps, Shard: opt.Shard, Shards: opt.Shards, Units: total, UnitCells: size, done: new(big.Int)}
 	for _, pl := range plans {
 		p.cells = append(p.cells, pl.newTally())
 	}
@@ -341,24 +343,22 @@ func orUnknown(b string) string {
 // snapshot returns a copy of the state, safe to write while the run goes
 // on, holding each cell's tallies in their encoded form (as a partial read
 // from a file does): a copy of the live tallies would be about twice as
-// large (some 300 MB at 10,000 cells). mu guards p; it is taken cell by
-// cell, so the workers wait only for the encoding of one cell. Each
-// cell's tallies and finished units are copied under one hold of mu, and
-// a unit belongs to one cell only, so the copy is consistent.
-// firstUnit[c] is the first unit of cell c.
-func (p *Partial) snapshot(mu *sync.Mutex, firstUnit []int) *Partial {
+// large (some 300 MB at 10,000 cells). mu guards p; it is taken group by
+// group, so the workers wait only for the encoding of one group's cells
+// (at most unitCells). The tallies of a group's cells and its finished
+// units are copied under one hold of mu, and a unit adds to the cells of
+// one group only, so the copy is consistent.
+func (p *Partial) snapshot(mu *sync.Mutex, groups []groupPlan) *Partial {
 	c := *p
 	c.cells = nil
 	c.raw = make([]tallyJSON, len(p.cells))
 	c.done = new(big.Int)
-	for i, t := range p.cells {
-		end := p.Units
-		if i+1 < len(firstUnit) {
-			end = firstUnit[i+1]
-		}
+	for _, g := range groups {
 		mu.Lock()
-		c.raw[i] = t.encode()
-		for u := firstUnit[i]; u < end; u++ {
+		for _, cell := range g.cells {
+			c.raw[cell] = p.cells[cell].encode()
+		}
+		for u := g.firstUnit; u < g.firstUnit+g.blocks; u++ {
 			if p.done.Bit(u) == 1 {
 				c.done.SetBit(c.done, u, 1)
 			}

@@ -2,12 +2,16 @@ package harness
 
 import (
 	"context"
+	"encoding/binary"
+	"encoding/json"
 	"errors"
 	"fmt"
 	"io"
 	"math"
 	"math/rand/v2"
+	"reflect"
 	"runtime"
+	"slices"
 	"sort"
 	"sync"
 	"sync/atomic"
@@ -59,18 +63,38 @@ type Options struct {
 	// Adjust, if not nil, may change each estimator after it is built from
 	// the scenario, without changing the scenario (and so its hash): the way
 	// to run a modified solver against a baseline of the same scenario.
+	// Cells that draw the same datasets fit an estimator once per dataset
+	// when its label and every field of the adjusted estimator are equal
+	// (the psi compared as a value; a psi that cannot be compared, or a
+	// Trace, is fitted in each cell).
 	Adjust func(cell int, label string, e *estimators.Estimator)
+
+	// unitCells, if positive, replaces the default group size (tests).
+	unitCells int
 }
 
-// blockSize is the number of consecutive replicates of one cell in a unit
-// of work.
+// blockSize is the number of consecutive replicates in a unit of work.
 const blockSize = 32
+
+// unitCells is the most cells a unit of work covers: cells that draw the
+// same datasets are run together, up to this many at a time, so that an
+// estimator they share is fitted once per dataset. It bounds a worker's
+// tallies and the time a checkpoint holds the lock on one unit's cells.
+const unitCells = 64
+
+// keepBudget bounds the bytes of kept replicates held back, when keeping
+// them, for blocks that finish before the blocks the file needs first (see
+// keepUnitCells).
+const keepBudget = 64 << 20
 
 // cellPlan is everything a worker needs to run one cell.
 type cellPlan struct {
 	cell       scenarios.Cell
 	gen        *scenarios.Generator
+	data       string // the generator's settings (Generator.AppendSettings)
+	dataKey    uint64 // DataKey of gen
 	ests       []estimators.Estimator
+	estKeys    []uint64 // EstimatorKey of each estimator's label
 	truth      []float64
 	ref        int // index of the reference estimator
 	replicates int
@@ -86,6 +110,120 @@ func (p *cellPlan) slopes() int { return len(p.truth) - p.firstSlope }
 // newTally returns an empty tally shaped for the cell.
 func (p *cellPlan) newTally() *cellTally {
 	return newCellTally(len(p.ests), len(p.truth), p.slopes())
+}
+
+// groupPlan is the cells one unit of work covers: cells with the same
+// data-generating settings (so the same datasets), in cell order, and the
+// distinct fits they need. A unit is one block of replicates of a group:
+// each replicate's dataset is drawn once, each distinct fit computed once,
+// and every cell records the fits of its estimators.
+type groupPlan struct {
+	cells     []int // the cells, ascending
+	gen       *scenarios.Generator
+	dataKey   uint64
+	fits      []fitPlan
+	use       [][]int // use[i][j] is the fit that gives estimator j of cells[i]
+	firstUnit int
+	blocks    int
+}
+
+// fitPlan is one distinct fit of a group.
+type fitPlan struct {
+	est   estimators.Estimator
+	key   uint64 // EstimatorKey of the label: the estimator's stream
+	label string
+	cell  int // the first cell that uses it, for messages
+}
+
+// fitIdentity is what makes two cells' estimators the same fit of the same
+// dataset: the label (which selects the estimator's random stream) and
+// every field of the adjusted estimator. A psi that cannot be compared, or
+// an estimator with a trace, gets an identity of its own.
+type fitIdentity struct {
+	label      string
+	method     estimators.Method
+	psi        any
+	scale      estimators.Scale
+	start      string // the bits of the given start, if any
+	startGiven bool
+	startFrom  estimators.Method
+	resampling estimators.Resampling
+	settings   estimators.Settings
+}
+
+// unshared marks an estimator that is fitted for its own cell only.
+type unshared struct{ cell, est int }
+
+func identityOf(label string, e *estimators.Estimator, cell, est int) fitIdentity {
+	id := fitIdentity{label: label, method: e.Method, psi: e.Psi, scale: e.Scale, startGiven: e.Start != nil,
+		startFrom: e.StartFrom, resampling: e.Resampling, settings: e.Settings}
+	if e.Start != nil {
+		b := make([]byte, 0, 8*len(e.Start))
+		for _, v := range e.Start {
+			b = binary.LittleEndian.AppendUint64(b, math.Float64bits(v))
+		}
+		id.start = string(b)
+	}
+	if e.Trace != nil || (e.Psi != nil && !reflect.ValueOf(e.Psi).Comparable()) {
+		id.psi = unshared{cell, est}
+	}
+	return id
+}
+
+// groupCells groups the cells that draw the same datasets, in the order of
+// their first cells, cut into groups of at most size cells, and finds the
+// fits each group shares.
+func groupCells(plans []cellPlan, size int) []groupPlan {
+	var order []string
+	members := map[string][]int{}
+	for i := range plans {
+		d := plans[i].data
+		if _, ok := members[d]; !ok {
+			order = append(order, d)
+		}
+		members[d] = append(members[d], i)
+	}
+	var groups []groupPlan
+	first := 0
+	for _, d := range order {
+		cells := members[d]
+		for len(cells) > 0 {
+			n := min(size, len(cells))
+			g := groupPlan{cells: cells[:n:n], gen: plans[cells[0]].gen, dataKey: plans[cells[0]].dataKey,
+				firstUnit: first, blocks: plans[cells[0]].blocks}
+			ids := map[fitIdentity]int{}
+			for _, c := range g.cells {
+				p := &plans[c]
+				use := make([]int, len(p.ests))
+				for j := range p.ests {
+					label := p.cell.Scenario.Estimators[j].Label
+					id := identityOf(label, &p.ests[j], c, j)
+					f, ok := ids[id]
+					if !ok {
+						f = len(g.fits)
+						ids[id] = f
+						g.fits = append(g.fits, fitPlan{est: p.ests[j], key: p.estKeys[j], label: label, cell: c})
+					}
+					use[j] = f
+				}
+				g.use = append(g.use, use)
+			}
+			groups = append(groups, g)
+			first += g.blocks
+			cells = cells[n:]
+		}
+	}
+	return groups
+}
+
+// keepUnitCells is the group size of a run that keeps its replicates. The
+// file holds the cells in order, so the blocks of a group's later cells
+// wait for its first cell to finish: about (size − 1) × replicates records.
+// The size is cut so that they fit keepBudget, however many replicates.
+func keepUnitCells(plans []cellPlan, reps int) int {
+	p := &plans[0]
+	perCell := float64(reps) * float64(len(p.ests)) * float64(1+10+8*len(p.truth))
+	return max(1, min(unitCells, 1+int(keepBudget/perCell)))
 }
 
 // Run runs every cell of the study and returns the results. If ctx is
@@ -116,6 +254,9 @@ func RunPartial(ctx context.Context, st *scenarios.Study, opt Options) (*results
 	if opt.Shards < 0 || (opt.Shards > 0 && (opt.Shard < 0 || opt.Shard >= opt.Shards)) {
 		return nil, nil, fmt.Errorf("shard %d of %d: want 0 ≤ shard < shards", opt.Shard, opt.Shards)
 	}
+	if opt.KeepReplicates != nil && (opt.Resume != nil || opt.Shards > 0) {
+		return nil, nil, errors.New("kept replicates cannot be combined with a resumed or sharded run")
+	}
 	plans, err := plan(st, reps)
 	if err != nil {
 		return nil, nil, err
@@ -127,30 +268,40 @@ func RunPartial(ctx context.Context, st *scenarios.Study, opt Options) (*results
 			}
 		}
 	}
-	state, err := newPartial(st, plans, seed, reps, opt)
+	// The units: blocks of replicates of groups of cells that draw the
+	// same datasets. A resumed run keeps the grouping of its checkpoint.
+	size := unitCells
+	if opt.unitCells > 0 {
+		size = opt.unitCells
+	}
+	switch {
+	case opt.Resume != nil:
+		if size = opt.Resume.UnitCells; size < 1 {
+			return nil, nil, fmt.Errorf("the checkpoint's units cover %d cells each; want at least 1", size)
+		}
+	case opt.KeepReplicates != nil:
+		size = keepUnitCells(plans, reps)
+	}
+	groups := groupCells(plans, size)
+	total := 0
+	for _, g := range groups {
+		total += g.blocks
+	}
+	state, err := newPartial(st, plans, total, size, seed, reps, opt)
 	if err != nil {
 		return nil, nil, err
 	}
 	var keep *orderedBlocks
 	if opt.KeepReplicates != nil {
-		if opt.Resume != nil || opt.Shards > 0 {
-			return nil, nil, errors.New("kept replicates cannot be combined with a resumed or sharded run")
-		}
 		if keep, err = newOrderedBlocks(opt.KeepReplicates, st, plans, seed, reps); err != nil {
 			return nil, nil, err
 		}
 	}
 	started := time.Now()
 
-	// Units are numbered cell by cell; unit u of cell c covers replicates
-	// [b·blockSize, min((b+1)·blockSize, reps)). This run takes the units
-	// not yet finished that belong to its shard.
-	var firstUnit []int
-	total := 0
-	for _, p := range plans {
-		firstUnit = append(firstUnit, total)
-		total += p.blocks
-	}
+	// Unit u of group g covers replicates [b·blockSize,
+	// min((b+1)·blockSize, reps)) of every cell of g, b = u − g.firstUnit.
+	// This run takes the units not yet finished that belong to its shard.
 	var todo []int
 	var todoReps int64
 	for u := 0; u < total; u++ {
@@ -158,9 +309,9 @@ func RunPartial(ctx context.Context, st *scenarios.Study, opt Options) (*results
 			continue
 		}
 		todo = append(todo, u)
-		ci := cellOf(firstUnit, u)
-		b := u - firstUnit[ci]
-		todoReps += int64(min((b+1)*blockSize, reps) - b*blockSize)
+		g := &groups[groupOf(groups, u)]
+		b := u - g.firstUnit
+		todoReps += int64(min((b+1)*blockSize, reps)-b*blockSize) * int64(len(g.cells))
 	}
 	var mu sync.Mutex // guards state
 	var next atomic.Int64
@@ -176,7 +327,7 @@ func RunPartial(ctx context.Context, st *scenarios.Study, opt Options) (*results
 		if opt.Checkpoint == nil {
 			return nil
 		}
-		return opt.Checkpoint(state.snapshot(&mu, firstUnit))
+		return opt.Checkpoint(state.snapshot(&mu, groups))
 	}
 	tickerDone := make(chan struct{})
 	var tickerWG sync.WaitGroup
@@ -212,14 +363,13 @@ func RunPartial(ctx context.Context, st *scenarios.Study, opt Options) (*results
 					return
 				}
 				u := todo[k]
-				ci := cellOf(firstUnit, u)
-				p := &plans[ci]
-				if wk == nil || wk.plan != p {
-					wk = newWorker(p, seed, ci)
+				g := &groups[groupOf(groups, u)]
+				if wk == nil || wk.group != g {
+					wk = newWorker(plans, g, seed)
 					wk.keep = keep != nil
 				}
-				b := u - firstUnit[ci]
-				lo, hi := b*blockSize, min((b+1)*blockSize, p.replicates)
+				b := u - g.firstUnit
+				lo, hi := b*blockSize, min((b+1)*blockSize, reps)
 				if !wk.runBlock(ctx, lo, hi) {
 					if wk.err != nil {
 						failOnce.Do(func() { failure = wk.err; stop() })
@@ -227,14 +377,18 @@ func RunPartial(ctx context.Context, st *scenarios.Study, opt Options) (*results
 					return
 				}
 				mu.Lock()
-				state.cells[ci].merge(wk.tally)
+				for i, c := range g.cells {
+					state.cells[c].merge(wk.tallies[i])
+				}
 				state.done.SetBit(state.done, u, 1)
 				mu.Unlock()
 				if keep != nil {
-					keep.put(u, wk.encodeBlock(ci, lo, hi))
+					for i, c := range g.cells {
+						keep.put(c*g.blocks+b, wk.encodeBlock(i, lo, hi))
+					}
 				}
 				if opt.Progress != nil {
-					opt.Progress(done.Add(int64(hi-lo)), todoReps)
+					opt.Progress(done.Add(int64(hi-lo)*int64(len(g.cells))), todoReps)
 				}
 			}
 		}()
@@ -283,12 +437,12 @@ func summariseAll(st *scenarios.Study, plans []cellPlan, tallies []*cellTally, s
 	return res
 }
 
-// cellOf returns the cell of unit u given the first unit of each cell.
-func cellOf(firstUnit []int, u int) int {
-	lo, hi := 0, len(firstUnit)-1
+// groupOf returns the group of unit u.
+func groupOf(groups []groupPlan, u int) int {
+	lo, hi := 0, len(groups)-1
 	for lo < hi {
 		mid := (lo + hi + 1) / 2
-		if firstUnit[mid] <= u {
+		if groups[mid].firstUnit <= u {
 			lo = mid
 		} else {
 			hi = mid - 1
@@ -297,15 +451,18 @@ func cellOf(firstUnit []int, u int) int {
 	return lo
 }
 
-// plan prepares every cell.
+// plan prepares every cell. Cells whose estimator is written the same way
+// share one built estimator (a custom psi is compiled once).
 func plan(st *scenarios.Study, reps int) ([]cellPlan, error) {
 	plans := make([]cellPlan, len(st.Cells))
+	built := map[string]estimators.Estimator{}
 	for i, c := range st.Cells {
 		g, err := scenarios.NewGenerator(c.Scenario)
 		if err != nil {
 			return nil, fmt.Errorf("cell %d: %w", i, err)
 		}
-		p := cellPlan{cell: c, gen: g, truth: g.Truth(), replicates: reps, blocks: (reps + blockSize - 1) / blockSize}
+		p := cellPlan{cell: c, gen: g, data: string(g.AppendSettings(nil)), dataKey: DataKey(g), truth: g.Truth(),
+			replicates: reps, blocks: (reps + blockSize - 1) / blockSize}
 		if !c.Scenario.Model.Intercept.None {
 			p.firstSlope = 1
 		}
@@ -316,11 +473,21 @@ func plan(st *scenarios.Study, reps int) ([]cellPlan, error) {
 			p.threshold = b.Threshold
 		}
 		for j, spec := range c.Scenario.Estimators {
-			e, err := spec.Build()
+			text, err := json.Marshal(spec)
 			if err != nil {
-				return nil, fmt.Errorf("cell %d: %w", i, err)
+				return nil, fmt.Errorf("cell %d: estimator %s: %w", i, spec.Label, err)
 			}
+			e, ok := built[string(text)]
+			if !ok {
+				if e, err = spec.Build(); err != nil {
+					return nil, fmt.Errorf("cell %d: %w", i, err)
+				}
+				built[string(text)] = e
+			}
+			// Each cell has its own copy, which Options.Adjust may change.
+			e.Start = slices.Clone(e.Start)
 			p.ests = append(p.ests, e)
+			p.estKeys = append(p.estKeys, EstimatorKey(spec.Label))
 			if spec.Label == c.Scenario.Reference {
 				p.ref = j
 			}
@@ -330,51 +497,72 @@ func plan(st *scenarios.Study, reps int) ([]cellPlan, error) {
 	return plans, nil
 }
 
-// worker holds one goroutine's buffers for one cell.
+// keptBlock holds one cell's kept replicates of the current block.
+type keptBlock struct {
+	status []uint8
+	iters  []int
+	coefs  []float64
+}
+
+// worker holds one goroutine's buffers for one group of cells.
 type worker struct {
-	plan    *cellPlan
+	plans   []cellPlan
+	group   *groupPlan
 	seed    uint64
-	cell    int
 	pcg     *rand.PCG
 	x       *mat.Dense
 	y       []float64
 	scratch *scenarios.Scratch
-	ws      []estimators.Workspace
-	res     []estimators.Result
-	se      []float64 // standard errors of one fit
-	tally   *cellTally
-	// Kept replicates of the current block, when keeping them.
-	keep       bool
-	keepStatus []uint8
-	keepIters  []int
-	keepCoefs  []float64
-	keepBuf    []byte
-	err        error // a fit failed in a way that is not a status
+	// Per distinct fit of the group: workspace, result, fitting time of
+	// the current replicate, and standard errors (seOK: computed).
+	ws    []estimators.Workspace
+	res   []estimators.Result
+	nanos []int64
+	se    [][]float64
+	seOK  []bool
+	// Per cell of the group: the block's tallies and kept replicates.
+	tallies []*cellTally
+	keep    bool
+	kept    []keptBlock
+	keepBuf []byte
+	err     error // a fit failed in a way that is not a status
 }
 
-func newWorker(p *cellPlan, seed uint64, cell int) *worker {
-	n, k := p.gen.Dims()
-	return &worker{
-		plan:    p,
+func newWorker(plans []cellPlan, g *groupPlan, seed uint64) *worker {
+	n, k := g.gen.Dims()
+	w := &worker{
+		plans:   plans,
+		group:   g,
 		seed:    seed,
-		cell:    cell,
 		pcg:     rand.NewPCG(0, 0),
 		x:       mat.NewDense(n, k, nil),
 		y:       make([]float64, n),
-		scratch: p.gen.NewScratch(),
-		ws:      make([]estimators.Workspace, len(p.ests)),
-		res:     make([]estimators.Result, len(p.ests)),
-		se:      make([]float64, k),
-		tally:   p.newTally(),
+		scratch: g.gen.NewScratch(),
+		ws:      make([]estimators.Workspace, len(g.fits)),
+		res:     make([]estimators.Result, len(g.fits)),
+		nanos:   make([]int64, len(g.fits)),
+		se:      make([][]float64, len(g.fits)),
+		seOK:    make([]bool, len(g.fits)),
+		kept:    make([]keptBlock, len(g.cells)),
 	}
+	for f := range w.se {
+		w.se[f] = make([]float64, k)
+	}
+	for _, c := range g.cells {
+		w.tallies = append(w.tallies, plans[c].newTally())
+	}
+	return w
 }
 
-// runBlock runs replicates [lo, hi) into w.tally (reset first). It reports
-// false if ctx was cancelled before the block finished; the partial block
-// is then discarded.
+// runBlock runs replicates [lo, hi) of every cell of the group into
+// w.tallies (reset first). It reports false if ctx was cancelled before
+// the block finished; the partial block is then discarded.
 func (w *worker) runBlock(ctx context.Context, lo, hi int) bool {
-	w.tally.reset()
-	w.keepStatus, w.keepIters, w.keepCoefs = w.keepStatus[:0], w.keepIters[:0], w.keepCoefs[:0]
+	for i, t := range w.tallies {
+		t.reset()
+		k := &w.kept[i]
+		k.status, k.iters, k.coefs = k.status[:0], k.iters[:0], k.coefs[:0]
+	}
 	for r := lo; r < hi; r++ {
 		if ctx.Err() != nil {
 			return false
@@ -387,56 +575,76 @@ func (w *worker) runBlock(ctx context.Context, lo, hi int) bool {
 	return true
 }
 
-// replicate draws replicate r's dataset and fits every estimator to it.
+// replicate draws replicate r's dataset, computes each distinct fit of the
+// group once, and records in every cell the fits of its estimators.
 func (w *worker) replicate(r int) {
-	p := w.plan
-	w.pcg.Seed(ReplicateStream(w.seed, w.cell, r))
-	p.gen.Draw(w.pcg, w.x, w.y, w.scratch)
-	for i := range p.ests {
+	g := w.group
+	w.pcg.Seed(ReplicateStream(w.seed, g.dataKey, r))
+	g.gen.Draw(w.pcg, w.x, w.y, w.scratch)
+	for f := range g.fits {
+		fp := &g.fits[f]
 		// Each estimator's own randomness (elemental subsets) comes from a
 		// stream of its own for this replicate.
-		w.ws[i].SeedRandom(EstimatorStream(w.seed, w.cell, r, i))
+		w.ws[f].SeedRandom(EstimatorStream(w.seed, g.dataKey, r, fp.key))
 		t0 := time.Now()
-		if err := p.ests[i].Fit(w.x, w.y, &w.ws[i], &w.res[i]); err != nil {
+		if err := fp.est.Fit(w.x, w.y, &w.ws[f], &w.res[f]); err != nil {
 			if !errors.Is(err, estimators.ErrNonFinite) {
 				// Shapes and settings were validated, so this is a bug;
 				// stop the run and report it rather than guess.
-				w.err = fmt.Errorf("cell %d replicate %d, estimator %s: %w", w.cell, r, p.cell.Scenario.Estimators[i].Label, err)
+				w.err = fmt.Errorf("cell %d replicate %d, estimator %s: %w", fp.cell, r, fp.label, err)
 				return
 			}
 			// The model drew a value beyond float64 (an extreme draw of
 			// a heavy-tailed distribution): the dataset cannot be fitted,
 			// and Fit left res as a NonFinite outcome with NaN estimates.
 		}
-		w.tally.ests[i].nanos += int64(time.Since(t0))
-		w.tally.ests[i].record(&w.res[i])
+		w.nanos[f] = int64(time.Since(t0))
+		res := &w.res[f]
+		w.seOK[f] = res.Status.Converged() && w.ws[f].StandardErrors(fp.est, w.x, res, w.se[f])
+	}
+	for i, c := range g.cells {
+		w.record(&w.plans[c], w.tallies[i], g.use[i], &w.kept[i])
+	}
+}
+
+// record adds one replicate's fits to a cell's tally: estimator j's fit is
+// w.res[use[j]].
+func (w *worker) record(p *cellPlan, t *cellTally, use []int, kept *keptBlock) {
+	for j := range p.ests {
+		f := use[j]
+		res := &w.res[f]
+		// A shared fit counts its time in every cell it serves, so that
+		// seconds per fit stays the cost of one fit of the estimator.
+		t.ests[j].nanos += w.nanos[f]
+		t.ests[j].record(res)
 		if w.keep {
-			w.keepStatus = append(w.keepStatus, uint8(w.res[i].Status))
-			w.keepIters = append(w.keepIters, w.res[i].Iterations)
-			w.keepCoefs = append(w.keepCoefs, w.res[i].Coefficients...)
+			kept.status = append(kept.status, uint8(res.Status))
+			kept.iters = append(kept.iters, res.Iterations)
+			kept.coefs = append(kept.coefs, res.Coefficients...)
 		}
 	}
-	w.tally.replicates++
-	ref := &w.res[p.ref]
+	t.replicates++
+	ref := &w.res[use[p.ref]]
 	refOK := ref.Status.Converged()
-	for i := range p.ests {
-		res := &w.res[i]
+	for j := range p.ests {
+		f := use[j]
+		res := &w.res[f]
 		if !res.Status.Converged() {
 			// A fit that fails is counted as broken down.
 			if p.threshold > 0 {
-				w.tally.ests[i].past++
+				t.ests[j].past++
 			}
 			continue
 		}
-		et := &w.tally.ests[i]
+		et := &t.ests[j]
 		var norm2 float64
-		for j, b := range res.Coefficients {
-			e := b - p.truth[j]
-			et.coefs[j].add(e)
+		for k, b := range res.Coefficients {
+			e := b - p.truth[k]
+			et.coefs[k].add(e)
 			if refOK {
-				et.coefs[j].addPair(e, ref.Coefficients[j]-p.truth[j])
+				et.coefs[k].addPair(e, ref.Coefficients[k]-p.truth[k])
 			}
-			if j >= p.firstSlope {
+			if k >= p.firstSlope {
 				norm2 += e * e
 			}
 		}
@@ -453,27 +661,30 @@ func (w *worker) replicate(r int) {
 		if p.threshold > 0 && norm2 > p.threshold*p.threshold {
 			et.past++
 		}
-		if w.ws[i].StandardErrors(p.ests[i], w.x, res, w.se) {
+		if w.seOK[f] {
 			q := p.zq
-			if p.ests[i].Method == estimators.MethodLS {
+			if p.ests[j].Method == estimators.MethodLS {
 				q = p.tq
 			}
-			for j, b := range res.Coefficients {
-				half := q * w.se[j]
-				et.coefs[j].addInterval(2*half, math.Abs(b-p.truth[j]) <= half)
+			for k, b := range res.Coefficients {
+				half := q * w.se[f][k]
+				et.coefs[k].addInterval(2*half, math.Abs(b-p.truth[k]) <= half)
 			}
 		}
 	}
 }
 
-// encodeBlock encodes the kept replicates of the block [lo, hi) of cell.
-func (w *worker) encodeBlock(cell, lo, hi int) []byte {
-	w.keepBuf = results.EncodeBlock(w.keepBuf[:0], cell, lo, hi-lo, w.keepStatus, w.keepIters, w.keepCoefs, len(w.plan.truth))
+// encodeBlock encodes the kept replicates [lo, hi) of the group's cell i.
+func (w *worker) encodeBlock(i, lo, hi int) []byte {
+	c := w.group.cells[i]
+	k := &w.kept[i]
+	w.keepBuf = results.EncodeBlock(w.keepBuf[:0], c, lo, hi-lo, k.status, k.iters, k.coefs, len(w.plans[c].truth))
 	return append([]byte(nil), w.keepBuf...)
 }
 
-// orderedBlocks writes encoded blocks to a replicate file in unit order,
-// holding back blocks that finish early.
+// orderedBlocks writes encoded blocks to a replicate file in cell order and
+// within a cell in replicate order, holding back blocks that finish early.
+// Block b of cell c is number c·blocks + b in that order.
 type orderedBlocks struct {
 	mu      sync.Mutex
 	w       *results.ReplicateWriter
@@ -502,11 +713,11 @@ func newOrderedBlocks(dst io.Writer, st *scenarios.Study, plans []cellPlan, seed
 	return &orderedBlocks{w: rw, pending: map[int][]byte{}}, nil
 }
 
-// put hands over unit u's block.
-func (o *orderedBlocks) put(u int, block []byte) {
+// put hands over block number q.
+func (o *orderedBlocks) put(q int, block []byte) {
 	o.mu.Lock()
 	defer o.mu.Unlock()
-	o.pending[u] = block
+	o.pending[q] = block
 	for {
 		b, ok := o.pending[o.next]
 		if !ok {
@@ -520,8 +731,8 @@ func (o *orderedBlocks) put(u int, block []byte) {
 	}
 }
 
-// close writes any blocks left behind a unit that never finished (an
-// interrupted run), in unit order, and finishes the file.
+// close writes any blocks left behind a block that never finished (an
+// interrupted run), in order, and finishes the file.
 func (o *orderedBlocks) close() error {
 	o.mu.Lock()
 	defer o.mu.Unlock()

@@ -136,6 +136,12 @@ func Parse(file string, data []byte, limits Limits) (*Study, error) {
 		return nil, err
 	}
 	base.fillDefaults(d, defaultName)
+	// Names with dots would make sweep paths ambiguous; say so before any
+	// sweep path is read through them.
+	base.refuseDottedNames(checker{d})
+	if err := e.err(); err != nil {
+		return nil, err
+	}
 
 	// Size of the sweep grid.
 	cells := 1

@@ -25,6 +25,28 @@ var namePattern = regexp.MustCompile(`^[A-Za-z0-9_][A-Za-z0-9_-]*$`)
 // scenarioNamePattern also allows dots (but not a leading dot).
 var scenarioNamePattern = regexp.MustCompile(`^[A-Za-z0-9_][A-Za-z0-9._-]*$`)
 
+// refuseDottedNames refuses column names and labels that contain a dot:
+// in a sweep path such as estimators.huber.v2.tuning the dots separate
+// the path's parts, so a name with a dot could not be told apart from a
+// name followed by a field.
+func (s *Scenario) refuseDottedNames(c checker) {
+	refuse := func(path, what, name string) {
+		if strings.Contains(name, ".") {
+			c.fail(path, "%q contains a dot, but dots separate the parts of sweep paths (such as estimators.LABEL.tuning), so %s cannot contain one; rename it, for example to %q, and write that name in any sweep path",
+				name, what, strings.ReplaceAll(name, ".", "-"))
+		}
+	}
+	for i, col := range s.Model.Columns {
+		refuse(fmt.Sprintf("model.columns[%d].name", i), "column names", col.Name)
+	}
+	for i, ct := range s.Contamination {
+		refuse(fmt.Sprintf("contamination[%d].label", i), "labels", ct.Label)
+	}
+	for i, e := range s.Estimators {
+		refuse(fmt.Sprintf("estimators[%d].label", i), "labels", e.Label)
+	}
+}
+
 // Coefficients returns the number of coefficients of the model, counting
 // the intercept.
 func (s *Scenario) Coefficients() int {

@@ -69,7 +69,7 @@ func breakdownCmd(e env, args []string) error {
 		if *rep < 0 {
 			return usagef("--replicate must be ≥ 0")
 		}
-		if x, y, err = replicateData(sc, runSeed.or(st.Base.Seed), *cell, *rep); err != nil {
+		if x, y, _, err = replicateData(sc, runSeed.or(st.Base.Seed), *rep); err != nil {
 			return err
 		}
 	}

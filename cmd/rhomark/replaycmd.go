@@ -82,7 +82,7 @@ func replayCmd(e env, args []string) error {
 		// at its own replicate count fitted it; say so, then go on.
 		fmt.Fprintf(e.stderr, "rhomark replay: note: replicate %d is beyond the scenario's %d replicates (0 to %d); a run with --replicates larger than %d would have fitted it\n", *rep, sc.Replicates, sc.Replicates-1, *rep)
 	}
-	x, y, err := replicateData(sc, seed, *cell, *rep)
+	x, y, dataKey, err := replicateData(sc, seed, *rep)
 	if err != nil {
 		return err
 	}
@@ -106,7 +106,7 @@ func replayCmd(e env, args []string) error {
 		}
 	}
 	var fits []replayFit
-	for i, spec := range sc.Estimators {
+	for _, spec := range sc.Estimators {
 		if *label != "" && spec.Label != *label {
 			continue
 		}
@@ -123,7 +123,7 @@ func replayCmd(e env, args []string) error {
 		var ws estimators.Workspace
 		var res estimators.Result
 		// The same stream the run gave this estimator for this replicate.
-		ws.SeedRandom(harness.EstimatorStream(seed, *cell, *rep, i))
+		ws.SeedRandom(harness.EstimatorStream(seed, dataKey, *rep, harness.EstimatorKey(spec.Label)))
 		if err := est.Fit(x, y, &ws, &res); err != nil && !errors.Is(err, estimators.ErrNonFinite) {
 			return fmt.Errorf("estimator %s: %w", spec.Label, err)
 		} // an overflowed dataset is a NonFinite outcome, as in the run
@@ -171,17 +171,19 @@ func replayCmd(e env, args []string) error {
 	return nil
 }
 
-// replicateData regenerates the dataset of replicate rep of a cell, from
-// the same stream the run drew it from.
-func replicateData(sc *scenarios.Scenario, seed uint64, cell, rep int) (*mat.Dense, []float64, error) {
+// replicateData regenerates the dataset of replicate rep of a cell whose
+// scenario is sc, from the same stream the run drew it from, and returns
+// the cell's data key (for the estimators' streams).
+func replicateData(sc *scenarios.Scenario, seed uint64, rep int) (*mat.Dense, []float64, uint64, error) {
 	g, err := scenarios.NewGenerator(sc)
 	if err != nil {
-		return nil, nil, err
+		return nil, nil, 0, err
 	}
 	n, p := g.Dims()
 	x, y := mat.NewDense(n, p, nil), make([]float64, n)
-	g.Draw(rand.NewPCG(harness.ReplicateStream(seed, cell, rep)), x, y, g.NewScratch())
-	return x, y, nil
+	key := harness.DataKey(g)
+	g.Draw(rand.NewPCG(harness.ReplicateStream(seed, key, rep)), x, y, g.NewScratch())
+	return x, y, key, nil
 }
 
 // coefText formats named coefficients on one line.
