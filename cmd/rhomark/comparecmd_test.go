@@ -40,7 +40,7 @@ func TestCompareSolverChange(t *testing.T) {
 	dir := t.TempDir()
 	base, cand := filepath.Join(dir, "base"), filepath.Join(dir, "cand")
 	const bisquare = "    psi: bisquare\n    tuning: 4.685\n"
-	cut := benchCopy(t, cand, bisquare, bisquare+"    stop: {max-iter: 20}\n")
+	cut := benchCopy(t, cand, bisquare, bisquare+"    stop: {max-iter: 15}\n")
 	for _, r := range [][]string{{"flow-meter", base}, {cut, cand}} {
 		if code, _, errs := rhomark(t, "run", r[0], "--replicates", "64", "--keep-replicates", "--out", r[1]); code != exitOK {
 			t.Fatal(errs)
@@ -50,7 +50,7 @@ func TestCompareSolverChange(t *testing.T) {
 	if code != exitFailure {
 		t.Fatalf("cap cut: exit %d, want 1 (flagged)\n%s%s", code, out, errs)
 	}
-	for _, want := range []string{"paired:", "estimators.bisquare.stop.max_iter: 100 → 20", "result: CHANGED: MORE FAILURES (bisquare",
+	for _, want := range []string{"paired:", "estimators.bisquare.stop.max_iter: 100 → 15", "result: CHANGED: MORE FAILURES (bisquare",
 		"cell  replicate  estimator  baseline → candidate status", "converged-change → iteration-limit",
 		"replay the first: rhomark replay " + cut, "the largest |z| had to pass"} {
 		if !strings.Contains(out, want) {
@@ -77,7 +77,7 @@ func TestCompareSolverChange(t *testing.T) {
 		t.Errorf("JSON comparison: paired %+v, rises %+v, baseline %+v, replay %q", *c.Paired, c.FailureRises(), c.Baseline, c.Replay)
 	}
 	for _, s := range c.Paired.StatusChanges {
-		if !strings.Contains(out, s.Candidate) || s.Estimator != "bisquare" || s.CandidateIterations != 20 {
+		if !strings.Contains(out, s.Candidate) || s.Estimator != "bisquare" || s.CandidateIterations != 15 {
 			t.Errorf("status change %+v", s)
 		}
 	}
