@@ -110,8 +110,8 @@ func TestCancel(t *testing.T) {
 	st := parse(t, efficiencyScenario)
 	ctx, cancel := context.WithCancel(context.Background())
 	var once bool
-	res, err := Run(ctx, st, Options{Workers: 2, Replicates: 100000, Progress: func(done, total int64) {
-		if done >= 200 && !once {
+	res, err := Run(ctx, st, Options{Workers: 2, Replicates: 100000, Progress: func(r ProgressReport) {
+		if r.Done >= 200 && !once {
 			once = true
 			cancel()
 		}

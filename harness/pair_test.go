@@ -9,6 +9,7 @@ import (
 	"math/rand/v2"
 	"reflect"
 	"slices"
+	"sync"
 	"testing"
 
 	"gonum.org/v1/gonum/mat"
@@ -247,8 +248,8 @@ func TestPairedShardsAndResume(t *testing.T) {
 	ctx, cancel := context.WithCancel(context.Background())
 	var last *Partial
 	_, _, err = RunPartial(ctx, st, Options{Replicates: reps, Workers: 2,
-		Progress: func(done, total int64) {
-			if done > total/3 {
+		Progress: func(r ProgressReport) {
+			if r.Done > r.Total/3 {
 				cancel()
 			}
 		},
@@ -310,8 +311,8 @@ func TestResumeKeepsGroupSize(t *testing.T) {
 	ctx, cancel := context.WithCancel(context.Background())
 	var last *Partial
 	_, _, err = RunPartial(ctx, st, Options{Replicates: reps, Workers: 2, unitCells: 4,
-		Progress: func(done, total int64) {
-			if done > total/2 {
+		Progress: func(r ProgressReport) {
+			if r.Done > r.Total/2 {
 				cancel()
 			}
 		},
@@ -365,5 +366,44 @@ func TestKeepUnitCellsBounded(t *testing.T) {
 	}
 	if keepUnitCells(plans, 16) != unitCells || keepUnitCells(plans, 10_000_000) != 1 {
 		t.Errorf("sizes %d and %d at the extremes", keepUnitCells(plans, 16), keepUnitCells(plans, 10_000_000))
+	}
+}
+
+// TestProgressReportsCells: every cell appears in some progress report,
+// each report's cells are increasing, cells that share their datasets are
+// reported together, and the last report counts every replicate fit.
+func TestProgressReportsCells(t *testing.T) {
+	st, err := scenarios.LoadLibrary("tuning-huber")
+	if err != nil {
+		t.Fatal(err)
+	}
+	const reps = 40
+	seen := map[int]bool{}
+	var last ProgressReport
+	var mu sync.Mutex
+	_, err = Run(context.Background(), st, Options{Replicates: reps, Workers: 2, Progress: func(r ProgressReport) {
+		mu.Lock()
+		defer mu.Unlock()
+		if !slices.IsSorted(r.Cells) || len(r.Cells) == 0 {
+			t.Errorf("cells %v", r.Cells)
+		}
+		for _, c := range r.Cells {
+			seen[c] = true
+		}
+		if len(r.Cells) < 2 {
+			t.Errorf("tuning-huber's cells of one fraction share datasets, but a unit covered only %v", r.Cells)
+		}
+		if r.Done > last.Done {
+			last = r
+		}
+	}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(seen) != len(st.Cells) {
+		t.Errorf("reports named %d of %d cells", len(seen), len(st.Cells))
+	}
+	if want := int64(reps * len(st.Cells)); last.Done != want || last.Total != want {
+		t.Errorf("last report %d of %d, want %d", last.Done, last.Total, want)
 	}
 }

@@ -25,6 +25,16 @@ import (
 	"github.com/rhomark/rhomark/scenarios"
 )
 
+// ProgressReport is what Options.Progress is told after a unit of work.
+type ProgressReport struct {
+	// Done and Total count replicate fits of cells: a replicate of a unit
+	// that serves k cells (cells that share their datasets) counts k.
+	Done, Total int64
+	// Cells are the cells of the unit just finished, in increasing order.
+	// The slice belongs to the harness: read it, do not keep or change it.
+	Cells []int
+}
+
 // Options control a run. The zero value runs the scenario as written on
 // every core.
 type Options struct {
@@ -35,9 +45,10 @@ type Options struct {
 	Replicates int
 	// Seed, if not nil, replaces the scenario's seed.
 	Seed *uint64
-	// Progress, if not nil, is called from time to time with the replicates
-	// finished and the total. It must be safe for concurrent use.
-	Progress func(done, total int64)
+	// Progress, if not nil, is called after every unit of work with the
+	// replicates finished, the total, and the cells the unit covered. It
+	// must be safe for concurrent use.
+	Progress func(ProgressReport)
 	// Tool names the program for the results' provenance.
 	Tool results.Tool
 	// Build identifies the build doing the work, recorded in its Partial
@@ -388,7 +399,7 @@ func RunPartial(ctx context.Context, st *scenarios.Study, opt Options) (*results
 					}
 				}
 				if opt.Progress != nil {
-					opt.Progress(done.Add(int64(hi-lo)*int64(len(g.cells))), todoReps)
+					opt.Progress(ProgressReport{Done: done.Add(int64(hi-lo) * int64(len(g.cells))), Total: todoReps, Cells: g.cells})
 				}
 			}
 		}()

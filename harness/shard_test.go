@@ -120,8 +120,8 @@ func TestResumeGivesSameResults(t *testing.T) {
 	ctx, cancel := context.WithCancel(context.Background())
 	var last *Partial
 	_, _, err = RunPartial(ctx, st, Options{Replicates: 200, Workers: 2,
-		Progress: func(done, total int64) {
-			if done > 60 {
+		Progress: func(r ProgressReport) {
+			if r.Done > 60 {
 				cancel()
 			}
 		},

@@ -26,7 +26,7 @@ func writeCheckpoint(t *testing.T, st *scenarios.Study, path, build string) *har
 	defer cancel()
 	_, p, err := harness.RunPartial(ctx, st, harness.Options{Replicates: 200, Workers: 1, Build: build,
 		Tool:     results.Tool{Name: "rhomark", Version: toolVersion()},
-		Progress: func(done, total int64) { cancel() }})
+		Progress: func(harness.ProgressReport) { cancel() }})
 	if !errors.Is(err, context.Canceled) || p.Complete() {
 		t.Fatalf("the run was not stopped part-way: %v", err)
 	}

@@ -2,19 +2,14 @@ package main
 
 import (
 	"bytes"
-	"context"
 	"io"
 	"os"
 	"os/exec"
 	"path/filepath"
 	"regexp"
 	"runtime/debug"
-	"slices"
 	"strings"
 	"testing"
-
-	"github.com/rhomark/rhomark/harness"
-	"github.com/rhomark/rhomark/scenarios"
 )
 
 // TestCheckPsiRoundsNumbers: check-psi's findings show numbers to six
@@ -208,41 +203,26 @@ func TestReplayJSONWritesNoCSV(t *testing.T) {
 	}
 }
 
-// TestProgressCellOrder: the progress bar's map from finished replicates to
-// cells agrees with the harness's order of work, for a whole run and for a
-// shard (whose units depend on the harness's block of 32 replicates): with
-// one worker, the finished count passes through the end of every cell.
-func TestProgressCellOrder(t *testing.T) {
-	st, err := scenarios.LoadLibrary("flow-meter")
-	if err != nil {
-		t.Fatal(err)
-	}
-	const reps = 40
-	for _, sh := range []struct{ shard, shards int }{{0, 0}, {1, 3}, {0, 2}} {
-		order := newCellOrder(len(st.Cells), reps, sh.shard, sh.shards)
-		var dones []int64
-		_, _, err := harness.RunPartial(context.Background(), st, harness.Options{Replicates: reps, Workers: 1,
-			Shard: sh.shard, Shards: sh.shards, Progress: func(done, total int64) { dones = append(dones, done) }})
-		if err != nil {
-			t.Fatal(err)
-		}
-		for c, end := range order.ends {
-			if c > 0 && end == order.ends[c-1] {
-				continue // the shard has no work in cell c
-			}
-			if !slices.Contains(dones, end) {
-				t.Errorf("shard %d/%d: cell %d ends after %d replicates, but the run reported %v", sh.shard, sh.shards, c, end, dones)
-			}
-		}
-		if last := dones[len(dones)-1]; last != order.ends[len(order.ends)-1] {
-			t.Errorf("shard %d/%d: the run finished %d replicates, the order counts %d", sh.shard, sh.shards, last, order.ends[len(order.ends)-1])
-		}
-		if got := order.cellAt(0); got != 0 && sh.shards == 0 {
-			t.Errorf("cellAt(0) = %d", got)
+// TestProgressDescribesCells: the bar names the cells of the unit the
+// harness last finished, one or (when cells share their datasets) several.
+func TestProgressDescribesCells(t *testing.T) {
+	p := &progress{label: "tuning-huber", cells: 16}
+	for _, tc := range []struct {
+		cells []int
+		want  string
+	}{
+		{nil, "tuning-huber"},
+		{[]int{3}, "tuning-huber · cell 3 (cells 0–15)"},
+		{[]int{1, 3}, "tuning-huber · cells 1, 3 (cells 0–15)"},
+		{[]int{0, 2, 4, 6, 8}, "tuning-huber · cells 0, 2, 4, … (cells 0–15)"},
+	} {
+		if got := p.describe(tc.cells); got != tc.want {
+			t.Errorf("describe(%v) = %q, want %q", tc.cells, got, tc.want)
 		}
 	}
-	if (cellOrder{}).cellAt(5) != -1 {
-		t.Error("an empty order names a cell")
+	one := &progress{label: "clean", cells: 1}
+	if got := one.describe([]int{0}); got != "clean" {
+		t.Errorf("a one-cell run: %q", got)
 	}
 }
 

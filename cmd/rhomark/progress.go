@@ -4,94 +4,67 @@ import (
 	"fmt"
 	"io"
 	"os"
+	"strconv"
+	"strings"
 	"sync"
 	"time"
 
 	"github.com/schollz/progressbar/v3"
 	"golang.org/x/term"
+
+	"github.com/rhomark/rhomark/harness"
 )
 
 // progress draws a progress bar of replicates on stderr while a run goes
-// on: the cell the run has reached, replicates done, rate and time left.
-// It draws only when stderr is a terminal and the user did not ask for
-// quiet, so logs, pipes and machine-readable output on stdout never see it.
+// on: the cells the run is working on, replicates done, rate and time
+// left. It draws only when stderr is a terminal and the user did not ask
+// for quiet, so logs, pipes and machine-readable output on stdout never
+// see it.
 type progress struct {
 	mu    sync.Mutex
 	bar   *progressbar.ProgressBar
 	last  int64
 	label string
-	order cellOrder
-	cell  int // the cell the description shows, -1 before the first
+	cells int    // the run's number of cells
+	where string // the cells the description shows
 }
 
-// unitReplicates is the size of the harness's unit of work: a block of this
-// many consecutive replicates of one cell (DEVELOPERS.md, "A run"). The
-// units of a run are taken in cell order, so the count of finished
-// replicates tells which cell the run has reached.
-const unitReplicates = 32
-
-// cellOrder maps the replicates a run has finished to the cell it has
-// reached: ends[c] is the number of the run's replicates in cells 0 to c.
-type cellOrder struct {
-	ends []int64
-}
-
-// newCellOrder returns the order of a run of cells cells with reps
-// replicates each, or of shard shard of shards when shards > 0 (a shard
-// takes the units u with u mod shards = shard, units numbered over the
-// whole run in cell order).
-func newCellOrder(cells, reps, shard, shards int) cellOrder {
-	blocks := (reps + unitReplicates - 1) / unitReplicates
-	var o cellOrder
-	var sum int64
-	for c := range cells {
-		for b := range blocks {
-			u := c*blocks + b
-			if shards > 0 && u%shards != shard {
-				continue
-			}
-			sum += int64(min((b+1)*unitReplicates, reps) - b*unitReplicates)
-		}
-		o.ends = append(o.ends, sum)
-	}
-	return o
-}
-
-// cellAt returns the cell the run has reached when done replicates are
-// finished: the cell of the next replicate to finish (the last cell once
-// all are), or -1 when the order is unknown.
-func (o cellOrder) cellAt(done int64) int {
-	if len(o.ends) == 0 {
-		return -1
-	}
-	for c, end := range o.ends {
-		if done < end {
-			return c
-		}
-	}
-	return len(o.ends) - 1
-}
-
-// describe returns the bar's description at cell c.
-func (p *progress) describe(c int) string {
-	if c < 0 {
+// describe returns the bar's description for the cells of the unit last
+// finished: "cell 3" or, for cells that share their datasets (and so one
+// unit of work), "cells 1, 3, 5" (at most three named).
+func (p *progress) describe(cells []int) string {
+	if len(cells) == 0 || p.cells < 2 {
 		return p.label
 	}
-	return fmt.Sprintf("%s · cell %d (cells 0–%d)", p.label, c, len(p.order.ends)-1)
+	var b strings.Builder
+	if len(cells) == 1 {
+		fmt.Fprintf(&b, "cell %d", cells[0])
+	} else {
+		b.WriteString("cells ")
+		for i, c := range cells[:min(3, len(cells))] {
+			if i > 0 {
+				b.WriteString(", ")
+			}
+			b.WriteString(strconv.Itoa(c))
+		}
+		if len(cells) > 3 {
+			b.WriteString(", …")
+		}
+	}
+	return fmt.Sprintf("%s · %s (cells 0–%d)", p.label, b.String(), p.cells-1)
 }
 
-// newProgress returns a progress bar for a run, or nil when none should be
-// drawn. order places the run's replicates in its cells; an empty order
-// (a resumed run, whose remaining work is not known here) shows no cell.
-func newProgress(stderr io.Writer, quiet bool, label string, order cellOrder) *progress {
+// newProgress returns a progress bar for a run of cells cells, or nil when
+// none should be drawn.
+func newProgress(stderr io.Writer, quiet bool, label string, cells int) *progress {
 	f, ok := stderr.(*os.File)
 	if quiet || !ok || !term.IsTerminal(int(f.Fd())) {
 		return nil
 	}
-	p := &progress{label: label, order: order, cell: order.cellAt(0)}
+	p := &progress{label: label, cells: cells}
 	p.bar = progressbar.NewOptions64(-1,
 		progressbar.OptionSetWriter(f),
-		progressbar.OptionSetDescription(p.describe(p.cell)),
+		progressbar.OptionSetDescription(p.describe(nil)),
 		progressbar.OptionShowCount(),
 		progressbar.OptionShowIts(),
 		progressbar.OptionSetItsString("replicates"),
@@ -105,19 +78,19 @@ func newProgress(stderr io.Writer, quiet bool, label string, order cellOrder) *p
 
 // update is the harness's progress callback; it is safe for concurrent use
 // and ignores reports that arrive out of order.
-func (p *progress) update(done, total int64) {
+func (p *progress) update(r harness.ProgressReport) {
 	p.mu.Lock()
 	defer p.mu.Unlock()
-	if p.bar.GetMax64() != total {
-		p.bar.ChangeMax64(total)
+	if p.bar.GetMax64() != r.Total {
+		p.bar.ChangeMax64(r.Total)
 	}
-	if done > p.last {
-		p.last = done
-		if c := p.order.cellAt(done); c != p.cell {
-			p.cell = c
-			p.bar.Describe(p.describe(c))
+	if r.Done > p.last {
+		p.last = r.Done
+		if d := p.describe(r.Cells); d != p.where {
+			p.where = d
+			p.bar.Describe(d)
 		}
-		p.bar.Set64(done)
+		p.bar.Set64(r.Done)
 	}
 }
 

@@ -157,15 +157,7 @@ func runCmd(e env, args []string) error {
 	}
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
 	defer stop()
-	var order cellOrder
-	if opt.Resume == nil {
-		reps := st.Base.Replicates
-		if opt.Replicates > 0 {
-			reps = opt.Replicates
-		}
-		order = newCellOrder(len(st.Cells), reps, opt.Shard, opt.Shards)
-	}
-	bar := newProgress(e.stderr, *quiet, st.Base.Name, order)
+	bar := newProgress(e.stderr, *quiet, st.Base.Name, len(st.Cells))
 	if bar != nil {
 		opt.Progress = bar.update
 	}
