@@ -36,6 +36,15 @@ func (ws *Workspace) evaluateHuber(h Huber, sigma float64) (csum float64) {
 
 // evaluateBisquare is evaluateAny for the bisquare psi and IRLS weights.
 func (ws *Workspace) evaluateBisquare(b Bisquare, sigma float64) (csum float64) {
+	return ws.evaluateBisquareAs(b, sigma, false)
+}
+
+// evaluateBisquareAs is evaluateAny for the bisquare, without the
+// interface calls (and the boxing of psi) of the general loop: it sets
+// ws.psi to psi(u_i) and ws.c to the IRLS weight (1 − v²)² or, when deriv
+// is set, to Newton's psi'(u_i) = (1 − v²)(1 − 5v²), v = u/c, and returns
+// the sum of |c_i|.
+func (ws *Workspace) evaluateBisquareAs(b Bisquare, sigma float64, deriv bool) (csum float64) {
 	r := ws.r
 	c, ps := ws.c[:len(r)], ws.psi[:len(r)]
 	cc := b.C
@@ -50,14 +59,18 @@ func (ws *Workspace) evaluateBisquare(b Bisquare, sigma float64) (csum float64) 
 			continue
 		}
 		v := u / cc
-		t := 1 - v*v
+		v2 := v * v
+		t := 1 - v2
 		w := t * t
+		if deriv {
+			w = t * (1 - 5*v2)
+		}
 		ps[i], c[i] = u*t*t, w
 		if w != 1 {
 			offs[off] = i
 			off++
 		}
-		csum += w
+		csum += math.Abs(w)
 	}
 	ws.nOff = off
 	return csum

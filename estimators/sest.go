@@ -126,7 +126,7 @@ func (ws *Workspace) iStep(psi Bisquare, x blas64.General, y, beta []float64, s 
 // reports false, leaving beta unchanged, when psi' gives no positive
 // definite matrix; the caller checks that the step lowers the scale.
 func (ws *Workspace) sNewtonStep(psi Bisquare, x blas64.General, y, beta []float64, s float64) bool {
-	if ws.evaluateBisquareDeriv(psi, s) == 0 {
+	if ws.evaluateBisquareAs(psi, s, true) == 0 {
 		return false
 	}
 	ws.psiSums(x)
@@ -144,37 +144,6 @@ func (ws *Workspace) sNewtonStep(psi Bisquare, x blas64.General, y, beta []float
 	return true
 }
 
-// evaluateBisquareDeriv is evaluateAny for the bisquare with Newton's
-// psi' values, without the interface calls (and the boxing of psi) of the
-// general loop.
-func (ws *Workspace) evaluateBisquareDeriv(b Bisquare, sigma float64) (csum float64) {
-	r := ws.r
-	c, ps := ws.c[:len(r)], ws.psi[:len(r)]
-	cc := b.C
-	offs := ws.off[:len(r)]
-	off := 0
-	for i, ri := range r {
-		u := ri / sigma
-		if u >= cc || u <= -cc {
-			ps[i], c[i] = 0, 0
-			offs[off] = i
-			off++
-			continue
-		}
-		v := u / cc
-		v2 := v * v
-		t := 1 - v2
-		d := t * (1 - 5*v2)
-		ps[i], c[i] = u*t*t, d
-		if d != 1 {
-			offs[off] = i
-			off++
-		}
-		csum += math.Abs(d)
-	}
-	ws.nOff = off
-	return csum
-}
 
 // sOutcome is how an S fit ended.
 type sOutcome struct {

@@ -283,7 +283,7 @@ func TestBisquareDerivLoop(t *testing.T) {
 	}
 	psi := Bisquare{C: DefaultSTuning}
 	for _, sigma := range []float64{0.3, 1, 4} {
-		sum := ws.evaluateBisquareDeriv(psi, sigma)
+		sum := ws.evaluateBisquareAs(psi, sigma, true)
 		c, ps := append([]float64(nil), ws.c...), append([]float64(nil), ws.psi...)
 		off := append([]int(nil), ws.off[:ws.nOff]...)
 		want := ws.evaluateAny(psi, sigma, true)
