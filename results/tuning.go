@@ -607,10 +607,10 @@ func recommend(ts *TuningStudy) {
 		switch best {
 		case 0:
 			ts.GridEnd = LowEnd
-			ts.Notes = append(ts.Notes, fmt.Sprintf("The recommended %s is the smallest swept: the best may lie below it, so extend the grid downwards.", ts.Name))
+			ts.Notes = append(ts.Notes, "The recommended constant is the smallest swept: the best may lie below it, so extend the grid downwards.")
 		case len(ts.Constants) - 1:
 			ts.GridEnd = HighEnd
-			ts.Notes = append(ts.Notes, fmt.Sprintf("The recommended %s is the largest swept: the best may lie above it, so extend the grid upwards.", ts.Name))
+			ts.Notes = append(ts.Notes, "The recommended constant is the largest swept: the best may lie above it, so extend the grid upwards.")
 		}
 	}
 }
@@ -682,11 +682,11 @@ func pickTarget(ts *TuningStudy, target float64) {
 		}
 		tp.Constant, tp.Value, tp.Efficiency = Num(tc.Constant), tc.Value, eff
 		if i == 0 && len(ts.Constants) > 1 {
-			tp.Note = fmt.Sprintf("the smallest swept %s already meets it: a smaller one may too, so extend the grid downwards", ts.Name)
+			tp.Note = "the smallest swept constant already meets it: a smaller one may too, so extend the grid downwards"
 		}
 		return
 	}
-	tp.Note = fmt.Sprintf("no swept %s meets it: extend the grid upwards", ts.Name)
+	tp.Note = "no swept constant meets it: extend the grid upwards"
 }
 
 // baseContamination is one contamination of the scenario as written, for

@@ -231,7 +231,7 @@ func TestRecommendationLeadsTable(t *testing.T) {
 		if study < 0 || verdict < 0 || study > verdict {
 			t.Errorf("%s: the tuning study does not come first:\n%s", name, out)
 		}
-		for _, want := range []string{"choose huber.tuning = 2", "efficiency ≥ 0.95 on clean data: 3", "as if independent"} {
+		for _, want := range []string{"choose huber.tuning = 2", "efficiency ≥ 0.95 on clean data: 3", "as independent"} {
 			if !strings.Contains(out, want) {
 				t.Errorf("%s lacks %q:\n%s", name, want, out)
 			}

@@ -45,7 +45,7 @@ func recommendationLines(ts TuningStudy, target float64) []string {
 	if math.IsNaN(float64(ts.Recommended)) {
 		lines = append(lines, "no "+name+" can be recommended: each is excluded at some level (see the table)")
 	} else {
-		line := fmt.Sprintf("choose %s = %s: at worst its RMSE is %s times the best swept %s's", name, ts.RecommendedValue, scoreText(ts.Score), ts.Name)
+		line := fmt.Sprintf("choose %s = %s: at worst its RMSE is %s times that of the best swept constant", name, ts.RecommendedValue, scoreText(ts.Score))
 		for _, tc := range ts.Constants {
 			if tc.Value == ts.RecommendedValue && tc.WorstLevel >= 0 {
 				pt := tc.Points[tc.WorstLevel]
@@ -64,13 +64,13 @@ func recommendationLines(ts TuningStudy, target float64) []string {
 			rng[i] = strconv.FormatFloat(c, 'g', -1, 64)
 		}
 		if len(ts.Range) == 1 {
-			lines = append(lines, fmt.Sprintf("no other %s is within %d combined MCSE of it", ts.Name, TieMCSE))
+			lines = append(lines, fmt.Sprintf("no other swept constant is within %d combined MCSE of it", TieMCSE))
 		} else {
-			lines = append(lines, fmt.Sprintf("within %d combined MCSE of it (the simulation cannot tell them apart): %s", TieMCSE, strings.Join(rng, ", ")))
+			lines = append(lines, fmt.Sprintf("within %d combined MCSE of it, so not told apart by this run: %s (more replicates narrow this)", TieMCSE, strings.Join(rng, ", ")))
 		}
 	}
 	tp := ts.Target
-	head := fmt.Sprintf("smallest %s with efficiency ≥ %s on clean data", ts.Name, strconv.FormatFloat(target, 'g', -1, 64))
+	head := fmt.Sprintf("smallest constant with efficiency ≥ %s on clean data", strconv.FormatFloat(target, 'g', -1, 64))
 	switch {
 	case tp.Basis == NoBasis:
 		lines = append(lines, head+": none to measure, "+tp.Note)
@@ -94,9 +94,8 @@ func recommendationLines(ts TuningStudy, target float64) []string {
 		}
 		lines = append(lines, line)
 	}
-	lines = append(lines, "score: RMSE on the worst coefficient as a multiple of the best swept "+ts.Name+
-		"'s at the same level, on the same datasets. MCSEs of differences are combined as if independent, "+
-		"which overstates them: the range is, if anything, too wide")
+	lines = append(lines, "score: RMSE on the worst coefficient ÷ the best swept constant's at that level, same datasets. "+
+		"MCSEs of differences treat the constants as independent, so the range is if anything too wide")
 	return lines
 }
 
@@ -136,7 +135,7 @@ func writeTuningTable(b *strings.Builder, ts TuningStudy, target float64, width 
 			head = append(head, strings.SplitN(legend[l], " ", 2)[0])
 		}
 	}
-	head = append(head, "worst case", "eff. (clean)", "theory", "")
+	head = append(head, "worst case", "clean eff.", "theory", "")
 	rows := [][]string{head}
 	var excluded []string
 	for _, tc := range ts.Constants {
