@@ -316,7 +316,12 @@ func Recommend(r *Results, target float64) *Recommendation {
 			}
 			continue
 		}
-		rec.Studies = append(rec.Studies, study(r, p, base, target))
+		if ts := study(r, p, base, target); len(ts.Constants) > 0 {
+			rec.Studies = append(rec.Studies, ts)
+		}
+	}
+	if len(rec.Studies) == 0 && len(rec.Notes) == 0 {
+		return nil
 	}
 	return rec
 }

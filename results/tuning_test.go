@@ -243,3 +243,28 @@ func TestRecommendationLeadsTable(t *testing.T) {
 		}
 	}
 }
+
+// TestRecommendCustomConstant: a swept constant of a psi of one's own is a
+// tuning study too, and another estimator's swept settings, which do not
+// change this estimator's fits, make no levels of their own.
+func TestRecommendCustomConstant(t *testing.T) {
+	r := synthTuning([]string{"1", "2"}, []synthLevel{{fraction: "0", ratio: []float64{0.9, 1}}}, 0.01, 0.01)
+	var cells []Cell
+	for _, other := range []string{"3.5", "4.685"} {
+		for _, c := range r.Cells {
+			c.Settings = []Setting{c.Settings[0], {Path: "estimators.huber.psi.constants.c", Value: c.Settings[1].Value},
+				{Path: "estimators.bisq.tuning", Value: other}}
+			c.Index = len(cells)
+			cells = append(cells, c)
+		}
+	}
+	r.Cells = cells
+	rec := Recommend(r, 0.95)
+	if rec == nil || len(rec.Studies) != 1 {
+		t.Fatalf("want one study, got %+v", rec)
+	}
+	ts := rec.Studies[0]
+	if ts.Name != "c" || ts.Path != "estimators.huber.psi.constants.c" || len(ts.Levels) != 1 || ts.RecommendedValue != "2" {
+		t.Errorf("study of %s (%s): %d levels, recommended %q; want c, one level, 2", ts.Path, ts.Name, len(ts.Levels), ts.RecommendedValue)
+	}
+}

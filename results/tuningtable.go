@@ -46,8 +46,12 @@ func recommendationLines(ts TuningStudy, target float64) []string {
 		lines = append(lines, "no "+name+" can be recommended: each is excluded at some level (see the table)")
 	} else {
 		line := fmt.Sprintf("choose %s = %s: at worst its RMSE is %s times that of the best swept constant", name, ts.RecommendedValue, scoreText(ts.Score))
+		exact := float64(ts.Score.Value) == 1 && float64(ts.Score.MCSE) == 0
+		if exact {
+			line = fmt.Sprintf("choose %s = %s: of the swept constants it has the smallest RMSE on every coefficient at every level", name, ts.RecommendedValue)
+		}
 		for _, tc := range ts.Constants {
-			if tc.Value == ts.RecommendedValue && tc.WorstLevel >= 0 {
+			if tc.Value == ts.RecommendedValue && tc.WorstLevel >= 0 && !exact {
 				pt := tc.Points[tc.WorstLevel]
 				line += " (" + pt.Worst + ", at " + levelName(ts.Levels[tc.WorstLevel]) + ")"
 			}
