@@ -81,7 +81,7 @@ type TuningStudy struct {
 	// Range lists the eligible constants whose worst-case score is within
 	// TieMCSE·√(MCSE² + MCSE_rec²) of the recommended one's, smallest
 	// first (the recommended one among them). They need not be adjacent.
-	Range []float64 `json:"range"`
+	Range []Num `json:"range"`
 	// GridEnd says whether the recommended constant is the smallest or
 	// largest swept one, in which case the optimum may lie beyond the grid.
 	GridEnd GridEnd `json:"grid_end"`
@@ -107,8 +107,9 @@ type TuningLevel struct {
 type TuningConstant struct {
 	// Value is the constant as written in the scenario.
 	Value string `json:"value"`
-	// Constant is its number (the first, when the value is a list).
-	Constant float64 `json:"constant"`
+	// Constant is its number (the first, when the value is a list; null
+	// when the value is not a number).
+	Constant Num `json:"constant"`
 	// Points holds one entry per level, in the order of Levels.
 	Points []TuningPoint `json:"points"`
 	// WorstCase is the largest Score over the levels, with that point's
@@ -372,7 +373,7 @@ func study(r *Results, p tunedPath, base []baseContamination, target float64) Tu
 		Constants:   []TuningConstant{},
 		Recommended: Num(math.NaN()),
 		Score:       Measure{Value: Num(math.NaN()), MCSE: Num(math.NaN())},
-		Range:       []float64{},
+		Range:       []Num{},
 		Target:      TargetPick{Constant: Num(math.NaN()), Efficiency: Measure{Value: Num(math.NaN()), MCSE: Num(math.NaN())}},
 	}
 	// Levels and constants, in first-seen order; the cell of each pair.
@@ -405,7 +406,7 @@ func study(r *Results, p tunedPath, base []baseContamination, target float64) Tu
 		if !ok {
 			k = len(ts.Constants)
 			constOf[value] = k
-			ts.Constants = append(ts.Constants, TuningConstant{Value: value, Constant: firstNumber(value)})
+			ts.Constants = append(ts.Constants, TuningConstant{Value: value, Constant: Num(firstNumber(value))})
 		}
 		if _, dup := cellAt[pair{k, l}]; !dup {
 			cellAt[pair{k, l}] = ci // cells differing only in other estimators' settings repeat these figures
@@ -417,8 +418,17 @@ func study(r *Results, p tunedPath, base []baseContamination, target float64) Tu
 		order[i] = i
 	}
 	slices.SortStableFunc(order, func(a, b int) int {
-		ca, cb := ts.Constants[a].Constant, ts.Constants[b].Constant
+		ca, cb := float64(ts.Constants[a].Constant), float64(ts.Constants[b].Constant)
 		switch {
+		case math.IsNaN(ca) || math.IsNaN(cb):
+			// Values that are not numbers go last, in scenario order.
+			if math.IsNaN(ca) == math.IsNaN(cb) {
+				return 0
+			}
+			if math.IsNaN(ca) {
+				return 1
+			}
+			return -1
 		case ca < cb:
 			return -1
 		case ca > cb:
@@ -596,7 +606,7 @@ func recommend(ts *TuningStudy) {
 		return
 	}
 	b := ts.Constants[best]
-	ts.Recommended, ts.RecommendedValue, ts.Score = Num(b.Constant), b.Value, b.WorstCase
+	ts.Recommended, ts.RecommendedValue, ts.Score = b.Constant, b.Value, b.WorstCase
 	for i := range ts.Constants {
 		tc := &ts.Constants[i]
 		if tc.Excluded != "" {
@@ -608,7 +618,8 @@ func recommend(ts *TuningStudy) {
 			ts.Range = append(ts.Range, tc.Constant)
 		}
 	}
-	if len(ts.Constants) > 1 {
+	ordered := !slices.ContainsFunc(ts.Constants, func(tc TuningConstant) bool { return math.IsNaN(float64(tc.Constant)) })
+	if len(ts.Constants) > 1 && ordered {
 		switch best {
 		case 0:
 			ts.GridEnd = LowEnd
@@ -685,7 +696,7 @@ func pickTarget(ts *TuningStudy, target float64) {
 		if !ok {
 			continue
 		}
-		tp.Constant, tp.Value, tp.Efficiency = Num(tc.Constant), tc.Value, eff
+		tp.Constant, tp.Value, tp.Efficiency = tc.Constant, tc.Value, eff
 		if i == 0 && len(ts.Constants) > 1 {
 			tp.Note = "the smallest swept constant already meets it: a smaller one may too, so extend the grid downwards"
 		}

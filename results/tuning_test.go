@@ -95,7 +95,7 @@ func TestRecommend(t *testing.T) {
 		target  float64
 		best    string
 		score   float64 // the recommended constant's worst case
-		rng     []float64
+		rng     []Num
 		end     GridEnd
 		basis   EfficiencyBasis
 		pick    string // "" for none
@@ -104,24 +104,24 @@ func TestRecommend(t *testing.T) {
 		// Worst cases 1.1, 1.0526, 1.1765, 1.4286: k = 2. At a 1% MCSE of
 		// each ratio a score's MCSE is q·½·√2·1% ≈ 0.0074 at k = 2, so
 		// k = 1, 0.047 above, is outside 2·√(0.0078² + 0.0074²) = 0.021.
-		{"interior, tight", []synthLevel{clean, dirty}, 0.01, 0.01, 0.95, "2", 1.0526, []float64{2}, Inside, Asymptotic, "3", ""},
+		{"interior, tight", []synthLevel{clean, dirty}, 0.01, 0.01, 0.95, "2", 1.0526, []Num{2}, Inside, Asymptotic, "3", ""},
 		// At 5% the threshold is 2·√(0.0389² + 0.0372²) = 0.108 for k = 1
 		// (inside, 0.047 above) and 0.112 for k = 3 (outside, 0.124 above).
-		{"interior, loose", []synthLevel{clean, dirty}, 0.05, 0.01, 0.95, "2", 1.0526, []float64{1, 2}, Inside, Asymptotic, "3", ""},
+		{"interior, loose", []synthLevel{clean, dirty}, 0.05, 0.01, 0.95, "2", 1.0526, []Num{1, 2}, Inside, Asymptotic, "3", ""},
 		// Contamination that hurts no constant more than another: the clean
 		// level decides and the largest constant wins.
-		{"best at the high end", []synthLevel{clean, flat}, 0.01, 0.01, 0.95, "4", 1, []float64{3, 4}, HighEnd, Asymptotic, "3", "extend the grid upwards"},
-		{"best at the low end", []synthLevel{cleanRising, rising}, 0.01, 0.01, 0.95, "1", 1, []float64{1}, LowEnd, Asymptotic, "3", "extend the grid downwards"},
-		{"target 0.9", []synthLevel{clean, dirty}, 0.01, 0.01, 0.9, "2", 1.0526, []float64{2}, Inside, Asymptotic, "2", ""},
-		{"target unmet", []synthLevel{clean, dirty}, 0.01, 0.01, 0.999, "2", 1.0526, []float64{2}, Inside, Asymptotic, "", "extend the grid upwards"},
-		{"target met by the smallest", []synthLevel{clean, dirty}, 0.01, 0.01, 0.5, "2", 1.0526, []float64{2}, Inside, Asymptotic, "1", "extend the grid downwards"},
+		{"best at the high end", []synthLevel{clean, flat}, 0.01, 0.01, 0.95, "4", 1, []Num{3, 4}, HighEnd, Asymptotic, "3", "extend the grid upwards"},
+		{"best at the low end", []synthLevel{cleanRising, rising}, 0.01, 0.01, 0.95, "1", 1, []Num{1}, LowEnd, Asymptotic, "3", "extend the grid downwards"},
+		{"target 0.9", []synthLevel{clean, dirty}, 0.01, 0.01, 0.9, "2", 1.0526, []Num{2}, Inside, Asymptotic, "2", ""},
+		{"target unmet", []synthLevel{clean, dirty}, 0.01, 0.01, 0.999, "2", 1.0526, []Num{2}, Inside, Asymptotic, "", "extend the grid upwards"},
+		{"target met by the smallest", []synthLevel{clean, dirty}, 0.01, 0.01, 0.5, "2", 1.0526, []Num{2}, Inside, Asymptotic, "1", "extend the grid downwards"},
 		// Without theory: 0.94 + 2·0.01 ≥ 0.95, so k = 3 meets the target
 		// within 2 MCSE; with an MCSE of 0.001 it does not, and k = 4 does.
-		{"simulated, within 2 MCSE", []synthLevel{noTheory, dirty}, 0.01, 0.01, 0.95, "2", 1.0526, []float64{2}, Inside, Simulated, "3", ""},
-		{"simulated, tight", []synthLevel{noTheory, dirty}, 0.01, 0.001, 0.95, "2", 1.0526, []float64{2}, Inside, Simulated, "4", ""},
+		{"simulated, within 2 MCSE", []synthLevel{noTheory, dirty}, 0.01, 0.01, 0.95, "2", 1.0526, []Num{2}, Inside, Simulated, "3", ""},
+		{"simulated, tight", []synthLevel{noTheory, dirty}, 0.01, 0.001, 0.95, "2", 1.0526, []Num{2}, Inside, Simulated, "4", ""},
 		// 10% failed fits at k = 2 exclude it: k = 1 (worst 1.1) is next.
-		{"excluded", []synthLevel{clean, failing}, 0.01, 0.01, 0.95, "1", 1.1, []float64{1}, LowEnd, Asymptotic, "3", "extend the grid downwards"},
-		{"no clean level", []synthLevel{dirty}, 0.01, 0.01, 0.95, "1", 1, []float64{1}, LowEnd, NoBasis, "", "sweep a contamination fraction of 0"},
+		{"excluded", []synthLevel{clean, failing}, 0.01, 0.01, 0.95, "1", 1.1, []Num{1}, LowEnd, Asymptotic, "3", "extend the grid downwards"},
+		{"no clean level", []synthLevel{dirty}, 0.01, 0.01, 0.95, "1", 1, []Num{1}, LowEnd, NoBasis, "", "sweep a contamination fraction of 0"},
 	}
 	for _, tc := range cases {
 		t.Run(tc.name, func(t *testing.T) {
@@ -139,7 +139,7 @@ func TestRecommend(t *testing.T) {
 			if !slices.Equal(ts.Range, tc.rng) {
 				t.Errorf("range %v, want %v", ts.Range, tc.rng)
 			}
-			if !slices.Contains(ts.Range, float64(ts.Recommended)) {
+			if !slices.Contains(ts.Range, ts.Recommended) {
 				t.Errorf("the recommended %v is not in its range %v", ts.Recommended, ts.Range)
 			}
 			if ts.GridEnd != tc.end {
@@ -266,5 +266,25 @@ func TestRecommendCustomConstant(t *testing.T) {
 	ts := rec.Studies[0]
 	if ts.Name != "c" || ts.Path != "estimators.huber.psi.constants.c" || len(ts.Levels) != 1 || ts.RecommendedValue != "2" {
 		t.Errorf("study of %s (%s): %d levels, recommended %q; want c, one level, 2", ts.Path, ts.Name, len(ts.Levels), ts.RecommendedValue)
+	}
+}
+
+// TestRecommendationJSON: a constant whose value is not a number (a
+// mapping written as YAML text) still encodes, as null, and reads back.
+func TestRecommendationJSON(t *testing.T) {
+	r := synthTuning([]string{"{a: 1}", "2"}, []synthLevel{{fraction: "0", ratio: []float64{0.9, 1}, theory: []float64{0.9, 0.96}}}, 0.01, 0.01)
+	r.Schema = SchemaVersion
+	r.Recommendation = Recommend(r, 0.95)
+	var b strings.Builder
+	if err := WriteJSON(&b, r); err != nil {
+		t.Fatal(err)
+	}
+	back, err := ReadJSON(strings.NewReader(b.String()))
+	if err != nil {
+		t.Fatal(err)
+	}
+	ts := back.Recommendation.Studies[0]
+	if !math.IsNaN(float64(ts.Constants[1].Constant)) || ts.Target.Value != "2" || ts.Target.Basis != Asymptotic || ts.GridEnd != Inside {
+		t.Errorf("read back %+v", ts)
 	}
 }

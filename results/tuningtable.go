@@ -63,9 +63,11 @@ func recommendationLines(ts TuningStudy, target float64) []string {
 			line += "; it is the largest swept: extend the grid upwards"
 		}
 		lines = append(lines, line)
-		rng := make([]string, len(ts.Range))
-		for i, c := range ts.Range {
-			rng[i] = strconv.FormatFloat(c, 'g', -1, 64)
+		var rng []string
+		for _, tc := range ts.Constants {
+			if tc.InRange {
+				rng = append(rng, tc.Value)
+			}
 		}
 		if len(ts.Range) == 1 {
 			lines = append(lines, fmt.Sprintf("no other swept constant is within %d combined MCSE of it", TieMCSE))

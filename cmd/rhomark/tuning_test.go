@@ -42,7 +42,7 @@ func TestTuningStudyEndToEnd(t *testing.T) {
 		t.Fatalf("want one tuning study in the JSON, got %+v", rec)
 	}
 	ts := rec.Studies[0]
-	if !slices.Contains(ts.Range, float64(ts.Recommended)) {
+	if !slices.Contains(ts.Range, ts.Recommended) {
 		t.Errorf("recommended k %v is not in its range %v", ts.Recommended, ts.Range)
 	}
 	if len(ts.Levels) != 2 || !ts.Levels[0].Clean || ts.Levels[1].Clean {
