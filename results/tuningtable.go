@@ -51,9 +51,15 @@ func recommendationLines(ts TuningStudy, target float64) []string {
 			line = fmt.Sprintf("choose %s = %s: of the swept constants it has the smallest RMSE on every coefficient at every level", name, ts.RecommendedValue)
 		}
 		for _, tc := range ts.Constants {
-			if tc.Value == ts.RecommendedValue && tc.WorstLevel >= 0 && !exact {
+			if tc.Value != ts.RecommendedValue {
+				continue
+			}
+			if tc.WorstLevel >= 0 && !exact {
 				pt := tc.Points[tc.WorstLevel]
 				line += " (" + pt.Worst + ", at " + levelName(ts.Levels[tc.WorstLevel]) + ")"
+			}
+			if eff := cleanEfficiency(tc); eff != "" && tc.Value != ts.Target.Value {
+				line += "; its efficiency on clean data is " + eff
 			}
 		}
 		switch ts.GridEnd {
@@ -95,6 +101,11 @@ func recommendationLines(ts TuningStudy, target float64) []string {
 		} else {
 			line += " (simulated " + pm(tp.Efficiency, false) + ", not below the target by more than " + strconv.Itoa(TieMCSE) + " MCSE; no asymptotic figure applies)"
 		}
+		for _, tc := range ts.Constants {
+			if tc.Value == tp.Value && tc.Value != ts.RecommendedValue && tc.Excluded == "" {
+				line += "; at worst its RMSE is " + scoreText(tc.WorstCase) + " times the best's"
+			}
+		}
 		if tp.Note != "" {
 			line += "; " + tp.Note
 		}
@@ -103,6 +114,19 @@ func recommendationLines(ts TuningStudy, target float64) []string {
 	lines = append(lines, "score: RMSE on the worst coefficient ÷ the best swept constant's at that level, same datasets. "+
 		"MCSEs of differences treat the constants as independent, so the range is if anything too wide")
 	return lines
+}
+
+// cleanEfficiency describes a constant's efficiency on clean data: the
+// asymptotic figure where there is one, otherwise the simulated one; ""
+// without a clean level.
+func cleanEfficiency(tc TuningConstant) string {
+	if t := float64(tc.TheoryEfficiency); !math.IsNaN(t) {
+		return fmt.Sprintf("%.4f (asymptotic)", t)
+	}
+	if !math.IsNaN(float64(tc.Efficiency.Value)) {
+		return pm(tc.Efficiency, false) + " (simulated)"
+	}
+	return ""
 }
 
 // scoreText formats a score: "1 (the best)" when exactly the best,

@@ -61,10 +61,31 @@ func TestTuningStudyEndToEnd(t *testing.T) {
 	}
 	// A lower target moves the pick down the grid: Huber's k = 1 has
 	// asymptotic efficiency 0.903 at the normal (from memory), 0.75 has
-	// 0.854 (from memory), so at 90% the pick is 1.
+	// 0.854 (from memory), so at 90% the pick is 1; 1.345 has 0.950 and
+	// 1.7 has 0.978 (from memory), so at 97% it is 1.7.
 	code, stdout, errs = rhomark(t, "run", "tuning-huber", "--replicates", "16", "--quiet", "--target-efficiency", "0.9")
 	if code != exitOK || !strings.Contains(stdout, "efficiency ≥ 0.9 on clean data: 1 (asymptotic 0.903") {
 		t.Errorf("--target-efficiency 0.9: exit %d %s\n%s", code, errs, stdout)
+	}
+	// report keeps the run's target unless given another.
+	if code, _, errs := rhomark(t, "run", "tuning-huber", "--replicates", "16", "--quiet", "--target-efficiency", "0.9", "--out", out); code != exitOK {
+		t.Fatalf("run: %s", errs)
+	}
+	for _, c := range []struct {
+		args []string
+		want string
+	}{
+		{nil, "efficiency ≥ 0.9 on clean data: 1 "},
+		{[]string{"--target-efficiency", "0.97"}, "efficiency ≥ 0.97 on clean data: 1.7 "},
+	} {
+		args := append([]string{"report", filepath.Join(out, "tuning-huber.json"), "--no-figure-files"}, c.args...)
+		if code, _, errs := rhomark(t, args...); code != exitOK {
+			t.Fatalf("%q: %s", args, errs)
+		}
+		md, err := os.ReadFile(filepath.Join(out, "tuning-huber.md"))
+		if err != nil || !strings.Contains(string(md), c.want) {
+			t.Errorf("%q: summary lacks %q (%v):\n%s", args, c.want, err, md)
+		}
 	}
 	for _, bad := range []string{"0", "1.5", "-0.2", "NaN"} {
 		if code, _, errs := rhomark(t, "run", "tuning-huber", "--target-efficiency", bad); code != exitUsage || !strings.Contains(errs, "--target-efficiency must be") {
