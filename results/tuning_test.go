@@ -242,6 +242,26 @@ func TestRecommendationLeadsTable(t *testing.T) {
 			t.Errorf("line of %d columns: %q", n, line)
 		}
 	}
+	// Six levels do not fit beside the summary columns in 100: the rest
+	// go to a continuation table, and no line is wider.
+	var six []synthLevel
+	for _, f := range []string{"0", "0.01", "0.02", "0.03", "0.04", "0.05"} {
+		six = append(six, synthLevel{fraction: f, ratio: []float64{0.81, 0.9025, 0.9604, 0.9801}, theory: []float64{0.8, 0.9, 0.95, 0.99}})
+	}
+	r = synthTuning([]string{"1", "2", "3", "4"}, six, 0.01, 0.01)
+	tb.Reset()
+	if err := WriteTable(&tb, r, 100); err != nil {
+		t.Fatal(err)
+	}
+	out := tb.String()
+	for _, line := range strings.Split(out, "\n") {
+		if n := len([]rune(line)); n > 100 {
+			t.Errorf("six levels: line of %d columns: %q", n, line)
+		}
+	}
+	if strings.Count(out, "\n   tuning ") < 2 || !strings.Contains(out, " F") {
+		t.Errorf("six levels: want a continuation table reaching level F:\n%s", out)
+	}
 }
 
 // TestRecommendCustomConstant: a swept constant of a psi of one's own is a

@@ -139,10 +139,12 @@ func scoreText(m Measure) string {
 }
 
 // writeTuningTable writes a study's table: a row per constant, a column
-// per level, the worst case and the efficiency on clean data.
+// per level, the worst case and the efficiency on clean data. Levels that
+// do not fit in width go to continuation tables below, each with the
+// constants again.
 func writeTuningTable(b *strings.Builder, ts TuningStudy, target float64, width int) {
 	letters := "ABCDEFGHIJKLMNOPQRSTUVWXYZ"
-	var legend []string
+	var tags, legend []string
 	for l, lv := range ts.Levels {
 		tag := string(letters[l%len(letters)])
 		if l >= len(letters) {
@@ -152,43 +154,45 @@ func writeTuningTable(b *strings.Builder, ts TuningStudy, target float64, width 
 		if lv.Clean {
 			name += " (clean)"
 		}
+		tags = append(tags, tag)
 		legend = append(legend, tag+" = "+name)
 	}
-	if len(ts.Levels) > 1 {
-		wrap(b, "levels: "+strings.Join(legend, " · "), "   ", "     ", width)
-	}
-	head := []string{ts.Name}
-	for l := range ts.Levels {
-		if len(ts.Levels) == 1 {
-			head = append(head, "score")
-		} else {
-			head = append(head, strings.SplitN(legend[l], " ", 2)[0])
+	if len(ts.Levels) == 1 {
+		tags[0] = "score"
+	} else if line := "   levels: " + strings.Join(legend, " · "); runeLen(line) <= width {
+		b.WriteString(line + "\n")
+	} else {
+		b.WriteString("   levels:\n")
+		for _, l := range legend {
+			wrap(b, l, "     ", "         ", width)
 		}
 	}
-	head = append(head, "worst case", "clean eff.", "theory", "")
-	rows := [][]string{head}
+	// Per constant: its name, its level cells and its summary cells.
+	names := [][]string{{ts.Name}}
+	levels := [][]string{tags}
+	summary := [][]string{{"worst case", "clean eff.", "theory", ""}}
 	var excluded []string
 	for _, tc := range ts.Constants {
-		row := []string{tc.Value}
+		names = append(names, []string{tc.Value})
+		var row []string
 		for _, pt := range tc.Points {
 			switch {
 			case pt.Excluded != "":
 				row = append(row, "excluded")
 			default:
-				row = append(row, scoreText(pt.Score))
+				row = append(row, cellScore(pt.Score))
 			}
 		}
+		levels = append(levels, row)
+		worst := cellScore(tc.WorstCase)
 		if tc.Excluded != "" {
-			row = append(row, "—")
+			worst = "—"
 			excluded = append(excluded, tc.Value+": "+tc.Excluded)
-		} else {
-			row = append(row, scoreText(tc.WorstCase))
 		}
-		eff, theory := pm(tc.Efficiency, false), "—"
+		theory := "—"
 		if t := float64(tc.TheoryEfficiency); !math.IsNaN(t) {
 			theory = fmt.Sprintf("%.4f", t)
 		}
-		row = append(row, eff, theory)
 		var marks []string
 		if tc.Value == ts.RecommendedValue {
 			marks = append(marks, "choice")
@@ -196,56 +200,105 @@ func writeTuningTable(b *strings.Builder, ts TuningStudy, target float64, width 
 			marks = append(marks, "within 2 MCSE")
 		}
 		if tc.Value == ts.Target.Value {
-			marks = append(marks, "target "+strconv.FormatFloat(target, 'g', -1, 64))
+			marks = append(marks, "target")
 		}
 		mark := ""
 		if len(marks) > 0 {
 			mark = "◂ " + strings.Join(marks, ", ")
 		}
-		rows = append(rows, append(row, mark))
+		summary = append(summary, []string{worst, pm(tc.Efficiency, false), theory, mark})
 	}
-	writeGrid(b, rows, width)
+	table := func(from, to int, withSummary bool) [][]string {
+		rows := make([][]string, len(names))
+		for i := range names {
+			rows[i] = append(append([]string{}, names[i]...), levels[i][from:to]...)
+			if withSummary {
+				rows[i] = append(rows[i], summary[i]...)
+			}
+		}
+		return rows
+	}
+	n := len(ts.Levels)
+	if gridWidth(table(0, n, true), false) <= width || gridWidth(table(0, n, true), true) <= width {
+		writeGrid(b, table(0, n, true), width)
+	} else {
+		// As many levels as fit beside the summary, then the rest.
+		to := 1
+		for to < n && gridWidth(table(0, to+1, true), true) <= width {
+			to++
+		}
+		writeGrid(b, table(0, to, true), width)
+		for from := to; from < n; {
+			next := from + 1
+			for next < n && gridWidth(table(from, next+1, false), true) <= width {
+				next++
+			}
+			b.WriteString("\n")
+			writeGrid(b, table(from, next, false), width)
+			from = next
+		}
+	}
 	for _, x := range excluded {
 		wrap(b, "excluded "+x, "   ", "     ", width)
 	}
 }
 
+// cellScore formats a score for a table cell: "best" when exactly the
+// best, otherwise "value ± MCSE".
+func cellScore(m Measure) string {
+	if float64(m.Value) == 1 && float64(m.MCSE) == 0 {
+		return "best"
+	}
+	return pm(m, false)
+}
+
+// gridWidth returns the width writeGrid gives rows, the last column (the
+// marks) included, with or without the spaces around ±.
+func gridWidth(rows [][]string, tight bool) int {
+	var widths []int
+	for _, row := range rows {
+		for j, t := range row {
+			if tight {
+				t = strings.ReplaceAll(t, " ± ", "±")
+			}
+			if j >= len(widths) {
+				widths = append(widths, 0)
+			}
+			widths[j] = max(widths[j], runeLen(t))
+		}
+	}
+	total := 2
+	for _, w := range widths {
+		total += w + 2
+	}
+	return total - 2
+}
+
 // writeGrid writes rows as left-aligned columns two spaces apart, indented
 // by three; when that is wider than width it drops the spaces around ±.
 func writeGrid(b *strings.Builder, rows [][]string, width int) {
-	for _, tight := range []bool{false, true} {
-		cells := make([][]string, len(rows))
-		var widths []int
-		for i, row := range rows {
-			cells[i] = make([]string, len(row))
-			for j, t := range row {
-				if tight {
-					t = strings.ReplaceAll(t, " ± ", "±")
-				}
-				cells[i][j] = t
-				if j >= len(widths) {
-					widths = append(widths, 0)
-				}
-				if j < len(row)-1 { // the last column (the marks) may run on
-					widths[j] = max(widths[j], runeLen(t))
-				}
+	tight := gridWidth(rows, false) > width
+	widths := make([]int, 0)
+	cells := make([][]string, len(rows))
+	for i, row := range rows {
+		cells[i] = make([]string, len(row))
+		for j, t := range row {
+			if tight {
+				t = strings.ReplaceAll(t, " ± ", "±")
 			}
-		}
-		total := 3
-		for _, w := range widths {
-			total += w + 2
-		}
-		if total > width && !tight {
-			continue
-		}
-		for _, row := range cells {
-			s := "  "
-			for j, t := range row {
-				s += " " + t + strings.Repeat(" ", max(0, widths[j]-runeLen(t))+1)
+			cells[i][j] = t
+			if j >= len(widths) {
+				widths = append(widths, 0)
 			}
-			b.WriteString(strings.TrimRight(s, " ") + "\n")
+			widths[j] = max(widths[j], runeLen(t))
 		}
-		return
+	}
+	for _, row := range cells {
+		s := "  "
+		for j, t := range row {
+			s += " " + t + strings.Repeat(" ", max(0, widths[j]-runeLen(t))+1)
+		}
+		b.WriteString(strings.TrimRight(s, " ") + "\n")
 	}
 }
 

@@ -25,6 +25,11 @@ func TestTuningStudyEndToEnd(t *testing.T) {
 	if first < 0 || !strings.HasPrefix(stdout[first:], "── tuning study: huber, estimators.huber.tuning") {
 		t.Fatalf("the first block is not the tuning study:\n%s", stdout)
 	}
+	for _, line := range strings.Split(stdout, "\n") {
+		if n := len([]rune(line)); n > 100 {
+			t.Errorf("line of %d columns, more than the 100 the table is laid out for: %q", n, line)
+		}
+	}
 	if i, j := strings.Index(stdout, "choose huber.tuning = "), strings.Index(stdout, "── what to choose"); i < 0 || j < i {
 		t.Errorf("the recommendation does not come before the per-cell verdicts:\n%s", stdout)
 	}
