@@ -126,7 +126,9 @@ type TuningConstant struct {
 	InRange bool `json:"in_range"`
 	// Efficiency is the simulated variance efficiency against the
 	// reference on the clean levels: the smallest over the clean levels
-	// and the coefficients, with its MCSE; null without a clean level.
+	// and the coefficients, with its MCSE; null without a clean level, and
+	// when the errors of this estimator or the reference are heavy-tailed
+	// there (see Coefficient.RelEffHeavyTails).
 	Efficiency Measure `json:"efficiency"`
 	// TheoryEfficiency is the asymptotic efficiency against the reference
 	// at the normal model, the smallest over the clean levels; null when
@@ -636,7 +638,7 @@ func efficiencies(r *Results, ts *TuningStudy) {
 	for i := range ts.Constants {
 		tc := &ts.Constants[i]
 		tc.Efficiency, tc.TheoryEfficiency = nanMeasure(), Num(math.NaN())
-		anyClean, allTheory := false, true
+		anyClean, allTheory, heavy := false, true, false
 		theory := math.Inf(1)
 		for l, lv := range ts.Levels {
 			pt := tc.Points[l]
@@ -656,10 +658,18 @@ func efficiencies(r *Results, ts *TuningStudy) {
 				allTheory = false
 			}
 			for _, k := range e.Coefficients {
+				if k.RelEffHeavyTails {
+					// Heavy-tailed errors (of this estimator or the
+					// reference): no meaningful efficiency at this level.
+					heavy = true
+				}
 				if v := float64(k.RelEff.Value); isFinite(v) && (!isFinite(float64(tc.Efficiency.Value)) || v < float64(tc.Efficiency.Value)) {
 					tc.Efficiency = k.RelEff
 				}
 			}
+		}
+		if heavy {
+			tc.Efficiency = nanMeasure()
 		}
 		if anyClean && allTheory {
 			tc.TheoryEfficiency = Num(theory)
@@ -690,6 +700,10 @@ func pickTarget(ts *TuningStudy, target float64) {
 		}
 		e := tc.Efficiency
 		return isFinite(float64(e.Value)) && float64(e.Value)+TieMCSE*nanToZero(float64(e.MCSE)) >= target, e
+	}
+	if tp.Basis == Simulated && !slices.ContainsFunc(ts.Constants, func(tc TuningConstant) bool { return isFinite(float64(tc.Efficiency.Value)) }) {
+		tp.Note = "no meaningful efficiency on clean data: no asymptotic figure applies, and the simulated one rests on heavy-tailed errors or is missing"
+		return
 	}
 	for i, tc := range ts.Constants {
 		ok, eff := meets(tc)

@@ -19,6 +19,7 @@ type synthLevel struct {
 	relEff   []float64
 	theory   []float64
 	failed   []int64
+	heavy    bool // the errors are heavy-tailed: no meaningful efficiency
 }
 
 // synthTuning builds results of a sweep of huber's tuning over constants
@@ -55,6 +56,9 @@ func synthTuning(constants []string, levels []synthLevel, rel, effMCSE float64) 
 			}
 			hu := Estimator{Label: "huber", Method: "irls", Psi: "huber", TheoryEfficiency: th, Convergence: conv(failed),
 				Coefficients: []Coefficient{coef("intercept", lv.ratio[k], eff), coef("x", 1, eff)}}
+			for j := range hu.Coefficients {
+				hu.Coefficients[j].RelEffHeavyTails = lv.heavy
+			}
 			r.Cells = append(r.Cells, Cell{Index: len(r.Cells), Replicates: 1000,
 				Settings: []Setting{
 					{Path: "contamination.spikes.fraction", Value: lv.fraction},
@@ -87,6 +91,8 @@ func TestRecommend(t *testing.T) {
 	noTheory.theory = nil
 	failing := dirty
 	failing.failed = []int64{0, 100, 0, 0}
+	heavy := noTheory
+	heavy.heavy = true
 	cases := []struct {
 		name    string
 		levels  []synthLevel
@@ -121,6 +127,9 @@ func TestRecommend(t *testing.T) {
 		{"simulated, tight", []synthLevel{noTheory, dirty}, 0.01, 0.001, 0.95, "2", 1.0526, []Num{2}, Inside, Simulated, "4", ""},
 		// 10% failed fits at k = 2 exclude it: k = 1 (worst 1.1) is next.
 		{"excluded", []synthLevel{clean, failing}, 0.01, 0.01, 0.95, "1", 1.1, []Num{1}, LowEnd, Asymptotic, "3", "extend the grid downwards"},
+		// Heavy-tailed errors on the clean level and no theory: no
+		// efficiency to pick by.
+		{"heavy tails", []synthLevel{heavy, dirty}, 0.01, 0.01, 0.95, "2", 1.0526, []Num{2}, Inside, Simulated, "", "no meaningful efficiency"},
 		{"no clean level", []synthLevel{dirty}, 0.01, 0.01, 0.95, "1", 1, []Num{1}, LowEnd, NoBasis, "", "sweep a contamination fraction of 0"},
 	}
 	for _, tc := range cases {
