@@ -75,6 +75,7 @@ func summarise(st *scenarios.Study, plans []cellPlan, tallies []*cellTally, seed
 		cell.Verdict = &v
 		res.Cells = append(res.Cells, cell)
 	}
+	res.Recommendation = results.Recommend(res, results.DefaultTargetEfficiency)
 	return res
 }
 

@@ -16,8 +16,9 @@ const (
 )
 
 // WriteMarkdownSummary writes a short Markdown summary of r for a code
-// review: the scenario, seed, replicates and whether the run completed; the
-// verdict of each cell (what to choose by RMSE, ties within 2 combined
+// review: the scenario, seed, replicates and whether the run completed;
+// when a tuning constant is swept, the tuning studies' recommendation (see
+// Recommend); the verdict of each cell (what to choose by RMSE, ties within 2 combined
 // MCSE, and the estimators not recommended); any
 // failed fits by status with their rates; and, where asymptotic theory
 // applies, the largest gap between simulation and theory in MCSE units.
@@ -49,6 +50,7 @@ func WriteMarkdownSummary(w io.Writer, r *Results) error {
 		fmt.Fprintf(b, "- sweeps: %s\n", strings.Join(parts, "; "))
 	}
 	fmt.Fprintf(b, "\n> %s\n", cautionSentence)
+	writeRecommendationMarkdown(b, r)
 
 	// What did best.
 	b.WriteString("\n## What did best\n\n")

@@ -40,6 +40,10 @@ type Results struct {
 	// TuningTheory holds asymptotic efficiency curves for estimators whose
 	// tuning constant is swept, to draw beside the simulated points.
 	TuningTheory []TuningCurve `json:"tuning_theory,omitempty"`
+	// Recommendation holds the tuning studies (see Recommend) when an
+	// estimator's tuning constant is swept: which constant to choose and
+	// how sure that is.
+	Recommendation *Recommendation `json:"recommendation,omitempty"`
 	// Breakdown holds the bias curves and empirical breakdown points when
 	// the scenario asks for them.
 	Breakdown *Breakdown `json:"breakdown,omitempty"`

@@ -309,7 +309,7 @@ func TestWriteMarkdownSummary(t *testing.T) {
 			[]string{"None: every fit ended with a usable solution."}},
 		{"bench-breakdown", []string{"# rhomark summary: bench-breakdown", "## What did best", "## Convergence problems", "## Simulation against theory"},
 			[]string{"iteration-limit", "Largest |theory gap|"}},
-		{"bench-tuning", []string{"# rhomark summary: bench-tuning", "## What did best", "## Convergence problems", "## Simulation against theory"},
+		{"bench-tuning", []string{"# rhomark summary: bench-tuning", "## Tuning study: `huber`, `estimators.huber.tuning`", "## What did best", "## Convergence problems", "## Simulation against theory"},
 			[]string{"None: every fit ended with a usable solution.", "Largest |theory gap|"}},
 	}
 	for _, c := range cases {

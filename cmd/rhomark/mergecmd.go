@@ -17,8 +17,12 @@ func mergeCmd(e env, args []string) error {
 	out := fs.String("out", "", "write NAME.json, NAME.csv and NAME.txt into this `directory` (required)")
 	asJSON := fs.Bool("json", false, "print the results as JSON instead of the table")
 	lim := addLimitFlags(fs.FlagSet)
+	target := addTargetFlag(fs.FlagSet)
 	pos, err := parseFlags(fs, args)
 	if err != nil {
+		return err
+	}
+	if err := checkTarget(*target); err != nil {
 		return err
 	}
 	if len(pos) == 0 || *out == "" {
@@ -71,6 +75,7 @@ func mergeCmd(e env, args []string) error {
 	if err != nil {
 		return err
 	}
+	res.Recommendation = results.Recommend(res, *target)
 	paths, err := results.Save(*out, res)
 	if err != nil {
 		return err

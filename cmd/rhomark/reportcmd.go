@@ -15,8 +15,12 @@ func reportCmd(e env, args []string) error {
 		"Writes a self-contained HTML report of a run (figures inline; it opens without\nnetwork access), a Markdown summary for code reviews, and the figures as SVG and\nPNG files.")
 	out := fs.String("out", "", "the `directory` to write into (default: the results file's)")
 	noFigures := fs.Bool("no-figure-files", false, "do not write the figures as separate SVG and PNG files")
+	target := addTargetFlag(fs.FlagSet)
 	pos, err := parseFlags(fs, args)
 	if err != nil {
+		return err
+	}
+	if err := checkTarget(*target); err != nil {
 		return err
 	}
 	if len(pos) != 1 {
@@ -30,6 +34,11 @@ func reportCmd(e env, args []string) error {
 	f.Close()
 	if err != nil {
 		return dataError{fmt.Errorf("%s: %w", pos[0], err)}
+	}
+	if flagGiven(fs.FlagSet, "target-efficiency") || res.Recommendation == nil {
+		// Keep the run's own target unless told otherwise; files from
+		// before tuning studies get one at the default.
+		res.Recommendation = results.Recommend(res, *target)
 	}
 	dir := *out
 	if dir == "" {

@@ -37,8 +37,12 @@ func runCmd(e env, args []string) error {
 	shardFlag := fs.String("shard", "", "run only share `I/M` of the work (0 ≤ I < M)")
 	shards := fs.Int("shards", 0, "split the work into `M` shares, the index taken from SLURM_ARRAY_TASK_ID or JOB_COMPLETION_INDEX")
 	lim := addLimitFlags(fs.FlagSet)
+	target := addTargetFlag(fs.FlagSet)
 	pos, err := parseFlags(fs, args)
 	if err != nil {
+		return err
+	}
+	if err := checkTarget(*target); err != nil {
 		return err
 	}
 	if *reps < 0 {
@@ -177,6 +181,7 @@ func runCmd(e env, args []string) error {
 		}
 		return stoppedShard(runErr, *out, name, opt.Shard, opt.Shards)
 	}
+	res.Recommendation = results.Recommend(res, *target)
 	if repFile != nil {
 		if err := results.CommitTemp(repFile, repPath); err != nil {
 			return err
