@@ -7,6 +7,7 @@ import (
 	"strings"
 
 	"gonum.org/v1/plot"
+	"gonum.org/v1/plot/plotter"
 
 	"github.com/rhomark/rhomark/results"
 )
@@ -127,6 +128,9 @@ func (fc *figureContext) rmseVsTuning() (*figureSpec, string, error) {
 	}
 	leg := newLegend()
 	fc.legendEstimators(leg, labels, true)
+	if strings.HasSuffix(criterion, " "+r.Reference) {
+		leg.Add(r.Reference+" (reference) = 1", &plotter.Line{LineStyle: referenceLine()})
+	}
 	caption := fmt.Sprintf("The verdict's score (%s: the RMSE on an estimator's worst coefficient as a multiple of the reference's on the same datasets; lower is better) against the swept constant (%s), one panel per combination of the other sweeps; bars are ±2 MCSE.", criterion, strings.Join(paths, ", "))
 	if strings.HasSuffix(criterion, " "+r.Reference) {
 		caption += fmt.Sprintf(" The dotted line is %s itself (1 by definition).", r.Reference)
