@@ -126,13 +126,66 @@ func (fc *figureContext) addSeriesStyled(p *plot.Plot, series []*seriesPoints, s
 // 0.8, 1.6, 2.4).
 type valueTicks []float64
 
-// Ticks implements plot.Ticker.
+// Ticks implements plot.Ticker. A value closer than 1/25 of the axis to
+// the last labelled one keeps its tick mark but not its label, so that
+// labels never run into each other.
 func (v valueTicks) Ticks(lo, hi float64) []plot.Tick {
 	var out []plot.Tick
+	last := math.Inf(-1)
 	for _, x := range v {
-		if x >= lo && x <= hi {
-			out = append(out, plot.Tick{Value: x, Label: strconv.FormatFloat(x, 'g', 4, 64)})
+		if x < lo || x > hi {
+			continue
 		}
+		t := plot.Tick{Value: x}
+		if x-last >= (hi-lo)/10 {
+			t.Label = strconv.FormatFloat(x, 'g', 4, 64)
+			last = x
+		}
+		out = append(out, t)
+	}
+	return out
+}
+
+// niceTicks labels an axis at four to seven round values (steps of 1, 2, 2.5
+// or 5 times a power of ten), each with the same number of decimals, the
+// fewest that tell them apart, and puts unlabelled ticks half-way.
+type niceTicks struct{}
+
+// Ticks implements plot.Ticker.
+func (niceTicks) Ticks(lo, hi float64) []plot.Tick {
+	if !(hi > lo) || !finite(lo, hi) {
+		return []plot.Tick{{Value: lo, Label: strconv.FormatFloat(lo, 'g', 4, 64)}}
+	}
+	// The smallest round step that gives at most six intervals.
+	mag := math.Pow(10, math.Floor(math.Log10((hi-lo)/6)))
+	step := 10 * mag
+	for _, m := range []float64{1, 2, 2.5, 5} {
+		if (hi-lo)/(m*mag) <= 6 {
+			step = m * mag
+			break
+		}
+	}
+	decimals := max(0, -int(math.Floor(math.Log10(step)+1e-9)))
+	if r := step / math.Pow(10, math.Floor(math.Log10(step)+1e-9)); math.Abs(r-2.5) < 1e-9 {
+		decimals++
+	}
+	var out []plot.Tick
+	for i := math.Ceil(lo/step - 1e-9); ; i++ {
+		v := i * step
+		if v > hi+step*1e-9 {
+			break
+		}
+		label := strconv.FormatFloat(v, 'f', decimals, 64)
+		if strings.Trim(label, "-0.") == "" {
+			label = strings.TrimPrefix(label, "-")
+		}
+		out = append(out, plot.Tick{Value: v, Label: label})
+		if h := v + step/2; h <= hi {
+			out = append(out, plot.Tick{Value: h})
+		}
+	}
+	if h := math.Ceil(lo/step-1e-9)*step - step/2; h >= lo {
+		out = append(out, plot.Tick{Value: h}) // the half-step below the first label
 	}
 	return out
 }

@@ -349,9 +349,11 @@ func newPlotGrid(vertical bool) *plot.Plot {
 	p.Title.TextStyle.Font = font.From(sansFace(), 10)
 	p.X.Label.TextStyle.Font = font.From(sansFace(), 10)
 	p.Y.Label.TextStyle.Font = font.From(sansFace(), 10)
-	p.X.Tick.Label.Font = font.From(sansFace(), 8.5)
-	p.Y.Tick.Label.Font = font.From(sansFace(), 8.5)
+	p.X.Tick.Label.Font = font.From(sansFace(), 9)
+	p.Y.Tick.Label.Font = font.From(sansFace(), 9)
 	p.Legend.TextStyle.Font = font.From(sansFace(), 8.5)
+	p.X.Tick.Marker = niceTicks{}
+	p.Y.Tick.Marker = niceTicks{}
 	grid := plotter.NewGrid()
 	grid.Vertical.Color = color.Gray{Y: 225}
 	grid.Horizontal.Color = color.Gray{Y: 225}

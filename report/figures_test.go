@@ -658,3 +658,29 @@ func TestPaletteInGreyscale(t *testing.T) {
 		seen[key] = i
 	}
 }
+
+// TestNiceTicks: labels fall on round steps, about five of them, with the
+// same number of decimals, and never read "-0".
+func TestNiceTicks(t *testing.T) {
+	cases := []struct {
+		lo, hi float64
+		want   []string
+	}{
+		{0, 26.3, []string{"0", "5", "10", "15", "20", "25"}},
+		{0.55, 1.12, []string{"0.6", "0.7", "0.8", "0.9", "1.0", "1.1"}},
+		{-0.03, 0.02, []string{"-0.03", "-0.02", "-0.01", "0.00", "0.01", "0.02"}},
+		{0, 1, []string{"0.0", "0.2", "0.4", "0.6", "0.8", "1.0"}},
+		{0.7, 3.1, []string{"1.0", "1.5", "2.0", "2.5", "3.0"}},
+	}
+	for _, c := range cases {
+		var got []string
+		for _, tk := range (niceTicks{}).Ticks(c.lo, c.hi) {
+			if tk.Label != "" {
+				got = append(got, tk.Label)
+			}
+		}
+		if !slices.Equal(got, c.want) {
+			t.Errorf("ticks over [%g, %g]: %q, want %q", c.lo, c.hi, got, c.want)
+		}
+	}
+}

@@ -259,7 +259,7 @@ func newCellView(r *results.Results, c results.Cell) cellView {
 		} else {
 			cv.Score = "×" + results.PlusMinus(best.Score, false)
 			if best.Worst != "" {
-				cv.Score += " (" + best.Worst + ")"
+				cv.Score += " (worst: " + best.Worst + ")"
 			}
 		}
 		for _, k := range v.Ranking[1:] {
