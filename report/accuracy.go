@@ -246,7 +246,7 @@ func (fc *figureContext) efficiencyVsTuning() (*figureSpec, string, error) {
 		return nil, "Efficiency against the tuning constant: no finite efficiency to draw.", nil
 	}
 	leg := newLegend()
-	fc.legendEstimators(leg, labels, true)
+	fc.legendEstimators(leg, labels, theory) // markers only when no curve is drawn
 	var names []string
 	for n := range slopes {
 		names = append(names, n)

@@ -684,3 +684,41 @@ func TestNiceTicks(t *testing.T) {
 		}
 	}
 }
+
+// TestCustomPsiConstantsReachFigures: a swept constant of a psi of the
+// user's own is a tuning axis, and the psi figure names the constant it
+// is drawn at.
+func TestCustomPsiConstantsReachFigures(t *testing.T) {
+	r := handResults(false)
+	withMeasures(r)
+	const path = "estimators.huber.psi.constants.c"
+	for i := range r.Cells {
+		e := &r.Cells[i].Estimators[1]
+		e.Psi, e.Tuning = "custom", nil
+		r.Cells[i].Settings = append(r.Cells[i].Settings, results.Setting{Path: path, Value: []string{"1", "1.4", "2"}[i]})
+	}
+	r.Functions = []results.FunctionCurve{{Estimator: "huber", Psi: "custom", U: []float64{0, 1, 2}, PsiValues: []results.Num{0, 0.5, 0.67}, Rho: []results.Num{0, 0.3, 0.9}, Weight: []results.Num{1, 0.5, 0.33}}}
+	figs, _, err := Figures(r)
+	if err != nil {
+		t.Fatal(err)
+	}
+	found := map[string]bool{}
+	for _, f := range figs {
+		found[f.Name] = true
+		switch f.Name {
+		case "rmse-vs-tuning", "efficiency-vs-tuning":
+			if !bytes.Contains(f.SVG, []byte("huber psi constant c")) {
+				t.Errorf("%s: the axis does not name the custom constant", f.Name)
+			}
+		case "psi-functions":
+			if !bytes.Contains(f.SVG, []byte("huber (irls · custom c = 1)")) {
+				t.Errorf("psi-functions: the legend does not give the constant drawn")
+			}
+		}
+	}
+	for _, want := range []string{"rmse-vs-tuning", "efficiency-vs-tuning", "psi-functions"} {
+		if !found[want] {
+			t.Errorf("no %s figure (got %v)", want, figureNames(figs))
+		}
+	}
+}

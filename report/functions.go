@@ -2,6 +2,7 @@ package report
 
 import (
 	"math"
+	"strings"
 
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/plotter"
@@ -77,10 +78,21 @@ func (fc *figureContext) psiFunctions() (*figureSpec, string, error) {
 // with a custom psi's constants from the scenario added.
 func functionDesc(r *results.Results, f results.FunctionCurve) string {
 	if len(r.Cells) > 0 {
-		for _, e := range r.Cells[0].Estimators {
-			if e.Label == f.Estimator && e.Psi == "custom" {
-				return results.EstimatorDesc(r, e)
+		c := r.Cells[0]
+		for _, e := range c.Estimators {
+			if e.Label != f.Estimator || e.Psi != "custom" {
+				continue
 			}
+			desc := results.EstimatorDesc(r, e)
+			// Where the constants are swept, the description leaves them
+			// out; the curve is drawn at the first cell's.
+			prefix := "estimators." + e.Label + ".psi.constants."
+			for _, s := range c.Settings {
+				if name, ok := strings.CutPrefix(s.Path, prefix); ok {
+					desc += " " + name + " = " + s.Value
+				}
+			}
+			return desc
 		}
 	}
 	if f.Psi == "" {
