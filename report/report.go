@@ -88,6 +88,7 @@ type cellView struct {
 	Index             int
 	Heading           string
 	Settings          string
+	SettingsList      []string // each setting on its own, kept on one line
 	Partial           string
 	HeavyNote         string
 	Choice            string
@@ -247,6 +248,9 @@ func newCellView(r *results.Results, c results.Cell) cellView {
 	v := results.VerdictOf(r, c)
 	cv := cellView{Index: c.Index, Heading: results.Capitalise(results.CellNumber(r, c)), Settings: shortSettings(c.Settings),
 		HeavyNote: results.HeavyTailNote(r, c)}
+	for _, st := range c.Settings {
+		cv.SettingsList = append(cv.SettingsList, shortSetting(st))
+	}
 	if c.Replicates != int64(r.Replicates) {
 		cv.Partial = fmt.Sprintf("%d of %d replicates finished.", c.Replicates, r.Replicates)
 	}
