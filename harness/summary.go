@@ -4,6 +4,7 @@ import (
 	"math"
 	"runtime"
 	"runtime/debug"
+	"slices"
 	"strconv"
 	"strings"
 	"time"
@@ -136,8 +137,25 @@ func functionCurves(p cellPlan) []results.FunctionCurve {
 			desc += " " + strconv.FormatFloat(t, 'g', -1, 64)
 		}
 		fc := results.FunctionCurve{Estimator: spec.Label, Psi: desc}
-		for k := 0; k <= 240; k++ {
-			u := 8 * float64(k) / 240
+		// 401 equally spaced points over [0, 8] (a step of 0.02, fine
+		// enough to draw a corner where it is), plus each kink inside the
+		// range exactly, so that a corner such as Huber's at k is drawn
+		// at k and not cut off between two grid points.
+		const steps = 400
+		us := make([]float64, 0, steps+4)
+		for k := 0; k <= steps; k++ {
+			us = append(us, 8*float64(k)/steps)
+		}
+		if kk, ok := psi.(estimators.Kinked); ok {
+			for _, x := range kk.Kinks() {
+				if x > 0 && x < 8 && !math.IsNaN(x) {
+					us = append(us, x)
+				}
+			}
+			slices.Sort(us)
+			us = slices.Compact(us)
+		}
+		for _, u := range us {
 			fc.U = append(fc.U, u)
 			fc.PsiValues = append(fc.PsiValues, results.Num(psi.Psi(u)))
 			fc.Rho = append(fc.Rho, results.Num(psi.Rho(u)))

@@ -1,6 +1,8 @@
 // Package results holds the outcome of a Monte Carlo run and its encodings:
 // JSON (complete, versioned), tidy CSV (one row per cell × estimator ×
-// coefficient) and a terminal table.
+// coefficient), a terminal table and a Markdown summary. The HTML report
+// and the figures are in package report, so this package does not depend
+// on a plotting library.
 //
 // The package knows only result values; it does not run estimators or read
 // scenarios. Every performance measure is a [Measure]: a value with its

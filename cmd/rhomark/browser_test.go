@@ -10,6 +10,7 @@ import (
 	"path/filepath"
 	"regexp"
 	"strconv"
+	"strings"
 	"testing"
 	"time"
 )
@@ -25,8 +26,11 @@ func chromium() string {
 }
 
 // TestReportInBrowser renders a run's HTML report in headless Chromium: the
-// page's own script must report every figure loaded, and a screenshot must
-// not be blank.
+// page's own script must report every figure loaded; the page as the
+// browser built it must lead with the results (the verdict, then a results
+// table with an RMSE column, both before the first figure, and no raw
+// scenario text above them, the scenario collapsed); and screenshots of
+// the whole page and of its first screen must not be blank.
 func TestReportInBrowser(t *testing.T) {
 	bin := chromium()
 	if bin == "" {
@@ -58,23 +62,56 @@ func TestReportInBrowser(t *testing.T) {
 	if total == 0 || loaded != total {
 		t.Errorf("%d of %d figures loaded in the browser", loaded, total)
 	}
-	shot := filepath.Join(dir, "shot.png")
-	if out, err := exec.CommandContext(ctx, bin, append(base, "--window-size=1200,2400", "--screenshot="+shot, page)...).CombinedOutput(); err != nil {
-		t.Fatalf("chromium --screenshot: %v\n%s", err, out)
+	checkLeadsWithResults(t, dom)
+	for _, size := range []string{"1200,2400", "1280,900"} {
+		shot := filepath.Join(dir, "shot-"+strings.Replace(size, ",", "x", 1)+".png")
+		if out, err := exec.CommandContext(ctx, bin, append(base, "--window-size="+size, "--screenshot="+shot, page)...).CombinedOutput(); err != nil {
+			t.Fatalf("chromium --screenshot: %v\n%s", err, out)
+		}
+		f, err := os.Open(shot)
+		if err != nil {
+			t.Fatal(err)
+		}
+		img, err := png.Decode(f)
+		f.Close()
+		if err != nil {
+			t.Fatal(err)
+		}
+		if frac := inkFraction(img); frac < 0.02 {
+			t.Errorf("the %s screenshot is nearly blank: %.1f%% of pixels are not background", size, 100*frac)
+		} else {
+			t.Logf("%s: %d/%d figures loaded; %.1f%% of the screenshot is ink", size, loaded, total, 100*frac)
+		}
 	}
-	f, err := os.Open(shot)
-	if err != nil {
-		t.Fatal(err)
+}
+
+// checkLeadsWithResults checks the DOM Chromium built: the verdict section
+// and a results table with an RMSE column come before the first figure,
+// nothing preformatted (a raw scenario or JSON block) comes before them,
+// and the scenario's text sits in a collapsed <details>.
+func checkLeadsWithResults(t *testing.T, dom []byte) {
+	t.Helper()
+	at := func(s string) int { return bytes.Index(dom, []byte(s)) }
+	verdict, results, figure := at(`id="verdict"`), at(`<table class="results">`), at(`<figure`)
+	if verdict < 0 || results < 0 || figure < 0 {
+		t.Fatalf("verdict at %d, results table at %d, first figure at %d: want all three", verdict, results, figure)
 	}
-	defer f.Close()
-	img, err := png.Decode(f)
-	if err != nil {
-		t.Fatal(err)
+	if !(verdict < results && results < figure) {
+		t.Errorf("order: verdict at %d, results table at %d, first figure at %d; want verdict, table, figure", verdict, results, figure)
 	}
-	if frac := inkFraction(img); frac < 0.02 {
-		t.Errorf("the screenshot is nearly blank: %.1f%% of pixels are not background", 100*frac)
-	} else {
-		t.Logf("%d/%d figures loaded; %.1f%% of the screenshot is ink", loaded, total, 100*frac)
+	head := dom[results:]
+	if end := bytes.Index(head, []byte("</table>")); end < 0 || !bytes.Contains(head[:end], []byte(">RMSE<")) {
+		t.Error("the first results table has no RMSE column")
+	}
+	if i := at("<pre"); i >= 0 && i < figure {
+		t.Errorf("a preformatted block (at %d) comes before the figures", i)
+	}
+	if bytes.Contains(dom[:figure], []byte(`{"name"`)) || bytes.Contains(dom[:figure], []byte(`"estimators": [`)) {
+		t.Error("raw JSON appears above the figures")
+	}
+	details := regexp.MustCompile(`<details id="scenario-source"[^>]*>`).Find(dom)
+	if details == nil || bytes.Contains(details, []byte(" open")) {
+		t.Errorf("the scenario text is not in a collapsed <details> (%q)", details)
 	}
 }
 

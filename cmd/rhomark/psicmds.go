@@ -10,6 +10,7 @@ import (
 	"strings"
 
 	"github.com/rhomark/rhomark/estimators"
+	htmlreport "github.com/rhomark/rhomark/report"
 	"github.com/rhomark/rhomark/results"
 )
 
@@ -304,7 +305,7 @@ func tuneSweep(e env, fam estimators.Family, ch choice, spec string, asJSON bool
 		for _, r := range rows {
 			cs, eff, ges = append(cs, r.Tuning[0]), append(eff, r.Efficiency), append(ges, r.GrossErrorSensitivity)
 		}
-		fig, err := results.EfficiencyCurveFigure(ch.name+": asymptotic efficiency at the normal", fam.Params[0], cs, eff, ges)
+		fig, err := htmlreport.EfficiencyCurveFigure(ch.name+": asymptotic efficiency at the normal", fam.Params[0], cs, eff, ges)
 		if err != nil {
 			return err
 		}

@@ -7,7 +7,9 @@ import (
 	"path/filepath"
 	"strings"
 
+	htmlreport "github.com/rhomark/rhomark/report"
 	"github.com/rhomark/rhomark/results"
+	"github.com/rhomark/rhomark/scenarios"
 )
 
 func reportCmd(e env, args []string) error {
@@ -44,7 +46,7 @@ func reportCmd(e env, args []string) error {
 	if dir == "" {
 		dir = filepath.Dir(pos[0])
 	}
-	paths, err := writeReport(dir, res, !*noFigures)
+	paths, err := writeReport(dir, res, !*noFigures, scenarioSource(res))
 	if err != nil {
 		return err
 	}
@@ -52,9 +54,32 @@ func reportCmd(e env, args []string) error {
 	return nil
 }
 
+// scenarioSource returns the text of the scenario file res was run from,
+// when the file it names (or the shipped scenario of that name) still holds
+// the same scenario, by the hash of its normalised form; nil otherwise.
+func scenarioSource(res *results.Results) []byte {
+	file := res.Scenario.File
+	if file == "" || res.Scenario.Hash == "" {
+		return nil
+	}
+	data, err := os.ReadFile(file)
+	if err != nil && !strings.ContainsAny(file, `/\`) {
+		data, err = scenarios.LibraryFile(strings.TrimSuffix(file, ".yaml"))
+	}
+	if err != nil {
+		return nil
+	}
+	st, err := scenarios.Parse(file, data, scenarios.Limits{})
+	if err != nil || st.Hash != res.Scenario.Hash {
+		return nil
+	}
+	return data
+}
+
 // writeReport writes NAME.html, NAME.md and, if asked, the figure files
-// into dir.
-func writeReport(dir string, res *results.Results, figureFiles bool) ([]string, error) {
+// into dir. source is the scenario file's text, or nil when it is not at
+// hand (the report then shows the normalised scenario).
+func writeReport(dir string, res *results.Results, figureFiles bool, source []byte) ([]string, error) {
 	name, err := results.SafeName(res.Scenario.Name)
 	if err != nil {
 		return nil, err
@@ -62,12 +87,12 @@ func writeReport(dir string, res *results.Results, figureFiles bool) ([]string, 
 	if err := os.MkdirAll(dir, 0o755); err != nil {
 		return nil, err
 	}
-	figs, err := results.Figures(res)
+	figs, omitted, err := htmlreport.Figures(res)
 	if err != nil {
 		return nil, fmt.Errorf("drawing the figures: %w", err)
 	}
 	var html, md bytes.Buffer
-	if err := results.WriteReport(&html, res, figs); err != nil {
+	if err := htmlreport.Write(&html, htmlreport.Input{Results: res, Figures: figs, Omitted: omitted, Source: source}); err != nil {
 		return nil, err
 	}
 	if err := results.WriteMarkdownSummary(&md, res); err != nil {
@@ -85,7 +110,7 @@ func writeReport(dir string, res *results.Results, figureFiles bool) ([]string, 
 		paths = append(paths, p)
 	}
 	if figureFiles {
-		fp, err := results.SaveFigures(dir, name, figs)
+		fp, err := htmlreport.SaveFigures(dir, name, figs)
 		if err != nil {
 			return paths, err
 		}

@@ -197,7 +197,7 @@ func runCmd(e env, args []string) error {
 			paths = append(paths, filepath.Join(*out, res.ReplicateFile))
 		}
 		if *report {
-			rp, err := writeReport(*out, res, true)
+			rp, err := writeReport(*out, res, true, st.Source)
 			if err != nil {
 				return err
 			}

@@ -1,4 +1,4 @@
-package results
+package report
 
 import (
 	"bytes"
@@ -11,8 +11,11 @@ import (
 	"os"
 	"path/filepath"
 	"slices"
+	"strconv"
 	"strings"
 	"testing"
+
+	"github.com/rhomark/rhomark/results"
 )
 
 // The fixtures in testdata are results files written by
@@ -27,14 +30,14 @@ import (
 //	                 the positions); huber hit its iteration limit in some fits
 //	bench-tuning     Huber's k swept at two spike fractions, normal noise:
 //	                 tuning theory present
-func readFixture(t testing.TB, name string) *Results {
+func readFixture(t testing.TB, name string) *results.Results {
 	t.Helper()
-	f, err := os.Open(filepath.Join("testdata", name+".json"))
+	f, err := os.Open(filepath.Join("..", "results", "testdata", name+".json"))
 	if err != nil {
 		t.Fatal(err)
 	}
 	defer f.Close()
-	r, err := ReadJSON(f)
+	r, err := results.ReadJSON(f)
 	if err != nil {
 		t.Fatalf("%s: %v", name, err)
 	}
@@ -73,8 +76,10 @@ func checkPNG(t *testing.T, what string, b []byte) image.Image {
 		t.Errorf("%s: PNG does not decode: %v", what, err)
 		return nil
 	}
-	if got := img.Bounds().Size(); got.X != figurePixelsX || got.Y != figurePixelsY {
-		t.Errorf("%s: PNG is %dx%d, want %dx%d (7 × 4.5 in at %d dpi)", what, got.X, got.Y, figurePixelsX, figurePixelsY, figureDPI)
+	// 7 in wide at figureDPI; 4.5 in high with one row of panels, more
+	// with several rows of facets.
+	if got := img.Bounds().Size(); got.X != figurePixelsX || got.Y < figurePixelsY {
+		t.Errorf("%s: PNG is %dx%d, want %d wide and at least %d high (7 × 4.5 in at %d dpi)", what, got.X, got.Y, figurePixelsX, figurePixelsY, figureDPI)
 	}
 	colours := map[[4]uint32]bool{}
 	bd := img.Bounds()
@@ -124,39 +129,52 @@ func TestFiguresFromFixtures(t *testing.T) {
 	cases := []struct {
 		fixture string
 		// want follows from what each fixture holds (see readFixture):
-		// bias curves need a breakdown section or exactly one swept
-		// *.fraction; efficiency-vs-tuning needs tuning theory; failures
-		// need a failed fit; psi functions, iterations and coverage come
-		// from the M-estimators of the first cell.
-		want []string
+		// bias curves need a swept *.fraction (bench-faults sweeps two:
+		// the first is the x axis, the other a facet); the tuning figures
+		// need a swept tuning constant; failures need a failed fit; psi
+		// functions, iterations and coverage come from the M-estimators.
+		want    []string
+		omitted []string
 	}{
-		{"bench-faults", []string{"psi-functions", "iterations", "coverage"}},
-		{"bench-breakdown", []string{"bias-curves", "psi-functions", "iterations", "failures", "coverage"}},
-		{"bench-tuning", []string{"bias-curves", "efficiency-vs-tuning", "psi-functions", "iterations", "coverage"}},
+		{"bench-faults", []string{"bias-curves", "intercept-bias", "coverage", "iterations", "psi-functions"}, []string{"rmse-vs-tuning", "failures"}},
+		{"bench-breakdown", []string{"bias-curves", "intercept-bias", "coverage", "failures", "iterations", "psi-functions"}, []string{"rmse-vs-tuning"}},
+		{"bench-tuning", []string{"bias-curves", "intercept-bias", "rmse-vs-tuning", "efficiency-vs-tuning", "coverage", "iterations", "psi-functions"}, []string{"failures"}},
 	}
 	for _, c := range cases {
 		t.Run(c.fixture, func(t *testing.T) {
 			r := readFixture(t, c.fixture)
-			figs, err := Figures(r)
+			figs, omitted, err := Figures(r)
 			if err != nil {
 				t.Fatal(err)
 			}
 			if got := figureNames(figs); !slices.Equal(got, c.want) {
 				t.Fatalf("figures %v, want %v", got, c.want)
 			}
+			var left []string
+			for _, o := range omitted {
+				left = append(left, o.Name)
+				if len(strings.Fields(o.Reason)) < 6 {
+					t.Errorf("omission of %s: reason %q does not say why", o.Name, o.Reason)
+				}
+			}
+			if !slices.Equal(left, c.omitted) {
+				t.Errorf("omitted %v, want %v", left, c.omitted)
+			}
 			for _, f := range figs {
 				what := c.fixture + "/" + f.Name
 				if !strings.HasPrefix(f.Title, r.Scenario.Name+":") {
 					t.Errorf("%s: title %q does not start with the scenario", what, f.Title)
 				}
-				switch f.Name {
-				case "iterations", "coverage", "psi-functions":
-					if !strings.Contains(f.Title, "cell 0 (cells 0–") {
-						t.Errorf("%s: title %q does not say which cell", what, f.Title)
-					}
+				if f.Question == "" {
+					t.Errorf("%s: no question", what)
 				}
 				if len(strings.Fields(f.Caption)) < 8 {
 					t.Errorf("%s: caption %q is too short to say what is drawn", what, f.Caption)
+				}
+				// Uncertainty is drawn as bars or bounds, never as
+				// translucent fills that overlap into one colour.
+				if bytes.Contains(f.SVG, []byte("opacity")) {
+					t.Errorf("%s: the SVG has translucent fills", what)
 				}
 				checkSVG(t, what, f.SVG)
 				checkPNG(t, what, f.PNG)
@@ -169,7 +187,7 @@ func TestFiguresFromFixtures(t *testing.T) {
 // that a regenerated fixture that lost them fails here rather than
 // silently changing what TestFiguresFromFixtures covers.
 func TestFixtureFacts(t *testing.T) {
-	failed := func(r *Results) int64 {
+	failed := func(r *results.Results) int64 {
 		var n int64
 		for _, c := range r.Cells {
 			for _, e := range c.Estimators {
@@ -194,7 +212,7 @@ func TestFixtureFacts(t *testing.T) {
 // palette colours must each appear (anti-aliasing blends edges, so the test
 // allows 6 levels per channel).
 func TestFigureColours(t *testing.T) {
-	figs, err := Figures(readFixture(t, "bench-breakdown"))
+	figs, _, err := Figures(readFixture(t, "bench-breakdown"))
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -210,30 +228,31 @@ func TestFigureColours(t *testing.T) {
 	}
 }
 
-// handResults builds a small Results by hand: two cells that differ in one
+// handResults builds a small results.Results by hand: two cells that differ in one
 // swept fraction (and optionally a second sweep), with ls and a Huber
 // M-estimator. Values are invented for the test.
-func handResults(extraSweep bool) *Results {
-	mk := func(frac string, bias float64, extra string) Cell {
-		settings := []Setting{{Path: "contamination.spikes.fraction", Value: frac}}
+func handResults(extraSweep bool) *results.Results {
+	mk := func(frac string, bias float64, extra string) results.Cell {
+		settings := []results.Setting{{Path: "contamination.spikes.fraction", Value: frac}}
 		if extraSweep {
-			settings = append(settings, Setting{Path: "model.n", Value: extra})
+			settings = append(settings, results.Setting{Path: "model.n", Value: extra})
 		}
-		coef := func(b float64) []Coefficient {
-			return []Coefficient{
-				{Name: "intercept", Bias: Measure{Value: Num(b), MCSE: 0.01}, EmpSE: Measure{Value: 0.1, MCSE: 0.005}, RelEff: Measure{Value: 1, MCSE: 0}, Intervals: 100, Coverage: Measure{Value: 0.94, MCSE: 0.02}},
-				{Name: "volume", Bias: Measure{Value: Num(b / 10), MCSE: 0.001}, EmpSE: Measure{Value: 0.01, MCSE: 0.0005}, RelEff: Measure{Value: 1, MCSE: 0}, Intervals: 100, Coverage: Measure{Value: 0.96, MCSE: 0.02}},
+		coef := func(b float64) []results.Coefficient {
+			return []results.Coefficient{
+				{Name: "intercept", Bias: results.Measure{Value: results.Num(b), MCSE: 0.01}, EmpSE: results.Measure{Value: 0.1, MCSE: 0.005}, RelEff: results.Measure{Value: 1, MCSE: 0}, Intervals: 100, Coverage: results.Measure{Value: 0.94, MCSE: 0.02}},
+				{Name: "volume", Bias: results.Measure{Value: results.Num(b / 10), MCSE: 0.001}, EmpSE: results.Measure{Value: 0.01, MCSE: 0.0005}, RelEff: results.Measure{Value: 1, MCSE: 0}, Intervals: 100, Coverage: results.Measure{Value: 0.96, MCSE: 0.02}},
 			}
 		}
-		return Cell{Settings: settings, Replicates: 100, Estimators: []Estimator{
-			{Label: "ls", Method: "ls", Coefficients: coef(bias), SlopeBias: Measure{Value: Num(bias / 10), MCSE: 0.001},
-				Convergence: Convergence{Fits: 100, Converged: 100, Statuses: []StatusCount{{Status: "solved", Converged: true, Count: 100}}, IterationHistogram: []int64{100}}},
-			{Label: "huber", Method: "irls", Psi: "huber", Tuning: []float64{1.345}, Coefficients: coef(bias / 4), SlopeBias: Measure{Value: Num(bias / 40), MCSE: 0.001},
-				Convergence: Convergence{Fits: 100, Converged: 100, Statuses: []StatusCount{{Status: "converged-change", Converged: true, Count: 100}}, IterationHistogram: []int64{0, 0, 0, 10, 40, 30, 20}}},
+		return results.Cell{Settings: settings, Replicates: 100, Estimators: []results.Estimator{
+			{Label: "ls", Method: "ls", TheoryEfficiency: results.Num(math.NaN()), Coefficients: coef(bias), SlopeBias: results.Measure{Value: results.Num(bias / 10), MCSE: 0.001},
+				Convergence: results.Convergence{Fits: 100, Converged: 100, Statuses: []results.StatusCount{{Status: "solved", Converged: true, Count: 100}}, IterationHistogram: []int64{100}}},
+			{Label: "huber", Method: "irls", Psi: "huber", Tuning: []float64{1.345}, TheoryEfficiency: results.Num(math.NaN()), Coefficients: coef(bias / 4), SlopeBias: results.Measure{Value: results.Num(bias / 40), MCSE: 0.001},
+				Convergence: results.Convergence{Fits: 100, Converged: 100, Statuses: []results.StatusCount{{Status: "converged-change", Converged: true, Count: 100}}, IterationHistogram: []int64{0, 0, 0, 10, 40, 30, 20},
+					MeanIterations: results.Measure{Value: 4.6, MCSE: 0.1}, MaxIterations: 6}},
 		}}
 	}
-	r := &Results{Schema: SchemaVersion, Scenario: ScenarioInfo{Name: "bench-hand"}, Seed: 1, Replicates: 100, Complete: true, Reference: "ls"}
-	r.Cells = []Cell{mk("0", 0.01, "20"), mk("0.1", 0.5, "20"), mk("0.2", 1.2, "20")}
+	r := &results.Results{Schema: results.SchemaVersion, Scenario: results.ScenarioInfo{Name: "bench-hand"}, Seed: 1, Replicates: 100, Complete: true, Reference: "ls"}
+	r.Cells = []results.Cell{mk("0", 0.01, "20"), mk("0.1", 0.5, "20"), mk("0.2", 1.2, "20")}
 	if extraSweep {
 		r.Cells = append(r.Cells, mk("0", 0.02, "40"), mk("0.1", 0.6, "40"), mk("0.2", 1.3, "40"))
 	}
@@ -244,22 +263,23 @@ func handResults(extraSweep bool) *Results {
 }
 
 func TestFiguresFromHandResults(t *testing.T) {
-	iterLimit := func(r *Results) {
+	iterLimit := func(r *results.Results) {
 		cv := &r.Cells[1].Estimators[1].Convergence
 		cv.Converged = 97
-		cv.Statuses = []StatusCount{{Status: "converged-change", Converged: true, Count: 97}, {Status: "iteration-limit", Count: 3}}
+		cv.Statuses = []results.StatusCount{{Status: "converged-change", Converged: true, Count: 97}, {Status: "iteration-limit", Count: 3}}
 	}
-	twoFractions := func(r *Results) {
+	twoFractions := func(r *results.Results) {
 		for i := range r.Cells {
-			r.Cells[i].Settings = append(r.Cells[i].Settings, Setting{Path: "contamination.mislabelled.fraction", Value: "0"})
+			r.Cells[i].Settings = append(r.Cells[i].Settings, results.Setting{Path: "contamination.mislabelled.fraction", Value: "0"})
 		}
 	}
-	noIterations := func(r *Results) {
+	noIterations := func(r *results.Results) {
 		for i := range r.Cells {
 			r.Cells[i].Estimators[1].Convergence.IterationHistogram = []int64{100}
+			r.Cells[i].Estimators[1].Convergence.MaxIterations = 0
 		}
 	}
-	noIntervals := func(r *Results) {
+	noIntervals := func(r *results.Results) {
 		for i := range r.Cells {
 			for j := range r.Cells[i].Estimators {
 				for k := range r.Cells[i].Estimators[j].Coefficients {
@@ -268,37 +288,47 @@ func TestFiguresFromHandResults(t *testing.T) {
 			}
 		}
 	}
-	longIterations := func(r *Results) {
-		h := make([]int64, 700)
-		h[3], h[40], h[650] = 50, 30, 20
-		r.Cells[0].Estimators[1].Convergence.IterationHistogram = h
+
+	tuning := func(r *results.Results) {
+		// A swept Huber constant, with the asymptotic curve over it.
+		for i := range r.Cells {
+			r.Cells[i].Settings = append(r.Cells[i].Settings, results.Setting{Path: "estimators.huber.tuning", Value: []string{"1", "1.5", "2"}[i%3]})
+		}
+		withMeasures(r) // the RMSE figure draws the verdict's score
+		r.TuningTheory = []results.TuningCurve{{Path: "estimators.huber.tuning", Estimator: "huber", Constants: []float64{1, 1.5, 2}, Efficiency: []results.Num{0.9, 0.94, 0.95}}}
 	}
-	tuning := func(r *Results) {
-		// The asymptotic curve over model.n stands in for a tuning sweep:
-		// any swept numeric path works the same way.
-		r.TuningTheory = []TuningCurve{{Path: "model.n", Estimator: "huber", Constants: []float64{10, 30, 50}, Efficiency: []Num{0.9, 0.94, 0.95}}}
+	noFraction := func(r *results.Results) {
+		for i := range r.Cells {
+			r.Cells[i].Settings = []results.Setting{{Path: "model.n", Value: strconv.Itoa(10 * (i + 1))}}
+		}
 	}
 	cases := []struct {
 		name        string
 		extraSweep  bool
-		edit        func(*Results)
+		edit        func(*results.Results)
 		want        []string
 		captionHas  map[string]string
 		captionLack map[string]string
+		omitted     map[string]string
+		panels      map[string][]string // panel titles each figure must draw
 	}{
-		{name: "one fraction swept", want: []string{"bias-curves", "iterations", "coverage"},
-			captionLack: map[string]string{"bias-curves": "first values"}},
-		{name: "fraction and another sweep", extraSweep: true, want: []string{"bias-curves", "iterations", "coverage"},
-			captionHas: map[string]string{"bias-curves": "model.n = 20"}},
-		{name: "two swept fractions", edit: twoFractions, want: []string{"iterations", "coverage"}},
-		{name: "failed fits", edit: iterLimit, want: []string{"bias-curves", "iterations", "failures", "coverage"},
-			captionHas: map[string]string{"failures": "No failed fits (not drawn): ls"}},
-		{name: "nothing iterates", edit: noIterations, want: []string{"bias-curves", "coverage"}},
-		{name: "no intervals", edit: noIntervals, want: []string{"bias-curves", "iterations"}},
-		{name: "tuning theory", extraSweep: true, edit: tuning, want: []string{"bias-curves", "efficiency-vs-tuning", "iterations", "coverage"},
-			captionHas: map[string]string{"efficiency-vs-tuning": "only from cells with contamination.spikes.fraction = 0"}},
-		{name: "long iteration counts", edit: longIterations, want: []string{"bias-curves", "iterations", "coverage"},
-			captionHas: map[string]string{"iterations": "log axis"}},
+		{name: "one fraction swept", want: []string{"bias-curves", "intercept-bias", "coverage", "iterations"},
+			captionLack: map[string]string{"bias-curves": "first values"},
+			omitted:     map[string]string{"failures": "none", "rmse-vs-tuning": "no estimator's constant is swept"}},
+		{name: "fraction and another sweep", extraSweep: true, want: []string{"bias-curves", "intercept-bias", "coverage", "iterations"},
+			captionHas: map[string]string{"bias-curves": "one panel per combination of the other sweeps"},
+			panels:     map[string][]string{"bias-curves": {"model.n = 20", "model.n = 40"}, "intercept-bias": {"model.n = 20", "model.n = 40"}}},
+		{name: "two swept fractions", edit: twoFractions, want: []string{"bias-curves", "intercept-bias", "coverage", "iterations"}},
+		{name: "no fraction swept", edit: noFraction, want: []string{"coefficient-bias", "coverage", "iterations"},
+			captionHas: map[string]string{"coefficient-bias": "intercept included"}},
+		{name: "failed fits", edit: iterLimit, want: []string{"bias-curves", "intercept-bias", "coverage", "failures", "iterations"},
+			captionHas: map[string]string{"failures": "No failed fit in any cell (not drawn): ls"}},
+		{name: "nothing iterates", edit: noIterations, want: []string{"bias-curves", "intercept-bias", "coverage"},
+			omitted: map[string]string{"iterations": "no estimator in this run iterates"}},
+		{name: "no intervals", edit: noIntervals, want: []string{"bias-curves", "intercept-bias", "iterations"},
+			omitted: map[string]string{"coverage": "no estimator in this run gives confidence intervals"}},
+		{name: "tuning swept", edit: tuning, want: []string{"bias-curves", "intercept-bias", "rmse-vs-tuning", "efficiency-vs-tuning", "coverage", "iterations"},
+			captionHas: map[string]string{"efficiency-vs-tuning": "asymptotic efficiency", "rmse-vs-tuning": "estimators.huber.tuning"}},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
@@ -306,16 +336,30 @@ func TestFiguresFromHandResults(t *testing.T) {
 			if c.edit != nil {
 				c.edit(r)
 			}
-			figs, err := Figures(r)
+			figs, omitted, err := Figures(r)
 			if err != nil {
 				t.Fatal(err)
 			}
 			if got := figureNames(figs); !slices.Equal(got, c.want) {
 				t.Fatalf("figures %v, want %v", got, c.want)
 			}
+			for name, want := range c.omitted {
+				found := false
+				for _, o := range omitted {
+					found = found || (o.Name == name && strings.Contains(o.Reason, want))
+				}
+				if !found {
+					t.Errorf("no note that %s is left out saying %q (notes %v)", name, want, omitted)
+				}
+			}
 			for _, f := range figs {
 				if s, ok := c.captionHas[f.Name]; ok && !strings.Contains(f.Caption+" "+f.Title, s) {
 					t.Errorf("%s: caption %q lacks %q", f.Name, f.Caption, s)
+				}
+				for _, title := range c.panels[f.Name] {
+					if !bytes.Contains(f.SVG, []byte(">"+title+"<")) {
+						t.Errorf("%s: no panel titled %q: every value of the other sweeps must be drawn", f.Name, title)
+					}
 				}
 				if s, ok := c.captionLack[f.Name]; ok && strings.Contains(f.Caption, s) {
 					t.Errorf("%s: caption %q should not say %q", f.Name, f.Caption, s)
@@ -326,49 +370,30 @@ func TestFiguresFromHandResults(t *testing.T) {
 }
 
 func TestFiguresOfEmptyOrOddResults(t *testing.T) {
-	if _, err := Figures(nil); err == nil {
+	if _, _, err := Figures(nil); err == nil {
 		t.Error("Figures(nil) gave no error")
 	}
-	figs, err := Figures(&Results{Scenario: ScenarioInfo{Name: "empty"}})
+	figs, omitted, err := Figures(&results.Results{Scenario: results.ScenarioInfo{Name: "empty"}})
 	if err != nil || len(figs) != 0 {
 		t.Errorf("empty results: %d figures, error %v; want none and no error", len(figs), err)
 	}
+	for _, o := range omitted {
+		if o.Name != "rmse-vs-tuning" {
+			t.Errorf("empty results: note on %s: %s", o.Name, o.Reason)
+		}
+	}
 	// Values that are not numbers must be left out, not crash the drawing.
 	r := handResults(false)
-	nan := Num(math.NaN())
-	r.Cells[1].Estimators[0].SlopeBias = Measure{Value: nan, MCSE: nan}
-	r.Cells[0].Estimators[1].Coefficients[0].Coverage = Measure{Value: 0.9, MCSE: nan}
-	r.Functions = []FunctionCurve{{Estimator: "huber", Psi: "huber 1.345", U: []float64{0, 1, 2, math.NaN()}, PsiValues: []Num{0, 1, 1.345, 1.345}, Rho: []Num{0, 0.5, 1.7, 3}, Weight: []Num{1, 1, 0.67, 0.5}}}
-	figs, err = Figures(r)
+	nan := results.Num(math.NaN())
+	r.Cells[1].Estimators[0].SlopeBias = results.Measure{Value: nan, MCSE: nan}
+	r.Cells[0].Estimators[1].Coefficients[0].Coverage = results.Measure{Value: 0.9, MCSE: nan}
+	r.Functions = []results.FunctionCurve{{Estimator: "huber", Psi: "huber 1.345", U: []float64{0, 1, 2, math.NaN()}, PsiValues: []results.Num{0, 1, 1.345, 1.345}, Rho: []results.Num{0, 0.5, 1.7, 3}, Weight: []results.Num{1, 1, 0.67, 0.5}}}
+	figs, _, err = Figures(r)
 	if err != nil {
 		t.Fatal(err)
 	}
-	if got, want := figureNames(figs), []string{"bias-curves", "psi-functions", "iterations", "coverage"}; !slices.Equal(got, want) {
+	if got, want := figureNames(figs), []string{"bias-curves", "intercept-bias", "coverage", "iterations", "psi-functions"}; !slices.Equal(got, want) {
 		t.Errorf("figures %v, want %v", got, want)
-	}
-}
-
-func TestIterationEdges(t *testing.T) {
-	for _, maxK := range []int{0, 1, 7, linearBinLimit, linearBinLimit + 1, 999, 5000} {
-		e := iterationEdges(maxK)
-		if len(e) < 2 {
-			t.Fatalf("maxK %d: edges %v", maxK, e)
-		}
-		for i := 1; i < len(e); i++ {
-			if !(e[i] > e[i-1]) || e[i] != math.Round(e[i]) {
-				t.Fatalf("maxK %d: edges not increasing integers: %v", maxK, e)
-			}
-		}
-		if e[len(e)-1] <= float64(maxK) {
-			t.Errorf("maxK %d: last edge %v does not cover it", maxK, e[len(e)-1])
-		}
-		linear := maxK <= linearBinLimit
-		if linear && (e[0] != 0 || len(e) != maxK+2) {
-			t.Errorf("maxK %d: want unit bins from 0, got %v", maxK, e)
-		}
-		if !linear && (e[0] != 1 || len(e) > 10+10*4+2) {
-			t.Errorf("maxK %d: want geometric bins from 1 (about ten per decade), got %d edges", maxK, len(e))
-		}
 	}
 }
 
@@ -418,7 +443,7 @@ func TestEfficiencyCurveFigure(t *testing.T) {
 }
 
 func TestSaveFigures(t *testing.T) {
-	figs, err := Figures(readFixture(t, "bench-tuning"))
+	figs, _, err := Figures(readFixture(t, "bench-tuning"))
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -427,7 +452,7 @@ func TestSaveFigures(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	want := []string{"bench-tuning-bias-curves.svg", "bench-tuning-bias-curves.png", "bench-tuning-efficiency-vs-tuning.svg", "bench-tuning-efficiency-vs-tuning.png"}
+	want := []string{"bench-tuning-bias-curves.svg", "bench-tuning-bias-curves.png", "bench-tuning-intercept-bias.svg", "bench-tuning-intercept-bias.png"}
 	if len(paths) != len(want) {
 		t.Fatalf("paths %v, want %v", paths, want)
 	}
@@ -631,5 +656,69 @@ func TestPaletteInGreyscale(t *testing.T) {
 			t.Fatalf("series %d and %d look the same: %v", j, i, key)
 		}
 		seen[key] = i
+	}
+}
+
+// TestNiceTicks: labels fall on round steps, about five of them, with the
+// same number of decimals, and never read "-0".
+func TestNiceTicks(t *testing.T) {
+	cases := []struct {
+		lo, hi float64
+		want   []string
+	}{
+		{0, 26.3, []string{"0", "5", "10", "15", "20", "25"}},
+		{0.55, 1.12, []string{"0.6", "0.7", "0.8", "0.9", "1.0", "1.1"}},
+		{-0.03, 0.02, []string{"-0.03", "-0.02", "-0.01", "0.00", "0.01", "0.02"}},
+		{0, 1, []string{"0.0", "0.2", "0.4", "0.6", "0.8", "1.0"}},
+		{0.7, 3.1, []string{"1.0", "1.5", "2.0", "2.5", "3.0"}},
+	}
+	for _, c := range cases {
+		var got []string
+		for _, tk := range (niceTicks{}).Ticks(c.lo, c.hi) {
+			if tk.Label != "" {
+				got = append(got, tk.Label)
+			}
+		}
+		if !slices.Equal(got, c.want) {
+			t.Errorf("ticks over [%g, %g]: %q, want %q", c.lo, c.hi, got, c.want)
+		}
+	}
+}
+
+// TestCustomPsiConstantsReachFigures: a swept constant of a psi of the
+// user's own is a tuning axis, and the psi figure names the constant it
+// is drawn at.
+func TestCustomPsiConstantsReachFigures(t *testing.T) {
+	r := handResults(false)
+	withMeasures(r)
+	const path = "estimators.huber.psi.constants.c"
+	for i := range r.Cells {
+		e := &r.Cells[i].Estimators[1]
+		e.Psi, e.Tuning = "custom", nil
+		r.Cells[i].Settings = append(r.Cells[i].Settings, results.Setting{Path: path, Value: []string{"1", "1.4", "2"}[i]})
+	}
+	r.Functions = []results.FunctionCurve{{Estimator: "huber", Psi: "custom", U: []float64{0, 1, 2}, PsiValues: []results.Num{0, 0.5, 0.67}, Rho: []results.Num{0, 0.3, 0.9}, Weight: []results.Num{1, 0.5, 0.33}}}
+	figs, _, err := Figures(r)
+	if err != nil {
+		t.Fatal(err)
+	}
+	found := map[string]bool{}
+	for _, f := range figs {
+		found[f.Name] = true
+		switch f.Name {
+		case "rmse-vs-tuning", "efficiency-vs-tuning":
+			if !bytes.Contains(f.SVG, []byte("huber psi constant c")) {
+				t.Errorf("%s: the axis does not name the custom constant", f.Name)
+			}
+		case "psi-functions":
+			if !bytes.Contains(f.SVG, []byte("huber (irls · custom c = 1)")) {
+				t.Errorf("psi-functions: the legend does not give the constant drawn")
+			}
+		}
+	}
+	for _, want := range []string{"rmse-vs-tuning", "efficiency-vs-tuning", "psi-functions"} {
+		if !found[want] {
+			t.Errorf("no %s figure (got %v)", want, figureNames(figs))
+		}
 	}
 }
