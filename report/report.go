@@ -73,6 +73,8 @@ type page struct {
 	Criterion                 string
 	TheoryGap                 string
 	Results                   *results.Results
+	Tuning                    []results.TuningSummary
+	TuningNotes               []string
 	Cells                     []cellView
 	Groups                    []figureGroup
 	Convergence               []convergenceRow
@@ -158,6 +160,7 @@ func newPage(in Input) (*page, error) {
 		Incomplete: !r.Complete, Reference: r.Reference, TieMCSE: results.TieMCSE, Results: r,
 		About: strings.TrimSpace(outlineOf(r).About),
 	}
+	pg.Tuning, pg.TuningNotes = results.TuningSummaries(r)
 	pg.Criterion = fmt.Sprintf("Per cell, the estimator to choose by RMSE, which counts bias and spread together (never by variance efficiency alone). "+
 		"The score is the RMSE on an estimator's worst coefficient as a multiple of %s's on the same datasets (×0.5: half the error), ± MCSE; "+
 		"others are shown as multiples of the choice's score. Tied: within %d combined MCSE of the choice. "+

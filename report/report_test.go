@@ -135,7 +135,7 @@ func TestWriteReportFromFixtures(t *testing.T) {
 	}{
 		{"bench-faults", []string{"contamination.spikes.fraction", "contamination.mislabelled.fraction", "bisquare"}},
 		{"bench-breakdown", []string{"contamination.mislabelled.at", "iteration-limit", "bisquare-s"}},
-		{"bench-tuning", []string{"estimators.huber.tuning", "0.75, 1.345, 2.5"}},
+		{"bench-tuning", []string{"estimators.huber.tuning", "0.75, 1.345, 2.5", "Which tuning constant"}},
 	}
 	for _, c := range cases {
 		t.Run(c.fixture, func(t *testing.T) {
@@ -163,6 +163,16 @@ func TestWriteReportFromFixtures(t *testing.T) {
 					t.Errorf("section %q out of order (ids %v)", id, p.ids)
 				}
 				last = i
+			}
+			// A tuning sweep leads with its recommendation, before the
+			// verdict; other runs have none.
+			rec, verdict := slices.Index(p.ids, "recommendation"), slices.Index(p.ids, "verdict")
+			if sums, _ := results.TuningSummaries(r); len(sums) > 0 {
+				if rec < 0 || rec > verdict || !bytes.Contains(doc, []byte(`<table class="tuning">`)) || !bytes.Contains(doc, []byte(sums[0].Lines[0])) {
+					t.Errorf("the tuning recommendation is missing or after the verdict (ids %v)", p.ids)
+				}
+			} else if rec >= 0 {
+				t.Errorf("a recommendation section without a tuning sweep")
 			}
 			// One results table per cell, with an RMSE column.
 			if got := strings.Count(string(doc), "<table class=\"results\">"); got != len(r.Cells) {

@@ -355,7 +355,7 @@ type BreakdownPoint struct {
 type FunctionCurve struct {
 	Estimator string    `json:"estimator"`  // the estimator's label
 	Psi       string    `json:"psi"`        // the psi drawn: its family name followed by any tuning constants
-	U         []float64 `json:"u"`          // the grid of residuals, equally spaced from 0 to 8
+	U         []float64 `json:"u"`          // the grid of residuals: 401 points equally spaced from 0 to 8, plus the kinks of psi, increasing
 	PsiValues []Num     `json:"psi_values"` // psi(U[i]) at each grid point
 	Rho       []Num     `json:"rho"`        // rho(U[i]) at each grid point
 	Weight    []Num     `json:"weight"`     // Weight(U[i]), the IRLS weight psi(u)/u, at each grid point

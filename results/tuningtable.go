@@ -138,13 +138,21 @@ func scoreText(m Measure) string {
 	return pm(m, false)
 }
 
-// writeTuningTable writes a study's table: a row per constant, a column
-// per level, the worst case and the efficiency on clean data. Levels that
-// do not fit in width go to continuation tables below, each with the
-// constants again.
-func writeTuningTable(b *strings.Builder, ts TuningStudy, target float64, width int) {
+// tuningGrid is a study's table in parts: the level tags and their
+// legend ("A = shifted.fraction 0 (clean)"), and per row (the header
+// first, then one per constant) the constant, its level cells and its
+// summary cells (worst case, clean efficiency, theory, marks); excluded
+// lists the constants left out, with the reason.
+type tuningGrid struct {
+	tags, legend           []string
+	names, levels, summary [][]string
+	excluded               []string
+}
+
+// newTuningGrid builds the table of a study.
+func newTuningGrid(ts TuningStudy) tuningGrid {
 	letters := "ABCDEFGHIJKLMNOPQRSTUVWXYZ"
-	var tags, legend []string
+	var g tuningGrid
 	for l, lv := range ts.Levels {
 		tag := string(letters[l%len(letters)])
 		if l >= len(letters) {
@@ -154,26 +162,18 @@ func writeTuningTable(b *strings.Builder, ts TuningStudy, target float64, width 
 		if lv.Clean {
 			name += " (clean)"
 		}
-		tags = append(tags, tag)
-		legend = append(legend, tag+" = "+name)
+		g.tags = append(g.tags, tag)
+		g.legend = append(g.legend, tag+" = "+name)
 	}
 	if len(ts.Levels) == 1 {
-		tags[0] = "score"
-	} else if line := "   levels: " + strings.Join(legend, " · "); runeLen(line) <= width {
-		b.WriteString(line + "\n")
-	} else {
-		b.WriteString("   levels:\n")
-		for _, l := range legend {
-			wrap(b, l, "     ", "         ", width)
-		}
+		g.tags[0] = "score"
 	}
 	// Per constant: its name, its level cells and its summary cells.
-	names := [][]string{{ts.Name}}
-	levels := [][]string{tags}
-	summary := [][]string{{"worst case", "clean eff.", "theory", ""}}
-	var excluded []string
+	g.names = [][]string{{ts.Name}}
+	g.levels = [][]string{g.tags}
+	g.summary = [][]string{{"worst case", "clean eff.", "theory", ""}}
 	for _, tc := range ts.Constants {
-		names = append(names, []string{tc.Value})
+		g.names = append(g.names, []string{tc.Value})
 		var row []string
 		for _, pt := range tc.Points {
 			switch {
@@ -183,11 +183,11 @@ func writeTuningTable(b *strings.Builder, ts TuningStudy, target float64, width 
 				row = append(row, cellScore(pt.Score))
 			}
 		}
-		levels = append(levels, row)
+		g.levels = append(g.levels, row)
 		worst := cellScore(tc.WorstCase)
 		if tc.Excluded != "" {
 			worst = "—"
-			excluded = append(excluded, tc.Value+": "+tc.Excluded)
+			g.excluded = append(g.excluded, tc.Value+": "+tc.Excluded)
 		}
 		theory := "—"
 		if t := float64(tc.TheoryEfficiency); !math.IsNaN(t) {
@@ -206,18 +206,41 @@ func writeTuningTable(b *strings.Builder, ts TuningStudy, target float64, width 
 		if len(marks) > 0 {
 			mark = "◂ " + strings.Join(marks, ", ")
 		}
-		summary = append(summary, []string{worst, pm(tc.Efficiency, false), theory, mark})
+		g.summary = append(g.summary, []string{worst, pm(tc.Efficiency, false), theory, mark})
 	}
-	table := func(from, to int, withSummary bool) [][]string {
-		rows := make([][]string, len(names))
-		for i := range names {
-			rows[i] = append(append([]string{}, names[i]...), levels[i][from:to]...)
-			if withSummary {
-				rows[i] = append(rows[i], summary[i]...)
+	return g
+}
+
+// table returns the rows with the level columns from to to, and the
+// summary columns when withSummary.
+func (g tuningGrid) table(from, to int, withSummary bool) [][]string {
+	rows := make([][]string, len(g.names))
+	for i := range g.names {
+		rows[i] = append(append([]string{}, g.names[i]...), g.levels[i][from:to]...)
+		if withSummary {
+			rows[i] = append(rows[i], g.summary[i]...)
+		}
+	}
+	return rows
+}
+
+// writeTuningTable writes a study's table: a row per constant, a column
+// per level, the worst case and the efficiency on clean data. Levels that
+// do not fit in width go to continuation tables below, each with the
+// constants again.
+func writeTuningTable(b *strings.Builder, ts TuningStudy, target float64, width int) {
+	g := newTuningGrid(ts)
+	if len(ts.Levels) > 1 {
+		if line := "   levels: " + strings.Join(g.legend, " · "); runeLen(line) <= width {
+			b.WriteString(line + "\n")
+		} else {
+			b.WriteString("   levels:\n")
+			for _, l := range g.legend {
+				wrap(b, l, "     ", "         ", width)
 			}
 		}
-		return rows
 	}
+	table, excluded := g.table, g.excluded
 	n := len(ts.Levels)
 	if gridWidth(table(0, n, true), false) <= width || gridWidth(table(0, n, true), true) <= width {
 		writeGrid(b, table(0, n, true), width)
@@ -359,4 +382,44 @@ func writeRecommendationMarkdown(b *strings.Builder, r *Results) {
 	for _, n := range rec.Notes {
 		b.WriteString("\n" + mdText("Tuning: "+n) + "\n")
 	}
+}
+
+// TuningSummary is one tuning study as every output shows it: a title, the
+// answer in sentences, and a table.
+type TuningSummary struct {
+	// Title names the estimator and the swept path.
+	Title string
+	// Lines are the answer's sentences, as the terminal prints them.
+	Lines []string
+	// Legend names the levels ("A = shifted.fraction 0 (clean)"); empty
+	// when there is one level.
+	Legend []string
+	// Table is the header row, then a row per constant: the constant, its
+	// score at each level, its worst case, clean efficiency (simulated ±
+	// MCSE), asymptotic efficiency and marks (choice, within 2 MCSE,
+	// target).
+	Table [][]string
+	// Excluded lists the constants left out, with the reason.
+	Excluded []string
+}
+
+// TuningSummaries returns the tuning studies of r in the words and table
+// of the terminal and the Markdown summary, for other formats (the HTML
+// report), and the notes on sweeps that could not be studied.
+func TuningSummaries(r *Results) ([]TuningSummary, []string) {
+	rec := RecommendationOf(r)
+	if rec == nil {
+		return nil, nil
+	}
+	var out []TuningSummary
+	for _, ts := range rec.Studies {
+		g := newTuningGrid(ts)
+		s := TuningSummary{Title: ts.Estimator + ", " + ts.Path, Lines: recommendationLines(ts, rec.TargetEfficiency),
+			Table: g.table(0, len(ts.Levels), true), Excluded: g.excluded}
+		if len(ts.Levels) > 1 {
+			s.Legend = g.legend
+		}
+		out = append(out, s)
+	}
+	return out, rec.Notes
 }
