@@ -144,7 +144,6 @@ func (ws *Workspace) sNewtonStep(psi Bisquare, x blas64.General, y, beta []float
 	return true
 }
 
-
 // sOutcome is how an S fit ended.
 type sOutcome struct {
 	scale  float64 // the M-scale of the returned coefficients

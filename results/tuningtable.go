@@ -326,60 +326,40 @@ func writeGrid(b *strings.Builder, rows [][]string, width int) {
 }
 
 // writeRecommendationMarkdown writes the tuning studies of r, if any, as
-// Markdown: the same sentences as the terminal, then a table with a row
-// per constant.
+// Markdown: the same sentences and table as the terminal (see
+// TuningSummaries), the level tags spelt out in the header.
 func writeRecommendationMarkdown(b *strings.Builder, r *Results) {
+	studies, notes := TuningSummaries(r)
 	rec := RecommendationOf(r)
-	if rec == nil {
-		return
-	}
-	for _, ts := range rec.Studies {
+	for si, s := range studies {
+		ts := rec.Studies[si]
 		fmt.Fprintf(b, "\n## Tuning study: %s, %s\n\n", mdCode(ts.Estimator), mdCode(ts.Path))
-		for _, line := range recommendationLines(ts, rec.TargetEfficiency) {
+		for _, line := range s.Lines {
 			b.WriteString("- " + mdText(line) + "\n")
 		}
-		head := []string{mdText(ts.Name)}
-		for _, lv := range ts.Levels {
-			name := levelName(lv)
-			if lv.Clean {
-				name += " (clean)"
+		for i, row := range s.Table {
+			cells := make([]string, len(row))
+			for j, v := range row {
+				cells[j] = mdText(v)
 			}
-			head = append(head, "score at "+mdText(name))
-		}
-		head = append(head, "worst case", "efficiency (clean)", "theory", "")
-		b.WriteString("\n| " + strings.Join(head, " | ") + " |\n|" + strings.Repeat("---|", len(head)) + "\n")
-		for _, tc := range ts.Constants {
-			row := []string{mdText(tc.Value)}
-			for _, pt := range tc.Points {
-				if pt.Excluded != "" {
-					row = append(row, "excluded")
-				} else {
-					row = append(row, mdText(scoreText(pt.Score)))
+			if i == 0 {
+				for l, lv := range ts.Levels {
+					name := levelName(lv)
+					if lv.Clean {
+						name += " (clean)"
+					}
+					cells[1+l] = "score at " + mdText(name)
 				}
+				b.WriteString("\n| " + strings.Join(cells, " | ") + " |\n|" + strings.Repeat("---|", len(cells)) + "\n")
+				continue
 			}
-			if tc.Excluded != "" {
-				row = append(row, "excluded: "+mdText(tc.Excluded))
-			} else {
-				row = append(row, mdText(scoreText(tc.WorstCase)))
-			}
-			theory := "—"
-			if t := float64(tc.TheoryEfficiency); !math.IsNaN(t) {
-				theory = fmt.Sprintf("%.4f", t)
-			}
-			var marks []string
-			if tc.Value == ts.RecommendedValue {
-				marks = append(marks, "**choice**")
-			} else if tc.InRange {
-				marks = append(marks, "within 2 MCSE")
-			}
-			if tc.Value == ts.Target.Value {
-				marks = append(marks, "target "+strconv.FormatFloat(rec.TargetEfficiency, 'g', -1, 64))
-			}
-			row = append(row, mdText(pm(tc.Efficiency, false)), theory, strings.Join(marks, ", "))
-			b.WriteString("| " + strings.Join(row, " | ") + " |\n")
+			b.WriteString("| " + strings.Join(cells, " | ") + " |\n")
+		}
+		for _, x := range s.Excluded {
+			b.WriteString("\n" + mdText("Excluded "+x) + "\n")
 		}
 	}
-	for _, n := range rec.Notes {
+	for _, n := range notes {
 		b.WriteString("\n" + mdText("Tuning: "+n) + "\n")
 	}
 }

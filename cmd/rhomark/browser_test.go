@@ -37,7 +37,7 @@ func TestReportInBrowser(t *testing.T) {
 		if os.Getenv(requireToolsEnv) != "" {
 			t.Fatalf("%s is set but no Chromium was found; install Debian's chromium package", requireToolsEnv)
 		}
-		t.Skipf("Chromium is not installed (.ci/run installs it and sets %s); the HTML structure is tested in package results", requireToolsEnv)
+		t.Skipf("Chromium is not installed (.ci/run installs it and sets %s); the HTML structure is tested in package report", requireToolsEnv)
 	}
 	dir := t.TempDir()
 	if code, _, errs := rhomark(t, "run", "breakdown-curve", "--replicates", "12", "--out", dir, "--report"); code != exitOK {
