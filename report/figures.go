@@ -28,8 +28,9 @@ import (
 type Figure struct {
 	// Name is the file-name stem: "bias-curves", "intercept-bias",
 	// "coefficient-bias", "rmse-vs-tuning", "efficiency-vs-tuning",
-	// "coverage", "failures", "iterations", "psi-functions" or
-	// "efficiency-curve".
+	// "tuning-accuracy" (with "-LABEL" after it when a run has several
+	// tuning studies), "coverage", "failures", "iterations",
+	// "psi-functions" or "efficiency-curve".
 	Name string
 	// Question is the question the figure answers, one of the Question
 	// constants; the report groups figures by it.
@@ -89,10 +90,13 @@ func sansFace() font.Font { return font.Font{Typeface: "Liberation", Variant: "S
 
 // builder draws one figure, or says why it cannot (a nil spec and a
 // reason; an empty reason when the figure has no place in this kind of
-// run and leaving it out needs no note).
+// run and leaving it out needs no note). A figure drawn once for each of
+// several things (each tuning study) has each instead of build: it returns
+// the figures, each spec named, and the notes on those left out.
 type builder struct {
 	name, question string
 	build          func() (*figureSpec, string, error)
+	each           func() ([]*figureSpec, []Omission, error)
 }
 
 // Figures renders every figure that r's contents support, in a fixed
@@ -103,36 +107,53 @@ func Figures(r *results.Results) ([]Figure, []Omission, error) {
 	}
 	fc := newFigureContext(r)
 	builders := []builder{
-		{"bias-curves", QuestionBias, fc.biasCurves},
-		{"intercept-bias", QuestionBias, fc.interceptBias},
-		{"coefficient-bias", QuestionBias, fc.coefficientBias},
-		{"rmse-vs-tuning", QuestionAccuracy, fc.rmseVsTuning},
-		{"efficiency-vs-tuning", QuestionAccuracy, fc.efficiencyVsTuning},
-		{"coverage", QuestionCoverage, fc.coverage},
-		{"failures", QuestionConvergence, fc.failures},
-		{"iterations", QuestionConvergence, fc.iterations},
-		{"psi-functions", QuestionFunctions, fc.psiFunctions},
+		{"bias-curves", QuestionBias, fc.biasCurves, nil},
+		{"intercept-bias", QuestionBias, fc.interceptBias, nil},
+		{"coefficient-bias", QuestionBias, fc.coefficientBias, nil},
+		{"rmse-vs-tuning", QuestionAccuracy, fc.rmseVsTuning, nil},
+		{"efficiency-vs-tuning", QuestionAccuracy, fc.efficiencyVsTuning, nil},
+		{"tuning-accuracy", QuestionAccuracy, nil, fc.tuningAccuracy},
+		{"coverage", QuestionCoverage, fc.coverage, nil},
+		{"failures", QuestionConvergence, fc.failures, nil},
+		{"iterations", QuestionConvergence, fc.iterations, nil},
+		{"psi-functions", QuestionFunctions, fc.psiFunctions, nil},
 	}
 	var figs []Figure
 	var omitted []Omission
 	for _, b := range builders {
-		spec, why, err := b.build()
-		if err != nil {
-			return nil, nil, fmt.Errorf("figure %s: %w", b.name, err)
-		}
-		if spec == nil {
-			if why != "" {
-				omitted = append(omitted, Omission{Name: b.name, Question: b.question, Reason: why})
+		var specs []*figureSpec
+		if b.each != nil {
+			ss, notes, err := b.each()
+			if err != nil {
+				return nil, nil, fmt.Errorf("figure %s: %w", b.name, err)
 			}
-			continue
+			for _, o := range notes {
+				o.Question = b.question
+				omitted = append(omitted, o)
+			}
+			specs = ss
+		} else {
+			spec, why, err := b.build()
+			if err != nil {
+				return nil, nil, fmt.Errorf("figure %s: %w", b.name, err)
+			}
+			if spec == nil {
+				if why != "" {
+					omitted = append(omitted, Omission{Name: b.name, Question: b.question, Reason: why})
+				}
+				continue
+			}
+			spec.name = b.name
+			specs = []*figureSpec{spec}
 		}
-		spec.name = b.name
-		f, err := spec.figure()
-		if err != nil {
-			return nil, nil, fmt.Errorf("figure %s: %w", b.name, err)
+		for _, spec := range specs {
+			f, err := spec.figure()
+			if err != nil {
+				return nil, nil, fmt.Errorf("figure %s: %w", spec.name, err)
+			}
+			f.Question = b.question
+			figs = append(figs, f)
 		}
-		f.Question = b.question
-		figs = append(figs, f)
 	}
 	return figs, omitted, nil
 }
@@ -486,7 +507,9 @@ func alignX(ps ...*plot.Plot) {
 // figureSpec is a figure before rendering: a grid of panels, an optional
 // legend, a title and subtitle drawn above them, and the caption. The
 // legend goes in the first empty (nil) tile of the grid if there is one,
-// otherwise in a column to the right.
+// otherwise in a column to the right. A figure whose grid is full and
+// whose panels need the whole width (three columns) gives keys instead: a
+// legend laid out in rows across the figure, under the title.
 type figureSpec struct {
 	name     string
 	title    string
@@ -494,7 +517,53 @@ type figureSpec struct {
 	caption  string
 	panels   [][]*plot.Plot
 	legend   *plot.Legend
+	keys     []legendKey
 	height   vg.Length // 0: figureHeight
+}
+
+// legendKey is one entry of a legend drawn in rows (figureSpec.keys).
+type legendKey struct {
+	text   string
+	thumbs []plot.Thumbnailer
+}
+
+// paintKeys draws the keys in rows across the top of c, each row centred,
+// and returns the canvas below them.
+func (s *figureSpec) paintKeys(c draw.Canvas) draw.Canvas {
+	gap := vg.Points(14)
+	avail := c.Max.X - c.Min.X
+	type placed struct {
+		l *plot.Legend
+		w vg.Length
+	}
+	var rows [][]placed
+	var widths []vg.Length
+	for _, k := range s.keys {
+		l := newLegend()
+		l.Add(k.text, k.thumbs...)
+		r := l.Rectangle(c)
+		w := r.Max.X - r.Min.X
+		n := len(rows)
+		if n == 0 || widths[n-1]+gap+w > avail {
+			rows = append(rows, nil)
+			widths = append(widths, -gap)
+			n++
+		}
+		rows[n-1] = append(rows[n-1], placed{l, w})
+		widths[n-1] += gap + w
+	}
+	lh := newLegend().TextStyle.Height("Mg") * 1.25
+	y := c.Max.Y
+	for i, row := range rows {
+		x := c.Min.X + (avail-widths[i])/2
+		for _, p := range row {
+			lc := draw.Canvas{Canvas: c.Canvas, Rectangle: vg.Rectangle{Min: vg.Point{X: x, Y: y - lh}, Max: vg.Point{X: x + p.w, Y: y}}}
+			p.l.Draw(lc)
+			x += p.w + gap
+		}
+		y -= lh
+	}
+	return draw.Crop(c, 0, 0, 0, -(c.Max.Y - y + vg.Points(6)))
 }
 
 // fullTitle is the title and subtitle as one line of text.
@@ -559,6 +628,9 @@ func (s *figureSpec) paint(c draw.Canvas) {
 	}
 	if y < body.Max.Y {
 		body = draw.Crop(body, 0, 0, 0, -(body.Max.Y - y + vg.Points(6)))
+	}
+	if len(s.keys) > 0 {
+		body = s.paintKeys(body)
 	}
 	legendTile := false
 	for _, row := range s.panels {

@@ -136,9 +136,9 @@ func TestFiguresFromFixtures(t *testing.T) {
 		want    []string
 		omitted []string
 	}{
-		{"bench-faults", []string{"bias-curves", "intercept-bias", "coverage", "iterations", "psi-functions"}, []string{"rmse-vs-tuning", "failures"}},
-		{"bench-breakdown", []string{"bias-curves", "intercept-bias", "coverage", "failures", "iterations", "psi-functions"}, []string{"rmse-vs-tuning"}},
-		{"bench-tuning", []string{"bias-curves", "intercept-bias", "rmse-vs-tuning", "efficiency-vs-tuning", "coverage", "iterations", "psi-functions"}, []string{"failures"}},
+		{"bench-faults", []string{"bias-curves", "intercept-bias", "coverage", "iterations", "psi-functions"}, []string{"rmse-vs-tuning", "tuning-accuracy", "failures"}},
+		{"bench-breakdown", []string{"bias-curves", "intercept-bias", "coverage", "failures", "iterations", "psi-functions"}, []string{"rmse-vs-tuning", "tuning-accuracy"}},
+		{"bench-tuning", []string{"bias-curves", "intercept-bias", "rmse-vs-tuning", "efficiency-vs-tuning", "tuning-accuracy", "coverage", "iterations", "psi-functions"}, []string{"failures"}},
 	}
 	for _, c := range cases {
 		t.Run(c.fixture, func(t *testing.T) {
@@ -314,7 +314,7 @@ func TestFiguresFromHandResults(t *testing.T) {
 	}{
 		{name: "one fraction swept", want: []string{"bias-curves", "intercept-bias", "coverage", "iterations"},
 			captionLack: map[string]string{"bias-curves": "first values"},
-			omitted:     map[string]string{"failures": "none", "rmse-vs-tuning": "no estimator's constant is swept"}},
+			omitted:     map[string]string{"failures": "none", "rmse-vs-tuning": "no estimator's constant is swept", "tuning-accuracy": "no estimator's tuning constant is swept"}},
 		{name: "fraction and another sweep", extraSweep: true, want: []string{"bias-curves", "intercept-bias", "coverage", "iterations"},
 			captionHas: map[string]string{"bias-curves": "one panel per combination of the other sweeps"},
 			panels:     map[string][]string{"bias-curves": {"model.n = 20", "model.n = 40"}, "intercept-bias": {"model.n = 20", "model.n = 40"}}},
@@ -327,8 +327,8 @@ func TestFiguresFromHandResults(t *testing.T) {
 			omitted: map[string]string{"iterations": "no estimator in this run iterates"}},
 		{name: "no intervals", edit: noIntervals, want: []string{"bias-curves", "intercept-bias", "iterations"},
 			omitted: map[string]string{"coverage": "no estimator in this run gives confidence intervals"}},
-		{name: "tuning swept", edit: tuning, want: []string{"bias-curves", "intercept-bias", "rmse-vs-tuning", "efficiency-vs-tuning", "coverage", "iterations"},
-			captionHas: map[string]string{"efficiency-vs-tuning": "asymptotic efficiency", "rmse-vs-tuning": "estimators.huber.tuning"}},
+		{name: "tuning swept", edit: tuning, want: []string{"bias-curves", "intercept-bias", "rmse-vs-tuning", "efficiency-vs-tuning", "tuning-accuracy", "coverage", "iterations"},
+			captionHas: map[string]string{"efficiency-vs-tuning": "asymptotic efficiency", "rmse-vs-tuning": "estimators.huber.tuning", "tuning-accuracy": "estimators.huber.tuning"}},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
@@ -378,7 +378,7 @@ func TestFiguresOfEmptyOrOddResults(t *testing.T) {
 		t.Errorf("empty results: %d figures, error %v; want none and no error", len(figs), err)
 	}
 	for _, o := range omitted {
-		if o.Name != "rmse-vs-tuning" {
+		if o.Name != "rmse-vs-tuning" && o.Name != "tuning-accuracy" {
 			t.Errorf("empty results: note on %s: %s", o.Name, o.Reason)
 		}
 	}
@@ -710,15 +710,225 @@ func TestCustomPsiConstantsReachFigures(t *testing.T) {
 			if !bytes.Contains(f.SVG, []byte("huber psi constant c")) {
 				t.Errorf("%s: the axis does not name the custom constant", f.Name)
 			}
+		case "tuning-accuracy":
+			if !bytes.Contains(f.SVG, []byte(">psi constant c<")) {
+				t.Errorf("%s: the axis does not name the custom constant", f.Name)
+			}
 		case "psi-functions":
 			if !bytes.Contains(f.SVG, []byte("huber (irls · custom c = 1)")) {
 				t.Errorf("psi-functions: the legend does not give the constant drawn")
 			}
 		}
 	}
-	for _, want := range []string{"rmse-vs-tuning", "efficiency-vs-tuning", "psi-functions"} {
+	for _, want := range []string{"rmse-vs-tuning", "efficiency-vs-tuning", "tuning-accuracy", "psi-functions"} {
 		if !found[want] {
 			t.Errorf("no %s figure (got %v)", want, figureNames(figs))
 		}
+	}
+}
+
+// TestTuningAccuracyFigure checks the figure of bias, SE and RMSE per
+// coefficient against a swept tuning constant: a row of panels (bias, SE,
+// RMSE) for every coefficient of the tuned estimator, the intercept
+// included, a legend entry per level with the clean one marked, the
+// recommended and target constants named, one figure per tuning study, and
+// a note saying why when it cannot be drawn.
+func TestTuningAccuracyFigure(t *testing.T) {
+	// tuned applies f to every cell's settings value of path.
+	tuned := func(path string, f func(string) string) func(*results.Results) {
+		return func(r *results.Results) {
+			for i := range r.Cells {
+				for j := range r.Cells[i].Settings {
+					if s := &r.Cells[i].Settings[j]; s.Path == path {
+						s.Value = f(s.Value)
+					}
+				}
+			}
+		}
+	}
+	// secondTuned adds a second tuned estimator, huber2, a copy of huber
+	// with its own swept constant.
+	secondTuned := func(r *results.Results) {
+		for i := range r.Cells {
+			c := &r.Cells[i]
+			v, _ := settingValue(c.Settings, "estimators.huber.tuning")
+			c.Settings = append(c.Settings, results.Setting{Path: "estimators.huber2.tuning", Value: v})
+			for _, e := range c.Estimators {
+				if e.Label == "huber" {
+					e.Label = "huber2"
+					e.Coefficients = slices.Clone(e.Coefficients)
+					c.Estimators = append(c.Estimators, e)
+					break
+				}
+			}
+		}
+	}
+	// manyCoefficients gives huber eight coefficients in every cell.
+	manyCoefficients := func(r *results.Results) {
+		for i := range r.Cells {
+			for j := range r.Cells[i].Estimators {
+				e := &r.Cells[i].Estimators[j]
+				if e.Label != "huber" {
+					continue
+				}
+				ks := slices.Clone(e.Coefficients)
+				for n := len(ks); n < 8; n++ {
+					k := ks[1]
+					k.Name = "extra" + strconv.Itoa(n)
+					ks = append(ks, k)
+				}
+				e.Coefficients = ks
+			}
+		}
+	}
+	cases := []struct {
+		name    string
+		fixture string
+		edit    func(*results.Results)
+		figures []string // the tuning-accuracy figures drawn
+		rows    int      // coefficients drawn per figure (0: all)
+		levels  []string // the legend entry of each level
+		omitted string   // what the note on a figure left out says
+		caption string   // what every figure's caption says
+	}{
+		{name: "one study", fixture: "bench-tuning", figures: []string{"tuning-accuracy"},
+			levels: []string{"spikes.fraction = 0 (clean)", "spikes.fraction = 0.1"}, caption: "intercept included"},
+		{name: "two studies", fixture: "bench-tuning", edit: secondTuned, figures: []string{"tuning-accuracy-huber", "tuning-accuracy-huber2"},
+			levels: []string{"spikes.fraction = 0 (clean)", "spikes.fraction = 0.1"}},
+		{name: "more coefficients than rows", fixture: "bench-tuning", edit: manyCoefficients, figures: []string{"tuning-accuracy"}, rows: maxTuningRows,
+			levels: []string{"spikes.fraction = 0 (clean)", "spikes.fraction = 0.1"}, caption: "Only the first 6 of 8 coefficients"},
+		{name: "constants are not numbers", fixture: "bench-tuning", edit: tuned("estimators.huber.tuning", func(v string) string { return "k" + v }),
+			omitted: "not numbers"},
+		{name: "no tuning sweep", fixture: "bench-faults", omitted: "no estimator's tuning constant is swept"},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			r := readFixture(t, c.fixture)
+			if c.edit != nil {
+				c.edit(r)
+			}
+			figs, omitted, err := Figures(r)
+			if err != nil {
+				t.Fatal(err)
+			}
+			var got []Figure
+			for _, f := range figs {
+				if strings.HasPrefix(f.Name, "tuning-accuracy") {
+					got = append(got, f)
+				}
+			}
+			if !slices.Equal(figureNames(got), c.figures) {
+				t.Fatalf("tuning-accuracy figures %v, want %v", figureNames(got), c.figures)
+			}
+			var notes []string
+			for _, o := range omitted {
+				if strings.HasPrefix(o.Name, "tuning-accuracy") {
+					notes = append(notes, o.Reason)
+					if o.Question != QuestionAccuracy {
+						t.Errorf("note on %s filed under %q, want %q", o.Name, o.Question, QuestionAccuracy)
+					}
+				}
+			}
+			if c.omitted == "" && len(notes) > 0 {
+				t.Errorf("unexpected notes %q", notes)
+			}
+			if c.omitted != "" && (len(notes) != 1 || !strings.Contains(notes[0], c.omitted)) {
+				t.Errorf("notes %q, want one saying %q", notes, c.omitted)
+			}
+			rec := results.RecommendationOf(r)
+			for _, f := range got {
+				label := strings.TrimPrefix(strings.TrimPrefix(f.Name, "tuning-accuracy"), "-")
+				if label == "" {
+					label = "huber"
+				}
+				i := slices.IndexFunc(rec.Studies, func(s results.TuningStudy) bool { return s.Estimator == label })
+				if i < 0 {
+					t.Fatalf("%s: no tuning study of %s", f.Name, label)
+				}
+				ts := rec.Studies[i]
+				if f.Question != QuestionAccuracy {
+					t.Errorf("%s: question %q, want %q", f.Name, f.Question, QuestionAccuracy)
+				}
+				if !strings.Contains(f.Title, label) || !strings.Contains(f.Caption, c.caption) {
+					t.Errorf("%s: title %q or caption %q lacks the estimator or %q", f.Name, f.Title, f.Caption, c.caption)
+				}
+				// Every coefficient of the tuned estimator, the intercept
+				// first, gets a row of bias, SE and RMSE panels.
+				e := r.Cells[0].Estimators[slices.IndexFunc(r.Cells[0].Estimators, func(e results.Estimator) bool { return e.Label == label })]
+				var coefs []string
+				for _, k := range e.Coefficients {
+					coefs = append(coefs, k.Name)
+				}
+				if len(coefs) < 2 || coefs[0] != "intercept" {
+					t.Fatalf("%s: fixture coefficients %v, want the intercept and a slope", f.Name, coefs)
+				}
+				rows := len(coefs)
+				if c.rows > 0 {
+					rows = c.rows
+				}
+				for j, name := range coefs {
+					for _, m := range []string{"bias", "SE", "RMSE"} {
+						has := bytes.Contains(f.SVG, []byte(">"+name+": "+m+"<"))
+						if has != (j < rows) {
+							t.Errorf("%s: panel %q drawn %v, want %v", f.Name, name+": "+m, has, j < rows)
+						}
+					}
+				}
+				for _, l := range c.levels {
+					if !bytes.Contains(f.SVG, []byte(">"+l+"<")) {
+						t.Errorf("%s: no legend entry for the level %q", f.Name, l)
+					}
+				}
+				if len(ts.Levels) != len(c.levels) {
+					t.Errorf("%s: %d levels in the study, want %d", f.Name, len(ts.Levels), len(c.levels))
+				}
+				// The RMSE drawn is the cell's: √MSE where the file
+				// predates the RMSE (the fixtures do), never a zero.
+				for _, tc := range ts.Constants {
+					for _, pt := range tc.Points {
+						for _, k := range tuningCoefficients(r, pt, label) {
+							cell := r.Cells[slices.IndexFunc(r.Cells, func(c results.Cell) bool { return c.Index == pt.Cell })]
+							ce := cell.Estimators[slices.IndexFunc(cell.Estimators, func(e results.Estimator) bool { return e.Label == label })]
+							ck, _ := coefficientNamed(ce, k.Name)
+							want := math.Sqrt(float64(ck.MSE.Value))
+							if ck.RMSE.Value != 0 {
+								want = float64(ck.RMSE.Value)
+							}
+							if got := float64(k.RMSE.Value); !(got > 0) || math.Abs(got-want) > 1e-12*want {
+								t.Errorf("%s: cell %d, %s: RMSE drawn %g, want %g", f.Name, pt.Cell, k.Name, got, want)
+							}
+						}
+					}
+				}
+				if !bytes.Contains(f.SVG, []byte(">no bias<")) {
+					t.Errorf("%s: the zero line of the bias panels has no legend entry", f.Name)
+				}
+				// The recommended and the target constant are marked
+				// and named (the fixture's study has both).
+				if ts.RecommendedValue == "" || ts.Target.Value == "" {
+					t.Fatalf("%s: the fixture's study lost its recommendation %q or target %q", f.Name, ts.RecommendedValue, ts.Target.Value)
+				}
+				for _, want := range []string{ts.RecommendedValue, ts.Target.Value} {
+					if !bytes.Contains(f.SVG, []byte(": "+want+"<")) {
+						t.Errorf("%s: the legend does not name the marked constant %s", f.Name, want)
+					}
+				}
+				if bytes.Contains(f.SVG, []byte("opacity")) {
+					t.Errorf("%s: the SVG has translucent fills", f.Name)
+				}
+				checkSVG(t, f.Name, f.SVG)
+				img := checkPNG(t, f.Name, f.PNG)
+				if img == nil {
+					continue
+				}
+				// One line per level, in the level's palette colour.
+				for l := range c.levels {
+					col := styleOf(l).colour
+					if !hasColourNear(img, [3]uint8{col.R, col.G, col.B}, 6) {
+						t.Errorf("%s: the colour of level %d (%s) is not in the PNG", f.Name, l, styleOf(l).colourName)
+					}
+				}
+			}
+		})
 	}
 }
