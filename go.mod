@@ -5,10 +5,10 @@ go 1.26.8
 require (
 	github.com/expr-lang/expr v1.17.8
 	github.com/schollz/progressbar/v3 v3.19.1
+	go.yaml.in/yaml/v3 v3.0.6
 	golang.org/x/term v0.48.0
 	gonum.org/v1/gonum v0.17.0
 	gonum.org/v1/plot v0.17.0
-	gopkg.in/yaml.v3 v3.0.1
 )
 
 require (
