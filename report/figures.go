@@ -14,6 +14,7 @@ import (
 
 	"gonum.org/v1/plot"
 
+	"github.com/rhomark/rhomark/internal/atomicfile"
 	"github.com/rhomark/rhomark/results"
 	"gonum.org/v1/plot/font"
 	"gonum.org/v1/plot/plotter"
@@ -209,7 +210,7 @@ func EfficiencyCurveFigure(title, constantName string, constants, efficiency, ge
 }
 
 // SaveFigures writes NAME-<fig.Name>.svg and NAME-<fig.Name>.png into dir
-// for each figure, each atomically (see results.WriteFileAtomic), creating dir if
+// for each figure, each atomically (see internal/atomicfile), creating dir if
 // needed, and returns the paths written.
 func SaveFigures(dir, name string, figs []Figure) ([]string, error) {
 	base, err := results.SafeName(name)
@@ -234,7 +235,7 @@ func SaveFigures(dir, name string, figs []Figure) ([]string, error) {
 				return paths, fmt.Errorf("figure %s has no %s rendering", f.Name, out.ext)
 			}
 			p := filepath.Join(dir, base+"-"+f.Name+out.ext)
-			if err := results.WriteFileAtomic(p, out.data); err != nil {
+			if err := atomicfile.WriteFile(p, out.data); err != nil {
 				return paths, err
 			}
 			paths = append(paths, p)

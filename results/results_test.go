@@ -2,11 +2,8 @@ package results
 
 import (
 	"bytes"
-	"errors"
 	"math"
 	"math/rand/v2"
-	"os"
-	"path/filepath"
 	"strings"
 	"testing"
 
@@ -242,45 +239,5 @@ func TestSafeName(t *testing.T) {
 	}
 	if _, err := SafeName("flow-meter.v2"); err != nil {
 		t.Error(err)
-	}
-}
-
-func TestWriteFileAtomicKeepsOldOnFailure(t *testing.T) {
-	dir := t.TempDir()
-	path := dir + "/r.json"
-	if err := WriteFileAtomic(path, []byte("old")); err != nil {
-		t.Fatal(err)
-	}
-	// A commit that fails at its last step (the rename, here onto a
-	// non-empty directory) reports a WriteError naming its target, removes
-	// its temporary file and touches no other file. (A write failing for
-	// lack of space, with the old file kept, is tested on the command in
-	// cmd/rhomark's TestWriteFailureKeepsOldResults.)
-	tmp, err := CreateTemp(path)
-	if err != nil {
-		t.Fatal(err)
-	}
-	tmp.Write([]byte("new"))
-	blocker := dir + "/blocker"
-	os.MkdirAll(blocker+"/inside", 0o755)
-	var we *WriteError
-	if err := CommitTemp(tmp, blocker); !errors.As(err, &we) || we.Path != blocker {
-		t.Errorf("commit onto a directory: %v, want a WriteError naming %s", err, blocker)
-	}
-	if got, _ := os.ReadFile(path); string(got) != "old" {
-		t.Errorf("old content %q changed", got)
-	}
-	if tmps, _ := filepath.Glob(dir + "/.*tmp-*"); len(tmps) != 0 {
-		t.Errorf("temporary files left: %v", tmps)
-	}
-	// Writing into a directory that does not exist fails cleanly.
-	if err := WriteFileAtomic(dir+"/missing/r.json", []byte("new")); !errors.As(err, &we) {
-		t.Errorf("write into a missing directory: %v, want a WriteError", err)
-	}
-	if err := WriteFileAtomic(path, []byte("new")); err != nil {
-		t.Fatal(err)
-	}
-	if got, _ := os.ReadFile(path); string(got) != "new" {
-		t.Errorf("content %q after a successful write", got)
 	}
 }

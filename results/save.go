@@ -1,7 +1,6 @@
 package results
 
 import (
-	"bufio"
 	"bytes"
 	"encoding/json"
 	"fmt"
@@ -9,6 +8,8 @@ import (
 	"os"
 	"path/filepath"
 	"strings"
+
+	"github.com/rhomark/rhomark/internal/atomicfile"
 )
 
 // Save writes r into dir as NAME.json, NAME.csv and NAME.txt (the terminal
@@ -42,54 +43,12 @@ func Save(dir string, r *Results) ([]string, error) {
 	var paths []string
 	for _, o := range outputs {
 		p := filepath.Join(dir, base+o.ext)
-		if err := WriteAtomic(p, o.write); err != nil {
+		if err := atomicfile.Write(p, o.write); err != nil {
 			return paths, err
 		}
 		paths = append(paths, p)
 	}
 	return paths, nil
-}
-
-// WriteAtomic streams what write produces into a temporary file beside
-// path, then commits it (see CommitTemp). Streaming rather than buffering
-// keeps large results (hundreds of MB of JSON at 10,000 cells) out of
-// memory. A failure of the file is a *WriteError; an error of write itself
-// is returned as it is. Either way path is untouched.
-func WriteAtomic(path string, write func(io.Writer) error) error {
-	tmp, err := CreateTemp(path)
-	if err != nil {
-		return err
-	}
-	fw := &fileWriter{f: tmp}
-	bw := bufio.NewWriterSize(fw, 1<<16)
-	err = write(bw)
-	if err == nil {
-		err = bw.Flush()
-	}
-	if err != nil {
-		tmp.Close()
-		os.Remove(tmp.Name())
-		if fw.err != nil {
-			return &WriteError{Path: path, Err: fw.err}
-		}
-		return err
-	}
-	return CommitTemp(tmp, path)
-}
-
-// fileWriter writes to a file and keeps its first error, to tell a failed
-// write from a failed encoding.
-type fileWriter struct {
-	f   *os.File
-	err error
-}
-
-func (w *fileWriter) Write(p []byte) (int, error) {
-	n, err := w.f.Write(p)
-	if err != nil && w.err == nil {
-		w.err = err
-	}
-	return n, err
 }
 
 // SafeName checks that name can be used as a file name inside an output
@@ -99,76 +58,6 @@ func SafeName(name string) (string, error) {
 		return "", fmt.Errorf("scenario name %q cannot be used as a file name (letters, digits, '.', '_', '-', not starting with '.')", name)
 	}
 	return name, nil
-}
-
-// WriteError is the error of a failed write of an output file (disk full,
-// no permission): a failure of the machine, not of the user's input.
-type WriteError struct {
-	// Path is the file that could not be written.
-	Path string
-	// Err is the underlying error.
-	Err error
-}
-
-func (e *WriteError) Error() string { return fmt.Sprintf("cannot write %s: %v", e.Path, e.Err) }
-
-// Unwrap returns the underlying error.
-func (e *WriteError) Unwrap() error { return e.Err }
-
-// CreateTemp creates the temporary file that CommitTemp later renames to
-// path, in path's directory.
-func CreateTemp(path string) (*os.File, error) {
-	tmp, err := os.CreateTemp(filepath.Dir(path), "."+filepath.Base(path)+".tmp-*")
-	if err != nil {
-		return nil, &WriteError{Path: path, Err: err}
-	}
-	return tmp, nil
-}
-
-// CommitTemp makes the temporary file tmp (from CreateTemp) the file path:
-// it syncs, closes and renames tmp, then syncs the directory, so path holds
-// either its old content or all of tmp's. On failure tmp is removed and
-// path is untouched.
-func CommitTemp(tmp *os.File, path string) error {
-	name := tmp.Name()
-	fail := func(err error) error {
-		tmp.Close()
-		os.Remove(name)
-		return &WriteError{Path: path, Err: err}
-	}
-	if err := tmp.Chmod(0o644); err != nil {
-		return fail(err)
-	}
-	if err := tmp.Sync(); err != nil {
-		return fail(err)
-	}
-	if err := tmp.Close(); err != nil {
-		return fail(err)
-	}
-	if err := os.Rename(name, path); err != nil {
-		return fail(err)
-	}
-	if d, err := os.Open(filepath.Dir(path)); err == nil {
-		d.Sync() // best effort: make the rename durable
-		d.Close()
-	}
-	return nil
-}
-
-// WriteFileAtomic writes data to path through a temporary file in the same
-// directory, synced and renamed, so path holds either its old content or
-// all of data.
-func WriteFileAtomic(path string, data []byte) error {
-	tmp, err := CreateTemp(path)
-	if err != nil {
-		return err
-	}
-	if _, err := tmp.Write(data); err != nil {
-		tmp.Close()
-		os.Remove(tmp.Name())
-		return &WriteError{Path: path, Err: err}
-	}
-	return CommitTemp(tmp, path)
 }
 
 // writeJSONByCell writes exactly what WriteJSON writes, but encodes the
@@ -220,3 +109,7 @@ func writeJSONByCell(w io.Writer, r *Results) error {
 	_, err = io.WriteString(w, "\n")
 	return err
 }
+
+// WriteError is the error of a failed write of an output file (disk full,
+// no permission): a failure of the machine, not of the user's input.
+type WriteError = atomicfile.Error

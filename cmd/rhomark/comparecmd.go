@@ -10,6 +10,7 @@ import (
 	"path/filepath"
 	"sort"
 
+	"github.com/rhomark/rhomark/internal/atomicfile"
 	"github.com/rhomark/rhomark/results"
 )
 
@@ -103,7 +104,7 @@ func compareCmd(e env, args []string) error {
 		if err := results.WriteComparisonJUnit(&b, junitRuns); err != nil {
 			return err
 		}
-		if err := results.WriteFileAtomic(*junit, b.Bytes()); err != nil {
+		if err := atomicfile.WriteFile(*junit, b.Bytes()); err != nil {
 			return err
 		}
 	}

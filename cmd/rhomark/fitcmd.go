@@ -11,8 +11,8 @@ import (
 	"gonum.org/v1/gonum/mat"
 
 	"github.com/rhomark/rhomark/estimators"
+	"github.com/rhomark/rhomark/internal/atomicfile"
 	"github.com/rhomark/rhomark/internal/csvdata"
-	"github.com/rhomark/rhomark/results"
 	"github.com/rhomark/rhomark/scenarios"
 )
 
@@ -194,7 +194,7 @@ func fitCmd(e env, args []string) error {
 		out.Fits = append(out.Fits, fj)
 	}
 	if *weightsOut != "" {
-		if err := results.WriteFileAtomic(*weightsOut, weightsCSV(out, *group != "")); err != nil {
+		if err := atomicfile.WriteFile(*weightsOut, weightsCSV(out, *group != "")); err != nil {
 			return err
 		}
 	}

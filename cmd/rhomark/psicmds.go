@@ -10,6 +10,7 @@ import (
 	"strings"
 
 	"github.com/rhomark/rhomark/estimators"
+	"github.com/rhomark/rhomark/internal/atomicfile"
 	htmlreport "github.com/rhomark/rhomark/report"
 	"github.com/rhomark/rhomark/results"
 )
@@ -317,7 +318,7 @@ func tuneSweep(e env, fam estimators.Family, ch choice, spec string, asJSON bool
 		default:
 			return usagef("--plot %q: want a .svg or .png file", plot)
 		}
-		if err := results.WriteFileAtomic(plot, data); err != nil {
+		if err := atomicfile.WriteFile(plot, data); err != nil {
 			return err
 		}
 		fmt.Fprintf(e.stderr, "rhomark tune: wrote %s\n", plot)

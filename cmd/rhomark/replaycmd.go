@@ -14,7 +14,7 @@ import (
 
 	"github.com/rhomark/rhomark/estimators"
 	"github.com/rhomark/rhomark/harness"
-	"github.com/rhomark/rhomark/results"
+	"github.com/rhomark/rhomark/internal/atomicfile"
 	"github.com/rhomark/rhomark/scenarios"
 )
 
@@ -101,7 +101,7 @@ func replayCmd(e env, args []string) error {
 		path = fmt.Sprintf("%s-c%d-r%d.csv", sc.Name, *cell, *rep)
 	}
 	if path != "" {
-		if err := results.WriteFileAtomic(path, datasetCSV(sc, x, y)); err != nil {
+		if err := atomicfile.WriteFile(path, datasetCSV(sc, x, y)); err != nil {
 			return err
 		}
 	}

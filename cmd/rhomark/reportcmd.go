@@ -7,6 +7,7 @@ import (
 	"path/filepath"
 	"strings"
 
+	"github.com/rhomark/rhomark/internal/atomicfile"
 	htmlreport "github.com/rhomark/rhomark/report"
 	"github.com/rhomark/rhomark/results"
 	"github.com/rhomark/rhomark/scenarios"
@@ -104,7 +105,7 @@ func writeReport(dir string, res *results.Results, figureFiles bool, source []by
 		data []byte
 	}{{".html", html.Bytes()}, {".md", md.Bytes()}} {
 		p := filepath.Join(dir, name+f.ext)
-		if err := results.WriteFileAtomic(p, f.data); err != nil {
+		if err := atomicfile.WriteFile(p, f.data); err != nil {
 			return paths, err
 		}
 		paths = append(paths, p)

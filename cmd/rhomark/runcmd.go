@@ -17,6 +17,7 @@ import (
 	"time"
 
 	"github.com/rhomark/rhomark/harness"
+	"github.com/rhomark/rhomark/internal/atomicfile"
 	"github.com/rhomark/rhomark/results"
 	"github.com/rhomark/rhomark/scenarios"
 )
@@ -147,13 +148,13 @@ func runCmd(e env, args []string) error {
 		}
 		opt.CheckpointEvery = *every
 		opt.Checkpoint = func(p *harness.Partial) error {
-			return results.WriteAtomic(cpPath, func(w io.Writer) error { return harness.WritePartial(w, p) })
+			return atomicfile.Write(cpPath, func(w io.Writer) error { return harness.WritePartial(w, p) })
 		}
 	}
 	var repFile *os.File
 	repPath := filepath.Join(*out, name+".replicates")
 	if *keep {
-		if repFile, err = results.CreateTemp(repPath); err != nil {
+		if repFile, err = atomicfile.Create(repPath); err != nil {
 			return err
 		}
 		defer os.Remove(repFile.Name()) // a no-op once renamed
@@ -183,7 +184,7 @@ func runCmd(e env, args []string) error {
 	}
 	res.Recommendation = results.Recommend(res, *target)
 	if repFile != nil {
-		if err := results.CommitTemp(repFile, repPath); err != nil {
+		if err := atomicfile.Commit(repFile, repPath); err != nil {
 			return err
 		}
 		res.ReplicateFile = filepath.Base(repPath)

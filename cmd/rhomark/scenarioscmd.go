@@ -8,7 +8,7 @@ import (
 	"unicode"
 	"unicode/utf8"
 
-	"github.com/rhomark/rhomark/results"
+	"github.com/rhomark/rhomark/internal/atomicfile"
 	"github.com/rhomark/rhomark/scenarios"
 )
 
@@ -56,7 +56,7 @@ func scenariosCmd(e env, args []string) error {
 			return err
 		}
 		path := filepath.Join(*write, pos[0]+".yaml")
-		if err := results.WriteFileAtomic(path, data); err != nil {
+		if err := atomicfile.WriteFile(path, data); err != nil {
 			return err
 		}
 		fmt.Fprintf(e.stderr, "rhomark scenarios: wrote %s\n", path)
