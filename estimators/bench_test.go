@@ -3,6 +3,8 @@ package estimators
 import (
 	"fmt"
 	"testing"
+
+	"github.com/rhomark/rhomark/psi"
 )
 
 // BenchmarkFit measures one fit on a dataset already in memory, reusing a
@@ -13,9 +15,9 @@ func BenchmarkFit(b *testing.B) {
 		e    Estimator
 	}{
 		{"ls", Estimator{}},
-		{"huber-irls", Estimator{Method: MethodIRLS, Psi: Huber{K: 1.345}, Settings: Settings{ChangeTol: 1e-10}}},
-		{"huber-newton", Estimator{Method: MethodNewton, Psi: Huber{K: 1.345}, Settings: Settings{ChangeTol: 1e-10}}},
-		{"bisquare-irls", Estimator{Method: MethodIRLS, Psi: Bisquare{C: 4.685}, Settings: Settings{ChangeTol: 1e-10}}},
+		{"huber-irls", Estimator{Method: MethodIRLS, Psi: psi.Huber{K: 1.345}, Settings: Settings{ChangeTol: 1e-10}}},
+		{"huber-newton", Estimator{Method: MethodNewton, Psi: psi.Huber{K: 1.345}, Settings: Settings{ChangeTol: 1e-10}}},
+		{"bisquare-irls", Estimator{Method: MethodIRLS, Psi: psi.Bisquare{C: 4.685}, Settings: Settings{ChangeTol: 1e-10}}},
 	}
 	for _, shape := range []struct{ n, p int }{{100, 5}, {10000, 5}, {100, 50}, {10000, 50}} {
 		x, y := simulated(42, shape.n, shape.p, 0.1)
@@ -64,19 +66,4 @@ func BenchmarkHighBreakdown(b *testing.B) {
 			}
 		})
 	}
-}
-
-// BenchmarkCustomRho measures rho of a custom psi given without a rho
-// expression, so rho comes from integrating psi.
-func BenchmarkCustomRho(b *testing.B) {
-	c, err := NewCustom(CustomSpec{Psi: "abs(r) <= k ? r : k * sign(r)", Constants: []Constant{{"k", 1.345}}, Kinks: []float64{1.345}})
-	if err != nil {
-		b.Fatal(err)
-	}
-	us := []float64{0.3, -1.1, 2.7, 0.05, -4.2, 9.5, 1.345, -0.8}
-	var sink float64
-	for i := 0; b.Loop(); i++ {
-		sink += c.Rho(us[i%len(us)])
-	}
-	_ = sink
 }

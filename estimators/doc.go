@@ -1,5 +1,5 @@
-// Package estimators fits linear regression models by least squares and by
-// M-estimation, and holds the psi families that M-estimators are built from.
+// Package estimators fits linear regression models by least squares, by
+// M-estimation and by the high-breakdown methods S, MM, LTS and LAD.
 //
 // An M-estimator of regression minimises Σ rho(r_i/sigma) over the residuals
 // r = y - Xβ, with sigma a scale. Its estimating equations
@@ -10,11 +10,11 @@
 // (IRLS: weights w_i = psi(u_i)/u_i, u_i = r_i/sigma, each step a weighted
 // least-squares solve) or by Newton's method on the estimating equations.
 //
-// A psi family is a small value type whose fields are its tuning constants
-// (Huber{K: 1.345}, Bisquare{C: 4.685}); every family implements [Psi].
-// An [Estimator] names a method, a psi, a scale rule, a start and the
-// stopping [Settings]; its Fit method fills a [Result] whose [Status] says
-// which stopping rule ended the fit or which failure happened. A [Workspace]
-// holds every buffer a fit needs, so repeated fits of datasets of one shape
-// allocate nothing.
+// The psi families (psi.Huber{K: 1.345}, psi.Bisquare{C: 4.685}, …), custom
+// psi expressions and their theory live in package psi; any [psi.Psi] can
+// be fitted. An [Estimator] names a method, a psi, a scale rule, a start and
+// the stopping [Settings]; its Fit method fills a [Result] whose [Status]
+// says which stopping rule ended the fit or which failure happened. A
+// [Workspace] holds every buffer a fit needs, so repeated fits of datasets
+// of one shape allocate nothing.
 package estimators

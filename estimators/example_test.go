@@ -6,6 +6,7 @@ import (
 	"gonum.org/v1/gonum/mat"
 
 	"github.com/rhomark/rhomark/estimators"
+	"github.com/rhomark/rhomark/psi"
 )
 
 // A flow meter read against five reference volumes, twice each; one reading
@@ -19,7 +20,7 @@ func ExampleEstimator_Fit() {
 	}
 	e := estimators.Estimator{
 		Method: estimators.MethodIRLS,
-		Psi:    estimators.Huber{K: 1.345},
+		Psi:    psi.Huber{K: 1.345},
 	}
 	var ws estimators.Workspace
 	var res estimators.Result

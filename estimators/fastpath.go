@@ -1,6 +1,10 @@
 package estimators
 
-import "math"
+import (
+	"math"
+
+	"github.com/rhomark/rhomark/psi"
+)
 
 // Loops of evaluate specialised to the built-in families used most, so that
 // psi and the weight are computed inline instead of by two interface calls
@@ -8,7 +12,7 @@ import "math"
 // (TestFastPathsMatch checks it).
 
 // evaluateHuber is evaluateAny for Huber's psi and IRLS weights.
-func (ws *Workspace) evaluateHuber(h Huber, sigma float64) (csum float64) {
+func (ws *Workspace) evaluateHuber(h psi.Huber, sigma float64) (csum float64) {
 	r := ws.r
 	c, ps := ws.c[:len(r)], ws.psi[:len(r)]
 	k := h.K
@@ -35,7 +39,7 @@ func (ws *Workspace) evaluateHuber(h Huber, sigma float64) (csum float64) {
 }
 
 // evaluateBisquare is evaluateAny for the bisquare psi and IRLS weights.
-func (ws *Workspace) evaluateBisquare(b Bisquare, sigma float64) (csum float64) {
+func (ws *Workspace) evaluateBisquare(b psi.Bisquare, sigma float64) (csum float64) {
 	return ws.evaluateBisquareAs(b, sigma, false)
 }
 
@@ -44,7 +48,7 @@ func (ws *Workspace) evaluateBisquare(b Bisquare, sigma float64) (csum float64) 
 // ws.psi to psi(u_i) and ws.c to the IRLS weight (1 − v²)² or, when deriv
 // is set, to Newton's psi'(u_i) = (1 − v²)(1 − 5v²), v = u/c, and returns
 // the sum of |c_i|.
-func (ws *Workspace) evaluateBisquareAs(b Bisquare, sigma float64, deriv bool) (csum float64) {
+func (ws *Workspace) evaluateBisquareAs(b psi.Bisquare, sigma float64, deriv bool) (csum float64) {
 	r := ws.r
 	c, ps := ws.c[:len(r)], ws.psi[:len(r)]
 	cc := b.C
@@ -79,7 +83,7 @@ func (ws *Workspace) evaluateBisquareAs(b Bisquare, sigma float64, deriv bool) (
 // evaluateCustom is evaluateAny for a custom psi's IRLS weights: the weight
 // psi(u)/u reuses the psi value just computed instead of running the
 // expression a second time (Custom.Weight computes the same quotient).
-func (ws *Workspace) evaluateCustom(cu *Custom, sigma float64) (csum float64) {
+func (ws *Workspace) evaluateCustom(cu *psi.Custom, sigma float64) (csum float64) {
 	r := ws.r
 	c, ps := ws.c[:len(r)], ws.psi[:len(r)]
 	off := 0

@@ -7,6 +7,8 @@ import (
 
 	"gonum.org/v1/gonum/blas/blas64"
 	"gonum.org/v1/gonum/mat"
+
+	"github.com/rhomark/rhomark/psi"
 )
 
 // Estimator specifies a regression fit: the method, and for M-estimation the
@@ -16,7 +18,7 @@ type Estimator struct {
 	// Method is the algorithm.
 	Method Method
 	// Psi is the psi function of an M-estimator; ignored by MethodLS.
-	Psi Psi
+	Psi psi.Psi
 	// Scale is the scale rule of an M-estimator; the zero value is ScaleMAD.
 	Scale Scale
 	// Start is the starting coefficient vector; nil means the estimate of

@@ -8,6 +8,7 @@ import (
 	"gonum.org/v1/gonum/mat"
 
 	"github.com/rhomark/rhomark/internal/refdata"
+	"github.com/rhomark/rhomark/psi"
 )
 
 // stackloss returns the stack loss design (intercept, air flow, water
@@ -60,7 +61,7 @@ func TestStacklossHuber(t *testing.T) {
 		{-41.03, 0.005}, {0.829, 0.0005}, {0.926, 0.0005}, {-0.128, 0.0005},
 	}
 	for _, method := range []Method{MethodIRLS, MethodNewton} {
-		e := Estimator{Method: method, Psi: Huber{K: 1.345}, Settings: Settings{ChangeTol: 1e-10}}
+		e := Estimator{Method: method, Psi: psi.Huber{K: 1.345}, Settings: Settings{ChangeTol: 1e-10}}
 		res, err := Fit(e, x, y)
 		if err != nil {
 			t.Fatal(err)
@@ -113,11 +114,11 @@ func TestIRLSNewtonAgree(t *testing.T) {
 		x, y := simulated(seed, n, p, 0.1)
 		for _, scale := range []Scale{{Rule: ScaleMAD}, {Rule: ScaleFixed, Value: 1.3}} {
 			s := Settings{ChangeTol: 1e-12, MaxIterations: 500}
-			a, err := Fit(Estimator{Method: MethodIRLS, Psi: Huber{K: 1.345}, Scale: scale, Settings: s}, x, y)
+			a, err := Fit(Estimator{Method: MethodIRLS, Psi: psi.Huber{K: 1.345}, Scale: scale, Settings: s}, x, y)
 			if err != nil {
 				t.Fatal(err)
 			}
-			b, err := Fit(Estimator{Method: MethodNewton, Psi: Huber{K: 1.345}, Scale: scale, Settings: s}, x, y)
+			b, err := Fit(Estimator{Method: MethodNewton, Psi: psi.Huber{K: 1.345}, Scale: scale, Settings: s}, x, y)
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -151,7 +152,7 @@ func TestStoppingRules(t *testing.T) {
 	}
 	for _, c := range cases {
 		for _, m := range []Method{MethodIRLS, MethodNewton} {
-			res, err := Fit(Estimator{Method: m, Psi: Huber{K: 1.345}, Settings: c.settings}, x, y)
+			res, err := Fit(Estimator{Method: m, Psi: psi.Huber{K: 1.345}, Settings: c.settings}, x, y)
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -199,10 +200,10 @@ func TestFailureStatuses(t *testing.T) {
 		want []Status
 	}{
 		{"singular LS", Estimator{}, dup, y, []Status{SingularDesign}},
-		{"singular IRLS", Estimator{Method: MethodIRLS, Psi: Huber{K: 1.345}}, dup, y, []Status{SingularDesign}},
-		{"zero weights", Estimator{Method: MethodIRLS, Psi: Bisquare{C: 1}, Scale: Scale{Rule: ScaleFixed, Value: 0.01}, Start: []float64{0, 0, 0}}, x, far, []Status{ZeroWeights}},
-		{"exact fit", Estimator{Method: MethodIRLS, Psi: Huber{K: 1.345}, Start: []float64{2, 3, -1}}, x, exact, []Status{ExactFit}},
-		{"zero scale", Estimator{Method: MethodIRLS, Psi: Bisquare{C: 4.685}, Start: []float64{2, 3, -1}}, x, half, []Status{ZeroScale}},
+		{"singular IRLS", Estimator{Method: MethodIRLS, Psi: psi.Huber{K: 1.345}}, dup, y, []Status{SingularDesign}},
+		{"zero weights", Estimator{Method: MethodIRLS, Psi: psi.Bisquare{C: 1}, Scale: Scale{Rule: ScaleFixed, Value: 0.01}, Start: []float64{0, 0, 0}}, x, far, []Status{ZeroWeights}},
+		{"exact fit", Estimator{Method: MethodIRLS, Psi: psi.Huber{K: 1.345}, Start: []float64{2, 3, -1}}, x, exact, []Status{ExactFit}},
+		{"zero scale", Estimator{Method: MethodIRLS, Psi: psi.Bisquare{C: 4.685}, Start: []float64{2, 3, -1}}, x, half, []Status{ZeroScale}},
 	}
 	for _, c := range cases {
 		res, err := Fit(c.e, c.x, c.y)
@@ -225,7 +226,7 @@ func TestFitMisuse(t *testing.T) {
 	nan[3] = math.NaN()
 	xinf := mat.DenseCopyOf(x)
 	xinf.Set(2, 1, math.Inf(1))
-	huber := Estimator{Method: MethodIRLS, Psi: Huber{K: 1.345}}
+	huber := Estimator{Method: MethodIRLS, Psi: psi.Huber{K: 1.345}}
 	cases := []struct {
 		name string
 		e    Estimator
@@ -236,10 +237,10 @@ func TestFitMisuse(t *testing.T) {
 		{"NaN y", huber, x, nan},
 		{"Inf x", huber, xinf, y},
 		{"no psi", Estimator{Method: MethodIRLS}, x, y},
-		{"bad start", Estimator{Method: MethodIRLS, Psi: Huber{K: 1}, Start: []float64{1}}, x, y},
-		{"bad scale", Estimator{Method: MethodIRLS, Psi: Huber{K: 1}, Scale: Scale{Rule: ScaleFixed}}, x, y},
-		{"bad tol", Estimator{Method: MethodIRLS, Psi: Huber{K: 1}, Settings: Settings{ChangeTol: -1}}, x, y},
-		{"bad method", Estimator{Method: 9, Psi: Huber{K: 1}}, x, y},
+		{"bad start", Estimator{Method: MethodIRLS, Psi: psi.Huber{K: 1}, Start: []float64{1}}, x, y},
+		{"bad scale", Estimator{Method: MethodIRLS, Psi: psi.Huber{K: 1}, Scale: Scale{Rule: ScaleFixed}}, x, y},
+		{"bad tol", Estimator{Method: MethodIRLS, Psi: psi.Huber{K: 1}, Settings: Settings{ChangeTol: -1}}, x, y},
+		{"bad method", Estimator{Method: 9, Psi: psi.Huber{K: 1}}, x, y},
 		{"wide", Estimator{}, mat.NewDense(2, 3, nil), []float64{1, 2}},
 	}
 	for _, c := range cases {
@@ -257,7 +258,7 @@ func TestNewtonSafeguards(t *testing.T) {
 	// At a fixed scale of 1, the start (4, 0, 0) leaves most residuals near
 	// -3, where bisquare's psi' is negative (|u| > c/√5 ≈ 2.1).
 	start := []float64{4, 0, 0}
-	e := Estimator{Psi: Bisquare{C: 4.685}, Start: start, Scale: Scale{Rule: ScaleFixed, Value: 1},
+	e := Estimator{Psi: psi.Bisquare{C: 4.685}, Start: start, Scale: Scale{Rule: ScaleFixed, Value: 1},
 		Settings: Settings{ChangeTol: 1e-12, MaxIterations: 500}}
 	e.Method = MethodNewton
 	nw, err := Fit(e, x, y)
@@ -290,7 +291,7 @@ func TestNewtonSafeguards(t *testing.T) {
 func TestTrace(t *testing.T) {
 	x, y := simulated(5, 50, 3, 0.1)
 	var seen []int
-	e := Estimator{Method: MethodNewton, Psi: Huber{K: 1.345}, Trace: func(it Iteration) { seen = append(seen, it.Index) }}
+	e := Estimator{Method: MethodNewton, Psi: psi.Huber{K: 1.345}, Trace: func(it Iteration) { seen = append(seen, it.Index) }}
 	res, err := Fit(e, x, y)
 	if err != nil {
 		t.Fatal(err)
@@ -318,11 +319,11 @@ func TestFastPathsMatch(t *testing.T) {
 		}
 	}
 	copy(b.r, a.r)
-	custom, err := NewCustom(CustomSpec{Psi: "r / (1 + abs(r)/c)", Constants: []Constant{{"c", 1.4}}})
+	custom, err := psi.NewCustom(psi.CustomSpec{Psi: "r / (1 + abs(r)/c)", Constants: []psi.Constant{{Name: "c", Value: 1.4}}})
 	if err != nil {
 		t.Fatal(err)
 	}
-	for _, psi := range []Psi{Huber{K: 1.345}, Huber{K: 0.5}, Bisquare{C: 4.685}, Bisquare{C: 1}, custom} {
+	for _, psi := range []psi.Psi{psi.Huber{K: 1.345}, psi.Huber{K: 0.5}, psi.Bisquare{C: 4.685}, psi.Bisquare{C: 1}, custom} {
 		for _, sigma := range []float64{0.3, 1, 2.5} {
 			got := a.evaluate(psi, sigma, false)
 			want := b.evaluateAny(psi, sigma, false)
@@ -345,16 +346,16 @@ func TestFitZeroAllocs(t *testing.T) {
 	x, y := simulated(31, 120, 4, 0.1)
 	cases := []Estimator{
 		{Method: MethodLS},
-		{Method: MethodIRLS, Psi: Huber{K: 1.345}},
-		{Method: MethodNewton, Psi: Huber{K: 1.345}},
-		{Method: MethodIRLS, Psi: Bisquare{C: 4.685}},
-		{Method: MethodNewton, Psi: Welsch{C: 2.9846}},
+		{Method: MethodIRLS, Psi: psi.Huber{K: 1.345}},
+		{Method: MethodNewton, Psi: psi.Huber{K: 1.345}},
+		{Method: MethodIRLS, Psi: psi.Bisquare{C: 4.685}},
+		{Method: MethodNewton, Psi: psi.Welsch{C: 2.9846}},
 		{Method: MethodS, Resampling: Resampling{Subsets: 50}},
 		{Method: MethodMM, Resampling: Resampling{Subsets: 50}},
 		{Method: MethodMM, Resampling: Resampling{Subsets: 50, SDivisor: DivideByNMinusP}},
 		{Method: MethodLTS, Resampling: Resampling{Subsets: 50}},
 		{Method: MethodLAD},
-		{Method: MethodIRLS, Psi: Huber{K: 1.345}, StartFrom: MethodLAD},
+		{Method: MethodIRLS, Psi: psi.Huber{K: 1.345}, StartFrom: MethodLAD},
 	}
 	for _, e := range cases {
 		var ws Workspace
@@ -383,11 +384,11 @@ func TestFitZeroAllocs(t *testing.T) {
 func TestNewtonHandsOverToIRLS(t *testing.T) {
 	x, y := design(t, "aircraft.csv", []string{"X1", "X2", "X3", "X4"}, "Y")
 	set := Settings{ChangeTol: 1e-12, MaxIterations: 200}
-	irls, err := Fit(Estimator{Method: MethodIRLS, Psi: Bisquare{C: DefaultMMTuning}, Settings: set}, x, y)
+	irls, err := Fit(Estimator{Method: MethodIRLS, Psi: psi.Bisquare{C: DefaultMMTuning}, Settings: set}, x, y)
 	if err != nil {
 		t.Fatal(err)
 	}
-	newton, err := Fit(Estimator{Method: MethodNewton, Psi: Bisquare{C: DefaultMMTuning}, Settings: set}, x, y)
+	newton, err := Fit(Estimator{Method: MethodNewton, Psi: psi.Bisquare{C: DefaultMMTuning}, Settings: set}, x, y)
 	if err != nil {
 		t.Fatal(err)
 	}

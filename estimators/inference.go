@@ -5,6 +5,8 @@ import (
 	"reflect"
 
 	"gonum.org/v1/gonum/mat"
+
+	"github.com/rhomark/rhomark/psi"
 )
 
 // StandardErrors writes to se the standard error of each coefficient of the
@@ -74,13 +76,13 @@ func (ws *Workspace) StandardErrors(e Estimator, x *mat.Dense, res *Result, se [
 
 // jumps reports whether psi is discontinuous, remembering the answer for
 // the last psi asked about (the check scans psi when it declares no kinks).
-func (ws *Workspace) jumps(psi Psi) bool {
-	if t := reflect.TypeOf(psi); t != nil && t.Comparable() && ws.jumpPsi != nil && reflect.TypeOf(ws.jumpPsi) == t && ws.jumpPsi == psi {
+func (ws *Workspace) jumps(fn psi.Psi) bool {
+	if t := reflect.TypeOf(fn); t != nil && t.Comparable() && ws.jumpPsi != nil && reflect.TypeOf(ws.jumpPsi) == t && ws.jumpPsi == fn {
 		return ws.jumpy
 	}
-	ws.jumpy = Discontinuous(psi)
-	if t := reflect.TypeOf(psi); t != nil && t.Comparable() {
-		ws.jumpPsi = psi
+	ws.jumpy = psi.Discontinuous(fn)
+	if t := reflect.TypeOf(fn); t != nil && t.Comparable() {
+		ws.jumpPsi = fn
 	}
 	return ws.jumpy
 }

@@ -5,6 +5,8 @@ import (
 	"testing"
 
 	"gonum.org/v1/gonum/mat"
+
+	"github.com/rhomark/rhomark/psi"
 )
 
 // TestStandardErrorsLS compares the least-squares standard errors with the
@@ -56,7 +58,7 @@ func TestStandardErrorsHuber(t *testing.T) {
 
 	// IRLS with the least-squares psi and the scale fixed at the residual
 	// SD reproduces least squares exactly.
-	eID := Estimator{Method: MethodIRLS, Psi: LeastSquares{}, Scale: Scale{Rule: ScaleFixed, Value: resLS.Scale}}
+	eID := Estimator{Method: MethodIRLS, Psi: psi.LeastSquares{}, Scale: Scale{Rule: ScaleFixed, Value: resLS.Scale}}
 	if err := eID.Fit(x, y, &ws, &res); err != nil {
 		t.Fatal(err)
 	}
@@ -69,13 +71,13 @@ func TestStandardErrorsHuber(t *testing.T) {
 			t.Errorf("identity psi: se[%d] = %v, least squares %v", j, se[j], seLS[j])
 		}
 	}
-	eH := Estimator{Method: MethodIRLS, Psi: Huber{K: 1.345}}
+	eH := Estimator{Method: MethodIRLS, Psi: psi.Huber{K: 1.345}}
 	if err := eH.Fit(x, y, &ws, &res); err != nil {
 		t.Fatal(err)
 	}
 	clear(se)
 	if !ws.StandardErrors(eH, x, &res, se) {
-		t.Fatal("no Huber standard errors")
+		t.Fatal("no psi.Huber standard errors")
 	}
 	// A sanity bound on one sample, not a calibrated check: at the normal
 	// model the asymptotic ratio is 1/√0.95 ≈ 1.026 (Huber (1981), Robust
@@ -101,9 +103,9 @@ func TestNoIntervalsForJumps(t *testing.T) {
 	x, y := simulated(14, 120, 3, 0)
 	se := make([]float64, 3)
 	for _, c := range []struct {
-		psi  Psi
+		psi  psi.Psi
 		want bool
-	}{{Talwar{C: 2.795}, false}, {Huber{K: 1.345}, true}, {Bisquare{C: 4.685}, true}} {
+	}{{psi.Talwar{C: 2.795}, false}, {psi.Huber{K: 1.345}, true}, {psi.Bisquare{C: 4.685}, true}} {
 		var ws Workspace
 		var res Result
 		e := Estimator{Method: MethodIRLS, Psi: c.psi}
@@ -114,8 +116,8 @@ func TestNoIntervalsForJumps(t *testing.T) {
 			t.Errorf("%T: intervals %v, want %v", c.psi, got, c.want)
 		}
 	}
-	jump, _ := NewCustom(CustomSpec{Psi: "abs(r) <= 2 ? r : 0"})
-	if !Discontinuous(jump) || Discontinuous(Huber{K: 1}) {
+	jump, _ := psi.NewCustom(psi.CustomSpec{Psi: "abs(r) <= 2 ? r : 0"})
+	if !psi.Discontinuous(jump) || psi.Discontinuous(psi.Huber{K: 1}) {
 		t.Error("jump detection")
 	}
 }

@@ -5,6 +5,8 @@ import (
 
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/blas64"
+
+	"github.com/rhomark/rhomark/psi"
 )
 
 // iterate runs IRLS or Newton from the coefficients in res.Coefficients,
@@ -201,22 +203,22 @@ func allZero(r []float64) bool {
 // Huber and bisquare have loops written for their concrete types (see
 // fastpath.go), which save two interface calls per residual; any other Psi
 // takes the general loop.
-func (ws *Workspace) evaluate(psi Psi, sigma float64, newton bool) float64 {
+func (ws *Workspace) evaluate(fn psi.Psi, sigma float64, newton bool) float64 {
 	if !newton {
-		switch p := psi.(type) {
-		case Huber:
+		switch p := fn.(type) {
+		case psi.Huber:
 			return ws.evaluateHuber(p, sigma)
-		case Bisquare:
+		case psi.Bisquare:
 			return ws.evaluateBisquare(p, sigma)
-		case *Custom:
+		case *psi.Custom:
 			return ws.evaluateCustom(p, sigma)
 		}
 	}
-	return ws.evaluateAny(psi, sigma, newton)
+	return ws.evaluateAny(fn, sigma, newton)
 }
 
 // evaluateAny is evaluate for any Psi.
-func (ws *Workspace) evaluateAny(psi Psi, sigma float64, newton bool) (csum float64) {
+func (ws *Workspace) evaluateAny(psi psi.Psi, sigma float64, newton bool) (csum float64) {
 	r := ws.r
 	c, ps := ws.c[:len(r)], ws.psi[:len(r)]
 	off := 0
@@ -241,7 +243,7 @@ func (ws *Workspace) evaluateAny(psi Psi, sigma float64, newton bool) (csum floa
 }
 
 // objective returns Σ rho(r_i/sigma) at the residuals ws.r.
-func (ws *Workspace) objective(psi Psi, sigma float64) float64 {
+func (ws *Workspace) objective(psi psi.Psi, sigma float64) float64 {
 	var f float64
 	for _, r := range ws.r {
 		f += psi.Rho(r / sigma)
@@ -251,7 +253,7 @@ func (ws *Workspace) objective(psi Psi, sigma float64) float64 {
 
 // weights sets ws.c to the IRLS weights at ws.r and sigma and returns their
 // sum.
-func (ws *Workspace) weights(psi Psi, sigma float64) float64 {
+func (ws *Workspace) weights(psi psi.Psi, sigma float64) float64 {
 	var sum float64
 	off := 0
 	for i, r := range ws.r {
@@ -355,7 +357,7 @@ func rankTwo(m []float64, x blas64.General, i, j, p int, a, b float64) {
 // step computes the full step ws.delta: a Newton step σ (Σψ'xxᵀ)⁻¹ Σψx when
 // newton and the Jacobian is positive definite, otherwise an IRLS step
 // (XᵀWX)⁻¹ XᵀW r. It reports a failure status when no step exists.
-func (ws *Workspace) step(psi Psi, x blas64.General, sigma float64, newton bool, wsum float64, it *Iteration) (Status, bool) {
+func (ws *Workspace) step(psi psi.Psi, x blas64.General, sigma float64, newton bool, wsum float64, it *Iteration) (Status, bool) {
 	ws.normalMatrix(x)
 	if newton {
 		for j, hj := range ws.h {
@@ -417,7 +419,7 @@ func extremes(c []float64) (lo, hi float64) {
 // lineSearch halves the step ws.delta until the objective at the fixed scale
 // sigma is no larger than obj0 (up to rounding). It returns the accepted
 // step length and whether one was found.
-func (ws *Workspace) lineSearch(psi Psi, x blas64.General, sigma, obj0 float64, it *Iteration) (float64, bool) {
+func (ws *Workspace) lineSearch(psi psi.Psi, x blas64.General, sigma, obj0 float64, it *Iteration) (float64, bool) {
 	// q = XΔ, so the trial residuals are r − tq.
 	for i := range ws.q {
 		var s float64

@@ -8,6 +8,8 @@ import (
 
 	"gonum.org/v1/gonum/mat"
 	"gonum.org/v1/gonum/stat"
+
+	"github.com/rhomark/rhomark/psi"
 )
 
 // ladFitDense runs the exact LAD solver on a dense design.
@@ -424,7 +426,7 @@ func TestLADExactMatchesIRLS(t *testing.T) {
 	var lw ladWork
 	for _, c := range cases {
 		x, y := simulated(c.seed, c.n, c.p, c.outliers)
-		irls, err := Fit(Estimator{Method: MethodIRLS, Psi: LAD{Eps: 1e-7},
+		irls, err := Fit(Estimator{Method: MethodIRLS, Psi: psi.LAD{Eps: 1e-7},
 			Settings: Settings{ChangeTol: 1e-12, MaxIterations: 20000}}, x, y)
 		if err != nil {
 			t.Fatal(err)

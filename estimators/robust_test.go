@@ -8,6 +8,7 @@ import (
 	"gonum.org/v1/gonum/mat"
 
 	"github.com/rhomark/rhomark/internal/refdata"
+	"github.com/rhomark/rhomark/psi"
 )
 
 // design reads a reference CSV into an intercept-first design.
@@ -89,7 +90,7 @@ func TestHBK(t *testing.T) {
 		if e.Method == MethodMM {
 			// The M-step's bisquare weights of rows 1-10 are zero (|r|/s > c).
 			for i := 0; i < 10; i++ {
-				if w := (Bisquare{C: 4.685}).Weight(u[i]); w > 0.01 {
+				if w := (psi.Bisquare{C: 4.685}).Weight(u[i]); w > 0.01 {
 					t.Errorf("MM weight of row %d is %.3f", i+1, w)
 				}
 			}
@@ -103,7 +104,7 @@ func TestHBK(t *testing.T) {
 	// are rhomark's own output, recorded when the test was written, not
 	// published values: least squares leaves rows 1-10 within 2.01 and a
 	// good row at 4.2; Huber within 1.86 and a good row at 13.4.
-	for _, e := range []Estimator{{}, {Method: MethodIRLS, Psi: Huber{K: 1.345}}} {
+	for _, e := range []Estimator{{}, {Method: MethodIRLS, Psi: psi.Huber{K: 1.345}}} {
 		u, _ := standardised(t, e, x, y)
 		if m := maxOf(u[:10]); m > 2.5 {
 			t.Errorf("%v: rows 1-10 reach |r|/s = %.2f; they should be masked", e.Method, m)
@@ -153,7 +154,7 @@ func TestStartsFromRobustFits(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	viaStart, err := Fit(Estimator{Method: MethodIRLS, Psi: Bisquare{C: DefaultMMTuning}, StartFrom: MethodS, Scale: Scale{Rule: ScaleStart}}, x, y)
+	viaStart, err := Fit(Estimator{Method: MethodIRLS, Psi: psi.Bisquare{C: DefaultMMTuning}, StartFrom: MethodS, Scale: Scale{Rule: ScaleStart}}, x, y)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -162,16 +163,16 @@ func TestStartsFromRobustFits(t *testing.T) {
 			t.Errorf("coefficient %d: MM %v, bisquare from S %v", j, mm.Coefficients[j], viaStart.Coefficients[j])
 		}
 	}
-	fromLS, _ := Fit(Estimator{Method: MethodIRLS, Psi: Bisquare{C: 4.685}}, x, y)
+	fromLS, _ := Fit(Estimator{Method: MethodIRLS, Psi: psi.Bisquare{C: 4.685}}, x, y)
 	if d := math.Abs(fromLS.Coefficients[3] - mm.Coefficients[3]); d < 0.1 {
 		t.Errorf("bisquare from least squares should stay near the masked fit, differs from MM by only %v", d)
 	}
 	for _, m := range []Method{MethodLTS, MethodLAD} {
-		if _, err := Fit(Estimator{Method: MethodIRLS, Psi: Huber{K: 1.345}, StartFrom: m}, x, y); err != nil {
+		if _, err := Fit(Estimator{Method: MethodIRLS, Psi: psi.Huber{K: 1.345}, StartFrom: m}, x, y); err != nil {
 			t.Errorf("start from %v: %v", m, err)
 		}
 	}
-	if _, err := Fit(Estimator{Method: MethodIRLS, Psi: Huber{K: 1.345}, StartFrom: MethodNewton}, x, y); err == nil {
+	if _, err := Fit(Estimator{Method: MethodIRLS, Psi: psi.Huber{K: 1.345}, StartFrom: MethodNewton}, x, y); err == nil {
 		t.Error("an iterative method was accepted as a start")
 	}
 	// An MM start is the MM-estimate (default bisquare M-step), whatever
@@ -179,7 +180,7 @@ func TestStartsFromRobustFits(t *testing.T) {
 	// its own iterations, and a Huber fit given the MM coefficients as its
 	// start with the MM scale lands on the same estimate.
 	var traced int
-	fromMM, err := Fit(Estimator{Method: MethodIRLS, Psi: Huber{K: 1.345}, StartFrom: MethodMM, Scale: Scale{Rule: ScaleStart},
+	fromMM, err := Fit(Estimator{Method: MethodIRLS, Psi: psi.Huber{K: 1.345}, StartFrom: MethodMM, Scale: Scale{Rule: ScaleStart},
 		Trace: func(Iteration) { traced++ }}, x, y)
 	if err != nil {
 		t.Fatal(err)
@@ -187,18 +188,18 @@ func TestStartsFromRobustFits(t *testing.T) {
 	if traced != fromMM.Iterations {
 		t.Errorf("trace saw %d iterations, the fit took %d: the start's iterations leaked into it", traced, fromMM.Iterations)
 	}
-	given, err := Fit(Estimator{Method: MethodIRLS, Psi: Huber{K: 1.345}, Start: mm.Coefficients, Scale: Scale{Rule: ScaleFixed, Value: mm.Scale}}, x, y)
+	given, err := Fit(Estimator{Method: MethodIRLS, Psi: psi.Huber{K: 1.345}, Start: mm.Coefficients, Scale: Scale{Rule: ScaleFixed, Value: mm.Scale}}, x, y)
 	if err != nil {
 		t.Fatal(err)
 	}
 	for j := range given.Coefficients {
 		if math.Abs(given.Coefficients[j]-fromMM.Coefficients[j]) > 1e-9 {
-			t.Errorf("coefficient %d: Huber from the MM start %v, from the MM coefficients %v", j, fromMM.Coefficients[j], given.Coefficients[j])
+			t.Errorf("coefficient %d: psi.Huber from the MM start %v, from the MM coefficients %v", j, fromMM.Coefficients[j], given.Coefficients[j])
 		}
 	}
 	// The start scale rule needs a start method's scale; given start
 	// coefficients have none.
-	if _, err := Fit(Estimator{Method: MethodIRLS, Psi: Huber{K: 1.345}, Start: mm.Coefficients, Scale: Scale{Rule: ScaleStart}}, x, y); err == nil {
+	if _, err := Fit(Estimator{Method: MethodIRLS, Psi: psi.Huber{K: 1.345}, Start: mm.Coefficients, Scale: Scale{Rule: ScaleStart}}, x, y); err == nil {
 		t.Error("start scale with given start coefficients was accepted")
 	}
 }
@@ -252,7 +253,7 @@ func minOf(a []float64) float64 {
 func TestSmallSampleNotExact(t *testing.T) {
 	x, y := simulated(30, 5, 3, 0)
 	for _, e := range []Estimator{{Method: MethodS}, {Method: MethodMM},
-		{Method: MethodIRLS, Psi: Huber{K: 1.345}, StartFrom: MethodLAD, Scale: Scale{Rule: ScaleStart}}} {
+		{Method: MethodIRLS, Psi: psi.Huber{K: 1.345}, StartFrom: MethodLAD, Scale: Scale{Rule: ScaleStart}}} {
 		res, err := Fit(e, x, y)
 		if err != nil {
 			t.Fatal(err)

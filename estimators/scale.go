@@ -4,14 +4,14 @@ import (
 	"math"
 	"math/bits"
 	"slices"
+
+	"github.com/rhomark/rhomark/psi"
 )
 
-// MADConsistency is Φ⁻¹(3/4), the median of |Z| for a standard normal Z.
-// Dividing the median absolute residual by it gives a scale estimate that is
-// consistent for sigma at the normal model. The digits are those of the
-// exact value (a test checks the constant against the normal quantile
-// function); it is not the rounded 0.6745 or 1/1.4826.
-const MADConsistency = 0.67448975019608174320
+// MADConsistency is Φ⁻¹(3/4), the median of |Z| for a standard normal Z
+// ([psi.MADConsistency]). Dividing the median absolute residual by it gives a
+// scale estimate that is consistent for sigma at the normal model.
+const MADConsistency = psi.MADConsistency
 
 // ScaleRule says how the residual scale sigma of an M-estimator is set.
 type ScaleRule int

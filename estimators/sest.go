@@ -4,6 +4,8 @@ import (
 	"math"
 
 	"gonum.org/v1/gonum/blas/blas64"
+
+	"github.com/rhomark/rhomark/psi"
 )
 
 // The S-estimator minimises an M-scale s(β) of the residuals, the solution
@@ -64,13 +66,13 @@ const (
 // cached in the workspace (quadrature is costly next to one fit).
 func (ws *Workspace) sConsistency(c float64) float64 {
 	if ws.sC != c || ws.sB == 0 {
-		ws.sC, ws.sB = c, ScaleConsistency(Bisquare{C: c})
+		ws.sC, ws.sB = c, psi.ScaleConsistency(psi.Bisquare{C: c})
 	}
 	return ws.sB
 }
 
 // meanRho returns (1/d) Σ rho(r_i/s) for the bisquare psi.
-func meanRho(psi Bisquare, r []float64, s, d float64) float64 {
+func meanRho(psi psi.Bisquare, r []float64, s, d float64) float64 {
 	var sum float64
 	for _, v := range r {
 		sum += psi.Rho(v / s)
@@ -81,7 +83,7 @@ func meanRho(psi Bisquare, r []float64, s, d float64) float64 {
 // mScale solves (1/d) Σ rho(r_i/s) = b for s by the fixed-point iteration
 // s ← s·√(mean rho(r/s)/b), from s0 > 0. The iteration converges
 // monotonically for a bounded rho. It returns 0 if s0 is 0.
-func mScale(psi Bisquare, r []float64, b, d, s0 float64) float64 {
+func mScale(psi psi.Bisquare, r []float64, b, d, s0 float64) float64 {
 	s := s0
 	if s == 0 {
 		return 0
@@ -101,7 +103,7 @@ func mScale(psi Bisquare, r []float64, b, d, s0 float64) float64 {
 // system has no solution (the candidate is dropped). Because rho(√t) is
 // concave in t for the bisquare, the step does not raise Σ rho(r_i/s), so
 // the M-scale of the new residuals is at most s.
-func (ws *Workspace) iStep(psi Bisquare, x blas64.General, y, beta []float64, s float64) bool {
+func (ws *Workspace) iStep(psi psi.Bisquare, x blas64.General, y, beta []float64, s float64) bool {
 	if ws.evaluateBisquare(psi, s) == 0 {
 		return false
 	}
@@ -125,7 +127,7 @@ func (ws *Workspace) iStep(psi Bisquare, x blas64.General, y, beta []float64, s 
 // quadratically where the I-step contracts by about 1 − E[psi']/E[w]. It
 // reports false, leaving beta unchanged, when psi' gives no positive
 // definite matrix; the caller checks that the step lowers the scale.
-func (ws *Workspace) sNewtonStep(psi Bisquare, x blas64.General, y, beta []float64, s float64) bool {
+func (ws *Workspace) sNewtonStep(psi psi.Bisquare, x blas64.General, y, beta []float64, s float64) bool {
 	if ws.evaluateBisquareAs(psi, s, true) == 0 {
 		return false
 	}
@@ -206,7 +208,7 @@ func (ws *Workspace) sFitCapped(x blas64.General, y, beta []float64, rs Resampli
 // (their scales in ws.candScale, +Inf for empty places). It returns the
 // number of candidates that survived their I-steps and whether one fits
 // the data exactly (beta then holds it).
-func (ws *Workspace) sCandidates(x blas64.General, y, beta []float64, psi Bisquare, b, d float64, subsets, keep int, floor float64) (found int, exact bool) {
+func (ws *Workspace) sCandidates(x blas64.General, y, beta []float64, psi psi.Bisquare, b, d float64, subsets, keep int, floor float64) (found int, exact bool) {
 	p, n := ws.p, ws.n
 	cands, scales := ws.cand[:keep*p], ws.candScale[:keep]
 	for k := range scales {
@@ -286,7 +288,7 @@ func (ws *Workspace) sCandidates(x blas64.General, y, beta []float64, psi Bisqua
 // (its residuals in ws.r). Candidates whose I-step fails are dropped; if
 // all are, the status is SingularDesign and dropped is the largest kept
 // scale among them.
-func (ws *Workspace) sRefine(x blas64.General, y, beta []float64, psi Bisquare, b, d float64, keep, maxRefine int) (out sOutcome, dropped float64) {
+func (ws *Workspace) sRefine(x blas64.General, y, beta []float64, psi psi.Bisquare, b, d float64, keep, maxRefine int) (out sOutcome, dropped float64) {
 	p := ws.p
 	cands, scales := ws.cand[:keep*p], ws.candScale[:keep]
 	cur := ws.trial

@@ -6,13 +6,15 @@ import (
 	"testing"
 
 	"gonum.org/v1/gonum/mat"
+
+	"github.com/rhomark/rhomark/psi"
 )
 
 // TestDefaultConstants: the default S and MM constants are the roots this
 // package's tuner finds (50% breakdown, 95% efficiency), to the tuner's
 // bracket of 1e-13 relative.
 func TestDefaultConstants(t *testing.T) {
-	f, ok := LookupFamily("bisquare")
+	f, ok := psi.LookupFamily("bisquare")
 	if !ok {
 		t.Fatal("no bisquare family")
 	}
@@ -38,7 +40,7 @@ func TestDefaultConstants(t *testing.T) {
 	if got := (Resampling{}).SScale().C; got != DefaultSTuning {
 		t.Errorf("default S constant %v", got)
 	}
-	if got := (Estimator{Method: MethodMM}).MStepPsi().(Bisquare).C; got != DefaultMMTuning {
+	if got := (Estimator{Method: MethodMM}).MStepPsi().(psi.Bisquare).C; got != DefaultMMTuning {
 		t.Errorf("default MM constant %v", got)
 	}
 }
@@ -154,11 +156,11 @@ func TestSRefinementDropsSingular(t *testing.T) {
 // (common practice; Huber (1981), Robust Statistics, Wiley, §5.3, from
 // memory), computed here by quadrature.
 func TestSRefinementConverges(t *testing.T) {
-	psi := Bisquare{C: DefaultSTuning}
-	b := ScaleConsistency(psi)
+	bq := psi.Bisquare{C: DefaultSTuning}
+	b := psi.ScaleConsistency(bq)
 	phi := func(z float64) float64 { return math.Exp(-z*z/2) / math.Sqrt(2*math.Pi) }
-	num := 2 * integrateHalfLine(func(z float64) float64 { r := psi.Rho(z) - b; return r * r * phi(z) }, breaksOf(psi))
-	den := 2 * integrateHalfLine(func(z float64) float64 { return z * psi.Psi(z) * phi(z) }, breaksOf(psi))
+	num := 2 * integrateHalfLine(func(z float64) float64 { r := bq.Rho(z) - b; return r * r * phi(z) }, bq.Kinks())
+	den := 2 * integrateHalfLine(func(z float64) float64 { return z * bq.Psi(z) * phi(z) }, bq.Kinks())
 	const n = 400
 	se := math.Sqrt(num/n) / den
 	for seed := uint64(1); seed <= 6; seed++ {
@@ -263,7 +265,7 @@ func TestMMCheckValues(t *testing.T) {
 		if s.Scale != res.Scale {
 			t.Errorf("%s: MM scale %v is not the S-scale %v", c.file, res.Scale, s.Scale)
 		}
-		lib := Bisquare{C: 1.54764}
+		lib := psi.Bisquare{C: 1.54764}
 		libScale := mScale(lib, ws.r, lib.RhoMax()/2, float64(n-p), s.Scale)
 		if d := math.Abs(libScale - c.scale); d > c.sTol {
 			t.Errorf("%s: scale %.7g in the library's convention (%.7g with the exact constant), check value %v (±%v)", c.file, libScale, res.Scale, c.scale, c.sTol)
@@ -281,12 +283,12 @@ func TestBisquareDerivLoop(t *testing.T) {
 	if err := (Estimator{}).Fit(x, y, &ws, &res); err != nil {
 		t.Fatal(err)
 	}
-	psi := Bisquare{C: DefaultSTuning}
+	bq := psi.Bisquare{C: DefaultSTuning}
 	for _, sigma := range []float64{0.3, 1, 4} {
-		sum := ws.evaluateBisquareAs(psi, sigma, true)
+		sum := ws.evaluateBisquareAs(bq, sigma, true)
 		c, ps := append([]float64(nil), ws.c...), append([]float64(nil), ws.psi...)
 		off := append([]int(nil), ws.off[:ws.nOff]...)
-		want := ws.evaluateAny(psi, sigma, true)
+		want := ws.evaluateAny(bq, sigma, true)
 		if sum != want || len(off) != ws.nOff {
 			t.Errorf("sigma %v: sum %v, general loop %v; %d rows off, general %d", sigma, sum, want, len(off), ws.nOff)
 		}

@@ -3,6 +3,8 @@ package estimators
 import (
 	"fmt"
 	"math"
+
+	"github.com/rhomark/rhomark/psi"
 )
 
 // Method is the algorithm of a fit.
@@ -103,21 +105,18 @@ type Resampling struct {
 	H int
 }
 
-// Default tuning constants of the S and MM estimators. Both are roots
-// computed by this package's tuning code (Family.TuneBreakdown(0.5) and
-// Family.TuneEfficiency(0.95) of the bisquare; TestDefaultConstants checks
-// them against it) and agree with an independent 30-digit quadrature to
-// all the digits given.
+// Default tuning constants of the S and MM estimators, the bisquare
+// constants of a 50% breakdown point and of 95% efficiency at the normal
+// (see [psi.BisquareBreakdown50] and [psi.BisquareEfficiency95];
+// TestDefaultConstants checks them against this module's tuning code).
 const (
 	// DefaultSTuning is the bisquare constant whose S-scale, with b =
-	// E[rho(Z)], has breakdown point exactly 50%: b/sup rho = 1/2
-	// (Rousseeuw & Yohai (1984); the rounded 1.547 is common practice and
-	// gives 0.4998).
-	DefaultSTuning = 1.5476449809282259
+	// E[rho(Z)], has breakdown point exactly 50%.
+	DefaultSTuning = psi.BisquareBreakdown50
 	// DefaultMMTuning is the bisquare constant of 95% asymptotic efficiency
 	// at the normal: the bisquare family's default and the default psi of
-	// the MM-estimator's M-step (Holland & Welsch (1977) print 4.685).
-	DefaultMMTuning = 4.6850649485433758
+	// the MM-estimator's M-step.
+	DefaultMMTuning = psi.BisquareEfficiency95
 )
 
 // ScaleDivisor is the divisor of the S-scale's equation
@@ -165,11 +164,11 @@ func (d ScaleDivisor) divisor(n, p int) float64 {
 
 // SScale returns the bisquare whose rho defines the S-scale: constant SC,
 // or DefaultSTuning when SC is zero.
-func (r Resampling) SScale() Bisquare {
+func (r Resampling) SScale() psi.Bisquare {
 	if r.SC == 0 {
-		return Bisquare{C: DefaultSTuning}
+		return psi.Bisquare{C: DefaultSTuning}
 	}
-	return Bisquare{C: r.SC}
+	return psi.Bisquare{C: r.SC}
 }
 
 // LTSKeep returns the number of the n observations (p coefficients) LTS
@@ -185,9 +184,9 @@ func (r Resampling) LTSKeep(n, p int) int {
 // MM-estimator without one the bisquare with c = DefaultMMTuning (95%
 // efficiency at the normal). It is nil for methods without an M-step and
 // no psi.
-func (e Estimator) MStepPsi() Psi {
+func (e Estimator) MStepPsi() psi.Psi {
 	if e.Psi == nil && e.Method == MethodMM {
-		return Bisquare{C: DefaultMMTuning}
+		return psi.Bisquare{C: DefaultMMTuning}
 	}
 	return e.Psi
 }

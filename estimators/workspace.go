@@ -6,6 +6,8 @@ import (
 
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/blas64"
+
+	"github.com/rhomark/rhomark/psi"
 )
 
 // Workspace holds the buffers of a fit. The zero value is ready to use; it
@@ -40,7 +42,7 @@ type Workspace struct {
 	cand      []float64  // keep×p, candidate coefficients
 	candScale []float64  // keep, candidate scales
 	sC, sB    float64    // cached bisquare constant and its consistency b
-	jumpPsi   Psi        // the psi whose continuity was last checked
+	jumpPsi   psi.Psi    // the psi whose continuity was last checked
 	jumpy     bool       // whether jumpPsi jumps
 	lts       ltsWork    // least trimmed squares
 	lad       ladWork    // exact least absolute deviations

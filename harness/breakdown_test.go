@@ -9,6 +9,7 @@ import (
 	"gonum.org/v1/gonum/mat"
 
 	"github.com/rhomark/rhomark/estimators"
+	"github.com/rhomark/rhomark/psi"
 )
 
 // breakdownData draws n rows of an intercept and p−1 standard normal
@@ -49,7 +50,7 @@ func breakdownData(n, p int, seed uint64) (*mat.Dense, []float64) {
 func TestReplacementBreakdown(t *testing.T) {
 	ests := []NamedEstimator{
 		{"ls", estimators.Estimator{}},
-		{"huber", estimators.Estimator{Method: estimators.MethodIRLS, Psi: estimators.Huber{K: 1.345}}},
+		{"huber", estimators.Estimator{Method: estimators.MethodIRLS, Psi: psi.Huber{K: 1.345}}},
 		{"lad", estimators.Estimator{Method: estimators.MethodLAD}},
 		{"s", estimators.Estimator{Method: estimators.MethodS}},
 		{"mm", estimators.Estimator{Method: estimators.MethodMM}},

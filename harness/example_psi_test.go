@@ -7,6 +7,7 @@ import (
 
 	"github.com/rhomark/rhomark/estimators"
 	"github.com/rhomark/rhomark/harness"
+	"github.com/rhomark/rhomark/psi"
 	"github.com/rhomark/rhomark/scenarios"
 )
 
@@ -71,7 +72,7 @@ func tuneFor95() float64 {
 	lo, hi := 0.1, 10.0
 	for i := 0; i < 60; i++ {
 		mid := (lo + hi) / 2
-		if estimators.EfficiencyAtNormal(pseudoHuber{d: mid}) < 0.95 {
+		if psi.EfficiencyAtNormal(pseudoHuber{d: mid}) < 0.95 {
 			lo = mid
 		} else {
 			hi = mid

@@ -15,6 +15,7 @@ import (
 	"gonum.org/v1/gonum/mat"
 
 	"github.com/rhomark/rhomark/estimators"
+	"github.com/rhomark/rhomark/psi"
 	"github.com/rhomark/rhomark/results"
 	"github.com/rhomark/rhomark/scenarios"
 )
@@ -274,12 +275,12 @@ func TestFitIdentityCoversEstimator(t *testing.T) {
 	if n := reflect.TypeFor[estimators.Estimator]().NumField(); n != 8 {
 		t.Errorf("estimators.Estimator has %d fields; fitIdentity covers 8", n)
 	}
-	a := estimators.Estimator{Method: estimators.MethodIRLS, Psi: estimators.Huber{K: 1.345}}
+	a := estimators.Estimator{Method: estimators.MethodIRLS, Psi: psi.Huber{K: 1.345}}
 	b := a
 	if identityOf("h", &a, 0, 1) != identityOf("h", &b, 1, 1) {
 		t.Error("equal estimators of two cells have different identities")
 	}
-	b.Psi = estimators.Huber{K: 1.5}
+	b.Psi = psi.Huber{K: 1.5}
 	if identityOf("h", &a, 0, 1) == identityOf("h", &b, 1, 1) {
 		t.Error("estimators with different constants share an identity")
 	}

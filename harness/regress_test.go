@@ -7,6 +7,7 @@ import (
 	"testing"
 
 	"github.com/rhomark/rhomark/estimators"
+	"github.com/rhomark/rhomark/psi"
 	"github.com/rhomark/rhomark/results"
 )
 
@@ -105,7 +106,7 @@ func TestSummaryFlagsRealChange(t *testing.T) {
 	seed := uint64(99)
 	b, err := Run(context.Background(), st, Options{Replicates: 400, Seed: &seed, Adjust: func(_ int, label string, e *estimators.Estimator) {
 		if label == "huber" {
-			e.Psi = estimators.Huber{K: 0.3}
+			e.Psi = psi.Huber{K: 0.3}
 		}
 	}})
 	if err != nil {

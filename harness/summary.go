@@ -12,6 +12,7 @@ import (
 	"gonum.org/v1/gonum/stat/distuv"
 
 	"github.com/rhomark/rhomark/estimators"
+	"github.com/rhomark/rhomark/psi"
 	"github.com/rhomark/rhomark/results"
 	"github.com/rhomark/rhomark/scenarios"
 )
@@ -119,18 +120,18 @@ func functionCurves(p cellPlan) []results.FunctionCurve {
 	var out []results.FunctionCurve
 	for i, e := range p.ests {
 		spec := p.cell.Scenario.Estimators[i]
-		psi := e.Psi
+		fn := e.Psi
 		desc := spec.Psi.Name()
 		switch e.Method {
 		case estimators.MethodMM:
-			if psi == nil {
-				psi, desc = e.MStepPsi(), "bisquare"
+			if fn == nil {
+				fn, desc = e.MStepPsi(), "bisquare"
 			}
 		case estimators.MethodS:
 			b := e.Resampling.SScale()
-			psi, desc = b, "S-scale bisquare "+strconv.FormatFloat(b.C, 'g', -1, 64)
+			fn, desc = b, "S-scale bisquare "+strconv.FormatFloat(b.C, 'g', -1, 64)
 		}
-		if psi == nil {
+		if fn == nil {
 			continue
 		}
 		for _, t := range spec.Tuning {
@@ -146,7 +147,7 @@ func functionCurves(p cellPlan) []results.FunctionCurve {
 		for k := 0; k <= steps; k++ {
 			us = append(us, 8*float64(k)/steps)
 		}
-		if kk, ok := psi.(estimators.Kinked); ok {
+		if kk, ok := fn.(psi.Kinked); ok {
 			for _, x := range kk.Kinks() {
 				if x > 0 && x < 8 && !math.IsNaN(x) {
 					us = append(us, x)
@@ -157,9 +158,9 @@ func functionCurves(p cellPlan) []results.FunctionCurve {
 		}
 		for _, u := range us {
 			fc.U = append(fc.U, u)
-			fc.PsiValues = append(fc.PsiValues, results.Num(psi.Psi(u)))
-			fc.Rho = append(fc.Rho, results.Num(psi.Rho(u)))
-			fc.Weight = append(fc.Weight, results.Num(psi.Weight(u)))
+			fc.PsiValues = append(fc.PsiValues, results.Num(fn.Psi(u)))
+			fc.Rho = append(fc.Rho, results.Num(fn.Rho(u)))
+			fc.Weight = append(fc.Weight, results.Num(fn.Weight(u)))
 		}
 		out = append(out, fc)
 	}
@@ -187,7 +188,7 @@ func tuningCurves(st *scenarios.Study, plans []cellPlan) []results.TuningCurve {
 			continue
 		}
 		spec := p.cell.Scenario.Estimators[idx]
-		fam, ok := estimators.LookupFamily(spec.Psi.Family)
+		fam, ok := psi.LookupFamily(spec.Psi.Family)
 		if !ok || len(fam.Params) == 0 || spec.Psi.Custom != nil {
 			continue
 		}
@@ -227,8 +228,8 @@ func tuningCurves(st *scenarios.Study, plans []cellPlan) []results.TuningCurve {
 // (MAD, S, LTS, the start's) are consistent at the normal, so residuals are
 // standardised by sd itself; a fixed scale S standardises by S.
 func methodTheory(e estimators.Estimator, sd float64, n, p int) float64 {
-	eff := func(psi estimators.Psi, kappa float64) float64 {
-		a, b := estimators.Moments(psi, kappa)
+	eff := func(fn psi.Psi, kappa float64) float64 {
+		a, b := psi.Moments(fn, kappa)
 		return b * b / a
 	}
 	switch e.Method {
@@ -251,7 +252,7 @@ func methodTheory(e estimators.Estimator, sd float64, n, p int) float64 {
 		// α = 1/2.
 		h := e.Resampling.LTSKeep(n, p)
 		q := distuv.UnitNormal.Quantile((1 + float64(h)/float64(n)) / 2)
-		return eff(estimators.Talwar{C: q}, 1)
+		return eff(psi.Talwar{C: q}, 1)
 	case estimators.MethodLAD:
 		return 2 / math.Pi // the median's efficiency (common practice)
 	}

@@ -10,6 +10,7 @@ import (
 	"gonum.org/v1/gonum/mat"
 
 	"github.com/rhomark/rhomark/estimators"
+	"github.com/rhomark/rhomark/psi"
 )
 
 // Defaults of the scenario format.
@@ -155,7 +156,7 @@ func (s *Scenario) fillDefaults(d *decoder, defaultName string) {
 			e.Psi = PsiSpec{Family: "bisquare"}
 		}
 		if m, ok := estimators.ParseMethod(e.Method); ok && !m.Direct() || e.Method == "mm-estimate" {
-			if f, ok := estimators.LookupFamily(e.Psi.Family); ok && len(e.Tuning) == 0 && e.Psi.Custom == nil {
+			if f, ok := psi.LookupFamily(e.Psi.Family); ok && len(e.Tuning) == 0 && e.Psi.Custom == nil {
 				e.Tuning = append(Numbers(nil), f.Defaults...)
 			}
 			if e.Stop.Change == nil && e.Stop.Equations == nil {
@@ -608,14 +609,14 @@ func (s *Scenario) validateEstimators(c checker) {
 			}
 		}
 		if e.Psi.IsZero() {
-			c.fail(path+".psi", "missing: method %s needs a psi family (%s) or a mapping with expr", e.Method, strings.Join(estimators.FamilyNames(), ", "))
+			c.fail(path+".psi", "missing: method %s needs a psi family (%s) or a mapping with expr", e.Method, strings.Join(psi.FamilyNames(), ", "))
 			continue
 		}
 		if e.Psi.Custom != nil {
 			if len(e.Tuning) > 0 {
 				c.fail(path+".tuning", "is not used with a custom psi; give its constants under psi.constants")
 			}
-			if _, err := estimators.NewCustom(e.Psi.Custom.Spec()); err != nil {
+			if _, err := psi.NewCustom(e.Psi.Custom.Spec()); err != nil {
 				field := path + ".psi"
 				switch msg := err.Error(); {
 				case strings.HasPrefix(msg, "psi expression"):
@@ -630,9 +631,9 @@ func (s *Scenario) validateEstimators(c checker) {
 				c.fail(field, "%v", err)
 			}
 		} else {
-			f, ok := estimators.LookupFamily(e.Psi.Family)
+			f, ok := psi.LookupFamily(e.Psi.Family)
 			if !ok {
-				c.fail(path+".psi", "unknown psi family %q; valid: %s, or a mapping with expr for a psi of your own", e.Psi.Family, strings.Join(estimators.FamilyNames(), ", "))
+				c.fail(path+".psi", "unknown psi family %q; valid: %s, or a mapping with expr for a psi of your own", e.Psi.Family, strings.Join(psi.FamilyNames(), ", "))
 				continue
 			}
 			if _, err := f.New(e.Tuning); err != nil {
@@ -720,15 +721,15 @@ func (e EstimatorSpec) Build() (estimators.Estimator, error) {
 }
 
 // BuildPsi returns the psi this spec describes.
-func (e EstimatorSpec) BuildPsi() (estimators.Psi, error) {
+func (e EstimatorSpec) BuildPsi() (psi.Psi, error) {
 	if e.Psi.Custom != nil {
-		c, err := estimators.NewCustom(e.Psi.Custom.Spec())
+		c, err := psi.NewCustom(e.Psi.Custom.Spec())
 		if err != nil {
 			return nil, fmt.Errorf("estimator %s: %w", e.Label, err)
 		}
 		return c, nil
 	}
-	f, ok := estimators.LookupFamily(e.Psi.Family)
+	f, ok := psi.LookupFamily(e.Psi.Family)
 	if !ok {
 		return nil, fmt.Errorf("estimator %s: unknown psi family %q", e.Label, e.Psi.Family)
 	}

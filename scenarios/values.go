@@ -11,6 +11,7 @@ import (
 	"go.yaml.in/yaml/v3"
 
 	"github.com/rhomark/rhomark/estimators"
+	"github.com/rhomark/rhomark/psi"
 )
 
 // Value types of the scenario format that accept more than one form.
@@ -221,10 +222,10 @@ func (v PsiSpec) MarshalJSON() ([]byte, error) {
 }
 
 // Spec converts the mapping to the estimators package's form.
-func (c *CustomPsi) Spec() estimators.CustomSpec {
-	s := estimators.CustomSpec{Psi: c.Expr, Rho: c.Rho, Deriv: c.Deriv, Kinks: c.Kinks}
+func (c *CustomPsi) Spec() psi.CustomSpec {
+	s := psi.CustomSpec{Psi: c.Expr, Rho: c.Rho, Deriv: c.Deriv, Kinks: c.Kinks}
 	for _, k := range c.Constants {
-		s.Constants = append(s.Constants, estimators.Constant{Name: k.Name, Value: k.Value})
+		s.Constants = append(s.Constants, psi.Constant{Name: k.Name, Value: k.Value})
 	}
 	return s
 }

@@ -8,6 +8,7 @@ import (
 	"strings"
 
 	"github.com/rhomark/rhomark/estimators"
+	"github.com/rhomark/rhomark/psi"
 	"github.com/rhomark/rhomark/scenarios"
 )
 
@@ -47,7 +48,7 @@ func commandFlags(c command) []commandFlag {
 func valueWords(flag string) []string {
 	switch flag {
 	case "psi":
-		return estimators.FamilyNames()
+		return psi.FamilyNames()
 	case "method", "start":
 		var out []string
 		for _, m := range estimators.Methods() {

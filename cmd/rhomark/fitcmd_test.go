@@ -12,6 +12,7 @@ import (
 
 	"github.com/rhomark/rhomark/estimators"
 	"github.com/rhomark/rhomark/internal/refdata"
+	"github.com/rhomark/rhomark/psi"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -190,8 +191,8 @@ func TestFitInference(t *testing.T) {
 		args []string
 		est  estimators.Estimator
 	}{
-		{[]string{"--method", "irls"}, estimators.Estimator{Method: estimators.MethodIRLS, Psi: estimators.Huber{K: 1.345}}},
-		{[]string{"--method", "newton", "--psi", "bisquare"}, estimators.Estimator{Method: estimators.MethodNewton, Psi: estimators.Bisquare{C: estimators.DefaultMMTuning}}},
+		{[]string{"--method", "irls"}, estimators.Estimator{Method: estimators.MethodIRLS, Psi: psi.Huber{K: 1.345}}},
+		{[]string{"--method", "newton", "--psi", "bisquare"}, estimators.Estimator{Method: estimators.MethodNewton, Psi: psi.Bisquare{C: estimators.DefaultMMTuning}}},
 		{[]string{"--method", "mm-estimate"}, estimators.Estimator{Method: estimators.MethodMM}},
 	} {
 		f := fitJSONOf(t, append([]string{file, "--y", "stack.loss"}, tc.args...)...).Fits[0]
@@ -252,11 +253,11 @@ func TestFitWeightsAndOutliers(t *testing.T) {
 	}
 	for _, tc := range []struct {
 		args []string
-		psi  estimators.Psi
+		psi  psi.Psi
 	}{
-		{[]string{"--method", "irls"}, estimators.Huber{K: 1.345}},
-		{[]string{"--method", "mm-estimate"}, estimators.Bisquare{C: estimators.DefaultMMTuning}},
-		{[]string{"--method", "irls", "--outlier-cut", "1.5"}, estimators.Huber{K: 1.345}},
+		{[]string{"--method", "irls"}, psi.Huber{K: 1.345}},
+		{[]string{"--method", "mm-estimate"}, psi.Bisquare{C: estimators.DefaultMMTuning}},
+		{[]string{"--method", "irls", "--outlier-cut", "1.5"}, psi.Huber{K: 1.345}},
 	} {
 		out := fitJSONOf(t, append([]string{file, "--y", "stack.loss"}, tc.args...)...)
 		f := out.Fits[0]

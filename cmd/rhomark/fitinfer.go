@@ -13,6 +13,7 @@ import (
 	"gonum.org/v1/gonum/stat/distuv"
 
 	"github.com/rhomark/rhomark/estimators"
+	"github.com/rhomark/rhomark/psi"
 )
 
 // describeFitRules says in words where a fit of est starts, how its scale
@@ -88,7 +89,7 @@ func noSEReason(est estimators.Estimator, res *estimators.Result, n, p int) stri
 		return "the fit did not converge (" + res.Status.String() + ")"
 	case n <= p:
 		return fmt.Sprintf("n = %d rows leave no degrees of freedom for %d coefficients", n, p)
-	case est.Method != estimators.MethodLS && estimators.Discontinuous(est.MStepPsi()):
+	case est.Method != estimators.MethodLS && psi.Discontinuous(est.MStepPsi()):
 		return "psi jumps: the mean of psi' misses the jumps' share of E[psi'], so the covariance formula would understate the standard errors"
 	}
 	return "the covariance formula is undefined at this fit (the mean of psi' over the rows is not positive, or the scale is zero)"

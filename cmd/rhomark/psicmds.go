@@ -9,8 +9,8 @@ import (
 	"strconv"
 	"strings"
 
-	"github.com/rhomark/rhomark/estimators"
 	"github.com/rhomark/rhomark/internal/atomicfile"
+	"github.com/rhomark/rhomark/psi"
 	htmlreport "github.com/rhomark/rhomark/report"
 	"github.com/rhomark/rhomark/results"
 )
@@ -69,13 +69,13 @@ func theoryCmd(e env, args []string) error {
 	if err != nil {
 		return err
 	}
-	models := []estimators.ErrorModel{estimators.StudentT(*df), estimators.Laplace(), estimators.ContaminatedNormal(*eps, *tau)}
+	models := []psi.ErrorModel{psi.StudentT(*df), psi.Laplace(), psi.ContaminatedNormal(*eps, *tau)}
 	for _, m := range models {
 		if err := m.Validate(); err != nil {
 			return usageError{err}
 		}
 	}
-	th, err := estimators.Analyse(ch.psi, models...)
+	th, err := psi.Analyse(ch.psi, models...)
 	if err != nil {
 		return fmt.Errorf("%s: %w", ch.desc, err)
 	}
@@ -144,7 +144,7 @@ func theoryCmd(e env, args []string) error {
 	return nil
 }
 
-func shapeWords(th estimators.Theory) string {
+func shapeWords(th psi.Theory) string {
 	var words []string
 	if th.Bounded {
 		words = append(words, "bounded (sup |psi| = "+num(th.SupPsi, 5)+")")
@@ -202,7 +202,7 @@ func tuneCmd(e env, args []string) error {
 	}
 	fam := ch.family
 	if *param != "" {
-		c, ok := ch.psi.(*estimators.Custom)
+		c, ok := ch.psi.(*psi.Custom)
 		if !ok {
 			return usagef("--param goes with --psi-expr")
 		}
@@ -228,7 +228,7 @@ func tuneCmd(e env, args []string) error {
 		if ch.name != "huber" {
 			return usagef("--minimax is Huber's minimax problem; use --psi huber")
 		}
-		k, err := estimators.HuberMinimax(*mm)
+		k, err := psi.HuberMinimax(*mm)
 		if err != nil {
 			return usageError{err}
 		}
@@ -252,11 +252,11 @@ func tuneCmd(e env, args []string) error {
 		}
 		res.Target, res.Value, res.Tuning = "breakdown", *bd, t
 	}
-	psi, err := fam.New(res.Tuning)
+	tuned, err := fam.New(res.Tuning)
 	if err != nil {
 		return err
 	}
-	th, err := estimators.Analyse(psi)
+	th, err := psi.Analyse(tuned)
 	if err != nil {
 		return err
 	}
@@ -278,7 +278,7 @@ func tuneCmd(e env, args []string) error {
 }
 
 // tuneSweep prints the trade-off table over a range of the first constant.
-func tuneSweep(e env, fam estimators.Family, ch choice, spec string, asJSON bool, plot string) error {
+func tuneSweep(e env, fam psi.Family, ch choice, spec string, asJSON bool, plot string) error {
 	parts := strings.Split(spec, ":")
 	if len(parts) < 2 || len(parts) > 3 {
 		return usagef("--sweep %q: want FROM:TO or FROM:TO:STEPS", spec)
@@ -366,7 +366,7 @@ func checkPsiCmd(e env, args []string) error {
 	if err != nil {
 		return err
 	}
-	rep := estimators.CheckPsi(ch.psi)
+	rep := psi.CheckPsi(ch.psi)
 	for i := range rep.Checks {
 		rep.Checks[i].Detail = checkDetail(rep.Checks[i], rep.Jumps)
 	}
@@ -421,7 +421,7 @@ var numberPattern = regexp.MustCompile(`-?\d+(\.\d+)?(e[-+]?\d+)?`)
 
 // checkDetail returns the detail of a check-psi finding with its numbers
 // rounded to checkDigits significant digits, and jumps listed as ±a, ±b.
-func checkDetail(c estimators.PsiCheck, jumps []float64) string {
+func checkDetail(c psi.PsiCheck, jumps []float64) string {
 	if c.Property == "continuous" && len(jumps) > 0 {
 		at := make([]string, len(jumps))
 		for i, j := range jumps {

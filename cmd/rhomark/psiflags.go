@@ -7,7 +7,7 @@ import (
 	"strconv"
 	"strings"
 
-	"github.com/rhomark/rhomark/estimators"
+	"github.com/rhomark/rhomark/psi"
 )
 
 // psiFlags are the options that choose a psi, shared by fit, theory, tune
@@ -20,7 +20,7 @@ type psiFlags struct {
 }
 
 // constFlag collects repeated --const name=value options.
-type constFlag []estimators.Constant
+type constFlag []psi.Constant
 
 func (c *constFlag) String() string { return "" }
 
@@ -33,7 +33,7 @@ func (c *constFlag) Set(s string) error {
 	if err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
 		return fmt.Errorf("%q is not a finite number", val)
 	}
-	*c = append(*c, estimators.Constant{Name: strings.TrimSpace(name), Value: v})
+	*c = append(*c, psi.Constant{Name: strings.TrimSpace(name), Value: v})
 	return nil
 }
 
@@ -48,7 +48,7 @@ func psiFlagNames() []string {
 
 func addPsiFlags(fs *flag.FlagSet, defaultFamily string) *psiFlags {
 	p := &psiFlags{}
-	fs.StringVar(&p.family, "psi", defaultFamily, "psi `family`: "+strings.Join(estimators.FamilyNames(), ", "))
+	fs.StringVar(&p.family, "psi", defaultFamily, "psi `family`: "+strings.Join(psi.FamilyNames(), ", "))
 	fs.StringVar(&p.tuning, "tuning", "", "tuning constant(s) `C`, comma-separated (default: the family's)")
 	fs.StringVar(&p.expr, "psi-expr", "", "a psi of your own: an `expression` in r, e.g. 'r / (1 + abs(r)/c)'")
 	fs.StringVar(&p.rho, "rho-expr", "", "rho of --psi-expr (`expression`; default: the integral of psi)")
@@ -60,8 +60,8 @@ func addPsiFlags(fs *flag.FlagSet, defaultFamily string) *psiFlags {
 
 // choice is a psi chosen on the command line.
 type choice struct {
-	psi    estimators.Psi
-	family estimators.Family
+	psi    psi.Psi
+	family psi.Family
 	name   string    // family name or "custom"
 	tuning []float64 // the constants in use
 	desc   string    // one line for headings
@@ -73,7 +73,7 @@ func (p *psiFlags) build(given map[string]bool) (choice, error) {
 		if given["psi"] || given["tuning"] {
 			return choice{}, usagef("--psi-expr replaces --psi and --tuning; give constants with --const")
 		}
-		spec := estimators.CustomSpec{Psi: p.expr, Rho: p.rho, Deriv: p.deriv, Constants: p.consts}
+		spec := psi.CustomSpec{Psi: p.expr, Rho: p.rho, Deriv: p.deriv, Constants: p.consts}
 		if p.kinks != "" {
 			ks, err := parseList(p.kinks)
 			if err != nil {
@@ -81,7 +81,7 @@ func (p *psiFlags) build(given map[string]bool) (choice, error) {
 			}
 			spec.Kinks = ks
 		}
-		c, err := estimators.NewCustom(spec)
+		c, err := psi.NewCustom(spec)
 		if err != nil {
 			return choice{}, usageError{err}
 		}
@@ -97,9 +97,9 @@ func (p *psiFlags) build(given map[string]bool) (choice, error) {
 			return choice{}, usagef("--%s goes with --psi-expr", f)
 		}
 	}
-	fam, ok := estimators.LookupFamily(p.family)
+	fam, ok := psi.LookupFamily(p.family)
 	if !ok {
-		return choice{}, usagef("--psi %q: unknown family; valid: %s (or --psi-expr for your own)", p.family, strings.Join(estimators.FamilyNames(), ", "))
+		return choice{}, usagef("--psi %q: unknown family; valid: %s (or --psi-expr for your own)", p.family, strings.Join(psi.FamilyNames(), ", "))
 	}
 	var tc []float64
 	if p.tuning != "" {

@@ -1,4 +1,4 @@
-package estimators
+package psi
 
 import (
 	"math"
@@ -123,7 +123,7 @@ func TestSupPsiRefined(t *testing.T) {
 			t.Errorf("Huber k=%v: sup|psi| %.17g, GES %.17g, want %.17g", k, th.SupPsi, th.GrossErrorSensitivity, k/b)
 		}
 	}
-	for _, c := range []float64{1, DefaultSTuning, 3.3, DefaultMMTuning, 7.01} {
+	for _, c := range []float64{1, BisquareBreakdown50, 3.3, BisquareEfficiency95, 7.01} {
 		th, err := Analyse(Bisquare{C: c})
 		if err != nil {
 			t.Fatal(err)

@@ -1,6 +1,24 @@
-package estimators
+package psi
 
 import "math"
+
+// Tuning constants of the bisquare that the S and MM estimators use by
+// default. Both are roots computed by this package's tuning code
+// (Family.TuneBreakdown(0.5) and Family.TuneEfficiency(0.95) of the
+// bisquare; the estimators package's TestDefaultConstants checks them
+// against it) and agree with an independent 30-digit quadrature to all the
+// digits given.
+const (
+	// BisquareBreakdown50 is the bisquare constant whose S-scale, with b =
+	// E[rho(Z)], has breakdown point exactly 50%: b/sup rho = 1/2
+	// (Rousseeuw & Yohai (1984); the rounded 1.547 is common practice and
+	// gives 0.4998).
+	BisquareBreakdown50 = 1.5476449809282259
+	// BisquareEfficiency95 is the bisquare constant of 95% asymptotic
+	// efficiency at the normal: the bisquare family's default (Holland &
+	// Welsch (1977) print 4.685).
+	BisquareEfficiency95 = 4.6850649485433758
+)
 
 // Bisquare is Tukey's biweight psi, smooth and redescending to zero at ±C.
 // With v = u/C,
@@ -9,10 +27,10 @@ import "math"
 //	psi(u) = u (1 - v²)²           for |u| ≤ C,   0 otherwise,
 //	w(u)   = (1 - v²)²             for |u| ≤ C,   0 otherwise.
 //
-// The default C = DefaultMMTuning = 4.6850649… gives 95% asymptotic
+// The default C = BisquareEfficiency95 = 4.6850649… gives 95% asymptotic
 // efficiency at the normal model (Holland & Welsch (1977), Comm. Statist.
 // Theory Methods 6:813-827, print 4.685). Used as the rho of an S-scale,
-// C = DefaultSTuning = 1.5476449… gives a 50% breakdown point (Rousseeuw &
+// C = BisquareBreakdown50 = 1.5476449… gives a 50% breakdown point (Rousseeuw &
 // Yohai (1984); the rounded 1.547 gives 0.4998). Being redescending, its
 // estimating equations can have several roots: a start near the bulk of
 // the data matters.

@@ -1,4 +1,4 @@
-package estimators
+package psi
 
 // LeastSquares is the psi of ordinary least squares:
 //

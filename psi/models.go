@@ -1,4 +1,4 @@
-package estimators
+package psi
 
 import (
 	"fmt"
@@ -6,6 +6,13 @@ import (
 
 	"gonum.org/v1/gonum/stat/distuv"
 )
+
+// MADConsistency is Φ⁻¹(3/4), the median of |Z| for a standard normal Z.
+// Dividing the median absolute residual by it gives a scale estimate that is
+// consistent for sigma at the normal model. The digits are those of the
+// exact value (a test checks the constant against the normal quantile
+// function); it is not the rounded 0.6745 or 1/1.4826.
+const MADConsistency = 0.67448975019608174320
 
 // ErrorModel is a symmetric error distribution under which asymptotic
 // properties of a psi are computed. The zero value is the standard normal.

@@ -1,4 +1,4 @@
-package estimators
+package psi
 
 import (
 	"fmt"
@@ -69,7 +69,7 @@ func familyTable() []Family {
 			build: func(t []float64) Psi { return Huber{K: t[0]} },
 		},
 		{
-			Name: "bisquare", Params: []string{"c"}, Defaults: []float64{DefaultMMTuning},
+			Name: "bisquare", Params: []string{"c"}, Defaults: []float64{BisquareEfficiency95},
 			About: "c = 4.68506 gives 95% efficiency at the normal (the exact root; Holland & Welsch 1977 print 4.685)",
 			build: func(t []float64) Psi { return Bisquare{C: t[0]} },
 		},

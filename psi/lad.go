@@ -1,4 +1,4 @@
-package estimators
+package psi
 
 import "math"
 
@@ -14,10 +14,10 @@ import "math"
 // zero residual, so it is capped at 1/Eps. The fixed point IRLS reaches is
 // then the minimiser of this smoothed rho (Huber's rho with k = Eps, divided
 // by Eps), which differs from an exact least-absolute-deviations fit by at
-// most a term of order Eps times the scale. MethodLAD computes the exact
-// least-absolute-deviations fit instead. IRLS converges only linearly for this
-// psi, and very slowly where the LAD fit is nearly not unique, so fits
-// often need far more iterations than the default cap.
+// most a term of order Eps times the scale. estimators.MethodLAD computes
+// the exact least-absolute-deviations fit instead. IRLS converges only
+// linearly for this psi, and very slowly where the LAD fit is nearly not
+// unique, so fits often need far more iterations than the default cap.
 //
 // The default Eps = 1e-6 only caps the weight. Median regression has
 // asymptotic efficiency 2/π ≈ 63.7% at the normal model (common practice).

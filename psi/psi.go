@@ -1,4 +1,4 @@
-package estimators
+package psi
 
 // Psi is a psi function with its rho, derivative and IRLS weight. The
 // argument of every method is a standardised residual u = r/sigma.
