@@ -107,6 +107,17 @@ func (g *Generator) Truth() []float64 { return append([]float64(nil), g.beta...)
 // Contaminated returns how many rows of each dataset are contaminated.
 func (g *Generator) Contaminated() int { return g.nContam }
 
+// NormalNoise reports whether the errors of clean rows are homoscedastic
+// normal, N(0, sd²), and if so their sd; the normal-theory results apply
+// only then.
+func (g *Generator) NormalNoise() (sd float64, ok bool) {
+	m, ok := g.noise.(normalNoise)
+	if !ok || g.growCol >= 0 {
+		return 0, false
+	}
+	return m.scale, true
+}
+
 // Scratch holds the per-goroutine buffers of Draw.
 type Scratch struct {
 	z, e []float64

@@ -125,3 +125,32 @@ func TestKindsDrawWithoutAllocating(t *testing.T) {
 		}
 	}
 }
+
+// TestNormalNoise checks which generators report homoscedastic normal
+// noise, the condition of the normal-theory efficiencies.
+func TestNormalNoise(t *testing.T) {
+	for _, c := range []struct {
+		noise string
+		sd    float64
+		ok    bool
+	}{
+		{"{dist: normal, scale: 0.3}", 0.3, true},
+		{"{scale: 2}", 2, true},
+		{"{dist: normal, grows-with: {column: a, rate: 0.1}}", 0, false},
+		{"{dist: laplace}", 0, false},
+		{"{dist: normal-mixture, mix-fraction: 0.1, mix-factor: 3}", 0, false},
+	} {
+		src := "model: {n: 20, columns: [{name: a}]}\nnoise: " + c.noise + "\nestimators: [{method: ls}]\n"
+		st, err := Parse("normal.yaml", []byte(src), Limits{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		g, err := NewGenerator(st.Cells[0].Scenario)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if sd, ok := g.NormalNoise(); sd != c.sd || ok != c.ok {
+			t.Errorf("%s: NormalNoise() = %v, %v; want %v, %v", c.noise, sd, ok, c.sd, c.ok)
+		}
+	}
+}
