@@ -93,7 +93,8 @@ func cellTheory(p cellPlan) []float64 {
 	for i := range out {
 		out[i] = math.NaN()
 	}
-	if sc.Noise.Dist != "normal" || sc.Noise.GrowsWith != nil {
+	sd, normal := p.gen.NormalNoise()
+	if !normal {
 		return out
 	}
 	for _, c := range sc.Contamination {
@@ -101,7 +102,6 @@ func cellTheory(p cellPlan) []float64 {
 			return out
 		}
 	}
-	sd := *sc.Noise.Scale
 	n, _ := p.gen.Dims()
 	abs := make([]float64, len(p.ests))
 	for i, e := range p.ests {

@@ -33,7 +33,7 @@ type Generator struct {
 	// allocates three to five times per draw (measured), and a dataset
 	// draws once per row.
 	chol     []float64
-	noise    noiseSampler
+	noise    noiseModel
 	growCol  int // column (index into cols) the noise spread grows with, or -1
 	growRate float64
 	contam   []contamSampler
@@ -42,14 +42,8 @@ type Generator struct {
 
 // contamSampler is one contamination with its row count.
 type contamSampler struct {
-	kind     string
-	rows     int
-	shift    float64
-	spread   float64
-	twoSided bool
-	at       []float64 // per column
-	atSpread float64
-	response float64
+	model contamModel
+	rows  int
 }
 
 // NewGenerator builds the generator of a validated scenario.
@@ -59,7 +53,7 @@ func NewGenerator(s *Scenario) (*Generator, error) {
 		p:         s.Coefficients(),
 		intercept: !s.Model.Intercept.None,
 		beta:      s.Truth(),
-		noise:     newNoiseSampler(s.Noise),
+		noise:     newNoiseModel(&s.Noise),
 		growCol:   -1,
 	}
 	k := len(s.Model.Columns)
@@ -92,24 +86,9 @@ func NewGenerator(s *Scenario) (*Generator, error) {
 		g.growCol = s.columnIndex(gw.Column)
 		g.growRate = gw.Rate
 	}
-	for _, c := range s.Contamination {
-		cs := contamSampler{kind: c.Kind, rows: c.rows(g.n)}
-		switch c.Kind {
-		case "vertical":
-			cs.shift, cs.spread, cs.twoSided = *c.Shift, *c.Spread, c.Sides == "two"
-		case "bad-leverage", "good-leverage":
-			cs.at = make([]float64, k)
-			for j := range cs.at {
-				cs.at[j] = c.At[0]
-				if len(c.At) == k {
-					cs.at[j] = c.At[j]
-				}
-			}
-			cs.atSpread = *c.AtSpread
-			if c.Kind == "bad-leverage" {
-				cs.response, cs.spread = *c.Response, *c.Spread
-			}
-		}
+	for i := range s.Contamination {
+		c := &s.Contamination[i]
+		cs := contamSampler{model: newContamModel(c, k), rows: c.rows(g.n)}
 		g.contam = append(g.contam, cs)
 		g.nContam += cs.rows
 	}
@@ -127,6 +106,17 @@ func (g *Generator) Truth() []float64 { return append([]float64(nil), g.beta...)
 
 // Contaminated returns how many rows of each dataset are contaminated.
 func (g *Generator) Contaminated() int { return g.nContam }
+
+// NormalNoise reports whether the errors of clean rows are homoscedastic
+// normal, N(0, sd²), and if so their sd; the normal-theory results apply
+// only then.
+func (g *Generator) NormalNoise() (sd float64, ok bool) {
+	m, ok := g.noise.(normalNoise)
+	if !ok || g.growCol >= 0 {
+		return 0, false
+	}
+	return m.scale, true
+}
 
 // Scratch holds the per-goroutine buffers of Draw.
 type Scratch struct {
@@ -180,15 +170,8 @@ func (g *Generator) Draw(src rand.Source, x *mat.Dense, y []float64, sc *Scratch
 	// 2. Clean responses.
 	for i := 0; i < g.n; i++ {
 		row := raw.Data[i*raw.Stride : i*raw.Stride+g.p]
-		e := g.noise.draw(src)
-		if g.growCol >= 0 {
-			e *= 1 + g.growRate*math.Abs(row[off+g.growCol])
-		}
-		var s float64
-		for j, b := range g.beta {
-			s += b * row[j]
-		}
-		y[i] = s + e
+		e := g.cleanError(src, row)
+		y[i] = g.fit(row) + e
 	}
 	if g.nContam == 0 {
 		return
@@ -210,37 +193,43 @@ func (g *Generator) Draw(src rand.Source, x *mat.Dense, y []float64, sc *Scratch
 			i := perm[next]
 			next++
 			row := raw.Data[i*raw.Stride : i*raw.Stride+g.p]
-			switch c.kind {
-			case "vertical":
-				shift := c.shift
-				if c.twoSided && uniformInt(src, 2) == 1 {
-					shift = -shift
-				}
-				var fit float64
-				for j, b := range g.beta {
-					fit += b * row[j]
-				}
-				y[i] = fit + shift + c.spread*distuv.Normal{Mu: 0, Sigma: 1, Src: src}.Rand()
-			case "bad-leverage", "good-leverage":
-				for j := range c.at {
-					row[off+j] = c.at[j] + c.atSpread*distuv.Normal{Mu: 0, Sigma: 1, Src: src}.Rand()
-				}
-				if c.kind == "bad-leverage" {
-					y[i] = c.response + c.spread*distuv.Normal{Mu: 0, Sigma: 1, Src: src}.Rand()
-				} else {
-					var fit float64
-					for j, b := range g.beta {
-						fit += b * row[j]
-					}
-					e := g.noise.draw(src)
-					if g.growCol >= 0 {
-						e *= 1 + g.growRate*math.Abs(row[off+g.growCol])
-					}
-					y[i] = fit + e
-				}
-			}
+			y[i] = c.model.apply(g, src, row)
 		}
 	}
+}
+
+// fit returns the true regression function at a design row (intercept
+// column included).
+func (g *Generator) fit(row []float64) float64 {
+	var s float64
+	for j, b := range g.beta {
+		s += b * row[j]
+	}
+	return s
+}
+
+// cleanError draws the error of a clean observation at a design row: one
+// draw of the noise model, grown with the heteroscedasticity column.
+func (g *Generator) cleanError(src rand.Source, row []float64) float64 {
+	e := g.noise.draw(src)
+	if g.growCol >= 0 {
+		e *= 1 + g.growRate*math.Abs(g.predictors(row)[g.growCol])
+	}
+	return e
+}
+
+// predictors returns the predictor columns of a design row (the row
+// without its intercept column).
+func (g *Generator) predictors(row []float64) []float64 {
+	if g.intercept {
+		return row[1:]
+	}
+	return row
+}
+
+// stdNormal draws one standard normal value from src.
+func stdNormal(src rand.Source) float64 {
+	return distuv.Normal{Mu: 0, Sigma: 1, Src: src}.Rand()
 }
 
 // uniformInt returns a uniform integer in [0, n) from src (Lemire's
@@ -288,8 +277,7 @@ func (g *Generator) AppendSettings(dst []byte) []byte {
 	}
 	e.bool(g.chol != nil)
 	e.floats(g.chol)
-	e.str(noiseDists()[g.noise.kind].name)
-	e.floats([]float64{g.noise.scale, g.noise.df, g.noise.mixFrac, g.noise.mixFac, g.noise.shape})
+	g.noise.appendSettings(&e)
 	e.int(g.growCol)
 	e.float(g.growRate)
 	for i := range g.contam {
@@ -297,11 +285,7 @@ func (g *Generator) AppendSettings(dst []byte) []byte {
 		if c.rows == 0 {
 			continue
 		}
-		e.str(c.kind)
-		e.int(c.rows)
-		e.floats([]float64{c.shift, c.spread, c.atSpread, c.response})
-		e.bool(c.twoSided)
-		e.floats(c.at)
+		c.model.appendSettings(&e, c.rows)
 	}
 	return e.b
 }

@@ -108,32 +108,11 @@ func (s *Scenario) fillDefaults(d *decoder, defaultName string) {
 			}
 		}
 	}
-	n := &s.Noise
-	if n.Dist == "" {
-		n.Dist = "normal"
-	}
-	if n.Scale == nil {
-		one := 1.0
-		n.Scale = &one
-	}
-	if n.Dist == "skewed" && n.Shape == nil {
-		four := 4.0
-		n.Shape = &four
-	}
+	s.Noise.fillDefaults()
 	kinds := map[string]int{}
 	for i := range s.Contamination {
 		c := &s.Contamination[i]
-		zero := 0.0
-		if c.Spread == nil && (c.Kind == "vertical" || c.Kind == "bad-leverage") {
-			c.Spread = &zero
-		}
-		if c.AtSpread == nil && (c.Kind == "bad-leverage" || c.Kind == "good-leverage") {
-			z := 0.0
-			c.AtSpread = &z
-		}
-		if c.Sides == "" && c.Kind == "vertical" {
-			c.Sides = "one"
-		}
+		c.fillDefaults()
 		if c.Label == "" {
 			kinds[c.Kind]++
 			c.Label = c.Kind
@@ -397,138 +376,6 @@ func (v Correlation) matrix(k int) (*mat.SymDense, error) {
 	return out, nil
 }
 
-// The range of noise.scale. The Monte Carlo standard errors of variances
-// use fourth powers of the estimation errors, which scale with the noise:
-// within [1e-50, 1e50] they stay normal float64 values (about 1e±200) with
-// room for heavy tails, while a denormal scale gave underflowed sums and
-// nonsense such as a gap of -1e30 MCSE.
-const (
-	minNoiseScale = 1e-50
-	maxNoiseScale = 1e50
-)
-
-func (s *Scenario) validateNoise(c checker) {
-	n := &s.Noise
-	info, ok := noiseInfo(n.Dist)
-	if !ok {
-		c.fail("noise.dist", "unknown noise %q; valid: %s", n.Dist, strings.Join(noiseNames(), ", "))
-		return
-	}
-	if v := *n.Scale; !(v >= minNoiseScale && v <= maxNoiseScale) {
-		c.fail("noise.scale", "must be a number from %g to %g, got %v (rescale the model's units if the noise really is that small or large)", minNoiseScale, maxNoiseScale, v)
-	}
-	given := map[string]*float64{"df": n.DF, "mix-fraction": n.MixFraction, "mix-factor": n.MixFactor, "shape": n.Shape}
-	for _, key := range []string{"df", "mix-fraction", "mix-factor", "shape"} {
-		v := given[key]
-		allowed := slices.Contains(info.params, key)
-		if v != nil && !allowed {
-			c.fail("noise."+key, "is not used by noise %s; %s takes %s", n.Dist, n.Dist, paramList(info.params))
-		}
-		if v == nil && allowed && key != "shape" {
-			c.fail("noise."+key, "missing: noise %s needs %s", n.Dist, key)
-		}
-	}
-	if n.DF != nil && !(*n.DF > 0) {
-		c.fail("noise.df", "degrees of freedom must be positive, got %v", *n.DF)
-	}
-	if n.MixFraction != nil && !(*n.MixFraction > 0 && *n.MixFraction < 1) {
-		c.fail("noise.mix-fraction", "must be between 0 and 1 (exclusive), got %v", *n.MixFraction)
-	}
-	if n.MixFactor != nil && !(*n.MixFactor > 0) {
-		c.fail("noise.mix-factor", "must be positive, got %v", *n.MixFactor)
-	}
-	if n.Shape != nil && !(*n.Shape > 0) {
-		c.fail("noise.shape", "must be positive, got %v", *n.Shape)
-	}
-	if g := n.GrowsWith; g != nil {
-		if s.columnIndex(g.Column) < 0 {
-			c.fail("noise.grows-with.column", "no column named %q; columns: %s", g.Column, strings.Join(s.columnNames(), ", "))
-		}
-		if !(g.Rate >= 0) {
-			c.fail("noise.grows-with.rate", "must be ≥ 0, got %v", g.Rate)
-		}
-	}
-}
-
-func (s *Scenario) validateContamination(c checker) {
-	total := 0.0
-	rows := 0 // rows replaced, as the generator counts them
-	labels := map[string]bool{}
-	k := len(s.Model.Columns)
-	for i := range s.Contamination {
-		ct := &s.Contamination[i]
-		path := fmt.Sprintf("contamination[%d]", i)
-		if !namePattern.MatchString(ct.Label) {
-			c.fail(path+".label", "%q is not a valid label: use letters, digits, '_' or '-'", ct.Label)
-		} else if labels[ct.Label] {
-			c.fail(path+".label", "%q labels two contaminations; labels must be unique", ct.Label)
-		}
-		labels[ct.Label] = true
-		if !(ct.Fraction >= 0 && ct.Fraction < 0.5) {
-			c.fail(path+".fraction", "must be at least 0 and below 0.5, got %v", ct.Fraction)
-		}
-		total += ct.Fraction
-		if ct.Fraction >= 0 && ct.Fraction < 0.5 {
-			rows += ct.rows(s.Model.N)
-		}
-		var allowed []string
-		switch ct.Kind {
-		case "vertical":
-			allowed = []string{"shift", "spread", "sides"}
-			if ct.Shift == nil {
-				c.fail(path+".shift", "missing: where the outlying errors sit (in units of y)")
-			}
-			if ct.Sides != "one" && ct.Sides != "two" {
-				c.fail(path+".sides", "want one or two, got %q", ct.Sides)
-			}
-		case "bad-leverage", "good-leverage":
-			allowed = []string{"at", "at-spread"}
-			if ct.Kind == "bad-leverage" {
-				allowed = append(allowed, "response", "spread")
-				if ct.Response == nil {
-					c.fail(path+".response", "missing: the y value the bad leverage points take")
-				}
-			}
-			if k == 0 {
-				c.fail(path+".kind", "leverage points need at least one column")
-			}
-			switch {
-			case len(ct.At) == 0:
-				c.fail(path+".at", "missing: the x position of the leverage points (one number, or one per column)")
-			case len(ct.At) != 1 && len(ct.At) != k:
-				c.fail(path+".at", "give one number or %d (one per column), got %d", k, len(ct.At))
-			}
-		case "":
-			c.fail(path+".kind", "missing: want vertical, bad-leverage or good-leverage")
-			continue
-		default:
-			c.fail(path+".kind", "unknown kind %q; want vertical, bad-leverage or good-leverage", ct.Kind)
-			continue
-		}
-		present := map[string]bool{"shift": ct.Shift != nil, "spread": ct.Spread != nil, "sides": ct.Sides != "",
-			"at": len(ct.At) > 0, "at-spread": ct.AtSpread != nil, "response": ct.Response != nil}
-		for _, key := range []string{"shift", "spread", "sides", "at", "at-spread", "response"} {
-			if present[key] && !slices.Contains(allowed, key) {
-				c.fail(path+"."+key, "is not used by kind %s; %s takes fraction, %s", ct.Kind, ct.Kind, strings.Join(allowed, ", "))
-			}
-		}
-		if ct.Spread != nil && !(*ct.Spread >= 0) {
-			c.fail(path+".spread", "must be ≥ 0, got %v", *ct.Spread)
-		}
-		if ct.AtSpread != nil && !(*ct.AtSpread >= 0) {
-			c.fail(path+".at-spread", "must be ≥ 0, got %v", *ct.AtSpread)
-		}
-	}
-	switch {
-	case total >= 0.5:
-		c.fail("contamination", "fractions add up to %v; the total must stay below 0.5", total)
-	case s.Model.N > 0 && 2*rows >= s.Model.N:
-		// Each contamination replaces round(fraction·n) rows, so small
-		// fractions can round up to half the data between them.
-		c.fail("contamination", "with n = %d the contaminations replace %d rows (round(fraction·n) each), not fewer than half; lower a fraction or raise model.n", s.Model.N, rows)
-	}
-}
-
 func (s *Scenario) validateEstimators(c checker) {
 	if len(s.Estimators) == 0 {
 		c.fail("estimators", "missing: list at least one estimator, for example {method: ls} and {method: irls, psi: huber}")
@@ -772,11 +619,4 @@ func (s *Scenario) estimatorLabels() []string {
 		out[i] = e.Label
 	}
 	return out
-}
-
-func paramList(p []string) string {
-	if len(p) == 0 {
-		return "only scale"
-	}
-	return "scale, " + strings.Join(p, ", ")
 }
