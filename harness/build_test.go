@@ -1,7 +1,6 @@
 package harness
 
 import (
-	"bytes"
 	"context"
 	"strings"
 	"testing"
@@ -25,22 +24,11 @@ func TestBuildIDOfThisProcess(t *testing.T) {
 func TestOtherBuildRefused(t *testing.T) {
 	st := parse(t, flowMeterLike)
 	const other = "exe-0123456789abcdef"
-	roundTrip := func(p *Partial) *Partial {
-		var buf bytes.Buffer
-		if err := WritePartial(&buf, p); err != nil {
-			t.Fatal(err)
-		}
-		back, err := ReadPartial(&buf)
-		if err != nil {
-			t.Fatal(err)
-		}
-		return back
-	}
 	_, theirs, err := RunPartial(context.Background(), st, Options{Replicates: 40, Shard: 0, Shards: 2, Build: other})
 	if err != nil {
 		t.Fatal(err)
 	}
-	theirs = roundTrip(theirs)
+	theirs = roundTripPartial(t, theirs)
 	if theirs.Build != other {
 		t.Fatalf("the partial recorded build %q, want %q", theirs.Build, other)
 	}
@@ -48,7 +36,7 @@ func TestOtherBuildRefused(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	mine = roundTrip(mine)
+	mine = roundTripPartial(t, mine)
 	if mine.Build != BuildID() {
 		t.Fatalf("the partial recorded build %q, want this process's %q", mine.Build, BuildID())
 	}
@@ -68,7 +56,7 @@ func TestOtherBuildRefused(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if _, _, err := MergePartials([]*Partial{mine, roundTrip(same)}, scenariosLimits()); err != nil {
+	if _, _, err := MergePartials([]*Partial{mine, roundTripPartial(t, same)}, scenariosLimits()); err != nil {
 		t.Errorf("merging shards of one build: %v", err)
 	}
 }

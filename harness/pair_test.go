@@ -224,15 +224,7 @@ func TestPairedShardsAndResume(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			var buf bytes.Buffer
-			if err := WritePartial(&buf, p); err != nil {
-				t.Fatal(err)
-			}
-			back, err := ReadPartial(&buf)
-			if err != nil {
-				t.Fatal(err)
-			}
-			parts = append(parts, back)
+			parts = append(parts, roundTripPartial(t, p))
 		}
 		merged, mst, err := MergePartials(parts, scenarios.Limits{})
 		if err != nil {

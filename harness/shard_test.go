@@ -31,15 +31,7 @@ func TestShardsMergeToSingleRun(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			var buf bytes.Buffer
-			if err := WritePartial(&buf, p); err != nil {
-				t.Fatal(err)
-			}
-			back, err := ReadPartial(&buf)
-			if err != nil {
-				t.Fatal(err)
-			}
-			parts = append(parts, back)
+			parts = append(parts, roundTripPartial(t, p))
 		}
 		merged, mst, err := MergePartials(parts, scenariosLimits())
 		if err != nil {
@@ -152,4 +144,19 @@ func TestResumeGivesSameResults(t *testing.T) {
 	if again.String() != written {
 		t.Error("writing a partial twice gave different bytes")
 	}
+}
+
+// roundTripPartial writes p as a partial file and reads it back, as a
+// shard's or a checkpoint's partial is.
+func roundTripPartial(t *testing.T, p *Partial) *Partial {
+	t.Helper()
+	var buf bytes.Buffer
+	if err := WritePartial(&buf, p); err != nil {
+		t.Fatal(err)
+	}
+	back, err := ReadPartial(&buf)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return back
 }
