@@ -53,6 +53,8 @@ func Example_ownPsi() {
 		return
 	}
 	fmt.Printf("d = %.3f\n", d)
+	swapped := res.Cells[0].Estimators[1]
+	fmt.Printf("%s fitted with psi %s\n", swapped.Label, swapped.Psi)
 	for _, c := range res.Cells {
 		e := c.Estimators[1] // the swapped estimator
 		x1 := e.Coefficients[1]
@@ -61,6 +63,7 @@ func Example_ownPsi() {
 	}
 	// Output:
 	// d = 1.287
+	// huber fitted with psi pseudoHuber
 	// model.n=25: simulated efficiency 0.93 ± 0.03, theory 0.950
 	// model.n=100: simulated efficiency 0.90 ± 0.02, theory 0.950
 	// model.n=400: simulated efficiency 0.94 ± 0.02, theory 0.950

@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"context"
 	"io"
+	"strings"
 	"testing"
 
 	"github.com/rhomark/rhomark/estimators"
@@ -171,5 +172,41 @@ func TestCompareOlderSchema(t *testing.T) {
 	}
 	if measures["rmse"] != 0 || measures["mse_ratio"] != 0 || measures["bias"] == 0 {
 		t.Errorf("measures compared: %v", measures)
+	}
+}
+
+// TestAdjustedEstimatorDescribed: when Options.Adjust swaps an estimator's
+// psi or method, the results describe the estimator that was fitted, not
+// the scenario's entry; an estimator Adjust leaves alone keeps its entry's
+// description.
+func TestAdjustedEstimatorDescribed(t *testing.T) {
+	st := parse(t, flowMeterLike)
+	res, err := Run(context.Background(), st, Options{Replicates: 8, Adjust: func(_ int, label string, e *estimators.Estimator) {
+		if label == "huber" {
+			e.Psi = psi.Welsch{C: 2.9846}
+			e.Method = estimators.MethodNewton
+		}
+	}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, c := range res.Cells {
+		for _, e := range c.Estimators {
+			switch e.Label {
+			case "huber":
+				if e.Psi != "welsch" || e.Method != "newton" || len(e.Tuning) != 1 || e.Tuning[0] != 2.9846 {
+					t.Errorf("adjusted huber described as %s %s %v", e.Method, e.Psi, e.Tuning)
+				}
+			case "bisquare":
+				if e.Psi != "bisquare" || e.Method != "newton" {
+					t.Errorf("unadjusted bisquare described as %s %s %v", e.Method, e.Psi, e.Tuning)
+				}
+			}
+		}
+	}
+	for _, f := range res.Functions {
+		if f.Estimator == "huber" && !strings.HasPrefix(f.Psi, "welsch 2.9846") {
+			t.Errorf("psi curve of the adjusted huber labelled %q", f.Psi)
+		}
 	}
 }

@@ -1,7 +1,9 @@
 package harness
 
 import (
+	"fmt"
 	"math"
+	"reflect"
 	"runtime"
 	"runtime/debug"
 	"slices"
@@ -46,11 +48,12 @@ func summarise(st *scenarios.Study, plans []cellPlan, tallies []*cellTally, seed
 		theory := cellTheory(p)
 		for j, spec := range sc.Estimators {
 			et := &t.ests[j]
+			method, psiName, tuning := describe(spec, p.ests[j])
 			est := results.Estimator{
 				Label:            spec.Label,
-				Method:           spec.Method,
-				Psi:              spec.Psi.Name(),
-				Tuning:           spec.Tuning,
+				Method:           method,
+				Psi:              psiName,
+				Tuning:           tuning,
 				Convergence:      convergence(et),
 				TheoryEfficiency: results.Num(theory[j]),
 			}
@@ -121,7 +124,7 @@ func functionCurves(p cellPlan) []results.FunctionCurve {
 	for i, e := range p.ests {
 		spec := p.cell.Scenario.Estimators[i]
 		fn := e.Psi
-		desc := spec.Psi.Name()
+		_, desc, tuning := describe(spec, e)
 		switch e.Method {
 		case estimators.MethodMM:
 			if fn == nil {
@@ -134,7 +137,7 @@ func functionCurves(p cellPlan) []results.FunctionCurve {
 		if fn == nil {
 			continue
 		}
-		for _, t := range spec.Tuning {
+		for _, t := range tuning {
 			desc += " " + strconv.FormatFloat(t, 'g', -1, 64)
 		}
 		fc := results.FunctionCurve{Estimator: spec.Label, Psi: desc}
@@ -471,4 +474,39 @@ func provenance(workers int, started time.Time, plans []cellPlan, tallies []*cel
 		}
 	}
 	return p
+}
+
+// describe returns the method, psi family and tuning constants that the
+// results record for an estimator: those of its scenario entry, unless
+// Options.Adjust changed the built estimator's method or psi, in which case
+// those of the estimator that was fitted: a built-in family by its name and
+// constants, a custom psi as "custom", a psi type of the caller's own by its
+// type name.
+func describe(spec scenarios.EstimatorSpec, e estimators.Estimator) (method, psiName string, tuning []float64) {
+	method, psiName, tuning = spec.Method, spec.Psi.Name(), spec.Tuning
+	if m := e.Method.String(); m != method {
+		method = m
+	}
+	if e.Psi == nil {
+		return method, psiName, tuning
+	}
+	built, err := spec.BuildPsi()
+	if err == nil && built != nil && reflect.TypeOf(built) == reflect.TypeOf(e.Psi) && reflect.TypeOf(built).Comparable() && built == e.Psi {
+		return method, psiName, tuning
+	}
+	if name, t, ok := psi.Describe(e.Psi); ok {
+		return method, name, t
+	}
+	if _, ok := e.Psi.(*psi.Custom); ok {
+		return method, "custom", nil
+	}
+	// A psi type of the caller's own: its Go type name.
+	t := reflect.TypeOf(e.Psi)
+	if t.Kind() == reflect.Pointer {
+		t = t.Elem()
+	}
+	if t.Name() != "" {
+		return method, t.Name(), nil
+	}
+	return method, fmt.Sprintf("%T", e.Psi), nil
 }

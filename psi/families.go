@@ -3,6 +3,7 @@ package psi
 import (
 	"fmt"
 	"math"
+	"reflect"
 	"sort"
 	"strings"
 )
@@ -148,4 +149,33 @@ func FamilyNames() []string {
 		names[i] = f.Name
 	}
 	return names
+}
+
+// Describe returns the family name and the tuning constants of p when p is
+// a built-in family's psi, in the order of the family's Params, and false
+// otherwise (a custom psi, or a type of the caller's own). It reads the
+// constants off p's fields, which for every built-in family are its tuning
+// constants in that order.
+func Describe(p Psi) (family string, tuning []float64, ok bool) {
+	if p == nil {
+		return "", nil, false
+	}
+	t := reflect.TypeOf(p)
+	for _, f := range familyTable() {
+		if reflect.TypeOf(f.build(f.Defaults)) != t || t.Kind() != reflect.Struct {
+			continue
+		}
+		v := reflect.ValueOf(p)
+		if v.NumField() != len(f.Params) {
+			return "", nil, false
+		}
+		for i := range v.NumField() {
+			if v.Field(i).Kind() != reflect.Float64 {
+				return "", nil, false
+			}
+			tuning = append(tuning, v.Field(i).Float())
+		}
+		return f.Name, tuning, true
+	}
+	return "", nil, false
 }

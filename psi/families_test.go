@@ -2,6 +2,7 @@ package psi
 
 import (
 	"math"
+	"slices"
 	"strings"
 	"testing"
 )
@@ -363,5 +364,39 @@ func TestLADWeightAndLimits(t *testing.T) {
 	}
 	if got, want := l.Rho(l.Eps), l.Eps/2; math.Abs(got-want) > 1e-15*want {
 		t.Errorf("rho(Eps) = %v, want Eps/2 = %v", got, want)
+	}
+}
+
+// TestDescribe: every built-in family's psi, built with its defaults and
+// with other constants, is described back by its name and constants;
+// a custom psi is not.
+func TestDescribe(t *testing.T) {
+	for _, f := range Families() {
+		for _, scale := range []float64{1, 1.5} {
+			want := make([]float64, len(f.Defaults))
+			for i, d := range f.Defaults {
+				want[i] = d * scale
+			}
+			p, err := f.New(want)
+			if err != nil {
+				if len(want) == 0 {
+					p, err = f.New(nil)
+				}
+				if err != nil {
+					t.Fatalf("%s: %v", f.Name, err)
+				}
+			}
+			name, got, ok := Describe(p)
+			if !ok || name != f.Name || !slices.Equal(got, want) {
+				t.Errorf("Describe(%s %v) = %q %v %v", f.Name, want, name, got, ok)
+			}
+		}
+	}
+	c, err := NewCustom(CustomSpec{Psi: "r"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, _, ok := Describe(c); ok {
+		t.Error("a custom psi was described as a family")
 	}
 }
