@@ -405,3 +405,28 @@ func TestNewtonHandsOverToIRLS(t *testing.T) {
 	}
 	t.Logf("IRLS %d iterations; Newton %d iterations, %d of them IRLS", irls.Iterations, newton.Iterations, newton.Fallbacks)
 }
+
+// TestMethodRoles: which methods can start an M-estimator (Direct) and
+// which take a psi of the user's (TakesPsi) are separate questions; MM is
+// both.
+func TestMethodRoles(t *testing.T) {
+	for _, tc := range []struct {
+		m                Method
+		direct, takesPsi bool
+	}{
+		{MethodLS, true, false},
+		{MethodIRLS, false, true},
+		{MethodNewton, false, true},
+		{MethodS, true, false},
+		{MethodMM, true, true},
+		{MethodLTS, true, false},
+		{MethodLAD, true, false},
+	} {
+		if tc.m.Direct() != tc.direct || tc.m.TakesPsi() != tc.takesPsi {
+			t.Errorf("%s: Direct %v TakesPsi %v, want %v %v", tc.m, tc.m.Direct(), tc.m.TakesPsi(), tc.direct, tc.takesPsi)
+		}
+	}
+	if len(Methods()) != 7 {
+		t.Errorf("%d methods: add the new one to this table", len(Methods()))
+	}
+}

@@ -75,12 +75,23 @@ func Methods() []Method {
 	return []Method{MethodLS, MethodIRLS, MethodNewton, MethodS, MethodMM, MethodLTS, MethodLAD}
 }
 
-// Direct reports whether the method computes its estimate without a psi of
-// the user's (least squares, S, MM with its fixed bisquare, LTS, exact
-// LAD), so that it can serve as the start of an M-estimator.
+// Direct reports whether the method needs no start of its own (least
+// squares, S, MM, LTS, exact LAD), so that it can serve as the start of an
+// M-estimator. Whether it takes a psi is a separate question: see TakesPsi.
 func (m Method) Direct() bool {
 	switch m {
 	case MethodLS, MethodS, MethodMM, MethodLTS, MethodLAD:
+		return true
+	}
+	return false
+}
+
+// TakesPsi reports whether the method fits with a psi, stopping rules, a
+// scale rule and (but MM, whose start is its S-estimate) a start of the
+// user's: IRLS, Newton, and MM for its M-step.
+func (m Method) TakesPsi() bool {
+	switch m {
+	case MethodIRLS, MethodNewton, MethodMM:
 		return true
 	}
 	return false

@@ -134,7 +134,7 @@ func (s *Scenario) fillDefaults(d *decoder, defaultName string) {
 		if e.Method == "mm-estimate" && e.Psi.IsZero() {
 			e.Psi = PsiSpec{Family: "bisquare"}
 		}
-		if m, ok := estimators.ParseMethod(e.Method); ok && !m.Direct() || e.Method == "mm-estimate" {
+		if m, ok := estimators.ParseMethod(e.Method); ok && m.TakesPsi() {
 			if f, ok := psi.LookupFamily(e.Psi.Family); ok && len(e.Tuning) == 0 && e.Psi.Custom == nil {
 				e.Tuning = append(Numbers(nil), f.Defaults...)
 			}
@@ -440,7 +440,7 @@ func (s *Scenario) validateEstimators(c checker) {
 		if resampled && s.Model.N < 2*p {
 			c.fail(path+".method", "the S, MM and LTS estimators (and starts from them) need n ≥ 2 × coefficients = %d observations, got n = %d: with fewer, an elemental subset fits half the data exactly", 2*p, s.Model.N)
 		}
-		if m.Direct() && m != estimators.MethodMM {
+		if !m.TakesPsi() {
 			for _, key := range []string{"psi", "tuning", "scale", "start", "stop"} {
 				if c.d.given(path + "." + key) {
 					c.fail(path+"."+key, "is not used by method %s (it has no psi, scale, start or stopping rule of its own)", e.Method)
@@ -524,7 +524,7 @@ func (e EstimatorSpec) Build() (estimators.Estimator, error) {
 		div, _ := estimators.ParseScaleDivisor(rs.SDivisor)
 		out.Resampling = estimators.Resampling{Subsets: rs.Subsets, Keep: rs.Keep, SC: rs.SC, SDivisor: div, H: rs.H}
 	}
-	if m.Direct() && m != estimators.MethodMM {
+	if !m.TakesPsi() {
 		return out, nil
 	}
 	psi, err := e.BuildPsi()

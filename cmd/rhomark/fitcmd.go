@@ -220,7 +220,7 @@ func buildFitEstimator(method, start string, pf *psiFlags, scale string, tol flo
 		return estimators.Estimator{}, fitEstimator{}, usagef("--method %q: want ls, irls, newton, s-estimate, mm-estimate, lts or lad", method)
 	}
 	desc := fitEstimator{Method: m.String()}
-	if m.Direct() && m != estimators.MethodMM {
+	if !m.TakesPsi() {
 		for _, name := range append(psiFlagNames(), "scale", "tol", "max-iter", "start") {
 			if given[name] {
 				return estimators.Estimator{}, desc, usagef("--%s is not used with --method %s", name, method)
