@@ -121,14 +121,7 @@ func (fc *figureContext) coverage() (*figureSpec, string, error) {
 // Wilson 95% intervals.
 func (fc *figureContext) failures() (*figureSpec, string, error) {
 	r := fc.r
-	failing := map[string]bool{}
-	for _, c := range r.Cells {
-		for _, e := range c.Estimators {
-			if e.Convergence.Converged < e.Convergence.Fits {
-				failing[e.Label] = true
-			}
-		}
-	}
+	failing := labelsWhere(r, func(e results.Estimator) bool { return e.Convergence.Converged < e.Convergence.Fits })
 	if len(failing) == 0 {
 		if len(r.Cells) == 0 {
 			return nil, "", nil
@@ -197,14 +190,7 @@ func labelsOf(series []*seriesPoints) []string {
 // estimator, with ±2 MCSE bars, and the most any fit took as a small mark.
 func (fc *figureContext) iterations() (*figureSpec, string, error) {
 	r := fc.r
-	iterative := map[string]bool{}
-	for _, c := range r.Cells {
-		for _, e := range c.Estimators {
-			if e.Convergence.MaxIterations > 0 {
-				iterative[e.Label] = true
-			}
-		}
-	}
+	iterative := labelsWhere(r, func(e results.Estimator) bool { return e.Convergence.MaxIterations > 0 })
 	if len(iterative) == 0 {
 		if len(r.Cells) == 0 {
 			return nil, "", nil
@@ -246,4 +232,18 @@ func (fc *figureContext) iterations() (*figureSpec, string, error) {
 		caption += " Not iterative: " + strings.Join(direct, ", ") + "."
 	}
 	return &figureSpec{title: r.Scenario.Name + ": iterations per cell", caption: caption, panels: [][]*plot.Plot{{p}}, legend: leg}, "", nil
+}
+
+// labelsWhere returns the labels of the estimators for which has holds in
+// at least one cell.
+func labelsWhere(r *results.Results, has func(results.Estimator) bool) map[string]bool {
+	out := map[string]bool{}
+	for _, c := range r.Cells {
+		for _, e := range c.Estimators {
+			if has(e) {
+				out[e.Label] = true
+			}
+		}
+	}
+	return out
 }
