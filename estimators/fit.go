@@ -4,6 +4,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"strings"
 
 	"gonum.org/v1/gonum/blas/blas64"
 	"gonum.org/v1/gonum/mat"
@@ -176,40 +177,9 @@ func (e Estimator) Fit(x *mat.Dense, y []float64, ws *Workspace, res *Result) er
 
 	if e.Method.Direct() {
 		ws.direct(e, e.Method, raw, y, res)
-		classifyNonFinite(res)
 		return nil
 	}
-	// An iterative fit: its start, and the scale that comes with it.
-	if e.Start != nil {
-		copy(beta, e.Start)
-		ws.residuals(raw, y, beta)
-	} else {
-		var start Result
-		start.Coefficients = beta
-		ws.direct(e, e.StartFrom, raw, y, &start)
-		classifyNonFinite(&start)
-		res.SRefinement, res.SSteps = start.SRefinement, start.SSteps
-		// An S refinement stopped at its cap is still an S-scale and the
-		// best candidate, as for MM.
-		capped := e.StartFrom == MethodS && start.Status == IterationLimit
-		if !start.Status.Converged() && !capped {
-			res.Status = start.Status
-			return nil
-		}
-		if e.Scale.Rule == ScaleStart {
-			if start.Scale == 0 {
-				// An exact fit only if the data lie on it, not merely the
-				// observations a start passes through.
-				res.Status, res.Scale = ZeroScale, 0
-				if allZero(ws.r) {
-					res.Status = ExactFit
-				}
-				return nil
-			}
-			e.Scale = Scale{Rule: ScaleFixed, Value: start.Scale}
-		}
-	}
-	ws.iterate(e, raw, y, res)
+	solverOf(e.Method).fit(ws, e, raw, y, res)
 	return nil
 }
 
@@ -229,69 +199,12 @@ func classifyNonFinite(res *Result) {
 	}
 }
 
-// direct computes the estimate of a non-iterative method m into res (the
-// residuals end in ws.r). For MethodMM it runs the S-estimate and the
-// M-step.
+// direct computes the estimate of the direct method m (e's own, or its
+// start's) into res, the residuals ending in ws.r, and classifies a
+// non-finite solution.
 func (ws *Workspace) direct(e Estimator, m Method, x blas64.General, y []float64, res *Result) {
-	beta := res.Coefficients
-	switch m {
-	case MethodLS:
-		if !ws.leastSquares(x, y, beta, e.Method == MethodLS) {
-			res.Status = SingularDesign
-			return
-		}
-		ws.residuals(x, y, beta)
-		ws.finishLS(x, res)
-	case MethodS:
-		out := ws.sFit(x, y, beta, e.Resampling)
-		res.Scale, res.Iterations, res.Status = out.scale, out.steps, out.status
-		res.Objective = res.Scale
-		out.note(res)
-	case MethodMM:
-		ws.mmStep(e, x, y, res, ws.sFit(x, y, beta, e.Resampling))
-	case MethodLTS:
-		res.Objective, res.Scale, res.Iterations, res.Status = ws.lts.fit(x, y, beta, ws.rng,
-			ltsSettings{H: e.Resampling.H, Subsets: e.Resampling.Subsets, Keep: e.Resampling.Keep})
-		ws.residuals(x, y, beta)
-	case MethodLAD:
-		res.Iterations, res.Status = ws.lad.fit(x, y, beta, nil)
-		ws.residuals(x, y, beta)
-		var sum float64
-		for _, r := range ws.r {
-			sum += math.Abs(r)
-		}
-		res.Objective = sum
-		res.Scale = MAD(ws.r, ws.buf)
-	default:
-		res.Status = NotRun
-	}
-}
-
-// mmStep completes an MM fit from the S outcome out, whose coefficients are
-// in res.Coefficients and residuals in ws.r: the M-step by IRLS with the
-// MM psi at the S-scale. A refinement stopped at its cap still leaves a
-// valid S-scale and the best candidate's coefficients, so the M-step starts
-// from them, and res.SRefinement says so.
-func (ws *Workspace) mmStep(e Estimator, x blas64.General, y []float64, res *Result, out sOutcome) {
-	if !out.status.Converged() && out.status != IterationLimit {
-		res.Status, res.Iterations = out.status, out.steps
-		return
-	}
-	out.note(res)
-	if out.scale == 0 {
-		res.Status, res.Scale = ExactFit, 0
-		return
-	}
-	mm := e
-	if e.Method != MethodMM {
-		// The MM-estimate as the start of another fit: its own psi (the
-		// default bisquare), and not the caller's trace.
-		mm = Estimator{Method: MethodMM, Settings: e.Settings, Resampling: e.Resampling}
-	}
-	mm.Psi = mm.MStepPsi()
-	mm.Scale = Scale{Rule: ScaleFixed, Value: out.scale}
-	mm.Method = MethodIRLS
-	ws.iterate(mm, x, y, res)
+	solverOf(m).fit(ws, e, x, y, res)
+	classifyNonFinite(res)
 }
 
 // Fit fits e to x and y with a fresh workspace. It is a convenience for
@@ -316,12 +229,12 @@ func (e Estimator) check(raw blas64.General, y []float64) error {
 		return errors.New("design has no columns")
 	case n < p:
 		return fmt.Errorf("design has %d rows, fewer than its %d columns", n, p)
-	case e.Method < MethodLS || e.Method > MethodLAD:
-		return fmt.Errorf("unknown method %d", e.Method)
-	case (e.Method == MethodIRLS || e.Method == MethodNewton) && e.Psi == nil:
+	case solverOf(e.Method) == nil:
+		return fmt.Errorf("unknown method %d", int(e.Method))
+	case e.Method.TakesPsi() && e.MStepPsi() == nil:
 		return fmt.Errorf("method %v needs a psi function", e.Method)
 	case !e.StartFrom.Direct():
-		return fmt.Errorf("method %v cannot start an iterative fit; use ls, s-estimate, mm-estimate, lts or lad", e.StartFrom)
+		return fmt.Errorf("method %v cannot start an iterative fit; use %s", e.StartFrom, strings.Join(startNames(), ", "))
 	case e.Resampling.Subsets < 0 || e.Resampling.Keep < 0 || e.Resampling.H < 0 || e.Resampling.SC < 0:
 		return errors.New("resampling settings must not be negative")
 	case e.Resampling.SDivisor > DivideByNMinusP:
@@ -338,7 +251,7 @@ func (e Estimator) check(raw blas64.General, y []float64) error {
 	if err := e.Settings.Validate(); err != nil {
 		return err
 	}
-	if e.Method == MethodIRLS || e.Method == MethodNewton {
+	if info := e.Method.Info(); info.TakesPsi && !info.OwnStart {
 		switch e.Scale.Rule {
 		case ScaleMAD, ScaleStart:
 		case ScaleFixed:
@@ -367,4 +280,16 @@ func (e Estimator) check(raw blas64.General, y []float64) error {
 		}
 	}
 	return nil
+}
+
+// startNames lists the names of the methods that can start an iterative
+// fit.
+func startNames() []string {
+	var out []string
+	for _, m := range Methods() {
+		if m.Direct() {
+			out = append(out, m.String())
+		}
+	}
+	return out
 }

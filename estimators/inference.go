@@ -35,34 +35,12 @@ func (ws *Workspace) StandardErrors(e Estimator, x *mat.Dense, res *Result, se [
 	if !res.Status.Converged() || len(se) < p || n <= p || ws.n != n || ws.p != p {
 		return false
 	}
-	var factor float64
-	switch e.Method {
-	case MethodLS:
-		factor = res.Scale * res.Scale
-	case MethodIRLS, MethodNewton, MethodMM:
-		psi := e.MStepPsi()
-		sigma := res.Scale
-		if !(sigma > 0) || ws.jumps(psi) {
-			return false
-		}
-		var s2, s1, s11 float64
-		for _, r := range ws.r {
-			u := r / sigma
-			p := psi.Psi(u)
-			d := psi.Deriv(u)
-			s2 += p * p
-			s1 += d
-			s11 += d * d
-		}
-		nf, pf := float64(n), float64(p)
-		m := s1 / nf
-		if !(m > 0) {
-			return false
-		}
-		v := s11/nf - m*m
-		k := 1 + pf/nf*v/(m*m)
-		factor = k * k * (s2 / (nf - pf)) / (m * m) * sigma * sigma
-	default:
+	s := solverOf(e.Method)
+	if s == nil {
+		return false
+	}
+	factor, ok := s.covariance(ws, e, res, n, p)
+	if !ok {
 		return false
 	}
 	if !ws.inverseGramDiag(raw, se[:p]) {
@@ -72,6 +50,34 @@ func (ws *Workspace) StandardErrors(e Estimator, x *mat.Dense, res *Result, se [
 		se[j] = math.Sqrt(factor * se[j])
 	}
 	return true
+}
+
+// huberCovariance returns the factor of Huber's covariance estimate,
+// K² · [Σψ(u_i)²/(n−p)] / [Σψ'(u_i)/n]² · σ² (see StandardErrors), at the
+// residuals in ws and the scale sigma of an M-estimator with psi fn, and
+// false when it is undefined: a scale that is not positive, a psi that
+// jumps, or a mean ψ' that is not positive.
+func (ws *Workspace) huberCovariance(fn psi.Psi, sigma float64, n, p int) (float64, bool) {
+	if !(sigma > 0) || ws.jumps(fn) {
+		return 0, false
+	}
+	var s2, s1, s11 float64
+	for _, r := range ws.r {
+		u := r / sigma
+		p := fn.Psi(u)
+		d := fn.Deriv(u)
+		s2 += p * p
+		s1 += d
+		s11 += d * d
+	}
+	nf, pf := float64(n), float64(p)
+	m := s1 / nf
+	if !(m > 0) {
+		return 0, false
+	}
+	v := s11/nf - m*m
+	k := 1 + pf/nf*v/(m*m)
+	return k * k * (s2 / (nf - pf)) / (m * m) * sigma * sigma, true
 }
 
 // jumps reports whether psi is discontinuous, remembering the answer for

@@ -7,96 +7,6 @@ import (
 	"github.com/rhomark/rhomark/psi"
 )
 
-// Method is the algorithm of a fit.
-type Method int
-
-const (
-	// MethodLS is ordinary least squares by Householder QR.
-	MethodLS Method = iota
-	// MethodIRLS is iteratively reweighted least squares.
-	MethodIRLS
-	// MethodNewton is Newton's method on the estimating equations, with step
-	// halving and IRLS steps as safeguards; after five iterations in a row
-	// without progress it hands the fit over to IRLS.
-	MethodNewton
-	// MethodS is the S-estimator: the coefficients minimising an M-scale of
-	// the residuals built on the bisquare rho, by random elemental subsets
-	// and refinement steps (fast-S, Salibian-Barrera & Yohai (2006),
-	// J. Comput. Graph. Statist. 15:414-427). With the default c =
-	// 1.5476449809… its breakdown point is 50%.
-	MethodS
-	// MethodMM is the MM-estimator (Yohai (1987), Ann. Statist.
-	// 15:642-656): an S-estimate and its scale, then an M-step by IRLS from
-	// the S-estimate with the scale held fixed; the default psi is the
-	// bisquare with c = 4.6850649… (95% efficiency).
-	MethodMM
-	// MethodLTS is least trimmed squares by FAST-LTS (Rousseeuw & Van
-	// Driessen (2006), Data Min. Knowl. Discov. 12:29-45).
-	MethodLTS
-	// MethodLAD is least absolute deviations solved exactly by a
-	// simplex-type vertex descent.
-	MethodLAD
-)
-
-// String returns the method's name as used in scenario files: "ls",
-// "irls", "newton", "s-estimate", "mm-estimate", "lts" or "lad".
-func (m Method) String() string {
-	switch m {
-	case MethodLS:
-		return "ls"
-	case MethodIRLS:
-		return "irls"
-	case MethodNewton:
-		return "newton"
-	case MethodS:
-		return "s-estimate"
-	case MethodMM:
-		return "mm-estimate"
-	case MethodLTS:
-		return "lts"
-	case MethodLAD:
-		return "lad"
-	}
-	return "unknown-method"
-}
-
-// ParseMethod returns the Method named by s.
-func ParseMethod(s string) (Method, bool) {
-	for _, m := range Methods() {
-		if m.String() == s {
-			return m, true
-		}
-	}
-	return 0, false
-}
-
-// Methods returns every method.
-func Methods() []Method {
-	return []Method{MethodLS, MethodIRLS, MethodNewton, MethodS, MethodMM, MethodLTS, MethodLAD}
-}
-
-// Direct reports whether the method needs no start of its own (least
-// squares, S, MM, LTS, exact LAD), so that it can serve as the start of an
-// M-estimator. Whether it takes a psi is a separate question: see TakesPsi.
-func (m Method) Direct() bool {
-	switch m {
-	case MethodLS, MethodS, MethodMM, MethodLTS, MethodLAD:
-		return true
-	}
-	return false
-}
-
-// TakesPsi reports whether the method fits with a psi, stopping rules, a
-// scale rule and (but MM, whose start is its S-estimate) a start of the
-// user's: IRLS, Newton, and MM for its M-step.
-func (m Method) TakesPsi() bool {
-	switch m {
-	case MethodIRLS, MethodNewton, MethodMM:
-		return true
-	}
-	return false
-}
-
 // Resampling are the settings of the estimators that draw random elemental
 // subsets (S, MM, LTS). Zero values mean the documented defaults.
 type Resampling struct {
@@ -196,8 +106,8 @@ func (r Resampling) LTSKeep(n, p int) int {
 // efficiency at the normal). It is nil for methods without an M-step and
 // no psi.
 func (e Estimator) MStepPsi() psi.Psi {
-	if e.Psi == nil && e.Method == MethodMM {
-		return psi.Bisquare{C: DefaultMMTuning}
+	if e.Psi == nil {
+		return e.Method.Info().DefaultPsi
 	}
 	return e.Psi
 }
