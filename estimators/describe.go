@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"math"
 
+	"gonum.org/v1/gonum/stat/distuv"
+
 	"github.com/rhomark/rhomark/psi"
 )
 
@@ -61,4 +63,21 @@ func (e Estimator) Weights(r []float64, scale float64, p int, w []float64) {
 		return
 	}
 	s.weights(e, r, scale, p, w[:len(r)])
+}
+
+// Quantile returns the multiplier q of the interval estimate ± q ×
+// standard error whose one-sided coverage is prob (0.975 for a two-sided
+// 95% interval), for a fit with n observations and p coefficients, and the
+// rule in words: Student's t on n−p degrees of freedom for StudentT, the
+// normal quantile for Wald; 0 and "" for NoInference.
+func (i Inference) Quantile(prob float64, n, p int) (q float64, rule string) {
+	switch i {
+	case StudentT:
+		q = distuv.StudentsT{Mu: 0, Sigma: 1, Nu: float64(n - p)}.Quantile(prob)
+		return q, fmt.Sprintf("Student t on n−p = %d degrees of freedom: estimate ± %.4g × standard error", n-p, q)
+	case Wald:
+		q = distuv.UnitNormal.Quantile(prob)
+		return q, fmt.Sprintf("Wald: estimate ± %.4g × standard error from Huber's covariance with his small-sample correction", q)
+	}
+	return 0, ""
 }

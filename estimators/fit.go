@@ -4,7 +4,6 @@ import (
 	"errors"
 	"fmt"
 	"math"
-	"strings"
 
 	"gonum.org/v1/gonum/blas/blas64"
 	"gonum.org/v1/gonum/mat"
@@ -234,7 +233,7 @@ func (e Estimator) check(raw blas64.General, y []float64) error {
 	case e.Method.TakesPsi() && e.MStepPsi() == nil:
 		return fmt.Errorf("method %v needs a psi function", e.Method)
 	case !e.StartFrom.Direct():
-		return fmt.Errorf("method %v cannot start an iterative fit; use %s", e.StartFrom, strings.Join(startNames(), ", "))
+		return fmt.Errorf("method %v cannot start an iterative fit; use %s", e.StartFrom, ListMethods(MethodsWhere(func(i MethodInfo) bool { return i.Direct }), "or"))
 	case e.Resampling.Subsets < 0 || e.Resampling.Keep < 0 || e.Resampling.H < 0 || e.Resampling.SC < 0:
 		return errors.New("resampling settings must not be negative")
 	case e.Resampling.SDivisor > DivideByNMinusP:
@@ -251,7 +250,7 @@ func (e Estimator) check(raw blas64.General, y []float64) error {
 	if err := e.Settings.Validate(); err != nil {
 		return err
 	}
-	if info := e.Method.Info(); info.TakesPsi && !info.OwnStart {
+	if info := e.Method.Info(); info.TakesPsi && info.OwnStart == "" {
 		switch e.Scale.Rule {
 		case ScaleMAD, ScaleStart:
 		case ScaleFixed:
@@ -280,16 +279,4 @@ func (e Estimator) check(raw blas64.General, y []float64) error {
 		}
 	}
 	return nil
-}
-
-// startNames lists the names of the methods that can start an iterative
-// fit.
-func startNames() []string {
-	var out []string
-	for _, m := range Methods() {
-		if m.Direct() {
-			out = append(out, m.String())
-		}
-	}
-	return out
 }

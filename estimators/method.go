@@ -2,6 +2,7 @@ package estimators
 
 import (
 	"math"
+	"strings"
 
 	"gonum.org/v1/gonum/blas/blas64"
 	"gonum.org/v1/gonum/mat"
@@ -80,9 +81,13 @@ type MethodInfo struct {
 	// TakesPsi reports that the method fits with a psi and stopping rules
 	// of the user's (and, unless OwnStart, a scale rule and a start).
 	TakesPsi bool
-	// OwnStart reports that a method taking a psi has its own start and
-	// scale (MM: its S-estimate's), so the user gives neither.
-	OwnStart bool
+	// OwnStart, for a method taking a psi that has its own start and scale
+	// so that the user gives neither, says whose they are ("the
+	// S-estimate's" for MM); it is "" for the other methods.
+	OwnStart string
+	// OwnScale names the scale rule of such a method in a fit's
+	// description ("s-estimate" for MM); "" for the other methods.
+	OwnScale string
 	// DefaultPsi is the psi used when the estimator has none, and
 	// DefaultFamily its family's name; nil and "" when a psi is required
 	// or not used.
@@ -209,4 +214,29 @@ func (e Estimator) CurvePsi() (fn psi.Psi, name string) {
 		return nil, ""
 	}
 	return s.curve(e)
+}
+
+// MethodsWhere returns the methods whose properties satisfy keep, in the
+// order of Methods.
+func MethodsWhere(keep func(MethodInfo) bool) []Method {
+	var out []Method
+	for _, m := range Methods() {
+		if keep(m.Info()) {
+			out = append(out, m)
+		}
+	}
+	return out
+}
+
+// ListMethods names ms in words for messages, joined by the conjunction
+// conj ("and", "or"): "a", "a or b", "a, b or c".
+func ListMethods(ms []Method, conj string) string {
+	names := make([]string, len(ms))
+	for i, m := range ms {
+		names[i] = m.String()
+	}
+	if len(names) < 2 {
+		return strings.Join(names, "")
+	}
+	return strings.Join(names[:len(names)-1], ", ") + " " + conj + " " + names[len(names)-1]
 }

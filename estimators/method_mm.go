@@ -16,7 +16,7 @@ const MethodMM Method = 4
 type mmSolver struct{}
 
 func (mmSolver) info() MethodInfo {
-	return MethodInfo{Name: "mm-estimate", Direct: true, TakesPsi: true, OwnStart: true,
+	return MethodInfo{Name: "mm-estimate", Direct: true, TakesPsi: true, OwnStart: "the S-estimate's", OwnScale: MethodS.String(),
 		DefaultPsi: psi.Bisquare{C: DefaultMMTuning}, DefaultFamily: "bisquare", SScale: true, Inference: Wald}
 }
 

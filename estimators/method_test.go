@@ -34,7 +34,7 @@ func TestMethodTable(t *testing.T) {
 		if got, ok := ParseMethod(info.Name); !ok || got != m {
 			t.Errorf("ParseMethod(%q) = %v, %v", info.Name, got, ok)
 		}
-		if info.OwnStart && !info.TakesPsi {
+		if info.OwnStart != "" && !info.TakesPsi {
 			t.Errorf("%s: OwnStart without TakesPsi", m)
 		}
 		if (info.DefaultPsi == nil) != (info.DefaultFamily == "") {

@@ -674,7 +674,7 @@ func (w *worker) record(p *cellPlan, t *cellTally, use []int, kept *keptBlock) {
 		}
 		if w.seOK[f] {
 			q := p.zq
-			if p.ests[j].Method == estimators.MethodLS {
+			if p.ests[j].Method.Info().Inference == estimators.StudentT {
 				q = p.tq
 			}
 			for k, b := range res.Coefficients {

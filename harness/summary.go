@@ -11,8 +11,6 @@ import (
 	"strings"
 	"time"
 
-	"gonum.org/v1/gonum/stat/distuv"
-
 	"github.com/rhomark/rhomark/estimators"
 	"github.com/rhomark/rhomark/psi"
 	"github.com/rhomark/rhomark/results"
@@ -117,22 +115,16 @@ func cellTheory(p cellPlan) []float64 {
 }
 
 // functionCurves samples the psi, rho and weight of the first cell's
-// estimators that have a psi (M-estimators, the M-step of MM, and the
-// bisquare rho of S).
+// estimators that have a psi to draw (estimators.Estimator.CurvePsi:
+// M-estimators, the M-step of MM, and the bisquare rho of S).
 func functionCurves(p cellPlan) []results.FunctionCurve {
 	var out []results.FunctionCurve
 	for i, e := range p.ests {
 		spec := p.cell.Scenario.Estimators[i]
-		fn := e.Psi
 		_, desc, tuning := describe(spec, e)
-		switch e.Method {
-		case estimators.MethodMM:
-			if fn == nil {
-				fn, desc = e.MStepPsi(), "bisquare"
-			}
-		case estimators.MethodS:
-			b := e.Resampling.SScale()
-			fn, desc = b, "S-scale bisquare "+strconv.FormatFloat(b.C, 'g', -1, 64)
+		fn, name := e.CurvePsi()
+		if name != "" {
+			desc = name
 		}
 		if fn == nil {
 			continue
@@ -227,37 +219,11 @@ func tuningCurves(st *scenarios.Study, plans []cellPlan) []results.TuningCurve {
 }
 
 // methodTheory returns the asymptotic efficiency at the normal with noise SD
-// sd of an estimator against least squares. Scales estimated from the data
-// (MAD, S, LTS, the start's) are consistent at the normal, so residuals are
-// standardised by sd itself; a fixed scale S standardises by S.
-func methodTheory(e estimators.Estimator, sd float64, n, p int) float64 {
-	eff := func(fn psi.Psi, kappa float64) float64 {
-		a, b := psi.Moments(fn, kappa)
-		return b * b / a
-	}
-	switch e.Method {
-	case estimators.MethodLS:
-		return 1
-	case estimators.MethodIRLS, estimators.MethodNewton:
-		kappa := 1.0
-		if e.Scale.Rule == estimators.ScaleFixed {
-			kappa = sd / e.Scale.Value
-		}
-		return eff(e.Psi, kappa)
-	case estimators.MethodMM:
-		return eff(e.MStepPsi(), 1)
-	case estimators.MethodS:
-		return eff(e.Resampling.SScale(), 1)
-	case estimators.MethodLTS:
-		// LTS keeping a fraction α of the data is asymptotically the
-		// M-estimator with psi(u) = u·1(|u| ≤ q), q = Φ⁻¹((1+α)/2)
-		// (common practice): its efficiency is α − 2qφ(q), about 7.1% at
-		// α = 1/2.
-		h := e.Resampling.LTSKeep(n, p)
-		q := distuv.UnitNormal.Quantile((1 + float64(h)/float64(n)) / 2)
-		return eff(psi.Talwar{C: q}, 1)
-	case estimators.MethodLAD:
-		return 2 / math.Pi // the median's efficiency (common practice)
+// sd of an estimator against least squares, as the estimator declares it
+// (estimators.NormalTheory), or NaN when it declares none.
+func methodTheory(e estimators.Fitter, sd float64, n, p int) float64 {
+	if t, ok := e.(estimators.NormalTheory); ok {
+		return t.NormalEfficiency(sd, n, p)
 	}
 	return math.NaN()
 }

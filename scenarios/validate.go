@@ -131,10 +131,11 @@ func (s *Scenario) fillDefaults(d *decoder, defaultName string) {
 				e.Method = "irls"
 			}
 		}
-		if e.Method == "mm-estimate" && e.Psi.IsZero() {
-			e.Psi = PsiSpec{Family: "bisquare"}
+		m, known := estimators.ParseMethod(e.Method)
+		if f := m.Info().DefaultFamily; known && f != "" && e.Psi.IsZero() {
+			e.Psi = PsiSpec{Family: f}
 		}
-		if m, ok := estimators.ParseMethod(e.Method); ok && m.TakesPsi() {
+		if known && m.TakesPsi() {
 			if f, ok := psi.LookupFamily(e.Psi.Family); ok && len(e.Tuning) == 0 && e.Psi.Custom == nil {
 				e.Tuning = append(Numbers(nil), f.Defaults...)
 			}
@@ -397,16 +398,15 @@ func (s *Scenario) validateEstimators(c checker) {
 			c.fail(path+".method", "unknown method %q; want %s", e.Method, strings.Join(methodNames(), ", "))
 			continue
 		}
-		// The methods this estimator runs: its own and its start's.
-		used := []estimators.Method{m}
+		// What this estimator runs: its own method and its start's.
+		info := m.Info()
+		usesS, usesLTS := info.SScale, info.Trims
 		if from, ok := estimators.ParseMethod(e.Start.From); ok && e.Start.From != "" {
-			used = append(used, from)
+			usesS, usesLTS = usesS || from.Info().SScale, usesLTS || from.Info().Trims
 		}
-		usesS := slices.Contains(used, estimators.MethodS) || slices.Contains(used, estimators.MethodMM)
-		usesLTS := slices.Contains(used, estimators.MethodLTS)
 		if rs := e.Resampling; rs != nil {
 			if !usesS && !usesLTS {
-				c.fail(path+".resampling", "is not used by method %s: only s-estimate, mm-estimate and lts (or starts from them) draw elemental subsets", e.Method)
+				c.fail(path+".resampling", "is not used by method %s: only %s (or starts from them) draw elemental subsets", e.Method, methodsWhere(estimators.MethodInfo.Resamples))
 			}
 			if rs.Subsets < 0 || rs.Subsets > 1_000_000 {
 				c.fail(path+".resampling.subsets", "must be from 1 to 1000000, got %d", rs.Subsets)
@@ -416,7 +416,7 @@ func (s *Scenario) validateEstimators(c checker) {
 			}
 			switch {
 			case rs.SC != 0 && !usesS:
-				c.fail(path+".resampling.s-tuning", "is used only by s-estimate and mm-estimate (the S-scale's bisquare)")
+				c.fail(path+".resampling.s-tuning", "is used only by %s (the S-scale's bisquare)", methodsWhere(sScale))
 			case rs.SC != 0 && !(rs.SC >= 0.1 && rs.SC <= 100):
 				// Our bounds: 1.547 gives the S-scale 50% breakdown; far
 				// below 0.1 or above 100 the scale is numerically meaningless.
@@ -426,21 +426,21 @@ func (s *Scenario) validateEstimators(c checker) {
 				if _, ok := estimators.ParseScaleDivisor(rs.SDivisor); !ok {
 					c.fail(path+".resampling.s-divisor", "must be n or n-p, got %q", rs.SDivisor)
 				} else if !usesS {
-					c.fail(path+".resampling.s-divisor", "is used only by s-estimate and mm-estimate (the S-scale's equation)")
+					c.fail(path+".resampling.s-divisor", "is used only by %s (the S-scale's equation)", methodsWhere(sScale))
 				}
 			}
 			switch {
 			case rs.H != 0 && !usesLTS:
-				c.fail(path+".resampling.h", "is used only by lts")
+				c.fail(path+".resampling.h", "is used only by %s", methodsWhere(func(i estimators.MethodInfo) bool { return i.Trims }))
 			case rs.H != 0 && (rs.H < p || rs.H > s.Model.N):
 				c.fail(path+".resampling.h", "LTS keeps h observations, between the %d coefficients and n = %d; got %d", p, s.Model.N, rs.H)
 			}
 		}
 		resampled := usesS || usesLTS
 		if resampled && s.Model.N < 2*p {
-			c.fail(path+".method", "the S, MM and LTS estimators (and starts from them) need n ≥ 2 × coefficients = %d observations, got n = %d: with fewer, an elemental subset fits half the data exactly", 2*p, s.Model.N)
+			c.fail(path+".method", "%s (and starts from them) need n ≥ 2 × coefficients = %d observations, got n = %d: with fewer, an elemental subset fits half the data exactly", methodsWhere(estimators.MethodInfo.Resamples), 2*p, s.Model.N)
 		}
-		if !m.TakesPsi() {
+		if !info.TakesPsi {
 			for _, key := range []string{"psi", "tuning", "scale", "start", "stop"} {
 				if c.d.given(path + "." + key) {
 					c.fail(path+"."+key, "is not used by method %s (it has no psi, scale, start or stopping rule of its own)", e.Method)
@@ -448,10 +448,10 @@ func (s *Scenario) validateEstimators(c checker) {
 			}
 			continue
 		}
-		if m == estimators.MethodMM {
+		if info.OwnStart != "" {
 			for _, key := range []string{"scale", "start"} {
 				if c.d.given(path + "." + key) {
-					c.fail(path+"."+key, "is not used by method mm-estimate (its start and scale are the S-estimate's)")
+					c.fail(path+"."+key, "is not used by method %s (its start and scale are %s)", e.Method, info.OwnStart)
 				}
 			}
 		}
@@ -586,6 +586,14 @@ func (e EstimatorSpec) BuildPsi() (psi.Psi, error) {
 	}
 	return psi, nil
 }
+
+// methodsWhere names, in words, the methods whose properties satisfy keep.
+func methodsWhere(keep func(estimators.MethodInfo) bool) string {
+	return estimators.ListMethods(estimators.MethodsWhere(keep), "and")
+}
+
+// sScale reports whether a method computes an S-scale.
+func sScale(i estimators.MethodInfo) bool { return i.SScale }
 
 // methodNames lists every method name.
 func methodNames() []string {

@@ -2,6 +2,7 @@ package main
 
 import (
 	"encoding/json"
+	"errors"
 	"fmt"
 	"math"
 	"os"
@@ -99,12 +100,19 @@ func fitCmd(e env, args []string) error {
 	xCols := fs.String("x", "", "predictor `columns`, comma-separated (default: every other column holding numbers)")
 	group := fs.String("group", "", "fit once per value of this `column`")
 	noIntercept := fs.Bool("no-intercept", false, "fit without an intercept")
-	method := fs.String("method", "irls", "`method`: ls, irls, newton, s-estimate, mm-estimate, lts or lad")
-	start := fs.String("start", "ls", "`method` whose estimate starts irls or newton: ls, s-estimate, mm-estimate, lts or lad")
+	method := &methodFlag{m: estimators.MethodIRLS}
+	fs.Var(method, "method", "`method`: "+method.choices())
+	start := &methodFlag{m: estimators.MethodLS, starts: true}
+	fs.Var(start, "start", "`method` whose estimate starts "+
+		estimators.ListMethods(estimators.MethodsWhere(userStart), "or")+": "+start.choices())
 	pf := addPsiFlags(fs.FlagSet, "huber")
-	scale := fs.String("scale", "mad", "scale `rule`: mad, start (held at the start's scale), or fixed:S for a known scale S")
-	seed := addSeedFlag(fs.FlagSet, "seed", "`seed` of the random subsets of s-estimate, mm-estimate and lts (decimal digits; default 1)")
-	sDivisor := fs.String("s-divisor", "n", "`divisor` d of the S-scale equation (1/d) Σ rho(r/s) = b: n or n-p (s-estimate, mm-estimate and starts from them)")
+	scale := new(scaleFlag)
+	fs.Var(scale, "scale", "scale `rule`: mad, start (held at the start's scale), or fixed:S for a known scale S")
+	seed := addSeedFlag(fs.FlagSet, "seed", "`seed` of the random subsets of "+
+		estimators.ListMethods(estimators.MethodsWhere(estimators.MethodInfo.Resamples), "and")+" (decimal digits; default 1)")
+	sDivisor := new(divisorFlag)
+	fs.Var(sDivisor, "s-divisor", "`divisor` d of the S-scale equation (1/d) Σ rho(r/s) = b: n or n-p ("+
+		strings.Join(methodNames(estimators.MethodsWhere(usesSScale)), ", ")+" and starts from them)")
 	tol := fs.Float64("tol", estimators.DefaultChangeTol, "stop when the relative change in coefficients is below `T`")
 	maxIter := fs.Int("max-iter", estimators.DefaultMaxIterations, "iteration cap `N`")
 	asJSON := fs.Bool("json", false, "print JSON instead of a table")
@@ -121,23 +129,20 @@ func fitCmd(e env, args []string) error {
 		return usagef("--y is required: the name of the response column")
 	}
 	given := givenFlags(fs.FlagSet)
-	est, desc, err := buildFitEstimator(*method, *start, pf, *scale, *tol, *maxIter, given)
+	est, desc, err := buildFitEstimator(method.m, start.m, pf, scale.ScaleSpec, *tol, *maxIter, given)
 	if err != nil {
 		return err
 	}
-	div, ok := estimators.ParseScaleDivisor(*sDivisor)
-	if !ok {
-		return usagef("--s-divisor %q: want n or n-p", *sDivisor)
+	if given["s-divisor"] && !usesSScale(est.Method.Info()) && !(!est.Method.Direct() && usesSScale(est.StartFrom.Info())) {
+		return usagef("--s-divisor is used only by %s (or a start from them)",
+			estimators.ListMethods(estimators.MethodsWhere(usesSScale), "and"))
 	}
-	usesS := func(m estimators.Method) bool { return m == estimators.MethodS || m == estimators.MethodMM }
-	if given["s-divisor"] && !usesS(est.Method) && !(!est.Method.Direct() && usesS(est.StartFrom)) {
-		return usagef("--s-divisor is used only by s-estimate and mm-estimate (or a start from them)")
-	}
-	est.Resampling.SDivisor = div
+	est.Resampling.SDivisor = sDivisor.d
 	if !(*cut > 0) || math.IsInf(*cut, 0) {
 		return usagef("--outlier-cut must be a positive number, got %v", *cut)
 	}
-	desc.Start, desc.ScaleRule, desc.Weights = describeFitRules(est, desc.psiDesc, seed.or(1))
+	rules := est.Rules(desc.psiDesc, seed.or(1))
+	desc.Start, desc.ScaleRule, desc.Weights = rules.Start, rules.Scale, rules.Weights
 	desc.OutlierCut = *cut
 	f, err := os.Open(pos[0])
 	if err != nil {
@@ -213,40 +218,30 @@ func fitCmd(e env, args []string) error {
 	return nil
 }
 
-// buildFitEstimator turns fit's options into an estimator.
-func buildFitEstimator(method, start string, pf *psiFlags, scale string, tol float64, maxIter int, given map[string]bool) (estimators.Estimator, fitEstimator, error) {
-	m, ok := estimators.ParseMethod(method)
-	if !ok {
-		return estimators.Estimator{}, fitEstimator{}, usagef("--method %q: want ls, irls, newton, s-estimate, mm-estimate, lts or lad", method)
-	}
+// buildFitEstimator turns fit's options into an estimator: method m,
+// started (if it takes a start) from the estimate of from.
+func buildFitEstimator(m, from estimators.Method, pf *psiFlags, sc scenarios.ScaleSpec, tol float64, maxIter int, given map[string]bool) (estimators.Estimator, fitEstimator, error) {
+	info := m.Info()
 	desc := fitEstimator{Method: m.String()}
-	if !m.TakesPsi() {
+	if !info.TakesPsi {
 		for _, name := range append(psiFlagNames(), "scale", "tol", "max-iter", "start") {
 			if given[name] {
-				return estimators.Estimator{}, desc, usagef("--%s is not used with --method %s", name, method)
+				return estimators.Estimator{}, desc, usagef("--%s is not used with --method %s", name, m)
 			}
 		}
 		return estimators.Estimator{Method: m}, desc, nil
 	}
-	from, ok := estimators.ParseMethod(start)
-	if !ok || !from.Direct() {
-		return estimators.Estimator{}, desc, usagef("--start %q: want ls, s-estimate, mm-estimate, lts or lad", start)
+	if info.OwnStart != "" && (given["start"] || given["scale"]) {
+		return estimators.Estimator{}, desc, usagef("--start and --scale are not used with --method %s (its start and scale are %s)", m, info.OwnStart)
 	}
-	if m == estimators.MethodMM && (given["start"] || given["scale"]) {
-		return estimators.Estimator{}, desc, usagef("--start and --scale are not used with --method mm-estimate (its start and scale are the S-estimate's)")
-	}
-	if m == estimators.MethodMM && !given["psi"] && !given["psi-expr"] {
-		pf.family = "bisquare"
+	if info.DefaultFamily != "" && !given["psi"] && !given["psi-expr"] {
+		pf.family = info.DefaultFamily
 	}
 	ch, err := pf.build(given)
 	if err != nil {
 		return estimators.Estimator{}, desc, err
 	}
 	psi, tc := ch.psi, ch.tuning
-	sc, err := scenarios.ParseScale(scale)
-	if err != nil {
-		return estimators.Estimator{}, desc, usagef("--scale: %v", err)
-	}
 	if !(tol > 0) {
 		return estimators.Estimator{}, desc, usagef("--tol must be a positive number, got %v", tol)
 	}
@@ -262,13 +257,86 @@ func buildFitEstimator(method, start string, pf *psiFlags, scale string, tol flo
 		est.Scale = estimators.Scale{Rule: estimators.ScaleStart}
 	}
 	desc.Psi, desc.Tuning, desc.Scale, desc.psiDesc = ch.name, tc, sc.String(), ch.desc
-	if m == estimators.MethodMM {
-		desc.Scale = "s-estimate" // the M-step holds the S-estimate's scale
+	if info.OwnScale != "" {
+		desc.Scale = info.OwnScale
 	}
 	if ch.name == "custom" {
 		desc.Psi = "custom: " + pf.expr
 	}
 	return est, desc, nil
+}
+
+// methodFlag is an option naming a method; with starts set it takes only
+// the methods that can start an M-estimator.
+type methodFlag struct {
+	m      estimators.Method
+	starts bool
+}
+
+// String returns the method's name.
+func (f *methodFlag) String() string { return f.m.String() }
+
+// Set parses a method's name.
+func (f *methodFlag) Set(s string) error {
+	m, ok := estimators.ParseMethod(s)
+	if !ok || (f.starts && !m.Direct()) {
+		return fmt.Errorf("want %s", f.choices())
+	}
+	f.m = m
+	return nil
+}
+
+// choices lists the names the option takes.
+func (f *methodFlag) choices() string {
+	if f.starts {
+		return estimators.ListMethods(estimators.MethodsWhere(func(i estimators.MethodInfo) bool { return i.Direct }), "or")
+	}
+	return estimators.ListMethods(estimators.Methods(), "or")
+}
+
+// scaleFlag is the --scale option: a scale rule in the form of scenario
+// files (scenarios.ParseScale).
+type scaleFlag struct{ scenarios.ScaleSpec }
+
+// Set parses a scale rule.
+func (f *scaleFlag) Set(s string) error {
+	v, err := scenarios.ParseScale(s)
+	if err != nil {
+		return err
+	}
+	f.ScaleSpec = v
+	return nil
+}
+
+// divisorFlag is the --s-divisor option.
+type divisorFlag struct{ d estimators.ScaleDivisor }
+
+// String returns the divisor's name.
+func (f *divisorFlag) String() string { return f.d.String() }
+
+// Set parses "n" or "n-p".
+func (f *divisorFlag) Set(s string) error {
+	d, ok := estimators.ParseScaleDivisor(s)
+	if !ok {
+		return errors.New("want n or n-p")
+	}
+	f.d = d
+	return nil
+}
+
+// userStart reports whether a method takes a start of the user's.
+func userStart(i estimators.MethodInfo) bool { return i.TakesPsi && i.OwnStart == "" }
+
+// usesSScale reports whether a method computes an S-scale.
+func usesSScale(i estimators.MethodInfo) bool { return i.SScale }
+
+// methodNames returns the names of ms.
+func methodNames(ms []estimators.Method) []string {
+	out := make([]string, len(ms))
+	for i, m := range ms {
+		out[i] = m.String()
+	}
+	return out
 }
 
 // matrices builds the design matrix (an intercept column first when asked)

@@ -5,53 +5,13 @@ import (
 	"encoding/csv"
 	"fmt"
 	"math"
-	"sort"
 	"strconv"
 	"strings"
 
 	"gonum.org/v1/gonum/mat"
-	"gonum.org/v1/gonum/stat/distuv"
 
 	"github.com/rhomark/rhomark/estimators"
-	"github.com/rhomark/rhomark/psi"
 )
-
-// describeFitRules says in words where a fit of est starts, how its scale
-// is found and what its per-observation weight is.
-func describeFitRules(est estimators.Estimator, psiText string, seed uint64) (start, scale, weights string) {
-	sScale := func() string {
-		return fmt.Sprintf("S-scale of the bisquare rho with c = %s, divisor %s",
-			strconv.FormatFloat(est.Resampling.SScale().C, 'g', 5, 64), est.Resampling.SDivisor)
-	}
-	random := fmt.Sprintf("random elemental subsets (seed %d)", seed)
-	switch est.Method {
-	case estimators.MethodLS:
-		return "none (solved directly by QR)", "√(RSS/(n−p))", "1 for every row (least squares)"
-	case estimators.MethodLAD:
-		return "none (exact vertex descent)", "MAD of the residuals (only to scale them)", "none (least absolute deviations has no weights)"
-	case estimators.MethodS:
-		return random + ", the best refined by IRLS", sScale(), "psi(u)/u of the S-scale's bisquare"
-	case estimators.MethodLTS:
-		return random + " and concentration steps", "√(mean of the h smallest squared residuals), consistency-corrected",
-			"1 for the h rows with the smallest |residual|, 0 for the others"
-	case estimators.MethodMM:
-		return "S-estimate from " + random, "the S-estimate's scale, held fixed (" + sScale() + ")", "psi(u)/u of " + psiText
-	}
-	start = est.StartFrom.String() + " estimate"
-	switch est.StartFrom {
-	case estimators.MethodS, estimators.MethodMM, estimators.MethodLTS:
-		start += " from " + random
-	}
-	switch est.Scale.Rule {
-	case estimators.ScaleFixed:
-		scale = "fixed at " + strconv.FormatFloat(est.Scale.Value, 'g', -1, 64)
-	case estimators.ScaleStart:
-		scale = "held at the start's scale"
-	default:
-		scale = "MAD of the residuals (median |r| / 0.6745), re-estimated at each iteration"
-	}
-	return start, scale, "psi(u)/u of " + psiText
-}
 
 // addInference adds standard errors and 95% intervals to fj, from the same
 // covariance estimate (Workspace.StandardErrors) and quantiles a run uses
@@ -62,15 +22,11 @@ func addInference(fj *fitJSON, est estimators.Estimator, x *mat.Dense, ws *estim
 	n, p := x.Dims()
 	se := make([]float64, p)
 	if !ws.StandardErrors(est, x, res, se) {
-		fj.NoStandardErrors = noSEReason(est, res, n, p)
+		fj.NoStandardErrors = est.NoStandardErrorsReason(res, n, p)
 		return
 	}
-	q := distuv.UnitNormal.Quantile(0.975)
-	fj.IntervalRule = fmt.Sprintf("Wald: estimate ± %.4g × standard error from Huber's covariance with his small-sample correction", q)
-	if est.Method == estimators.MethodLS {
-		q = distuv.StudentsT{Mu: 0, Sigma: 1, Nu: float64(n - p)}.Quantile(0.975)
-		fj.IntervalRule = fmt.Sprintf("Student t on n−p = %d degrees of freedom: estimate ± %.4g × standard error", n-p, q)
-	}
+	q, rule := est.Method.Info().Inference.Quantile(0.975, n, p)
+	fj.IntervalRule = rule
 	fj.StandardErrors = map[string]jsonFloat{}
 	fj.Intervals = map[string][2]jsonFloat{}
 	for k, name := range names {
@@ -78,21 +34,6 @@ func addInference(fj *fitJSON, est estimators.Estimator, x *mat.Dense, ws *estim
 		fj.StandardErrors[name] = jsonFloat(se[k])
 		fj.Intervals[name] = [2]jsonFloat{jsonFloat(b - q*se[k]), jsonFloat(b + q*se[k])}
 	}
-}
-
-// noSEReason says why a fit has no standard errors.
-func noSEReason(est estimators.Estimator, res *estimators.Result, n, p int) string {
-	switch {
-	case est.Method == estimators.MethodS || est.Method == estimators.MethodLTS || est.Method == estimators.MethodLAD:
-		return fmt.Sprintf("rhomark has no covariance estimate for %s fits (a run's coverage leaves them out too)", est.Method)
-	case !res.Status.Converged():
-		return "the fit did not converge (" + res.Status.String() + ")"
-	case n <= p:
-		return fmt.Sprintf("n = %d rows leave no degrees of freedom for %d coefficients", n, p)
-	case est.Method != estimators.MethodLS && psi.Discontinuous(est.MStepPsi()):
-		return "psi jumps: the mean of psi' misses the jumps' share of E[psi'], so the covariance formula would understate the standard errors"
-	}
-	return "the covariance formula is undefined at this fit (the mean of psi' over the rows is not positive, or the scale is zero)"
 }
 
 // observations returns each row's residual, scaled residual, final weight
@@ -111,44 +52,12 @@ func observations(est estimators.Estimator, x *mat.Dense, y []float64, res *esti
 		}
 		return v / sigma
 	}
-	var weight func(i int, u float64) float64
-	switch est.Method {
-	case estimators.MethodLS:
-		weight = func(int, float64) float64 { return 1 }
-	case estimators.MethodLAD:
-		weight = func(int, float64) float64 { return math.NaN() }
-	case estimators.MethodS:
-		psi := est.Resampling.SScale()
-		weight = func(_ int, u float64) float64 { return psi.Weight(u) }
-	case estimators.MethodLTS:
-		kept := make([]bool, n)
-		order := make([]int, n)
-		for i := range order {
-			order[i] = i
-		}
-		sort.SliceStable(order, func(a, b int) bool { return math.Abs(r[order[a]]) < math.Abs(r[order[b]]) })
-		for _, i := range order[:min(n, est.Resampling.LTSKeep(n, p))] {
-			kept[i] = true
-		}
-		weight = func(i int, _ float64) float64 {
-			if kept[i] {
-				return 1
-			}
-			return 0
-		}
-	default:
-		psi := est.MStepPsi()
-		weight = func(_ int, u float64) float64 {
-			if math.IsNaN(u) {
-				return math.NaN()
-			}
-			return psi.Weight(u)
-		}
-	}
+	w := make([]float64, n)
+	est.Weights(r, sigma, p, w)
 	out := make([]fitObservation, n)
 	for i, v := range r {
 		u := scaled(v)
-		out[i] = fitObservation{Resid: jsonFloat(v), Scaled: jsonFloat(u), Weight: jsonFloat(weight(i, u)), Flag: math.Abs(u) > cut}
+		out[i] = fitObservation{Resid: jsonFloat(v), Scaled: jsonFloat(u), Weight: jsonFloat(w[i]), Flag: math.Abs(u) > cut}
 	}
 	return out
 }
