@@ -92,3 +92,22 @@ func (ws *Workspace) jumps(fn psi.Psi) bool {
 	}
 	return ws.jumpy
 }
+
+// StandardErrorer is implemented by a Fitter that has standard errors for
+// its coefficients, for the coverage of confidence intervals.
+type StandardErrorer interface {
+	// StandardErrors writes to se the standard error of each coefficient
+	// of the fit just made into ws and res with the design x, and returns
+	// how they make intervals: NoInference when this fit has none.
+	StandardErrors(x *mat.Dense, ws *Workspace, res *Result, se []float64) Inference
+}
+
+// StandardErrors is Workspace.StandardErrors for e, returning the kind of
+// interval its method's standard errors make, or NoInference when the fit
+// has none.
+func (e Estimator) StandardErrors(x *mat.Dense, ws *Workspace, res *Result, se []float64) Inference {
+	if !ws.StandardErrors(e, x, res, se) {
+		return NoInference
+	}
+	return e.Method.Info().Inference
+}

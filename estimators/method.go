@@ -169,7 +169,7 @@ func (m Method) TakesPsi() bool { return m.Info().TakesPsi }
 // returns an error only on misuse (as Estimator.Fit does, which makes
 // Estimator a Fitter). A Fitter that draws random numbers takes them from
 // ws (Workspace.SeedRandom), so that its fits are reproducible. It may
-// also implement NormalTheory and PsiCurves.
+// also implement NormalTheory, PsiCurves and StandardErrorer.
 type Fitter interface {
 	Fit(x *mat.Dense, y []float64, ws *Workspace, res *Result) error
 }

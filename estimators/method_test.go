@@ -11,9 +11,10 @@ import (
 
 // The interfaces a harness uses to run and describe an estimator.
 var (
-	_ Fitter       = Estimator{}
-	_ NormalTheory = Estimator{}
-	_ PsiCurves    = Estimator{}
+	_ Fitter          = Estimator{}
+	_ NormalTheory    = Estimator{}
+	_ PsiCurves       = Estimator{}
+	_ StandardErrorer = Estimator{}
 )
 
 // TestMethodTable: the registered methods run from 0 without gaps, their
@@ -120,6 +121,57 @@ func TestWeights(t *testing.T) {
 			if w[i] != tc.want[i] && !(math.IsNaN(w[i]) && math.IsNaN(tc.want[i])) {
 				t.Errorf("%s scale %v: weight %d is %v, want %v", tc.e.Method, tc.scale, i, w[i], tc.want[i])
 			}
+		}
+	}
+}
+
+// TestEstimatorStandardErrors: the kind of interval comes with the
+// standard errors, and NoInference without them.
+func TestEstimatorStandardErrors(t *testing.T) {
+	x := mat.NewDense(6, 2, []float64{1, 1, 1, 2, 1, 3, 1, 4, 1, 5, 1, 6})
+	y := []float64{1.1, 2.3, 2.8, 4.2, 5.1, 5.8}
+	for _, tc := range []struct {
+		e    Estimator
+		want Inference
+	}{
+		{Estimator{}, StudentT},
+		{Estimator{Method: MethodIRLS, Psi: psi.Huber{K: 1.345}}, Wald},
+		{Estimator{Method: MethodLAD}, NoInference},
+	} {
+		var ws Workspace
+		var res Result
+		if err := tc.e.Fit(x, y, &ws, &res); err != nil {
+			t.Fatal(err)
+		}
+		se, want := make([]float64, 2), make([]float64, 2)
+		ok := ws.StandardErrors(tc.e, x, &res, want)
+		got := tc.e.StandardErrors(x, &ws, &res, se)
+		if got != tc.want || ok != (tc.want != NoInference) {
+			t.Errorf("%s: inference %d (workspace: %v), want %d", tc.e.Method, got, ok, tc.want)
+		}
+		for j := range se {
+			if ok && se[j] != want[j] {
+				t.Errorf("%s: standard error %d is %v, workspace gives %v", tc.e.Method, j, se[j], want[j])
+			}
+		}
+	}
+}
+
+// TestInferenceQuantile checks the interval multipliers: the normal 97.5%
+// quantile 1.959964 and Student's t on 10 degrees of freedom 2.228139
+// (common practice; printed in every table of the two distributions).
+func TestInferenceQuantile(t *testing.T) {
+	for _, tc := range []struct {
+		i    Inference
+		want float64
+	}{
+		{StudentT, 2.228139},
+		{Wald, 1.959964},
+		{NoInference, 0},
+	} {
+		q, rule := tc.i.Quantile(0.975, 12, 2)
+		if math.Abs(q-tc.want) > 5e-7 || (rule == "") != (tc.i == NoInference) {
+			t.Errorf("inference %d: quantile %.7g (%q), want %.7g", tc.i, q, rule, tc.want)
 		}
 	}
 }
