@@ -153,7 +153,7 @@ func (s *Scenario) fillDefaults(d *decoder, defaultName string) {
 	if b := s.Breakdown; b != nil && b.Fraction == "" {
 		var fractions []string
 		for _, sw := range s.Vary {
-			if strings.HasSuffix(sw.Path, ".fraction") {
+			if resolveSweep(s, sw.Path).Kind == SweepFraction {
 				fractions = append(fractions, sw.Path)
 			}
 		}
@@ -240,7 +240,7 @@ func (s *Scenario) validateBreakdown(c checker) {
 	var fractions []string
 	for _, sw := range s.Vary {
 		swept[sw.Path] = true
-		if strings.HasSuffix(sw.Path, ".fraction") {
+		if resolveSweep(s, sw.Path).Kind == SweepFraction {
 			fractions = append(fractions, sw.Path)
 		}
 	}
