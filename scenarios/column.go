@@ -227,11 +227,12 @@ func copulaU(z float64) float64 { return distuv.UnitNormal.CDF(z) }
 
 // columnSettings is the resolved-settings encoding every column kind
 // writes for the data key: its name, three parameters (0 where the kind
-// takes fewer; the order is the kind's) and its levels. The layout is part
-// of the reproducibility contract (it fixes every data stream), so a new
-// kind writes the same layout.
-func columnSettings(e *settingsEncoder, name string, a, b, c float64, levels []float64) {
+// takes fewer; the order is the kind's) and any more in extra, then its
+// levels. The layout is part of the reproducibility contract (it fixes
+// every data stream), so a new kind writes the same layout, putting a
+// fourth parameter in extra.
+func columnSettings(e *settingsEncoder, name string, a, b, c float64, levels []float64, extra ...float64) {
 	e.str(name)
-	e.floats([]float64{a, b, c})
+	e.floats(append([]float64{a, b, c}, extra...))
 	e.floats(levels)
 }
