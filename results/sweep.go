@@ -58,6 +58,7 @@ func (k SweepKind) String() string {
 
 // SweepTarget is what a swept path sets.
 type SweepTarget struct {
+	// Kind is the kind of field the sweep sets.
 	Kind SweepKind
 	// Owner is the estimator or contamination the field belongs to, as
 	// the path names it (a label, or an index into the scenario's list);

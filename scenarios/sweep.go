@@ -73,6 +73,7 @@ func (k SweepKind) String() string {
 // contamination, which one (by its position in Scenario.Estimators or
 // Scenario.Contamination, however the path names it).
 type SweepTarget struct {
+	// Kind is the kind of field the sweep sets.
 	Kind SweepKind
 	// Index is the position of the estimator or contamination the field
 	// belongs to; -1 for other kinds.
