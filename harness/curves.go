@@ -2,8 +2,8 @@ package harness
 
 import (
 	"math"
+	"slices"
 	"sort"
-	"strconv"
 	"strings"
 
 	"github.com/rhomark/rhomark/results"
@@ -11,47 +11,54 @@ import (
 )
 
 // breakdownView builds the bias curves and empirical breakdown points of a
-// run whose scenario has a breakdown section.
-func breakdownView(b *scenarios.Breakdown, res *results.Results) *results.Breakdown {
+// run whose scenario has a breakdown section; res.Cells are the results of
+// st.Cells, in order. The fraction of a cell is its swept number, as the
+// loader read it.
+func breakdownView(st *scenarios.Study, res *results.Results) *results.Breakdown {
+	b := st.Cells[0].Scenario.Breakdown
 	if b == nil || b.Fraction == "" {
 		return nil
 	}
 	out := &results.Breakdown{Fraction: b.Fraction, WorstOver: b.WorstOver, Threshold: b.Threshold}
-	worst := map[string]bool{}
-	for _, w := range b.WorstOver {
-		worst[w] = true
+	// The sweeps named by the breakdown section, by position.
+	fraction := -1
+	worst := make([]bool, len(st.Base.Vary))
+	for i, sw := range st.Base.Vary {
+		if sw.Path == b.Fraction {
+			fraction = i
+		}
+		worst[i] = slices.Contains(b.WorstOver, sw.Path)
 	}
-	// Group the cells that differ only in the worst-over paths.
+	// Group the cells that differ only in the worst-over sweeps.
 	type group struct {
 		settings []results.Setting
 		cells    []*results.Cell
+		fraction float64
 	}
 	var groups []*group
 	index := map[string]*group{}
 	for i := range res.Cells {
 		c := &res.Cells[i]
 		var keep []results.Setting
-		for _, s := range c.Settings {
-			if !worst[s.Path] {
+		for j, s := range c.Settings {
+			if !worst[j] {
 				keep = append(keep, s)
 			}
 		}
 		key := settingsKey(keep)
 		g, ok := index[key]
 		if !ok {
-			g = &group{settings: keep}
+			g = &group{settings: keep, fraction: math.NaN()}
+			if fraction >= 0 {
+				g.fraction = st.Cells[i].Settings[fraction].Number
+			}
 			index[key] = g
 			groups = append(groups, g)
 		}
 		g.cells = append(g.cells, c)
 	}
 	for _, g := range groups {
-		frac := math.NaN()
-		for _, s := range g.settings {
-			if s.Path == b.Fraction {
-				frac, _ = strconv.ParseFloat(s.Value, 64)
-			}
-		}
+		frac := g.fraction
 		for ei, e := range g.cells[0].Estimators {
 			pt := results.BiasPoint{Settings: g.settings, Fraction: frac, Estimator: e.Label}
 			var sum, se2 float64
@@ -78,8 +85,8 @@ func breakdownView(b *scenarios.Breakdown, res *results.Results) *results.Breakd
 				// mean over positions combines theirs in quadrature.
 				pt.Bias = results.Measure{Value: results.Num(sum / float64(k)), MCSE: results.Num(math.Sqrt(se2) / float64(k))}
 				pt.Worst = at.Estimators[ei].SlopeBias
-				for _, s := range at.Settings {
-					if worst[s.Path] {
+				for j, s := range at.Settings {
+					if worst[j] {
 						pt.WorstAt = append(pt.WorstAt, s)
 					}
 				}

@@ -441,7 +441,7 @@ func RunPartial(ctx context.Context, st *scenarios.Study, opt Options) (*results
 // summariseAll builds the results and their derived views from tallies.
 func summariseAll(st *scenarios.Study, plans []cellPlan, tallies []*cellTally, seed uint64, reps int, tool results.Tool) *results.Results {
 	res := summarise(st, plans, tallies, seed, reps)
-	res.Breakdown = breakdownView(st.Cells[0].Scenario.Breakdown, res)
+	res.Breakdown = breakdownView(st, res)
 	res.Functions = functionCurves(plans[0])
 	res.TuningTheory = tuningCurves(st, plans)
 	res.Tool = tool

@@ -8,7 +8,6 @@ import (
 	"runtime/debug"
 	"slices"
 	"strconv"
-	"strings"
 	"time"
 
 	"github.com/rhomark/rhomark/estimators"
@@ -168,20 +167,11 @@ func functionCurves(p cellPlan) []results.FunctionCurve {
 func tuningCurves(st *scenarios.Study, plans []cellPlan) []results.TuningCurve {
 	var out []results.TuningCurve
 	for _, sw := range st.Base.Vary {
-		parts := strings.Split(sw.Path, ".")
-		if len(parts) != 3 || parts[0] != "estimators" || parts[2] != "tuning" || len(plans) == 0 {
+		idx := sw.Target.Index
+		if sw.Target.Kind != scenarios.SweepTuning || sw.Target.Name != "" || idx < 0 || len(plans) == 0 {
 			continue
 		}
 		p := plans[0]
-		idx := -1
-		for i, spec := range p.cell.Scenario.Estimators {
-			if spec.Label == parts[1] {
-				idx = i
-			}
-		}
-		if idx < 0 {
-			continue
-		}
 		spec := p.cell.Scenario.Estimators[idx]
 		fam, ok := psi.LookupFamily(spec.Psi.Family)
 		if !ok || len(fam.Params) == 0 || spec.Psi.Custom != nil {

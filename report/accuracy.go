@@ -22,8 +22,8 @@ import (
 // values, and the estimator each belongs to.
 func tuningPaths(r *results.Results) (paths, labels []string) {
 	for _, s := range results.Sweeps(r) {
-		seg := strings.Split(s.Path, ".")
-		if len(seg) < 3 || seg[0] != "estimators" || (seg[2] != "tuning" && seg[2] != "psi") {
+		t := results.TargetOf(s.Path)
+		if k := t.Kind; k != results.SweepTuning && k != results.SweepPsiConstant && k != results.SweepPsi {
 			continue
 		}
 		n := 0
@@ -34,7 +34,7 @@ func tuningPaths(r *results.Results) (paths, labels []string) {
 		}
 		if n >= 2 {
 			paths = append(paths, s.Path)
-			labels = append(labels, seg[1])
+			labels = append(labels, t.Owner)
 		}
 	}
 	return paths, labels
@@ -43,11 +43,11 @@ func tuningPaths(r *results.Results) (paths, labels []string) {
 // constantName names a tuning path for an axis: "huber tuning constant"
 // or "mine psi constant c".
 func constantName(path, label string) string {
-	seg := strings.Split(path, ".")
-	if seg[2] == "tuning" {
+	t := results.TargetOf(path)
+	if t.Kind == results.SweepTuning {
 		return label + " tuning constant"
 	}
-	return label + " psi constant " + seg[len(seg)-1]
+	return label + " psi constant " + t.Name
 }
 
 // noTuning is the note for the accuracy figures of a run that sweeps no

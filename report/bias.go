@@ -24,7 +24,7 @@ func fractionPath(r *results.Results) string {
 		return bd.Fraction
 	}
 	for _, s := range results.Sweeps(r) {
-		if !strings.HasSuffix(s.Path, ".fraction") {
+		if results.TargetOf(s.Path).Kind != results.SweepFraction {
 			continue
 		}
 		n := 0

@@ -717,11 +717,7 @@ func shareY(ps ...*plot.Plot) {
 // shortSetting writes a swept value compactly, the path without its first
 // segment when it has three or more: "spikes.fraction = 0.1".
 func shortSetting(s results.Setting) string {
-	p := s.Path
-	if seg := strings.Split(p, "."); len(seg) >= 3 {
-		p = strings.Join(seg[1:], ".")
-	}
-	return p + " = " + s.Value
+	return results.ShortPath(s.Path) + " = " + s.Value
 }
 
 // shortSettings joins shortSetting of each setting with commas.

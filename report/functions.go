@@ -2,7 +2,6 @@ package report
 
 import (
 	"math"
-	"strings"
 
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/plotter"
@@ -86,10 +85,9 @@ func functionDesc(r *results.Results, f results.FunctionCurve) string {
 			desc := results.EstimatorDesc(r, e)
 			// Where the constants are swept, the description leaves them
 			// out; the curve is drawn at the first cell's.
-			prefix := "estimators." + e.Label + ".psi.constants."
 			for _, s := range c.Settings {
-				if name, ok := strings.CutPrefix(s.Path, prefix); ok {
-					desc += " " + name + " = " + s.Value
+				if t := s.Target(); t.Kind == results.SweepPsiConstant && t.Owner == e.Label {
+					desc += " " + t.Name + " = " + s.Value
 				}
 			}
 			return desc

@@ -38,10 +38,9 @@ func EstimatorDesc(r *Results, e Estimator) string {
 // psiSwept reports whether any cell sweeps a field of the psi of the
 // estimator labelled label.
 func psiSwept(r *Results, label string) bool {
-	prefix := "estimators." + label + ".psi"
 	for _, c := range r.Cells {
 		for _, s := range c.Settings {
-			if strings.HasPrefix(s.Path, prefix) {
+			if t := s.Target(); t.Owner == label && (t.Kind == SweepPsi || t.Kind == SweepPsiConstant) {
 				return true
 			}
 		}
@@ -105,11 +104,7 @@ func shortSettings(ss []Setting, kv, sep string) string {
 	}
 	parts := make([]string, len(ss))
 	for i, s := range ss {
-		p := s.Path
-		if seg := strings.Split(p, "."); len(seg) >= 3 {
-			p = strings.Join(seg[1:], ".")
-		}
-		parts[i] = p + kv + s.Value
+		parts[i] = ShortPath(s.Path) + kv + s.Value
 	}
 	return strings.Join(parts, sep)
 }

@@ -65,12 +65,11 @@ func tunedPaths(r *Results) []tunedPath {
 	}
 	var out []tunedPath
 	for _, s := range r.Cells[0].Settings {
-		seg := strings.Split(s.Path, ".")
-		switch {
-		case len(seg) == 3 && seg[0] == "estimators" && seg[2] == "tuning":
-			out = append(out, tunedPath{s.Path, seg[1], "tuning"})
-		case len(seg) == 5 && seg[0] == "estimators" && seg[2] == "psi" && seg[3] == "constants":
-			out = append(out, tunedPath{s.Path, seg[1], seg[4]})
+		switch t := s.Target(); {
+		case t.Kind == SweepTuning && t.Name == "":
+			out = append(out, tunedPath{s.Path, t.Owner, "tuning"})
+		case t.Kind == SweepPsiConstant:
+			out = append(out, tunedPath{s.Path, t.Owner, t.Name})
 		}
 	}
 	return out
@@ -79,10 +78,9 @@ func tunedPaths(r *Results) []tunedPath {
 // relevant reports whether a swept setting can change the figures of the
 // estimator labelled label against the reference: anything but the
 // settings of other estimators.
-func relevant(path, label, reference string) bool {
-	seg := strings.Split(path, ".")
-	if len(seg) >= 2 && seg[0] == "estimators" {
-		return seg[1] == label || seg[1] == reference
+func relevant(s Setting, label, reference string) bool {
+	if t := s.Target(); t.OfEstimator() {
+		return t.Owner == label || t.Owner == reference
 	}
 	return true
 }
@@ -112,7 +110,7 @@ func study(r *Results, p tunedPath, base []baseContamination, target float64) Tu
 			switch {
 			case s.Path == p.path:
 				value = s.Value
-			case relevant(s.Path, p.label, r.Reference):
+			case relevant(s, p.label, r.Reference):
 				rest = append(rest, s)
 			}
 		}
@@ -473,7 +471,7 @@ func clean(settings []Setting, base []baseContamination) bool {
 	for i, c := range base {
 		f := c.fraction
 		for _, s := range settings {
-			if s.Path == "contamination."+c.label+".fraction" || s.Path == "contamination."+strconv.Itoa(i)+".fraction" {
+			if t := s.Target(); t.Kind == SweepFraction && (t.Owner == c.label || t.Owner == strconv.Itoa(i)) {
 				if v, err := strconv.ParseFloat(strings.TrimSpace(s.Value), 64); err == nil {
 					f = v
 				}
@@ -486,7 +484,7 @@ func clean(settings []Setting, base []baseContamination) bool {
 	if base == nil {
 		// Without the scenario, only swept fractions can tell.
 		for _, s := range settings {
-			if strings.HasPrefix(s.Path, "contamination.") && strings.HasSuffix(s.Path, ".fraction") {
+			if s.Target().Kind == SweepFraction {
 				if v, err := strconv.ParseFloat(strings.TrimSpace(s.Value), 64); err != nil || v != 0 {
 					return false
 				}

@@ -47,21 +47,18 @@ func contamKinds() []contamKind {
 	}
 }
 
-func lookupContam(name string) (contamKind, bool) {
-	for _, k := range contamKinds() {
-		if k.name == name {
-			return k, true
-		}
-	}
-	return contamKind{}, false
-}
-
-// contamKindList returns "a, b or c" of the kind names.
-func contamKindList() string {
+// contamNames lists the contamination kinds' names.
+func contamNames() []string {
 	var names []string
 	for _, k := range contamKinds() {
 		names = append(names, k.name)
 	}
+	return names
+}
+
+// contamKindList returns "a, b or c" of the kind names.
+func contamKindList() string {
+	names := contamNames()
 	last := len(names) - 1
 	return strings.Join(names[:last], ", ") + " or " + names[last]
 }
@@ -102,9 +99,9 @@ func (s *Scenario) validateContamination(c checker) {
 		if ct.Fraction >= 0 && ct.Fraction < 0.5 {
 			rows += ct.rows(s.Model.N)
 		}
-		kind, ok := lookupContam(ct.Kind)
+		kind, ok := ct.Kind.kind()
 		switch {
-		case ct.Kind == "":
+		case !ct.Kind.given():
 			c.fail(path+".kind", "missing: want %s", contamKindList())
 			continue
 		case !ok:
@@ -137,7 +134,7 @@ func (s *Scenario) validateContamination(c checker) {
 // fillDefaults sets the contamination's defaulted keys (its label is set
 // by the scenario, which numbers repeated kinds).
 func (c *Contamination) fillDefaults() {
-	if k, ok := lookupContam(c.Kind); ok {
+	if k, ok := c.Kind.kind(); ok {
 		k.defaults(c)
 	}
 }
@@ -145,7 +142,7 @@ func (c *Contamination) fillDefaults() {
 // newContamModel builds the model of a validated contamination; k is the
 // number of predictor columns.
 func newContamModel(c *Contamination, k int) contamModel {
-	kind, _ := lookupContam(c.Kind)
+	kind, _ := c.Kind.kind()
 	return kind.build(c, k)
 }
 

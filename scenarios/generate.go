@@ -40,6 +40,14 @@ type Generator struct {
 	nContam  int // total contaminated rows
 }
 
+// columnSampler is one predictor column: its model, which is either
+// random or fixed.
+type columnSampler struct {
+	model  columnModel
+	random randomColumn // nil for a fixed design
+	fixed  fixedColumn  // nil for a random column
+}
+
 // contamSampler is one contamination with its row count.
 type contamSampler struct {
 	model contamModel
@@ -57,11 +65,15 @@ func NewGenerator(s *Scenario) (*Generator, error) {
 		growCol:   -1,
 	}
 	k := len(s.Model.Columns)
-	for _, c := range s.Model.Columns {
-		cs, err := newColumnSampler(c.Distribution)
-		if err != nil {
-			return nil, err
+	for i := range s.Model.Columns {
+		d := &s.Model.Columns[i].Distribution
+		if _, ok := d.Dist.kind(); !ok {
+			return nil, fmt.Errorf("unknown distribution %q", d.Dist)
 		}
+		m := newColumnModel(d)
+		cs := columnSampler{model: m}
+		cs.random, _ = m.(randomColumn)
+		cs.fixed, _ = m.(fixedColumn)
 		g.cols = append(g.cols, cs)
 	}
 	if s.Model.Correlation.Given {
@@ -154,16 +166,16 @@ func (g *Generator) Draw(src rand.Source, x *mat.Dense, y []float64, sc *Scratch
 				for l := 0; l <= j; l++ {
 					s += g.chol[j*k+l] * sc.e[l]
 				}
-				row[off+j] = g.cols[j].fromNormal(s)
+				row[off+j] = g.cols[j].random.fromNormal(s)
 			}
 			continue
 		}
 		for j := range g.cols {
 			c := &g.cols[j]
-			if c.kind == colLevels || c.kind == colGrid {
-				row[off+j] = c.fixed(i, g.n)
+			if c.fixed != nil {
+				row[off+j] = c.fixed.value(i, g.n)
 			} else {
-				row[off+j] = c.random(src)
+				row[off+j] = c.random.draw(src)
 			}
 		}
 	}
@@ -270,10 +282,7 @@ func (g *Generator) AppendSettings(dst []byte) []byte {
 	e.floats(g.beta)
 	e.int(len(g.cols))
 	for i := range g.cols {
-		c := &g.cols[i]
-		e.str(columnDists()[c.kind].name)
-		e.floats([]float64{c.a, c.b, c.c})
-		e.floats(c.levels)
+		g.cols[i].model.appendSettings(&e)
 	}
 	e.bool(g.chol != nil)
 	e.floats(g.chol)

@@ -53,6 +53,10 @@ type Cell struct {
 type Setting struct {
 	Path  string `json:"path"`  // the field's dotted path, as written under vary
 	Value string `json:"value"` // the field's value in this cell, as YAML text (see Sweep.Values)
+	// Target is what the sweep sets (the Target of its Sweep).
+	Target SweepTarget `json:"-"`
+	// Number is the value when it is one number, NaN otherwise.
+	Number float64 `json:"-"`
 }
 
 // Limits bounds what a scenario may ask for, so that a typing slip cannot
@@ -164,6 +168,9 @@ func Parse(file string, data []byte, limits Limits) (*Study, error) {
 	}
 	if err := e.err(); err != nil {
 		return nil, err
+	}
+	for i := range base.Vary {
+		base.Vary[i].Target = resolveSweep(base, base.Vary[i].Path)
 	}
 
 	// Lines holding swept values: an error there is about one cell.
@@ -319,7 +326,7 @@ func cellPicks(vary Vary, idx int) ([]Setting, []*yaml.Node) {
 	for i := len(vary) - 1; i >= 0; i-- {
 		k := idx % len(vary[i].nodes)
 		idx /= len(vary[i].nodes)
-		settings[i] = Setting{Path: vary[i].Path, Value: vary[i].Values[k]}
+		settings[i] = Setting{Path: vary[i].Path, Value: vary[i].Values[k], Target: vary[i].Target, Number: sweepNumber(vary[i].nodes[k])}
 		picks[i] = vary[i].nodes[k]
 	}
 	return settings, picks

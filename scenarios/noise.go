@@ -49,15 +49,6 @@ func noiseKinds() []noiseKind {
 	}
 }
 
-func lookupNoise(name string) (noiseKind, bool) {
-	for _, k := range noiseKinds() {
-		if k.name == name {
-			return k, true
-		}
-	}
-	return noiseKind{}, false
-}
-
 func noiseNames() []string {
 	var out []string
 	for _, k := range noiseKinds() {
@@ -87,14 +78,14 @@ func (n *Noise) param(key string) **float64 {
 
 // fillDefaults sets the noise's defaulted fields.
 func (n *Noise) fillDefaults() {
-	if n.Dist == "" {
-		n.Dist = "normal"
+	if !n.Dist.given() {
+		n.Dist, _ = ParseNoiseDist("normal")
 	}
 	if n.Scale == nil {
 		one := 1.0
 		n.Scale = &one
 	}
-	if k, ok := lookupNoise(n.Dist); ok {
+	if k, ok := n.Dist.kind(); ok {
 		for _, p := range k.params {
 			if ptr := n.param(p.key); *ptr == nil && p.hasDefault {
 				v := p.def
@@ -116,7 +107,7 @@ const (
 
 func (s *Scenario) validateNoise(c checker) {
 	n := &s.Noise
-	kind, ok := lookupNoise(n.Dist)
+	kind, ok := n.Dist.kind()
 	if !ok {
 		c.fail("noise.dist", "unknown noise %q; valid: %s", n.Dist, strings.Join(noiseNames(), ", "))
 		return
@@ -164,7 +155,7 @@ func paramList(p []string) string {
 
 // newNoiseModel builds the model of a validated noise.
 func newNoiseModel(n *Noise) noiseModel {
-	k, _ := lookupNoise(n.Dist)
+	k, _ := n.Dist.kind()
 	return k.build(n)
 }
 

@@ -97,7 +97,7 @@ type Column struct {
 type Distribution struct {
 	// Dist is the distribution: normal, uniform, student-t, laplace,
 	// lognormal, exponential, levels or grid. Default normal.
-	Dist string `yaml:"dist" json:"dist"`
+	Dist ColumnDist `yaml:"dist" json:"dist"`
 	// Mean is the location of normal, student-t and laplace. Default 0.
 	Mean *float64 `yaml:"mean" json:"mean,omitempty"`
 	// SD is the standard deviation of normal; positive. Default 1.
@@ -140,7 +140,7 @@ type Distribution struct {
 // it is centred at its median).
 type Noise struct {
 	// Dist is the noise distribution. Default normal.
-	Dist string `yaml:"dist" json:"dist"`
+	Dist NoiseDist `yaml:"dist" json:"dist"`
 	// Scale is the noise scale. Default 1.
 	Scale *float64 `yaml:"scale" json:"scale"`
 	// DF is the degrees of freedom of student-t.
@@ -185,7 +185,7 @@ type Contamination struct {
 	// made unique with a number.
 	Label string `yaml:"label" json:"label"`
 	// Kind is vertical, bad-leverage or good-leverage; required.
-	Kind string `yaml:"kind" json:"kind"`
+	Kind ContamKind `yaml:"kind" json:"kind"`
 	// Fraction is the share of observations replaced: at least 0 and
 	// below 0.5, round(fraction·n) rows. Default 0.
 	Fraction float64 `yaml:"fraction" json:"fraction"`
@@ -273,5 +273,5 @@ type Stop struct {
 	MaxIter *int `yaml:"max-iter" json:"max_iter,omitempty"`
 	// Require is any (the first rule that holds stops the fit) or all
 	// (every given rule must hold at once). Default any.
-	Require string `yaml:"require" json:"require,omitempty"`
+	Require StopRequire `yaml:"require" json:"require,omitzero"`
 }

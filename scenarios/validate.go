@@ -95,18 +95,7 @@ func (s *Scenario) fillDefaults(d *decoder, defaultName string) {
 		s.Replicates = DefaultReplicates
 	}
 	for i := range s.Model.Columns {
-		c := &s.Model.Columns[i]
-		if c.Dist == "" {
-			c.Dist = "normal"
-		}
-		if info, ok := lookupDist(c.Dist); ok {
-			for _, p := range info.params {
-				if ptr := c.param(p.key); *ptr == nil && p.hasDefault {
-					v := p.def
-					*ptr = &v
-				}
-			}
-		}
+		s.Model.Columns[i].Distribution.fillDefaults()
 	}
 	s.Noise.fillDefaults()
 	kinds := map[string]int{}
@@ -114,10 +103,11 @@ func (s *Scenario) fillDefaults(d *decoder, defaultName string) {
 		c := &s.Contamination[i]
 		c.fillDefaults()
 		if c.Label == "" {
-			kinds[c.Kind]++
-			c.Label = c.Kind
-			if kinds[c.Kind] > 1 {
-				c.Label = fmt.Sprintf("%s-%d", c.Kind, kinds[c.Kind])
+			kind := c.Kind.String()
+			kinds[kind]++
+			c.Label = kind
+			if kinds[kind] > 1 {
+				c.Label = fmt.Sprintf("%s-%d", kind, kinds[kind])
 			}
 		}
 	}
@@ -147,9 +137,7 @@ func (s *Scenario) fillDefaults(d *decoder, defaultName string) {
 				v := estimators.DefaultMaxIterations
 				e.Stop.MaxIter = &v
 			}
-			if e.Stop.Require == "" {
-				e.Stop.Require = "any"
-			}
+			e.Stop.Require = e.Stop.Require.orAny()
 		}
 		if e.Label == "" {
 			base := e.Method
@@ -166,7 +154,7 @@ func (s *Scenario) fillDefaults(d *decoder, defaultName string) {
 	if b := s.Breakdown; b != nil && b.Fraction == "" {
 		var fractions []string
 		for _, sw := range s.Vary {
-			if strings.HasSuffix(sw.Path, ".fraction") {
+			if resolveSweep(s, sw.Path).Kind == SweepFraction {
 				fractions = append(fractions, sw.Path)
 			}
 		}
@@ -253,7 +241,7 @@ func (s *Scenario) validateBreakdown(c checker) {
 	var fractions []string
 	for _, sw := range s.Vary {
 		swept[sw.Path] = true
-		if strings.HasSuffix(sw.Path, ".fraction") {
+		if resolveSweep(s, sw.Path).Kind == SweepFraction {
 			fractions = append(fractions, sw.Path)
 		}
 	}
@@ -306,11 +294,8 @@ func (s *Scenario) validateModel(c checker, limits Limits) {
 			c.fail(path+".name", "%q names two columns; names must be unique", col.Name)
 		}
 		names[col.Name] = true
-		if col.Distribution.check(c, path) {
+		if col.Distribution.check(c, path, !m.Intercept.None) {
 			random++
-		}
-		if d := col.Distribution; d.Dist == "levels" && len(d.Levels) > 0 && !m.Intercept.None && slices.Min(d.Levels) == slices.Max(d.Levels) {
-			c.fail(path+".levels", "all levels are %v: a constant column duplicates the intercept, so no design could be fitted; give at least two distinct levels, or use intercept: none", d.Levels[0])
 		}
 	}
 	if m.Correlation.Given {
@@ -503,7 +488,7 @@ func (s *Scenario) validateEstimators(c checker) {
 		if st.MaxIter != nil && (*st.MaxIter < 1 || *st.MaxIter > 1_000_000) {
 			c.fail(path+".stop.max-iter", "must be from 1 to 1000000, got %d", *st.MaxIter)
 		}
-		if st.Require != "any" && st.Require != "all" {
+		if !st.Require.known() {
 			c.fail(path+".stop.require", "want any or all, got %q", st.Require)
 		}
 	}
@@ -554,7 +539,7 @@ func (e EstimatorSpec) Build() (estimators.Estimator, error) {
 	if e.Stop.MaxIter != nil {
 		s.MaxIterations = *e.Stop.MaxIter
 	}
-	s.RequireAll = e.Stop.Require == "all"
+	s.RequireAll = e.Stop.Require.All()
 	// A tolerance of exactly 0 would read as "use the default" in Settings;
 	// the smallest positive value keeps the user's intent of "never".
 	if s.Rules&estimators.RuleChange != 0 && s.ChangeTol == 0 {

@@ -359,6 +359,9 @@ type Sweep struct {
 	Path string `json:"path"`
 	// Values are the values in file order, as YAML text.
 	Values []string `json:"values"`
+	// Target is what the sweep sets, resolved against the scenario by
+	// the loader.
+	Target SweepTarget `json:"-"`
 
 	line, col int
 	nodes     []*yaml.Node
