@@ -69,9 +69,11 @@ func breakdownCmd(e env, args []string) error {
 		if *rep < 0 {
 			return usagef("--replicate must be ≥ 0")
 		}
-		if x, y, _, err = replicateData(sc, runSeed.or(st.Base.Seed), *rep); err != nil {
+		rp, err := harness.NewReplicator(sc, runSeed.or(st.Base.Seed))
+		if err != nil {
 			return err
 		}
+		x, y = rp.Draw(*rep)
 	}
 	out, err := harness.MeasureBreakdown(x, y, intercept, ests, harness.ReplacementOptions{Directions: *dirs, Seed: seed.or(1)})
 	if err != nil {

@@ -3,9 +3,7 @@ package main
 import (
 	"bytes"
 	"encoding/csv"
-	"errors"
 	"fmt"
-	"math/rand/v2"
 	"slices"
 	"strconv"
 	"strings"
@@ -82,10 +80,11 @@ func replayCmd(e env, args []string) error {
 		// at its own replicate count fitted it; say so, then go on.
 		fmt.Fprintf(e.stderr, "rhomark replay: note: replicate %d is beyond the scenario's %d replicates (0 to %d); a run with --replicates larger than %d would have fitted it\n", *rep, sc.Replicates, sc.Replicates-1, *rep)
 	}
-	x, y, dataKey, err := replicateData(sc, seed, *rep)
+	rp, err := harness.NewReplicator(sc, seed)
 	if err != nil {
 		return err
 	}
+	x, y := rp.Draw(*rep)
 
 	if *label != "" && !slices.ContainsFunc(sc.Estimators, func(s scenarios.EstimatorSpec) bool { return s.Label == *label }) {
 		var labels []string
@@ -122,11 +121,10 @@ func replayCmd(e env, args []string) error {
 		}
 		var ws estimators.Workspace
 		var res estimators.Result
-		// The same stream the run gave this estimator for this replicate.
-		ws.SeedRandom(harness.EstimatorStream(seed, dataKey, *rep, harness.EstimatorKey(spec.Label)))
-		if err := est.Fit(x, y, &ws, &res); err != nil && !errors.Is(err, estimators.ErrNonFinite) {
+		// The same dataset and stream the run gave this estimator.
+		if err := rp.Fit(spec.Label, &est, &ws, &res); err != nil {
 			return fmt.Errorf("estimator %s: %w", spec.Label, err)
-		} // an overflowed dataset is a NonFinite outcome, as in the run
+		}
 		f.Status, f.Iterations, f.Scale, f.Coefficients = res.Status.String(), res.Iterations, res.Scale, append([]float64(nil), res.Coefficients...)
 		fits = append(fits, f)
 	}
@@ -169,21 +167,6 @@ func replayCmd(e env, args []string) error {
 		fmt.Fprintf(w, "   final β = %s\n", coefText(names, f.Coefficients))
 	}
 	return nil
-}
-
-// replicateData regenerates the dataset of replicate rep of a cell whose
-// scenario is sc, from the same stream the run drew it from, and returns
-// the cell's data key (for the estimators' streams).
-func replicateData(sc *scenarios.Scenario, seed uint64, rep int) (*mat.Dense, []float64, uint64, error) {
-	g, err := scenarios.NewGenerator(sc)
-	if err != nil {
-		return nil, nil, 0, err
-	}
-	n, p := g.Dims()
-	x, y := mat.NewDense(n, p, nil), make([]float64, n)
-	key := harness.DataKey(g)
-	g.Draw(rand.NewPCG(harness.ReplicateStream(seed, key, rep)), x, y, g.NewScratch())
-	return x, y, key, nil
 }
 
 // coefText formats named coefficients on one line.
