@@ -47,7 +47,7 @@ func replayCmd(e env, args []string) error {
 	fs := newFlags(e, "replay", "SCENARIO --cell C --replicate R [--estimator LABEL] [options]",
 		"Regenerates exactly the dataset that replicate R of cell C saw, writes it as\nCSV (usable with rhomark fit), and refits the estimators with the same random\nstreams, printing the solver's trace: per iteration the coefficients, scale,\nobjective, estimating-equation norm, step length, safeguards fired and the\nsmallest and largest weight.")
 	cell := fs.Int("cell", 0, "cell `C`")
-	rep := fs.Int("replicate", 0, "replicate `R`")
+	rep := addInt(fs.FlagSet, "replicate", 0, "replicate `R`", atLeast(0), "a replicate number, 0 or more")
 	label := fs.String("estimator", "", "replay only the estimator with this `label`")
 	dataOut := fs.String("data-out", "", "write the dataset to this CSV `file` (default NAME-cC-rR.csv; with --json, only when given)")
 	seedFlag := addSeedFlag(fs.FlagSet, "seed", "the run's root `seed` (decimal digits), if it overrode the scenario's")
@@ -66,9 +66,6 @@ func replayCmd(e env, args []string) error {
 	}
 	if *cell < 0 || *cell >= len(st.Cells) {
 		return usagef("--cell %d: the scenario has cells 0 to %d", *cell, len(st.Cells)-1)
-	}
-	if *rep < 0 {
-		return usagef("--replicate must be ≥ 0")
 	}
 	seed := st.Base.Seed
 	if s, ok := seedFlag.get(); ok {
