@@ -3,12 +3,9 @@ package harness
 import (
 	"context"
 	"fmt"
-	"math/rand/v2"
 	"runtime"
 	"testing"
 	"time"
-
-	"gonum.org/v1/gonum/mat"
 
 	"github.com/rhomark/rhomark/estimators"
 	"github.com/rhomark/rhomark/scenarios"
@@ -35,9 +32,10 @@ estimators:
   - {label: huber, method: irls, psi: huber, tuning: 1.345, stop: {change: 1e-10}}
 `
 
-// BenchmarkReplicate measures one replicate of the speed workload: drawing
-// the dataset from its stream and fitting Huber's M-estimator by IRLS. It
-// must allocate nothing.
+// BenchmarkReplicate measures one replicate of the speed workload, as a
+// run computes it (Replicator): drawing the dataset from its stream and
+// fitting Huber's M-estimator by IRLS with its own stream. It must
+// allocate nothing.
 func BenchmarkReplicate(b *testing.B) {
 	st := parse(b, speedScenario)
 	plans, err := plan(st, 1)
@@ -45,21 +43,17 @@ func BenchmarkReplicate(b *testing.B) {
 		b.Fatal(err)
 	}
 	p := &plans[0]
-	n, k := p.gen.Dims()
-	pcg := rand.NewPCG(0, 0)
-	x := mat.NewDense(n, k, nil)
-	y := make([]float64, n)
-	sc := p.gen.NewScratch()
+	rp := newReplicator(p.gen, p.dataKey, 99)
 	var ws estimators.Workspace
 	var res estimators.Result
 	e := p.ests[0]
+	key := p.estKeys[0]
 	iters := 0
 	b.ReportAllocs()
 	b.ResetTimer()
 	for i := 0; i < b.N; i++ {
-		pcg.Seed(ReplicateStream(99, p.dataKey, i))
-		p.gen.Draw(pcg, x, y, sc)
-		if err := e.Fit(x, y, &ws, &res); err != nil {
+		rp.Draw(i)
+		if err := rp.fit(key, &e, &ws, &res); err != nil {
 			b.Fatal(err)
 		}
 		iters += res.Iterations

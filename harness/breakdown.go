@@ -264,7 +264,7 @@ func MeasureBreakdown(x *mat.Dense, y []float64, intercept bool, ests []NamedEst
 	if sy == 0 {
 		sy = 1
 	}
-	rng := rand.New(rand.NewPCG(opt.Seed, 0xb7ea4d))
+	rng := rand.New(rand.NewPCG(breakdownSearchStream(opt.Seed)))
 	dirs := []direction{{name: "vertical", dx: make([]float64, k)}}
 	if k > 0 {
 		lev := make([]float64, k)
@@ -293,7 +293,7 @@ func MeasureBreakdown(x *mat.Dense, y []float64, intercept bool, ests []NamedEst
 		// fit returns the coefficients, or the status that made the fit
 		// unusable ("error" when Fit refused the data).
 		fit := func(xx *mat.Dense, yy []float64) ([]float64, string) {
-			ws.SeedRandom(opt.Seed, 0x5eed)
+			ws.SeedRandom(breakdownFitStream(opt.Seed))
 			if err := ne.Estimator.Fit(xx, yy, &ws, &res); err != nil {
 				return nil, "error"
 			}

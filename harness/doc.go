@@ -8,7 +8,9 @@
 // data-generating settings, replicate) by [ReplicateStream] and [DataKey],
 // so cells that differ only in estimator settings fit the same datasets; an
 // estimator that is the same in several such cells is fitted once per
-// dataset. Every sum over replicates is accumulated exactly
+// dataset. [Replicator] recomputes any one replicate of a cell (its
+// dataset and its fits) outside a run, exactly as the run computed it.
+// Every sum over replicates is accumulated exactly
 // (internal/exactsum), so the results are bit-identical whatever the number
 // of workers and the order in which units finish. All estimators of a cell
 // fit the same datasets (common random numbers), so comparisons between

@@ -8,7 +8,6 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"math/rand/v2"
 	"reflect"
 	"runtime"
 	"slices"
@@ -17,7 +16,6 @@ import (
 	"sync/atomic"
 	"time"
 
-	"gonum.org/v1/gonum/mat"
 	"gonum.org/v1/gonum/stat/distuv"
 
 	"github.com/rhomark/rhomark/estimators"
@@ -517,13 +515,9 @@ type keptBlock struct {
 
 // worker holds one goroutine's buffers for one group of cells.
 type worker struct {
-	plans   []cellPlan
-	group   *groupPlan
-	seed    uint64
-	pcg     *rand.PCG
-	x       *mat.Dense
-	y       []float64
-	scratch *scenarios.Scratch
+	plans []cellPlan
+	group *groupPlan
+	rp    *Replicator // the group's datasets and the fits' streams
 	// Per distinct fit of the group: workspace, result, fitting time of
 	// the current replicate, and standard errors (seOK: computed).
 	ws    []estimators.Workspace
@@ -540,21 +534,17 @@ type worker struct {
 }
 
 func newWorker(plans []cellPlan, g *groupPlan, seed uint64) *worker {
-	n, k := g.gen.Dims()
+	_, k := g.gen.Dims()
 	w := &worker{
-		plans:   plans,
-		group:   g,
-		seed:    seed,
-		pcg:     rand.NewPCG(0, 0),
-		x:       mat.NewDense(n, k, nil),
-		y:       make([]float64, n),
-		scratch: g.gen.NewScratch(),
-		ws:      make([]estimators.Workspace, len(g.fits)),
-		res:     make([]estimators.Result, len(g.fits)),
-		nanos:   make([]int64, len(g.fits)),
-		se:      make([][]float64, len(g.fits)),
-		seOK:    make([]bool, len(g.fits)),
-		kept:    make([]keptBlock, len(g.cells)),
+		plans: plans,
+		group: g,
+		rp:    newReplicator(g.gen, g.dataKey, seed),
+		ws:    make([]estimators.Workspace, len(g.fits)),
+		res:   make([]estimators.Result, len(g.fits)),
+		nanos: make([]int64, len(g.fits)),
+		se:    make([][]float64, len(g.fits)),
+		seOK:  make([]bool, len(g.fits)),
+		kept:  make([]keptBlock, len(g.cells)),
 	}
 	for f := range w.se {
 		w.se[f] = make([]float64, k)
@@ -590,28 +580,19 @@ func (w *worker) runBlock(ctx context.Context, lo, hi int) bool {
 // group once, and records in every cell the fits of its estimators.
 func (w *worker) replicate(r int) {
 	g := w.group
-	w.pcg.Seed(ReplicateStream(w.seed, g.dataKey, r))
-	g.gen.Draw(w.pcg, w.x, w.y, w.scratch)
+	x, _ := w.rp.Draw(r)
 	for f := range g.fits {
 		fp := &g.fits[f]
-		// Each estimator's own randomness (elemental subsets) comes from a
-		// stream of its own for this replicate.
-		w.ws[f].SeedRandom(EstimatorStream(w.seed, g.dataKey, r, fp.key))
 		t0 := time.Now()
-		if err := fp.est.Fit(w.x, w.y, &w.ws[f], &w.res[f]); err != nil {
-			if !errors.Is(err, estimators.ErrNonFinite) {
-				// Shapes and settings were validated, so this is a bug;
-				// stop the run and report it rather than guess.
-				w.err = fmt.Errorf("cell %d replicate %d, estimator %s: %w", fp.cell, r, fp.label, err)
-				return
-			}
-			// The model drew a value beyond float64 (an extreme draw of
-			// a heavy-tailed distribution): the dataset cannot be fitted,
-			// and Fit left res as a NonFinite outcome with NaN estimates.
+		if err := w.rp.fit(fp.key, &fp.est, &w.ws[f], &w.res[f]); err != nil {
+			// Shapes and settings were validated, so this is a bug; stop
+			// the run and report it rather than guess.
+			w.err = fmt.Errorf("cell %d replicate %d, estimator %s: %w", fp.cell, r, fp.label, err)
+			return
 		}
 		w.nanos[f] = int64(time.Since(t0))
 		res := &w.res[f]
-		w.seOK[f] = res.Status.Converged() && w.ws[f].StandardErrors(fp.est, w.x, res, w.se[f])
+		w.seOK[f] = res.Status.Converged() && w.ws[f].StandardErrors(fp.est, x, res, w.se[f])
 	}
 	for i, c := range g.cells {
 		w.record(&w.plans[c], w.tallies[i], g.use[i], &w.kept[i])

@@ -8,8 +8,8 @@ import (
 )
 
 // The stream contract. Every random number of a run comes from a stream
-// whose seed is derived here, and nowhere else; replay and breakdown in
-// cmd/rhomark call these functions to rebuild a run's replicate.
+// whose seed is derived here, and nowhere else; a run, replay and
+// breakdown draw a replicate through Replicator, which calls them.
 //
 //   - The dataset of replicate r of a cell is drawn from
 //     ReplicateStream(seed, DataKey(generator), r). The data key hashes the
@@ -28,6 +28,10 @@ import (
 //     dataset, which pairs those cells too. Adding or reordering
 //     estimators changes neither the datasets nor the other estimators'
 //     streams.
+//   - MeasureBreakdown, which works on one given dataset, draws its
+//     replaced rows and random directions from breakdownSearchStream(seed)
+//     and gives every fit the stream breakdownFitStream(seed), seed being
+//     its own (ReplacementOptions.Seed), not a run's.
 
 // mix is the SplitMix64 finaliser (Steele, Lea & Flood (2014), "Fast
 // splittable pseudorandom number generators", OOPSLA): a bijection of
@@ -85,3 +89,13 @@ func streamSeeds(seed, key uint64, rep int, purpose, sub uint64) (uint64, uint64
 	h = mix(h ^ sub)
 	return h, mix(h ^ 0x5851f42d4c957f2d)
 }
+
+// breakdownSearchStream returns the PCG seeds of the stream from which
+// MeasureBreakdown draws its random directions and then the order of the
+// replaced rows, under its seed.
+func breakdownSearchStream(seed uint64) (uint64, uint64) { return seed, 0xb7ea4d }
+
+// breakdownFitStream returns the PCG seeds with which MeasureBreakdown
+// seeds the estimator before every fit, so that a resampling estimator
+// draws the same subsets for the clean and every contaminated dataset.
+func breakdownFitStream(seed uint64) (uint64, uint64) { return seed, 0x5eed }

@@ -1,8 +1,11 @@
 package psi
 
 import (
+	"errors"
 	"fmt"
 	"math"
+
+	"github.com/rhomark/rhomark/internal/root"
 )
 
 // PsiCheck is the outcome of one property check of a psi.
@@ -237,9 +240,11 @@ func Discontinuous(psi Psi) bool {
 	return len(findJumps(psi, checkGrid())) > 0
 }
 
-// findJumps locates discontinuities of psi on [0, 20]: for each grid
-// interval whose change is large, bisection follows the half with the larger
-// change; a jump is where that change does not shrink.
+// findJumps locates discontinuities of psi on [0, 20]: in each grid
+// interval [a, b] whose change is large, bisection finds where
+// |psi(u) − psi(a)| − |psi(b) − psi(u)| changes sign, the point that
+// splits the change in two; a jump is where the change across the final
+// bracket does not shrink.
 func findJumps(psi Psi, grid []float64) []float64 {
 	var jumps []float64
 	for i := 0; i+1 < len(grid) && grid[i+1] <= 20; i++ {
@@ -248,14 +253,16 @@ func findJumps(psi Psi, grid []float64) []float64 {
 		if d < 1e-9 {
 			continue
 		}
-		for k := 0; k < 60 && b-a > 1e-15*math.Max(1, b); k++ {
-			m := (a + b) / 2
-			if math.Abs(psi.Psi(m)-psi.Psi(a)) >= math.Abs(psi.Psi(b)-psi.Psi(m)) {
-				b = m
-			} else {
-				a = m
-			}
+		pa, pb := psi.Psi(a), psi.Psi(b)
+		split := func(u float64) float64 {
+			pu := psi.Psi(u)
+			return math.Abs(pu-pa) - math.Abs(pb-pu)
 		}
+		lo, hi, err := root.Bisect(split, a, b, root.Tolerance{Abs: 1e-15, Rel: 1e-15, MaxIter: 60})
+		if err != nil && !errors.Is(err, root.ErrMaxIter) {
+			continue // psi is NaN here, which the other checks report
+		}
+		a, b = lo, hi
 		if jump := math.Abs(psi.Psi(b) - psi.Psi(a)); jump > 1e-6*math.Max(1, d) && jump > d/4 {
 			if len(jumps) == 0 || math.Abs(jumps[len(jumps)-1]-b) > 1e-9 {
 				jumps = append(jumps, b)

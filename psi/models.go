@@ -5,6 +5,8 @@ import (
 	"math"
 
 	"gonum.org/v1/gonum/stat/distuv"
+
+	"github.com/rhomark/rhomark/internal/root"
 )
 
 // MADConsistency is Φ⁻¹(3/4), the median of |Z| for a standard normal Z.
@@ -160,23 +162,20 @@ func (m ErrorModel) madLimit() float64 {
 	case "laplace":
 		med = math.Ln2
 	case "contaminated-normal":
-		// Solve P(|X| ≤ t) = 1/2 by bisection; the CDF is monotone.
+		// Solve P(|X| ≤ t) = 1/2; the CDF is monotone, from 0 at t = 0.
 		g := func(t float64) float64 {
 			return (1-m.Eps)*(2*distuv.UnitNormal.CDF(t)-1) + m.Eps*(2*distuv.UnitNormal.CDF(t/m.Tau)-1) - 0.5
 		}
-		lo, hi := 0.0, 1.0
+		hi := 1.0
 		for g(hi) < 0 {
 			hi *= 2
 		}
-		for i := 0; i < 200 && hi-lo > 1e-15*hi; i++ {
-			mid := (lo + hi) / 2
-			if g(mid) < 0 {
-				lo = mid
-			} else {
-				hi = mid
-			}
+		var err error
+		if med, err = root.Find(g, 0, hi, root.Tolerance{Rel: 1e-15}); err != nil {
+			// Only a model with invalid parameters gets here; NaN makes
+			// the theory under it refuse rather than report a number.
+			med = math.NaN()
 		}
-		med = (lo + hi) / 2
 	default:
 		med = MADConsistency
 	}

@@ -4,6 +4,8 @@ import (
 	"errors"
 	"fmt"
 	"math"
+
+	"github.com/rhomark/rhomark/internal/root"
 )
 
 // Theory holds the asymptotic properties of a psi function, computed by
@@ -262,15 +264,17 @@ func describeShape(psi Psi) shape {
 	if s.redescending && psi.Psi(1e12) == 0 && lastNonZero < 1e12 && math.Abs(psi.Psi(lastNonZero)) > 1e-250*math.Max(1, s.sup) {
 		// Refine the point where psi becomes identically zero between
 		// the last non-zero grid point and the next one.
+		// Bisection, since psi only says on which side a point lies.
 		lo, hi := lastNonZero, nextAfter(grid, lastNonZero)
-		for i := 0; i < 200 && hi-lo > 1e-14*hi; i++ {
-			mid := (lo + hi) / 2
-			if psi.Psi(mid) != 0 {
-				lo = mid
-			} else {
-				hi = mid
+		side := func(u float64) float64 {
+			if psi.Psi(u) != 0 {
+				return -1
 			}
+			return 1
 		}
+		if l, h, err := root.Bisect(side, lo, hi, root.Tolerance{Rel: 1e-14}); err == nil || errors.Is(err, root.ErrMaxIter) {
+			lo, hi = l, h
+		} // else no grid point follows lastNonZero: keep it
 		s.rejection = hi
 		// Snap to a declared break point the bisection has bracketed.
 		for _, k := range breaksOf(psi) {

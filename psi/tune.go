@@ -6,6 +6,8 @@ import (
 	"math"
 
 	"gonum.org/v1/gonum/stat/distuv"
+
+	"github.com/rhomark/rhomark/internal/root"
 )
 
 // Tuning solves for tuning constants. A family with several constants is
@@ -33,8 +35,8 @@ func (f Family) WithFirst(c float64) []float64 {
 
 // solveRay finds m > 0 with g(m) = 0 for g monotone in m: two walkers
 // leave m = 1 upwards and downwards in powers of two (at most 2^±20) until
-// one sees the sign of g change; then bisection on log m narrows the
-// bracket.
+// one sees the sign of g change; then root.Find narrows the bracket to a
+// relative width of 1e-13. An error of g ends the search with that error.
 func solveRay(g func(m float64) (float64, error)) (float64, error) {
 	g1, err := g(1)
 	if err != nil {
@@ -66,23 +68,20 @@ func solveRay(g func(m float64) (float64, error)) (float64, error) {
 	if !found {
 		return 0, errors.New("no multiple of the defaults between 2^-20 and 2^20 reaches the target")
 	}
-	glo, err := g(lo)
-	if err != nil {
-		return 0, err
-	}
-	for i := 0; i < 200 && hi-lo > 1e-13*hi; i++ {
-		mid := math.Sqrt(lo * hi)
-		gm, err := g(mid)
+	var gErr error
+	f := func(m float64) float64 {
+		v, err := g(m)
 		if err != nil {
-			return 0, err
+			gErr = err
+			return math.NaN() // stops the search
 		}
-		if math.Signbit(gm) == math.Signbit(glo) {
-			lo, glo = mid, gm
-		} else {
-			hi = mid
-		}
+		return v
 	}
-	return math.Sqrt(lo * hi), nil
+	m, err := root.Find(f, lo, hi, root.Tolerance{Rel: 1e-13})
+	if gErr != nil {
+		return 0, gErr
+	}
+	return m, err
 }
 
 // TuneEfficiency returns the tuning constants at which the family's psi has
@@ -155,22 +154,19 @@ func HuberMinimax(eps float64) (float64, error) {
 		return 2*distuv.UnitNormal.Prob(k)/k - 2*distuv.UnitNormal.CDF(-k) - target
 	}
 	// g decreases from +∞ at k → 0 to 0 at k → ∞.
-	lo, hi := 1e-12, 1.0
+	const lo = 1e-12
+	hi := 1.0
 	for g(hi) > 0 {
 		hi *= 2
 		if hi > 1e3 {
 			return 0, fmt.Errorf("no constant for eps = %v", eps)
 		}
 	}
-	for i := 0; i < 300 && hi-lo > 1e-15*hi; i++ {
-		mid := (lo + hi) / 2
-		if g(mid) > 0 {
-			lo = mid
-		} else {
-			hi = mid
-		}
+	k, err := root.Find(g, lo, hi, root.Tolerance{Rel: 1e-15})
+	if err != nil {
+		return 0, fmt.Errorf("no constant for eps = %v: %w", eps, err)
 	}
-	return (lo + hi) / 2, nil
+	return k, nil
 }
 
 // SweepRow is one row of a tuning sweep.

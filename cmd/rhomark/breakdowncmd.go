@@ -14,11 +14,11 @@ func breakdownCmd(e env, args []string) error {
 	fs := newFlags(e, "breakdown", "SCENARIO [--cell C --replicate R | --data DATA.csv --y COL [--x COLS]] [options]",
 		"Measures the finite-sample replacement breakdown point of each estimator of\nSCENARIO on one dataset: the one replicate R of cell C draws, or your own CSV.\nm observations are replaced by a point moved ever further out, in vertical,\nleverage and random directions; the estimator breaks down at the smallest\nm/n that carries its estimate beyond any bound.")
 	cell := fs.Int("cell", 0, "cell `C` of the scenario whose dataset is used")
-	rep := fs.Int("replicate", 0, "replicate `R` whose dataset is used")
+	rep := addInt(fs.FlagSet, "replicate", 0, "replicate `R` whose dataset is used", atLeast(0), "a replicate number, 0 or more")
 	data := fs.String("data", "", "measure on this CSV `file` instead of a simulated dataset")
 	yCol := fs.String("y", "", "response `column` of --data")
 	xCols := fs.String("x", "", "predictor `columns` of --data (default: every other column holding numbers)")
-	dirs := fs.Int("directions", 6, "random `directions` besides vertical and leverage")
+	dirs := addInt(fs.FlagSet, "directions", 6, "random `directions` besides vertical and leverage", between(0, 1000), "a number of directions from 0 to 1000")
 	seed := addSeedFlag(fs.FlagSet, "seed", "`seed` of the replaced rows, directions and resampling (decimal digits; default 1)")
 	runSeed := addSeedFlag(fs.FlagSet, "run-seed", "the run's root `seed` (decimal digits), if it overrode the scenario's (as replay --seed), to rebuild that run's replicate")
 	asJSON := fs.Bool("json", false, "print JSON")
@@ -29,9 +29,6 @@ func breakdownCmd(e env, args []string) error {
 	}
 	if len(pos) != 1 {
 		return usagef("want one scenario (for its estimators and, without --data, its data), got %d arguments", len(pos))
-	}
-	if *dirs < 0 || *dirs > 1000 {
-		return usagef("--directions must be from 0 to 1000, got %d", *dirs)
 	}
 	st, err := loadScenario(pos[0], lim.limits())
 	if err != nil {
@@ -66,12 +63,11 @@ func breakdownCmd(e env, args []string) error {
 		}
 		source = *data
 	} else {
-		if *rep < 0 {
-			return usagef("--replicate must be ≥ 0")
-		}
-		if x, y, _, err = replicateData(sc, runSeed.or(st.Base.Seed), *rep); err != nil {
+		rp, err := harness.NewReplicator(sc, runSeed.or(st.Base.Seed))
+		if err != nil {
 			return err
 		}
+		x, y = rp.Draw(*rep)
 	}
 	out, err := harness.MeasureBreakdown(x, y, intercept, ests, harness.ReplacementOptions{Directions: *dirs, Seed: seed.or(1)})
 	if err != nil {

@@ -17,10 +17,14 @@ import (
 func compareCmd(e env, args []string) error {
 	fs := newFlags(e, "compare", "BASELINE CANDIDATE [options]",
 		"Compares two runs: results files (NAME.json) or directories of them (paired by\nscenario name). Runs whose scenarios differ only in solver settings (stop rules,\nstart, resampling subsets/keep, irls vs newton) are one study; the settings that\ndiffer are listed. Failures are tested on their own per cell and estimator (exact\ntests, Holm at --failure-level); the other measures through their difference and\ncombined Monte Carlo SE, flagging |z| past --threshold after Holm's correction.\nWhen both runs kept replicates (run --keep-replicates) of the same data and seed,\npaired mode compares every fit replicate by replicate and lists the status\nchanges and the largest moves.\nExit status: 0 nothing flagged, 1 something flagged, 2 bad input.")
-	threshold := fs.Float64("threshold", 4, "flag |z| past this `Z` (sets the family-wise level of Holm's correction)")
-	tol := fs.Float64("tolerance", 1e-9, "paired mode: largest accepted change of an estimate (`T`)")
-	failureLevel := fs.Float64("failure-level", 0.05, "family-wise `level` at which a change of failures is flagged")
-	list := fs.Int("list", 20, "paired mode: list up to `N` status changes and N largest moves (0: none)")
+	threshold := addFloat(fs.FlagSet, "threshold", 4, "flag |z| past this `Z` (sets the family-wise level of Holm's correction)",
+		func(v float64) bool { return v > 0 }, "a positive number, such as 4")
+	tol := addFloat(fs.FlagSet, "tolerance", 1e-9, "paired mode: largest accepted change of an estimate (`T`)",
+		atLeast(0.0), "a non-negative number, such as 1e-9")
+	failureLevel := addFloat(fs.FlagSet, "failure-level", 0.05, "family-wise `level` at which a change of failures is flagged",
+		func(v float64) bool { return v > 0 && v < 1 }, "a level strictly between 0 and 1, such as 0.05")
+	list := addInt(fs.FlagSet, "list", 20, "paired mode: list up to `N` status changes and N largest moves (0: none)",
+		atLeast(0), "a whole number, 0 or more (0: list none)")
 	anyScenario := fs.Bool("any-scenario", false, "compare runs whose scenarios differ in more than solver settings (paired if the data settings and seed agree, else summary mode with cells matched by their settings)")
 	markdown := fs.Bool("markdown", false, "print Markdown (for a code review) instead of the terminal report")
 	asJSON := fs.Bool("json", false, "print the comparison as JSON (a list, one entry per pair of runs) instead of the terminal report")
@@ -31,15 +35,6 @@ func compareCmd(e env, args []string) error {
 	}
 	if len(pos) != 2 {
 		return usagef("want two arguments, BASELINE and CANDIDATE, got %d", len(pos))
-	}
-	if !(*threshold > 0) || !(*tol >= 0) {
-		return usagef("--threshold must be positive and --tolerance non-negative")
-	}
-	if !(*failureLevel > 0 && *failureLevel < 1) {
-		return usagef("--failure-level must be between 0 and 1, got %g", *failureLevel)
-	}
-	if *list < 0 {
-		return usagef("--list must be 0 or more, got %d", *list)
 	}
 	if *markdown && *asJSON {
 		return usagef("--markdown and --json each replace the terminal report; give one")

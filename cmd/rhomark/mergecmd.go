@@ -22,9 +22,6 @@ func mergeCmd(e env, args []string) error {
 	if err != nil {
 		return err
 	}
-	if err := checkTarget(*target); err != nil {
-		return err
-	}
 	if len(pos) == 0 || *out == "" {
 		return usagef("want partial files or directories, and --out")
 	}

@@ -164,12 +164,17 @@ func tuneCmd(e env, args []string) error {
 	fs := newFlags(e, "tune", "--psi FAMILY (--efficiency E | --minimax EPS | --breakdown B | --sweep FROM:TO[:STEPS])",
 		"Solves for tuning constants. --efficiency gives the constant with efficiency E at\nthe normal model (any family, custom included); --minimax gives Huber's minimax\nconstant for the eps-contaminated normal; --breakdown gives the constant whose\nS-scale has breakdown point B; --sweep tabulates efficiency, gross-error\nsensitivity, rejection point and breakdown point over a range of the first\nconstant. Families with several constants keep their default proportions.")
 	pf := addPsiFlags(fs.FlagSet, "huber")
-	effT := fs.Float64("efficiency", 0, "target efficiency `E` at the normal, 0 < E < 1")
-	mm := fs.Float64("minimax", 0, "contamination fraction `EPS` for Huber's minimax constant")
-	bd := fs.Float64("breakdown", 0, "target breakdown point `B` of the S-scale, 0 < B ≤ 0.5")
-	sweep := fs.String("sweep", "", "`FROM:TO[:STEPS]` range of the first constant (default 11 steps)")
+	effT := addFloat(fs.FlagSet, "efficiency", 0, "target efficiency `E` at the normal, 0 < E < 1",
+		func(v float64) bool { return v > 0 && v < 1 }, "a target strictly between 0 and 1, such as 0.95")
+	mm := addFloat(fs.FlagSet, "minimax", 0, "contamination fraction `EPS` for Huber's minimax constant",
+		func(v float64) bool { return v > 0 && v < 1 }, "a contamination fraction strictly between 0 and 1, such as 0.1")
+	bd := addFloat(fs.FlagSet, "breakdown", 0, "target breakdown point `B` of the S-scale, 0 < B ≤ 0.5",
+		func(v float64) bool { return v > 0 && v <= 0.5 }, "a target in (0, 0.5], such as 0.5")
+	var sweep sweepRange
+	fs.Var(&sweep, "sweep", "`FROM:TO[:STEPS]` range of the first constant (default 11 steps)")
 	param := fs.String("param", "", "for --psi-expr with several constants: tune only this `name`")
-	plot := fs.String("plot", "", "with --sweep, also draw the trade-off to this `file` (.svg or .png)")
+	var plot figureFile
+	fs.Var(&plot, "plot", "with --sweep, also draw the trade-off to this `file` (.svg or .png)")
 	asJSON := fs.Bool("json", false, "print JSON")
 	pos, err := parseFlags(fs, args)
 	if err != nil {
@@ -188,13 +193,8 @@ func tuneCmd(e env, args []string) error {
 	if targets != 1 {
 		return usagef("give exactly one of --efficiency, --minimax, --breakdown or --sweep")
 	}
-	if given["plot"] {
-		if !given["sweep"] {
-			return usagef("--plot draws a sweep; give --sweep FROM:TO[:STEPS] with it")
-		}
-		if ext := strings.ToLower(filepath.Ext(*plot)); ext != ".svg" && ext != ".png" {
-			return usagef("--plot %q: want a .svg or .png file", *plot)
-		}
+	if given["plot"] && !given["sweep"] {
+		return usagef("--plot draws a sweep; give --sweep FROM:TO[:STEPS] with it")
 	}
 	ch, err := pf.build(given)
 	if err != nil {
@@ -223,7 +223,7 @@ func tuneCmd(e env, args []string) error {
 	res.Psi, res.Params = ch.name, fam.Params
 	switch {
 	case given["sweep"]:
-		return tuneSweep(e, fam, ch, *sweep, *asJSON, *plot)
+		return tuneSweep(e, fam, ch, sweep, *asJSON, string(plot))
 	case given["minimax"]:
 		if ch.name != "huber" {
 			return usagef("--minimax is Huber's minimax problem; use --psi huber")
@@ -234,18 +234,12 @@ func tuneCmd(e env, args []string) error {
 		}
 		res.Target, res.Value, res.Tuning = "minimax", *mm, []float64{k}
 	case given["efficiency"]:
-		if !(*effT > 0 && *effT < 1) {
-			return usagef("--efficiency %v: want a target strictly between 0 and 1, such as 0.95", *effT)
-		}
 		t, err := fam.TuneEfficiency(*effT)
 		if err != nil {
 			return err
 		}
 		res.Target, res.Value, res.Tuning = "efficiency", *effT, t
 	case given["breakdown"]:
-		if !(*bd > 0 && *bd <= 0.5) {
-			return usagef("--breakdown %v: want a target in (0, 0.5], such as 0.5", *bd)
-		}
 		t, err := fam.TuneBreakdown(*bd)
 		if err != nil {
 			return err
@@ -278,26 +272,8 @@ func tuneCmd(e env, args []string) error {
 }
 
 // tuneSweep prints the trade-off table over a range of the first constant.
-func tuneSweep(e env, fam psi.Family, ch choice, spec string, asJSON bool, plot string) error {
-	parts := strings.Split(spec, ":")
-	if len(parts) < 2 || len(parts) > 3 {
-		return usagef("--sweep %q: want FROM:TO or FROM:TO:STEPS", spec)
-	}
-	lo, err1 := strconv.ParseFloat(parts[0], 64)
-	hi, err2 := strconv.ParseFloat(parts[1], 64)
-	steps := 11
-	var err3 error
-	if len(parts) == 3 {
-		steps, err3 = strconv.Atoi(parts[2])
-	}
-	if err1 != nil || err2 != nil || err3 != nil {
-		return usagef("--sweep %q: FROM and TO must be numbers and STEPS a whole number", spec)
-	}
-	const maxSteps = 1000
-	if steps < 2 || steps > maxSteps {
-		return usagef("--sweep %q: STEPS must be from 2 to %d", spec, maxSteps)
-	}
-	rows, err := fam.Sweep(lo, hi, steps)
+func tuneSweep(e env, fam psi.Family, ch choice, sweep sweepRange, asJSON bool, plot string) error {
+	rows, err := fam.Sweep(sweep.from, sweep.to, sweep.steps)
 	if err != nil {
 		return usageError{err}
 	}

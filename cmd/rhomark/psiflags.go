@@ -14,9 +14,10 @@ import (
 // and check-psi: a built-in family with --psi and --tuning, or a psi of the
 // user's own with --psi-expr and its companions.
 type psiFlags struct {
-	family, tuning          string
-	expr, rho, deriv, kinks string
-	consts                  constFlag
+	family           familyName
+	tuning, kinks    numberList
+	expr, rho, deriv string
+	consts           constFlag
 }
 
 // constFlag collects repeated --const name=value options.
@@ -47,14 +48,14 @@ func psiFlagNames() []string {
 }
 
 func addPsiFlags(fs *flag.FlagSet, defaultFamily string) *psiFlags {
-	p := &psiFlags{}
-	fs.StringVar(&p.family, "psi", defaultFamily, "psi `family`: "+strings.Join(psi.FamilyNames(), ", "))
-	fs.StringVar(&p.tuning, "tuning", "", "tuning constant(s) `C`, comma-separated (default: the family's)")
+	p := &psiFlags{family: familyName(defaultFamily)}
+	fs.Var(&p.family, "psi", "psi `family`: "+strings.Join(psi.FamilyNames(), ", "))
+	fs.Var(&p.tuning, "tuning", "tuning constant(s) `C`, comma-separated (default: the family's)")
 	fs.StringVar(&p.expr, "psi-expr", "", "a psi of your own: an `expression` in r, e.g. 'r / (1 + abs(r)/c)'")
 	fs.StringVar(&p.rho, "rho-expr", "", "rho of --psi-expr (`expression`; default: the integral of psi)")
 	fs.StringVar(&p.deriv, "deriv-expr", "", "psi' of --psi-expr (`expression`; default: numerical)")
 	fs.Var(&p.consts, "const", "a constant of --psi-expr, `name=value` (repeat for several)")
-	fs.StringVar(&p.kinks, "kinks", "", "break `points` of --psi-expr for quadrature, comma-separated")
+	fs.Var(&p.kinks, "kinks", "break `points` of --psi-expr for quadrature, comma-separated")
 	return p
 }
 
@@ -74,12 +75,8 @@ func (p *psiFlags) build(given map[string]bool) (choice, error) {
 			return choice{}, usagef("--psi-expr replaces --psi and --tuning; give constants with --const")
 		}
 		spec := psi.CustomSpec{Psi: p.expr, Rho: p.rho, Deriv: p.deriv, Constants: p.consts}
-		if p.kinks != "" {
-			ks, err := parseList(p.kinks)
-			if err != nil {
-				return choice{}, usagef("--kinks: %v", err)
-			}
-			spec.Kinks = ks
+		if len(p.kinks) > 0 {
+			spec.Kinks = p.kinks
 		}
 		c, err := psi.NewCustom(spec)
 		if err != nil {
@@ -97,17 +94,11 @@ func (p *psiFlags) build(given map[string]bool) (choice, error) {
 			return choice{}, usagef("--%s goes with --psi-expr", f)
 		}
 	}
-	fam, ok := psi.LookupFamily(p.family)
+	fam, ok := psi.LookupFamily(string(p.family))
 	if !ok {
 		return choice{}, usagef("--psi %q: unknown family; valid: %s (or --psi-expr for your own)", p.family, strings.Join(psi.FamilyNames(), ", "))
 	}
-	var tc []float64
-	if p.tuning != "" {
-		var err error
-		if tc, err = parseList(p.tuning); err != nil {
-			return choice{}, usagef("--tuning: %v", err)
-		}
-	}
+	tc := []float64(p.tuning)
 	psi, err := fam.New(tc)
 	if err != nil {
 		return choice{}, usageError{err}
@@ -120,19 +111,6 @@ func (p *psiFlags) build(given map[string]bool) (choice, error) {
 		desc += fmt.Sprintf(" %s = %s", n, constText(tc[i]))
 	}
 	return choice{psi: psi, family: fam, name: fam.Name, tuning: tc, desc: desc}, nil
-}
-
-// parseList parses comma-separated numbers.
-func parseList(s string) ([]float64, error) {
-	var out []float64
-	for _, part := range strings.Split(s, ",") {
-		v, err := strconv.ParseFloat(strings.TrimSpace(part), 64)
-		if err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
-			return nil, fmt.Errorf("%q is not a finite number", part)
-		}
-		out = append(out, v)
-	}
-	return out, nil
 }
 
 // givenFlags returns the names of the flags set on the command line.

@@ -3,9 +3,7 @@ package main
 import (
 	"bytes"
 	"encoding/csv"
-	"errors"
 	"fmt"
-	"math/rand/v2"
 	"slices"
 	"strconv"
 	"strings"
@@ -49,7 +47,7 @@ func replayCmd(e env, args []string) error {
 	fs := newFlags(e, "replay", "SCENARIO --cell C --replicate R [--estimator LABEL] [options]",
 		"Regenerates exactly the dataset that replicate R of cell C saw, writes it as\nCSV (usable with rhomark fit), and refits the estimators with the same random\nstreams, printing the solver's trace: per iteration the coefficients, scale,\nobjective, estimating-equation norm, step length, safeguards fired and the\nsmallest and largest weight.")
 	cell := fs.Int("cell", 0, "cell `C`")
-	rep := fs.Int("replicate", 0, "replicate `R`")
+	rep := addInt(fs.FlagSet, "replicate", 0, "replicate `R`", atLeast(0), "a replicate number, 0 or more")
 	label := fs.String("estimator", "", "replay only the estimator with this `label`")
 	dataOut := fs.String("data-out", "", "write the dataset to this CSV `file` (default NAME-cC-rR.csv; with --json, only when given)")
 	seedFlag := addSeedFlag(fs.FlagSet, "seed", "the run's root `seed` (decimal digits), if it overrode the scenario's")
@@ -69,9 +67,6 @@ func replayCmd(e env, args []string) error {
 	if *cell < 0 || *cell >= len(st.Cells) {
 		return usagef("--cell %d: the scenario has cells 0 to %d", *cell, len(st.Cells)-1)
 	}
-	if *rep < 0 {
-		return usagef("--replicate must be ≥ 0")
-	}
 	seed := st.Base.Seed
 	if s, ok := seedFlag.get(); ok {
 		seed = s
@@ -82,10 +77,11 @@ func replayCmd(e env, args []string) error {
 		// at its own replicate count fitted it; say so, then go on.
 		fmt.Fprintf(e.stderr, "rhomark replay: note: replicate %d is beyond the scenario's %d replicates (0 to %d); a run with --replicates larger than %d would have fitted it\n", *rep, sc.Replicates, sc.Replicates-1, *rep)
 	}
-	x, y, dataKey, err := replicateData(sc, seed, *rep)
+	rp, err := harness.NewReplicator(sc, seed)
 	if err != nil {
 		return err
 	}
+	x, y := rp.Draw(*rep)
 
 	if *label != "" && !slices.ContainsFunc(sc.Estimators, func(s scenarios.EstimatorSpec) bool { return s.Label == *label }) {
 		var labels []string
@@ -122,11 +118,10 @@ func replayCmd(e env, args []string) error {
 		}
 		var ws estimators.Workspace
 		var res estimators.Result
-		// The same stream the run gave this estimator for this replicate.
-		ws.SeedRandom(harness.EstimatorStream(seed, dataKey, *rep, harness.EstimatorKey(spec.Label)))
-		if err := est.Fit(x, y, &ws, &res); err != nil && !errors.Is(err, estimators.ErrNonFinite) {
+		// The same dataset and stream the run gave this estimator.
+		if err := rp.Fit(spec.Label, &est, &ws, &res); err != nil {
 			return fmt.Errorf("estimator %s: %w", spec.Label, err)
-		} // an overflowed dataset is a NonFinite outcome, as in the run
+		}
 		f.Status, f.Iterations, f.Scale, f.Coefficients = res.Status.String(), res.Iterations, res.Scale, append([]float64(nil), res.Coefficients...)
 		fits = append(fits, f)
 	}
@@ -169,21 +164,6 @@ func replayCmd(e env, args []string) error {
 		fmt.Fprintf(w, "   final β = %s\n", coefText(names, f.Coefficients))
 	}
 	return nil
-}
-
-// replicateData regenerates the dataset of replicate rep of a cell whose
-// scenario is sc, from the same stream the run drew it from, and returns
-// the cell's data key (for the estimators' streams).
-func replicateData(sc *scenarios.Scenario, seed uint64, rep int) (*mat.Dense, []float64, uint64, error) {
-	g, err := scenarios.NewGenerator(sc)
-	if err != nil {
-		return nil, nil, 0, err
-	}
-	n, p := g.Dims()
-	x, y := mat.NewDense(n, p, nil), make([]float64, n)
-	key := harness.DataKey(g)
-	g.Draw(rand.NewPCG(harness.ReplicateStream(seed, key, rep)), x, y, g.NewScratch())
-	return x, y, key, nil
 }
 
 // coefText formats named coefficients on one line.

@@ -26,40 +26,33 @@ func runCmd(e env, args []string) error {
 	fs := newFlags(e, "run", "SCENARIO [options] | --resume DIR [options]",
 		"Runs a scenario: SCENARIO is a YAML file, or the name of a shipped scenario\n(see 'rhomark scenarios'). Prints a summary table unless --json is given.\nWith --out, finished work is checkpointed to DIR/NAME.checkpoint, and an\ninterrupted run continues with --resume DIR. With --shard I/M (or --shards M\nunder a Slurm job array or a Kubernetes indexed job) it runs one share of the\nwork into DIR/NAME.shard-I-of-M.partial, for rhomark merge.")
 	out := fs.String("out", "", "write NAME.json, NAME.csv and NAME.txt into this `directory`")
-	reps := fs.Int("replicates", 0, "replicates per cell (`N`; default: the scenario's)")
+	reps := addInt(fs.FlagSet, "replicates", 0, "replicates per cell (`N`; default: the scenario's)", atLeast(0),
+		"a whole number of replicates per cell, 1 or more (0: the scenario's)")
 	seed := addSeedFlag(fs.FlagSet, "seed", "root seed (`S`, decimal digits; default: the scenario's)")
-	workers := fs.Int("workers", 0, "parallel workers (`W`; default: all cores)")
+	workers := addInt(fs.FlagSet, "workers", 0, "parallel workers (`W`; default: all cores)", between(0, maxWorkers),
+		fmt.Sprintf("a number of workers from 1 to %d (or 0: one per core)", maxWorkers))
 	asJSON := fs.Bool("json", false, "print the results as JSON instead of the table")
 	report := fs.Bool("report", false, "with --out, also write NAME.html (a self-contained report), NAME.md and the figures")
 	quiet := fs.Bool("quiet", false, "do not draw the progress bar (it is drawn only when stderr is a terminal)")
 	keep := fs.Bool("keep-replicates", false, "with --out, also keep every replicate's estimates, iterations and status in NAME.replicates (for paired comparisons)")
 	resume := fs.String("resume", "", "continue the interrupted run whose checkpoint is in this `directory`")
-	every := fs.Duration("checkpoint-every", 30*time.Second, "with --out, checkpoint finished work this often (`interval`; 0: only at the end)")
-	shardFlag := fs.String("shard", "", "run only share `I/M` of the work (0 ≤ I < M)")
-	shards := fs.Int("shards", 0, "split the work into `M` shares, the index taken from SLURM_ARRAY_TASK_ID or JOB_COMPLETION_INDEX")
+	every := addDuration(fs.FlagSet, "checkpoint-every", 30*time.Second, "with --out, checkpoint finished work this often (`interval`; 0: only at the end)",
+		func(d time.Duration) bool { return d >= 0 }, "an interval of 0 or more, such as 30s or 5m (0: only at the end)")
+	var shard shardFlag
+	fs.Var(&shard, "shard", "run only share `I/M` of the work (0 ≤ I < M)")
+	shards := addInt(fs.FlagSet, "shards", 0, "split the work into `M` shares, the index taken from SLURM_ARRAY_TASK_ID or JOB_COMPLETION_INDEX",
+		between(0, maxShards), fmt.Sprintf("a number of shares from 1 to %d", maxShards))
 	lim := addLimitFlags(fs.FlagSet)
 	target := addTargetFlag(fs.FlagSet)
 	pos, err := parseFlags(fs, args)
 	if err != nil {
 		return err
 	}
-	if err := checkTarget(*target); err != nil {
-		return err
-	}
-	if *reps < 0 {
-		return usagef("--replicates must be positive, got %d", *reps)
-	}
-	if *workers < 0 || *workers > maxWorkers {
-		return usagef("--workers must be from 1 to %d (or 0: one per core), got %d", maxWorkers, *workers)
-	}
-	if *every < 0 {
-		return usagef("--checkpoint-every must not be negative")
-	}
 	opt := harness.Options{Replicates: *reps, Workers: *workers, Tool: results.Tool{Name: "rhomark", Version: toolVersion()}}
 	if s, ok := seed.get(); ok {
 		opt.Seed = &s
 	}
-	if opt.Shard, opt.Shards, err = shardOf(*shardFlag, *shards, os.Getenv); err != nil {
+	if opt.Shard, opt.Shards, err = shardOf(shard, *shards, os.Getenv); err != nil {
 		return err
 	}
 	if *keep && (*out == "" || *resume != "" || opt.Shards > 0) {
@@ -387,22 +380,15 @@ func findCheckpoint(dir string, shard, shards int) (*harness.Partial, error) {
 // shardOf resolves the shard options: --shard I/M, or --shards M with the
 // index from a Slurm job array (SLURM_ARRAY_TASK_ID) or a Kubernetes indexed
 // job (JOB_COMPLETION_INDEX).
-func shardOf(flagValue string, shards int, getenv func(string) string) (int, int, error) {
-	if flagValue != "" {
-		var i, m int
-		if _, err := fmt.Sscanf(flagValue, "%d/%d", &i, &m); err != nil || m < 1 || i < 0 || i >= m || fmt.Sprintf("%d/%d", i, m) != flagValue {
-			return 0, 0, usagef("--shard %q: want I/M with 0 ≤ I < M, for example 2/8", flagValue)
+func shardOf(shard shardFlag, shards int, getenv func(string) string) (int, int, error) {
+	if shard.set {
+		if shards != 0 && shards != shard.m {
+			return 0, 0, usagef("--shard %s and --shards %d disagree", shard.String(), shards)
 		}
-		if shards != 0 && shards != m {
-			return 0, 0, usagef("--shard %s and --shards %d disagree", flagValue, shards)
-		}
-		return i, m, nil
+		return shard.i, shard.m, nil
 	}
 	if shards == 0 {
 		return 0, 0, nil
-	}
-	if shards < 1 || shards > 1_000_000 {
-		return 0, 0, usagef("--shards must be from 1 to 1000000, got %d", shards)
 	}
 	for _, name := range []string{"SLURM_ARRAY_TASK_ID", "JOB_COMPLETION_INDEX"} {
 		if v := getenv(name); v != "" {
@@ -415,6 +401,9 @@ func shardOf(flagValue string, shards int, getenv func(string) string) (int, int
 	}
 	return 0, 0, usagef("--shards %d needs the shard index: give --shard I/%d, or run inside a Slurm job array (SLURM_ARRAY_TASK_ID) or a Kubernetes indexed job (JOB_COMPLETION_INDEX)", shards, shards)
 }
+
+// maxShards bounds --shards.
+const maxShards = 1_000_000
 
 // limitFlags are the options that raise the resource limits.
 type limitFlags struct {

@@ -2,7 +2,6 @@ package main
 
 import (
 	"flag"
-	"math"
 
 	"github.com/rhomark/rhomark/results"
 )
@@ -10,16 +9,10 @@ import (
 // addTargetFlag adds --target-efficiency, the efficiency on clean data a
 // tuning study's target pick must reach.
 func addTargetFlag(fs *flag.FlagSet) *float64 {
-	return fs.Float64("target-efficiency", results.DefaultTargetEfficiency,
-		"tuning studies: name the smallest swept constant whose efficiency on clean data reaches `E` (0 < E ≤ 1)")
-}
-
-// checkTarget refuses a target efficiency outside (0, 1].
-func checkTarget(e float64) error {
-	if !(e > 0 && e <= 1) || math.IsNaN(e) {
-		return usagef("--target-efficiency must be a number above 0 and at most 1 (0.95 is 95%% of the reference's efficiency), got %v", e)
-	}
-	return nil
+	return addFloat(fs, "target-efficiency", results.DefaultTargetEfficiency,
+		"tuning studies: name the smallest swept constant whose efficiency on clean data reaches `E` (0 < E ≤ 1)",
+		func(e float64) bool { return e > 0 && e <= 1 },
+		"a number above 0 and at most 1 (0.95 is 95% of the reference's efficiency)")
 }
 
 // flagGiven reports whether the flag called name was set on the command line.

@@ -93,7 +93,7 @@ func TestTuningStudyEndToEnd(t *testing.T) {
 		}
 	}
 	for _, bad := range []string{"0", "1.5", "-0.2", "NaN"} {
-		if code, _, errs := rhomark(t, "run", "tuning-huber", "--target-efficiency", bad); code != exitUsage || !strings.Contains(errs, "--target-efficiency must be") {
+		if code, _, errs := rhomark(t, "run", "tuning-huber", "--target-efficiency", bad); code != exitUsage || !strings.Contains(errs, "flag --target-efficiency: want a number above 0 and at most 1") {
 			t.Errorf("--target-efficiency %s: exit %d, %q", bad, code, errs)
 		}
 	}
