@@ -298,3 +298,76 @@ func TestAuditNoAllocs(t *testing.T) {
 		t.Errorf("%v allocations per audited fit", a)
 	}
 }
+
+// TestAuditKinds checks what is audited for fits that end otherwise than
+// by a stopping rule, and the errors for misuse.
+func TestAuditKinds(t *testing.T) {
+	x, y := auditData(100, 9)
+	// y on an exact line through small integers.
+	xl := mat.NewDense(12, 2, nil)
+	line := make([]float64, 12)
+	for i := range line {
+		xl.SetRow(i, []float64{1, float64(i)})
+		line[i] = 3 + 2*float64(i)
+	}
+	bisquare := estimators.Estimator{
+		Method: estimators.MethodIRLS,
+		Psi:    psi.Bisquare{C: 4.685},
+		// A scale so small beside the noise that the least-squares start
+		// leaves every residual beyond c: no weights.
+		Scale: estimators.Scale{Rule: estimators.ScaleFixed, Value: 1e-3},
+	}
+	tests := []struct {
+		name   string
+		e      estimators.Estimator
+		x      *mat.Dense
+		y      []float64
+		status estimators.Status // NotRun: any failure
+		kind   estimators.AuditKind
+	}{
+		{"no-weights", bisquare, x, y, estimators.NotRun, estimators.AuditFailedFit},
+		{"exact-fit", func() estimators.Estimator {
+			e := huberAt(1e-8)
+			e.Start = []float64{3, 2} // on the line, so no rounding either
+			return e
+		}(), xl, line, estimators.ExactFit, estimators.AuditDirect},
+		{"iteration-limit", estimators.Estimator{
+			Method:   estimators.MethodIRLS,
+			Psi:      psi.Huber{K: 1.345},
+			Settings: estimators.Settings{ChangeTol: 1e-12, MaxIterations: 2},
+		}, x, y, estimators.IterationLimit, estimators.AuditIterative},
+	}
+	var aw estimators.AuditWorkspace
+	for _, tt := range tests {
+		t.Run(tt.name, func(t *testing.T) {
+			res, out := auditFit(t, &aw, tt.e, tt.x, tt.y)
+			failed := !res.Status.Converged() && res.Status != estimators.IterationLimit
+			if tt.status == estimators.NotRun && failed {
+				tt.status = res.Status
+			}
+			if res.Status != tt.status || out.Kind != tt.kind || out.Fit != tt.status {
+				t.Fatalf("fit %v, audit %v of %v; want %v, %v", res.Status, out.Kind, out.Fit, tt.status, tt.kind)
+			}
+			switch tt.kind {
+			case estimators.AuditDirect:
+				if out.MaxErrorSE != 0 {
+					t.Errorf("direct: error %g SE", out.MaxErrorSE)
+				}
+			case estimators.AuditFailedFit:
+				if !math.IsNaN(out.MaxErrorSE) || out.End != estimators.ContinuationNone {
+					t.Errorf("failed fit: error %g SE, continuation %v", out.MaxErrorSE, out.End)
+				}
+			case estimators.AuditIterative:
+				// Two IRLS steps from least squares are far from converged.
+				if !(out.MaxErrorSE > 0.01) {
+					t.Errorf("capped fit: error %g SE", out.MaxErrorSE)
+				}
+			}
+		})
+	}
+	var res estimators.Result
+	var out estimators.Audit
+	if err := aw.Audit(huberAt(1e-8), x, y, &res, &out); err == nil {
+		t.Error("no error for a result of another shape")
+	}
+}
