@@ -134,9 +134,12 @@ func (c ContinuationEnd) String() string {
 type SEReason uint8
 
 const (
+	// SENotComputed: no standard errors were needed (a direct method,
+	// whose error is 0) or the fit was not audited; the zero value.
+	SENotComputed SEReason = iota
 	// SEDefined: Workspace.StandardErrors gave the standard errors at the
 	// fixed point.
-	SEDefined SEReason = iota
+	SEDefined
 	// SENoDegreesOfFreedom: n = p, so no residual variance is left.
 	SENoDegreesOfFreedom
 	// SEPsiJumps: psi is discontinuous, so the sandwich's mean ψ' misses
@@ -150,10 +153,12 @@ const (
 	SENoFixedPoint
 )
 
-// String returns "defined", "no-degrees-of-freedom", "psi-jumps",
-// "no-curvature" or "no-fixed-point".
+// String returns "not-computed", "defined", "no-degrees-of-freedom",
+// "psi-jumps", "no-curvature" or "no-fixed-point".
 func (r SEReason) String() string {
 	switch r {
+	case SENotComputed:
+		return "not-computed"
 	case SEDefined:
 		return "defined"
 	case SENoDegreesOfFreedom:
@@ -228,6 +233,10 @@ type Rate struct {
 	// Used is the number of ratios (IRLS) or pairs (Newton) available to
 	// the estimate.
 	Used int
+	// Change is the relative change Δ_k where the rate was read: the
+	// first change of the tail (IRLS) or of the pair used (Newton), which
+	// bounds the bias log C / log Δ_k of the order.
+	Change float64
 }
 
 // ToleranceRow is one row of an audit's tolerance table: what a change
@@ -478,7 +487,6 @@ func (a *AuditWorkspace) reset(out *Audit, p int, fit Status) {
 		SE:         auditResize(se, p),
 		ErrorSE:    auditResize(errSE, p),
 		MaxErrorSE: math.NaN(),
-		SEReason:   SENoFixedPoint,
 		Rate:       Rate{Value: math.NaN()},
 	}
 	for _, s := range [][]float64{out.Fixed, out.Error, out.SE, out.ErrorSE} {
@@ -537,6 +545,7 @@ func (a *AuditWorkspace) continueFit(c Estimator, x *mat.Dense, y []float64, res
 		break
 	}
 	if out.End == ContinuationFailed {
+		out.SEReason = SENoFixedPoint
 		return nil
 	}
 	// The precision limit: the wobble of the steps since the smallest
@@ -644,6 +653,7 @@ func (a *AuditWorkspace) rate(newton bool) Rate {
 			}
 			r.Used++
 			r.Value = math.Log(a.changes[k+1]) / math.Log(a.changes[k])
+			r.Change = a.changes[k]
 		}
 		if r.Used == 0 {
 			r.Kind = RateNone
@@ -651,6 +661,7 @@ func (a *AuditWorkspace) rate(newton bool) Rate {
 		return r
 	}
 	a.ratios = a.ratios[:0]
+	first := math.NaN() // Δ_k of the first ratio of the tail
 	for k := 0; k+1 < len(a.changes); k++ {
 		if used(k) && used(k+1) {
 			a.ratios = append(a.ratios, a.changes[k+1]/a.changes[k])
@@ -660,6 +671,15 @@ func (a *AuditWorkspace) rate(newton bool) Rate {
 	if m == 0 {
 		return Rate{Value: math.NaN()}
 	}
+	for k, i := 0, 0; k+1 < len(a.changes); k++ {
+		if used(k) && used(k+1) {
+			if i == m/2 {
+				first = a.changes[k]
+				break
+			}
+			i++
+		}
+	}
 	tail := a.ratios[m/2:]
 	slices.Sort(tail)
 	h := len(tail)
@@ -667,5 +687,5 @@ func (a *AuditWorkspace) rate(newton bool) Rate {
 	if h%2 == 0 {
 		med = (tail[h/2-1] + tail[h/2]) / 2
 	}
-	return Rate{Kind: RateLinear, Value: med, Used: m}
+	return Rate{Kind: RateLinear, Value: med, Used: m, Change: first}
 }
