@@ -22,9 +22,10 @@ import (
 const NumAuditTolerances = 13
 
 // AuditTolerance returns the i-th change tolerance of the audit table,
-// 10^-(i+2), for 0 ≤ i < NumAuditTolerances.
+// 10^-(i+2) as the float64 literal of that power (1e-3 for i = 1), for
+// 0 ≤ i < NumAuditTolerances.
 func AuditTolerance(i int) float64 {
-	return math.Pow(10, -float64(i+2))
+	return [NumAuditTolerances]float64{1e-2, 1e-3, 1e-4, 1e-5, 1e-6, 1e-7, 1e-8, 1e-9, 1e-10, 1e-11, 1e-12, 1e-13, 1e-14}[i]
 }
 
 // Constants of the continuation and of the rate rule.
@@ -422,8 +423,10 @@ func continuation(e Estimator, res *Result) Estimator {
 // outcome to out (reusing its slices).
 //
 // An iterative fit (IRLS, Newton, MM's M-step) is continued from
-// res.Coefficients with the same method, psi, scale rule and data, the
-// change tolerance at zero and the equation tolerance at AuditEquationTol,
+// res.Coefficients with the same method, psi, scale rule and data, a change
+// tolerance of the smallest positive float64 (only a step that changes
+// nothing meets it; zero would mean the default) and the equation
+// tolerance AuditEquationTol, in rounds of a few iterations,
 // until a step changes nothing, the equations hold to that tolerance, the
 // change stops decreasing (AuditStallWindow) or MaxIterations is reached.
 // Its last iterate is the fixed point β*; out.Error is |β − β*| and
