@@ -206,7 +206,9 @@ func (k RateKind) String() string {
 //
 // Steps used: the first RateSkip steps of the fit are left out, and so is
 // every step with Δ_k < RateFloor (and for Newton every step that halved or
-// fell back to IRLS, which is not a Newton step).
+// fell back to IRLS, which is not a Newton step). When the fit was not
+// traced only the continuation's steps are known, and none is skipped:
+// they follow a fit that already stopped.
 //
 // For IRLS (and MM's M-step) Value is the median of Δ_{k+1}/Δ_k over the
 // later half of the consecutive pairs of used steps: near the fixed point
