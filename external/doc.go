@@ -76,8 +76,11 @@
 //
 // FitBatch writes a batch of requests before it reads the replies, so that
 // the program works while rhomark waits; a program that reads one line,
-// answers it and flushes needs nothing special for this. Writing happens
-// on its own goroutine, so neither side blocks on a full pipe.
+// answers it and flushes needs nothing special for this. Requests are
+// encoded and written on a goroutine of their own, in pieces of about
+// 32 KiB, while the replies are read: neither side blocks on a full pipe,
+// and the program starts on the first request while later ones are still
+// being encoded.
 //
 // # Failures
 //

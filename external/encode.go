@@ -39,8 +39,26 @@ func (req *Request) check() string {
 		return fmt.Sprintf("%d responses for a design of %d rows", len(req.Y), n)
 	case len(req.Names) != p:
 		return fmt.Sprintf("%d names for a design of %d columns", len(req.Names), p)
+	case !finite(req.Y):
+		return "a response is not finite"
+	}
+	raw := req.X.RawMatrix()
+	for i := 0; i < raw.Rows; i++ {
+		if !finite(raw.Data[i*raw.Stride : i*raw.Stride+raw.Cols]) {
+			return fmt.Sprintf("row %d of the design is not finite", i+1)
+		}
 	}
 	return ""
+}
+
+// finite reports whether every value of v is finite.
+func finite(v []float64) bool {
+	for _, f := range v {
+		if math.IsNaN(f) || math.IsInf(f, 0) {
+			return false
+		}
+	}
+	return true
 }
 
 // appendRequest appends req as one line of JSON (see the package

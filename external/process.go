@@ -84,7 +84,7 @@ type Process struct {
 	stderrMu sync.Mutex // serialises the Processes' writes to cmd.Stderr
 	stderrWG sync.WaitGroup
 
-	wbuf   []byte  // encoded requests
+	wbuf   []byte  // encoded requests, the writer goroutine's during a batch
 	line   []byte  // a reply line that crossed the reader's buffer
 	sent   []int   // indices of the requests written, in order
 	wire   wire    // the decoded reply
@@ -97,8 +97,8 @@ type incarnation struct {
 	stdin     *os.File // our end of its standard input
 	stdout    *os.File // our end of its standard output
 	reader    *bufio.Reader
-	writeCh   chan []byte // requests for the writer goroutine
-	writeDone chan error  // the writer goroutine's result, one per request
+	writeCh   chan writeJob // batches for the writer goroutine
+	writeDone chan error    // the writer goroutine's result, one per batch
 	exited    chan struct{}
 	waitErr   error // cmd.Wait's result, set before exited is closed
 	stopOnce  sync.Once
@@ -202,7 +202,7 @@ func (p *Process) launch() (*incarnation, error) {
 		stdin:     inW,
 		stdout:    outR,
 		reader:    bufio.NewReaderSize(outR, 64<<10),
-		writeCh:   make(chan []byte),
+		writeCh:   make(chan writeJob),
 		writeDone: make(chan error, 1),
 		exited:    make(chan struct{}),
 	}
@@ -210,12 +210,7 @@ func (p *Process) launch() (*incarnation, error) {
 		inc.waitErr = c.Wait()
 		close(inc.exited)
 	}()
-	go func() {
-		for b := range inc.writeCh {
-			_, err := inc.stdin.Write(b)
-			inc.writeDone <- err
-		}
-	}()
+	go inc.writer()
 	p.stderrWG.Add(1)
 	go func() {
 		defer p.stderrWG.Done()
@@ -223,6 +218,42 @@ func (p *Process) launch() (*incarnation, error) {
 		errR.Close()
 	}()
 	return inc, nil
+}
+
+// writeJob is a batch for the writer goroutine: the requests reqs[i] for
+// i in sent, to be encoded into *buf and written in that order.
+type writeJob struct {
+	reqs []Request
+	sent []int
+	buf  *[]byte
+}
+
+// flushBytes is the amount of encoded requests the writer goroutine
+// gathers before it writes them, so that the program can start on the
+// first requests of a batch while the later ones are encoded.
+const flushBytes = 32 << 10
+
+// writer encodes and writes each batch it is given, then reports the
+// first write error (or nil) on writeDone. It ends when writeCh is closed.
+func (inc *incarnation) writer() {
+	for job := range inc.writeCh {
+		b := (*job.buf)[:0]
+		var err error
+		for _, i := range job.sent {
+			b, _ = appendRequest(b, &job.reqs[i]) // checked before
+			if len(b) >= flushBytes {
+				if _, err = inc.stdin.Write(b); err != nil {
+					break
+				}
+				b = b[:0]
+			}
+		}
+		if err == nil && len(b) > 0 {
+			_, err = inc.stdin.Write(b)
+		}
+		*job.buf = b
+		inc.writeDone <- err
+	}
 }
 
 // stop ends an incarnation: by killing it, or (graceful) by closing its
@@ -304,11 +335,9 @@ func (p *Process) FitBatch(reqs []Request, out []Reply) {
 // do: len(reqs), or the one after a failure that stopped the program.
 func (p *Process) round(reqs []Request, out []Reply, next int) int {
 	inc := p.inc
-	p.wbuf, p.sent = p.wbuf[:0], p.sent[:0]
+	p.sent = p.sent[:0]
 	for i := next; i < len(reqs); i++ {
-		var msg string
-		p.wbuf, msg = appendRequest(p.wbuf, &reqs[i])
-		if msg != "" {
+		if msg := reqs[i].check(); msg != "" {
 			p.failed(&reqs[i], &out[i], BadRequest, msg, nil)
 			continue
 		}
@@ -317,7 +346,10 @@ func (p *Process) round(reqs []Request, out []Reply, next int) int {
 	if len(p.sent) == 0 {
 		return len(reqs)
 	}
-	inc.writeCh <- p.wbuf
+	// The writer encodes and writes while we read the replies, so
+	// neither side waits on a full pipe and the program starts on the
+	// first request as soon as it is encoded.
+	inc.writeCh <- writeJob{reqs: reqs, sent: p.sent, buf: &p.wbuf}
 	for _, i := range p.sent {
 		st := p.receive(inc, &reqs[i], &out[i])
 		if st.restarts() {
