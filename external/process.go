@@ -305,7 +305,8 @@ func (p *Process) Fit(req Request) Reply {
 // ends only its own fit: when the program has to be restarted (BadReply,
 // Timeout, Exited) the requests after the failed one are sent again to
 // the new program. After the first fits, FitBatch allocates nothing
-// unless a fit fails.
+// unless a fit fails. It panics if out is shorter than reqs, a mistake of
+// the caller's.
 func (p *Process) FitBatch(reqs []Request, out []Reply) {
 	if len(out) < len(reqs) {
 		panic(fmt.Sprintf("external: FitBatch with %d replies for %d requests", len(out), len(reqs)))

@@ -4,6 +4,7 @@ import (
 	"errors"
 	"math"
 	"math/rand/v2"
+	"os"
 	"path/filepath"
 	"strings"
 	"testing"
@@ -214,6 +215,37 @@ func TestProgramThatCannotRun(t *testing.T) {
 	}
 	if !strings.Contains(stderr.String(), "[fake] cannot load the meter model\n") {
 		t.Errorf("standard error %q lacks the program's message", stderr.String())
+	}
+}
+
+func TestRestartThatFails(t *testing.T) {
+	dir := filepath.Join(t.TempDir(), "bench")
+	if err := os.Mkdir(dir, 0o755); err != nil {
+		t.Fatal(err)
+	}
+	cmd := fakeCommand(t, "exit", 1, time.Minute)
+	cmd.Dir = dir
+	p, err := Start(cmd)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer p.Close()
+	// The running program keeps its directory; a new one cannot start.
+	if err := os.Remove(dir); err != nil {
+		t.Fatal(err)
+	}
+	reqs := requests(4, 3, 2)
+	out := make([]Reply, len(reqs))
+	p.FitBatch(reqs, out)
+	checkEcho(t, reqs[0], out[0])
+	if out[1].Status != Exited {
+		t.Errorf("replicate 1: %v, want exited", out[1].Status)
+	}
+	for i := 2; i < len(reqs); i++ {
+		if out[i].Status != StartFailed || !strings.Contains(out[i].Err.Error(), "cannot start the program again") ||
+			!errors.Is(out[i].Err, os.ErrNotExist) {
+			t.Errorf("replicate %d: %v, %v; want start-failed caused by the missing directory", i, out[i].Status, out[i].Err)
+		}
 	}
 }
 

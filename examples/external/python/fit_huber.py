@@ -66,7 +66,7 @@ def reply(line, args):
             raise ValueError("x must be %d rows of numbers" % y.shape[0])
         beta, sigma, iterations, converged, status = fit(
             x, y, args.k, args.tol, args.max_iter)
-    except (ValueError, KeyError, np.linalg.LinAlgError) as err:
+    except (ValueError, KeyError, TypeError, np.linalg.LinAlgError) as err:
         return json.dumps({"error": "%s: %s" % (type(err).__name__, err)})
     # json writes floats with repr, which reads back to the same double.
     return json.dumps({
