@@ -6,7 +6,8 @@
 //
 // A Command names the program (Args, started directly, with no shell), its
 // working directory (Dir; for a scenario, the scenario file's folder), a
-// Label and a per-reply Timeout (DefaultTimeout, 60 s, when zero). Start
+// Label, a per-reply Timeout (DefaultTimeout, 60 s, when zero) and a
+// StartTimeout, extra time for the first reply after each start. Start
 // runs it once; the Process then keeps it running and sends it one request
 // per dataset. Each worker of a run has its own Process, so a program
 // never sees two requests at once and needs no locking of its own.

@@ -37,6 +37,10 @@ type Command struct {
 	Dir string
 	// Timeout bounds the wait for each reply; zero means DefaultTimeout.
 	Timeout time.Duration
+	// StartTimeout is extra time allowed, on top of Timeout, for the first
+	// reply after each start of the program, when it loads its libraries
+	// or compiles; zero means none.
+	StartTimeout time.Duration
 	// Stderr receives the program's standard error, line by line, each
 	// line prefixed by "[Label] " and written by one call to Write. Nil
 	// discards it. A Writer shared by several Processes must be safe for
@@ -101,6 +105,7 @@ type incarnation struct {
 	writeDone chan error    // the writer goroutine's result, one per batch
 	exited    chan struct{}
 	waitErr   error // cmd.Wait's result, set before exited is closed
+	replied   bool  // a reply line has been read
 	stopOnce  sync.Once
 	stopErr   error
 }
@@ -114,6 +119,8 @@ func Start(cmd Command) (*Process, error) {
 		return nil, fmt.Errorf("external estimator %q: no program to run", cmd.Label)
 	case cmd.Timeout < 0:
 		return nil, fmt.Errorf("external estimator %q: timeout %v is negative", cmd.Label, cmd.Timeout)
+	case cmd.StartTimeout < 0:
+		return nil, fmt.Errorf("external estimator %q: start timeout %v is negative", cmd.Label, cmd.StartTimeout)
 	}
 	p := &Process{cmd: cmd, timeout: cmd.Timeout}
 	if p.timeout == 0 {
@@ -301,7 +308,8 @@ func (p *Process) Fit(req Request) Reply {
 // FitBatch sends every request of reqs before reading the replies, in
 // order, into out[i] (out must be at least as long as reqs), so that the
 // program is never idle waiting for us. Each reply must come within the
-// timeout of the previous one (or of the start of the batch). A failure
+// timeout of the previous one (or of the start of the batch), the first
+// reply after a start within the timeout plus the start timeout. A failure
 // ends only its own fit: when the program has to be restarted (BadReply,
 // Timeout, Exited) the requests after the failed one are sent again to
 // the new program. After the first fits, FitBatch allocates nothing
@@ -429,11 +437,12 @@ func (p *Process) receive(inc *incarnation, req *Request, out *Reply) Status {
 // readLine reads one reply line, without its line end, waiting at most
 // the timeout. The slice is valid until the next read.
 func (p *Process) readLine(inc *incarnation) ([]byte, error) {
-	if err := inc.stdout.SetReadDeadline(time.Now().Add(p.timeout)); err != nil {
+	if err := inc.stdout.SetReadDeadline(time.Now().Add(p.wait(inc))); err != nil {
 		return nil, err
 	}
 	frag, err := inc.reader.ReadSlice('\n')
 	if err == nil {
+		inc.replied = true
 		return frag[:len(frag)-1], nil
 	}
 	p.line = append(p.line[:0], frag...)
@@ -447,7 +456,17 @@ func (p *Process) readLine(inc *incarnation) ([]byte, error) {
 	if err != nil {
 		return nil, err
 	}
+	inc.replied = true
 	return p.line[:len(p.line)-1], nil
+}
+
+// wait returns how long inc has for its next reply: the timeout, plus the
+// start timeout before its first reply.
+func (p *Process) wait(inc *incarnation) time.Duration {
+	if inc.replied {
+		return p.timeout
+	}
+	return p.timeout + p.cmd.StartTimeout
 }
 
 // errTooLong is the read error of a reply longer than MaxReplyBytes.
@@ -461,7 +480,7 @@ func (p *Process) readFailure(inc *incarnation, err error) (Status, string, erro
 	case p.isClosed():
 		return Closed, "the process was closed", nil
 	case errors.Is(err, os.ErrDeadlineExceeded):
-		return Timeout, fmt.Sprintf("no reply within %v", p.timeout), nil
+		return Timeout, fmt.Sprintf("no reply within %v", p.wait(inc)), nil
 	case errors.As(err, new(errTooLong)):
 		return BadReply, err.Error(), nil
 	case err == io.EOF:

@@ -94,8 +94,8 @@ func TestFailuresEndOnlyTheirFit(t *testing.T) {
 		{mode: "null-coefficient", want: NonFinite, starts: 1, detail: "NaN"},
 		{mode: "error", want: ProgramError, starts: 1, detail: "design is singular"},
 		{mode: "not-converged", want: NotConverged, starts: 1, detail: "iteration-limit"},
-		// 500 ms leaves room for starting the program again on a busy
-		// machine, which counts against the next reply's timeout.
+		// The start timeout leaves the program time to start again on a
+		// busy machine; the silent fit itself has 500 ms.
 		{mode: "silent", want: Timeout, starts: 2, timeout: 500 * time.Millisecond, detail: "no reply within 500ms", stderr: "[fake] fake: going silent at replicate 2\n"},
 		{mode: "exit", want: Exited, starts: 2, detail: "exit status 3", stderr: "[fake] fake: stopping at replicate 2\n"},
 		{mode: "half-line-exit", want: Exited, starts: 2, detail: "ended before replying"},
@@ -111,6 +111,7 @@ func TestFailuresEndOnlyTheirFit(t *testing.T) {
 					timeout = time.Minute
 				}
 				cmd := fakeCommand(t, tc.mode, trigger, timeout)
+				cmd.StartTimeout = time.Minute
 				stderr := newLineWriter("")
 				cmd.Stderr = stderr
 				p, err := Start(cmd)
@@ -260,6 +261,7 @@ func TestStartErrors(t *testing.T) {
 		{"missing program", func(c *Command) { c.Args = []string{"/nonexistent/fit_meter"} }, "starting /nonexistent/fit_meter"},
 		{"missing dir", func(c *Command) { c.Dir = "/nonexistent/bench" }, "starting"},
 		{"negative timeout", func(c *Command) { c.Timeout = -time.Second }, "negative"},
+		{"negative start timeout", func(c *Command) { c.StartTimeout = -time.Second }, "start timeout -1s is negative"},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			c := good
@@ -342,6 +344,32 @@ func TestCloseCancelsAFit(t *testing.T) {
 	for i := 1; i < len(reqs); i++ {
 		if out[i].Status != Closed {
 			t.Errorf("replicate %d: %v, want closed", i, out[i].Status)
+		}
+	}
+}
+
+// TestStartTimeout checks that only the first reply after a start has
+// the start timeout: a program silent on its first request times out
+// after both, one silent later after the timeout alone.
+func TestStartTimeout(t *testing.T) {
+	for _, tc := range []struct {
+		trigger int
+		want    string
+	}{
+		{0, "no reply within 1.3s"},
+		{1, "no reply within 300ms"},
+	} {
+		cmd := fakeCommand(t, "silent", tc.trigger, 300*time.Millisecond)
+		cmd.StartTimeout = time.Second
+		p, err := Start(cmd)
+		if err != nil {
+			t.Fatal(err)
+		}
+		out := make([]Reply, 2)
+		p.FitBatch(requests(2, 3, 2), out)
+		p.Close()
+		if got := out[tc.trigger]; got.Status != Timeout || !strings.Contains(got.Err.Error(), tc.want) {
+			t.Errorf("silent at replicate %d: %v, %v; want a timeout saying %q", tc.trigger, got.Status, got.Err, tc.want)
 		}
 	}
 }
