@@ -235,7 +235,7 @@ func buildFitEstimator(m, from estimators.Method, pf *psiFlags, sc scenarios.Sca
 		return estimators.Estimator{}, desc, usagef("--start and --scale are not used with --method %s (its start and scale are %s)", m, info.OwnStart)
 	}
 	if info.DefaultFamily != "" && !given["psi"] && !given["psi-expr"] {
-		pf.family = info.DefaultFamily
+		pf.family = familyName(info.DefaultFamily)
 	}
 	ch, err := pf.build(given)
 	if err != nil {
