@@ -12,9 +12,9 @@ import (
 // take about a second. Above NestedMinRows rows the starts are made inside
 // a random subset of the data instead, after the nested scheme of FAST-LTS
 // (Rousseeuw & Van Driessen (2006), "Computing LTS regression for large data
-// sets", Data Mining and Knowledge Discovery 12:29-45), which the fast-S
-// paper (Salibian-Barrera & Yohai (2006), J. Comput. Graph. Statist.
-// 15:414-427) suggests for S as well (from memory):
+// sets", Data Mining and Knowledge Discovery 12:29-45, from memory), which
+// serves fast-S here in the same way, I-steps taking the place of C-steps
+// (our adaptation):
 //
 //  1. nestedRows rows are drawn without replacement and split into
 //     nestedBlocks disjoint blocks of nestedBlockRows rows;
@@ -23,7 +23,9 @@ import (
 //     the best candidates of each block are kept;
 //  3. all the blocks' candidates are refined in the same way on the merged
 //     set of nestedRows rows, and the best are kept;
-//  4. those are refined to convergence on all n rows, as without nesting.
+//  4. those are refined on all n rows: S refines them to convergence as
+//     without nesting; LTS gives each its C-steps there and concentrates the
+//     best nestedFullKeep to convergence.
 //
 // The scheme keeps the breakdown point: a block holds the data's fraction of
 // outliers up to sampling error, so clean starts are as likely as in the
@@ -149,11 +151,11 @@ func nestedH(m, n, h, p int) int {
 
 // nestedStarts makes the starts of FAST-LTS in nested blocks (see the top
 // of this file) and leaves in lw's kept list (already reserved for the n
-// rows) the best s.Keep candidates of the merged set. It returns the number
-// of starts drawn, the C-steps every kept candidate took before
-// concentration (s.CSteps in its block and s.CSteps in the merged set) and
-// whether some start met a singular h-subset. When nothing is kept the
-// caller falls back to starts on all rows.
+// rows) the best nestedFullKeep candidates, ranked on all rows. It returns
+// the number of starts drawn, the C-steps every kept candidate took before
+// concentration (s.CSteps each in its block, in the merged set and on all
+// rows) and whether some start met a singular h-subset. When nothing is
+// kept the caller falls back to starts on all rows.
 func (lw *ltsWork) nestedStarts(x blas64.General, y []float64, rng *rand.Rand, s ltsSettings) (starts, firstSteps int, singular bool) {
 	n, p := lw.n, lw.p
 	nw := lw.nested()
