@@ -606,15 +606,19 @@ func (lw *ltsWork) evaluate(x blas64.General, y, b []float64) (float64, bool) {
 	cur := lw.cur[:n]
 	// Usually one row holds t, and the subset is every row at most t: one
 	// pass marks it and adds the objective in row order.
+	// Written without a data-dependent branch: a row outside adds +0,
+	// which leaves the non-negative sum unchanged.
 	var q float64
 	atMost := 0
 	for i, v := range r2 {
 		in := v <= t
 		cur[i] = in
+		add, one := 0.0, 0
 		if in {
-			atMost++
-			q += v
+			add, one = v, 1
 		}
+		atMost += one
+		q += add
 	}
 	if atMost == h {
 		return q, !math.IsInf(q, 0)
@@ -653,8 +657,8 @@ const ltsWindowRows = 1000
 // the last threshold.
 const ltsWindow = 0.05
 
-// kth returns the h-th smallest value of r2 (using sel as scratch). The
-// value does not depend on how it is found. For large n, successive C-steps
+// kth returns the h-th smallest value of r2 (using sel as scratch), by
+// selectFast. The value does not depend on how it is found. For large n, successive C-steps
 // move the threshold little, so kth first counts the values below a window
 // around the last threshold and, when the h-th falls inside the window,
 // selects among the window's values only; otherwise (or for small n) it
@@ -665,21 +669,22 @@ func (lw *ltsWork) kth(r2, sel []float64) float64 {
 		lo, hi := lw.lastT*(1-ltsWindow), lw.lastT*(1+ltsWindow)
 		below, in := 0, 0
 		for _, v := range r2 {
-			if v < lo {
-				below++
-			} else if v <= hi {
-				sel[in] = v
-				in++
-			}
+			// Every value is written at sel[in]; only one inside the
+			// window moves in on, so the loop has no data-dependent
+			// branch.
+			sel[in] = v
+			isBelow, isAbove := lessInt(v, lo), lessInt(hi, v)
+			below += isBelow
+			in += 1 - isBelow - isAbove
 		}
 		if below <= k && k < below+in {
-			t := selectKth(sel[:in], k-below)
+			t := selectFast(sel[:in], k-below)
 			lw.lastT = t
 			return t
 		}
 	}
 	copy(sel, r2)
-	t := selectKth(sel, k)
+	t := selectFast(sel, k)
 	lw.lastT = t
 	return t
 }

@@ -278,7 +278,7 @@ func (ws *Workspace) sCandidates(x blas64.General, y, beta []float64, psi psi.Bi
 			break
 		}
 		ws.residuals(x, y, cur)
-		s := MAD(ws.r, ws.buf)
+		s := madFast(ws.r, ws.buf)
 		if s <= sZeroTol*yMax {
 			// At least half the residuals are zero, or zero to rounding.
 			// If so many observations, and more than the p the subset was
