@@ -223,3 +223,38 @@ func TestRefitGram(t *testing.T) {
 		}
 	}
 }
+
+// TestNestedExactFit: when 70% of n = 3000 rows lie exactly on a plane, the
+// nested searches still return it, S and MM with ExactFit (a block meets
+// the exact fit and the search falls back to all rows) and LTS with
+// objective 0 to rounding (the exact fit property; Rousseeuw & Leroy
+// (1987), Robust Regression and Outlier Detection, from memory).
+func TestNestedExactFit(t *testing.T) {
+	const n, p = 3000, 3
+	x, y := simulated(12, n, p, 0)
+	for i := range y {
+		y[i] = 2 + 0.5*x.At(i, 1) - x.At(i, 2)
+		if i%10 < 3 {
+			y[i] += 4 + float64(i%17)
+		}
+	}
+	want := []float64{2, 0.5, -1}
+	for _, m := range []Method{MethodS, MethodMM, MethodLTS} {
+		var ws Workspace
+		var res Result
+		if err := (Estimator{Method: m}).Fit(x, y, &ws, &res); err != nil {
+			t.Fatal(err)
+		}
+		switch {
+		case m != MethodLTS && res.Status != ExactFit:
+			t.Errorf("%v: status %v, want exact-fit", m, res.Status)
+		case m == MethodLTS && !(res.Objective <= 1e-20):
+			t.Errorf("%v: objective %v, want 0 to rounding", m, res.Objective)
+		}
+		for j, w := range want {
+			if math.Abs(res.Coefficients[j]-w) > 1e-9 {
+				t.Errorf("%v: coefficient %d = %v, want %v", m, j, res.Coefficients[j], w)
+			}
+		}
+	}
+}
