@@ -16,9 +16,10 @@ import (
 // Mining and Knowledge Discovery 12:29-45: random elemental starts, a few
 // concentration steps (C-steps) on each, then C-steps to a fixed point on the
 // best few. The estimator itself is Rousseeuw (1984), "Least median of
-// squares regression", JASA 79:871-880 (from memory). The nested-subset
-// scheme that the published algorithm uses for very large n is not
-// implemented: every C-step here uses all n rows.
+// squares regression", JASA 79:871-880 (from memory). Above NestedMinRows
+// rows the starts are made in nested blocks of the data (nested.go), as the
+// published algorithm does for large n; the final concentration uses all
+// rows.
 
 // Default values of ltsSettings, used where a field is zero.
 const (
@@ -126,6 +127,19 @@ type ltsWork struct {
 	candObj  []float64 // keep, objectives of the candidates, ascending
 	candBeta []float64 // keep×p, their coefficients
 	candSt   []Status  // keep, how each kept candidate's concentration ended
+
+	lastT float64 // the h-th smallest squared residual of the last evaluate, 0 if none
+
+	// Refits by updated normal equations, for large n (refitGram).
+	useGram     bool      // refit updates the normal equations instead of QR
+	gramOK      bool      // gram and gy hold the sums over the rows of gset
+	gramUpdates int       // updates since gram was last summed afresh
+	gram        []float64 // p×p, Σ x_i x_iᵀ over gset (upper triangle)
+	gy          []float64 // p, Σ x_i y_i over gset
+	gset        []bool    // n, the rows summed in gram
+	gm          []float64 // p×p, scratch for the factor
+
+	nest *nestedWork // nested subsampling for large n, also for S (nested.go)
 }
 
 // reserve sizes the buffers for an n×p problem keeping h rows and up to keep
@@ -168,6 +182,24 @@ func (lw *ltsWork) reserve(n, p, h, keep int) {
 	}
 	lw.candSt = lw.candSt[:keep]
 	lw.nKept = 0
+	lw.lastT = 0
+	lw.useGram, lw.gramOK = false, false
+}
+
+// reserveGram sizes the buffers of refitGram and turns it on.
+func (lw *ltsWork) reserveGram() {
+	n, p := lw.n, lw.p
+	if cap(lw.gram) < p*p {
+		lw.gram, lw.gm = make([]float64, p*p), make([]float64, p*p)
+	}
+	if cap(lw.gy) < p {
+		lw.gy = make([]float64, p)
+	}
+	if cap(lw.gset) < n {
+		lw.gset = make([]bool, n)
+	}
+	lw.gram, lw.gm, lw.gy, lw.gset = lw.gram[:p*p], lw.gm[:p*p], lw.gy[:p], lw.gset[:n]
+	lw.useGram, lw.gramOK = true, false
 }
 
 // fit computes the LTS estimate of y on x (n×p row-major blas64.General as in
@@ -247,30 +279,17 @@ func (lw *ltsWork) fit(x blas64.General, y, beta []float64, rng *rand.Rand, s lt
 		return fail(SingularDesign)
 	}
 
-	// Starts and their first C-steps.
-	var starts int
-	firstSteps := 0   // C-steps each kept start took before concentration
-	var singular bool // some start met a singular h-subset
-	for attempts := 0; starts < s.Subsets && attempts < ltsAttemptsPerSubset*s.Subsets; attempts++ {
-		if lw.draw(x, y, rng) == 0 {
-			continue
-		}
-		starts++
-		b := lw.trial
-		obj, ok := lw.evaluate(x, y, b)
-		for k := 0; ok && k < s.CSteps; k++ {
-			if !lw.refit(x, y, b) {
-				singular = true
-				ok = false
-				break
-			}
-			obj, ok = lw.evaluate(x, y, b)
-		}
-		if !ok {
-			continue
-		}
+	// Starts and their first C-steps: on all the rows, or for large n in
+	// nested blocks of them (nested.go).
+	var starts, firstSteps int
+	var singular bool
+	if useNested(n, p) {
+		lw.reserveGram()
+		starts, firstSteps, singular = lw.nestedStarts(x, y, rng, s)
+	}
+	if lw.nKept == 0 {
+		starts, singular = lw.starts(x, y, rng, s.Subsets, s.CSteps, s.Keep)
 		firstSteps = s.CSteps
-		lw.offer(obj, b, s.Keep)
 	}
 	switch {
 	case starts == 0:
@@ -297,6 +316,41 @@ func (lw *ltsWork) fit(x blas64.General, y, beta []float64, rng *rand.Rand, s lt
 	return objective, scale, steps, lw.candSt[best]
 }
 
+// starts draws up to subsets elemental starts (at most
+// ltsAttemptsPerSubset·subsets draws), applies csteps C-steps to each and
+// offers the results to the kept list (keep places). It returns the number
+// of starts drawn and whether some start met a singular h-subset.
+func (lw *ltsWork) starts(x blas64.General, y []float64, rng *rand.Rand, subsets, csteps, keep int) (starts int, singular bool) {
+	for attempts := 0; starts < subsets && attempts < ltsAttemptsPerSubset*subsets; attempts++ {
+		if lw.draw(x, y, rng) == 0 {
+			continue
+		}
+		starts++
+		if lw.offerSteps(x, y, lw.trial, csteps, keep) {
+			singular = true
+		}
+	}
+	return starts, singular
+}
+
+// offerSteps applies csteps C-steps to the coefficients b (overwritten) and
+// offers the result to the kept list. It reports whether a C-step met a
+// singular h-subset (the start is then dropped); a start with non-finite
+// residuals is dropped too.
+func (lw *ltsWork) offerSteps(x blas64.General, y, b []float64, csteps, keep int) (singular bool) {
+	obj, ok := lw.evaluate(x, y, b)
+	for k := 0; ok && k < csteps; k++ {
+		if !lw.refit(x, y, b) {
+			return true
+		}
+		obj, ok = lw.evaluate(x, y, b)
+	}
+	if ok {
+		lw.offer(obj, b, keep)
+	}
+	return false
+}
+
 // better reports whether kept candidate a is preferred to b: a candidate
 // whose concentration ended normally (Solved or IterationLimit) beats one
 // that failed; otherwise the smaller objective wins, and on a tie the
@@ -321,7 +375,27 @@ func (lw *ltsWork) better(a, b int) bool {
 // flipping for ever among rows whose residuals differ only by rounding, as
 // happens when more than h rows are fitted exactly. On failure b keeps the
 // last coefficients whose residuals were finite.
+//
+// With refits by normal equations (useGram, large n) the fixed point found
+// with them is polished by C-steps with QR refits, so that the returned
+// coefficients are the accurate least-squares fit of their h-subset; at a
+// fixed point that takes one refit.
 func (lw *ltsWork) concentrate(x blas64.General, y, b []float64, maxSteps int) (float64, Status, int) {
+	if !lw.useGram {
+		return lw.concentrateSteps(x, y, b, maxSteps)
+	}
+	obj, st, taken := lw.concentrateSteps(x, y, b, maxSteps)
+	if st != Solved || taken >= maxSteps {
+		return obj, st, taken
+	}
+	lw.useGram = false
+	obj, st, more := lw.concentrateSteps(x, y, b, maxSteps-taken)
+	lw.useGram = true
+	return obj, st, taken + more
+}
+
+// concentrateSteps is concentrate with the current kind of refit.
+func (lw *ltsWork) concentrateSteps(x blas64.General, y, b []float64, maxSteps int) (float64, Status, int) {
 	obj, ok := lw.evaluate(x, y, b)
 	if !ok {
 		return obj, NonFinite, 0
@@ -510,9 +584,9 @@ func (lw *ltsWork) givensFullRank(m int) bool {
 // LTS objective Q(b), added in row order so that it depends only on b. It
 // reports false when a residual is NaN or the objective is infinite.
 //
-// The h-th smallest squared residual t is found by selectKth on a copy; the
-// subset is then every row below t and, in row order, as many rows equal to
-// t as fill it to h.
+// The h-th smallest squared residual t is found by kth; the subset is then
+// every row below t and, in row order, as many rows equal to t as fill it to
+// h.
 func (lw *ltsWork) evaluate(x blas64.General, y, b []float64) (float64, bool) {
 	n, p, h := lw.n, lw.p, lw.h
 	r2, sel := lw.r2[:n], lw.sel[:n]
@@ -528,9 +602,27 @@ func (lw *ltsWork) evaluate(x blas64.General, y, b []float64) (float64, bool) {
 		}
 		r2[i] = r * r
 	}
-	copy(sel, r2)
-	t := selectKth(sel, h-1)
+	t := lw.kth(r2, sel)
 	cur := lw.cur[:n]
+	// Usually one row holds t, and the subset is every row at most t: one
+	// pass marks it and adds the objective in row order.
+	// Written without a data-dependent branch: a row outside adds +0,
+	// which leaves the non-negative sum unchanged.
+	var q float64
+	atMost := 0
+	for i, v := range r2 {
+		in := v <= t
+		cur[i] = in
+		add, one := 0.0, 0
+		if in {
+			add, one = v, 1
+		}
+		atMost += one
+		q += add
+	}
+	if atMost == h {
+		return q, !math.IsInf(q, 0)
+	}
 	below := 0
 	for i, v := range r2 {
 		in := v < t
@@ -548,7 +640,7 @@ func (lw *ltsWork) evaluate(x blas64.General, y, b []float64) (float64, bool) {
 			below++
 		}
 	}
-	var q float64
+	q = 0
 	for i, in := range cur {
 		if in {
 			q += r2[i]
@@ -557,10 +649,60 @@ func (lw *ltsWork) evaluate(x blas64.General, y, b []float64) (float64, bool) {
 	return q, !math.IsInf(q, 0)
 }
 
+// ltsWindowRows is the smallest n at which kth first looks near the last
+// threshold; below it one selection over all rows is as quick.
+const ltsWindowRows = 1000
+
+// ltsWindow is the relative half-width of the window kth searches around
+// the last threshold.
+const ltsWindow = 0.05
+
+// kth returns the h-th smallest value of r2 (using sel as scratch), by
+// selectFast. The value does not depend on how it is found. For large n, successive C-steps
+// move the threshold little, so kth first counts the values below a window
+// around the last threshold and, when the h-th falls inside the window,
+// selects among the window's values only; otherwise (or for small n) it
+// selects among all of them.
+func (lw *ltsWork) kth(r2, sel []float64) float64 {
+	k := lw.h - 1
+	if len(r2) >= ltsWindowRows && lw.lastT > 0 {
+		lo, hi := lw.lastT*(1-ltsWindow), lw.lastT*(1+ltsWindow)
+		below, in := 0, 0
+		for _, v := range r2 {
+			// Every value is written at sel[in]; only one inside the
+			// window moves in on, so the loop has no data-dependent
+			// branch.
+			sel[in] = v
+			isBelow, isAbove := lessInt(v, lo), lessInt(hi, v)
+			below += isBelow
+			in += 1 - isBelow - isAbove
+		}
+		if below <= k && k < below+in {
+			t := selectFast(sel[:in], k-below)
+			lw.lastT = t
+			return t
+		}
+	}
+	copy(sel, r2)
+	t := selectFast(sel, k)
+	lw.lastT = t
+	return t
+}
+
 // refit writes to b the least-squares fit to the rows marked in lw.cur,
 // taken in row order, by Householder QR. It reports false, leaving b
 // unchanged, when those rows are numerically rank deficient.
+//
+// With useGram set it refits by refitGram instead.
 func (lw *ltsWork) refit(x blas64.General, y, b []float64) bool {
+	if lw.useGram {
+		return lw.refitGram(x, y, b)
+	}
+	return lw.refitQR(x, y, b)
+}
+
+// refitQR is refit by Householder QR.
+func (lw *ltsWork) refitQR(x blas64.General, y, b []float64) bool {
 	h, p := lw.h, lw.p
 	a, qy := lw.qa[:h*p], lw.qy[:h]
 	k := 0
@@ -579,4 +721,80 @@ func (lw *ltsWork) refit(x blas64.General, y, b []float64) bool {
 	}
 	copy(b, lw.gz)
 	return true
+}
+
+// ltsGramRebuild bounds the updates of the normal equations between sums
+// afresh, which bounds the rounding that adding and removing rows
+// accumulates.
+const ltsGramRebuild = 16
+
+// refitGram is refit by the normal equations XᵀX b = Xᵀy of the rows in
+// lw.cur, solved by equilibrated Cholesky. The sums are kept between
+// refits and updated by the rows that entered or left the subset, which
+// near convergence are a few, so that a C-step on large n costs little more
+// than its residuals; they are summed afresh when more than h/8 rows
+// changed or after ltsGramRebuild updates. When the normal equations are
+// too ill-conditioned (choleskySolve refuses them) it refits by QR.
+func (lw *ltsWork) refitGram(x blas64.General, y, b []float64) bool {
+	n, p, h := lw.n, lw.p, lw.h
+	cur, set := lw.cur[:n], lw.gset[:n]
+	changes := 0
+	if lw.gramOK {
+		for i, in := range cur {
+			if in != set[i] {
+				changes++
+			}
+		}
+	}
+	switch {
+	case !lw.gramOK || 8*changes > h || lw.gramUpdates >= ltsGramRebuild:
+		clear(lw.gram)
+		clear(lw.gy)
+		for i, in := range cur {
+			set[i] = in
+			if in {
+				lw.gramAdd(row(x, i), y[i], 1)
+			}
+		}
+		lw.gramOK, lw.gramUpdates = true, 0
+	case changes > 0:
+		for i, in := range cur {
+			if in == set[i] {
+				continue
+			}
+			set[i] = in
+			w := -1.0
+			if in {
+				w = 1
+			}
+			lw.gramAdd(row(x, i), y[i], w)
+		}
+		lw.gramUpdates++
+	}
+	copy(lw.gm, lw.gram)
+	sol := lw.gz[:p]
+	copy(sol, lw.gy)
+	if !choleskySolve(lw.gm, p, sol, lw.cscale) {
+		return lw.refitQR(x, y, b)
+	}
+	for _, v := range sol {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			return lw.refitQR(x, y, b)
+		}
+	}
+	copy(b, sol)
+	return true
+}
+
+// gramAdd adds w·x xᵀ to lw.gram (upper triangle) and w·y·x to lw.gy.
+func (lw *ltsWork) gramAdd(xi []float64, yi, w float64) {
+	p := lw.p
+	g := lw.gram[:p*p]
+	for k, v := range xi {
+		a := w * v
+		lw.gy[k] += a * yi
+		for l := k; l < p; l++ {
+			g[k*p+l] += a * xi[l]
+		}
+	}
 }

@@ -71,14 +71,56 @@ func (ws *Workspace) sConsistency(c float64) float64 {
 	return ws.sB
 }
 
-// meanRho returns (1/d) Σ rho(r_i/s) for the bisquare psi.
+// meanRho returns (1/d) Σ rho(r_i/s) for the bisquare psi. The loop is
+// psi.Bisquare.Rho written out with its constant C²/6 formed once, in the
+// same order of operations, so the sum is bit-for-bit that of calling Rho
+// (TestMeanRhoMatchesRho).
 func meanRho(psi psi.Bisquare, r []float64, s, d float64) float64 {
+	c := psi.C
+	top := c * c / 6
 	var sum float64
 	for _, v := range r {
-		sum += psi.Rho(v / s)
+		u := v / s
+		if math.Abs(u) >= c {
+			sum += top
+			continue
+		}
+		w := u / c
+		t := 1 - w*w
+		sum += top * (1 - t*t*t)
 	}
 	return sum / d
 }
+
+// rhoReaches reports whether (1/d) Σ rho(r_i/s) ≥ b, the test that a
+// candidate with residuals r cannot have an M-scale below s. It stops as
+// soon as a partial sum decides it: the terms are non-negative and rounded
+// addition is monotone, so a partial sum whose mean reaches b proves that
+// the full one does, and the answer is the same as comparing meanRho with b.
+func rhoReaches(psi psi.Bisquare, r []float64, s, d, b float64) bool {
+	c := psi.C
+	top := c * c / 6
+	var sum float64
+	for start := 0; start < len(r); start += rhoBlock {
+		for _, v := range r[start:min(start+rhoBlock, len(r))] {
+			u := v / s
+			if math.Abs(u) >= c {
+				sum += top
+				continue
+			}
+			w := u / c
+			t := 1 - w*w
+			sum += top * (1 - t*t*t)
+		}
+		if sum/d >= b {
+			return true
+		}
+	}
+	return false
+}
+
+// rhoBlock is how many terms rhoReaches adds between its tests.
+const rhoBlock = 16
 
 // mScale solves (1/d) Σ rho(r_i/s) = b for s by the fixed-point iteration
 // s ← s·√(mean rho(r/s)/b), from s0 > 0. The iteration converges
@@ -165,8 +207,17 @@ func (ws *Workspace) sFit(x blas64.General, y, beta []float64, rs Resampling) sO
 }
 
 // sFitCapped is sFit with at most maxRefine refinement steps per
-// candidate.
+// candidate. Above NestedMinRows rows it draws the candidates in nested
+// blocks (sFitNested).
 func (ws *Workspace) sFitCapped(x blas64.General, y, beta []float64, rs Resampling, maxRefine int) sOutcome {
+	if useNested(ws.n, ws.p) {
+		return ws.sFitNested(x, y, beta, rs, maxRefine)
+	}
+	return ws.sFitPlain(x, y, beta, rs, maxRefine)
+}
+
+// sFitPlain is sFitCapped drawing every candidate from all the rows.
+func (ws *Workspace) sFitPlain(x blas64.General, y, beta []float64, rs Resampling, maxRefine int) sOutcome {
 	p := ws.p
 	psi := rs.SScale()
 	b := ws.sConsistency(psi.C)
@@ -210,7 +261,7 @@ func (ws *Workspace) sFitCapped(x blas64.General, y, beta []float64, rs Resampli
 // the data exactly (beta then holds it).
 func (ws *Workspace) sCandidates(x blas64.General, y, beta []float64, psi psi.Bisquare, b, d float64, subsets, keep int, floor float64) (found int, exact bool) {
 	p, n := ws.p, ws.n
-	cands, scales := ws.cand[:keep*p], ws.candScale[:keep]
+	scales := ws.candScale[:keep]
 	for k := range scales {
 		scales[k] = math.Inf(1)
 	}
@@ -227,7 +278,7 @@ func (ws *Workspace) sCandidates(x blas64.General, y, beta []float64, psi psi.Bi
 			break
 		}
 		ws.residuals(x, y, cur)
-		s := MAD(ws.r, ws.buf)
+		s := madFast(ws.r, ws.buf)
 		if s <= sZeroTol*yMax {
 			// At least half the residuals are zero, or zero to rounding.
 			// If so many observations, and more than the p the subset was
@@ -244,39 +295,52 @@ func (ws *Workspace) sCandidates(x blas64.General, y, beta []float64, psi psi.Bi
 			}
 			continue
 		}
-		good := true
-		for k := 0; k < sRefineSteps && good; k++ {
-			good = ws.iStep(psi, x, y, cur, s)
-			s *= math.Sqrt(meanRho(psi, ws.r, s, d) / b)
-			if !(s > 0) || math.IsInf(s, 0) {
-				good = false
-			}
-		}
-		if !good {
-			continue
-		}
-		found++
-		worst := 0
-		for k := range scales {
-			if scales[k] > scales[worst] {
-				worst = k
-			}
-		}
-		// The M-scale is decreasing in its left side, so a candidate beats
-		// the worst kept scale exactly when mean rho(r/s_worst) < b.
-		if !math.IsInf(scales[worst], 1) && meanRho(psi, ws.r, scales[worst], d) >= b {
-			continue
-		}
-		s = mScale(psi, ws.r, b, d, s)
-		if s <= floor {
-			continue
-		}
-		if s < scales[worst] {
-			scales[worst] = s
-			copy(cands[worst*p:(worst+1)*p], cur)
+		if ws.sOffer(x, y, cur, s, psi, b, d, keep, floor) {
+			found++
 		}
 	}
 	return found, false
+}
+
+// sOffer refines the candidate cur, whose residuals are in ws.r and whose
+// starting scale is s, by sRefineSteps I-steps and keeps it among the keep
+// candidates in ws.cand when its M-scale is smaller than the largest kept
+// one and above floor. It reports whether the candidate survived its
+// I-steps.
+func (ws *Workspace) sOffer(x blas64.General, y, cur []float64, s float64, psi psi.Bisquare, b, d float64, keep int, floor float64) bool {
+	p := ws.p
+	cands, scales := ws.cand[:keep*p], ws.candScale[:keep]
+	good := true
+	for k := 0; k < sRefineSteps && good; k++ {
+		good = ws.iStep(psi, x, y, cur, s)
+		s *= math.Sqrt(meanRho(psi, ws.r, s, d) / b)
+		if !(s > 0) || math.IsInf(s, 0) {
+			good = false
+		}
+	}
+	if !good {
+		return false
+	}
+	worst := 0
+	for k := range scales {
+		if scales[k] > scales[worst] {
+			worst = k
+		}
+	}
+	// The M-scale is decreasing in its left side, so a candidate beats
+	// the worst kept scale exactly when mean rho(r/s_worst) < b.
+	if !math.IsInf(scales[worst], 1) && rhoReaches(psi, ws.r, scales[worst], d, b) {
+		return true
+	}
+	s = mScale(psi, ws.r, b, d, s)
+	if s <= floor {
+		return true
+	}
+	if s < scales[worst] {
+		scales[worst] = s
+		copy(cands[worst*p:(worst+1)*p], cur)
+	}
+	return true
 }
 
 // sRefine refines every kept candidate by steps that lower its M-scale: a

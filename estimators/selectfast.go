@@ -1,0 +1,97 @@
+package estimators
+
+import (
+	"math"
+	"math/bits"
+	"slices"
+)
+
+// selectFast reorders a so that a[k] holds its k-th smallest value
+// (0-based), every a[i] ≤ a[k] for i < k and every a[i] ≥ a[k] for i > k,
+// and returns a[k]: the contract of selectKth, and so the same value, only
+// found faster on the residuals of the resampling searches. It partitions
+// by Lomuto's scheme written without a data-dependent branch (every element
+// is swapped, and the boundary moves by the outcome of the comparison),
+// around a median-of-three pivot, and finishes short ranges by insertion
+// sort. On fresh random data, where the branches of Hoare's scheme are
+// mispredicted about half the time, it takes about a fifth of the time at
+// n = 100 (BenchmarkSelectFresh). When partitions go badly too often (many
+// equal values) it sorts the rest, so the worst case stays O(n log n). a
+// must not contain NaN.
+func selectFast(a []float64, k int) float64 {
+	lo, hi := 0, len(a)-1
+	budget := 2 * bits.Len(uint(len(a)))
+	for hi-lo >= 16 {
+		if budget == 0 {
+			slices.Sort(a[lo : hi+1]) // pdqsort: O(n log n) worst case, no allocation
+			return a[k]
+		}
+		budget--
+		mid := lo + (hi-lo)/2
+		// The median of a[lo], a[mid], a[hi] goes to a[hi], the pivot's
+		// place.
+		if a[mid] < a[lo] {
+			a[mid], a[lo] = a[lo], a[mid]
+		}
+		if a[hi] < a[lo] {
+			a[hi], a[lo] = a[lo], a[hi]
+		}
+		if a[mid] < a[hi] {
+			a[hi], a[mid] = a[mid], a[hi]
+		}
+		pivot := a[hi]
+		s := lo
+		part := a[lo:hi]
+		for i, v := range part {
+			part[i] = a[s]
+			a[s] = v
+			s += lessInt(v, pivot)
+		}
+		a[hi], a[s] = a[s], a[hi]
+		switch {
+		case k < s:
+			hi = s - 1
+		case k > s:
+			lo = s + 1
+		default:
+			return a[k]
+		}
+	}
+	insertionSort(a[lo : hi+1])
+	return a[k]
+}
+
+// lessInt returns 1 if a < b and 0 otherwise; the compiler makes it a
+// conditional move, not a branch.
+func lessInt(a, b float64) int {
+	var r int
+	if a < b {
+		r = 1
+	}
+	return r
+}
+
+// madFast returns MAD(r, buf), the same value, by selectFast. buf must have
+// at least len(r) elements; it is overwritten.
+func madFast(r, buf []float64) float64 {
+	buf = buf[:len(r)]
+	for i, v := range r {
+		buf[i] = math.Abs(v)
+	}
+	n := len(buf)
+	if n == 0 {
+		return math.NaN() / MADConsistency
+	}
+	k := n / 2
+	hi := selectFast(buf, k)
+	if n%2 == 1 {
+		return hi / MADConsistency
+	}
+	lo := buf[0]
+	for _, v := range buf[1:k] {
+		if v > lo {
+			lo = v
+		}
+	}
+	return (lo/2 + hi/2) / MADConsistency
+}
