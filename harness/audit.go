@@ -311,11 +311,28 @@ func (w *workerAudit) study(rp *Replicator, fp *fitPlan, f int, x *mat.Dense, y 
 		}
 	}
 	if w.fits[f].roots {
-		ws := &w.rootWS[f]
-		ws.SeedRandom(EstimatorStream(rp.seed, rp.dataKey, rp.rep, fp.key))
-		w.roots[f], w.rootErr[f] = estimators.FindRoots(fp.est, x, y, estimators.RootOptions{Truth: w.truth}, ws)
+		w.roots[f], w.rootErr[f] = rp.findRoots(fp.key, &fp.est, &w.rootWS[f], estimators.RootOptions{Truth: w.truth})
 	}
 	return nil
+}
+
+// FindRoots searches the dataset of the replicate last drawn for roots of
+// est's estimating equations (estimators.FindRoots) from the least-squares,
+// LAD and S estimates and the true coefficients, exactly as a run does for
+// an estimator with roots: true: ws is seeded with the estimator's own
+// stream for the replicate, so the S start draws the subsets the run's
+// search drew. opts.Truth, if nil, is the scenario's true coefficients.
+func (r *Replicator) FindRoots(label string, est *estimators.Estimator, ws *estimators.Workspace, opts estimators.RootOptions) (estimators.Roots, error) {
+	if opts.Truth == nil {
+		opts.Truth = r.gen.Truth()
+	}
+	return r.findRoots(EstimatorKey(label), est, ws, opts)
+}
+
+// findRoots is FindRoots for an estimator whose key is known.
+func (r *Replicator) findRoots(estKey uint64, est *estimators.Estimator, ws *estimators.Workspace, opts estimators.RootOptions) (estimators.Roots, error) {
+	ws.SeedRandom(EstimatorStream(r.seed, r.dataKey, r.rep, estKey))
+	return estimators.FindRoots(*est, r.x, r.y, opts, ws)
 }
 
 // record adds the study of the replicate's fits to the cell's tally:
