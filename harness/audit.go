@@ -112,6 +112,8 @@ type rootTally struct {
 	searched, failed, multiple int64
 	converged                  [rootStarts]int64
 	best                       [rootStarts]int64 // among searches with several roots
+	// statuses counts the refits by final status, per start.
+	statuses [rootStarts][statusSlots]int64
 	// s1, s2: Σ(root − truth) and Σ(root − truth)² per start and
 	// coefficient, over converged refits.
 	s1, s2 [rootStarts][]exactsum.Sum
@@ -156,6 +158,7 @@ func (t *auditTally) reset() {
 	if r := t.roots; r != nil {
 		r.searched, r.failed, r.multiple = 0, 0, 0
 		r.converged, r.best = [rootStarts]int64{}, [rootStarts]int64{}
+		r.statuses = [rootStarts][statusSlots]int64{}
 		for s := range r.s1 {
 			for k := range r.s1[s] {
 				r.s1[s][k].Reset()
@@ -185,6 +188,9 @@ func (t *auditTally) merge(u *auditTally) {
 		for s := range r.converged {
 			r.converged[s] += v.converged[s]
 			r.best[s] += v.best[s]
+			for k := range r.statuses[s] {
+				r.statuses[s][k] += v.statuses[s][k]
+			}
 			for k := range r.s1[s] {
 				r.s1[s][k].Merge(&v.s1[s][k])
 				r.s2[s][k].Merge(&v.s2[s][k])
@@ -235,7 +241,13 @@ func (t *auditTally) addRoots(rs *estimators.Roots, truth []float64, err error) 
 	}
 	for _, root := range rs.Roots {
 		s := int(root.Start)
-		if s >= rootStarts || !root.Status.Converged() {
+		if s >= rootStarts {
+			continue
+		}
+		if k := int(root.Status); k >= 0 && k < statusSlots {
+			r.statuses[s][k]++
+		}
+		if !root.Status.Converged() {
 			continue
 		}
 		r.converged[s]++

@@ -132,6 +132,11 @@ func (r *rootTally) summarise() *results.RootStudy {
 		if r.multiple == 0 {
 			st.BestRate = results.Num(math.NaN())
 		}
+		for _, status := range estimators.Statuses() {
+			if k := r.statuses[s][int(status)]; k > 0 && !status.Converged() {
+				st.Failures = append(st.Failures, results.StatusCount{Status: status.String(), Count: k, Rate: results.Wilson(k, r.searched-r.failed)})
+			}
+		}
 		n := r.converged[s]
 		for k := range r.s1[s] {
 			m := results.Measure{Value: results.Num(math.NaN()), MCSE: results.Num(math.NaN())}

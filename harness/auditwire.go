@@ -27,7 +27,8 @@ type rootsJSON struct {
 	Multiple  int64    `json:"multiple"`
 	Converged []int64  `json:"converged"`
 	Best      []int64  `json:"best"`
-	Sums      []string `json:"sums"` // per start and coefficient: Σe, Σe²
+	Statuses  []int64  `json:"statuses"` // per start, per status
+	Sums      []string `json:"sums"`     // per start and coefficient: Σe, Σe²
 }
 
 // encode serialises t (nil for nil).
@@ -44,6 +45,9 @@ func (t *auditTally) encode() *auditJSON {
 	if r := t.roots; r != nil {
 		rj := &rootsJSON{Searched: r.searched, Failed: r.failed, Multiple: r.multiple,
 			Converged: append([]int64(nil), r.converged[:]...), Best: append([]int64(nil), r.best[:]...)}
+		for s := range r.statuses {
+			rj.Statuses = append(rj.Statuses, r.statuses[s][:]...)
+		}
 		for _, s := range r.sums() {
 			rj.Sums = append(rj.Sums, encodeSum(s))
 		}
@@ -80,12 +84,15 @@ func (t *auditTally) decode(j *auditJSON) error {
 	if r := t.roots; r != nil {
 		rj := j.Roots
 		sums := r.sums()
-		if len(rj.Converged) != rootStarts || len(rj.Best) != rootStarts || len(rj.Sums) != len(sums) {
+		if len(rj.Converged) != rootStarts || len(rj.Best) != rootStarts || len(rj.Sums) != len(sums) || len(rj.Statuses) != rootStarts*statusSlots {
 			return errors.New("the root searches of the partial do not match the scenario")
 		}
 		r.searched, r.failed, r.multiple = rj.Searched, rj.Failed, rj.Multiple
 		copy(r.converged[:], rj.Converged)
 		copy(r.best[:], rj.Best)
+		for s := range r.statuses {
+			copy(r.statuses[s][:], rj.Statuses[s*statusSlots:])
+		}
 		for i, s := range sums {
 			if err := s.UnmarshalText([]byte(rj.Sums[i])); err != nil {
 				return err

@@ -110,8 +110,11 @@ type RootStudy struct {
 type RootStart struct {
 	// Start names the start: ls, lad, s-estimate or truth.
 	Start string `json:"start"`
-	// Converged counts the refits that converged.
-	Converged int64 `json:"converged"`
+	// Converged counts the refits that converged; Failures the others by
+	// status (zero-weights: at the common scale every residual of the
+	// start lies beyond the psi's rejection point).
+	Converged int64         `json:"converged"`
+	Failures  []StatusCount `json:"failures,omitempty"`
 	// Best counts the replicates with several roots where this start
 	// reached the root with the smallest objective Σ rho(r_i/σ) (several
 	// starts can reach it), BestRate their fraction of the replicates with

@@ -115,6 +115,11 @@ type StopAdvice struct {
 	Iterations float64
 	// Tighten is set when some fit stopped farther than the threshold.
 	Tighten bool
+	// Unsettled counts audited fits whose iteration, continued, never
+	// got a change below the loosest tolerance (1e-2): they oscillate or
+	// crawl, so no tolerance describes them and they are left out of
+	// Tolerance (their error is still in the stopping-rule error).
+	Unsettled int64
 }
 
 // AdviseStop reads e's audit (ok false without one, or for a direct
@@ -126,8 +131,10 @@ func AdviseStop(e Estimator) (StopAdvice, bool) {
 		return StopAdvice{}, false
 	}
 	a := StopAdvice{Tolerance: math.NaN(), Iterations: math.NaN(), Tighten: se.OverCount > 0}
+	settled := cv.Tolerances[0].Reached
+	a.Unsettled = max(0, se.Audited-settled)
 	for _, row := range cv.Tolerances {
-		if row.Reached >= se.Audited && row.Reached > 0 && float64(row.Over) == 0 {
+		if row.Reached >= settled && row.Reached > 0 && float64(row.Over) == 0 {
 			a.Tolerance = row.Tolerance
 			a.Iterations = float64(row.MedianIterations) - float64(cv.MedianIterations)
 			break
@@ -170,6 +177,9 @@ func SolverStudyLine(r *Results, c Cell, e Estimator) string {
 		case !math.IsNaN(a.Tolerance) && a.Iterations < 0:
 			line += fmt.Sprintf(" — change %s would do (saves %s iterations, median)", formatTol(a.Tolerance), iterText(-a.Iterations))
 		}
+	}
+	if a, ok := AdviseStop(e); ok && a.Unsettled > 0 {
+		line += fmt.Sprintf(" [%d fits never settled: their change stayed above 1e-2 even when continued]", a.Unsettled)
 	}
 	if se.Undefined > 0 {
 		line += fmt.Sprintf(" [%d fits without standard errors: %s]", se.Undefined, orNone(se.UndefinedReason))
@@ -229,6 +239,12 @@ func writeSolverStudy(b *strings.Builder, r *Results, width int) {
 	b.WriteString(rule + strings.Repeat("─", max(0, width-runeLen(rule))) + "\n")
 	wrap(b, "Stopping-rule error: the distance of each fit's estimate from the fixed point of the same iteration "+
 		"at machine precision, on its worst coefficient, in that coefficient's estimated standard errors.", "   ", "   ", width)
+	if lines := ScenarioStopLines(r); len(lines) > 0 {
+		b.WriteString("\n")
+		for _, l := range lines {
+			wrap(b, l, "   ", "       ", width)
+		}
+	}
 	for _, c := range r.Cells {
 		var lines []string
 		for _, e := range c.Estimators {
@@ -319,9 +335,9 @@ func writeRootTable(b *strings.Builder, c Cell) {
 			continue
 		}
 		fmt.Fprintf(b, "\n   %s: bias of the root reached from each start (mean root − true, ± MCSE)\n", e.Label)
-		b.WriteString("   start       converged  best where roots differ\n")
+		b.WriteString("   start       converged                best where roots differ\n")
 		for _, s := range rs.Starts {
-			fmt.Fprintf(b, "   %-11s %-10d %-5s", s.Start, s.Converged, percent(float64(s.BestRate)))
+			fmt.Fprintf(b, "   %-11s %-24s %-5s", s.Start, convergedText(s), percent(float64(s.BestRate)))
 			for k, m := range s.Bias {
 				name := ""
 				if k < len(e.Coefficients) {
@@ -332,6 +348,117 @@ func writeRootTable(b *strings.Builder, c Cell) {
 			b.WriteString("\n")
 		}
 	}
+}
+
+// convergedText is a start's converged refits, with the commonest failure.
+func convergedText(s RootStart) string {
+	out := strconv.FormatInt(s.Converged, 10)
+	var top StatusCount
+	for _, f := range s.Failures {
+		if f.Count > top.Count {
+			top = f
+		}
+	}
+	if top.Count > 0 {
+		out += fmt.Sprintf(" (%s %d)", top.Status, top.Count)
+	}
+	return out
+}
+
+// ScenarioStopLines are the audit's answer over all cells, one line per
+// audited iterative estimator: the worst cell's share of fits past 0.01 SE
+// and the loosest change tolerance that keeps every fit of every cell
+// within it. Empty for a run of one cell (the cell's line says it all).
+func ScenarioStopLines(r *Results) []string {
+	if len(r.Cells) < 2 {
+		return nil
+	}
+	var order []string
+	type agg struct {
+		rules            map[string]bool
+		over, max        float64
+		overCell, maxCel int
+		tol, cost        float64
+		tolKnown         bool
+		unsettled        int64
+	}
+	by := map[string]*agg{}
+	for _, c := range r.Cells {
+		for _, e := range c.Estimators {
+			a, ok := AdviseStop(e)
+			if !ok {
+				continue
+			}
+			g := by[e.Label]
+			if g == nil {
+				g = &agg{rules: map[string]bool{}, over: -1, max: -1, tol: math.Inf(1), tolKnown: true, cost: math.Inf(-1)}
+				by[e.Label] = g
+				order = append(order, e.Label)
+			}
+			g.rules[StoppingRule(r, c, e.Label)] = true
+			g.unsettled += a.Unsettled
+			se := e.Convergence.StopError
+			if v := float64(se.Over); v > g.over {
+				g.over, g.overCell = v, c.Index
+			}
+			if v := float64(se.Max); v > g.max {
+				g.max, g.maxCel = v, c.Index
+			}
+			if math.IsNaN(a.Tolerance) {
+				g.tolKnown = false
+			} else {
+				g.tol = math.Min(g.tol, a.Tolerance)
+			}
+		}
+	}
+	// The cost of the common tolerance in each cell: its median
+	// iterations there minus the fits' own.
+	for _, c := range r.Cells {
+		for _, e := range c.Estimators {
+			g := by[e.Label]
+			if g == nil || !g.tolKnown {
+				continue
+			}
+			for _, row := range e.Convergence.Tolerances {
+				if row.Tolerance == g.tol {
+					g.cost = math.Max(g.cost, float64(row.MedianIterations)-float64(e.Convergence.MedianIterations))
+				}
+			}
+		}
+	}
+	var out []string
+	for _, label := range order {
+		g := by[label]
+		head := label
+		if len(g.rules) == 1 {
+			for rule := range g.rules {
+				if rule != "" {
+					head += " (" + rule + ")"
+				}
+			}
+		}
+		line := fmt.Sprintf("%s: across the %d cells, at worst %s of fits over 0.01 SE (cell %d); largest error %s SE (cell %d)",
+			head, len(r.Cells), percent(g.over), g.overCell, FormatSE(Num(g.max)), g.maxCel)
+		if g.over == 0 {
+			line = fmt.Sprintf("%s: across the %d cells, no fit over 0.01 SE; largest error %s SE (cell %d)",
+				head, len(r.Cells), FormatSE(Num(g.max)), g.maxCel)
+		}
+		switch {
+		case !g.tolKnown:
+			line += " — in some cell no change tolerance down to 1e-14 keeps every fit within 0.01 SE"
+		case g.cost > 0:
+			line += fmt.Sprintf(" — change %s keeps every fit of every cell within 0.01 SE (up to %s more iterations, median per cell)", formatTol(g.tol), iterText(g.cost))
+		case g.cost < 0:
+			line += fmt.Sprintf(" — change %s would keep every fit of every cell within 0.01 SE (at least %s fewer iterations, median per cell)", formatTol(g.tol), iterText(-g.cost))
+		default:
+			line += fmt.Sprintf(" — change %s keeps every fit of every cell within 0.01 SE", formatTol(g.tol))
+		}
+		if g.unsettled > 0 {
+			line += fmt.Sprintf(" [%d fits never settled, left out]", g.unsettled)
+		}
+		out = append(out, line)
+	}
+	return out
 }
 
 // solverCSVHeader returns the CSV columns of the solver study, or nil when
