@@ -256,3 +256,15 @@ func TestAuditOffLeavesResultsAlone(t *testing.T) {
 		t.Error("results without the audit report a solver study")
 	}
 }
+
+// TestAuditBudget: an audit too large to keep every fit's values is
+// refused before any work, naming what to reduce.
+func TestAuditBudget(t *testing.T) {
+	st := parse(t, flowMeterLike)
+	// 4 estimators × 2 coefficients: 4·(2 + 2 + 26) values per replicate,
+	// so 300,000 replicates pass 2^25.
+	_, err := Run(context.Background(), st, Options{Replicates: 300_000, AuditSolvers: true})
+	if err == nil || !strings.Contains(err.Error(), "fewer replicates") {
+		t.Errorf("got %v, want the audit refused for its size", err)
+	}
+}

@@ -18,8 +18,9 @@ import (
 
 // solverAuditView is the report's section on the solver audit.
 type solverAuditView struct {
-	Cells []solverAuditCell
-	Notes []string
+	Overall []string // the answer over all cells (results.ScenarioStopLines)
+	Cells   []solverAuditCell
+	Notes   []string
 }
 
 // solverAuditCell is one cell's audit: the answer lines and the table.
@@ -40,7 +41,7 @@ func solverAudit(r *results.Results) *solverAuditView {
 	if !results.HasSolverStudy(r) {
 		return nil
 	}
-	v := &solverAuditView{}
+	v := &solverAuditView{Overall: results.ScenarioStopLines(r)}
 	notes := map[string]bool{}
 	for _, c := range r.Cells {
 		sc := solverAuditCell{Heading: fmt.Sprintf("Cell %d", c.Index)}

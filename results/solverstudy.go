@@ -489,3 +489,40 @@ func solverCSVRow(e Estimator, k int) []string {
 	}
 	return out
 }
+
+// writeSolverStudyMarkdown writes the solver study's answer for the
+// Markdown summary: the lines over all cells, then each cell's.
+func writeSolverStudyMarkdown(b *strings.Builder, r *Results) {
+	if !HasSolverStudy(r) {
+		return
+	}
+	b.WriteString("\n## How close is converged?\n\nStopping-rule error: the distance of each fit's estimate from the fixed point of its iteration at machine precision, on its worst coefficient, in standard errors.\n\n")
+	for _, l := range ScenarioStopLines(r) {
+		b.WriteString("- " + mdText(l) + "\n")
+	}
+	for i, c := range r.Cells {
+		if i == markdownMaxCells {
+			fmt.Fprintf(b, "\n… and %d more cells (see the HTML report).\n", len(r.Cells)-markdownMaxCells)
+			break
+		}
+		var lines []string
+		for _, e := range c.Estimators {
+			for _, l := range []string{SolverStudyLine(r, c, e), RootsLine(e)} {
+				if l != "" {
+					lines = append(lines, l)
+				}
+			}
+		}
+		if len(lines) == 0 {
+			continue
+		}
+		fmt.Fprintf(b, "\n**Cell %d**", c.Index)
+		if len(c.Settings) > 0 {
+			b.WriteString(" (" + mdText(SettingsText(c.Settings)) + ")")
+		}
+		b.WriteString("\n\n")
+		for _, l := range lines {
+			b.WriteString("- " + mdText(l) + "\n")
+		}
+	}
+}
