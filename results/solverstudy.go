@@ -179,12 +179,20 @@ func SolverStudyLine(r *Results, c Cell, e Estimator) string {
 		}
 	}
 	if a, ok := AdviseStop(e); ok && a.Unsettled > 0 {
-		line += fmt.Sprintf(" [%d fits never settled: their change stayed above 1e-2 even when continued]", a.Unsettled)
+		line += fmt.Sprintf(" [%s never settled: the change stayed above 1e-2 even when continued]", fits(a.Unsettled))
 	}
 	if se.Undefined > 0 {
-		line += fmt.Sprintf(" [%d fits without standard errors: %s]", se.Undefined, orNone(se.UndefinedReason))
+		line += fmt.Sprintf(" [%s without standard errors: %s]", fits(se.Undefined), orNone(se.UndefinedReason))
 	}
 	return line
+}
+
+// fits says "1 fit" or "n fits".
+func fits(n int64) string {
+	if n == 1 {
+		return "1 fit"
+	}
+	return strconv.FormatInt(n, 10) + " fits"
 }
 
 // iterText formats a difference of median iterations.
@@ -266,13 +274,13 @@ func writeSolverStudy(b *strings.Builder, r *Results, width int) {
 		for _, l := range lines {
 			wrap(b, l, "   ", "       ", width)
 		}
-		writeRuleTable(b, r, c)
+		writeRuleTable(b, r, c, width)
 		writeRootTable(b, c)
 	}
 }
 
 // writeRuleTable writes the audited estimators of cell c side by side.
-func writeRuleTable(b *strings.Builder, r *Results, c Cell) {
+func writeRuleTable(b *strings.Builder, r *Results, c Cell, width int) {
 	type row struct{ cols [7]string }
 	var rows []row
 	for _, e := range c.Estimators {
@@ -321,7 +329,7 @@ func writeRuleTable(b *strings.Builder, r *Results, c Cell) {
 	}
 	for _, e := range c.Estimators {
 		if rt := e.Convergence.Rate; rt != nil && rt.Note != "" {
-			b.WriteString("   * " + e.Label + ": " + rt.Note + "\n")
+			wrap(b, "* "+e.Label+": "+rt.Note, "   ", "     ", width)
 		}
 	}
 }
@@ -451,10 +459,10 @@ func ScenarioStopLines(r *Results) []string {
 		case g.cost < 0:
 			line += fmt.Sprintf(" — change %s would keep every fit of every cell within 0.01 SE (at least %s fewer iterations, median per cell)", formatTol(g.tol), iterText(-g.cost))
 		default:
-			line += fmt.Sprintf(" — change %s keeps every fit of every cell within 0.01 SE", formatTol(g.tol))
+			line += fmt.Sprintf(" — change %s keeps every fit of every cell within 0.01 SE (as many iterations, median per cell)", formatTol(g.tol))
 		}
 		if g.unsettled > 0 {
-			line += fmt.Sprintf(" [%d fits never settled, left out]", g.unsettled)
+			line += fmt.Sprintf(" [%s never settled, left out]", fits(g.unsettled))
 		}
 		out = append(out, line)
 	}
