@@ -41,8 +41,8 @@ type cellAudit struct {
 	audit, roots []bool
 }
 
-// any reports whether estimator j of the cell is studied at all.
-func (c *cellAudit) any(j int) bool {
+// studied reports whether estimator j of the cell is studied at all.
+func (c *cellAudit) studied(j int) bool {
 	return (c.audit != nil && c.audit[j]) || (c.roots != nil && c.roots[j])
 }
 
@@ -122,7 +122,7 @@ type rootTally struct {
 // newAuditTally returns the tally of estimator j of a cell with audits a,
 // or nil when it is not studied.
 func newAuditTally(a cellAudit, j, p int) *auditTally {
-	if !a.any(j) {
+	if !a.studied(j) {
 		return nil
 	}
 	t := &auditTally{p: p}
@@ -287,11 +287,11 @@ type workerAudit struct {
 // fit of the group is studied (the run then does no more work than
 // without the study).
 func newWorkerAudit(plans []cellPlan, g *groupPlan) *workerAudit {
-	any := false
+	studied := false
 	for _, f := range g.fits {
-		any = any || f.aud.audit || f.aud.roots
+		studied = studied || f.aud.audit || f.aud.roots
 	}
-	if !any {
+	if !studied {
 		return nil
 	}
 	n := len(g.fits)

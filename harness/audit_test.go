@@ -84,7 +84,9 @@ func TestAuditThroughRun(t *testing.T) {
 	if row := hc.Tolerances[1]; row.Tolerance != 1e-3 || row.MedianIterations != estimatorOf(t, c, "huber-loose").Convergence.MedianIterations {
 		t.Errorf("tolerance row %+v: want 1e-3 at the loose fits' median iterations %v", row, estimatorOf(t, c, "huber-loose").Convergence.MedianIterations)
 	}
-	// Newton's order is read at the pair of steps nearest the root, q +
+	// Newton converges quadratically near a simple root when its Jacobian
+	// is exact (common practice). Its order is read at the pair of steps
+	// nearest the root, q +
 	// ln C / ln Δ (estimators.Rate); the estimators package's test bounds
 	// that bias by 3/|ln Δ| < 0.5 on these data, so the median over fits
 	// lies within 0.5 of 2.
