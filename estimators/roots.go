@@ -80,6 +80,9 @@ type RootOptions struct {
 	// change tolerance of 1e-12 and at most 1000 iterations, so that
 	// distinct roots are told apart well beyond RootTolerance.
 	Settings Settings
+	// Trace, if not nil, is called after every iteration of every refit
+	// with the refit's start (it then allocates a little per refit).
+	Trace func(RootStart, Iteration)
 }
 
 // Root is where the refit from one start ended.
@@ -206,6 +209,10 @@ func FindRoots(e Estimator, x *mat.Dense, y []float64, opts RootOptions, ws *Wor
 			continue
 		}
 		refit.Start = begins[i]
+		if opts.Trace != nil {
+			from := r.Start
+			refit.Trace = func(it Iteration) { opts.Trace(from, it) }
+		}
 		var rr Result
 		if err := refit.Fit(x, y, ws, &rr); err != nil {
 			return Roots{}, fmt.Errorf("refit from the %v start: %w", r.Start, err)

@@ -77,6 +77,9 @@ func MergePartials(parts []*Partial, limits scenarios.Limits) (*Partial, *scenar
 		if p.UnitCells != first.UnitCells {
 			why = append(why, fmt.Sprintf("units of %d vs %d cells", p.UnitCells, first.UnitCells))
 		}
+		if p.AuditSolvers != first.AuditSolvers {
+			why = append(why, fmt.Sprintf("--audit-solvers %v vs %v", p.AuditSolvers, first.AuditSolvers))
+		}
 		if p.Shards != first.Shards {
 			why = append(why, fmt.Sprintf("split into %d vs %d shards", p.Shards, first.Shards))
 		}
@@ -119,6 +122,9 @@ func MergePartials(parts []*Partial, limits scenarios.Limits) (*Partial, *scenar
 	}
 	plans, err := plan(st, first.Replicates)
 	if err != nil {
+		return nil, nil, err
+	}
+	if err := planAudits(plans, first.AuditSolvers); err != nil {
 		return nil, nil, err
 	}
 	sort.SliceStable(parts, func(i, j int) bool { return parts[i].Shard < parts[j].Shard })
@@ -164,6 +170,9 @@ func Summarise(st *scenarios.Study, p *Partial, tool results.Tool) (*results.Res
 	}
 	plans, err := plan(st, p.Replicates)
 	if err != nil {
+		return nil, err
+	}
+	if err := planAudits(plans, p.AuditSolvers); err != nil {
 		return nil, err
 	}
 	if err := attach(p, plans); err != nil {

@@ -50,6 +50,9 @@ type Partial struct {
 	// UnitCells is the most cells a unit covers (the size the groups of
 	// cells were cut to); a resumed run keeps it.
 	UnitCells int `json:"unit_cells"`
+	// AuditSolvers records that every estimator was audited (run
+	// --audit-solvers); merged and resumed partials must agree on it.
+	AuditSolvers bool `json:"audit_solvers,omitempty"`
 	// Path is the file the partial was read from, if the caller sets it;
 	// errors about the partial name it. It is not written.
 	Path string `json:"-"`
@@ -102,6 +105,7 @@ type estJSON struct {
 	Past      int64      `json:"past"`
 	Coefs     []coefJSON `json:"coefficients"`
 	Cross     []string   `json:"cross,omitempty"`
+	Audit     *auditJSON `json:"audit,omitempty"`
 }
 
 type coefJSON struct {
@@ -136,6 +140,7 @@ func (c *cellTally) encode() tallyJSON {
 		for k := range e.cross {
 			ej.Cross = append(ej.Cross, encodeSum(&e.cross[k]))
 		}
+		ej.Audit = e.aud.encode()
 		out.Ests = append(out.Ests, ej)
 	}
 	return out
@@ -178,6 +183,9 @@ func (c *cellTally) decode(j tallyJSON) error {
 				return err
 			}
 		}
+		if err := e.aud.decode(ej.Audit); err != nil {
+			return err
+		}
 	}
 	return nil
 }
@@ -193,9 +201,10 @@ type partialFile struct {
 // partialFormat names the layout of the payload. Format 2 added the build
 // identity and the higher moments behind the heavy-tail MCSEs; format 3
 // made a unit a block of a group of cells that draw the same datasets
-// (with UnitCells), drawn from streams keyed by the data settings. A
-// partial of an earlier format cannot be resumed or merged by this build.
-const partialFormat = "rhomark partial 3"
+// (with UnitCells), drawn from streams keyed by the data settings; format
+// 4 added the solver study (each audited fit's values, for exact medians).
+// A partial of an earlier format cannot be resumed or merged by this build.
+const partialFormat = "rhomark partial 4"
 
 // WritePartial writes p with its checksum. p is not changed.
 //
@@ -299,7 +308,8 @@ func firstLine(s string) string {
 func newPartial(st *scenarios.Study, plans []cellPlan, total, size int, seed uint64, reps int, opt Options) (*Partial, error) {
 	build := opt.buildID()
 	p := &Partial{Tool: opt.Tool.Version, Build: build, Scenario: st.Base.Name, File: st.File, Source: string(st.Source), Hash: st.Hash,
-		Seed: seed, Replicates: reps, Shard: opt.Shard, Shards: opt.Shards, Units: total, UnitCells: size, done: new(big.Int)}
+		Seed: seed, Replicates: reps, Shard: opt.Shard, Shards: opt.Shards, Units: total, UnitCells: size, done: new(big.Int),
+		AuditSolvers: opt.AuditSolvers || (opt.Resume != nil && opt.Resume.AuditSolvers)}
 	for _, pl := range plans {
 		p.cells = append(p.cells, pl.newTally())
 	}
@@ -318,6 +328,8 @@ func newPartial(st *scenarios.Study, plans []cellPlan, total, size int, seed uin
 		return nil, fmt.Errorf("the checkpoint was written by build %s, this is build %s: builds may compute different numbers, so resume with the build that started the run, or start afresh", orUnknown(r.Build), build)
 	case r.Units != total:
 		return nil, errors.New("the checkpoint's units do not match the scenario")
+	case opt.AuditSolvers && !r.AuditSolvers:
+		return nil, errors.New("the checkpoint was run without --audit-solvers, so its finished fits were not audited: resume without it, or start afresh")
 	case r.Shards != opt.Shards || r.Shard != opt.Shard:
 		return nil, fmt.Errorf("the checkpoint is of shard %d/%d, this run of %d/%d", r.Shard, r.Shards, opt.Shard, opt.Shards)
 	}

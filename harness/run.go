@@ -78,6 +78,11 @@ type Options struct {
 	// Trace, is fitted in each cell).
 	Adjust func(cell int, label string, e *estimators.Estimator)
 
+	// AuditSolvers audits every estimator's fits as if each had
+	// solver-audit: true (see results.StopError); a resumed run keeps its
+	// checkpoint's setting.
+	AuditSolvers bool
+
 	// unitCells, if positive, replaces the default group size (tests).
 	unitCells int
 }
@@ -111,6 +116,7 @@ type cellPlan struct {
 	firstSlope int     // index of the first slope (1 with an intercept)
 	tq, zq     float64 // 97.5% quantiles of Student t (n−p df) and the normal
 	threshold  float64 // breakdown threshold on the slope error norm; 0 if none
+	aud        cellAudit
 }
 
 // slopes returns the number of slopes.
@@ -118,7 +124,11 @@ func (p *cellPlan) slopes() int { return len(p.truth) - p.firstSlope }
 
 // newTally returns an empty tally shaped for the cell.
 func (p *cellPlan) newTally() *cellTally {
-	return newCellTally(len(p.ests), len(p.truth), p.slopes())
+	t := newCellTally(len(p.ests), len(p.truth), p.slopes())
+	for j := range t.ests {
+		t.ests[j].aud = newAuditTally(p.aud, j, len(p.truth))
+	}
+	return t
 }
 
 // groupPlan is the cells one unit of work covers: cells with the same
@@ -142,6 +152,7 @@ type fitPlan struct {
 	key   uint64 // EstimatorKey of the label: the estimator's stream
 	label string
 	cell  int // the first cell that uses it, for messages
+	aud   fitAudit
 }
 
 // fitIdentity is what makes two cells' estimators the same fit of the same
@@ -214,6 +225,7 @@ func groupCells(plans []cellPlan, size int) []groupPlan {
 						g.fits = append(g.fits, fitPlan{est: p.ests[j], key: p.estKeys[j], label: label, cell: c})
 					}
 					use[j] = f
+					g.fits[f].aud.add(p.aud, j)
 				}
 				g.use = append(g.use, use)
 			}
@@ -268,6 +280,9 @@ func RunPartial(ctx context.Context, st *scenarios.Study, opt Options) (*results
 	}
 	plans, err := plan(st, reps)
 	if err != nil {
+		return nil, nil, err
+	}
+	if err := planAudits(plans, opt.AuditSolvers || (opt.Resume != nil && opt.Resume.AuditSolvers)); err != nil {
 		return nil, nil, err
 	}
 	if opt.Adjust != nil {
@@ -531,6 +546,7 @@ type worker struct {
 	kept    []keptBlock
 	keepBuf []byte
 	err     error // a fit failed in a way that is not a status
+	aud     *workerAudit
 }
 
 func newWorker(plans []cellPlan, g *groupPlan, seed uint64) *worker {
@@ -552,6 +568,7 @@ func newWorker(plans []cellPlan, g *groupPlan, seed uint64) *worker {
 	for _, c := range g.cells {
 		w.tallies = append(w.tallies, plans[c].newTally())
 	}
+	w.aud = newWorkerAudit(plans, g)
 	return w
 }
 
@@ -580,11 +597,12 @@ func (w *worker) runBlock(ctx context.Context, lo, hi int) bool {
 // group once, and records in every cell the fits of its estimators.
 func (w *worker) replicate(r int) {
 	g := w.group
-	x, _ := w.rp.Draw(r)
+	x, y := w.rp.Draw(r)
 	for f := range g.fits {
 		fp := &g.fits[f]
+		est := w.aud.estimator(f, &fp.est)
 		t0 := time.Now()
-		if err := w.rp.fit(fp.key, &fp.est, &w.ws[f], &w.res[f]); err != nil {
+		if err := w.rp.fit(fp.key, est, &w.ws[f], &w.res[f]); err != nil {
 			// Shapes and settings were validated, so this is a bug; stop
 			// the run and report it rather than guess.
 			w.err = fmt.Errorf("cell %d replicate %d, estimator %s: %w", fp.cell, r, fp.label, err)
@@ -593,6 +611,12 @@ func (w *worker) replicate(r int) {
 		w.nanos[f] = int64(time.Since(t0))
 		res := &w.res[f]
 		w.seOK[f] = res.Status.Converged() && w.ws[f].StandardErrors(fp.est, x, res, w.se[f])
+		if w.aud != nil {
+			if err := w.aud.study(w.rp, fp, f, x, y, res); err != nil {
+				w.err = fmt.Errorf("cell %d replicate %d, estimator %s: %w", fp.cell, r, fp.label, err)
+				return
+			}
+		}
 	}
 	for i, c := range g.cells {
 		w.record(&w.plans[c], w.tallies[i], g.use[i], &w.kept[i])
@@ -616,6 +640,9 @@ func (w *worker) record(p *cellPlan, t *cellTally, use []int, kept *keptBlock) {
 		}
 	}
 	t.replicates++
+	if w.aud != nil {
+		w.aud.record(p, t, use)
+	}
 	ref := &w.res[use[p.ref]]
 	refOK := ref.Status.Converged()
 	for j := range p.ests {

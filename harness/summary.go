@@ -55,6 +55,7 @@ func summarise(st *scenarios.Study, plans []cellPlan, tallies []*cellTally, seed
 				TheoryEfficiency: results.Num(theory[j]),
 			}
 			est.SlopeBias = slopeBias(p, et)
+			auditSummary(&est.Convergence, &p, j, et, names)
 			if p.threshold > 0 {
 				r := results.Wilson(et.past, et.fits)
 				est.PastThreshold = &r

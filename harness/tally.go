@@ -129,6 +129,7 @@ type estTally struct {
 	// past counts converged fits whose slope error norm exceeds the
 	// breakdown threshold.
 	past int64
+	aud  *auditTally // the solver study (harness/audit.go); nil when off
 }
 
 // maxCrossSlopes bounds the slopes whose cross moments are kept.
@@ -193,6 +194,7 @@ func (t *estTally) merge(u *estTally) {
 	for i := range t.cross {
 		t.cross[i].Merge(&u.cross[i])
 	}
+	t.aud.merge(u.aud)
 }
 
 // cellTally accumulates one cell.
@@ -229,7 +231,8 @@ func (c *cellTally) reset() {
 		for j := range cross {
 			cross[j].Reset()
 		}
-		*e = estTally{coefs: coefs, iterHist: hist, cross: cross}
+		e.aud.reset()
+		*e = estTally{coefs: coefs, iterHist: hist, cross: cross, aud: e.aud}
 	}
 }
 

@@ -117,6 +117,8 @@ func Figures(r *results.Results) ([]Figure, []Omission, error) {
 		{"coverage", QuestionCoverage, fc.coverage, nil},
 		{"failures", QuestionConvergence, fc.failures, nil},
 		{"iterations", QuestionConvergence, fc.iterations, nil},
+		{"iterations-vs-tolerance", QuestionConvergence, fc.toleranceIterations, nil},
+		{"error-vs-tolerance", QuestionConvergence, fc.toleranceError, nil},
 		{"psi-functions", QuestionFunctions, fc.psiFunctions, nil},
 	}
 	var figs []Figure

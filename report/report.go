@@ -78,6 +78,7 @@ type page struct {
 	Cells                     []cellView
 	Groups                    []figureGroup
 	Convergence               []convergenceRow
+	SolverAudit               *solverAuditView
 	About                     string
 	Sweeps                    []sweepView
 	SourceTitle, SourceNote   string
@@ -178,6 +179,7 @@ func newPage(in Input) (*page, error) {
 	}
 	pg.Groups = groups
 	pg.Convergence = convergenceRows(r)
+	pg.SolverAudit = solverAudit(r)
 	for _, s := range results.Sweeps(r) {
 		pg.Sweeps = append(pg.Sweeps, sweepView{s.Path, strings.Join(s.Values, ", ")})
 	}

@@ -63,6 +63,7 @@ func WriteCSV(w io.Writer, r *Results) error {
 		"rel_eff", "rel_eff_mcse", "paired", "theory_efficiency", "theory_gap_mcse",
 		"heavy_tails", "rel_eff_heavy_tails", "intervals", "coverage", "coverage_mcse", "width", "width_mcse", "slope_bias", "slope_bias_mcse",
 		"failure_rate", "failure_low", "failure_high", "mean_iterations", "mean_iterations_mcse", "median_iterations", "max_iterations")
+	header = append(header, solverCSVHeader(r)...)
 	if err := cw.Write(header); err != nil {
 		return err
 	}
@@ -73,7 +74,7 @@ func WriteCSV(w io.Writer, r *Results) error {
 				tuning[i] = csvFloat(t)
 			}
 			cv := e.Convergence
-			for _, k := range e.Coefficients {
+			for ki, k := range e.Coefficients {
 				row := []string{r.Scenario.Name, strconv.Itoa(c.Index)}
 				for _, s := range c.Settings {
 					row = append(row, s.Value)
@@ -93,6 +94,9 @@ func WriteCSV(w io.Writer, r *Results) error {
 					csvFloat(float64(e.SlopeBias.Value)), csvFloat(float64(e.SlopeBias.MCSE)),
 					csvFloat(float64(cv.FailureRate.Value)), csvFloat(float64(cv.FailureRate.Low)), csvFloat(float64(cv.FailureRate.High)),
 					csvFloat(float64(cv.MeanIterations.Value)), csvFloat(float64(cv.MeanIterations.MCSE)), csvFloat(float64(cv.MedianIterations)), strconv.FormatInt(cv.MaxIterations, 10))
+				if len(header) > len(row) {
+					row = append(row, solverCSVRow(e, ki)...)
+				}
 				if err := cw.Write(row); err != nil {
 					return err
 				}

@@ -51,6 +51,7 @@ func WriteMarkdownSummary(w io.Writer, r *Results) error {
 	}
 	fmt.Fprintf(b, "\n> %s\n", cautionSentence)
 	writeRecommendationMarkdown(b, r)
+	writeSolverStudyMarkdown(b, r)
 
 	// What did best.
 	b.WriteString("\n## What did best\n\n")

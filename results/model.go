@@ -214,6 +214,13 @@ type Convergence struct {
 	Halvings  int64 `json:"halvings"`
 	Fallbacks int64 `json:"fallbacks"` // iterations that took an IRLS step instead of a Newton step
 	QRSolves  int64 `json:"qr_solves"` // weighted solves that fell back from Cholesky to QR
+	// StopError, Rate and Tolerances are the solver audit (absent unless
+	// the estimator was audited); Roots the root search (absent unless
+	// asked for). See convergence.go.
+	StopError  *StopError      `json:"stop_error,omitempty"`
+	Rate       *ObservedRate   `json:"rate,omitempty"`
+	Tolerances []ToleranceCost `json:"tolerances,omitempty"`
+	Roots      *RootStudy      `json:"roots,omitempty"`
 }
 
 // StatusCount is how many fits ended with one status.

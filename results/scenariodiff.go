@@ -178,6 +178,8 @@ func estimatorSettingKind(path string, u, v any) SettingKind {
 		return SettingSolver
 	case path == "resampling.subsets" || path == "resampling.keep":
 		return SettingSolver
+	case path == "solver_audit" || path == "roots":
+		return SettingSolver // studies of the solver that change no estimate
 	case path == "method":
 		iterative := func(m any) bool { return m == "irls" || m == "newton" }
 		if iterative(u) && iterative(v) {

@@ -27,6 +27,7 @@ func WriteTable(w io.Writer, r *Results, width int) error {
 		status = "INCOMPLETE: stopped early"
 	}
 	fmt.Fprintf(b, "%s · seed %d · %d replicates per cell · %s\n", r.Scenario.Name, r.Seed, r.Replicates, status)
+	writeSolverStudy(b, r, width)
 	writeRecommendation(b, r, width)
 	writeVerdicts(b, r, width)
 	for _, c := range r.Cells {

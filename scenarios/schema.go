@@ -240,6 +240,19 @@ type EstimatorSpec struct {
 	Resampling *Resampling `yaml:"resampling" json:"resampling,omitempty"`
 	// Stop holds the stopping rules.
 	Stop Stop `yaml:"stop" json:"stop"`
+	// SolverAudit, when true, audits every fit of this estimator: the fit
+	// is continued to its fixed point at machine precision and the
+	// distance of the returned estimate from it is recorded in standard
+	// errors, with the observed convergence rate and the iterations each
+	// change tolerance would need (see harness, estimators.AuditWorkspace).
+	// It changes no estimate. Default false; run --audit-solvers turns it
+	// on for every estimator.
+	SolverAudit bool `yaml:"solver-audit" json:"solver_audit,omitempty"`
+	// Roots, when true, refits every replicate of an estimator with a
+	// redescending psi from the least-squares, LAD and S estimates and the
+	// true coefficients (estimators.FindRoots), and reports how often the
+	// starts reach different roots. It changes no estimate. Default false.
+	Roots bool `yaml:"roots" json:"roots,omitempty"`
 }
 
 // Resampling are the settings of the resampling estimators.

@@ -491,6 +491,7 @@ func (s *Scenario) validateEstimators(c checker) {
 			c.fail(path+".stop.require", "want any or all, got %q", st.Require)
 		}
 	}
+	s.validateAudits(c)
 	if !labels[s.Reference] {
 		c.fail("reference", "no estimator labelled %q; labels: %s", s.Reference, strings.Join(s.estimatorLabels(), ", "))
 	}

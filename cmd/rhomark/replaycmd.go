@@ -34,13 +34,15 @@ type traceStep struct {
 
 // replayFit is one estimator's replayed fit.
 type replayFit struct {
-	Estimator    string      `json:"estimator"`
-	Method       string      `json:"method"`
-	Status       string      `json:"status"`
-	Iterations   int         `json:"iterations"`
-	Scale        float64     `json:"scale"`
-	Coefficients []float64   `json:"coefficients"`
-	Trace        []traceStep `json:"trace"`
+	Estimator    string       `json:"estimator"`
+	Method       string       `json:"method"`
+	Status       string       `json:"status"`
+	Iterations   int          `json:"iterations"`
+	Scale        float64      `json:"scale"`
+	Coefficients []float64    `json:"coefficients"`
+	Trace        []traceStep  `json:"trace"`
+	Roots        []replayRoot `json:"roots,omitempty"` // each start's refit, for an estimator with roots: true
+	RootScale    float64      `json:"root_scale,omitempty"`
 }
 
 func replayCmd(e env, args []string) error {
@@ -123,6 +125,11 @@ func replayCmd(e env, args []string) error {
 			return fmt.Errorf("estimator %s: %w", spec.Label, err)
 		}
 		f.Status, f.Iterations, f.Scale, f.Coefficients = res.Status.String(), res.Iterations, res.Scale, append([]float64(nil), res.Coefficients...)
+		if spec.Roots {
+			if f.Roots, f.RootScale, err = replayRoots(rp, spec.Label, &est); err != nil {
+				return err
+			}
+		}
 		fits = append(fits, f)
 	}
 	if *asJSON {
@@ -162,6 +169,7 @@ func replayCmd(e env, args []string) error {
 			}
 		}
 		fmt.Fprintf(w, "   final β = %s\n", coefText(names, f.Coefficients))
+		writeReplayRoots(w, names, f.Roots, f.RootScale)
 	}
 	return nil
 }

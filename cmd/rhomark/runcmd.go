@@ -44,11 +44,12 @@ func runCmd(e env, args []string) error {
 		between(0, maxShards), fmt.Sprintf("a number of shares from 1 to %d", maxShards))
 	lim := addLimitFlags(fs.FlagSet)
 	target := addTargetFlag(fs.FlagSet)
+	audit := fs.Bool("audit-solvers", false, "audit every estimator's fits: how far each stopping rule leaves the estimate from its fixed point, in standard errors (as solver-audit: true)")
 	pos, err := parseFlags(fs, args)
 	if err != nil {
 		return err
 	}
-	opt := harness.Options{Replicates: *reps, Workers: *workers, Tool: results.Tool{Name: "rhomark", Version: toolVersion()}}
+	opt := harness.Options{Replicates: *reps, Workers: *workers, Tool: results.Tool{Name: "rhomark", Version: toolVersion()}, AuditSolvers: *audit}
 	if s, ok := seed.get(); ok {
 		opt.Seed = &s
 	}

@@ -1,0 +1,272 @@
+package harness
+
+import (
+	"bytes"
+	"context"
+	"encoding/json"
+	"math"
+	"strings"
+	"testing"
+
+	"github.com/rhomark/rhomark/results"
+)
+
+// auditScenario is the data of the estimators package's audit tests, as a
+// scenario: y = 20 + 2 x1 − x2 + N(0, 1) with 10% of the responses moved
+// up by 8. The intercept is large beside the noise, as in calibration
+// data, so a relative change tolerance is loose in standard errors.
+const auditScenario = `
+seed: 15
+model:
+  n: 100
+  intercept: 20
+  columns: [{name: x1, slope: 2}, {name: x2, slope: -1}]
+noise: {dist: normal, scale: 1}
+contamination:
+  - {label: spikes, kind: vertical, fraction: 0.1, shift: 8}
+estimators:
+  - {label: ls, method: ls}
+  - {label: huber-loose, method: irls, psi: huber, stop: {change: 1e-3}}
+  - {label: huber-tight, method: irls, psi: huber, stop: {change: 1e-12, max-iter: 1000}}
+  - {label: logistic-newton, method: newton, psi: logistic, scale: "fixed:1", stop: {change: 1e-12, max-iter: 1000}}
+  - {label: logistic-newton-mad, method: newton, psi: logistic, stop: {change: 1e-12, max-iter: 1000}}
+`
+
+func estimatorOf(t *testing.T, c results.Cell, label string) results.Estimator {
+	t.Helper()
+	for _, e := range c.Estimators {
+		if e.Label == label {
+			return e
+		}
+	}
+	t.Fatalf("no estimator %s", label)
+	return results.Estimator{}
+}
+
+// TestAuditThroughRun runs the audit end to end (run --audit-solvers) and
+// checks what it must find: least squares has no stopping-rule error; a
+// change tolerance of 1e-3 leaves Huber's IRLS estimate clearly more than
+// 0.01 SE from its fixed point and 1e-12 less than 1e-6 SE; Newton on a
+// smooth psi at a fixed scale converges with order about 2, with the MAD
+// only about linearly.
+func TestAuditThroughRun(t *testing.T) {
+	st := parse(t, auditScenario)
+	res, err := Run(context.Background(), st, Options{Replicates: 40, AuditSolvers: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	c := res.Cells[0]
+	ls := estimatorOf(t, c, "ls").Convergence.StopError
+	if ls == nil || !ls.Direct || ls.Audited != 40 || ls.Max != 0 || ls.OverCount != 0 {
+		t.Errorf("ls: stop error %+v, want direct and exactly 0 on all 40 fits", ls)
+	}
+	loose := estimatorOf(t, c, "huber-loose").Convergence.StopError
+	t.Logf("huber 1e-3: median %v, max %v SE; over 0.01 SE %v", loose.Median, loose.Max, loose.Over)
+	// "Clearly above": the worst fit is three times past 0.01 SE, and
+	// more than a quarter of the fits are past it.
+	if loose == nil || !(loose.Max > 0.03) || !(float64(loose.OverCount) > 0.25*float64(loose.Audited)) {
+		t.Errorf("huber 1e-3: stop error %+v, want a max above 0.03 SE and over a quarter of fits past 0.01 SE", loose)
+	}
+	tight := estimatorOf(t, c, "huber-tight").Convergence.StopError
+	if tight == nil || tight.Audited != 40 || !(tight.Max < 1e-6) {
+		t.Errorf("huber 1e-12: stop error %+v, want every fit below 1e-6 SE", tight)
+	}
+	// The loose rule's advice is a tighter tolerance, at a cost in
+	// iterations.
+	if a, ok := results.AdviseStop(estimatorOf(t, c, "huber-loose")); !ok || !a.Tighten || !(a.Tolerance < 1e-3) || !(a.Iterations > 0) {
+		t.Errorf("huber 1e-3: advice %+v, want a tighter change tolerance needing more iterations", a)
+	}
+	// The tolerance table agrees with the fits actually made: at the
+	// loose rule's own tolerance it takes the iterations the loose fits
+	// took (IRLS is deterministic and the tight fits pass the same
+	// iterates).
+	hc := estimatorOf(t, c, "huber-tight").Convergence
+	if row := hc.Tolerances[1]; row.Tolerance != 1e-3 || row.MedianIterations != estimatorOf(t, c, "huber-loose").Convergence.MedianIterations {
+		t.Errorf("tolerance row %+v: want 1e-3 at the loose fits' median iterations %v", row, estimatorOf(t, c, "huber-loose").Convergence.MedianIterations)
+	}
+	// Newton converges quadratically near a simple root when its Jacobian
+	// is exact (common practice). Its order is read at the pair of steps
+	// nearest the root, q +
+	// ln C / ln Δ (estimators.Rate); the estimators package's test bounds
+	// that bias by 3/|ln Δ| < 0.5 on these data, so the median over fits
+	// lies within 0.5 of 2.
+	nw := estimatorOf(t, c, "logistic-newton").Convergence.Rate
+	if nw == nil || nw.Kind != "order" || !(math.Abs(float64(nw.Median)-2) < 0.5) || nw.Note != "" {
+		t.Errorf("newton, fixed scale: rate %+v, want an order within 0.5 of 2", nw)
+	}
+	mad := estimatorOf(t, c, "logistic-newton-mad").Convergence.Rate
+	if mad == nil || !(mad.Median > 0.5 && mad.Median < 1.5) || !strings.Contains(mad.Note, "MAD") {
+		t.Errorf("newton, MAD: rate %+v, want an order near 1 with the note on the MAD", mad)
+	}
+	ir := estimatorOf(t, c, "huber-tight").Convergence.Rate
+	if ir == nil || ir.Kind != "linear" || !(ir.Median > 0 && ir.Median < 1) {
+		t.Errorf("irls: rate %+v, want a linear rate in (0, 1)", ir)
+	}
+	var b strings.Builder
+	if err := results.WriteTable(&b, res, 100); err != nil {
+		t.Fatal(err)
+	}
+	if !strings.Contains(b.String(), "huber-loose (change 1e-3): stopping rule leaves the estimate") || !strings.Contains(b.String(), "tighten change to") {
+		t.Errorf("the table does not lead with the audit's answer:\n%s", b.String())
+	}
+}
+
+// rootsScenario has a clean cell and one where 15% of the rows are bad
+// leverage points: there least squares and LAD sit near a second root of
+// the bisquare's equations, which the S start and the truth avoid.
+const rootsScenario = `
+seed: 16
+model:
+  n: 40
+  intercept: 0.3
+  columns: [{name: volume, slope: 0.98, dist: levels, levels: [5, 10, 20, 50, 100]}]
+noise: {dist: normal, scale: 0.15}
+contamination:
+  - {label: mislabelled, kind: bad-leverage, fraction: 0.15, at: 200, response: 19.9, spread: 0.3}
+estimators:
+  - {label: ls, method: ls}
+  - {label: bisquare, method: irls, psi: bisquare, roots: true, solver-audit: true}
+vary:
+  contamination.mislabelled.fraction: [0, 0.15]
+`
+
+// TestRootsThroughRun checks that a run finds the two roots of the
+// bisquare where the data have them, and none on clean data.
+func TestRootsThroughRun(t *testing.T) {
+	st := parse(t, rootsScenario)
+	res, err := Run(context.Background(), st, Options{Replicates: 32})
+	if err != nil {
+		t.Fatal(err)
+	}
+	clean := estimatorOf(t, res.Cells[0], "bisquare").Convergence.Roots
+	if clean == nil || clean.Searched != 32 || clean.MultipleCount != 0 {
+		t.Errorf("clean cell: %+v, want 32 searches and a single root in each", clean)
+	}
+	bad := estimatorOf(t, res.Cells[1], "bisquare").Convergence.Roots
+	if bad == nil || bad.Searched != 32 || bad.MultipleCount < 16 {
+		t.Fatalf("bad leverage: %+v, want several roots in most replicates", bad)
+	}
+	lad, s := bad.Starts[1], bad.Starts[2]
+	// The mislabelled runs put y ≈ 19.9 at x = 200, where the meter would
+	// read 196: a root that fits them has a gain far below 0.98.
+	if !(math.Abs(float64(s.Bias[1].Value)) < 0.01) || !(math.Abs(float64(lad.Bias[1].Value)) > 0.5) {
+		t.Errorf("gain bias from S %v, from LAD %v: want S near the truth and LAD at the other root", s.Bias[1], lad.Bias[1])
+	}
+	if s.Best != bad.MultipleCount {
+		t.Errorf("S start reached the best root in %d of %d replicates with several roots", s.Best, bad.MultipleCount)
+	}
+}
+
+// TestAuditSameForAnySplit: the study's medians come from every fit's
+// values, which travel in the partials, so 1 or 3 workers, 3 shards merged
+// through their files, and an interrupted and resumed run give the same
+// results, bit for bit.
+func TestAuditSameForAnySplit(t *testing.T) {
+	st := parse(t, rootsScenario)
+	const reps = 96
+	want := func(r *results.Results) []byte {
+		r.Provenance = r.Provenance.WithoutRunDetails()
+		b, _ := json.Marshal(r)
+		return b
+	}
+	single, err := Run(context.Background(), st, Options{Replicates: reps, Workers: 1, AuditSolvers: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	ref := want(single)
+	if !bytes.Contains(ref, []byte(`"stop_error"`)) || !bytes.Contains(ref, []byte(`"roots"`)) {
+		t.Fatal("the results hold no solver study")
+	}
+	three, err := Run(context.Background(), st, Options{Replicates: reps, Workers: 3, AuditSolvers: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !bytes.Equal(want(three), ref) {
+		t.Error("3 workers differ from 1")
+	}
+	var parts []*Partial
+	for s := 2; s >= 0; s-- {
+		_, p, err := RunPartial(context.Background(), st, Options{Replicates: reps, Shard: s, Shards: 3, AuditSolvers: true})
+		if err != nil {
+			t.Fatal(err)
+		}
+		parts = append(parts, roundTripPartial(t, p))
+	}
+	merged, mst, err := MergePartials(parts, scenariosLimits())
+	if err != nil {
+		t.Fatal(err)
+	}
+	res, err := Summarise(mst, merged, single.Tool)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !bytes.Equal(want(res), ref) {
+		t.Error("3 shards merged differ from the single run")
+	}
+
+	ctx, cancel := context.WithCancel(context.Background())
+	var last *Partial
+	_, _, err = RunPartial(ctx, st, Options{Replicates: reps, Workers: 1, AuditSolvers: true,
+		Progress:   func(r ProgressReport) { cancel() },
+		Checkpoint: func(p *Partial) error { last = p; return nil }})
+	if err == nil || last == nil || last.Complete() {
+		t.Fatalf("the run was not interrupted: %v", err)
+	}
+	back := roundTripPartial(t, last)
+	// The flag is taken from the checkpoint.
+	resumed, err := Run(context.Background(), st, Options{Replicates: reps, Resume: back})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !bytes.Equal(want(resumed), ref) {
+		t.Error("the resumed run differs from the uninterrupted one")
+	}
+	// A checkpoint without the audit cannot be resumed with it.
+	_, plain, err := RunPartial(context.Background(), st, Options{Replicates: reps, Shard: 0, Shards: 2})
+	if err != nil {
+		t.Fatal(err)
+	}
+	_, err = Run(context.Background(), st, Options{Replicates: reps, Shard: 0, Shards: 2, Resume: roundTripPartial(t, plain), AuditSolvers: true})
+	if err == nil || !strings.Contains(err.Error(), "--audit-solvers") {
+		t.Errorf("resuming an unaudited checkpoint with the audit: %v, want a refusal naming --audit-solvers", err)
+	}
+	// Nor merged with audited shards.
+	_, p1, err := RunPartial(context.Background(), st, Options{Replicates: reps, Shard: 1, Shards: 2, AuditSolvers: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, _, err := MergePartials([]*Partial{plain, p1}, scenariosLimits()); err == nil || !strings.Contains(err.Error(), "--audit-solvers") {
+		t.Errorf("merging audited and unaudited shards: %v, want a refusal naming --audit-solvers", err)
+	}
+}
+
+// TestAuditOffLeavesResultsAlone: without the study the results have no
+// trace of it (so results files and baselines are unchanged).
+func TestAuditOffLeavesResultsAlone(t *testing.T) {
+	st := parse(t, flowMeterLike)
+	res, err := Run(context.Background(), st, Options{Replicates: 8})
+	if err != nil {
+		t.Fatal(err)
+	}
+	b, _ := json.Marshal(res)
+	for _, key := range []string{"stop_error", `"rate":{"kind"`, "tolerances", `"roots"`} {
+		if bytes.Contains(b, []byte(key)) {
+			t.Errorf("results without the audit mention %s", key)
+		}
+	}
+	if results.HasSolverStudy(res) || strings.Contains(string(csvOf(t, res)), "stop_error") {
+		t.Error("results without the audit report a solver study")
+	}
+}
+
+// TestAuditBudget: an audit too large to keep every fit's values is
+// refused before any work, naming what to reduce.
+func TestAuditBudget(t *testing.T) {
+	st := parse(t, flowMeterLike)
+	// 4 estimators × 2 coefficients: 4·(2 + 2 + 26) values per replicate,
+	// so 300,000 replicates pass 2^25.
+	_, err := Run(context.Background(), st, Options{Replicates: 300_000, AuditSolvers: true})
+	if err == nil || !strings.Contains(err.Error(), "fewer replicates") {
+		t.Errorf("got %v, want the audit refused for its size", err)
+	}
+}
