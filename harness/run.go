@@ -77,6 +77,18 @@ type Options struct {
 	// (the psi compared as a value; a psi that cannot be compared, or a
 	// Trace, is fitted in each cell).
 	Adjust func(cell int, label string, e *estimators.Estimator)
+	// AllowCommands lets the estimators of method external run their
+	// programs (see harness/external.go); without it a scenario with one
+	// is refused with a *CommandError.
+	AllowCommands bool
+	// Fitters are the estimators of method go, by label. Every worker
+	// calls them, each with its own Workspace: they must be safe for
+	// concurrent use.
+	Fitters map[string]estimators.Fitter
+	// Stderr receives the standard error of external programs, each line
+	// prefixed by the label, and a line for each failed external fit; nil
+	// means os.Stderr.
+	Stderr io.Writer
 
 	// unitCells, if positive, replaces the default group size (tests).
 	unitCells int
@@ -142,6 +154,9 @@ type fitPlan struct {
 	key   uint64 // EstimatorKey of the label: the estimator's stream
 	label string
 	cell  int // the first cell that uses it, for messages
+	// outside, for an estimator of method external or go, says what fits
+	// it (bindOutside); nil for rhomark's own methods.
+	outside *outsideFit
 }
 
 // fitIdentity is what makes two cells' estimators the same fit of the same
@@ -158,6 +173,7 @@ type fitIdentity struct {
 	startFrom  estimators.Method
 	resampling estimators.Resampling
 	settings   estimators.Settings
+	outside    string // outsideKey of the estimator's entry
 }
 
 // unshared marks an estimator that is fitted for its own cell only.
@@ -207,6 +223,7 @@ func groupCells(plans []cellPlan, size int) []groupPlan {
 				for j := range p.ests {
 					label := p.cell.Scenario.Estimators[j].Label
 					id := identityOf(label, &p.ests[j], c, j)
+					id.outside = outsideKey(p.cell.Scenario.Estimators[j])
 					f, ok := ids[id]
 					if !ok {
 						f = len(g.fits)
@@ -292,6 +309,9 @@ func RunPartial(ctx context.Context, st *scenarios.Study, opt Options) (*results
 		size = keepUnitCells(plans, reps)
 	}
 	groups := groupCells(plans, size)
+	if err := bindOutside(st, plans, groups, opt); err != nil {
+		return nil, nil, err
+	}
 	total := 0
 	for _, g := range groups {
 		total += g.blocks
@@ -365,6 +385,8 @@ func RunPartial(ctx context.Context, st *scenarios.Study, opt Options) (*results
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
+			pool := newOutsidePool(ctx, opt)
+			defer pool.close()
 			var wk *worker
 			for {
 				k := int(next.Add(1) - 1)
@@ -375,6 +397,7 @@ func RunPartial(ctx context.Context, st *scenarios.Study, opt Options) (*results
 				g := &groups[groupOf(groups, u)]
 				if wk == nil || wk.group != g {
 					wk = newWorker(plans, g, seed)
+					wk.pool = pool
 					wk.keep = keep != nil
 				}
 				b := u - g.firstUnit
@@ -488,7 +511,7 @@ func plan(st *scenarios.Study, reps int) ([]cellPlan, error) {
 			}
 			e, ok := built[string(text)]
 			if !ok {
-				if e, err = spec.Build(); err != nil {
+				if e, err = buildSpec(spec); err != nil {
 					return nil, fmt.Errorf("cell %d: %w", i, err)
 				}
 				built[string(text)] = e
@@ -531,6 +554,9 @@ type worker struct {
 	kept    []keptBlock
 	keepBuf []byte
 	err     error // a fit failed in a way that is not a status
+	// The worker goroutine's outside programs, and the unit's batch.
+	pool  *outsidePool
+	batch *outsideBatch
 }
 
 func newWorker(plans []cellPlan, g *groupPlan, seed uint64) *worker {
@@ -564,6 +590,9 @@ func (w *worker) runBlock(ctx context.Context, lo, hi int) bool {
 		k := &w.kept[i]
 		k.status, k.iters, k.coefs = k.status[:0], k.iters[:0], k.coefs[:0]
 	}
+	if !w.fetchOutside(ctx, lo, hi) {
+		return false
+	}
 	for r := lo; r < hi; r++ {
 		if ctx.Err() != nil {
 			return false
@@ -583,8 +612,11 @@ func (w *worker) replicate(r int) {
 	x, _ := w.rp.Draw(r)
 	for f := range g.fits {
 		fp := &g.fits[f]
+		if w.takeReply(f, r) {
+			continue
+		}
 		t0 := time.Now()
-		if err := w.rp.fit(fp.key, &fp.est, &w.ws[f], &w.res[f]); err != nil {
+		if err := w.rp.fit(fp.key, fp.fitter(), &w.ws[f], &w.res[f]); err != nil {
 			// Shapes and settings were validated, so this is a bug; stop
 			// the run and report it rather than guess.
 			w.err = fmt.Errorf("cell %d replicate %d, estimator %s: %w", fp.cell, r, fp.label, err)
@@ -592,7 +624,7 @@ func (w *worker) replicate(r int) {
 		}
 		w.nanos[f] = int64(time.Since(t0))
 		res := &w.res[f]
-		w.seOK[f] = res.Status.Converged() && w.ws[f].StandardErrors(fp.est, x, res, w.se[f])
+		w.seOK[f] = fp.outside == nil && res.Status.Converged() && w.ws[f].StandardErrors(fp.est, x, res, w.se[f])
 	}
 	for i, c := range g.cells {
 		w.record(&w.plans[c], w.tallies[i], g.use[i], &w.kept[i])
