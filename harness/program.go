@@ -25,6 +25,7 @@ type ProgramFitter struct {
 	// them as a run would.
 	Replicate int
 	Seed      uint64
+	stderr    io.Writer
 	reqs      []external.Request
 	replies   []external.Reply
 }
@@ -32,7 +33,8 @@ type ProgramFitter struct {
 // StartProgram starts the program of spec, an estimator of method
 // external of study st (whose file's folder it runs in), for datasets
 // with the coefficients names. Its standard error, and a line for each
-// failed fit, go to stderr (os.Stderr when nil). Running a program needs
+// failed fit naming the estimator and the replicate, go to stderr
+// (os.Stderr when nil). Running a program needs
 // the caller's consent: StartProgram does not check CheckCommands.
 func StartProgram(st *scenarios.Study, spec scenarios.EstimatorSpec, names []string, stderr io.Writer) (*ProgramFitter, error) {
 	if spec.Method != scenarios.MethodExternal {
@@ -44,7 +46,7 @@ func StartProgram(st *scenarios.Study, spec scenarios.EstimatorSpec, names []str
 	if err != nil {
 		return nil, err
 	}
-	return &ProgramFitter{proc: proc, names: names, reqs: make([]external.Request, 1), replies: make([]external.Reply, 1)}, nil
+	return &ProgramFitter{proc: proc, names: names, stderr: stderr, reqs: make([]external.Request, 1), replies: make([]external.Reply, 1)}, nil
 }
 
 // Fit sends x and y to the program and records its reply in res, with a
@@ -59,6 +61,9 @@ func (f *ProgramFitter) Fit(x *mat.Dense, y []float64, _ *estimators.Workspace, 
 	f.reqs[0] = external.Request{Replicate: f.Replicate, X: x, Y: y, Names: f.names, Seed: f.Seed}
 	f.proc.FitBatch(f.reqs, f.replies)
 	replyResult(&f.replies[0], p, res)
+	if err := f.replies[0].Err; err != nil {
+		fmt.Fprintf(f.stderr, "rhomark: %v\n", err)
+	}
 	return nil
 }
 

@@ -44,11 +44,13 @@ func runCmd(e env, args []string) error {
 		between(0, maxShards), fmt.Sprintf("a number of shares from 1 to %d", maxShards))
 	lim := addLimitFlags(fs.FlagSet)
 	target := addTargetFlag(fs.FlagSet)
+	allowCommands := addAllowCommands(fs.FlagSet)
 	pos, err := parseFlags(fs, args)
 	if err != nil {
 		return err
 	}
-	opt := harness.Options{Replicates: *reps, Workers: *workers, Tool: results.Tool{Name: "rhomark", Version: toolVersion()}}
+	opt := harness.Options{Replicates: *reps, Workers: *workers, Tool: results.Tool{Name: "rhomark", Version: toolVersion()},
+		AllowCommands: *allowCommands, Stderr: e.stderr}
 	if s, ok := seed.get(); ok {
 		opt.Seed = &s
 	}
@@ -113,6 +115,9 @@ func runCmd(e env, args []string) error {
 		if st, err = loadScenario(pos[0], limits); err != nil {
 			return err
 		}
+	}
+	if err := checkCommands(st, *allowCommands); err != nil {
+		return err
 	}
 	name, err := results.SafeName(st.Base.Name)
 	if err != nil {
