@@ -23,14 +23,15 @@ const fakeMarker = "rhomark-cli-fake-ls"
 
 func TestMain(m *testing.M) {
 	if len(os.Args) >= 2 && os.Args[1] == fakeMarker {
-		os.Exit(fakeLS())
+		os.Exit(fakeLS(len(os.Args) > 2 && os.Args[2] == "v2"))
 	}
 	os.Exit(m.Run())
 }
 
 // fakeLS answers each request with its least-squares fit (gonum's QR),
-// and says hello on standard error.
-func fakeLS() int {
+// and says hello on standard error. Its "version 2" (v2) has a bug: it
+// fails on every replicate r with r mod 5 = 2.
+func fakeLS(v2 bool) int {
 	in := bufio.NewReaderSize(os.Stdin, 1<<20)
 	out := bufio.NewWriter(os.Stdout)
 	fmt.Fprintln(os.Stderr, "meter model loaded")
@@ -40,7 +41,8 @@ func fakeLS() int {
 			return 0
 		}
 		var req struct {
-			X [][]float64 `json:"x"`
+			Replicate int         `json:"replicate"`
+			X         [][]float64 `json:"x"`
 			Y []float64   `json:"y"`
 		}
 		if err := json.Unmarshal(line, &req); err != nil {
@@ -53,9 +55,12 @@ func fakeLS() int {
 		var qr mat.QR
 		qr.Factorize(x)
 		var beta mat.VecDense
-		if err := qr.SolveVecTo(&beta, false, mat.NewVecDense(len(req.Y), req.Y)); err != nil {
+		switch err := qr.SolveVecTo(&beta, false, mat.NewVecDense(len(req.Y), req.Y)); {
+		case err != nil:
 			fmt.Fprintf(out, "{\"error\":%q}\n", err.Error())
-		} else {
+		case v2 && req.Replicate%5 == 2:
+			fmt.Fprintf(out, "{\"error\":\"index out of range\"}\n")
+		default:
 			b, _ := json.Marshal(map[string]any{"coefficients": beta.RawVector().Data})
 			out.Write(append(b, '\n'))
 		}
@@ -64,8 +69,9 @@ func fakeLS() int {
 }
 
 // fakeBench writes a flow-meter bench scenario whose estimator "prog" runs
-// the fake least-squares program, and returns its path.
-func fakeBench(t *testing.T) string {
+// the fake least-squares program (with the extra arguments), and returns
+// its path.
+func fakeBench(t *testing.T, extra ...string) string {
 	t.Helper()
 	exe, err := os.Executable()
 	if err != nil {
@@ -84,7 +90,7 @@ noise: {dist: normal, scale: 0.1}
 estimators:
   - {label: ls, method: ls}
   - {label: prog, method: external, command: [%q, %s]}
-`, exe, fakeMarker)
+`, exe, strings.Join(append([]string{fakeMarker}, extra...), ", "))
 	if err := os.WriteFile(path, []byte(src), 0o644); err != nil {
 		t.Fatal(err)
 	}
@@ -225,6 +231,35 @@ func TestExampleProgramsMatchIRLS(t *testing.T) {
 			if c.Index == 0 && !(math.Abs(float64(got.TheoryEfficiency-want.TheoryEfficiency)) < 1e-12) {
 				t.Errorf("%s: theory %v, huber %v", label, got.TheoryEfficiency, want.TheoryEfficiency)
 			}
+		}
+	}
+}
+
+// TestCompareProgramVersions: the README's regression test of a program.
+// Two versions of an external program, named by two commands, make one
+// study for compare: the same version again changes nothing (exit 0); a
+// version that fails on some datasets is flagged (exit 1) with its new
+// failures.
+func TestCompareProgramVersions(t *testing.T) {
+	dir := t.TempDir()
+	runs := map[string]string{}
+	for name, extra := range map[string][]string{"v1": nil, "v1-again": nil, "v2": {"v2"}} {
+		runs[name] = filepath.Join(dir, name)
+		code, _, errs := rhomark(t, "run", fakeBench(t, extra...), "--allow-commands", "--replicates", "40", "--keep-replicates", "--quiet", "--out", runs[name])
+		if code != exitOK {
+			t.Fatalf("%s: exit %d: %s", name, code, errs)
+		}
+	}
+	if code, out, errs := rhomark(t, "compare", runs["v1"], runs["v1-again"]); code != exitOK {
+		t.Errorf("the same program: exit %d\n%s%s", code, out, errs)
+	}
+	code, out, errs := rhomark(t, "compare", runs["v1"], runs["v2"])
+	if code != exitFailure {
+		t.Fatalf("version 2: exit %d, want 1 (flagged)\n%s%s", code, out, errs)
+	}
+	for _, want := range []string{"estimators.prog.command: ", "MORE FAILURES (prog", "external-ok → external-program-error"} {
+		if !strings.Contains(out, want) {
+			t.Errorf("report lacks %q:\n%s", want, out)
 		}
 	}
 }
