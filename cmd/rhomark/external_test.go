@@ -43,7 +43,7 @@ func fakeLS(v2 bool) int {
 		var req struct {
 			Replicate int         `json:"replicate"`
 			X         [][]float64 `json:"x"`
-			Y []float64   `json:"y"`
+			Y         []float64   `json:"y"`
 		}
 		if err := json.Unmarshal(line, &req); err != nil {
 			return 3
