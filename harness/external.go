@@ -33,6 +33,13 @@ import (
 // declared psi: no method, so no theory and no curves.
 const noMethod = estimators.Method(-1)
 
+// maxSilentStarts is how many times a worker starts a program that has
+// never given a valid reply before the run stops with an error: such a
+// program cannot run here (a missing library, a wrong path, a banner on
+// standard output), and restarting it for every fit would only waste the
+// run's time.
+const maxSilentStarts = 3
+
 // maxFailureNotes bounds the messages about failed fits written per
 // program and worker; the statuses count every failure.
 const maxFailureNotes = 20
@@ -185,6 +192,7 @@ type outsidePool struct {
 	mu       sync.Mutex
 	procs    map[string]*external.Process
 	notes    map[string]int
+	answered map[string]bool // programs that have given a valid reply
 	isClosed bool
 }
 
@@ -232,6 +240,28 @@ func (p *outsidePool) note(label string, err error) {
 	case k == maxFailureNotes:
 		fmt.Fprintf(p.stderr, "rhomark: external estimator %q: further failures of this worker's program are only counted in the statuses\n", label)
 	}
+}
+
+// replied records whether any of replies is a valid reply of o's program
+// (one that kept it running), and reports whether the program has ever
+// given one.
+func (p *outsidePool) replied(o *outsideFit, replies []external.Reply) bool {
+	p.mu.Lock()
+	defer p.mu.Unlock()
+	if p.answered[o.key] {
+		return true
+	}
+	for i := range replies {
+		switch replies[i].Status {
+		case external.OK, external.NotConverged, external.ProgramError, external.WrongLength, external.NonFinite:
+			if p.answered == nil {
+				p.answered = map[string]bool{}
+			}
+			p.answered[o.key] = true
+			return true
+		}
+	}
+	return false
 }
 
 // close stops every program of the pool, at once and all together.
@@ -332,16 +362,31 @@ func (w *worker) fetchOutside(ctx context.Context, lo, hi int) bool {
 			reqs[i].Seed = outsideSeed(w.rp.seed, w.rp.dataKey, lo+i, fp.key)
 		}
 		t0 := time.Now()
-		proc.FitBatch(reqs, b.replies[f])
-		b.nanos[f] = int64(time.Since(t0)) / int64(len(reqs))
-		if ctx.Err() != nil {
-			return false
-		}
-		for i := range reqs {
-			if err := b.replies[f][i].Err; err != nil {
-				w.pool.note(fp.label, err)
+		// Until the program has given a valid reply, it gets one request
+		// at a time, so that one that cannot run is given up quickly.
+		for done := 0; done < len(reqs); {
+			k := len(reqs) - done
+			if !w.pool.replied(fp.outside, nil) {
+				k = 1
 			}
+			replies := b.replies[f][done : done+k]
+			proc.FitBatch(reqs[done:done+k], replies)
+			if ctx.Err() != nil {
+				return false
+			}
+			for i := range replies {
+				if err := replies[i].Err; err != nil {
+					w.pool.note(fp.label, err)
+				}
+			}
+			if !w.pool.replied(fp.outside, replies) && proc.Starts() >= maxSilentStarts {
+				w.err = fmt.Errorf("external estimator %q: its program %s was started %d times and never gave a valid reply (its standard error, above, may say why)",
+					fp.label, quoteCommand(fp.outside.cmd.Args), proc.Starts())
+				return false
+			}
+			done += k
 		}
+		b.nanos[f] = int64(time.Since(t0)) / int64(len(reqs))
 	}
 	return true
 }

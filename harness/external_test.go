@@ -54,10 +54,15 @@ type fakeRequest struct {
 //	         no reply (until killed); every other replicate is answered
 //	hang     writes "waiting at r" and never answers from replicate 40 on
 //	instant  answers every line with fixed coefficients without reading it
+//	broken   cannot load what it needs: says so and exits at once
 func runFakeEstimator(mode string) int {
 	in := bufio.NewReaderSize(os.Stdin, 1<<20)
 	out := bufio.NewWriter(os.Stdout)
 	fmt.Fprintf(os.Stderr, "pid %d\n", os.Getpid())
+	if mode == "broken" {
+		fmt.Fprintln(os.Stderr, "cannot load the meter model")
+		return 1
+	}
 	for {
 		line, err := in.ReadBytes('\n')
 		if len(line) == 0 && err != nil {
@@ -334,6 +339,26 @@ func TestExternalFailuresAreStatuses(t *testing.T) {
 	checkGone(t, pids(t, msgs))
 }
 
+// TestBrokenProgramStopsRun: a program that never replies (it dies at
+// every start) stops the run after maxSilentStarts starts per worker with
+// an error naming it, rather than being restarted for every fit; its
+// standard error says why, and the run's finished work is returned.
+func TestBrokenProgramStopsRun(t *testing.T) {
+	st := fakeScenario(t, "broken", "20s")
+	var stderr syncBuffer
+	res, err := Run(context.Background(), st, Options{Workers: 1, AllowCommands: true, Stderr: &stderr})
+	if err == nil || !strings.Contains(err.Error(), `"prog"`) || !strings.Contains(err.Error(), "never gave a valid reply") {
+		t.Fatalf("got %v, want an error naming prog", err)
+	}
+	if res == nil || res.Complete {
+		t.Errorf("want incomplete results, got %v", res)
+	}
+	if n := strings.Count(stderr.String(), "[prog] cannot load the meter model"); n != maxSilentStarts {
+		t.Errorf("the program was started %d times, want %d", n, maxSilentStarts)
+	}
+	checkGone(t, pids(t, stderr.String()))
+}
+
 // TestExternalCancelLeavesNoProcess: cancelling a run while a program is
 // in the middle of a batch stops the run promptly (long before the
 // program's one-minute timeout) and leaves no process behind.
@@ -368,13 +393,20 @@ func TestExternalCancelLeavesNoProcess(t *testing.T) {
 
 // TestCommandsNeedConsent: without AllowCommands a scenario with a
 // command is refused before anything runs, naming the label and the
-// command; a go estimator needs its Fitter.
+// command; a program that cannot be started stops the run with an error
+// naming it; a go estimator needs its Fitter.
 func TestCommandsNeedConsent(t *testing.T) {
 	st := fakeScenario(t, "ls", "20s")
 	_, err := Run(context.Background(), st, Options{})
 	var ce *CommandError
 	if !errors.As(err, &ce) || ce.Label != "prog" || !strings.Contains(err.Error(), fakeMarker) {
 		t.Fatalf("got %v, want a *CommandError naming prog and its command", err)
+	}
+	missing := fakeScenario(t, "ls", "20s")
+	missing.Cells[0].Scenario.Estimators[1].Command = []string{"./no-such-meter-program"}
+	missing.Cells = missing.Cells[:1]
+	if _, err := Run(context.Background(), missing, Options{AllowCommands: true}); err == nil || !strings.Contains(err.Error(), `"prog"`) {
+		t.Errorf("a program that cannot start: got %v, want an error naming prog", err)
 	}
 	gost, err := scenarios.Parse("g.yaml", []byte("model: {n: 10, columns: [{name: volume}]}\nestimators: [{label: mine, method: go}]\n"), scenarios.Limits{})
 	if err != nil {

@@ -16,8 +16,14 @@ func addAllowCommands(fs *flag.FlagSet) *bool {
 
 // checkCommands refuses, as a usage error (exit 2), a scenario that runs a
 // program when --allow-commands was not given, naming the estimator and
-// its command.
+// its command, and a scenario with a go estimator, which only a Go
+// program can supply.
 func checkCommands(st *scenarios.Study, allow bool) error {
+	for _, spec := range st.Base.Estimators {
+		if spec.Method == scenarios.MethodGo {
+			return goOnly(spec)
+		}
+	}
 	if allow {
 		return nil
 	}
@@ -27,13 +33,18 @@ func checkCommands(st *scenarios.Study, allow bool) error {
 	return nil
 }
 
+// goOnly is the refusal of an estimator of method go on the command line.
+func goOnly(spec scenarios.EstimatorSpec) error {
+	return usagef("estimator %q has method go: it exists only in the Go program that registers it (harness.Options.Fitters), not on the command line", spec.Label)
+}
+
 // outsideFitter returns the Fitter of an outside estimator for replay and
 // breakdown, which fit one dataset at a time: a running program for method
 // external (stopped by the returned function), and an error for method go,
 // whose estimators exist only inside a Go program.
 func outsideFitter(e env, st *scenarios.Study, spec scenarios.EstimatorSpec, names []string) (estimators.Fitter, func() error, error) {
 	if spec.Method == scenarios.MethodGo {
-		return nil, nil, usagef("estimator %q has method go: it exists only in the Go program that registers it (harness.Options.Fitters), not on the command line", spec.Label)
+		return nil, nil, goOnly(spec)
 	}
 	pf, err := harness.StartProgram(st, spec, names, e.stderr)
 	if err != nil {

@@ -121,6 +121,20 @@ func TestCommandsNeedAllowCommands(t *testing.T) {
 	}
 }
 
+// TestGoEstimatorRefused: a scenario with a go estimator cannot run from
+// the command line (exit 2, naming it).
+func TestGoEstimatorRefused(t *testing.T) {
+	path := filepath.Join(t.TempDir(), "go.yaml")
+	if err := os.WriteFile(path, []byte("model: {n: 10, columns: [{name: volume}]}\nestimators: [{label: ls}, {label: mine, method: go}]\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	for _, cmd := range []string{"run", "replay", "breakdown"} {
+		if code, _, errs := rhomark(t, cmd, path, "--allow-commands"); code != exitUsage || !strings.Contains(errs, `"mine" has method go`) {
+			t.Errorf("%s: exit %d, stderr %q", cmd, code, errs)
+		}
+	}
+}
+
 // TestReplayExternal: replay refits an external estimator on the
 // replicate's dataset; a least-squares program agrees with ls there to
 // rounding (1e-9 relative; both solve by QR).
