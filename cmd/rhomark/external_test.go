@@ -209,7 +209,7 @@ func TestExampleProgramsMatchIRLS(t *testing.T) {
 	}
 	defer os.Remove(scenario)
 	out := t.TempDir()
-	code, _, errs := rhomark(t, "run", scenario, "--allow-commands", "--replicates", "60", "--workers", "2", "--quiet", "--out", out)
+	code, _, errs := rhomark(t, "run", scenario, "--allow-commands", "--replicates", "32", "--workers", "2", "--quiet", "--out", out)
 	if code != exitOK {
 		t.Fatalf("exit %d: %s", code, errs)
 	}
@@ -230,7 +230,7 @@ func TestExampleProgramsMatchIRLS(t *testing.T) {
 		want := byLabel["huber"]
 		for _, label := range []string{"huber-python", "huber-r"} {
 			got := byLabel[label]
-			if got.Convergence.Converged != want.Convergence.Converged || got.Convergence.Fits != 60 {
+			if got.Convergence.Converged != want.Convergence.Converged || got.Convergence.Fits != 32 {
 				t.Errorf("cell %d %s: %d of %d fits converged, huber %d", c.Index, label, got.Convergence.Converged, got.Convergence.Fits, want.Convergence.Converged)
 			}
 			for k, wc := range want.Coefficients {
