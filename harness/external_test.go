@@ -13,7 +13,6 @@ import (
 	"strconv"
 	"strings"
 	"sync"
-	"syscall"
 	"testing"
 	"time"
 
@@ -202,16 +201,6 @@ func pids(t *testing.T, stderr string) []int {
 		t.Fatalf("no program wrote its pid; stderr:\n%s", stderr)
 	}
 	return out
-}
-
-// checkGone fails if any of the processes is still running (an orphan).
-func checkGone(t *testing.T, pids []int) {
-	t.Helper()
-	for _, pid := range pids {
-		if err := syscall.Kill(pid, 0); !errors.Is(err, syscall.ESRCH) {
-			t.Errorf("program %d still exists after the run (%v)", pid, err)
-		}
-	}
 }
 
 // TestExternalMatchesBuiltIn: a program fitting least squares gives, cell
