@@ -334,9 +334,6 @@ func (w *worker) fetchOutside(ctx context.Context, lo, hi int) bool {
 		w.batch = b
 	}
 	b := w.batch
-	if b.replies == nil {
-		return true
-	}
 	b.lo = lo
 	reqs := b.reqs[:hi-lo]
 	for r := lo; r < hi; r++ {
