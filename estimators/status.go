@@ -47,6 +47,35 @@ const (
 	// ElementalFailure: a resampling estimator found no elemental subset
 	// of full rank among the subsets it drew.
 	ElementalFailure
+	// ExternalOK: an outside estimator (a program of the user's, see
+	// package external) replied with p finite coefficients.
+	ExternalOK
+	// ExternalNotConverged: an outside estimator said that its fit did
+	// not converge.
+	ExternalNotConverged
+	// ExternalProgramError: an outside estimator replied with an error.
+	ExternalProgramError
+	// ExternalBadReply: an outside estimator's reply was not a reply of
+	// the protocol; the program was restarted.
+	ExternalBadReply
+	// ExternalWrongLength: an outside estimator replied with a number of
+	// coefficients other than p.
+	ExternalWrongLength
+	// ExternalNonFinite: an outside estimator replied with a coefficient
+	// or scale that is not finite.
+	ExternalNonFinite
+	// ExternalTimeout: an outside estimator did not reply within its
+	// timeout; the program was killed and restarted.
+	ExternalTimeout
+	// ExternalExited: an outside estimator's program ended before it
+	// replied; it was restarted.
+	ExternalExited
+	// ExternalStartFailed: an outside estimator's program could not be
+	// started again after a failure.
+	ExternalStartFailed
+	// ExternalBadRequest: the dataset could not be sent to an outside
+	// estimator (a value of it is not finite).
+	ExternalBadRequest
 	numStatuses
 )
 
@@ -86,6 +115,26 @@ func (s Status) String() string {
 		return "no-descent"
 	case ElementalFailure:
 		return "elemental-failure"
+	case ExternalOK:
+		return "external-ok"
+	case ExternalNotConverged:
+		return "external-not-converged"
+	case ExternalProgramError:
+		return "external-program-error"
+	case ExternalBadReply:
+		return "external-bad-reply"
+	case ExternalWrongLength:
+		return "external-wrong-length"
+	case ExternalNonFinite:
+		return "external-non-finite"
+	case ExternalTimeout:
+		return "external-timeout"
+	case ExternalExited:
+		return "external-exited"
+	case ExternalStartFailed:
+		return "external-start-failed"
+	case ExternalBadRequest:
+		return "external-bad-request"
 	}
 	return "unknown-status"
 }
@@ -94,7 +143,7 @@ func (s Status) String() string {
 // directly, converged by a stopping rule, or an exact fit.
 func (s Status) Converged() bool {
 	switch s {
-	case Solved, ConvergedChange, ConvergedEquations, ConvergedAll, ExactFit:
+	case Solved, ConvergedChange, ConvergedEquations, ConvergedAll, ExactFit, ExternalOK:
 		return true
 	}
 	return false

@@ -68,6 +68,9 @@ func planAudits(plans []cellPlan, all bool) error {
 		p := &plans[i]
 		specs := p.cell.Scenario.Estimators
 		for j, spec := range specs {
+			if spec.Outside() {
+				continue // another program's iteration cannot be audited
+			}
 			if spec.SolverAudit || all {
 				if p.aud.audit == nil {
 					p.aud.audit = make([]bool, len(specs))

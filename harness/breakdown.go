@@ -44,6 +44,9 @@ type NamedEstimator struct {
 	Label string
 	// Estimator is the configured estimator.
 	Estimator estimators.Estimator
+	// Fitter, if not nil, fits instead of Estimator (an outside
+	// estimator, such as a *ProgramFitter).
+	Fitter estimators.Fitter
 }
 
 // ReplacementOptions control the breakdown search. Zero values mean the
@@ -288,13 +291,17 @@ func MeasureBreakdown(x *mat.Dense, y []float64, intercept bool, ests []NamedEst
 	xm := mat.NewDense(n, p, nil)
 	ym := make([]float64, n)
 	for _, ne := range ests {
+		var fitter estimators.Fitter = ne.Estimator
+		if ne.Fitter != nil {
+			fitter = ne.Fitter
+		}
 		var ws estimators.Workspace
 		var res estimators.Result
 		// fit returns the coefficients, or the status that made the fit
 		// unusable ("error" when Fit refused the data).
 		fit := func(xx *mat.Dense, yy []float64) ([]float64, string) {
 			ws.SeedRandom(breakdownFitStream(opt.Seed))
-			if err := ne.Estimator.Fit(xx, yy, &ws, &res); err != nil {
+			if err := fitter.Fit(xx, yy, &ws, &res); err != nil {
 				return nil, "error"
 			}
 			if !res.Status.Converged() {

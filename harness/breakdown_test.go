@@ -49,12 +49,12 @@ func breakdownData(n, p int, seed uint64) (*mat.Dense, []float64) {
 // equivariance bound.
 func TestReplacementBreakdown(t *testing.T) {
 	ests := []NamedEstimator{
-		{"ls", estimators.Estimator{}},
-		{"huber", estimators.Estimator{Method: estimators.MethodIRLS, Psi: psi.Huber{K: 1.345}}},
-		{"lad", estimators.Estimator{Method: estimators.MethodLAD}},
-		{"s", estimators.Estimator{Method: estimators.MethodS}},
-		{"mm", estimators.Estimator{Method: estimators.MethodMM}},
-		{"lts", estimators.Estimator{Method: estimators.MethodLTS}},
+		{Label: "ls", Estimator: estimators.Estimator{}},
+		{Label: "huber", Estimator: estimators.Estimator{Method: estimators.MethodIRLS, Psi: psi.Huber{K: 1.345}}},
+		{Label: "lad", Estimator: estimators.Estimator{Method: estimators.MethodLAD}},
+		{Label: "s", Estimator: estimators.Estimator{Method: estimators.MethodS}},
+		{Label: "mm", Estimator: estimators.Estimator{Method: estimators.MethodMM}},
+		{Label: "lts", Estimator: estimators.Estimator{Method: estimators.MethodLTS}},
 	}
 	for _, tc := range []struct {
 		p      int

@@ -16,4 +16,10 @@
 // fit the same datasets (common random numbers), so comparisons between
 // them, and between cells that differ only in their estimators, are
 // paired. Memory does not grow with the number of replicates.
+//
+// Estimators that rhomark does not fit itself run the same way: a
+// scenario's method external names a program, fed a unit's datasets as
+// one batch through package external (see [Options.AllowCommands],
+// [CommandError], [ProgramFitter]), and method go names an
+// estimators.Fitter registered in [Options.Fitters].
 package harness

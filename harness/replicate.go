@@ -72,7 +72,7 @@ func (r *Replicator) Fit(label string, est *estimators.Estimator, ws *estimators
 }
 
 // fit is Fit for an estimator whose key, EstimatorKey(label), is known.
-func (r *Replicator) fit(estKey uint64, est *estimators.Estimator, ws *estimators.Workspace, res *estimators.Result) error {
+func (r *Replicator) fit(estKey uint64, est estimators.Fitter, ws *estimators.Workspace, res *estimators.Result) error {
 	ws.SeedRandom(EstimatorStream(r.seed, r.dataKey, r.rep, estKey))
 	if err := est.Fit(r.x, r.y, ws, res); err != nil && !errors.Is(err, estimators.ErrNonFinite) {
 		return err

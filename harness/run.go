@@ -77,6 +77,18 @@ type Options struct {
 	// (the psi compared as a value; a psi that cannot be compared, or a
 	// Trace, is fitted in each cell).
 	Adjust func(cell int, label string, e *estimators.Estimator)
+	// AllowCommands lets the estimators of method external run their
+	// programs (see harness/external.go); without it a scenario with one
+	// is refused with a *CommandError.
+	AllowCommands bool
+	// Fitters are the estimators of method go, by label. Every worker
+	// calls them, each with its own Workspace: they must be safe for
+	// concurrent use.
+	Fitters map[string]estimators.Fitter
+	// Stderr receives the standard error of external programs, each line
+	// prefixed by the label, and a line for each failed external fit; nil
+	// means os.Stderr.
+	Stderr io.Writer
 
 	// AuditSolvers audits every estimator's fits as if each had
 	// solver-audit: true (see results.StopError); a resumed run keeps its
@@ -153,6 +165,9 @@ type fitPlan struct {
 	label string
 	cell  int // the first cell that uses it, for messages
 	aud   fitAudit
+	// outside, for an estimator of method external or go, says what fits
+	// it (bindOutside); nil for rhomark's own methods.
+	outside *outsideFit
 }
 
 // fitIdentity is what makes two cells' estimators the same fit of the same
@@ -169,6 +184,7 @@ type fitIdentity struct {
 	startFrom  estimators.Method
 	resampling estimators.Resampling
 	settings   estimators.Settings
+	outside    string // outsideKey of the estimator's entry
 }
 
 // unshared marks an estimator that is fitted for its own cell only.
@@ -218,6 +234,7 @@ func groupCells(plans []cellPlan, size int) []groupPlan {
 				for j := range p.ests {
 					label := p.cell.Scenario.Estimators[j].Label
 					id := identityOf(label, &p.ests[j], c, j)
+					id.outside = outsideKey(p.cell.Scenario.Estimators[j])
 					f, ok := ids[id]
 					if !ok {
 						f = len(g.fits)
@@ -307,6 +324,9 @@ func RunPartial(ctx context.Context, st *scenarios.Study, opt Options) (*results
 		size = keepUnitCells(plans, reps)
 	}
 	groups := groupCells(plans, size)
+	if err := bindOutside(st, plans, groups, opt); err != nil {
+		return nil, nil, err
+	}
 	total := 0
 	for _, g := range groups {
 		total += g.blocks
@@ -380,6 +400,8 @@ func RunPartial(ctx context.Context, st *scenarios.Study, opt Options) (*results
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
+			pool := newOutsidePool(ctx, opt)
+			defer pool.close()
 			var wk *worker
 			for {
 				k := int(next.Add(1) - 1)
@@ -390,6 +412,7 @@ func RunPartial(ctx context.Context, st *scenarios.Study, opt Options) (*results
 				g := &groups[groupOf(groups, u)]
 				if wk == nil || wk.group != g {
 					wk = newWorker(plans, g, seed)
+					wk.pool = pool
 					wk.keep = keep != nil
 				}
 				b := u - g.firstUnit
@@ -503,7 +526,7 @@ func plan(st *scenarios.Study, reps int) ([]cellPlan, error) {
 			}
 			e, ok := built[string(text)]
 			if !ok {
-				if e, err = spec.Build(); err != nil {
+				if e, err = buildSpec(spec); err != nil {
 					return nil, fmt.Errorf("cell %d: %w", i, err)
 				}
 				built[string(text)] = e
@@ -547,6 +570,9 @@ type worker struct {
 	keepBuf []byte
 	err     error // a fit failed in a way that is not a status
 	aud     *workerAudit
+	// The worker goroutine's outside programs, and the unit's batch.
+	pool  *outsidePool
+	batch *outsideBatch
 }
 
 func newWorker(plans []cellPlan, g *groupPlan, seed uint64) *worker {
@@ -581,6 +607,9 @@ func (w *worker) runBlock(ctx context.Context, lo, hi int) bool {
 		k := &w.kept[i]
 		k.status, k.iters, k.coefs = k.status[:0], k.iters[:0], k.coefs[:0]
 	}
+	if !w.fetchOutside(ctx, lo, hi) {
+		return false
+	}
 	for r := lo; r < hi; r++ {
 		if ctx.Err() != nil {
 			return false
@@ -600,9 +629,15 @@ func (w *worker) replicate(r int) {
 	x, y := w.rp.Draw(r)
 	for f := range g.fits {
 		fp := &g.fits[f]
-		est := w.aud.estimator(f, &fp.est)
+		if w.takeReply(f, r) {
+			continue
+		}
+		var fitter estimators.Fitter = w.aud.estimator(f, &fp.est)
+		if fp.outside != nil {
+			fitter = fp.fitter()
+		}
 		t0 := time.Now()
-		if err := w.rp.fit(fp.key, est, &w.ws[f], &w.res[f]); err != nil {
+		if err := w.rp.fit(fp.key, fitter, &w.ws[f], &w.res[f]); err != nil {
 			// Shapes and settings were validated, so this is a bug; stop
 			// the run and report it rather than guess.
 			w.err = fmt.Errorf("cell %d replicate %d, estimator %s: %w", fp.cell, r, fp.label, err)
@@ -610,7 +645,7 @@ func (w *worker) replicate(r int) {
 		}
 		w.nanos[f] = int64(time.Since(t0))
 		res := &w.res[f]
-		w.seOK[f] = res.Status.Converged() && w.ws[f].StandardErrors(fp.est, x, res, w.se[f])
+		w.seOK[f] = fp.outside == nil && res.Status.Converged() && w.ws[f].StandardErrors(fp.est, x, res, w.se[f])
 		if w.aud != nil {
 			if err := w.aud.study(w.rp, fp, f, x, y, res); err != nil {
 				w.err = fmt.Errorf("cell %d replicate %d, estimator %s: %w", fp.cell, r, fp.label, err)

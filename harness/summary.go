@@ -441,6 +441,9 @@ func provenance(workers int, started time.Time, plans []cellPlan, tallies []*cel
 // type name.
 func describe(spec scenarios.EstimatorSpec, e estimators.Estimator) (method, psiName string, tuning []float64) {
 	method, psiName, tuning = spec.Method, spec.Psi.Name(), spec.Tuning
+	if spec.Outside() {
+		return method, psiName, tuning
+	}
 	if m := e.Method.String(); m != method {
 		method = m
 	}

@@ -180,6 +180,10 @@ func estimatorSettingKind(path string, u, v any) SettingKind {
 		return SettingSolver
 	case path == "solver_audit" || path == "roots":
 		return SettingSolver // studies of the solver that change no estimate
+	case path == "command" || strings.HasPrefix(path, "command[") || path == "timeout":
+		// Another version of an external estimator's program, or its
+		// time limit: how the estimator is computed.
+		return SettingSolver
 	case path == "method":
 		iterative := func(m any) bool { return m == "irls" || m == "newton" }
 		if iterative(u) && iterative(v) {

@@ -16,6 +16,17 @@ func (s *Scenario) validateAudits(c checker) {
 	p := s.Coefficients()
 	for i := range s.Estimators {
 		e := &s.Estimators[i]
+		if e.Outside() {
+			// rhomark cannot continue or restart another program's
+			// iteration: it sees only the program's answer.
+			if e.SolverAudit {
+				c.fail(fmt.Sprintf("estimators[%d].solver-audit", i), "is not available for method %s: rhomark sees only the program's answer, not its iteration, so it cannot continue it to its fixed point; audit rhomark's own estimators", e.Method)
+			}
+			if e.Roots {
+				c.fail(fmt.Sprintf("estimators[%d].roots", i), "is not available for method %s: rhomark cannot restart another program's iteration from other starts", e.Method)
+			}
+			continue
+		}
 		if !e.Roots {
 			continue
 		}

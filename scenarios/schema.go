@@ -219,10 +219,24 @@ type EstimatorSpec struct {
 	// or one of the high-breakdown comparators: s-estimate (bisquare
 	// S-estimator, 50% breakdown), mm-estimate (S start and scale, then a
 	// bisquare M-step at 95% efficiency), lts (least trimmed squares) or lad
-	// (least absolute deviations, solved exactly).
+	// (least absolute deviations, solved exactly); external for a program
+	// of the user's (see Command), or go for a Go estimator registered by
+	// label with the harness (harness.Options.Fitters).
 	Method string `yaml:"method" json:"method"`
+	// Command is the program, and its arguments, of an estimator with
+	// method external: run without a shell, from the scenario file's
+	// folder, and fed one dataset per line (see package external).
+	// Required for external and refused for every other method. Running a
+	// scenario with a command needs --allow-commands.
+	Command []string `yaml:"command" json:"command,omitempty"`
+	// Timeout bounds the wait for each fit of an external estimator, as a
+	// duration such as 60s or 2m; positive. Default 60s.
+	Timeout string `yaml:"timeout" json:"timeout,omitempty"`
 	// Psi is the psi of an M-estimator (irls, newton; for mm-estimate the
-	// psi of the M-step, default bisquare 4.685).
+	// psi of the M-step, default bisquare 4.685). For external and go it is
+	// optional and only declares the psi the estimator uses, for the
+	// theory beside simulation and the psi figures: an M-estimator with a
+	// scale consistent at the normal.
 	Psi PsiSpec `yaml:"psi" json:"psi,omitempty"`
 	// Tuning is the family's tuning constant(s): one number or a list.
 	// Default: the family's default.

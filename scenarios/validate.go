@@ -120,6 +120,7 @@ func (s *Scenario) fillDefaults(d *decoder, defaultName string) {
 				e.Method = "irls"
 			}
 		}
+		e.fillOutsideDefaults()
 		m, known := estimators.ParseMethod(e.Method)
 		if f := m.Info().DefaultFamily; known && f != "" && e.Psi.IsZero() {
 			e.Psi = PsiSpec{Family: f}
@@ -377,9 +378,12 @@ func (s *Scenario) validateEstimators(c checker) {
 			c.fail(path+".label", "%q labels two estimators; labels must be unique", e.Label)
 		}
 		labels[e.Label] = true
+		if s.validateOutside(c, path, e) {
+			continue
+		}
 		m, ok := estimators.ParseMethod(e.Method)
 		if !ok {
-			c.fail(path+".method", "unknown method %q; want %s", e.Method, strings.Join(methodNames(), ", "))
+			c.fail(path+".method", "unknown method %q; want %s, %s or %s", e.Method, strings.Join(methodNames(), ", "), MethodExternal, MethodGo)
 			continue
 		}
 		// What this estimator runs: its own method and its start's.

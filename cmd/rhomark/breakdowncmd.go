@@ -23,6 +23,7 @@ func breakdownCmd(e env, args []string) error {
 	runSeed := addSeedFlag(fs.FlagSet, "run-seed", "the run's root `seed` (decimal digits), if it overrode the scenario's (as replay --seed), to rebuild that run's replicate")
 	asJSON := fs.Bool("json", false, "print JSON")
 	lim := addLimitFlags(fs.FlagSet)
+	allowCommands := addAllowCommands(fs.FlagSet)
 	pos, err := parseFlags(fs, args)
 	if err != nil {
 		return err
@@ -34,12 +35,24 @@ func breakdownCmd(e env, args []string) error {
 	if err != nil {
 		return err
 	}
+	if err := checkCommands(st, *allowCommands); err != nil {
+		return err
+	}
 	if *cell < 0 || *cell >= len(st.Cells) {
 		return usagef("--cell %d: the scenario has cells 0 to %d", *cell, len(st.Cells)-1)
 	}
 	sc := st.Cells[*cell].Scenario
 	var ests []harness.NamedEstimator
 	for _, spec := range sc.Estimators {
+		if spec.Outside() {
+			fit, stop, err := outsideFitter(e, st, spec, sc.CoefficientNames())
+			if err != nil {
+				return err
+			}
+			defer stop()
+			ests = append(ests, harness.NamedEstimator{Label: spec.Label, Fitter: fit})
+			continue
+		}
 		est, err := spec.Build()
 		if err != nil {
 			return err

@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"encoding/csv"
 	"fmt"
+	"math"
 	"slices"
 	"strconv"
 	"strings"
@@ -38,7 +39,7 @@ type replayFit struct {
 	Method       string       `json:"method"`
 	Status       string       `json:"status"`
 	Iterations   int          `json:"iterations"`
-	Scale        float64      `json:"scale"`
+	Scale        jsonFloat    `json:"scale"` // null when an external program gave none
 	Coefficients []float64    `json:"coefficients"`
 	Trace        []traceStep  `json:"trace"`
 	Roots        []replayRoot `json:"roots,omitempty"` // each start's refit, for an estimator with roots: true
@@ -55,6 +56,7 @@ func replayCmd(e env, args []string) error {
 	seedFlag := addSeedFlag(fs.FlagSet, "seed", "the run's root `seed` (decimal digits), if it overrode the scenario's")
 	asJSON := fs.Bool("json", false, "print JSON")
 	lim := addLimitFlags(fs.FlagSet)
+	allowCommands := addAllowCommands(fs.FlagSet)
 	pos, err := parseFlags(fs, args)
 	if err != nil {
 		return err
@@ -64,6 +66,9 @@ func replayCmd(e env, args []string) error {
 	}
 	st, err := loadScenario(pos[0], lim.limits())
 	if err != nil {
+		return err
+	}
+	if err := checkCommands(st, *allowCommands); err != nil {
 		return err
 	}
 	if *cell < 0 || *cell >= len(st.Cells) {
@@ -108,11 +113,29 @@ func replayCmd(e env, args []string) error {
 		if *label != "" && spec.Label != *label {
 			continue
 		}
+		f := replayFit{Estimator: spec.Label, Method: spec.Method}
+		if spec.Outside() {
+			fit, stop, err := outsideFitter(e, st, spec, sc.CoefficientNames())
+			if err != nil {
+				return err
+			}
+			var res estimators.Result
+			err = rp.FitWith(spec.Label, fit, &estimators.Workspace{}, &res)
+			stop()
+			if err != nil {
+				return fmt.Errorf("estimator %s: %w", spec.Label, err)
+			}
+			f.Status, f.Iterations, f.Scale = res.Status.String(), res.Iterations, jsonFloat(res.Scale)
+			if !slices.ContainsFunc(res.Coefficients, math.IsNaN) {
+				f.Coefficients = res.Coefficients // a failed fit has none to show
+			}
+			fits = append(fits, f)
+			continue
+		}
 		est, err := spec.Build()
 		if err != nil {
 			return err
 		}
-		f := replayFit{Estimator: spec.Label, Method: spec.Method}
 		est.Trace = func(it estimators.Iteration) {
 			f.Trace = append(f.Trace, traceStep{Iteration: it.Index, Coefficients: append([]float64(nil), it.Coefficients...),
 				Scale: it.Scale, Objective: jsonFloat(it.Objective), EquationNorm: it.EquationNorm, StepLength: it.StepLength, Change: it.Change,
@@ -124,7 +147,7 @@ func replayCmd(e env, args []string) error {
 		if err := rp.Fit(spec.Label, &est, &ws, &res); err != nil {
 			return fmt.Errorf("estimator %s: %w", spec.Label, err)
 		}
-		f.Status, f.Iterations, f.Scale, f.Coefficients = res.Status.String(), res.Iterations, res.Scale, append([]float64(nil), res.Coefficients...)
+		f.Status, f.Iterations, f.Scale, f.Coefficients = res.Status.String(), res.Iterations, jsonFloat(res.Scale), append([]float64(nil), res.Coefficients...)
 		if spec.Roots {
 			if f.Roots, f.RootScale, err = replayRoots(rp, spec.Label, &est); err != nil {
 				return err

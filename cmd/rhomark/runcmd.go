@@ -45,11 +45,13 @@ func runCmd(e env, args []string) error {
 	lim := addLimitFlags(fs.FlagSet)
 	target := addTargetFlag(fs.FlagSet)
 	audit := fs.Bool("audit-solvers", false, "audit every estimator's fits: how far each stopping rule leaves the estimate from its fixed point, in standard errors (as solver-audit: true)")
+	allowCommands := addAllowCommands(fs.FlagSet)
 	pos, err := parseFlags(fs, args)
 	if err != nil {
 		return err
 	}
-	opt := harness.Options{Replicates: *reps, Workers: *workers, Tool: results.Tool{Name: "rhomark", Version: toolVersion()}, AuditSolvers: *audit}
+	opt := harness.Options{Replicates: *reps, Workers: *workers, Tool: results.Tool{Name: "rhomark", Version: toolVersion()},
+		AllowCommands: *allowCommands, Stderr: e.stderr, AuditSolvers: *audit}
 	if s, ok := seed.get(); ok {
 		opt.Seed = &s
 	}
@@ -114,6 +116,9 @@ func runCmd(e env, args []string) error {
 		if st, err = loadScenario(pos[0], limits); err != nil {
 			return err
 		}
+	}
+	if err := checkCommands(st, *allowCommands); err != nil {
+		return err
 	}
 	name, err := results.SafeName(st.Base.Name)
 	if err != nil {
