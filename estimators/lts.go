@@ -129,7 +129,6 @@ type ltsWork struct {
 	candSt   []Status  // keep, how each kept candidate's concentration ended
 
 	lastT float64 // the h-th smallest squared residual of the last evaluate, 0 if none
-
 	// Refits by updated normal equations, for large n (refitGram).
 	useGram     bool      // refit updates the normal equations instead of QR
 	gramOK      bool      // gram and gy hold the sums over the rows of gset
@@ -140,6 +139,7 @@ type ltsWork struct {
 	gm          []float64 // p×p, scratch for the factor
 
 	nest *nestedWork // nested subsampling for large n, also for S (nested.go)
+	col  *colWork    // columns and their products for the searches (colkernel.go)
 }
 
 // reserve sizes the buffers for an n×p problem keeping h rows and up to keep
@@ -340,7 +340,7 @@ func (lw *ltsWork) starts(x blas64.General, y []float64, rng *rand.Rand, subsets
 func (lw *ltsWork) offerSteps(x blas64.General, y, b []float64, csteps, keep int) (singular bool) {
 	obj, ok := lw.evaluate(x, y, b)
 	for k := 0; ok && k < csteps; k++ {
-		if !lw.refit(x, y, b) {
+		if !lw.refitStart(x, y, b) {
 			return true
 		}
 		obj, ok = lw.evaluate(x, y, b)
