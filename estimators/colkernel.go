@@ -89,8 +89,8 @@ func (lw *ltsWork) columns(x blas64.General, y []float64, withY bool) *colWork {
 func (cw *colWork) col(k int) []float64 { return cw.xt[k*cw.n : (k+1)*cw.n] }
 
 // normal writes the upper triangle of Σ w_i x_i x_iᵀ to m (p×p row-major)
-// and Σ v_i x_i to g, for the weights w and the values v, as inner
-// products.
+// and, unless v is nil, Σ v_i x_i to g, for the weights w and the values
+// v, as inner products.
 func (cw *colWork) normal(w, v, m, g []float64) {
 	n, p := cw.n, cw.p
 	kl := 0
@@ -99,7 +99,9 @@ func (cw *colWork) normal(w, v, m, g []float64) {
 			m[k*p+l] = floats.Dot(w, cw.prod[kl*n:(kl+1)*n])
 			kl++
 		}
-		g[k] = floats.Dot(v, cw.col(k))
+		if v != nil {
+			g[k] = floats.Dot(v, cw.col(k))
+		}
 	}
 }
 

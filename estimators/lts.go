@@ -140,6 +140,7 @@ type ltsWork struct {
 
 	nest *nestedWork // nested subsampling for large n, also for S (nested.go)
 	col  *colWork    // columns and their products for the searches (colkernel.go)
+	sc   *colWork    // col while starts runs on the design it holds, else nil
 }
 
 // reserve sizes the buffers for an n×p problem keeping h rows and up to keep
@@ -321,6 +322,7 @@ func (lw *ltsWork) fit(x blas64.General, y, beta []float64, rng *rand.Rand, s lt
 // offers the results to the kept list (keep places). It returns the number
 // of starts drawn and whether some start met a singular h-subset.
 func (lw *ltsWork) starts(x blas64.General, y []float64, rng *rand.Rand, subsets, csteps, keep int) (starts int, singular bool) {
+	lw.sc = lw.columns(x, y, true)
 	for attempts := 0; starts < subsets && attempts < ltsAttemptsPerSubset*subsets; attempts++ {
 		if lw.draw(x, y, rng) == 0 {
 			continue
@@ -330,6 +332,7 @@ func (lw *ltsWork) starts(x blas64.General, y []float64, rng *rand.Rand, subsets
 			singular = true
 		}
 	}
+	lw.sc = nil
 	return starts, singular
 }
 
@@ -577,76 +580,6 @@ func (lw *ltsWork) givensFullRank(m int) bool {
 		}
 	}
 	return true
-}
-
-// evaluate computes the squared residuals at b, marks in lw.cur the h rows
-// with the smallest (ties to the lower row index) and returns their sum, the
-// LTS objective Q(b), added in row order so that it depends only on b. It
-// reports false when a residual is NaN or the objective is infinite.
-//
-// The h-th smallest squared residual t is found by kth; the subset is then
-// every row below t and, in row order, as many rows equal to t as fill it to
-// h.
-func (lw *ltsWork) evaluate(x blas64.General, y, b []float64) (float64, bool) {
-	n, p, h := lw.n, lw.p, lw.h
-	r2, sel := lw.r2[:n], lw.sel[:n]
-	b = b[:p]
-	for i := range r2 {
-		xi := x.Data[i*x.Stride : i*x.Stride+p]
-		r := y[i]
-		for j, v := range xi {
-			r -= v * b[j]
-		}
-		if r != r {
-			return math.NaN(), false
-		}
-		r2[i] = r * r
-	}
-	t := lw.kth(r2, sel)
-	cur := lw.cur[:n]
-	// Usually one row holds t, and the subset is every row at most t: one
-	// pass marks it and adds the objective in row order.
-	// Written without a data-dependent branch: a row outside adds +0,
-	// which leaves the non-negative sum unchanged.
-	var q float64
-	atMost := 0
-	for i, v := range r2 {
-		in := v <= t
-		cur[i] = in
-		add, one := 0.0, 0
-		if in {
-			add, one = v, 1
-		}
-		atMost += one
-		q += add
-	}
-	if atMost == h {
-		return q, !math.IsInf(q, 0)
-	}
-	below := 0
-	for i, v := range r2 {
-		in := v < t
-		cur[i] = in
-		if in {
-			below++
-		}
-	}
-	for i, v := range r2 {
-		if below == h {
-			break
-		}
-		if v == t {
-			cur[i] = true
-			below++
-		}
-	}
-	q = 0
-	for i, in := range cur {
-		if in {
-			q += r2[i]
-		}
-	}
-	return q, !math.IsInf(q, 0)
 }
 
 // ltsWindowRows is the smallest n at which kth first looks near the last
