@@ -162,7 +162,8 @@ func (ws *Workspace) sNewtonStep(psi psi.Bisquare, x blas64.General, y, beta []f
 // ws.r, at scale s: an I-step (an IRLS step with bisquare weights) or, with
 // newton set, a Newton step Δ = s (Σ psi'(u_i) x_i x_iᵀ)⁻¹ Σ psi(u_i) x_i,
 // u = r/s. It then sets ws.r to the new residuals and returns their sums
-// rho and psiu at s and rhoW at sw (sResiduals). It reports false, leaving
+// rho and psiu at s and rhoW at sw (sResiduals; with the column products
+// psiu and rhoW are 0 when sw is NaN). It reports false, leaving
 // beta and ws.r unchanged, when the step has no solution: every weight is
 // zero, the weighted design is singular (an I-step; the candidate is then
 // dropped), or psi' gives no positive definite matrix (a Newton step; the
@@ -319,8 +320,9 @@ func (ws *Workspace) sOffer(cw *colWork, x blas64.General, y, cur []float64, s f
 	top := psi.C * psi.C / 6
 	var rho, psiu, rhoW, last float64
 	for k := 0; k < sRefineSteps; k++ {
-		// The last step also sums rho at the worst kept scale.
-		sw := math.Inf(1)
+		// The last step also sums rho at the worst kept scale (NaN: no
+		// sums but rho).
+		sw := math.NaN()
 		if k == sRefineSteps-1 {
 			sw = scales[worst]
 		}
