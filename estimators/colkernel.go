@@ -24,14 +24,13 @@ type colWork struct {
 	xt   []float64 // p×n, column k is xt[k*n:(k+1)*n]
 	q    int       // p(p+1)/2
 	prod []float64 // n×q, row i holds x_ik x_il for k ≤ l in row-major order of the upper triangle
-	xy   []float64 // p×n, x_k∘y
 	w    []float64 // n, weights of a step
 	wr   []float64 // n, weights times residuals, or scratch
 }
 
-// columns returns lw.col loaded with the columns of x and their products
-// (with y when withY is set), or nil when x has more than colMaxP columns.
-func (lw *ltsWork) columns(x blas64.General, y []float64, withY bool) *colWork {
+// columns returns lw.col loaded with the columns of x and their products,
+// or nil when x has more than colMaxP columns.
+func (lw *ltsWork) columns(x blas64.General) *colWork {
 	n, p := x.Rows, x.Cols
 	if p > colMaxP {
 		return nil
@@ -50,7 +49,6 @@ func (lw *ltsWork) columns(x blas64.General, y []float64, withY bool) *colWork {
 	cw.n, cw.p = n, p
 	grow(&cw.xt, p*n)
 	grow(&cw.prod, q*n)
-	grow(&cw.xy, p*n)
 	grow(&cw.w, n)
 	grow(&cw.wr, n)
 	for i := 0; i < n; i++ {
@@ -74,13 +72,6 @@ func (lw *ltsWork) columns(x blas64.General, y []float64, withY bool) *colWork {
 			}
 			kl++
 		}
-		if withY {
-			dst := cw.xy[k*n : (k+1)*n][:len(xk)]
-			y := y[:len(xk)]
-			for i, v := range xk {
-				dst[i] = v * y[i]
-			}
-		}
 	}
 	return cw
 }
@@ -89,8 +80,8 @@ func (lw *ltsWork) columns(x blas64.General, y []float64, withY bool) *colWork {
 func (cw *colWork) col(k int) []float64 { return cw.xt[k*cw.n : (k+1)*cw.n] }
 
 // normal writes the upper triangle of Σ w_i x_i x_iᵀ to m (p×p row-major)
-// and, unless v is nil, Σ v_i x_i to g, for the weights w and the values
-// v, as inner products.
+// and Σ v_i x_i to g, for the weights w and the values v, as inner
+// products.
 func (cw *colWork) normal(w, v, m, g []float64) {
 	n, p := cw.n, cw.p
 	kl := 0
@@ -99,9 +90,7 @@ func (cw *colWork) normal(w, v, m, g []float64) {
 			m[k*p+l] = floats.Dot(w, cw.prod[kl*n:(kl+1)*n])
 			kl++
 		}
-		if v != nil {
-			g[k] = floats.Dot(v, cw.col(k))
-		}
+		g[k] = floats.Dot(v, cw.col(k))
 	}
 }
 

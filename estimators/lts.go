@@ -322,7 +322,7 @@ func (lw *ltsWork) fit(x blas64.General, y, beta []float64, rng *rand.Rand, s lt
 // offers the results to the kept list (keep places). It returns the number
 // of starts drawn and whether some start met a singular h-subset.
 func (lw *ltsWork) starts(x blas64.General, y []float64, rng *rand.Rand, subsets, csteps, keep int) (starts int, singular bool) {
-	lw.sc = lw.columns(x, y, true)
+	lw.sc = lw.columns(x)
 	for attempts := 0; starts < subsets && attempts < ltsAttemptsPerSubset*subsets; attempts++ {
 		if lw.draw(x, y, rng) == 0 {
 			continue
@@ -343,7 +343,7 @@ func (lw *ltsWork) starts(x blas64.General, y []float64, rng *rand.Rand, subsets
 func (lw *ltsWork) offerSteps(x blas64.General, y, b []float64, csteps, keep int) (singular bool) {
 	obj, ok := lw.evaluate(x, y, b)
 	for k := 0; ok && k < csteps; k++ {
-		if !lw.refitStart(x, y, b) {
+		if !lw.refit(x, y, b) {
 			return true
 		}
 		obj, ok = lw.evaluate(x, y, b)

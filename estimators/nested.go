@@ -239,7 +239,7 @@ func (ws *Workspace) sFitNested(x blas64.General, y, beta []float64, rs Resampli
 		sub.candScale[k] = math.Inf(1)
 	}
 	dm := rs.SDivisor.divisor(xm.Rows, p)
-	cw := sub.lts.columns(xm, ym, false)
+	cw := sub.lts.columns(xm)
 	for c := 0; c < nw.count; c++ {
 		cur := sub.trial
 		copy(cur, nw.cand[c*p:(c+1)*p])

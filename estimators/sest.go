@@ -270,7 +270,7 @@ func (ws *Workspace) sCandidates(x blas64.General, y, beta []float64, psi psi.Bi
 	for _, v := range y {
 		yMax = math.Max(yMax, math.Abs(v))
 	}
-	cw := ws.lts.columns(x, y, false)
+	cw := ws.lts.columns(x)
 	// Draws are budgeted over the whole round, so a run of singular
 	// subsets (many identical rows) does not end it early.
 	budget := subsetAttempts * subsets
