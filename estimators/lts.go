@@ -110,6 +110,7 @@ type ltsWork struct {
 	n, p, h int
 
 	idx    []int     // n, row indices permuted by the partial Fisher–Yates draws
+	rows   []int     // n+1, the rows of lw.cur in order (subsetRows)
 	cur    []bool    // n, membership of the current h-subset
 	prev   []bool    // n, membership of the previous h-subset
 	r2     []float64 // n, squared residuals
@@ -166,6 +167,7 @@ func (lw *ltsWork) reserve(n, p, h, keep int) {
 	}
 	lw.n, lw.p, lw.h = n, p, h
 	growI(&lw.idx, n)
+	growI(&lw.rows, n+1)
 	growB(&lw.cur, n)
 	growB(&lw.prev, n)
 	growF(&lw.r2, n)
@@ -638,18 +640,13 @@ func (lw *ltsWork) refit(x blas64.General, y, b []float64) bool {
 func (lw *ltsWork) refitQR(x blas64.General, y, b []float64) bool {
 	h, p := lw.h, lw.p
 	a, qy := lw.qa[:h*p], lw.qy[:h]
-	k := 0
-	for i, in := range lw.cur[:lw.n] {
-		if !in {
-			continue
-		}
+	for k, i := range lw.subsetRows() {
 		for j, v := range row(x, i) {
 			a[j*h+k] = v
 		}
 		qy[k] = y[i]
-		k++
 	}
-	if !householderSolve(a, h, p, qy, lw.gz, lw.rdiag, lw.cscale) {
+	if !householderSolvePairs(a, h, p, qy, lw.gz, lw.rdiag, lw.cscale) {
 		return false
 	}
 	copy(b, lw.gz)

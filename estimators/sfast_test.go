@@ -60,3 +60,41 @@ func TestMScaleSolves(t *testing.T) {
 		t.Errorf("scale %v with three zeros of four, want 0 (below 1e-50)", got)
 	}
 }
+
+// TestHouseholderPairsMatch: householderSolvePairs gives householderSolve's
+// answer bit for bit, rank decision included, for full-rank and
+// rank-deficient systems of several shapes.
+func TestHouseholderPairsMatch(t *testing.T) {
+	rng := rand.New(rand.NewPCG(5, 11))
+	for _, c := range []struct{ n, p int }{{1, 1}, {6, 2}, {23, 5}, {53, 5}, {40, 6}, {60, 7}} {
+		for _, deficient := range []bool{false, true} {
+			a := make([]float64, c.n*c.p)
+			y := make([]float64, c.n)
+			for i := range a {
+				a[i] = rng.NormFloat64() * 10
+			}
+			if deficient && c.p > 1 {
+				copy(a[(c.p-1)*c.n:], a[:c.n]) // last column repeats the first
+			}
+			for i := range y {
+				y[i] = rng.NormFloat64()
+			}
+			a2, y2 := append([]float64(nil), a...), append([]float64(nil), y...)
+			b, b2 := make([]float64, c.p), make([]float64, c.p)
+			rd, rd2, cs, cs2 := make([]float64, c.p), make([]float64, c.p), make([]float64, c.p), make([]float64, c.p)
+			ok := householderSolve(a, c.n, c.p, y, b, rd, cs)
+			ok2 := householderSolvePairs(a2, c.n, c.p, y2, b2, rd2, cs2)
+			if ok != ok2 {
+				t.Fatalf("%dx%d deficient=%v: ok %v, pairs %v", c.n, c.p, deficient, ok, ok2)
+			}
+			if !ok {
+				continue
+			}
+			for j := range b {
+				if math.Float64bits(b[j]) != math.Float64bits(b2[j]) {
+					t.Errorf("%dx%d: coefficient %d %v, pairs %v", c.n, c.p, j, b[j], b2[j])
+				}
+			}
+		}
+	}
+}
