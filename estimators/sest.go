@@ -158,30 +158,23 @@ func (ws *Workspace) sNewtonStep(psi psi.Bisquare, x blas64.General, y, beta []f
 	return true
 }
 
-// sStep takes one step for the S-estimate from beta, whose residuals are in
-// ws.r, at scale s: an I-step (an IRLS step with bisquare weights) or, with
-// newton set, a Newton step Δ = s (Σ psi'(u_i) x_i x_iᵀ)⁻¹ Σ psi(u_i) x_i,
-// u = r/s. It then sets ws.r to the new residuals and returns their sums
-// rho and psiu at s and rhoW at sw (sResiduals; with the column products
-// psiu and rhoW are 0 when sw is NaN). It reports false, leaving
-// beta and ws.r unchanged, when the step has no solution: every weight is
-// zero, the weighted design is singular (an I-step; the candidate is then
-// dropped), or psi' gives no positive definite matrix (a Newton step; the
-// caller checks that an accepted one lowers the scale).
+// sStep takes one fast-S I-step from beta, whose residuals are in ws.r, at
+// scale s: an IRLS step with bisquare weights. It then sets ws.r to the new
+// residuals and returns their sums rho and psiu at s and rhoW at sw
+// (sResiduals; with the column products psiu and rhoW are 0 when sw is
+// NaN). It reports false, leaving beta and ws.r unchanged, when the step
+// has no solution (every weight is zero, or the weighted design is
+// singular; the candidate is then dropped). Because rho(√t) is concave in
+// t for the bisquare, the step does not raise Σ rho(r_i/s), so the
+// M-scale of the new residuals is at most s.
 //
-// Because rho(√t) is concave in t for the bisquare, an I-step does not
-// raise Σ rho(r_i/s), so the M-scale of the new residuals is at most s. The
-// scale's own dependence on β drops out of Newton's Jacobian at the minimum
-// (there ∂s/∂β ∝ Σ psi(u_i) x_i = 0), so near it the Newton step converges
-// quadratically where the I-step contracts by about 1 − E[psi']/E[w].
-//
-// With the column products cw (not nil) an I-step forms its normal
-// equations and residuals from them (sStepCols).
-func (ws *Workspace) sStep(cw *colWork, psi psi.Bisquare, x blas64.General, y, beta []float64, s, sw float64, newton bool) (rho, psiu, rhoW float64, ok bool) {
-	if cw != nil && !newton {
+// With the column products cw (not nil) it forms its normal equations and
+// residuals from them (sStepCols).
+func (ws *Workspace) sStep(cw *colWork, psi psi.Bisquare, x blas64.General, y, beta []float64, s, sw float64) (rho, psiu, rhoW float64, ok bool) {
+	if cw != nil {
 		return ws.sStepCols(cw, psi.C, x, y, beta, s, sw)
 	}
-	if ws.sWeighted(x, s, psi.C, newton) == 0 || !ws.sSolve(x, beta, s, psi.C, newton) {
+	if ws.sWeighted(x, s, psi.C) == 0 || !ws.sSolve(x, beta, s, psi.C) {
 		return 0, 0, 0, false
 	}
 	rho, psiu, rhoW = ws.sResiduals(x, y, beta, s, sw, psi.C)
@@ -327,7 +320,7 @@ func (ws *Workspace) sOffer(cw *colWork, x blas64.General, y, cur []float64, s f
 			sw = scales[worst]
 		}
 		var ok bool
-		if rho, psiu, rhoW, ok = ws.sStep(cw, psi, x, y, cur, s, sw, false); !ok {
+		if rho, psiu, rhoW, ok = ws.sStep(cw, psi, x, y, cur, s, sw); !ok {
 			return false
 		}
 		last = s

@@ -13,17 +13,16 @@ import (
 // and one pass forms the new residuals with the sums of rho the scale needs.
 // With v = r/(c·s) and t = max(1 − v², 0):
 //
-//	rho(r/s) = (c²/6)(1 − t³), the IRLS weight is t², psi'(r/s) = t(1 − 5v²),
-//	and psi(u)·u = c²v²t² with u = r/s,
+//	rho(r/s) = (c²/6)(1 − t³), the IRLS weight is t², and psi(u)·u = c²v²t²
+//	with u = r/s,
 //
 // so nothing but one multiplication per residual depends on s.
 
 // sWeighted forms, for the residuals in ws.r at scale s, the upper triangle
-// of Σ w_i x_i x_iᵀ in ws.m and the right side Σ w_i r_i x_i in ws.delta,
-// where w is the IRLS weight t² or, when newton is set, psi' = t(1 − 5v²).
-// The right side of both steps is s·Σ psi(u_i) x_i = Σ t_i² r_i x_i. It
-// returns Σ |w_i|.
-func (ws *Workspace) sWeighted(x blas64.General, s, c float64, newton bool) float64 {
+// of Σ w_i x_i x_iᵀ in ws.m and the right side Σ w_i r_i x_i =
+// s·Σ psi(u_i) x_i in ws.delta, where w is the IRLS weight t². It returns
+// Σ |w_i|.
+func (ws *Workspace) sWeighted(x blas64.General, s, c float64) float64 {
 	n, p := ws.n, ws.p
 	m := ws.m[:p*p]
 	g := ws.delta[:p]
@@ -32,21 +31,15 @@ func (ws *Workspace) sWeighted(x blas64.General, s, c float64, newton bool) floa
 	inv := 1 / (s * c)
 	r := ws.r[:n]
 	var wsum float64
-	// weight returns the matrix weight w and t²·r, the term of the right
-	// side.
+	// weight returns the weight w and w·r, the term of the right side.
 	weight := func(ri float64) (w, tr float64) {
 		v := ri * inv
-		v2 := v * v
-		t := 1 - v2
+		t := 1 - v*v
 		if t < 0 {
 			t = 0
 		}
 		w = t * t
-		tr = w * ri
-		if newton {
-			w = t * (1 - 5*v2)
-		}
-		return w, tr
+		return w, w * ri
 	}
 	i := 0
 	for ; i+1 < n; i += 2 {
@@ -204,14 +197,14 @@ func sScale(r []float64, b, d, c, s0 float64) float64 {
 	return mScaleFrom(r, b, d, c, s0, rho, psiu)
 }
 
-// sSolve solves the step system formed by sWeighted for ws.delta, and on
-// success adds it to beta. An I-step whose normal equations are too
-// ill-conditioned for Cholesky is solved by QR of W^½X, as weightedStep
-// does; a Newton step is refused instead.
-func (ws *Workspace) sSolve(x blas64.General, beta []float64, s, c float64, newton bool) bool {
+// sSolve solves the step system formed by sWeighted or colWork.normal for
+// ws.delta, and on success adds it to beta. Normal equations too
+// ill-conditioned for Cholesky are solved by QR of W^½X, as weightedStep
+// does.
+func (ws *Workspace) sSolve(x blas64.General, beta []float64, s, c float64) bool {
 	p := ws.p
 	if !choleskySolve(ws.m, p, ws.delta, ws.pscale) {
-		if newton || !ws.sWeightedQR(x, s, c) {
+		if !ws.sWeightedQR(x, s, c) {
 			return false
 		}
 	}
@@ -262,7 +255,7 @@ func (ws *Workspace) sStepCols(cw *colWork, c float64, x blas64.General, y, beta
 		wr[i] = t2 * ri
 	}
 	cw.normal(w, wr, ws.m[:p*p], ws.delta[:p])
-	if !ws.sSolve(x, beta, s, c, false) {
+	if !ws.sSolve(x, beta, s, c) {
 		return 0, 0, 0, false
 	}
 	cw.residuals(y, beta, r)
