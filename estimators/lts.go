@@ -110,6 +110,7 @@ type ltsWork struct {
 	n, p, h int
 
 	idx    []int     // n, row indices permuted by the partial Fisher–Yates draws
+	rows   []int     // n+1, the rows of lw.cur in order (subsetRows)
 	cur    []bool    // n, membership of the current h-subset
 	prev   []bool    // n, membership of the previous h-subset
 	r2     []float64 // n, squared residuals
@@ -129,7 +130,6 @@ type ltsWork struct {
 	candSt   []Status  // keep, how each kept candidate's concentration ended
 
 	lastT float64 // the h-th smallest squared residual of the last evaluate, 0 if none
-
 	// Refits by updated normal equations, for large n (refitGram).
 	useGram     bool      // refit updates the normal equations instead of QR
 	gramOK      bool      // gram and gy hold the sums over the rows of gset
@@ -140,6 +140,8 @@ type ltsWork struct {
 	gm          []float64 // p×p, scratch for the factor
 
 	nest *nestedWork // nested subsampling for large n, also for S (nested.go)
+	col  *colWork    // columns and their products for the searches (colkernel.go)
+	sc   *colWork    // col while starts runs on the design it holds, else nil
 }
 
 // reserve sizes the buffers for an n×p problem keeping h rows and up to keep
@@ -165,6 +167,7 @@ func (lw *ltsWork) reserve(n, p, h, keep int) {
 	}
 	lw.n, lw.p, lw.h = n, p, h
 	growI(&lw.idx, n)
+	growI(&lw.rows, n+1)
 	growB(&lw.cur, n)
 	growB(&lw.prev, n)
 	growF(&lw.r2, n)
@@ -321,6 +324,7 @@ func (lw *ltsWork) fit(x blas64.General, y, beta []float64, rng *rand.Rand, s lt
 // offers the results to the kept list (keep places). It returns the number
 // of starts drawn and whether some start met a singular h-subset.
 func (lw *ltsWork) starts(x blas64.General, y []float64, rng *rand.Rand, subsets, csteps, keep int) (starts int, singular bool) {
+	lw.sc = lw.columns(x)
 	for attempts := 0; starts < subsets && attempts < ltsAttemptsPerSubset*subsets; attempts++ {
 		if lw.draw(x, y, rng) == 0 {
 			continue
@@ -330,6 +334,7 @@ func (lw *ltsWork) starts(x blas64.General, y []float64, rng *rand.Rand, subsets
 			singular = true
 		}
 	}
+	lw.sc = nil
 	return starts, singular
 }
 
@@ -579,76 +584,6 @@ func (lw *ltsWork) givensFullRank(m int) bool {
 	return true
 }
 
-// evaluate computes the squared residuals at b, marks in lw.cur the h rows
-// with the smallest (ties to the lower row index) and returns their sum, the
-// LTS objective Q(b), added in row order so that it depends only on b. It
-// reports false when a residual is NaN or the objective is infinite.
-//
-// The h-th smallest squared residual t is found by kth; the subset is then
-// every row below t and, in row order, as many rows equal to t as fill it to
-// h.
-func (lw *ltsWork) evaluate(x blas64.General, y, b []float64) (float64, bool) {
-	n, p, h := lw.n, lw.p, lw.h
-	r2, sel := lw.r2[:n], lw.sel[:n]
-	b = b[:p]
-	for i := range r2 {
-		xi := x.Data[i*x.Stride : i*x.Stride+p]
-		r := y[i]
-		for j, v := range xi {
-			r -= v * b[j]
-		}
-		if r != r {
-			return math.NaN(), false
-		}
-		r2[i] = r * r
-	}
-	t := lw.kth(r2, sel)
-	cur := lw.cur[:n]
-	// Usually one row holds t, and the subset is every row at most t: one
-	// pass marks it and adds the objective in row order.
-	// Written without a data-dependent branch: a row outside adds +0,
-	// which leaves the non-negative sum unchanged.
-	var q float64
-	atMost := 0
-	for i, v := range r2 {
-		in := v <= t
-		cur[i] = in
-		add, one := 0.0, 0
-		if in {
-			add, one = v, 1
-		}
-		atMost += one
-		q += add
-	}
-	if atMost == h {
-		return q, !math.IsInf(q, 0)
-	}
-	below := 0
-	for i, v := range r2 {
-		in := v < t
-		cur[i] = in
-		if in {
-			below++
-		}
-	}
-	for i, v := range r2 {
-		if below == h {
-			break
-		}
-		if v == t {
-			cur[i] = true
-			below++
-		}
-	}
-	q = 0
-	for i, in := range cur {
-		if in {
-			q += r2[i]
-		}
-	}
-	return q, !math.IsInf(q, 0)
-}
-
 // ltsWindowRows is the smallest n at which kth first looks near the last
 // threshold; below it one selection over all rows is as quick.
 const ltsWindowRows = 1000
@@ -705,18 +640,13 @@ func (lw *ltsWork) refit(x blas64.General, y, b []float64) bool {
 func (lw *ltsWork) refitQR(x blas64.General, y, b []float64) bool {
 	h, p := lw.h, lw.p
 	a, qy := lw.qa[:h*p], lw.qy[:h]
-	k := 0
-	for i, in := range lw.cur[:lw.n] {
-		if !in {
-			continue
-		}
+	for k, i := range lw.subsetRows() {
 		for j, v := range row(x, i) {
 			a[j*h+k] = v
 		}
 		qy[k] = y[i]
-		k++
 	}
-	if !householderSolve(a, h, p, qy, lw.gz, lw.rdiag, lw.cscale) {
+	if !householderSolvePairs(a, h, p, qy, lw.gz, lw.rdiag, lw.cscale) {
 		return false
 	}
 	copy(b, lw.gz)

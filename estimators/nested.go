@@ -239,11 +239,12 @@ func (ws *Workspace) sFitNested(x blas64.General, y, beta []float64, rs Resampli
 		sub.candScale[k] = math.Inf(1)
 	}
 	dm := rs.SDivisor.divisor(xm.Rows, p)
+	cw := sub.lts.columns(xm)
 	for c := 0; c < nw.count; c++ {
 		cur := sub.trial
 		copy(cur, nw.cand[c*p:(c+1)*p])
 		sub.residuals(xm, ym, cur)
-		sub.sOffer(xm, ym, cur, nw.score[c], psi, b, dm, keep, 0)
+		sub.sOffer(cw, xm, ym, cur, nw.score[c], psi, b, dm, keep, 0)
 	}
 	// All rows: the merged set's best with their M-scales on all rows.
 	ws.reserveCandidates(keep, p)

@@ -92,36 +92,6 @@ func meanRho(psi psi.Bisquare, r []float64, s, d float64) float64 {
 	return sum / d
 }
 
-// rhoReaches reports whether (1/d) Σ rho(r_i/s) ≥ b, the test that a
-// candidate with residuals r cannot have an M-scale below s. It stops as
-// soon as a partial sum decides it: the terms are non-negative and rounded
-// addition is monotone, so a partial sum whose mean reaches b proves that
-// the full one does, and the answer is the same as comparing meanRho with b.
-func rhoReaches(psi psi.Bisquare, r []float64, s, d, b float64) bool {
-	c := psi.C
-	top := c * c / 6
-	var sum float64
-	for start := 0; start < len(r); start += rhoBlock {
-		for _, v := range r[start:min(start+rhoBlock, len(r))] {
-			u := v / s
-			if math.Abs(u) >= c {
-				sum += top
-				continue
-			}
-			w := u / c
-			t := 1 - w*w
-			sum += top * (1 - t*t*t)
-		}
-		if sum/d >= b {
-			return true
-		}
-	}
-	return false
-}
-
-// rhoBlock is how many terms rhoReaches adds between its tests.
-const rhoBlock = 16
-
 // mScale solves (1/d) Σ rho(r_i/s) = b for s by the fixed-point iteration
 // s ← s·√(mean rho(r/s)/b), from s0 > 0. The iteration converges
 // monotonically for a bounded rho. It returns 0 if s0 is 0.
@@ -186,6 +156,29 @@ func (ws *Workspace) sNewtonStep(psi psi.Bisquare, x blas64.General, y, beta []f
 	}
 	ws.residuals(x, y, beta)
 	return true
+}
+
+// sStep takes one fast-S I-step from beta, whose residuals are in ws.r, at
+// scale s: an IRLS step with bisquare weights. It then sets ws.r to the new
+// residuals and returns their sums rho and psiu at s and rhoW at sw
+// (sResiduals; with the column products psiu and rhoW are 0 when sw is
+// NaN). It reports false, leaving beta and ws.r unchanged, when the step
+// has no solution (every weight is zero, or the weighted design is
+// singular; the candidate is then dropped). Because rho(√t) is concave in
+// t for the bisquare, the step does not raise Σ rho(r_i/s), so the
+// M-scale of the new residuals is at most s.
+//
+// With the column products cw (not nil) it forms its normal equations and
+// residuals from them (sStepCols).
+func (ws *Workspace) sStep(cw *colWork, psi psi.Bisquare, x blas64.General, y, beta []float64, s, sw float64) (rho, psiu, rhoW float64, ok bool) {
+	if cw != nil {
+		return ws.sStepCols(cw, psi.C, x, y, beta, s, sw)
+	}
+	if ws.sWeighted(x, s, psi.C) == 0 || !ws.sSolve(x, beta, s, psi.C) {
+		return 0, 0, 0, false
+	}
+	rho, psiu, rhoW = ws.sResiduals(x, y, beta, s, sw, psi.C)
+	return rho, psiu, rhoW, true
 }
 
 // sOutcome is how an S fit ended.
@@ -270,6 +263,7 @@ func (ws *Workspace) sCandidates(x blas64.General, y, beta []float64, psi psi.Bi
 	for _, v := range y {
 		yMax = math.Max(yMax, math.Abs(v))
 	}
+	cw := ws.lts.columns(x)
 	// Draws are budgeted over the whole round, so a run of singular
 	// subsets (many identical rows) does not end it early.
 	budget := subsetAttempts * subsets
@@ -295,7 +289,7 @@ func (ws *Workspace) sCandidates(x blas64.General, y, beta []float64, psi psi.Bi
 			}
 			continue
 		}
-		if ws.sOffer(x, y, cur, s, psi, b, d, keep, floor) {
+		if ws.sOffer(cw, x, y, cur, s, psi, b, d, keep, floor) {
 			found++
 		}
 	}
@@ -307,32 +301,42 @@ func (ws *Workspace) sCandidates(x blas64.General, y, beta []float64, psi psi.Bi
 // candidates in ws.cand when its M-scale is smaller than the largest kept
 // one and above floor. It reports whether the candidate survived its
 // I-steps.
-func (ws *Workspace) sOffer(x blas64.General, y, cur []float64, s float64, psi psi.Bisquare, b, d float64, keep int, floor float64) bool {
+func (ws *Workspace) sOffer(cw *colWork, x blas64.General, y, cur []float64, s float64, psi psi.Bisquare, b, d float64, keep int, floor float64) bool {
 	p := ws.p
 	cands, scales := ws.cand[:keep*p], ws.candScale[:keep]
-	good := true
-	for k := 0; k < sRefineSteps && good; k++ {
-		good = ws.iStep(psi, x, y, cur, s)
-		s *= math.Sqrt(meanRho(psi, ws.r, s, d) / b)
-		if !(s > 0) || math.IsInf(s, 0) {
-			good = false
-		}
-	}
-	if !good {
-		return false
-	}
 	worst := 0
 	for k := range scales {
 		if scales[k] > scales[worst] {
 			worst = k
 		}
 	}
+	top := psi.C * psi.C / 6
+	var rho, psiu, rhoW, last float64
+	for k := 0; k < sRefineSteps; k++ {
+		// The last step also sums rho at the worst kept scale (NaN: no
+		// sums but rho).
+		sw := math.NaN()
+		if k == sRefineSteps-1 {
+			sw = scales[worst]
+		}
+		var ok bool
+		if rho, psiu, rhoW, ok = ws.sStep(cw, psi, x, y, cur, s, sw); !ok {
+			return false
+		}
+		last = s
+		s *= math.Sqrt(top * rho / d / b)
+		if !(s > 0) || math.IsInf(s, 0) {
+			return false
+		}
+	}
 	// The M-scale is decreasing in its left side, so a candidate beats
 	// the worst kept scale exactly when mean rho(r/s_worst) < b.
-	if !math.IsInf(scales[worst], 1) && rhoReaches(psi, ws.r, scales[worst], d, b) {
+	if !math.IsInf(scales[worst], 1) && top*rhoW/d >= b {
 		return true
 	}
-	s = mScale(psi, ws.r, b, d, s)
+	// The scale solve starts from the scale of the last I-step, where the
+	// sums are at hand.
+	s = mScaleFrom(ws.r, b, d, psi.C, last, rho, psiu)
 	if s <= floor {
 		return true
 	}

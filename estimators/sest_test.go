@@ -299,37 +299,3 @@ func TestBisquareDerivLoop(t *testing.T) {
 		}
 	}
 }
-
-// TestMeanRhoMatchesRho checks that meanRho's written-out loop gives the
-// bits of summing psi.Bisquare.Rho, and that rhoReaches, which may stop
-// early, answers as meanRho ≥ b does, including at scales where the mean
-// lies within rounding of b.
-func TestMeanRhoMatchesRho(t *testing.T) {
-	rng := rand.New(rand.NewPCG(3, 7))
-	for _, n := range []int{1, 15, 16, 17, 100, 333} {
-		r := make([]float64, n)
-		for i := range r {
-			r[i] = rng.NormFloat64() * (1 + 9*float64(i%5/4)) // every fifth a gross residual
-		}
-		bi := psi.Bisquare{C: DefaultSTuning}
-		const b = 0.2
-		d := float64(n)
-		for _, s := range []float64{0.05, 0.3, 1, 2, 7, 1e3} {
-			var want float64
-			for _, v := range r {
-				want += bi.Rho(v / s)
-			}
-			want /= d
-			if got := meanRho(bi, r, s, d); got != want {
-				t.Errorf("n=%d s=%g: meanRho = %v, summing Rho gives %v", n, s, got, want)
-			}
-			if got := rhoReaches(bi, r, s, d, b); got != (want >= b) {
-				t.Errorf("n=%d s=%g: rhoReaches = %v with mean rho %v and b = %v", n, s, got, want, b)
-			}
-			// b equal to the mean: the boundary case must reach it.
-			if !rhoReaches(bi, r, s, d, want) {
-				t.Errorf("n=%d s=%g: rhoReaches is false at b equal to the mean %v", n, s, want)
-			}
-		}
-	}
-}
