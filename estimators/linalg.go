@@ -225,3 +225,102 @@ func solveUpperT(u []float64, p int, b []float64) {
 		b[i] = s / u[i*p+i]
 	}
 }
+
+// The rank-two updates of the weighted normal matrix for the most common
+// small numbers of columns, unrolled: the same operations as rankTwo's
+// loops in the same order (so the same bits), without the loop control,
+// whose inner trip counts of p, p − 1, …, 1 the branch predictor misses.
+
+// rankTwo3 is rankTwo for p = 3, unrolled.
+func rankTwo3(m, xi, xj []float64, a, b float64) {
+	m = m[:9:9]
+	xi, xj = xi[:3:3], xj[:3:3]
+	ak, bk := a*xi[0], b*xj[0]
+	m[0] += ak*xi[0] + bk*xj[0]
+	m[1] += ak*xi[1] + bk*xj[1]
+	m[2] += ak*xi[2] + bk*xj[2]
+	ak, bk = a*xi[1], b*xj[1]
+	m[4] += ak*xi[1] + bk*xj[1]
+	m[5] += ak*xi[2] + bk*xj[2]
+	ak, bk = a*xi[2], b*xj[2]
+	m[8] += ak*xi[2] + bk*xj[2]
+}
+
+// rankTwo4 is rankTwo for p = 4, unrolled.
+func rankTwo4(m, xi, xj []float64, a, b float64) {
+	m = m[:16:16]
+	xi, xj = xi[:4:4], xj[:4:4]
+	ak, bk := a*xi[0], b*xj[0]
+	m[0] += ak*xi[0] + bk*xj[0]
+	m[1] += ak*xi[1] + bk*xj[1]
+	m[2] += ak*xi[2] + bk*xj[2]
+	m[3] += ak*xi[3] + bk*xj[3]
+	ak, bk = a*xi[1], b*xj[1]
+	m[5] += ak*xi[1] + bk*xj[1]
+	m[6] += ak*xi[2] + bk*xj[2]
+	m[7] += ak*xi[3] + bk*xj[3]
+	ak, bk = a*xi[2], b*xj[2]
+	m[10] += ak*xi[2] + bk*xj[2]
+	m[11] += ak*xi[3] + bk*xj[3]
+	ak, bk = a*xi[3], b*xj[3]
+	m[15] += ak*xi[3] + bk*xj[3]
+}
+
+// rankTwo5 is rankTwo for p = 5, unrolled.
+func rankTwo5(m, xi, xj []float64, a, b float64) {
+	m = m[:25:25]
+	xi, xj = xi[:5:5], xj[:5:5]
+	ak, bk := a*xi[0], b*xj[0]
+	m[0] += ak*xi[0] + bk*xj[0]
+	m[1] += ak*xi[1] + bk*xj[1]
+	m[2] += ak*xi[2] + bk*xj[2]
+	m[3] += ak*xi[3] + bk*xj[3]
+	m[4] += ak*xi[4] + bk*xj[4]
+	ak, bk = a*xi[1], b*xj[1]
+	m[6] += ak*xi[1] + bk*xj[1]
+	m[7] += ak*xi[2] + bk*xj[2]
+	m[8] += ak*xi[3] + bk*xj[3]
+	m[9] += ak*xi[4] + bk*xj[4]
+	ak, bk = a*xi[2], b*xj[2]
+	m[12] += ak*xi[2] + bk*xj[2]
+	m[13] += ak*xi[3] + bk*xj[3]
+	m[14] += ak*xi[4] + bk*xj[4]
+	ak, bk = a*xi[3], b*xj[3]
+	m[18] += ak*xi[3] + bk*xj[3]
+	m[19] += ak*xi[4] + bk*xj[4]
+	ak, bk = a*xi[4], b*xj[4]
+	m[24] += ak*xi[4] + bk*xj[4]
+}
+
+// rankTwo6 is rankTwo for p = 6, unrolled.
+func rankTwo6(m, xi, xj []float64, a, b float64) {
+	m = m[:36:36]
+	xi, xj = xi[:6:6], xj[:6:6]
+	ak, bk := a*xi[0], b*xj[0]
+	m[0] += ak*xi[0] + bk*xj[0]
+	m[1] += ak*xi[1] + bk*xj[1]
+	m[2] += ak*xi[2] + bk*xj[2]
+	m[3] += ak*xi[3] + bk*xj[3]
+	m[4] += ak*xi[4] + bk*xj[4]
+	m[5] += ak*xi[5] + bk*xj[5]
+	ak, bk = a*xi[1], b*xj[1]
+	m[7] += ak*xi[1] + bk*xj[1]
+	m[8] += ak*xi[2] + bk*xj[2]
+	m[9] += ak*xi[3] + bk*xj[3]
+	m[10] += ak*xi[4] + bk*xj[4]
+	m[11] += ak*xi[5] + bk*xj[5]
+	ak, bk = a*xi[2], b*xj[2]
+	m[14] += ak*xi[2] + bk*xj[2]
+	m[15] += ak*xi[3] + bk*xj[3]
+	m[16] += ak*xi[4] + bk*xj[4]
+	m[17] += ak*xi[5] + bk*xj[5]
+	ak, bk = a*xi[3], b*xj[3]
+	m[21] += ak*xi[3] + bk*xj[3]
+	m[22] += ak*xi[4] + bk*xj[4]
+	m[23] += ak*xi[5] + bk*xj[5]
+	ak, bk = a*xi[4], b*xj[4]
+	m[28] += ak*xi[4] + bk*xj[4]
+	m[29] += ak*xi[5] + bk*xj[5]
+	ak, bk = a*xi[5], b*xj[5]
+	m[35] += ak*xi[5] + bk*xj[5]
+}
