@@ -1,10 +1,10 @@
 package main
 
 import (
-	"encoding/json"
 	"errors"
 	"fmt"
 	"math"
+	"io"
 	"os"
 	"slices"
 	"strings"
@@ -204,9 +204,7 @@ func fitCmd(e env, args []string) error {
 		}
 	}
 	if *asJSON {
-		enc := json.NewEncoder(e.stdout)
-		enc.SetIndent("", "  ")
-		if err := enc.Encode(out); err != nil {
+		if err := writeFitJSON(e.stdout, out, names); err != nil {
 			return err
 		}
 	} else {
@@ -445,4 +443,31 @@ func chooseColumns(t *csvdata.Table, yName, xList, groupName string) (design, er
 		d.groups[k].rows = append(d.groups[k].rows, i)
 	}
 	return d, nil
+}
+
+// writeFitJSON writes out as JSON (see appendFitJSON), in pieces of about
+// 64 kB. names are the coefficients' names.
+func writeFitJSON(w io.Writer, out fitOutput, names []string) error {
+	sorted := slices.Clone(names)
+	slices.Sort(sorted)
+	j := jsonIndent{b: make([]byte, 0, 1<<17)}
+	appendFitJSONHead(&j, out.Estimator)
+	if out.Fits == nil {
+		j.b = append(j.b, "null"...)
+	} else {
+		j.open('[')
+		for i := range out.Fits {
+			appendFitJSON(&j, &out.Fits[i], sorted)
+			if len(j.b) >= 1<<16 {
+				if _, err := w.Write(j.b); err != nil {
+					return err
+				}
+				j.b = j.b[:0]
+			}
+		}
+		j.close(']')
+	}
+	appendFitJSONTail(&j)
+	_, err := w.Write(j.b)
+	return err
 }
