@@ -3,8 +3,8 @@ package main
 import (
 	"errors"
 	"fmt"
-	"math"
 	"io"
+	"math"
 	"os"
 	"slices"
 	"strings"
