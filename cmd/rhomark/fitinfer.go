@@ -11,6 +11,7 @@ import (
 	"strings"
 	"unicode/utf8"
 
+	"gonum.org/v1/gonum/blas/blas64"
 	"gonum.org/v1/gonum/mat"
 
 	"github.com/rhomark/rhomark/estimators"
@@ -41,12 +42,16 @@ func addInference(fj *fitJSON, est estimators.Estimator, x *mat.Dense, ws *estim
 
 // observations returns each row's residual, scaled residual, final weight
 // and outlier flag (|residual/scale| > cut) after a fit of est. Row and
-// Line are left for the caller.
-func observations(est estimators.Estimator, x *mat.Dense, y []float64, res *estimators.Result, cut float64) []fitObservation {
+// Line are left for the caller. buf's r and w are scratch.
+func observations(est estimators.Estimator, x *mat.Dense, y []float64, res *estimators.Result, cut float64, buf *fitBuffers) []fitObservation {
 	n, p := x.Dims()
-	r := make([]float64, n)
+	r := grow(&buf.r, n)
+	raw := x.RawMatrix()
+	beta := blas64.Vector{N: p, Inc: 1, Data: res.Coefficients}
 	for i := range r {
-		r[i] = y[i] - mat.Dot(x.RowView(i), mat.NewVecDense(p, res.Coefficients))
+		// mat.Dot of a row view and the coefficients, without building
+		// them: the same blas64.Dot.
+		r[i] = y[i] - blas64.Dot(blas64.Vector{N: p, Inc: 1, Data: raw.Data[i*raw.Stride : i*raw.Stride+p]}, beta)
 	}
 	sigma := res.Scale
 	scaled := func(v float64) float64 {
@@ -55,7 +60,7 @@ func observations(est estimators.Estimator, x *mat.Dense, y []float64, res *esti
 		}
 		return v / sigma
 	}
-	w := make([]float64, n)
+	w := grow(&buf.w, n)
 	est.Weights(r, sigma, p, w)
 	out := make([]fitObservation, n)
 	for i, v := range r {
