@@ -1,6 +1,7 @@
 package main
 
 import (
+	"bufio"
 	"errors"
 	"fmt"
 	"io"
@@ -211,7 +212,11 @@ func fitCmd(e env, args []string) error {
 			return err
 		}
 	} else {
-		writeFitTable(e, out)
+		bw := bufio.NewWriterSize(e.stdout, 64<<10)
+		writeFitTable(env{stdin: e.stdin, stdout: bw, stderr: e.stderr}, out)
+		if err := bw.Flush(); err != nil {
+			return err
+		}
 	}
 	if failed > 0 {
 		return fmt.Errorf("%d of %d group(s) could not be fitted (see the error of each)", failed, len(out.Fits))

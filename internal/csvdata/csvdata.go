@@ -10,6 +10,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"io/fs"
 	"math"
 	"strconv"
 	"strings"
@@ -45,7 +46,7 @@ type Table struct {
 // one that readPlain finds malformed, is read by encoding/csv (readCSV),
 // whose errors are the ones reported. Both give the same table.
 func Read(file string, r io.Reader) (*Table, error) {
-	data, err := io.ReadAll(r)
+	data, err := readAll(r)
 	if err != nil {
 		// Let encoding/csv meet the error where it happened in the stream.
 		return readCSV(file, io.MultiReader(bytes.NewReader(data), errReader{err}))
@@ -56,6 +57,33 @@ func Read(file string, r io.Reader) (*Table, error) {
 		}
 	}
 	return readCSV(file, bytes.NewReader(data))
+}
+
+// readAll is io.ReadAll, reading a file of known size into one buffer
+// of that size rather than growing one.
+func readAll(r io.Reader) ([]byte, error) {
+	st, ok := r.(interface{ Stat() (fs.FileInfo, error) })
+	if !ok {
+		return io.ReadAll(r)
+	}
+	info, err := st.Stat()
+	if err != nil || !info.Mode().IsRegular() || info.Size() <= 0 || info.Size() > 1<<40 {
+		return io.ReadAll(r)
+	}
+	b := make([]byte, 0, info.Size()+1) // one byte more to meet EOF without growing
+	for {
+		n, err := r.Read(b[len(b):cap(b)])
+		b = b[:len(b)+n]
+		if err != nil {
+			if errors.Is(err, io.EOF) {
+				return b, nil
+			}
+			return b, err
+		}
+		if len(b) == cap(b) {
+			b = append(b, 0)[:len(b)] // the file grew: let append find room
+		}
+	}
 }
 
 // errReader returns its error.
