@@ -3,6 +3,7 @@ package estimators
 import (
 	"math"
 	"math/rand/v2"
+	"slices"
 	"testing"
 
 	"gonum.org/v1/gonum/blas/blas64"
@@ -154,4 +155,111 @@ func equationNormColumns(ws *Workspace, x blas64.General) float64 {
 		}
 	}
 	return worst
+}
+
+// TestMADSampled: the MAD found from a sampled bracket is MAD's, for
+// normal, heavy-tailed, sorted, tied and zero-heavy residuals.
+func TestMADSampled(t *testing.T) {
+	rng := rand.New(rand.NewPCG(5, 6))
+	for _, n := range []int{1, 10, 63, 64, 65, 100, 101, 1000, 4097} {
+		for kind := 0; kind < 5; kind++ {
+			for trial := 0; trial < 20; trial++ {
+				r := make([]float64, n)
+				for i := range r {
+					switch kind {
+					case 0:
+						r[i] = rng.NormFloat64()
+					case 1:
+						r[i] = rng.NormFloat64() / (rng.Float64() + 1e-3)
+					case 2:
+						r[i] = float64(i) - float64(n)/3
+					case 3:
+						r[i] = float64(rng.IntN(3))
+					case 4:
+						if rng.IntN(4) == 0 {
+							r[i] = rng.NormFloat64()
+						}
+					}
+				}
+				buf := make([]float64, n)
+				want := MAD(r, buf)
+				if got := madSampled(r, buf); !same(got, want) {
+					t.Fatalf("n=%d kind %d: sampled MAD %v, MAD %v", n, kind, got, want)
+				}
+			}
+		}
+	}
+}
+
+// choleskySolveLoops is choleskySolve's general path, which the unrolled
+// form must match.
+func choleskySolveLoops(m []float64, p int, g, scale []float64) bool {
+	if !equilibrate(m, p, scale) {
+		return false
+	}
+	for i := 0; i < p; i++ {
+		g[i] *= scale[i]
+	}
+	if !choleskyUpper(m, p, minCholeskyPivot) {
+		return false
+	}
+	solveUpperT(m, p, g)
+	solveUpper(m, p, g)
+	for i := 0; i < p; i++ {
+		g[i] *= scale[i]
+	}
+	return true
+}
+
+// TestCholesky5Matches: the unrolled solve for five unknowns gives the
+// loops' bits (factor, solution, scales) and failures, on well and badly
+// conditioned, indefinite and non-finite matrices.
+func TestCholesky5Matches(t *testing.T) {
+	rng := rand.New(rand.NewPCG(9, 10))
+	const p = 5
+	for trial := 0; trial < 3000; trial++ {
+		var a [p * p]float64
+		for i := range a {
+			a[i] = rng.NormFloat64()
+		}
+		m := make([]float64, p*p)
+		for i := 0; i < p; i++ {
+			for j := i; j < p; j++ {
+				for k := 0; k < p; k++ {
+					m[i*p+j] += a[k*p+i] * a[k*p+j]
+				}
+			}
+		}
+		switch trial % 5 {
+		case 1: // nearly singular
+			for j := 0; j < p; j++ {
+				m[3*p+j] = m[2*p+j] * (1 + 1e-12)
+			}
+			m[3*p+3] = m[2*p+2]
+		case 2: // indefinite
+			m[4*p+4] = -m[4*p+4]
+		case 3:
+			m[1*p+1] = math.Inf(1)
+		case 4:
+			m[2*p+3] *= 1e6
+		}
+		g := []float64{rng.NormFloat64(), rng.NormFloat64(), rng.NormFloat64(), rng.NormFloat64(), rng.NormFloat64()}
+		m2, g2 := slices.Clone(m), slices.Clone(g)
+		s1, s2 := make([]float64, p), make([]float64, p)
+		ok1 := choleskySolve(m, p, g, s1)
+		ok2 := choleskySolveLoops(m2, p, g2, s2)
+		if ok1 != ok2 {
+			t.Fatalf("trial %d: unrolled %v, loops %v", trial, ok1, ok2)
+		}
+		for i := range m {
+			if !same(m[i], m2[i]) {
+				t.Fatalf("trial %d: factor entry %d %v, loops %v", trial, i, m[i], m2[i])
+			}
+		}
+		for i := range g {
+			if !same(g[i], g2[i]) || !same(s1[i], s2[i]) {
+				t.Fatalf("trial %d: solution %v scales %v, loops %v %v", trial, g, s1, g2, s2)
+			}
+		}
+	}
 }

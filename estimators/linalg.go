@@ -184,6 +184,9 @@ func choleskyUpper(m []float64, p int, minPivot float64) bool {
 // unit diagonal with scale (length p, scratch). It reports false when M is
 // not positive definite or too ill-conditioned for the normal equations.
 func choleskySolve(m []float64, p int, g, scale []float64) bool {
+	if p == 5 {
+		return choleskySolve5(m, g, scale)
+	}
 	if !equilibrate(m, p, scale) {
 		return false
 	}
@@ -323,4 +326,176 @@ func rankTwo6(m, xi, xj []float64, a, b float64) {
 	m[29] += ak*xi[5] + bk*xj[5]
 	ak, bk = a*xi[5], b*xj[5]
 	m[35] += ak*xi[5] + bk*xj[5]
+}
+
+// choleskySolve5 is choleskySolve for p = 5, unrolled: the same operations
+// in the same order, so the same bits, on the same failures.
+func choleskySolve5(m, g, scale []float64) bool {
+	m, g, scale = m[:25:25], g[:5:5], scale[:5:5]
+	// equilibrate
+	if d := m[0]; !(d > 0) || math.IsInf(d, 0) {
+		return false
+	} else {
+		scale[0] = 1 / math.Sqrt(d)
+	}
+	if d := m[6]; !(d > 0) || math.IsInf(d, 0) {
+		return false
+	} else {
+		scale[1] = 1 / math.Sqrt(d)
+	}
+	if d := m[12]; !(d > 0) || math.IsInf(d, 0) {
+		return false
+	} else {
+		scale[2] = 1 / math.Sqrt(d)
+	}
+	if d := m[18]; !(d > 0) || math.IsInf(d, 0) {
+		return false
+	} else {
+		scale[3] = 1 / math.Sqrt(d)
+	}
+	if d := m[24]; !(d > 0) || math.IsInf(d, 0) {
+		return false
+	} else {
+		scale[4] = 1 / math.Sqrt(d)
+	}
+	m[0] *= scale[0] * scale[0]
+	m[1] *= scale[0] * scale[1]
+	m[2] *= scale[0] * scale[2]
+	m[3] *= scale[0] * scale[3]
+	m[4] *= scale[0] * scale[4]
+	m[6] *= scale[1] * scale[1]
+	m[7] *= scale[1] * scale[2]
+	m[8] *= scale[1] * scale[3]
+	m[9] *= scale[1] * scale[4]
+	m[12] *= scale[2] * scale[2]
+	m[13] *= scale[2] * scale[3]
+	m[14] *= scale[2] * scale[4]
+	m[18] *= scale[3] * scale[3]
+	m[19] *= scale[3] * scale[4]
+	m[24] *= scale[4] * scale[4]
+	g[0] *= scale[0]
+	g[1] *= scale[1]
+	g[2] *= scale[2]
+	g[3] *= scale[3]
+	g[4] *= scale[4]
+	// choleskyUpper
+	var s, t, uii float64
+	s = m[0]
+	if !(s > minCholeskyPivot) {
+		return false
+	}
+	uii = math.Sqrt(s)
+	m[0] = uii
+	t = m[1]
+	m[1] = t / uii
+	t = m[2]
+	m[2] = t / uii
+	t = m[3]
+	m[3] = t / uii
+	t = m[4]
+	m[4] = t / uii
+	s = m[6]
+	s -= m[1] * m[1]
+	if !(s > minCholeskyPivot) {
+		return false
+	}
+	uii = math.Sqrt(s)
+	m[6] = uii
+	t = m[7]
+	t -= m[1] * m[2]
+	m[7] = t / uii
+	t = m[8]
+	t -= m[1] * m[3]
+	m[8] = t / uii
+	t = m[9]
+	t -= m[1] * m[4]
+	m[9] = t / uii
+	s = m[12]
+	s -= m[2] * m[2]
+	s -= m[7] * m[7]
+	if !(s > minCholeskyPivot) {
+		return false
+	}
+	uii = math.Sqrt(s)
+	m[12] = uii
+	t = m[13]
+	t -= m[2] * m[3]
+	t -= m[7] * m[8]
+	m[13] = t / uii
+	t = m[14]
+	t -= m[2] * m[4]
+	t -= m[7] * m[9]
+	m[14] = t / uii
+	s = m[18]
+	s -= m[3] * m[3]
+	s -= m[8] * m[8]
+	s -= m[13] * m[13]
+	if !(s > minCholeskyPivot) {
+		return false
+	}
+	uii = math.Sqrt(s)
+	m[18] = uii
+	t = m[19]
+	t -= m[3] * m[4]
+	t -= m[8] * m[9]
+	t -= m[13] * m[14]
+	m[19] = t / uii
+	s = m[24]
+	s -= m[4] * m[4]
+	s -= m[9] * m[9]
+	s -= m[14] * m[14]
+	s -= m[19] * m[19]
+	if !(s > minCholeskyPivot) {
+		return false
+	}
+	uii = math.Sqrt(s)
+	m[24] = uii
+	// solveUpperT
+	s = g[0]
+	g[0] = s / m[0]
+	s = g[1]
+	s -= m[1] * g[0]
+	g[1] = s / m[6]
+	s = g[2]
+	s -= m[2] * g[0]
+	s -= m[7] * g[1]
+	g[2] = s / m[12]
+	s = g[3]
+	s -= m[3] * g[0]
+	s -= m[8] * g[1]
+	s -= m[13] * g[2]
+	g[3] = s / m[18]
+	s = g[4]
+	s -= m[4] * g[0]
+	s -= m[9] * g[1]
+	s -= m[14] * g[2]
+	s -= m[19] * g[3]
+	g[4] = s / m[24]
+	// solveUpper
+	s = g[4]
+	g[4] = s / m[24]
+	s = g[3]
+	s -= m[19] * g[4]
+	g[3] = s / m[18]
+	s = g[2]
+	s -= m[13] * g[3]
+	s -= m[14] * g[4]
+	g[2] = s / m[12]
+	s = g[1]
+	s -= m[7] * g[2]
+	s -= m[8] * g[3]
+	s -= m[9] * g[4]
+	g[1] = s / m[6]
+	s = g[0]
+	s -= m[1] * g[1]
+	s -= m[2] * g[2]
+	s -= m[3] * g[3]
+	s -= m[4] * g[4]
+	g[0] = s / m[0]
+	g[0] *= scale[0]
+	g[1] *= scale[1]
+	g[2] *= scale[2]
+	g[3] *= scale[3]
+	g[4] *= scale[4]
+	return true
 }

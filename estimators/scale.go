@@ -65,8 +65,36 @@ func MAD(r, buf []float64) float64 {
 func madNear(r, buf []float64, guess, delta float64) float64 {
 	lo, hi, ok := madBracket(len(r), guess, delta)
 	if !ok {
+		return madSampled(r, buf)
+	}
+	return madBetween(r, buf, lo, hi)
+}
+
+// madSampled is MAD(r, buf) for want of a guess: the bracket of
+// madBetween is cut from a sample of 31 evenly spaced |r_i|, between its
+// 9th and 23rd smallest, which hold the median of all n between them
+// unless the sample is most unusual (about 1% of samples, a binomial
+// tail), and then madBetween falls back to MAD. Below 64 values it is MAD.
+func madSampled(r, buf []float64) float64 {
+	const m = 31
+	n := len(r)
+	if n < 64 {
 		return MAD(r, buf)
 	}
+	var s [m]float64
+	for j := range s {
+		s[j] = math.Abs(r[(2*j+1)*n/(2*m)])
+	}
+	insertionSort(s[:])
+	if !(s[8] <= s[22]) { // NaN in the sample
+		return MAD(r, buf)
+	}
+	return madBetween(r, buf, s[8], s[22])
+}
+
+// madBetween is MAD(r, buf) found by selecting among the |r_i| in [lo, hi]
+// (see madNear).
+func madBetween(r, buf []float64, lo, hi float64) float64 {
 	buf = buf[:len(r)]
 	// Branch-free counting: which side a value falls on is a coin toss
 	// that a branch would mispredict half the time. Every value is stored

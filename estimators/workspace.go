@@ -295,22 +295,15 @@ func (ws *Workspace) residualsBracket(x blas64.General, y, beta []float64, lo, h
 	return below, mid
 }
 
-// residualsBracket5 is residualsBracket for five columns, with gemvDot5's
-// sums written out.
+// residualsBracket5 is residualsBracket for five columns.
 func (ws *Workspace) residualsBracket5(x blas64.General, y, beta []float64, lo, hi float64) (below, mid int) {
 	n := ws.n
-	r, buf, y := ws.r[:n], ws.buf[:n], y[:n]
-	b0, b1, b2, b3, b4 := beta[0], beta[1], beta[2], beta[3], beta[4]
-	data, stride := x.Data, x.Stride
+	r, buf := ws.r[:n], ws.buf[:n]
 	paired := n - n%2 // the rows gonum's kernel takes in blocks
-	for i := 0; i < paired; i++ {
-		xi := data[i*stride : i*stride+5 : i*stride+5]
-		var even, odd float64
-		even += xi[0] * b0
-		odd += xi[1] * b1
-		even += xi[2] * b2
-		odd += xi[3] * b3
-		ri := y[i] - ((even + odd) + xi[4]*b4)
+	below, mid = bracketRows5(r[:paired], y, buf, x.Data, x.Stride, (*[5]float64)(beta), lo, hi)
+	if paired < n {
+		i := n - 1
+		ri := y[i] - gemvDot5(x.Data[i*x.Stride:], beta, true)
 		r[i] = ri
 		a := math.Abs(ri)
 		buf[mid] = a
@@ -318,9 +311,27 @@ func (ws *Workspace) residualsBracket5(x blas64.General, y, beta []float64, lo, 
 		below += lt
 		mid += 1 - lt - gt
 	}
-	if paired < n {
-		i := n - 1
-		ri := y[i] - gemvDot5(data[i*stride:], beta, true)
+	return below, mid
+}
+
+// bracketRows5 is the loop of residualsBracket5 over the rows gonum's
+// kernel takes in blocks, with gemvDot5's sums written out; it is a
+// function of its own, with few values live, so that its counters stay
+// in registers.
+func bracketRows5(r, y, buf, data []float64, stride int, beta *[5]float64, lo, hi float64) (below, mid int) {
+	b0, b1, b2, b3, b4 := beta[0], beta[1], beta[2], beta[3], beta[4]
+	y = y[:len(r)]
+	buf = buf[:len(r)]
+	off := 0
+	for i := range r {
+		xi := data[off : off+5 : off+5]
+		off += stride
+		var even, odd float64
+		even += xi[0] * b0
+		odd += xi[1] * b1
+		even += xi[2] * b2
+		odd += xi[3] * b3
+		ri := y[i] - ((even + odd) + xi[4]*b4)
 		r[i] = ri
 		a := math.Abs(ri)
 		buf[mid] = a
