@@ -2,6 +2,7 @@ package estimators
 
 import (
 	"math"
+	"runtime"
 
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/blas64"
@@ -159,7 +160,7 @@ func (ws *Workspace) iterate(e Estimator, x blas64.General, y []float64, res *Re
 			res.Status = Diverged
 			return
 		}
-		if lo, hi, ok := madBracket(ws.n, madGuess, madDelta); ok {
+		if lo, hi, ok := madBracket(ws.n, madGuess, madDelta); ok && gemvOrder {
 			below, mid = ws.residualsBracket(x, y, beta, lo, hi)
 			sorted = true
 		} else {
@@ -236,10 +237,15 @@ func (ws *Workspace) evaluate(fn psi.Psi, sigma float64, newton bool) float64 {
 	return ws.evaluateAny(fn, sigma, newton)
 }
 
+// gemvOrder says that the fused loops (residualsBracket,
+// evaluateHuberSums) sum in the order of gonum's matrix-vector kernels
+// here: they follow its amd64 assembly; elsewhere the separate passes run.
+const gemvOrder = runtime.GOARCH == "amd64"
+
 // evaluateSums is evaluate followed by psiSums, in one pass for Huber's
 // IRLS weights.
 func (ws *Workspace) evaluateSums(fn psi.Psi, sigma float64, newton bool, x blas64.General) float64 {
-	if h, ok := fn.(psi.Huber); ok && !newton {
+	if h, ok := fn.(psi.Huber); ok && !newton && gemvOrder {
 		return ws.evaluateHuberSums(h, sigma, x)
 	}
 	wsum := ws.evaluate(fn, sigma, newton)
