@@ -160,7 +160,7 @@ func (ws *Workspace) iterate(e Estimator, x blas64.General, y []float64, res *Re
 			res.Status = Diverged
 			return
 		}
-		if lo, hi, ok := madBracket(ws.n, madGuess, madDelta); ok && gemvOrder {
+		if lo, hi, ok := madBracket(ws.n, madGuess, madDelta); ok && fuseGemv(ws.p) {
 			below, mid = ws.residualsBracket(x, y, beta, lo, hi)
 			sorted = true
 		} else {
@@ -242,10 +242,16 @@ func (ws *Workspace) evaluate(fn psi.Psi, sigma float64, newton bool) float64 {
 // here: they follow its amd64 assembly; elsewhere the separate passes run.
 const gemvOrder = runtime.GOARCH == "amd64"
 
+// fuseGemv reports whether the fused loops serve p columns: on amd64 and
+// for narrow designs, where a call of gonum's kernel costs more than its
+// vector instructions save; the scalar fused loops were measured only for
+// p = 5, so wide designs keep the kernels.
+func fuseGemv(p int) bool { return gemvOrder && p <= 6 }
+
 // evaluateSums is evaluate followed by psiSums, in one pass for Huber's
 // IRLS weights.
 func (ws *Workspace) evaluateSums(fn psi.Psi, sigma float64, newton bool, x blas64.General) float64 {
-	if h, ok := fn.(psi.Huber); ok && !newton && gemvOrder {
+	if h, ok := fn.(psi.Huber); ok && !newton && fuseGemv(ws.p) {
 		return ws.evaluateHuberSums(h, sigma, x)
 	}
 	wsum := ws.evaluate(fn, sigma, newton)
