@@ -3,6 +3,8 @@ package estimators
 import (
 	"math"
 
+	"gonum.org/v1/gonum/blas/blas64"
+
 	"github.com/rhomark/rhomark/psi"
 )
 
@@ -103,4 +105,89 @@ func (ws *Workspace) evaluateCustom(cu *psi.Custom, sigma float64) (csum float64
 	}
 	ws.nOff = off
 	return csum
+}
+
+// evaluateHuberSums is evaluateHuber followed by psiSums, in one pass: ws.h
+// = Σ psi_i x_i is accumulated row by row in the order of gonum's
+// transposed matrix-vector kernel (each column's sum runs over the rows in
+// order from zero), so its bits are psiSums'.
+func (ws *Workspace) evaluateHuberSums(hp psi.Huber, sigma float64, x blas64.General) (csum float64) {
+	if ws.p == 5 {
+		return ws.evaluateHuberSums5(hp, sigma, x)
+	}
+	r := ws.r
+	c, ps := ws.c[:len(r)], ws.psi[:len(r)]
+	k := hp.K
+	offs := ws.off[:len(r)]
+	off := 0
+	p := ws.p
+	h := ws.h[:p]
+	clear(h)
+	for i, ri := range r {
+		u := ri / sigma
+		var pi float64
+		switch {
+		case u > k:
+			pi, c[i] = k, k/u
+			offs[off] = i
+			off++
+		case u < -k:
+			pi, c[i] = -k, k/-u
+			offs[off] = i
+			off++
+		default:
+			pi, c[i] = u, 1
+		}
+		ps[i] = pi
+		csum += c[i]
+		for j, v := range x.Data[i*x.Stride : i*x.Stride+p] {
+			h[j] += pi * v
+		}
+	}
+	ws.nOff = off
+	return csum
+}
+
+// evaluateHuberSums5 is evaluateHuberSums for five columns, the sums kept
+// in registers.
+func (ws *Workspace) evaluateHuberSums5(hp psi.Huber, sigma float64, x blas64.General) float64 {
+	n := len(ws.r)
+	csum, off := huberSums5(ws.r, ws.c[:n], ws.psi[:n], ws.off[:n], x.Data, x.Stride, hp.K, sigma, (*[5]float64)(ws.h[:5]))
+	ws.nOff = off
+	return csum
+}
+
+// huberSums5 is the loop of evaluateHuberSums5, a function of its own
+// with few values live so that they stay in registers.
+func huberSums5(r, c, ps []float64, offs []int, data []float64, stride int, k, sigma float64, h *[5]float64) (csum float64, off int) {
+	c, ps, offs = c[:len(r)], ps[:len(r)], offs[:len(r)]
+	var h0, h1, h2, h3, h4 float64
+	row := 0
+	for i, ri := range r {
+		u := ri / sigma
+		var pi, ci float64
+		switch {
+		case u > k:
+			pi, ci = k, k/u
+			offs[off] = i
+			off++
+		case u < -k:
+			pi, ci = -k, k/-u
+			offs[off] = i
+			off++
+		default:
+			pi, ci = u, 1
+		}
+		ps[i], c[i] = pi, ci
+		csum += ci
+		xi := data[row : row+5 : row+5]
+		row += stride
+		h0 += pi * xi[0]
+		h1 += pi * xi[1]
+		h2 += pi * xi[2]
+		h3 += pi * xi[3]
+		h4 += pi * xi[4]
+	}
+	h[0], h[1], h[2], h[3], h[4] = h0, h1, h2, h3, h4
+	return csum, off
 }

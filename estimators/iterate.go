@@ -2,6 +2,7 @@ package estimators
 
 import (
 	"math"
+	"runtime"
 
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/blas64"
@@ -23,6 +24,12 @@ func (ws *Workspace) iterate(e Estimator, x blas64.General, y []float64, res *Re
 	// smallest equation norm, or needing the IRLS fallback.
 	handedOver := false
 	bestEq, stalls, fallbacks := math.Inf(1), 0, 0
+	// The MAD of the last iterate, near which the next one lies: madNear
+	// looks for the median of |r| within a relative distance madDelta of
+	// it (none at the first iterate). After a step, residualsBracket does
+	// madNear's pass with the residuals (sorted set), leaving its counts.
+	madGuess, madDelta := 0.0, 0.0
+	sorted, below, mid := false, 0, 0
 
 	for {
 		if newton && (stalls >= newtonPatience || fallbacks >= newtonPatience) {
@@ -31,7 +38,16 @@ func (ws *Workspace) iterate(e Estimator, x blas64.General, y []float64, res *Re
 		// The scale, psi values, objective and equation norm at β.
 		sigma := e.Scale.Value
 		if e.Scale.Rule == ScaleMAD {
-			sigma = MAD(ws.r, ws.buf)
+			if sorted {
+				sigma = madFinish(ws.r, ws.buf, below, mid)
+			} else {
+				sigma = madNear(ws.r, ws.buf, madGuess, madDelta)
+			}
+			sorted = false
+			// About ten values of |r| fall within 10/n of the median, plus
+			// twice the last change of the MAD for its drift.
+			madDelta = math.Min(10/float64(ws.n)+2*math.Abs(sigma-res.Scale)/sigma, 0.5)
+			madGuess = sigma * MADConsistency
 		}
 		res.Scale = sigma
 		if sigma == 0 {
@@ -45,8 +61,7 @@ func (ws *Workspace) iterate(e Estimator, x blas64.General, y []float64, res *Re
 			res.Status = NonFinite
 			return
 		}
-		wsum := ws.evaluate(e.Psi, sigma, newton)
-		ws.psiSums(x)
+		wsum := ws.evaluateSums(e.Psi, sigma, newton, x)
 		res.EquationNorm = ws.equationFromH()
 		if math.IsNaN(res.EquationNorm) || math.IsNaN(wsum) {
 			res.Status = NonFinite
@@ -145,7 +160,12 @@ func (ws *Workspace) iterate(e Estimator, x blas64.General, y []float64, res *Re
 			res.Status = Diverged
 			return
 		}
-		ws.residuals(x, y, beta)
+		if lo, hi, ok := madBracket(ws.n, madGuess, madDelta); ok && fuseGemv(ws.p) {
+			below, mid = ws.residualsBracket(x, y, beta, lo, hi)
+			sorted = true
+		} else {
+			ws.residuals(x, y, beta)
+		}
 		if e.Trace != nil {
 			it.Index = res.Iterations
 			it.Coefficients = beta
@@ -215,6 +235,28 @@ func (ws *Workspace) evaluate(fn psi.Psi, sigma float64, newton bool) float64 {
 		}
 	}
 	return ws.evaluateAny(fn, sigma, newton)
+}
+
+// gemvOrder says that the fused loops (residualsBracket,
+// evaluateHuberSums) sum in the order of gonum's matrix-vector kernels
+// here: they follow its amd64 assembly; elsewhere the separate passes run.
+const gemvOrder = runtime.GOARCH == "amd64"
+
+// fuseGemv reports whether the fused loops serve p columns: on amd64 and
+// for narrow designs, where a call of gonum's kernel costs more than its
+// vector instructions save; the scalar fused loops were measured only for
+// p = 5, so wide designs keep the kernels.
+func fuseGemv(p int) bool { return gemvOrder && p <= 6 }
+
+// evaluateSums is evaluate followed by psiSums, in one pass for Huber's
+// IRLS weights.
+func (ws *Workspace) evaluateSums(fn psi.Psi, sigma float64, newton bool, x blas64.General) float64 {
+	if h, ok := fn.(psi.Huber); ok && !newton && fuseGemv(ws.p) {
+		return ws.evaluateHuberSums(h, sigma, x)
+	}
+	wsum := ws.evaluate(fn, sigma, newton)
+	ws.psiSums(x)
+	return wsum
 }
 
 // evaluateAny is evaluate for any Psi.
@@ -343,6 +385,20 @@ func (ws *Workspace) normalMatrix(x blas64.General) {
 // except through that order.
 func rankTwo(m []float64, x blas64.General, i, j, p int, a, b float64) {
 	oi, oj := i*x.Stride, j*x.Stride
+	switch p {
+	case 3:
+		rankTwo3(m, x.Data[oi:], x.Data[oj:], a, b)
+		return
+	case 4:
+		rankTwo4(m, x.Data[oi:], x.Data[oj:], a, b)
+		return
+	case 5:
+		rankTwo5(m, x.Data[oi:], x.Data[oj:], a, b)
+		return
+	case 6:
+		rankTwo6(m, x.Data[oi:], x.Data[oj:], a, b)
+		return
+	}
 	xi := x.Data[oi : oi+p : oi+p]
 	xj := x.Data[oj : oj+p : oj+p]
 	m = m[:p*p]

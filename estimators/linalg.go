@@ -184,6 +184,9 @@ func choleskyUpper(m []float64, p int, minPivot float64) bool {
 // unit diagonal with scale (length p, scratch). It reports false when M is
 // not positive definite or too ill-conditioned for the normal equations.
 func choleskySolve(m []float64, p int, g, scale []float64) bool {
+	if p == 5 {
+		return choleskySolve5(m, g, scale)
+	}
 	if !equilibrate(m, p, scale) {
 		return false
 	}
@@ -224,4 +227,275 @@ func solveUpperT(u []float64, p int, b []float64) {
 		}
 		b[i] = s / u[i*p+i]
 	}
+}
+
+// The rank-two updates of the weighted normal matrix for the most common
+// small numbers of columns, unrolled: the same operations as rankTwo's
+// loops in the same order (so the same bits), without the loop control,
+// whose inner trip counts of p, p − 1, …, 1 the branch predictor misses.
+
+// rankTwo3 is rankTwo for p = 3, unrolled.
+func rankTwo3(m, xi, xj []float64, a, b float64) {
+	m = m[:9:9]
+	xi, xj = xi[:3:3], xj[:3:3]
+	ak, bk := a*xi[0], b*xj[0]
+	m[0] += ak*xi[0] + bk*xj[0]
+	m[1] += ak*xi[1] + bk*xj[1]
+	m[2] += ak*xi[2] + bk*xj[2]
+	ak, bk = a*xi[1], b*xj[1]
+	m[4] += ak*xi[1] + bk*xj[1]
+	m[5] += ak*xi[2] + bk*xj[2]
+	ak, bk = a*xi[2], b*xj[2]
+	m[8] += ak*xi[2] + bk*xj[2]
+}
+
+// rankTwo4 is rankTwo for p = 4, unrolled.
+func rankTwo4(m, xi, xj []float64, a, b float64) {
+	m = m[:16:16]
+	xi, xj = xi[:4:4], xj[:4:4]
+	ak, bk := a*xi[0], b*xj[0]
+	m[0] += ak*xi[0] + bk*xj[0]
+	m[1] += ak*xi[1] + bk*xj[1]
+	m[2] += ak*xi[2] + bk*xj[2]
+	m[3] += ak*xi[3] + bk*xj[3]
+	ak, bk = a*xi[1], b*xj[1]
+	m[5] += ak*xi[1] + bk*xj[1]
+	m[6] += ak*xi[2] + bk*xj[2]
+	m[7] += ak*xi[3] + bk*xj[3]
+	ak, bk = a*xi[2], b*xj[2]
+	m[10] += ak*xi[2] + bk*xj[2]
+	m[11] += ak*xi[3] + bk*xj[3]
+	ak, bk = a*xi[3], b*xj[3]
+	m[15] += ak*xi[3] + bk*xj[3]
+}
+
+// rankTwo5 is rankTwo for p = 5, unrolled.
+func rankTwo5(m, xi, xj []float64, a, b float64) {
+	m = m[:25:25]
+	xi, xj = xi[:5:5], xj[:5:5]
+	ak, bk := a*xi[0], b*xj[0]
+	m[0] += ak*xi[0] + bk*xj[0]
+	m[1] += ak*xi[1] + bk*xj[1]
+	m[2] += ak*xi[2] + bk*xj[2]
+	m[3] += ak*xi[3] + bk*xj[3]
+	m[4] += ak*xi[4] + bk*xj[4]
+	ak, bk = a*xi[1], b*xj[1]
+	m[6] += ak*xi[1] + bk*xj[1]
+	m[7] += ak*xi[2] + bk*xj[2]
+	m[8] += ak*xi[3] + bk*xj[3]
+	m[9] += ak*xi[4] + bk*xj[4]
+	ak, bk = a*xi[2], b*xj[2]
+	m[12] += ak*xi[2] + bk*xj[2]
+	m[13] += ak*xi[3] + bk*xj[3]
+	m[14] += ak*xi[4] + bk*xj[4]
+	ak, bk = a*xi[3], b*xj[3]
+	m[18] += ak*xi[3] + bk*xj[3]
+	m[19] += ak*xi[4] + bk*xj[4]
+	ak, bk = a*xi[4], b*xj[4]
+	m[24] += ak*xi[4] + bk*xj[4]
+}
+
+// rankTwo6 is rankTwo for p = 6, unrolled.
+func rankTwo6(m, xi, xj []float64, a, b float64) {
+	m = m[:36:36]
+	xi, xj = xi[:6:6], xj[:6:6]
+	ak, bk := a*xi[0], b*xj[0]
+	m[0] += ak*xi[0] + bk*xj[0]
+	m[1] += ak*xi[1] + bk*xj[1]
+	m[2] += ak*xi[2] + bk*xj[2]
+	m[3] += ak*xi[3] + bk*xj[3]
+	m[4] += ak*xi[4] + bk*xj[4]
+	m[5] += ak*xi[5] + bk*xj[5]
+	ak, bk = a*xi[1], b*xj[1]
+	m[7] += ak*xi[1] + bk*xj[1]
+	m[8] += ak*xi[2] + bk*xj[2]
+	m[9] += ak*xi[3] + bk*xj[3]
+	m[10] += ak*xi[4] + bk*xj[4]
+	m[11] += ak*xi[5] + bk*xj[5]
+	ak, bk = a*xi[2], b*xj[2]
+	m[14] += ak*xi[2] + bk*xj[2]
+	m[15] += ak*xi[3] + bk*xj[3]
+	m[16] += ak*xi[4] + bk*xj[4]
+	m[17] += ak*xi[5] + bk*xj[5]
+	ak, bk = a*xi[3], b*xj[3]
+	m[21] += ak*xi[3] + bk*xj[3]
+	m[22] += ak*xi[4] + bk*xj[4]
+	m[23] += ak*xi[5] + bk*xj[5]
+	ak, bk = a*xi[4], b*xj[4]
+	m[28] += ak*xi[4] + bk*xj[4]
+	m[29] += ak*xi[5] + bk*xj[5]
+	ak, bk = a*xi[5], b*xj[5]
+	m[35] += ak*xi[5] + bk*xj[5]
+}
+
+// choleskySolve5 is choleskySolve for p = 5, unrolled: the same operations
+// in the same order, so the same bits, on the same failures.
+func choleskySolve5(m, g, scale []float64) bool {
+	m, g, scale = m[:25:25], g[:5:5], scale[:5:5]
+	// equilibrate
+	if d := m[0]; !(d > 0) || math.IsInf(d, 0) {
+		return false
+	} else {
+		scale[0] = 1 / math.Sqrt(d)
+	}
+	if d := m[6]; !(d > 0) || math.IsInf(d, 0) {
+		return false
+	} else {
+		scale[1] = 1 / math.Sqrt(d)
+	}
+	if d := m[12]; !(d > 0) || math.IsInf(d, 0) {
+		return false
+	} else {
+		scale[2] = 1 / math.Sqrt(d)
+	}
+	if d := m[18]; !(d > 0) || math.IsInf(d, 0) {
+		return false
+	} else {
+		scale[3] = 1 / math.Sqrt(d)
+	}
+	if d := m[24]; !(d > 0) || math.IsInf(d, 0) {
+		return false
+	} else {
+		scale[4] = 1 / math.Sqrt(d)
+	}
+	m[0] *= scale[0] * scale[0]
+	m[1] *= scale[0] * scale[1]
+	m[2] *= scale[0] * scale[2]
+	m[3] *= scale[0] * scale[3]
+	m[4] *= scale[0] * scale[4]
+	m[6] *= scale[1] * scale[1]
+	m[7] *= scale[1] * scale[2]
+	m[8] *= scale[1] * scale[3]
+	m[9] *= scale[1] * scale[4]
+	m[12] *= scale[2] * scale[2]
+	m[13] *= scale[2] * scale[3]
+	m[14] *= scale[2] * scale[4]
+	m[18] *= scale[3] * scale[3]
+	m[19] *= scale[3] * scale[4]
+	m[24] *= scale[4] * scale[4]
+	g[0] *= scale[0]
+	g[1] *= scale[1]
+	g[2] *= scale[2]
+	g[3] *= scale[3]
+	g[4] *= scale[4]
+	// choleskyUpper
+	var s, t, uii float64
+	s = m[0]
+	if !(s > minCholeskyPivot) {
+		return false
+	}
+	uii = math.Sqrt(s)
+	m[0] = uii
+	t = m[1]
+	m[1] = t / uii
+	t = m[2]
+	m[2] = t / uii
+	t = m[3]
+	m[3] = t / uii
+	t = m[4]
+	m[4] = t / uii
+	s = m[6]
+	s -= m[1] * m[1]
+	if !(s > minCholeskyPivot) {
+		return false
+	}
+	uii = math.Sqrt(s)
+	m[6] = uii
+	t = m[7]
+	t -= m[1] * m[2]
+	m[7] = t / uii
+	t = m[8]
+	t -= m[1] * m[3]
+	m[8] = t / uii
+	t = m[9]
+	t -= m[1] * m[4]
+	m[9] = t / uii
+	s = m[12]
+	s -= m[2] * m[2]
+	s -= m[7] * m[7]
+	if !(s > minCholeskyPivot) {
+		return false
+	}
+	uii = math.Sqrt(s)
+	m[12] = uii
+	t = m[13]
+	t -= m[2] * m[3]
+	t -= m[7] * m[8]
+	m[13] = t / uii
+	t = m[14]
+	t -= m[2] * m[4]
+	t -= m[7] * m[9]
+	m[14] = t / uii
+	s = m[18]
+	s -= m[3] * m[3]
+	s -= m[8] * m[8]
+	s -= m[13] * m[13]
+	if !(s > minCholeskyPivot) {
+		return false
+	}
+	uii = math.Sqrt(s)
+	m[18] = uii
+	t = m[19]
+	t -= m[3] * m[4]
+	t -= m[8] * m[9]
+	t -= m[13] * m[14]
+	m[19] = t / uii
+	s = m[24]
+	s -= m[4] * m[4]
+	s -= m[9] * m[9]
+	s -= m[14] * m[14]
+	s -= m[19] * m[19]
+	if !(s > minCholeskyPivot) {
+		return false
+	}
+	uii = math.Sqrt(s)
+	m[24] = uii
+	// solveUpperT
+	s = g[0]
+	g[0] = s / m[0]
+	s = g[1]
+	s -= m[1] * g[0]
+	g[1] = s / m[6]
+	s = g[2]
+	s -= m[2] * g[0]
+	s -= m[7] * g[1]
+	g[2] = s / m[12]
+	s = g[3]
+	s -= m[3] * g[0]
+	s -= m[8] * g[1]
+	s -= m[13] * g[2]
+	g[3] = s / m[18]
+	s = g[4]
+	s -= m[4] * g[0]
+	s -= m[9] * g[1]
+	s -= m[14] * g[2]
+	s -= m[19] * g[3]
+	g[4] = s / m[24]
+	// solveUpper
+	s = g[4]
+	g[4] = s / m[24]
+	s = g[3]
+	s -= m[19] * g[4]
+	g[3] = s / m[18]
+	s = g[2]
+	s -= m[13] * g[3]
+	s -= m[14] * g[4]
+	g[2] = s / m[12]
+	s = g[1]
+	s -= m[7] * g[2]
+	s -= m[8] * g[3]
+	s -= m[9] * g[4]
+	g[1] = s / m[6]
+	s = g[0]
+	s -= m[1] * g[1]
+	s -= m[2] * g[2]
+	s -= m[3] * g[3]
+	s -= m[4] * g[4]
+	g[0] = s / m[0]
+	g[0] *= scale[0]
+	g[1] *= scale[1]
+	g[2] *= scale[2]
+	g[3] *= scale[3]
+	g[4] *= scale[4]
+	return true
 }

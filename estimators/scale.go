@@ -57,6 +57,104 @@ func MAD(r, buf []float64) float64 {
 	return median(buf) / MADConsistency
 }
 
+// madNear is MAD(r, buf), found faster when the median of |r| is known to
+// lie near guess: one pass keeps in buf only the values within a relative
+// distance delta of guess, counting those below, and the middle order
+// statistics are selected among the few kept (madFinish). The value is the
+// same order statistic either way, so the result is bit for bit MAD's.
+func madNear(r, buf []float64, guess, delta float64) float64 {
+	lo, hi, ok := madBracket(len(r), guess, delta)
+	if !ok {
+		return madSampled(r, buf)
+	}
+	return madBetween(r, buf, lo, hi)
+}
+
+// madSampled is MAD(r, buf) for want of a guess: the bracket of
+// madBetween is cut from a sample of 31 evenly spaced |r_i|, between its
+// 9th and 23rd smallest, which hold the median of all n between them
+// unless the sample is most unusual (about 1% of samples, a binomial
+// tail), and then madBetween falls back to MAD. Below 64 values it is MAD.
+func madSampled(r, buf []float64) float64 {
+	const m = 31
+	n := len(r)
+	if n < 64 {
+		return MAD(r, buf)
+	}
+	var s [m]float64
+	for j := range s {
+		s[j] = math.Abs(r[(2*j+1)*n/(2*m)])
+	}
+	insertionSort(s[:])
+	if !(s[8] <= s[22]) { // NaN in the sample
+		return MAD(r, buf)
+	}
+	return madBetween(r, buf, s[8], s[22])
+}
+
+// madBetween is MAD(r, buf) found by selecting among the |r_i| in [lo, hi]
+// (see madNear).
+func madBetween(r, buf []float64, lo, hi float64) float64 {
+	buf = buf[:len(r)]
+	// Branch-free counting: which side a value falls on is a coin toss
+	// that a branch would mispredict half the time. Every value is stored
+	// at buf[mid] and kept only when it lies in [lo, hi].
+	// A NaN is neither below nor above the bracket, so it is kept.
+	below, mid := 0, 0
+	for _, v := range r {
+		a := math.Abs(v)
+		buf[mid] = a
+		lt, gt := b2i(a < lo), b2i(a > hi)
+		below += lt
+		mid += 1 - lt - gt
+	}
+	return madFinish(r, buf, below, mid)
+}
+
+// madBracket returns the interval [guess(1 − delta), guess(1 + delta)] in
+// which madNear looks for the median of n absolute values, or false when
+// there is no usable guess.
+func madBracket(n int, guess, delta float64) (lo, hi float64, ok bool) {
+	if n < 2 || !(guess > 0) || math.IsInf(guess, 0) || !(delta > 0 && delta < 1) {
+		return 0, 0, false
+	}
+	return guess * (1 - delta), guess * (1 + delta), true
+}
+
+// madFinish completes madNear after a pass that found below values of |r|
+// under the bracket and kept the mid values within it, and any NaN, in
+// buf[:mid]. When the middle order statistics are not among the kept
+// values (the guess was too far off) or r holds NaN, it returns MAD(r, buf).
+func madFinish(r, buf []float64, below, mid int) float64 {
+	n := len(r)
+	k := n / 2
+	first := k // the lowest order statistic the median needs
+	if n%2 == 0 {
+		first = k - 1
+	}
+	if first < below || k >= below+mid {
+		return MAD(r, buf)
+	}
+	m := buf[:mid]
+	for _, v := range m {
+		if v != v {
+			return MAD(r, buf)
+		}
+	}
+	k -= below
+	hi := selectKth(m, k)
+	if n%2 == 1 {
+		return hi / MADConsistency
+	}
+	lo := m[0]
+	for _, v := range m[1:k] {
+		if v > lo {
+			lo = v
+		}
+	}
+	return (lo/2 + hi/2) / MADConsistency
+}
+
 // median returns the median of a, reordering a. For even length it is the
 // mean of the two middle order statistics. a must not contain NaN.
 func median(a []float64) float64 {
@@ -145,4 +243,14 @@ func insertionSort(a []float64) {
 		}
 		a[j] = v
 	}
+}
+
+// b2i returns 1 for true and 0 for false; the compiler makes it a flag set,
+// not a branch.
+func b2i(b bool) int {
+	var i int
+	if b {
+		i = 1
+	}
+	return i
 }

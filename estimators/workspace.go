@@ -32,6 +32,7 @@ type Workspace struct {
 	rdiag  []float64 // p, diagonal of R of a QR factorisation
 	base   []float64 // p×p, XᵀX (upper triangle) once baseOK
 	baseOK bool      // base holds XᵀX of the current fit
+	rmsOK  bool      // rms holds the column RMS of the current fit's design
 	nOff   int       // rows whose weight in ws.c differs from 1
 	off    []int     // n, the indices of those rows (first nOff entries)
 
@@ -98,7 +99,7 @@ func (ws *Workspace) reserve(n, p int) {
 	ws.off = ws.off[:n]
 	grow(&ws.m, p*p)
 	grow(&ws.base, p*p)
-	ws.baseOK = false
+	ws.baseOK, ws.rmsOK = false, false
 	for _, s := range []*[]float64{&ws.h, &ws.delta, &ws.trial, &ws.rms, &ws.pscale, &ws.rdiag} {
 		grow(s, p)
 	}
@@ -218,8 +219,13 @@ func (ws *Workspace) inverseGramDiag(x blas64.General, d []float64) bool {
 	return true
 }
 
-// columnRMS sets ws.rms to the root mean square of each column of x.
+// columnRMS sets ws.rms to the root mean square of each column of x,
+// computed once per fit (the design does not change within one).
 func (ws *Workspace) columnRMS(x blas64.General) {
+	if ws.rmsOK {
+		return
+	}
+	ws.rmsOK = true
 	for j := range ws.rms {
 		ws.rms[j] = 0
 	}
@@ -236,6 +242,24 @@ func (ws *Workspace) columnRMS(x blas64.General) {
 // equationNorm returns max_j |Σ_i psi_i x_ij| / (n rms_j) for the values in
 // ws.psi, without touching ws.h.
 func (ws *Workspace) equationNorm(x blas64.General) float64 {
+	var sums [8]float64
+	if ws.p <= len(sums) {
+		// The same sums, each over the rows in order, taken row by row:
+		// the design is stored by rows.
+		s := sums[:ws.p]
+		for i, v := range ws.psi[:ws.n] {
+			for j, xij := range x.Data[i*x.Stride : i*x.Stride+ws.p] {
+				s[j] += v * xij
+			}
+		}
+		var worst float64
+		for j, sj := range s {
+			if ws.rms[j] > 0 {
+				worst = math.Max(worst, math.Abs(sj)/(float64(ws.n)*ws.rms[j]))
+			}
+		}
+		return worst
+	}
 	var worst float64
 	for j := 0; j < ws.p; j++ {
 		var s float64
@@ -247,4 +271,119 @@ func (ws *Workspace) equationNorm(x blas64.General) float64 {
 		}
 	}
 	return worst
+}
+
+// residualsBracket sets ws.r = y − Xβ with the bits of residuals, and in
+// the same pass does madNear's sorting of |r_i| against [lo, hi] into
+// ws.buf, returning the counts madFinish takes.
+func (ws *Workspace) residualsBracket(x blas64.General, y, beta []float64, lo, hi float64) (below, mid int) {
+	n, p := ws.n, ws.p
+	if p == 5 {
+		return ws.residualsBracket5(x, y, beta, lo, hi)
+	}
+	r, buf, y := ws.r[:n], ws.buf[:n], y[:n]
+	beta = beta[:p]
+	for i := range r {
+		ri := y[i] - gemvDot(x.Data[i*x.Stride:i*x.Stride+p], beta, i == n-1 && n%2 == 1)
+		r[i] = ri
+		a := math.Abs(ri)
+		buf[mid] = a
+		lt, gt := b2i(a < lo), b2i(a > hi)
+		below += lt
+		mid += 1 - lt - gt
+	}
+	return below, mid
+}
+
+// residualsBracket5 is residualsBracket for five columns.
+func (ws *Workspace) residualsBracket5(x blas64.General, y, beta []float64, lo, hi float64) (below, mid int) {
+	n := ws.n
+	r, buf := ws.r[:n], ws.buf[:n]
+	paired := n - n%2 // the rows gonum's kernel takes in blocks
+	below, mid = bracketRows5(r[:paired], y, buf, x.Data, x.Stride, (*[5]float64)(beta), lo, hi)
+	if paired < n {
+		i := n - 1
+		ri := y[i] - gemvDot5(x.Data[i*x.Stride:], beta, true)
+		r[i] = ri
+		a := math.Abs(ri)
+		buf[mid] = a
+		lt, gt := b2i(a < lo), b2i(a > hi)
+		below += lt
+		mid += 1 - lt - gt
+	}
+	return below, mid
+}
+
+// bracketRows5 is the loop of residualsBracket5 over the rows gonum's
+// kernel takes in blocks, with gemvDot5's sums written out; it is a
+// function of its own, with few values live, so that its counters stay
+// in registers.
+func bracketRows5(r, y, buf, data []float64, stride int, beta *[5]float64, lo, hi float64) (below, mid int) {
+	b0, b1, b2, b3, b4 := beta[0], beta[1], beta[2], beta[3], beta[4]
+	y = y[:len(r)]
+	buf = buf[:len(r)]
+	off := 0
+	for i := range r {
+		xi := data[off : off+5 : off+5]
+		off += stride
+		var even, odd float64
+		even += xi[0] * b0
+		odd += xi[1] * b1
+		even += xi[2] * b2
+		odd += xi[3] * b3
+		ri := y[i] - ((even + odd) + xi[4]*b4)
+		r[i] = ri
+		a := math.Abs(ri)
+		buf[mid] = a
+		lt, gt := b2i(a < lo), b2i(a > hi)
+		below += lt
+		mid += 1 - lt - gt
+	}
+	return below, mid
+}
+
+// gemvDot returns a·b summed in the order of gonum's amd64 matrix-vector
+// kernel (GemvN), which residuals uses, so that residualsBracket gives the
+// same bits: two running sums, of the even and of the odd columns, over
+// all but an odd last column; then, for a row the kernel takes in a block
+// of two or four (every row but an odd n's last, alone), the two sums are
+// added before the last column's product, and for a row taken alone,
+// after it is added to the even sum.
+func gemvDot(a, b []float64, alone bool) float64 {
+	p := len(a)
+	b = b[:p]
+	var even, odd float64
+	c := 0
+	for ; c+4 <= p; c += 4 {
+		even += a[c] * b[c]
+		odd += a[c+1] * b[c+1]
+		even += a[c+2] * b[c+2]
+		odd += a[c+3] * b[c+3]
+	}
+	if p&2 != 0 {
+		even += a[c] * b[c]
+		odd += a[c+1] * b[c+1]
+		c += 2
+	}
+	if p&1 == 0 {
+		return even + odd
+	}
+	if alone {
+		return (even + a[c]*b[c]) + odd
+	}
+	return (even + odd) + a[c]*b[c]
+}
+
+// gemvDot5 is gemvDot for five columns.
+func gemvDot5(a, b []float64, alone bool) float64 {
+	a, b = a[:5:5], b[:5:5]
+	var even, odd float64
+	even += a[0] * b[0]
+	odd += a[1] * b[1]
+	even += a[2] * b[2]
+	odd += a[3] * b[3]
+	if alone {
+		return (even + a[4]*b[4]) + odd
+	}
+	return (even + odd) + a[4]*b[4]
 }

@@ -1,9 +1,10 @@
 package main
 
 import (
-	"encoding/json"
+	"bufio"
 	"errors"
 	"fmt"
+	"io"
 	"math"
 	"os"
 	"slices"
@@ -161,16 +162,19 @@ func fitCmd(e env, args []string) error {
 	if !*noIntercept {
 		names = append([]string{"intercept"}, names...)
 	}
-	out := fitOutput{Estimator: desc}
+	out := fitOutput{Estimator: desc, Fits: make([]fitJSON, 0, len(design.groups))}
 	failed := 0
+	// One workspace, result and set of buffers serve every group: a fit
+	// depends only on its data and the seed given to the workspace.
+	var ws estimators.Workspace
+	var res estimators.Result
+	var buf fitBuffers
 	for _, g := range design.groups {
-		x, y, err := design.matrices(t, g.rows, !*noIntercept)
+		x, y, err := design.matricesInto(t, g.rows, !*noIntercept, &buf)
 		if err != nil {
 			return err
 		}
 		fj := fitJSON{Group: g.name, Rows: len(g.rows), Order: names}
-		var ws estimators.Workspace
-		var res estimators.Result
 		ws.SeedRandom(seed.or(1), 0)
 		err = est.Fit(x, y, &ws, &res)
 		if err != nil {
@@ -187,7 +191,7 @@ func fitCmd(e env, args []string) error {
 				fj.SRefinement, fj.SSteps = res.SRefinement.String(), res.SSteps
 			}
 			addInference(&fj, est, x, &ws, &res, names)
-			fj.Observations = observations(est, x, y, &res, *cut)
+			fj.Observations = observations(est, x, y, &res, *cut, &buf)
 			for i := range fj.Observations {
 				fj.Observations[i].Row = g.rows[i] + 1
 				fj.Observations[i].Line = t.Line(g.rows[i])
@@ -204,13 +208,15 @@ func fitCmd(e env, args []string) error {
 		}
 	}
 	if *asJSON {
-		enc := json.NewEncoder(e.stdout)
-		enc.SetIndent("", "  ")
-		if err := enc.Encode(out); err != nil {
+		if err := writeFitJSON(e.stdout, out, names); err != nil {
 			return err
 		}
 	} else {
-		writeFitTable(e, out)
+		bw := bufio.NewWriterSize(e.stdout, 64<<10)
+		writeFitTable(env{stdin: e.stdin, stdout: bw, stderr: e.stderr}, out)
+		if err := bw.Flush(); err != nil {
+			return err
+		}
 	}
 	if failed > 0 {
 		return fmt.Errorf("%d of %d group(s) could not be fitted (see the error of each)", failed, len(out.Fits))
@@ -343,22 +349,31 @@ func methodNames(ms []estimators.Method) []string {
 // and the response of the given data rows; a cell that is not a number is
 // an error naming its line and column.
 func (d design) matrices(t *csvdata.Table, rows []int, intercept bool) (*mat.Dense, []float64, error) {
+	return d.matricesInto(t, rows, intercept, new(fitBuffers))
+}
+
+// matricesInto is matrices with the design and response in buf's slices,
+// which the next call overwrites.
+func (d design) matricesInto(t *csvdata.Table, rows []int, intercept bool, buf *fitBuffers) (*mat.Dense, []float64, error) {
 	off := 0
 	if intercept {
 		off = 1
 	}
-	x := mat.NewDense(len(rows), off+len(d.x), nil)
-	y := make([]float64, len(rows))
+	p := off + len(d.x)
+	data := grow(&buf.x, len(rows)*p)
+	y := grow(&buf.y, len(rows))
+	x := mat.NewDense(len(rows), p, data)
 	for r, i := range rows {
+		xr := data[r*p : (r+1)*p]
 		if intercept {
-			x.Set(r, 0, 1)
+			xr[0] = 1
 		}
 		for k, j := range d.x {
 			v, err := t.Float(i, j)
 			if err != nil {
 				return nil, nil, dataError{err}
 			}
-			x.Set(r, off+k, v)
+			xr[off+k] = v
 		}
 		var err error
 		if y[r], err = t.Float(i, d.y); err != nil {
@@ -445,4 +460,46 @@ func chooseColumns(t *csvdata.Table, yName, xList, groupName string) (design, er
 		d.groups[k].rows = append(d.groups[k].rows, i)
 	}
 	return d, nil
+}
+
+// writeFitJSON writes out as JSON (see appendFitJSON), in pieces of about
+// 64 kB. names are the coefficients' names.
+func writeFitJSON(w io.Writer, out fitOutput, names []string) error {
+	sorted := slices.Clone(names)
+	slices.Sort(sorted)
+	j := jsonIndent{b: make([]byte, 0, 1<<17)}
+	appendFitJSONHead(&j, out.Estimator)
+	if out.Fits == nil {
+		j.b = append(j.b, "null"...)
+	} else {
+		j.open('[')
+		for i := range out.Fits {
+			appendFitJSON(&j, &out.Fits[i], sorted)
+			if len(j.b) >= 1<<16 {
+				if _, err := w.Write(j.b); err != nil {
+					return err
+				}
+				j.b = j.b[:0]
+			}
+		}
+		j.close(']')
+	}
+	appendFitJSONTail(&j)
+	_, err := w.Write(j.b)
+	return err
+}
+
+// fitBuffers holds the scratch of fit's groups, reused from one to the
+// next.
+type fitBuffers struct {
+	x, y, r, w []float64
+}
+
+// grow returns (*s)[:n], reallocating *s when it is too short.
+func grow(s *[]float64, n int) []float64 {
+	if cap(*s) < n {
+		*s = make([]float64, n)
+	}
+	*s = (*s)[:n]
+	return *s
 }

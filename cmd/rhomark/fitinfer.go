@@ -4,10 +4,14 @@ import (
 	"bytes"
 	"encoding/csv"
 	"fmt"
+	"maps"
 	"math"
+	"slices"
 	"strconv"
 	"strings"
+	"unicode/utf8"
 
+	"gonum.org/v1/gonum/blas/blas64"
 	"gonum.org/v1/gonum/mat"
 
 	"github.com/rhomark/rhomark/estimators"
@@ -38,12 +42,16 @@ func addInference(fj *fitJSON, est estimators.Estimator, x *mat.Dense, ws *estim
 
 // observations returns each row's residual, scaled residual, final weight
 // and outlier flag (|residual/scale| > cut) after a fit of est. Row and
-// Line are left for the caller.
-func observations(est estimators.Estimator, x *mat.Dense, y []float64, res *estimators.Result, cut float64) []fitObservation {
+// Line are left for the caller. buf's r and w are scratch.
+func observations(est estimators.Estimator, x *mat.Dense, y []float64, res *estimators.Result, cut float64, buf *fitBuffers) []fitObservation {
 	n, p := x.Dims()
-	r := make([]float64, n)
+	r := grow(&buf.r, n)
+	raw := x.RawMatrix()
+	beta := blas64.Vector{N: p, Inc: 1, Data: res.Coefficients}
 	for i := range r {
-		r[i] = y[i] - mat.Dot(x.RowView(i), mat.NewVecDense(p, res.Coefficients))
+		// mat.Dot of a row view and the coefficients, without building
+		// them: the same blas64.Dot.
+		r[i] = y[i] - blas64.Dot(blas64.Vector{N: p, Inc: 1, Data: raw.Data[i*raw.Stride : i*raw.Stride+p]}, beta)
 	}
 	sigma := res.Scale
 	scaled := func(v float64) float64 {
@@ -52,7 +60,7 @@ func observations(est estimators.Estimator, x *mat.Dense, y []float64, res *esti
 		}
 		return v / sigma
 	}
-	w := make([]float64, n)
+	w := grow(&buf.w, n)
 	est.Weights(r, sigma, p, w)
 	out := make([]fitObservation, n)
 	for i, v := range r {
@@ -161,4 +169,307 @@ func writeFitTable(e env, out fitOutput) {
 		}
 	}
 	fmt.Fprintln(w, "\nEvery row's residual, weight and flag: --json, or --weights FILE.")
+}
+
+// The JSON of fit is written by hand, in append style: the same bytes
+// that encoding/json's Encoder with SetIndent("", "  ") writes for a
+// fitOutput (TestFitJSONMatchesEncoder holds it to that), without its
+// reflection, its whole-document buffer and its second, indenting pass,
+// which took most of the time of a fit over many groups.
+
+// jsonIndent appends indented JSON: each member or element on a line of
+// its own, two spaces a level, and empty objects and arrays as {} and [].
+type jsonIndent struct {
+	b     []byte
+	depth int
+	first bool // no member or element yet at this level
+}
+
+// next starts a member or an element: a comma after the previous one, a
+// new line and the indent.
+func (j *jsonIndent) next() {
+	if !j.first {
+		j.b = append(j.b, ',')
+	}
+	j.first = false
+	j.newline()
+}
+
+func (j *jsonIndent) newline() {
+	j.b = append(j.b, '\n')
+	for i := 0; i < j.depth; i++ {
+		j.b = append(j.b, ' ', ' ')
+	}
+}
+
+// key starts the member k.
+func (j *jsonIndent) key(k string) {
+	j.next()
+	j.b = appendJSONString(j.b, k)
+	j.b = append(j.b, ':', ' ')
+}
+
+// open starts an object ({) or array ([).
+func (j *jsonIndent) open(c byte) {
+	j.b = append(j.b, c)
+	j.depth++
+	j.first = true
+}
+
+// close ends an object (}) or array (]).
+func (j *jsonIndent) close(c byte) {
+	j.depth--
+	if !j.first {
+		j.newline()
+	}
+	j.b = append(j.b, c)
+	j.first = false
+}
+
+func (j *jsonIndent) str(k, v string) {
+	j.key(k)
+	j.b = appendJSONString(j.b, v)
+}
+
+func (j *jsonIndent) int(k string, v int) {
+	j.key(k)
+	j.b = strconv.AppendInt(j.b, int64(v), 10)
+}
+
+func (j *jsonIndent) bool(k string, v bool) {
+	j.key(k)
+	j.b = strconv.AppendBool(j.b, v)
+}
+
+func (j *jsonIndent) num(k string, v jsonFloat) {
+	j.key(k)
+	j.b = appendJSONNum(j.b, v)
+}
+
+// appendJSONNum appends v as results.Num encodes it: a number, or null
+// when it is not finite.
+func appendJSONNum(b []byte, v jsonFloat) []byte {
+	f := float64(v)
+	if math.IsNaN(f) || math.IsInf(f, 0) {
+		return append(b, "null"...)
+	}
+	return appendJSONFloat(b, f)
+}
+
+// appendJSONFloat appends a finite f as encoding/json does: the shortest
+// decimal that reads back to f, in exponent form below 1e-6 or from 1e21,
+// with no leading zero in a negative exponent.
+func appendJSONFloat(b []byte, f float64) []byte {
+	format := byte('f')
+	if abs := math.Abs(f); abs != 0 && (abs < 1e-6 || abs >= 1e21) {
+		format = 'e'
+	}
+	b = strconv.AppendFloat(b, f, format, -1, 64)
+	if format == 'e' {
+		if n := len(b); n >= 4 && b[n-4] == 'e' && b[n-3] == '-' && b[n-2] == '0' {
+			b[n-2] = b[n-1]
+			b = b[:n-1]
+		}
+	}
+	return b
+}
+
+// appendJSONString appends s quoted as encoding/json quotes strings (with
+// its default escaping of <, > and &): control characters, quote and
+// backslash escaped, invalid UTF-8 replaced by U+FFFD, and U+2028 and
+// U+2029 escaped.
+func appendJSONString(b []byte, s string) []byte {
+	const hex = "0123456789abcdef"
+	b = append(b, '"')
+	start := 0
+	for i := 0; i < len(s); {
+		if c := s[i]; c < utf8.RuneSelf {
+			if c >= 0x20 && c != '"' && c != '\\' && c != '<' && c != '>' && c != '&' {
+				i++
+				continue
+			}
+			b = append(b, s[start:i]...)
+			switch c {
+			case '\\', '"':
+				b = append(b, '\\', c)
+			case '\b':
+				b = append(b, '\\', 'b')
+			case '\f':
+				b = append(b, '\\', 'f')
+			case '\n':
+				b = append(b, '\\', 'n')
+			case '\r':
+				b = append(b, '\\', 'r')
+			case '\t':
+				b = append(b, '\\', 't')
+			default:
+				b = append(b, '\\', 'u', '0', '0', hex[c>>4], hex[c&0xF])
+			}
+			i++
+			start = i
+			continue
+		}
+		r, size := utf8.DecodeRuneInString(s[i:])
+		switch {
+		case r == utf8.RuneError && size == 1:
+			b = append(b, s[start:i]...)
+			b = append(b, `\ufffd`...)
+		case r == '\u2028' || r == '\u2029':
+			b = append(b, s[start:i]...)
+			b = append(b, '\\', 'u', '2', '0', '2', hex[r&0xF])
+		default:
+			i += size
+			continue
+		}
+		i += size
+		start = i
+	}
+	b = append(b, s[start:]...)
+	return append(b, '"')
+}
+
+// appendFitJSONHead appends the start of fit's JSON document, up to the
+// opening of the array of fits.
+func appendFitJSONHead(j *jsonIndent, es fitEstimator) {
+	j.open('{')
+	j.key("estimator")
+	j.open('{')
+	j.str("method", es.Method)
+	if es.Psi != "" {
+		j.str("psi", es.Psi)
+	}
+	if len(es.Tuning) > 0 {
+		j.key("tuning")
+		j.open('[')
+		for _, v := range es.Tuning {
+			j.next()
+			j.b = appendJSONFloat(j.b, v)
+		}
+		j.close(']')
+	}
+	if es.Scale != "" {
+		j.str("scale", es.Scale)
+	}
+	j.str("start", es.Start)
+	j.str("scale_rule", es.ScaleRule)
+	j.str("weights", es.Weights)
+	j.key("outlier_cut")
+	j.b = appendJSONFloat(j.b, es.OutlierCut)
+	j.close('}')
+	j.key("fits")
+}
+
+// appendFitJSONTail closes what appendFitJSONHead opened, after the fits.
+func appendFitJSONTail(j *jsonIndent) {
+	j.close('}')
+	j.b = append(j.b, '\n')
+}
+
+// appendFitJSON appends one element of the array of fits. sorted lists
+// the keys of the coefficient maps in encoding/json's (byte) order.
+func appendFitJSON(j *jsonIndent, f *fitJSON, sorted []string) {
+	j.next()
+	j.open('{')
+	j.str("group", f.Group)
+	j.int("rows", f.Rows)
+	if len(f.Coefficients) > 0 {
+		j.key("coefficients")
+		appendNumMap(j, f.Coefficients, sorted)
+	}
+	j.key("coefficient_order")
+	if f.Order == nil {
+		j.b = append(j.b, "null"...)
+	} else {
+		j.open('[')
+		for _, n := range f.Order {
+			j.next()
+			j.b = appendJSONString(j.b, n)
+		}
+		j.close(']')
+	}
+	if len(f.StandardErrors) > 0 {
+		j.key("standard_errors")
+		appendNumMap(j, f.StandardErrors, sorted)
+	}
+	if len(f.Intervals) > 0 {
+		j.key("intervals")
+		keys := mapKeys(f.Intervals, sorted)
+		j.open('{')
+		for _, k := range keys {
+			iv := f.Intervals[k]
+			j.key(k)
+			j.open('[')
+			for _, v := range iv {
+				j.next()
+				j.b = appendJSONNum(j.b, v)
+			}
+			j.close(']')
+		}
+		j.close('}')
+	}
+	if f.IntervalRule != "" {
+		j.str("interval_rule", f.IntervalRule)
+	}
+	if f.NoStandardErrors != "" {
+		j.str("no_standard_errors", f.NoStandardErrors)
+	}
+	j.num("scale", f.Scale)
+	j.int("iterations", f.Iterations)
+	j.str("status", f.Status)
+	j.bool("converged", f.Converged)
+	j.num("equation_norm", f.EquationNorm)
+	j.num("objective", f.Objective)
+	if f.SRefinement != "" {
+		j.str("s_refinement", f.SRefinement)
+	}
+	if f.SSteps != 0 {
+		j.int("s_steps", f.SSteps)
+	}
+	if len(f.Observations) > 0 {
+		j.key("observations")
+		j.open('[')
+		for i := range f.Observations {
+			o := &f.Observations[i]
+			j.next()
+			j.open('{')
+			j.int("row", o.Row)
+			j.int("line", o.Line)
+			j.num("residual", o.Resid)
+			j.num("scaled_residual", o.Scaled)
+			j.num("weight", o.Weight)
+			j.bool("outlier", o.Flag)
+			j.close('}')
+		}
+		j.close(']')
+	}
+	j.int("outliers", f.Outliers)
+	if f.Error != "" {
+		j.str("error", f.Error)
+	}
+	j.close('}')
+}
+
+// appendNumMap appends a map of numbers as an object, keys in order.
+func appendNumMap(j *jsonIndent, m map[string]jsonFloat, sorted []string) {
+	j.open('{')
+	for _, k := range mapKeys(m, sorted) {
+		j.num(k, m[k])
+	}
+	j.close('}')
+}
+
+// mapKeys returns m's keys in encoding/json's order: sorted when it holds
+// exactly those keys, otherwise m's own keys sorted.
+func mapKeys[V any](m map[string]V, sorted []string) []string {
+	same := len(m) == len(sorted)
+	for _, k := range sorted {
+		if _, ok := m[k]; !ok {
+			same = false
+			break
+		}
+	}
+	if same {
+		return sorted
+	}
+	return slices.Sorted(maps.Keys(m))
 }

@@ -5,13 +5,16 @@ package csvdata
 
 import (
 	"bufio"
+	"bytes"
 	"encoding/csv"
 	"errors"
 	"fmt"
 	"io"
+	"io/fs"
 	"math"
 	"strconv"
 	"strings"
+	"unicode"
 	"unicode/utf8"
 )
 
@@ -37,17 +40,107 @@ type Table struct {
 // Read reads a CSV table from r; file names it in errors. Lines may end in
 // LF, CRLF or a lone CR (as some spreadsheets write); a lone CR, also one
 // inside a quoted field, is read as LF.
+//
+// A file without quotes or CRs, the usual export of numbers, is split
+// directly (readPlain), its cells cut from one string; any other file, or
+// one that readPlain finds malformed, is read by encoding/csv (readCSV),
+// whose errors are the ones reported. Both give the same table.
 func Read(file string, r io.Reader) (*Table, error) {
+	data, err := readAll(r)
+	if err != nil {
+		// Let encoding/csv meet the error where it happened in the stream.
+		return readCSV(file, io.MultiReader(bytes.NewReader(data), errReader{err}))
+	}
+	if bytes.IndexByte(data, '"') < 0 && bytes.IndexByte(data, '\r') < 0 {
+		if t, ok, err := readPlain(file, string(data)); ok {
+			return t, err
+		}
+	}
+	return readCSV(file, bytes.NewReader(data))
+}
+
+// readAll is io.ReadAll, reading a file of known size into one buffer
+// of that size rather than growing one.
+func readAll(r io.Reader) ([]byte, error) {
+	st, ok := r.(interface{ Stat() (fs.FileInfo, error) })
+	if !ok {
+		return io.ReadAll(r)
+	}
+	info, err := st.Stat()
+	if err != nil || !info.Mode().IsRegular() || info.Size() <= 0 || info.Size() > 1<<40 {
+		return io.ReadAll(r)
+	}
+	b := make([]byte, 0, info.Size()+1) // one byte more to meet EOF without growing
+	for {
+		n, err := r.Read(b[len(b):cap(b)])
+		b = b[:len(b)+n]
+		if err != nil {
+			if errors.Is(err, io.EOF) {
+				return b, nil
+			}
+			return b, err
+		}
+		if len(b) == cap(b) {
+			b = append(b, 0)[:len(b)] // the file grew: let append find room
+		}
+	}
+}
+
+// errReader returns its error.
+type errReader struct{ err error }
+
+func (e errReader) Read([]byte) (int, error) { return 0, e.err }
+
+// readCSV reads a table with encoding/csv.
+func readCSV(file string, r io.Reader) (*Table, error) {
 	cr := csv.NewReader(&crReader{r: bufio.NewReader(r)})
 	cr.ReuseRecord = false
 	cr.TrimLeadingSpace = true
 	header, err := cr.Read()
 	if errors.Is(err, io.EOF) {
-		return nil, fmt.Errorf("%s: the file is empty; want a header row of column names, then data rows", file)
+		return nil, errEmpty(file)
 	}
 	if err != nil {
 		return nil, csvError(file, err)
 	}
+	t, err := newTable(file, header)
+	if err != nil {
+		return nil, err
+	}
+	for {
+		rec, err := cr.Read()
+		if errors.Is(err, io.EOF) {
+			break
+		}
+		if err != nil {
+			return nil, csvError(file, err)
+		}
+		if len(t.Cells) >= maxRows {
+			return nil, errTooLong(file)
+		}
+		line, _ := cr.FieldPos(0)
+		t.Cells = append(t.Cells, rec)
+		t.lines = append(t.lines, line)
+	}
+	if len(t.Cells) == 0 {
+		return nil, errNoRows(file)
+	}
+	return t, nil
+}
+
+func errEmpty(file string) error {
+	return fmt.Errorf("%s: the file is empty; want a header row of column names, then data rows", file)
+}
+
+func errTooLong(file string) error {
+	return fmt.Errorf("%s: more than %d rows; split the file", file, maxRows)
+}
+
+func errNoRows(file string) error { return fmt.Errorf("%s: no data rows after the header", file) }
+
+// newTable checks the header's column names and returns a table with
+// them and no rows.
+func newTable(file string, header []string) (*Table, error) {
 	if len(header) > maxColumns {
 		return nil, fmt.Errorf("%s:1: %d columns; at most %d are supported", file, len(header), maxColumns)
 	}
@@ -64,25 +157,82 @@ func Read(file string, r io.Reader) (*Table, error) {
 		seen[h] = j
 		t.Names = append(t.Names, h)
 	}
-	for {
-		rec, err := cr.Read()
-		if errors.Is(err, io.EOF) {
-			break
+	return t, nil
+}
+
+// readPlain reads a file that holds no quote and no CR as encoding/csv
+// (with TrimLeadingSpace) reads it: records are the non-empty lines, fields
+// are split at commas and lose their leading white space. Every cell is a
+// substring of data, and the rows share one backing array, so the table
+// costs a few allocations rather than two per row. It reports false, to
+// leave the file to encoding/csv, when a row's number of fields differs
+// from the header's or there are too many rows: errors are encoding/csv's
+// to word.
+func readPlain(file, data string) (*Table, bool, error) {
+	var header []string
+	line := 0
+	rows := strings.Count(data, "\n") + 1
+	var flat []string
+	var t *Table
+	width := 0
+	for len(data) > 0 {
+		line++
+		text := data
+		if i := strings.IndexByte(data, '\n'); i >= 0 {
+			text, data = data[:i], data[i+1:]
+		} else {
+			data = ""
 		}
-		if err != nil {
-			return nil, csvError(file, err)
+		if text == "" {
+			continue // encoding/csv skips empty lines
 		}
-		if len(t.Cells) >= maxRows {
-			return nil, fmt.Errorf("%s: more than %d rows; split the file", file, maxRows)
+		if t == nil {
+			header = splitPlain(nil, text)
+			var err error
+			if t, err = newTable(file, header); err != nil {
+				return nil, true, err
+			}
+			width = len(header)
+			flat = make([]string, 0, width*rows)
+			t.Cells = make([][]string, 0, rows)
+			t.lines = make([]int, 0, rows)
+			continue
 		}
-		line, _ := cr.FieldPos(0)
-		t.Cells = append(t.Cells, rec)
+		start := len(flat)
+		flat = splitPlain(flat, text)
+		if len(flat)-start != width || len(t.Cells) >= maxRows {
+			return nil, false, nil
+		}
+		t.Cells = append(t.Cells, flat[start:len(flat):len(flat)])
 		t.lines = append(t.lines, line)
 	}
-	if len(t.Cells) == 0 {
-		return nil, fmt.Errorf("%s: no data rows after the header", file)
+	if t == nil {
+		return nil, true, errEmpty(file)
 	}
-	return t, nil
+	if len(t.Cells) == 0 {
+		return nil, true, errNoRows(file)
+	}
+	return t, true, nil
+}
+
+// splitPlain appends the fields of one unquoted line to dst, each without
+// its leading white space (as unicode.IsSpace has it).
+func splitPlain(dst []string, text string) []string {
+	for {
+		i := strings.IndexByte(text, ',')
+		field := text
+		if i >= 0 {
+			field = text[:i]
+		}
+		if field != "" && (field[0] <= ' ' || field[0] >= utf8.RuneSelf) {
+			field = strings.TrimLeftFunc(field, unicode.IsSpace)
+		}
+		dst = append(dst, field)
+		if i < 0 {
+			return dst
+		}
+		text = text[i+1:]
+	}
 }
 
 // csvError reformats an encoding/csv error as file:line: message.

@@ -3,6 +3,8 @@ package csvdata
 import (
 	"bufio"
 	"io"
+	"math/rand/v2"
+	"slices"
 	"strings"
 	"testing"
 	"testing/iotest"
@@ -53,6 +55,9 @@ func FuzzRead(f *testing.F) {
 		f.Add([]byte(s))
 	}
 	f.Fuzz(func(t *testing.T, data []byte) {
+		if !strings.ContainsAny(string(data), "\"\r") {
+			samePlain(t, string(data))
+		}
 		tab, err := Read("fuzz.csv", strings.NewReader(string(data)))
 		if err != nil {
 			if !strings.HasPrefix(err.Error(), "fuzz.csv") {
@@ -128,5 +133,66 @@ func TestLineEndings(t *testing.T) {
 	got, _ := io.ReadAll(r)
 	if string(got) != "a\r\nb\nc" {
 		t.Errorf("crReader gave %q", got)
+	}
+}
+
+// samePlain fails unless readPlain reads data as encoding/csv does: the
+// same cells, lines and error, or a refusal that leaves it to
+// encoding/csv.
+func samePlain(t *testing.T, data string) {
+	t.Helper()
+	got, ok, gerr := readPlain("p.csv", data)
+	if !ok {
+		return
+	}
+	want, werr := readCSV("p.csv", strings.NewReader(data))
+	if (gerr == nil) != (werr == nil) || (gerr != nil && gerr.Error() != werr.Error()) {
+		t.Fatalf("%q: plain error %v, csv error %v", data, gerr, werr)
+	}
+	if gerr != nil {
+		return
+	}
+	if !slices.Equal(got.Names, want.Names) || !slices.Equal(got.lines, want.lines) || len(got.Cells) != len(want.Cells) {
+		t.Fatalf("%q: plain %q %v %q, csv %q %v %q", data, got.Names, got.lines, got.Cells, want.Names, want.lines, want.Cells)
+	}
+	for i := range got.Cells {
+		if !slices.Equal(got.Cells[i], want.Cells[i]) {
+			t.Fatalf("%q row %d: plain %q, csv %q", data, i, got.Cells[i], want.Cells[i])
+		}
+	}
+}
+
+// TestPlainMatchesCSV: the direct reading of files without quotes or CRs
+// gives encoding/csv's table, on fixed tricky inputs and on random ones
+// drawn from commas, line ends, ASCII and Unicode white space, letters,
+// digits and invalid UTF-8.
+func TestPlainMatchesCSV(t *testing.T) {
+	for _, s := range []string{"", "\n", "\n\n", "a\n", "a,b\n1,2", "a,b\n\n1,2\n\n", " a , b\n 1,\t2\n", "a,b\n1,2\n3\n", "a\n \n", "a,b\n1,\u00a02\n", "a,b\n1,\u00852\n", "\ufeffa,b\n1,2\n", "a,a\n1,2\n", "a,,b\n1,2,3\n", "a,b\n1, \n"} {
+		samePlain(t, s)
+	}
+	pieces := []string{"a", "b", "1", "-2.5", ",", ",", "\n", "\n", " ", "\t", "\v", "\u00a0", "\u0085", "\u2003", "é", "\xff", "x"}
+	rng := rand.New(rand.NewPCG(3, 4))
+	for k := 0; k < 20000; k++ {
+		var b strings.Builder
+		for n := rng.IntN(30); n > 0; n-- {
+			b.WriteString(pieces[rng.IntN(len(pieces))])
+		}
+		samePlain(t, b.String())
+	}
+	// Rectangular files, which readPlain does not leave to encoding/csv.
+	cells := []string{"", "a", "1", "-2.5", " ", "\t", "\v", "\u00a0", "\u0085", "\u2003", "é", "\xff", "x y"}
+	for k := 0; k < 5000; k++ {
+		var b strings.Builder
+		w := 1 + rng.IntN(4)
+		for r := rng.IntN(6); r >= 0; r-- {
+			for j := 0; j < w; j++ {
+				if j > 0 {
+					b.WriteByte(',')
+				}
+				b.WriteString(cells[rng.IntN(len(cells))] + cells[rng.IntN(len(cells))])
+			}
+			b.WriteString([]string{"\n", "\n", "\n\n", ""}[rng.IntN(4)])
+		}
+		samePlain(t, b.String())
 	}
 }

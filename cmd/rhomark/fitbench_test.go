@@ -1,0 +1,75 @@
+package main
+
+import (
+	"io"
+	"math/rand/v2"
+	"os"
+	"path/filepath"
+	"strconv"
+	"testing"
+)
+
+// writeGroupedW1 writes a CSV of groups groups of the W1 workload, a
+// flow-meter bench's calibration runs: 100 rows each of a reading y on
+// four standard-normal predictors, y = 1 + Σx + e with normal errors and
+// 10% of the rows shifted by +10 (stuck-sensor spikes), every number at
+// full precision (about 10 kB a group).
+func writeGroupedW1(tb testing.TB, path string, groups int) {
+	tb.Helper()
+	rng := rand.New(rand.NewPCG(14, 5))
+	buf := []byte("meter,y,x1,x2,x3,x4\n")
+	var x [4]float64
+	for g := 0; g < groups; g++ {
+		for i := 0; i < 100; i++ {
+			y := 1.0
+			for j := range x {
+				x[j] = rng.NormFloat64()
+				y += x[j]
+			}
+			y += rng.NormFloat64()
+			if i%10 == 0 {
+				y += 10
+			}
+			buf = append(buf, "m"...)
+			buf = strconv.AppendInt(buf, int64(g), 10)
+			buf = append(buf, ',')
+			buf = strconv.AppendFloat(buf, y, 'g', -1, 64)
+			for _, v := range x {
+				buf = append(buf, ',')
+				buf = strconv.AppendFloat(buf, v, 'g', -1, 64)
+			}
+			buf = append(buf, '\n')
+		}
+	}
+	if err := os.WriteFile(path, buf, 0o644); err != nil {
+		tb.Fatal(err)
+	}
+}
+
+// BenchmarkFitGroups measures `fit --group` over 1,000 groups of the W1
+// workload (Huber by IRLS, a 10 MB CSV), the whole command in process:
+// reading and parsing the file, the fits, their inference and the output
+// (JSON, or the table). µs/group is the time per group.
+func BenchmarkFitGroups(b *testing.B) {
+	const groups = 1000
+	path := filepath.Join(b.TempDir(), "meters.csv")
+	writeGroupedW1(b, path, groups)
+	for _, c := range []struct {
+		name string
+		args []string
+	}{
+		{"json", []string{"--json"}},
+		{"table", nil},
+	} {
+		b.Run(c.name, func(b *testing.B) {
+			args := append([]string{"fit", path, "--y", "y", "--group", "meter", "--tol", "1e-10"}, c.args...)
+			b.ReportAllocs()
+			for i := 0; i < b.N; i++ {
+				if code := run(args, nil, io.Discard, io.Discard); code != exitOK {
+					b.Fatalf("exit %d", code)
+				}
+			}
+			b.ReportMetric(b.Elapsed().Seconds()*1e6/float64(b.N*groups), "µs/group")
+		})
+	}
+}
