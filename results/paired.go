@@ -200,7 +200,13 @@ func (st *pairedState) pairFit(a *groupReader, label string, ra, rb ReplicateRec
 		x, y := ra.Coefficients[j], rb.Coefficients[j]
 		d := math.Abs(y - x)
 		if math.IsNaN(d) && !(math.IsNaN(x) && math.IsNaN(y)) {
-			d = math.Inf(1)
+			if ra.Status != rb.Status {
+				// A fit that failed in one run only (its coefficients
+				// NaN) is counted among the status changes, not as an
+				// infinite move.
+				continue
+			}
+			d = math.Inf(1) // a NaN with the same status: report it loudly
 		}
 		if math.IsNaN(d) || d == 0 {
 			continue
