@@ -76,7 +76,13 @@ func householderFactor(a []float64, n, p int, rdiag, colScale []float64) bool {
 		alpha := -math.Copysign(normx, col[k])
 		col[k] -= alpha // v = x − alpha e_k, stored in place of x
 		v := col[k:]
-		for j := k + 1; j < p; j++ {
+		// Two columns per pass load the reflector once for both; each
+		// column's sums are formed in the same order as one at a time.
+		j := k + 1
+		for ; j+1 < p; j += 2 {
+			applyReflectorTwo(v, a[j*n+k:(j+1)*n], a[(j+1)*n+k:(j+2)*n], alpha)
+		}
+		if j < p {
 			applyReflector(v, a[j*n+k:(j+1)*n], alpha)
 		}
 		rdiag[k] = alpha

@@ -646,7 +646,7 @@ func (lw *ltsWork) refitQR(x blas64.General, y, b []float64) bool {
 		}
 		qy[k] = y[i]
 	}
-	if !householderSolvePairs(a, h, p, qy, lw.gz, lw.rdiag, lw.cscale) {
+	if !householderSolve(a, h, p, qy, lw.gz, lw.rdiag, lw.cscale) {
 		return false
 	}
 	copy(b, lw.gz)

@@ -87,56 +87,6 @@ func (lw *ltsWork) evaluate(x blas64.General, y, b []float64) (float64, bool) {
 	return q, !math.IsInf(q, 0)
 }
 
-// householderSolvePairs is householderSolve (same arguments, same
-// result bit for bit) with each reflector applied to two columns per pass:
-// the two inner products are summed in the same order as
-// applyReflector's, but the reflector is loaded once for both. The C-steps
-// of FAST-LTS spend most of their time here.
-func householderSolvePairs(a []float64, n, p int, y, b, rdiag, colScale []float64) bool {
-	for j := 0; j < p; j++ {
-		col := a[j*n : (j+1)*n]
-		s := norm2(col)
-		if s == 0 || math.IsInf(s, 0) || math.IsNaN(s) {
-			return false
-		}
-		colScale[j] = s
-		inv := 1 / s
-		for i := range col {
-			col[i] *= inv
-		}
-	}
-	for k := 0; k < p; k++ {
-		col := a[k*n : (k+1)*n]
-		normx := norm2(col[k:])
-		if normx == 0 {
-			return false
-		}
-		alpha := -math.Copysign(normx, col[k])
-		col[k] -= alpha
-		v := col[k:]
-		j := k + 1
-		for ; j+1 < p; j += 2 {
-			applyReflectorTwo(v, a[j*n+k:(j+1)*n], a[(j+1)*n+k:(j+2)*n], alpha)
-		}
-		if j < p {
-			applyReflector(v, a[j*n+k:(j+1)*n], alpha)
-		}
-		rdiag[k] = alpha
-	}
-	var rmax float64
-	for k := 0; k < p; k++ {
-		rmax = math.Max(rmax, math.Abs(rdiag[k]))
-	}
-	tol := float64(n) * epsilon * rmax
-	for k := 0; k < p; k++ {
-		if !(math.Abs(rdiag[k]) > tol) {
-			return false
-		}
-	}
-	qrSolve(a, n, p, rdiag, colScale, y, b)
-	return true
-}
-
 // applyReflectorTwo is applyReflector applied to c and to d.
 func applyReflectorTwo(v, c, d []float64, alpha float64) {
 	c = c[:len(v)]
