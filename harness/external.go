@@ -399,8 +399,28 @@ func (w *worker) takeReply(f, r int) bool {
 	_, p := w.group.gen.Dims()
 	replyResult(&b.replies[f][r-b.lo], p, &w.res[f])
 	w.nanos[f] = b.nanos[f]
-	w.seOK[f] = false
+	w.seOK[f], w.seT[f] = false, false
 	return true
+}
+
+// standardErrors computes the standard errors of fit f, just made into
+// w.res[f] with design x, into w.se[f], and says whether there are any and
+// whether their intervals use Student's t. rhomark's own methods give
+// theirs (Workspace.StandardErrors); a Go estimator gives them if it
+// implements estimators.StandardErrorer; an external program gives none.
+func (w *worker) standardErrors(fp *fitPlan, f int, x *mat.Dense, res *estimators.Result) (ok, studentT bool) {
+	if !res.Status.Converged() {
+		return false, false
+	}
+	if fp.outside == nil {
+		return w.ws[f].StandardErrors(fp.est, x, res, w.se[f]), fp.est.Method.Info().Inference == estimators.StudentT
+	}
+	se, has := fp.outside.fitter.(estimators.StandardErrorer)
+	if !has {
+		return false, false
+	}
+	inf := se.StandardErrors(x, &w.ws[f], res, w.se[f])
+	return inf != estimators.NoInference, inf == estimators.StudentT
 }
 
 // replyResult turns an outside program's reply into a Result of p

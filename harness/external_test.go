@@ -468,3 +468,50 @@ func TestDeclaredPsiGivesTheory(t *testing.T) {
 		}
 	}
 }
+
+// hiddenErrors fits as its estimator does but offers no standard errors:
+// a Fitter that does not implement estimators.StandardErrorer.
+type hiddenErrors struct{ e estimators.Estimator }
+
+func (h hiddenErrors) Fit(x *mat.Dense, y []float64, ws *estimators.Workspace, res *estimators.Result) error {
+	return h.e.Fit(x, y, ws, res)
+}
+
+// TestGoEstimatorCoverage: a Go estimator that gives standard errors
+// (estimators.StandardErrorer) has its intervals' coverage measured exactly
+// as rhomark's own method's, and one that gives none has none.
+func TestGoEstimatorCoverage(t *testing.T) {
+	const src = `model: {n: 40, columns: [{name: volume, dist: uniform, min: 1, max: 10}]}
+noise: {dist: normal, scale: 0.5}
+seed: 7
+replicates: 64
+estimators:
+  - {label: huber, method: irls, psi: huber}
+  - {label: wrapped, method: go}
+  - {label: hidden, method: go}
+  - {label: ls, method: ls}
+`
+	st, err := scenarios.Parse("bench.yaml", []byte(src), scenarios.Limits{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	huber, err := st.Cells[0].Scenario.Estimators[0].Build()
+	if err != nil {
+		t.Fatal(err)
+	}
+	res, err := Run(context.Background(), st, Options{Workers: 2, Fitters: map[string]estimators.Fitter{
+		"wrapped": huber, "hidden": hiddenErrors{huber}}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	ests := res.Cells[0].Estimators
+	for k := range ests[0].Coefficients {
+		own, wrapped, hidden := ests[0].Coefficients[k], ests[1].Coefficients[k], ests[2].Coefficients[k]
+		if own.Intervals == 0 || wrapped.Intervals != own.Intervals || wrapped.Coverage != own.Coverage {
+			t.Errorf("%s: wrapped Huber %d intervals, coverage %v; rhomark's %d, %v", own.Name, wrapped.Intervals, wrapped.Coverage.Value, own.Intervals, own.Coverage.Value)
+		}
+		if hidden.Intervals != 0 {
+			t.Errorf("%s: %d intervals for a Go estimator without standard errors", own.Name, hidden.Intervals)
+		}
+	}
+}

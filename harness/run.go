@@ -83,7 +83,9 @@ type Options struct {
 	AllowCommands bool
 	// Fitters are the estimators of method go, by label. Every worker
 	// calls them, each with its own Workspace: they must be safe for
-	// concurrent use.
+	// concurrent use. One that implements estimators.StandardErrorer has
+	// the coverage of its intervals measured; the theory beside it comes
+	// from the psi its scenario entry declares, if any.
 	Fitters map[string]estimators.Fitter
 	// Stderr receives the standard error of external programs, each line
 	// prefixed by the label, and a line for each failed external fit; nil
@@ -557,12 +559,14 @@ type worker struct {
 	group *groupPlan
 	rp    *Replicator // the group's datasets and the fits' streams
 	// Per distinct fit of the group: workspace, result, fitting time of
-	// the current replicate, and standard errors (seOK: computed).
+	// the current replicate, and standard errors (seOK: computed; seT:
+	// their intervals use Student's t rather than the normal quantile).
 	ws    []estimators.Workspace
 	res   []estimators.Result
 	nanos []int64
 	se    [][]float64
 	seOK  []bool
+	seT   []bool
 	// Per cell of the group: the block's tallies and kept replicates.
 	tallies []*cellTally
 	keep    bool
@@ -586,6 +590,7 @@ func newWorker(plans []cellPlan, g *groupPlan, seed uint64) *worker {
 		nanos: make([]int64, len(g.fits)),
 		se:    make([][]float64, len(g.fits)),
 		seOK:  make([]bool, len(g.fits)),
+		seT:   make([]bool, len(g.fits)),
 		kept:  make([]keptBlock, len(g.cells)),
 	}
 	for f := range w.se {
@@ -645,7 +650,7 @@ func (w *worker) replicate(r int) {
 		}
 		w.nanos[f] = int64(time.Since(t0))
 		res := &w.res[f]
-		w.seOK[f] = fp.outside == nil && res.Status.Converged() && w.ws[f].StandardErrors(fp.est, x, res, w.se[f])
+		w.seOK[f], w.seT[f] = w.standardErrors(fp, f, x, res)
 		if w.aud != nil {
 			if err := w.aud.study(w.rp, fp, f, x, y, res); err != nil {
 				w.err = fmt.Errorf("cell %d replicate %d, estimator %s: %w", fp.cell, r, fp.label, err)
@@ -717,7 +722,7 @@ func (w *worker) record(p *cellPlan, t *cellTally, use []int, kept *keptBlock) {
 		}
 		if w.seOK[f] {
 			q := p.zq
-			if p.ests[j].Method.Info().Inference == estimators.StudentT {
+			if w.seT[f] {
 				q = p.tq
 			}
 			for k, b := range res.Coefficients {
