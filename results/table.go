@@ -73,6 +73,11 @@ func verdictLine(r *Results, c Cell) string {
 	if c.Replicates != int64(r.Replicates) {
 		head += fmt.Sprintf(" [%d of %d replicates]", c.Replicates, r.Replicates)
 	}
+	if c.Replicates == 0 {
+		// Nothing was fitted: saying why each estimator is left out would
+		// blame the estimators for a run that stopped.
+		return head + ": no replicate finished, so nothing to compare (the run stopped before this cell)"
+	}
 	var line string
 	if v.Choice == "" {
 		line = head + ": no estimator to recommend"

@@ -78,3 +78,24 @@ func TestTableLeadsWithTheAnswer(t *testing.T) {
 		}
 	}
 }
+
+// TestUnfinishedCellBlamesNoEstimator: a cell the run stopped before has no
+// fits; its verdict says so instead of listing every estimator as having
+// no converged fit.
+func TestUnfinishedCellBlamesNoEstimator(t *testing.T) {
+	r := issueResults(false)
+	r.Complete = false
+	c := &r.Cells[0]
+	c.Replicates = 0
+	for i := range c.Estimators {
+		c.Estimators[i].Convergence = Convergence{}
+	}
+	var b strings.Builder
+	if err := WriteTable(&b, r, 100); err != nil {
+		t.Fatal(err)
+	}
+	flat := strings.Join(strings.Fields(b.String()), " ")
+	if !strings.Contains(flat, "no replicate finished, so nothing to compare") || strings.Contains(flat, "no fit converged") {
+		t.Errorf("unfinished cell:\n%s", b.String())
+	}
+}
