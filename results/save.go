@@ -13,8 +13,10 @@ import (
 )
 
 // Save writes r into dir as NAME.json, NAME.csv and NAME.txt (the terminal
-// table), and NAME-bias.csv (the bias curves) when the scenario asks for
-// them, NAME being the scenario's name, and returns the paths written.
+// table), NAME-bias.csv (the bias curves) when the scenario asks for
+// them, and NAME-tolerances.csv (the solver audit's change tolerances)
+// when some estimator was audited, NAME being the scenario's name, and
+// returns the paths written.
 // Each file is written atomically: to a temporary file in dir, synced, then
 // renamed over the old one, so a failed write leaves any previous file
 // intact.
@@ -39,6 +41,12 @@ func Save(dir string, r *Results) ([]string, error) {
 			ext   string
 			write func(io.Writer) error
 		}{"-bias.csv", func(w io.Writer) error { _, err := WriteBiasCSV(w, r); return err }})
+	}
+	if HasToleranceStudy(r) {
+		outputs = append(outputs, struct {
+			ext   string
+			write func(io.Writer) error
+		}{"-tolerances.csv", func(w io.Writer) error { _, err := WriteTolerancesCSV(w, r); return err }})
 	}
 	var paths []string
 	for _, o := range outputs {

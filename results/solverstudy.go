@@ -237,7 +237,8 @@ func RootsLine(e Estimator) string {
 
 // writeSolverStudy writes the solver study, answer first: per cell one
 // line per audited estimator, then the side-by-side table of the stopping
-// rules (iterations, error, rate), then the root searches.
+// rules (iterations, error, rate), then each iterative estimator's
+// change-tolerance table, then the root searches.
 func writeSolverStudy(b *strings.Builder, r *Results, width int) {
 	if !HasSolverStudy(r) {
 		return
@@ -275,6 +276,7 @@ func writeSolverStudy(b *strings.Builder, r *Results, width int) {
 			wrap(b, l, "   ", "       ", width)
 		}
 		writeRuleTable(b, r, c, width)
+		writeToleranceTables(b, c, width)
 		writeRootTable(b, c)
 	}
 }
