@@ -5,7 +5,6 @@ package csvdata
 
 import (
 	"bufio"
-	"bytes"
 	"encoding/csv"
 	"errors"
 	"fmt"
@@ -35,6 +34,11 @@ type Table struct {
 	// lines holds the file line on which each row starts (a quoted field
 	// may span lines, so it is not simply the row index plus two).
 	lines []int
+	// nums holds, row by row, each cell's number read as the file is
+	// split, while its text is in cache, or NaN where the cell is not a
+	// finite decimal (Float then reads the text again to word the error).
+	// It is nil when the table was read by encoding/csv.
+	nums []float64
 }
 
 // Read reads a CSV table from r; file names it in errors. Lines may end in
@@ -49,39 +53,40 @@ func Read(file string, r io.Reader) (*Table, error) {
 	data, err := readAll(r)
 	if err != nil {
 		// Let encoding/csv meet the error where it happened in the stream.
-		return readCSV(file, io.MultiReader(bytes.NewReader(data), errReader{err}))
+		return readCSV(file, io.MultiReader(strings.NewReader(data), errReader{err}))
 	}
-	if bytes.IndexByte(data, '"') < 0 && bytes.IndexByte(data, '\r') < 0 {
-		if t, ok, err := readPlain(file, string(data)); ok {
+	if strings.IndexByte(data, '"') < 0 && strings.IndexByte(data, '\r') < 0 {
+		if t, ok, err := readPlain(file, data); ok {
 			return t, err
 		}
 	}
-	return readCSV(file, bytes.NewReader(data))
+	return readCSV(file, strings.NewReader(data))
 }
 
-// readAll is io.ReadAll, reading a file of known size into one buffer
-// of that size rather than growing one.
-func readAll(r io.Reader) ([]byte, error) {
+// readAll reads r whole into a string, which readPlain's cells share:
+// the file is held once, not as bytes and again as a string. A file of
+// known size is read into one buffer of that size rather than a growing
+// one.
+func readAll(r io.Reader) (string, error) {
+	var sb strings.Builder
 	st, ok := r.(interface{ Stat() (fs.FileInfo, error) })
 	if !ok {
-		return io.ReadAll(r)
+		_, err := io.Copy(&sb, r)
+		return sb.String(), err
 	}
-	info, err := st.Stat()
-	if err != nil || !info.Mode().IsRegular() || info.Size() <= 0 || info.Size() > 1<<40 {
-		return io.ReadAll(r)
+	if info, err := st.Stat(); err == nil && info.Mode().IsRegular() && info.Size() > 0 &&
+		info.Size() <= 1<<40 && int64(int(info.Size())) == info.Size() {
+		sb.Grow(int(info.Size()))
 	}
-	b := make([]byte, 0, info.Size()+1) // one byte more to meet EOF without growing
+	buf := make([]byte, 64<<10)
 	for {
-		n, err := r.Read(b[len(b):cap(b)])
-		b = b[:len(b)+n]
+		n, err := r.Read(buf)
+		sb.Write(buf[:n])
 		if err != nil {
 			if errors.Is(err, io.EOF) {
-				return b, nil
+				return sb.String(), nil
 			}
-			return b, err
-		}
-		if len(b) == cap(b) {
-			b = append(b, 0)[:len(b)] // the file grew: let append find room
+			return sb.String(), err
 		}
 	}
 }
@@ -194,6 +199,7 @@ func readPlain(file, data string) (*Table, bool, error) {
 			}
 			width = len(header)
 			flat = make([]string, 0, width*rows)
+			t.nums = make([]float64, 0, width*rows)
 			t.Cells = make([][]string, 0, rows)
 			t.lines = make([]int, 0, rows)
 			continue
@@ -202,6 +208,13 @@ func readPlain(file, data string) (*Table, bool, error) {
 		flat = splitPlain(flat, text)
 		if len(flat)-start != width || len(t.Cells) >= maxRows {
 			return nil, false, nil
+		}
+		for _, f := range flat[start:] {
+			v, ok := number(f)
+			if !ok {
+				v = math.NaN()
+			}
+			t.nums = append(t.nums, v)
 		}
 		t.Cells = append(t.Cells, flat[start:len(flat):len(flat)])
 		t.lines = append(t.lines, line)
@@ -263,8 +276,8 @@ func (t *Table) Column(name string) (int, error) {
 
 // Numeric reports whether every cell of column j parses as a finite number.
 func (t *Table) Numeric(j int) bool {
-	for _, rec := range t.Cells {
-		if _, err := parse(rec[j]); err != nil {
+	for i := range t.Cells {
+		if !t.isNumber(i, j) {
 			return false
 		}
 	}
@@ -275,12 +288,21 @@ func (t *Table) Numeric(j int) bool {
 // a column meant to be numeric, in which a bad cell is an error to report
 // rather than a reason to drop the column.
 func (t *Table) HasNumber(j int) bool {
-	for _, rec := range t.Cells {
-		if _, err := parse(rec[j]); err == nil {
+	for i := range t.Cells {
+		if t.isNumber(i, j) {
 			return true
 		}
 	}
 	return false
+}
+
+// isNumber reports whether the cell at row i, column j is a finite number.
+func (t *Table) isNumber(i, j int) bool {
+	if t.nums != nil {
+		return !math.IsNaN(t.nums[i*len(t.Names)+j])
+	}
+	_, ok := number(t.Cells[i][j])
+	return ok
 }
 
 // cutName returns a column name for an error message, cut like quote's
@@ -303,6 +325,11 @@ func (t *Table) Line(i int) int {
 // Float returns the value of row i (0-based data row), column j, or an
 // error naming the file line and column.
 func (t *Table) Float(i, j int) (float64, error) {
+	if t.nums != nil {
+		if v := t.nums[i*len(t.Names)+j]; !math.IsNaN(v) {
+			return v, nil
+		}
+	}
 	v, err := parse(t.Cells[i][j])
 	if err != nil {
 		return 0, fmt.Errorf("%s:%d: column %s: %v", t.File, t.Line(i), cutName(t.Names[j]), err)
@@ -314,6 +341,9 @@ func (t *Table) Float(i, j int) (float64, error) {
 // or .5. Go's other literal forms (1_000, 0x1p-2), which strconv accepts,
 // are refused: in a data file they are typing slips or other encodings.
 func parse(s string) (float64, error) {
+	if v, ok := number(s); ok {
+		return v, nil
+	}
 	s = strings.TrimSpace(s)
 	if s == "" || s == "NA" || s == "NaN" || s == "nan" || s == "." {
 		return 0, fmt.Errorf("%s is a missing value; rhomark fit needs complete numeric data (remove or impute the row)", quote(s))
@@ -337,40 +367,23 @@ func parse(s string) (float64, error) {
 	return v, nil
 }
 
-// isDecimal reports whether s is [+-]digits[.digits][(e|E)[+-]digits],
-// with at least one digit before the exponent.
-func isDecimal(s string) bool {
-	i := 0
-	if i < len(s) && (s[i] == '+' || s[i] == '-') {
-		i++
+// number reads one cell as parse does, without wording an error: the
+// value and true when s (less surrounding white space) is a decimal
+// number that is finite as a float64.
+func number(s string) (float64, bool) {
+	s = strings.TrimSpace(s)
+	d, ok := scanDecimal(s)
+	if !ok {
+		return 0, false
 	}
-	digits := 0
-	for ; i < len(s) && s[i] >= '0' && s[i] <= '9'; i++ {
-		digits++
+	if v, ok := d.float(); ok {
+		return v, true
 	}
-	if i < len(s) && s[i] == '.' {
-		i++
-		for ; i < len(s) && s[i] >= '0' && s[i] <= '9'; i++ {
-			digits++
-		}
+	v, err := strconv.ParseFloat(s, 64)
+	if err != nil || math.IsInf(v, 0) || math.IsNaN(v) {
+		return 0, false
 	}
-	if digits == 0 {
-		return false
-	}
-	if i < len(s) && (s[i] == 'e' || s[i] == 'E') {
-		i++
-		if i < len(s) && (s[i] == '+' || s[i] == '-') {
-			i++
-		}
-		exp := 0
-		for ; i < len(s) && s[i] >= '0' && s[i] <= '9'; i++ {
-			exp++
-		}
-		if exp == 0 {
-			return false
-		}
-	}
-	return i == len(s)
+	return v, true
 }
 
 // maxQuoted is the most bytes of a cell or name an error message repeats.

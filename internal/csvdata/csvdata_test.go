@@ -3,6 +3,7 @@ package csvdata
 import (
 	"bufio"
 	"io"
+	"math"
 	"math/rand/v2"
 	"slices"
 	"strings"
@@ -159,6 +160,16 @@ func samePlain(t *testing.T, data string) {
 		if !slices.Equal(got.Cells[i], want.Cells[i]) {
 			t.Fatalf("%q row %d: plain %q, csv %q", data, i, got.Cells[i], want.Cells[i])
 		}
+		// The numbers read as the file was split are the ones read from
+		// the text on demand, with the same errors.
+		for j := range got.Names {
+			gv, gerr := got.Float(i, j)
+			wv, werr := want.Float(i, j)
+			if math.Float64bits(gv) != math.Float64bits(wv) || (gerr == nil) != (werr == nil) ||
+				(gerr != nil && gerr.Error() != werr.Error()) || got.isNumber(i, j) != (gerr == nil) {
+				t.Fatalf("%q row %d column %d: plain %v, %v; csv %v, %v", data, i, j, gv, gerr, wv, werr)
+			}
+		}
 	}
 }
 
@@ -180,7 +191,7 @@ func TestPlainMatchesCSV(t *testing.T) {
 		samePlain(t, b.String())
 	}
 	// Rectangular files, which readPlain does not leave to encoding/csv.
-	cells := []string{"", "a", "1", "-2.5", " ", "\t", "\v", "\u00a0", "\u0085", "\u2003", "é", "\xff", "x y"}
+	cells := []string{"", "a", "1", "-2.5", "NA", "1e400", "1e-400", "0x1p-2", "Inf", " 9007199254740993", "0.1e-30", " ", "\t", "\v", "\u00a0", "\u0085", "\u2003", "é", "\xff", "x y"}
 	for k := 0; k < 5000; k++ {
 		var b strings.Builder
 		w := 1 + rng.IntN(4)
