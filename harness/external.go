@@ -189,6 +189,7 @@ func bindOutside(st *scenarios.Study, plans []cellPlan, groups []groupPlan, opt 
 type outsidePool struct {
 	stderr   io.Writer
 	stop     func() bool
+	closing  sync.Mutex // held while close stops the programs
 	mu       sync.Mutex
 	procs    map[string]*external.Process
 	notes    map[string]int
@@ -264,11 +265,16 @@ func (p *outsidePool) replied(o *outsideFit, replies []external.Reply) bool {
 	return false
 }
 
-// close stops every program of the pool, at once and all together.
+// close stops every program of the pool, at once and all together, and
+// returns only when they have ended: a second call (the worker ending
+// while a cancelled run's close is still killing its programs) waits for
+// the first, so that no process outlives the run.
 func (p *outsidePool) close() {
 	if p.stop != nil {
 		p.stop()
 	}
+	p.closing.Lock()
+	defer p.closing.Unlock()
 	p.mu.Lock()
 	p.isClosed = true
 	procs := p.procs
