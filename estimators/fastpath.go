@@ -191,3 +191,28 @@ func huberSums5(r, c, ps []float64, offs []int, data []float64, stride int, k, s
 	h[0], h[1], h[2], h[3], h[4] = h0, h1, h2, h3, h4
 	return csum, off
 }
+
+// objectiveAt is objective at the residuals ws.r and scale sigma whose psi
+// values evaluate (or evaluateSums) has just left in ws.psi. For Huber's
+// psi, a value strictly inside (−k, k) is u = r/sigma itself, so its rho
+// u²/2 needs no division; the other rows take Huber.Rho's formula.
+// The terms and their order are objective's, so the sum is bit for bit
+// the same (TestObjectiveAtMatches).
+func (ws *Workspace) objectiveAt(fn psi.Psi, sigma float64) float64 {
+	h, ok := fn.(psi.Huber)
+	if !ok {
+		return ws.objective(fn, sigma)
+	}
+	r := ws.r
+	ps := ws.psi[:len(r)]
+	k := h.K
+	var f float64
+	for i, u := range ps {
+		if u > -k && u < k {
+			f += u * u / 2
+			continue
+		}
+		f += h.Rho(r[i] / sigma)
+	}
+	return f
+}

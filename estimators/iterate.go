@@ -28,8 +28,12 @@ func (ws *Workspace) iterate(e Estimator, x blas64.General, y []float64, res *Re
 	// looks for the median of |r| within a relative distance madDelta of
 	// it (none at the first iterate). After a step, residualsBracket does
 	// madNear's pass with the residuals (sorted set), leaving its counts.
+	// The bracket is narrowed with the middle order statistics of |r| at
+	// the last iterate (midLo, midHi) and how far a step of move can shift
+	// a residual (madTighten).
 	madGuess, madDelta := 0.0, 0.0
 	sorted, below, mid := false, 0, 0
+	midLo, midHi, move := math.NaN(), math.NaN(), math.Inf(1)
 
 	for {
 		if newton && (stalls >= newtonPatience || fallbacks >= newtonPatience) {
@@ -38,10 +42,19 @@ func (ws *Workspace) iterate(e Estimator, x blas64.General, y []float64, res *Re
 		// The scale, psi values, objective and equation norm at β.
 		sigma := e.Scale.Value
 		if e.Scale.Rule == ScaleMAD {
-			if sorted {
-				sigma = madFinish(ws.r, ws.buf, below, mid)
-			} else {
-				sigma = madNear(ws.r, ws.buf, madGuess, madDelta)
+			switch {
+			case sorted:
+				sigma, midLo, midHi = madFinishStats(ws.r, ws.buf, below, mid)
+			case madGuess == 0 && madDelta == 0:
+				sigma, midLo, midHi = madFirst(ws.r, ws.buf)
+			default:
+				lo, hi, ok := madBracket(ws.n, madGuess, madDelta)
+				if ok {
+					lo, hi = madTighten(lo, hi, midLo, midHi, move)
+					sigma, midLo, midHi = madBetweenStats(ws.r, ws.buf, lo, hi)
+				} else {
+					sigma, midLo, midHi = madFirst(ws.r, ws.buf)
+				}
 			}
 			sorted = false
 			// About ten values of |r| fall within 10/n of the median, plus
@@ -74,18 +87,18 @@ func (ws *Workspace) iterate(e Estimator, x blas64.General, y []float64, res *Re
 		}
 		if st, done := stopped(s, change, res.EquationNorm); done {
 			res.Status = st
-			res.Objective = ws.objective(e.Psi, sigma)
+			res.Objective = ws.objectiveAt(e.Psi, sigma)
 			return
 		}
 		if res.Iterations >= s.MaxIterations {
 			res.Status = IterationLimit
-			res.Objective = ws.objective(e.Psi, sigma)
+			res.Objective = ws.objectiveAt(e.Psi, sigma)
 			return
 		}
 		// The objective is needed for Newton's line search and for tracing.
 		obj := math.NaN()
 		if newton || e.Trace != nil {
-			obj = ws.objective(e.Psi, sigma)
+			obj = ws.objectiveAt(e.Psi, sigma)
 			res.Objective = obj
 		}
 		if !newton && wsum == 0 {
@@ -150,8 +163,8 @@ func (ws *Workspace) iterate(e Estimator, x blas64.General, y []float64, res *Re
 			beta[j] += t * ws.delta[j]
 		}
 		res.Iterations++
-		bn := norm2(beta)
-		change = t * norm2(ws.delta) / math.Max(bn, math.SmallestNonzeroFloat64)
+		bn, dnorm := norm2Pair(beta, ws.delta)
+		change = t * dnorm / math.Max(bn, math.SmallestNonzeroFloat64)
 		if math.IsNaN(bn) || math.IsInf(bn, 0) {
 			res.Status = NonFinite
 			return
@@ -160,7 +173,10 @@ func (ws *Workspace) iterate(e Estimator, x blas64.General, y []float64, res *Re
 			res.Status = Diverged
 			return
 		}
+		// No residual moves by more than its row's norm times the step.
+		move = ws.rowMax * t * dnorm
 		if lo, hi, ok := madBracket(ws.n, madGuess, madDelta); ok && fuseGemv(ws.p) {
+			lo, hi = madTighten(lo, hi, midLo, midHi, move)
 			below, mid = ws.residualsBracket(x, y, beta, lo, hi)
 			sorted = true
 		} else {
@@ -205,6 +221,24 @@ func stopped(s Settings, change, eqNorm float64) (Status, bool) {
 		return ConvergedEquations, true
 	}
 	return NotRun, false
+}
+
+// norm2Pair returns norm2(a), norm2(b): the two sums of squares run side
+// by side, and only a sum outside norm2's safe range takes norm2 itself.
+func norm2Pair(a, b []float64) (float64, float64) {
+	if len(a) != len(b) {
+		return norm2(a), norm2(b)
+	}
+	b = b[:len(a)]
+	var sa, sb float64
+	for i, v := range a {
+		sa += v * v
+		sb += b[i] * b[i]
+	}
+	if sa > 0x1p-900 && sa < 0x1p900 && sb > 0x1p-900 && sb < 0x1p900 {
+		return math.Sqrt(sa), math.Sqrt(sb)
+	}
+	return norm2(a), norm2(b)
 }
 
 // allZero reports whether every value of r is zero.

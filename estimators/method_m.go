@@ -26,7 +26,11 @@ func (mEstimator) fit(ws *Workspace, e Estimator, x blas64.General, y []float64,
 		// The start is fitted into res itself (a Result of its own would
 		// escape through the solver's interface call and allocate), then
 		// res is cleared but for the coefficients and the S refinement.
-		ws.direct(e, e.StartFrom, x, y, res)
+		if e.StartFrom == MethodLS {
+			ws.lsStart(x, y, res)
+		} else {
+			ws.direct(e, e.StartFrom, x, y, res)
+		}
 		start := *res
 		*res = Result{Coefficients: beta, SRefinement: start.SRefinement, SSteps: start.SSteps}
 		// An S refinement stopped at its cap is still an S-scale and the
@@ -50,6 +54,26 @@ func (mEstimator) fit(ws *Workspace, e Estimator, x blas64.General, y []float64,
 		}
 	}
 	ws.iterate(e, x, y, res)
+}
+
+// lsStart is ws.direct(e, MethodLS, x, y, res) for a start: the same
+// coefficients, residuals in ws.r, scale and status (classifyNonFinite
+// included), without the objective and equation norm of finishLS, which a
+// start's result does not keep.
+func (ws *Workspace) lsStart(x blas64.General, y []float64, res *Result) {
+	beta := res.Coefficients
+	if !ws.leastSquares(x, y, beta, false) {
+		res.Status = SingularDesign
+		return
+	}
+	ws.residuals(x, y, beta)
+	n, p := ws.n, ws.p
+	ss := norm2(ws.r)
+	if n > p {
+		res.Scale = ss / math.Sqrt(float64(n-p))
+	}
+	res.Status = Solved
+	classifyNonFinite(res)
 }
 
 // efficiency is E[ψ']²/E[ψ²] at κZ, κ = sd/S for a fixed scale S and 1

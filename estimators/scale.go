@@ -95,6 +95,13 @@ func madSampled(r, buf []float64) float64 {
 // madBetween is MAD(r, buf) found by selecting among the |r_i| in [lo, hi]
 // (see madNear).
 func madBetween(r, buf []float64, lo, hi float64) float64 {
+	mad, _, _ := madBetweenStats(r, buf, lo, hi)
+	return mad
+}
+
+// madBetweenStats is madBetween that also returns the middle order
+// statistics of |r|, as madFinishStats.
+func madBetweenStats(r, buf []float64, lo, hi float64) (mad, midLo, midHi float64) {
 	buf = buf[:len(r)]
 	// Branch-free counting: which side a value falls on is a coin toss
 	// that a branch would mispredict half the time. Every value is stored
@@ -108,7 +115,7 @@ func madBetween(r, buf []float64, lo, hi float64) float64 {
 		below += lt
 		mid += 1 - lt - gt
 	}
-	return madFinish(r, buf, below, mid)
+	return madFinishStats(r, buf, below, mid)
 }
 
 // madBracket returns the interval [guess(1 − delta), guess(1 + delta)] in
@@ -126,6 +133,15 @@ func madBracket(n int, guess, delta float64) (lo, hi float64, ok bool) {
 // buf[:mid]. When the middle order statistics are not among the kept
 // values (the guess was too far off) or r holds NaN, it returns MAD(r, buf).
 func madFinish(r, buf []float64, below, mid int) float64 {
+	mad, _, _ := madFinishStats(r, buf, below, mid)
+	return mad
+}
+
+// madFinishStats is madFinish that also returns the middle order
+// statistics of |r| the MAD was made of, lo ≤ hi (equal for odd n), from
+// which the next iterate's bracket is cut (madTighten). After a NaN or an
+// empty r they are NaN.
+func madFinishStats(r, buf []float64, below, mid int) (mad, lo, hi float64) {
 	n := len(r)
 	k := n / 2
 	first := k // the lowest order statistic the median needs
@@ -133,26 +149,111 @@ func madFinish(r, buf []float64, below, mid int) float64 {
 		first = k - 1
 	}
 	if first < below || k >= below+mid {
-		return MAD(r, buf)
+		return madFirst(r, buf)
 	}
 	m := buf[:mid]
 	for _, v := range m {
 		if v != v {
-			return MAD(r, buf)
+			return madFirst(r, buf)
 		}
 	}
 	k -= below
-	hi := selectKth(m, k)
+	hi = selectFast(m, k)
 	if n%2 == 1 {
-		return hi / MADConsistency
+		return hi / MADConsistency, hi, hi
 	}
-	lo := m[0]
+	lo = m[0]
 	for _, v := range m[1:k] {
 		if v > lo {
 			lo = v
 		}
 	}
-	return (lo/2 + hi/2) / MADConsistency
+	return (lo/2 + hi/2) / MADConsistency, lo, hi
+}
+
+// madStats is MAD(r, buf) that also returns the middle order statistics
+// of |r|, as madFinishStats; they are NaN when r holds NaN or is empty.
+func madStats(r, buf []float64) (mad, lo, hi float64) {
+	mad = MAD(r, buf)
+	n := len(r)
+	if n == 0 || mad != mad {
+		return mad, math.NaN(), math.NaN()
+	}
+	buf = buf[:n]
+	for _, v := range buf {
+		if v != v {
+			return mad, math.NaN(), math.NaN()
+		}
+	}
+	// median left the k-th smallest at buf[k] and the smaller ones before.
+	k := n / 2
+	hi = buf[k]
+	if n%2 == 1 {
+		return mad, hi, hi
+	}
+	lo = buf[0]
+	for _, v := range buf[1:k] {
+		if v > lo {
+			lo = v
+		}
+	}
+	return mad, lo, hi
+}
+
+// madFirst is madSampled for the first iterate of a fit, with the middle
+// order statistics as madStats: the median of all |r_i| is selected by
+// selectFast, whose partitions have no data-dependent branches, which at
+// the sizes of a regression (n = 100) takes less time than sampling a
+// bracket and selecting within it. The value is the same order statistic,
+// so the result is bit for bit MAD's; r holding NaN goes to madStats.
+func madFirst(r, buf []float64) (mad, lo, hi float64) {
+	n := len(r)
+	if n == 0 {
+		return madStats(r, buf)
+	}
+	buf = buf[:n]
+	nan := false
+	for i, v := range r {
+		a := math.Abs(v)
+		buf[i] = a
+		nan = nan || a != a
+	}
+	if nan {
+		return madStats(r, buf)
+	}
+	k := n / 2
+	hi = selectFast(buf, k)
+	if n%2 == 1 {
+		return hi / MADConsistency, hi, hi
+	}
+	lo = buf[0]
+	for _, v := range buf[1:k] {
+		if v > lo {
+			lo = v
+		}
+	}
+	return (lo/2 + hi/2) / MADConsistency, lo, hi
+}
+
+// madTighten narrows the bracket [lo, hi] of the next iterate's MAD with
+// the middle order statistics midLo ≤ midHi of |r| at the last one: no
+// |r_i| moves by more than move when the coefficients take a step, and an
+// order statistic of |r| moves no further than the values do, so the new
+// middle order statistics lie in [midLo − move, midHi + move]. A small
+// relative margin covers rounding. The bracket only speeds the selection
+// up: a wrong one sends madFinish to MAD, with the same result. The
+// bracket returned is never inverted.
+func madTighten(lo, hi, midLo, midHi, move float64) (float64, float64) {
+	if !(midLo <= midHi) || !(move >= 0) || math.IsInf(move, 0) {
+		return lo, hi
+	}
+	const margin = 1e-6
+	tlo, thi := max(lo, midLo*(1-margin)-move), min(hi, midHi*(1+margin)+move)
+	if !(tlo <= thi) {
+		// The counting passes need lo ≤ hi (no value both below and above).
+		return lo, hi
+	}
+	return tlo, thi
 }
 
 // median returns the median of a, reordering a. For even length it is the

@@ -28,6 +28,7 @@ type Workspace struct {
 	delta  []float64 // p, the step
 	trial  []float64 // p, trial coefficients
 	rms    []float64 // p, root mean square of each column
+	rowMax float64   // the largest Euclidean norm of a row, with rms
 	pscale []float64 // p, column scales of a QR factorisation, or scratch
 	rdiag  []float64 // p, diagonal of R of a QR factorisation
 	base   []float64 // p×p, XᵀX (upper triangle) once baseOK
@@ -219,8 +220,9 @@ func (ws *Workspace) inverseGramDiag(x blas64.General, d []float64) bool {
 	return true
 }
 
-// columnRMS sets ws.rms to the root mean square of each column of x,
-// computed once per fit (the design does not change within one).
+// columnRMS sets ws.rms to the root mean square of each column of x and
+// ws.rowMax to the largest norm of a row, computed once per fit (the design
+// does not change within one).
 func (ws *Workspace) columnRMS(x blas64.General) {
 	if ws.rmsOK {
 		return
@@ -229,11 +231,18 @@ func (ws *Workspace) columnRMS(x blas64.General) {
 	for j := range ws.rms {
 		ws.rms[j] = 0
 	}
+	var rowMax float64
 	for i := 0; i < ws.n; i++ {
+		var ss float64
 		for j, v := range row(x, i) {
 			ws.rms[j] += v * v
+			ss += v * v
+		}
+		if ss > rowMax || ss != ss {
+			rowMax = ss
 		}
 	}
+	ws.rowMax = math.Sqrt(rowMax)
 	for j := range ws.rms {
 		ws.rms[j] = math.Sqrt(ws.rms[j] / float64(ws.n))
 	}

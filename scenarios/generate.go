@@ -38,6 +38,18 @@ type Generator struct {
 	growRate float64
 	contam   []contamSampler
 	nContam  int // total contaminated rows
+	// normal is set when every design column is an independent normal
+	// and the noise is homoscedastic normal: Draw then takes drawNormal,
+	// which makes the same draws in the same order without an interface
+	// call per value.
+	normal *normalDesign
+}
+
+// normalDesign holds the parameters of drawNormal: the mean and sd of each
+// design column and the sd of the noise.
+type normalDesign struct {
+	mean, sd []float64
+	noiseSD  float64
 }
 
 // columnSampler is one predictor column: its model, which is either
@@ -107,7 +119,27 @@ func NewGenerator(s *Scenario) (*Generator, error) {
 	if g.nContam >= g.n {
 		return nil, fmt.Errorf("contamination takes %d of %d rows", g.nContam, g.n)
 	}
+	g.normal = normalDesignOf(g)
 	return g, nil
+}
+
+// normalDesignOf returns the parameters of drawNormal, or nil when g's
+// design or noise is of another kind.
+func normalDesignOf(g *Generator) *normalDesign {
+	noise, ok := g.noise.(normalNoise)
+	if !ok || g.chol != nil || g.growCol >= 0 {
+		return nil
+	}
+	d := &normalDesign{noiseSD: noise.scale}
+	for i := range g.cols {
+		c, ok := g.cols[i].model.(normalColumn)
+		if !ok {
+			return nil
+		}
+		d.mean = append(d.mean, c.mean)
+		d.sd = append(d.sd, c.sd)
+	}
+	return d
 }
 
 // Dims returns the number of rows and coefficients of a dataset.
@@ -146,14 +178,85 @@ func (g *Generator) NewScratch() *Scratch {
 // y (length n) with one dataset drawn from src. It allocates nothing.
 func (g *Generator) Draw(src rand.Source, x *mat.Dense, y []float64, sc *Scratch) {
 	raw := x.RawMatrix()
+	if g.normal != nil {
+		g.drawNormal(src, raw.Data, raw.Stride, y)
+	} else {
+		// 1. Design.
+		g.drawDesign(src, raw.Data, raw.Stride, sc)
+		// 2. Clean responses.
+		for i := 0; i < g.n; i++ {
+			row := raw.Data[i*raw.Stride : i*raw.Stride+g.p]
+			e := g.cleanError(src, row)
+			y[i] = g.fit(row) + e
+		}
+	}
+	if g.nContam == 0 {
+		return
+	}
+	// 3. Rows to contaminate.
+	perm := sc.perm
+	for i := range perm {
+		perm[i] = i
+	}
+	for t := 0; t < g.nContam; t++ {
+		j := t + uniformInt(src, g.n-t)
+		perm[t], perm[j] = perm[j], perm[t]
+	}
+	// 4. Contamination.
+	next := 0
+	for ci := range g.contam {
+		c := &g.contam[ci]
+		for r := 0; r < c.rows; r++ {
+			i := perm[next]
+			next++
+			row := raw.Data[i*raw.Stride : i*raw.Stride+g.p]
+			y[i] = c.model.apply(g, src, row)
+		}
+	}
+}
+
+// drawNormal is steps 1 and 2 of Draw for independent normal columns and
+// normal noise: the same draws as normalColumn.draw and normalNoise.draw
+// (distuv.Normal's z·sd + mean, z from rand.Rand's NormFloat64), in the
+// same order, made through one Rand rather than an interface call and a
+// Rand per value.
+func (g *Generator) drawNormal(src rand.Source, data []float64, stride int, y []float64) {
+	rng := rand.New(src)
+	d := g.normal
+	mean, sd := d.mean, d.sd[:len(d.mean)]
+	off := 0
+	if g.intercept {
+		off = 1
+	}
+	for i := 0; i < g.n; i++ {
+		row := data[i*stride : i*stride+g.p]
+		if g.intercept {
+			row[0] = 1
+		}
+		cols := row[off:]
+		cols = cols[:len(mean)]
+		for j, m := range mean {
+			cols[j] = rng.NormFloat64()*sd[j] + m
+		}
+	}
+	for i := 0; i < g.n; i++ {
+		row := data[i*stride : i*stride+g.p]
+		// As distuv.Normal: z·sd + mean, the mean 0 (which turns a −0 to +0).
+		e := rng.NormFloat64()*d.noiseSD + 0
+		y[i] = g.fit(row) + e
+	}
+}
+
+// drawDesign is step 1 of Draw: for each row, the random design columns
+// in column order.
+func (g *Generator) drawDesign(src rand.Source, data []float64, stride int, sc *Scratch) {
 	off := 0
 	if g.intercept {
 		off = 1
 	}
 	k := len(g.cols)
-	// 1. Design.
 	for i := 0; i < g.n; i++ {
-		row := raw.Data[i*raw.Stride : i*raw.Stride+g.p]
+		row := data[i*stride : i*stride+g.p]
 		if g.intercept {
 			row[0] = 1
 		}
@@ -177,35 +280,6 @@ func (g *Generator) Draw(src rand.Source, x *mat.Dense, y []float64, sc *Scratch
 			} else {
 				row[off+j] = c.random.draw(src)
 			}
-		}
-	}
-	// 2. Clean responses.
-	for i := 0; i < g.n; i++ {
-		row := raw.Data[i*raw.Stride : i*raw.Stride+g.p]
-		e := g.cleanError(src, row)
-		y[i] = g.fit(row) + e
-	}
-	if g.nContam == 0 {
-		return
-	}
-	// 3. Rows to contaminate.
-	perm := sc.perm
-	for i := range perm {
-		perm[i] = i
-	}
-	for t := 0; t < g.nContam; t++ {
-		j := t + uniformInt(src, g.n-t)
-		perm[t], perm[j] = perm[j], perm[t]
-	}
-	// 4. Contamination.
-	next := 0
-	for ci := range g.contam {
-		c := &g.contam[ci]
-		for r := 0; r < c.rows; r++ {
-			i := perm[next]
-			next++
-			row := raw.Data[i*raw.Stride : i*raw.Stride+g.p]
-			y[i] = c.model.apply(g, src, row)
 		}
 	}
 }

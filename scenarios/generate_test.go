@@ -248,3 +248,74 @@ func skewWithSE(x []float64) (g, se float64) {
 	}
 	return g, math.Sqrt(sumIF2/n) / math.Sqrt(n)
 }
+
+// TestDrawNormalMatchesGeneral: the path for independent normal columns
+// and normal noise (drawNormal) must give bit for bit the datasets of the
+// general path, which draws each value through its column or noise model.
+func TestDrawNormalMatchesGeneral(t *testing.T) {
+	for _, tc := range []struct{ name, src string }{
+		{"intercept", `
+seed: 1
+model:
+  n: 37
+  intercept: 2
+  columns:
+    - {name: x1, slope: 1}
+    - {name: x2, slope: -0.5, dist: normal, mean: 3, sd: 0.25}
+noise: {dist: normal, scale: 1.5}
+contamination:
+  - {kind: vertical, fraction: 0.1, shift: 10}
+estimators: [{label: ls, method: ls}]
+`},
+		{"no-intercept", `
+seed: 1
+model:
+  n: 20
+  intercept: none
+  columns:
+    - {name: x1, slope: 1, dist: normal, mean: -1, sd: 2}
+noise: {dist: normal}
+estimators: [{label: ls, method: ls}]
+`},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			st, err := Parse("gen.yaml", []byte(tc.src), Limits{})
+			if err != nil {
+				t.Fatal(err)
+			}
+			fast, err := NewGenerator(st.Cells[0].Scenario)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if fast.normal == nil {
+				t.Fatal("the scenario does not take the normal path")
+			}
+			general := *fast
+			general.normal = nil
+			n, p := fast.Dims()
+			x1, x2 := mat.NewDense(n, p, nil), mat.NewDense(n, p, nil)
+			y1, y2 := make([]float64, n), make([]float64, n)
+			s1, s2 := fast.NewScratch(), general.NewScratch()
+			pcg1, pcg2 := rand.NewPCG(0, 0), rand.NewPCG(0, 0)
+			for r := uint64(0); r < 200; r++ {
+				pcg1.Seed(r, 3)
+				pcg2.Seed(r, 3)
+				fast.Draw(pcg1, x1, y1, s1)
+				general.Draw(pcg2, x2, y2, s2)
+				for i, v := range x1.RawMatrix().Data {
+					if math.Float64bits(v) != math.Float64bits(x2.RawMatrix().Data[i]) {
+						t.Fatalf("dataset %d: design value %d is %v, general path %v", r, i, v, x2.RawMatrix().Data[i])
+					}
+				}
+				for i, v := range y1 {
+					if math.Float64bits(v) != math.Float64bits(y2[i]) {
+						t.Fatalf("dataset %d: response %d is %v, general path %v", r, i, v, y2[i])
+					}
+				}
+				if pcg1.Uint64() != pcg2.Uint64() {
+					t.Fatalf("dataset %d: the paths drew different numbers of values", r)
+				}
+			}
+		})
+	}
+}
