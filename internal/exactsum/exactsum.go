@@ -42,51 +42,63 @@ type Sum struct {
 }
 
 // Add adds x to the sum exactly.
+//
+// It runs once per statistic per fit in a Monte Carlo run, so the common
+// case is written without data-dependent branches: a finite non-zero x is
+// told apart by its exponent alone, and the sign is applied to the digits
+// arithmetically (errors are as often negative as positive, a branch on
+// the sign would be mispredicted half the time).
 func (s *Sum) Add(x float64) {
-	switch {
-	case x == 0:
-		return
-	case math.IsNaN(x):
-		s.nan++
-		return
-	case math.IsInf(x, 1):
-		s.posInf++
-		return
-	case math.IsInf(x, -1):
-		s.negInf++
-		return
-	}
 	bits := math.Float64bits(x)
-	exp := int((bits >> 52) & 0x7ff)
+	exp := int(bits>>52) & 0x7ff
 	mant := bits & (1<<52 - 1)
-	if exp == 0 {
+	switch {
+	case exp == 0x7ff:
+		s.addNonFinite(x)
+		return
+	case exp == 0:
+		if mant == 0 {
+			return // ±0
+		}
 		exp = 1 // subnormal
-	} else {
+	default:
 		mant |= 1 << 52
 	}
-	pos := exp - 1075 + bias // bit position of the mantissa's lowest bit
+	pos := exp - 1075 + bias // bit position of the mantissa's lowest bit, ≥ 0
 	k, shift := pos/digitBits, uint(pos%digitBits)
 	// mant<<shift spans at most 53+31 = 84 bits: three digits.
-	// mant<<shift as a 128-bit value split into three 32-bit digits.
+	// mant<<shift as a 128-bit value split into three 32-bit digits (a
+	// shift by 64 gives 0).
 	lo := mant << shift
-	var hi uint64
-	if shift > 0 {
-		hi = mant >> (64 - shift)
-	}
-	d0 := int64(lo & 0xffffffff)
-	d1 := int64(lo >> 32)
-	d2 := int64(hi)
-	if bits>>63 == 1 {
-		d0, d1, d2 = -d0, -d1, -d2
-	}
-	s.reserve(k, k+2)
+	hi := mant >> (64 - shift)
+	neg := -int64(bits >> 63) // 0, or −1 (all ones) for a negative x
+	d0 := (int64(lo&0xffffffff) ^ neg) - neg
+	d1 := (int64(lo>>32) ^ neg) - neg
+	d2 := (int64(hi) ^ neg) - neg
 	i := k - s.lo
-	s.digits[i] += d0
-	s.digits[i+1] += d1
-	s.digits[i+2] += d2
+	if i < 0 || i+2 >= len(s.digits) {
+		s.reserve(k, k+2)
+		i = k - s.lo
+	}
+	d := s.digits[i : i+3 : i+3]
+	d[0] += d0
+	d[1] += d1
+	d[2] += d2
 	s.adds++
 	if s.adds >= carryEvery {
 		s.normalize()
+	}
+}
+
+// addNonFinite counts a NaN or an infinity.
+func (s *Sum) addNonFinite(x float64) {
+	switch {
+	case math.IsNaN(x):
+		s.nan++
+	case x > 0:
+		s.posInf++
+	default:
+		s.negInf++
 	}
 }
 
