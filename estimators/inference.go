@@ -62,13 +62,17 @@ func (ws *Workspace) huberCovariance(fn psi.Psi, sigma float64, n, p int) (float
 		return 0, false
 	}
 	var s2, s1, s11 float64
-	for _, r := range ws.r {
-		u := r / sigma
-		p := fn.Psi(u)
-		d := fn.Deriv(u)
-		s2 += p * p
-		s1 += d
-		s11 += d * d
+	if h, ok := fn.(psi.Huber); ok {
+		s2, s1, s11 = huberCovarianceSums(ws.r, sigma, h.K)
+	} else {
+		for _, r := range ws.r {
+			u := r / sigma
+			p := fn.Psi(u)
+			d := fn.Deriv(u)
+			s2 += p * p
+			s1 += d
+			s11 += d * d
+		}
 	}
 	nf, pf := float64(n), float64(p)
 	m := s1 / nf
@@ -78,6 +82,30 @@ func (ws *Workspace) huberCovariance(fn psi.Psi, sigma float64, n, p int) (float
 	v := s11/nf - m*m
 	k := 1 + pf/nf*v/(m*m)
 	return k * k * (s2 / (nf - pf)) / (m * m) * sigma * sigma, true
+}
+
+// huberCovarianceSums is huberCovariance's loop for Huber's psi, with
+// Huber.Psi and Huber.Deriv written inline (the same values, summed in the
+// same order, so the same bits): ψ(u) = u and ψ'(u) = 1 on [−k, k];
+// outside, ψ(u) = ±k and ψ'(u) = 0; a NaN u gives ψ = u, ψ' = 0.
+func huberCovarianceSums(r []float64, sigma, k float64) (s2, s1, s11 float64) {
+	for _, ri := range r {
+		u := ri / sigma
+		p, d := u, 1.0
+		if !(math.Abs(u) <= k) {
+			d = 0
+			switch {
+			case u > k:
+				p = k
+			case u < -k:
+				p = -k
+			}
+		}
+		s2 += p * p
+		s1 += d
+		s11 += d * d
+	}
+	return s2, s1, s11
 }
 
 // jumps reports whether psi is discontinuous, remembering the answer for

@@ -171,3 +171,44 @@ func TestMADStatsMatch(t *testing.T) {
 		}
 	}
 }
+
+// TestHuberCovarianceSums: the inline Huber loop of huberCovariance gives
+// the sums of the general loop through Psi and Deriv, bit for bit,
+// including residuals at exactly ±k·sigma and NaN.
+func TestHuberCovarianceSums(t *testing.T) {
+	rng := rand.New(rand.NewPCG(8, 2))
+	for trial := 0; trial < 300; trial++ {
+		n := 1 + rng.IntN(150)
+		h := psi.Huber{K: []float64{1.345, 0.7, 2.5}[trial%3]}
+		sigma := 0.2 + 3*rng.Float64()
+		r := make([]float64, n)
+		for i := range r {
+			r[i] = 3 * rng.NormFloat64()
+			switch rng.IntN(10) {
+			case 0:
+				r[i] = h.K * sigma
+			case 1:
+				r[i] = -h.K * sigma
+			case 2:
+				r[i] = math.Copysign(0, -1)
+			}
+		}
+		if trial%40 == 3 {
+			r[rng.IntN(n)] = math.NaN()
+		}
+		var w2, w1, w11 float64
+		for _, ri := range r {
+			u := ri / sigma
+			p, d := h.Psi(u), h.Deriv(u)
+			w2 += p * p
+			w1 += d
+			w11 += d * d
+		}
+		g2, g1, g11 := huberCovarianceSums(r, sigma, h.K)
+		for _, c := range [][2]float64{{g2, w2}, {g1, w1}, {g11, w11}} {
+			if math.Float64bits(c[0]) != math.Float64bits(c[1]) {
+				t.Fatalf("trial %d: sums (%v, %v, %v), general (%v, %v, %v)", trial, g2, g1, g11, w2, w1, w11)
+			}
+		}
+	}
+}
