@@ -130,14 +130,16 @@ func normalDesignOf(g *Generator) *normalDesign {
 	if !ok || g.chol != nil || g.growCol >= 0 {
 		return nil
 	}
-	d := &normalDesign{noiseSD: noise.scale}
 	for i := range g.cols {
-		c, ok := g.cols[i].model.(normalColumn)
-		if !ok {
+		if _, ok := g.cols[i].model.(normalColumn); !ok {
 			return nil
 		}
-		d.mean = append(d.mean, c.mean)
-		d.sd = append(d.sd, c.sd)
+	}
+	k := len(g.cols)
+	d := &normalDesign{mean: make([]float64, k), sd: make([]float64, k), noiseSD: noise.scale}
+	for i := range g.cols {
+		c := g.cols[i].model.(normalColumn)
+		d.mean[i], d.sd[i] = c.mean, c.sd
 	}
 	return d
 }
