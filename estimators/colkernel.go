@@ -46,7 +46,7 @@ func (lw *ltsWork) columns(x blas64.General) *colWork {
 		}
 		*s = (*s)[:k]
 	}
-	cw.n, cw.p = n, p
+	cw.n, cw.p, cw.q = n, p, q
 	grow(&cw.xt, p*n)
 	grow(&cw.prod, q*n)
 	grow(&cw.w, n)
@@ -81,16 +81,47 @@ func (cw *colWork) col(k int) []float64 { return cw.xt[k*cw.n : (k+1)*cw.n] }
 
 // normal writes the upper triangle of Σ w_i x_i x_iᵀ to m (p×p row-major)
 // and Σ v_i x_i to g, for the weights w and the values v, as inner
-// products.
+// products taken four at a time (dot4).
 func (cw *colWork) normal(w, v, m, g []float64) {
 	n, p := cw.n, cw.p
-	kl := 0
-	for k := 0; k < p; k++ {
-		for l := k; l < p; l++ {
-			m[k*p+l] = floats.Dot(w, cw.prod[kl*n:(kl+1)*n])
-			kl++
+	w, v = w[:n], v[:n]
+	var out [4]float64
+	// The products x_k∘x_l, in the order of the upper triangle by rows,
+	// against w; a last group of fewer than four repeats its last column.
+	q := cw.q
+	var at [4]int // m's index of each of the group's products
+	k, l := 0, 0
+	for kl := 0; kl < q; kl += 4 {
+		var c [4][]float64
+		for j := range c {
+			col := min(kl+j, q-1)
+			c[j] = cw.prod[col*n : (col+1)*n]
+			if kl+j < q {
+				at[j] = k*p + l
+				if l++; l == p {
+					k++
+					l = k
+				}
+			} else {
+				at[j] = -1
+			}
 		}
-		g[k] = floats.Dot(v, cw.col(k))
+		dot4(w, c[0], c[1], c[2], c[3], &out)
+		for j, i := range at {
+			if i >= 0 {
+				m[i] = out[j]
+			}
+		}
+	}
+	for k := 0; k < p; k += 4 {
+		var c [4][]float64
+		for j := range c {
+			c[j] = cw.col(min(k+j, p-1))
+		}
+		dot4(v, c[0], c[1], c[2], c[3], &out)
+		for j := 0; j < 4 && k+j < p; j++ {
+			g[k+j] = out[j]
+		}
 	}
 }
 

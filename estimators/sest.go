@@ -278,7 +278,11 @@ func (ws *Workspace) sCandidates(x blas64.General, y, beta []float64, psi psi.Bi
 		if !ws.elementalFit(x, y, cur, &budget) {
 			break
 		}
-		ws.residuals(x, y, cur)
+		if cw != nil {
+			bisqResidualSums(y[:n], cw.xt, cur, ws.r[:n], 0, 0)
+		} else {
+			ws.residuals(x, y, cur)
+		}
 		s := madFast(ws.r, ws.buf)
 		if s <= sZeroTol*yMax {
 			// At least half the residuals are zero, or zero to rounding.

@@ -235,49 +235,24 @@ func (ws *Workspace) sWeightedQR(x blas64.General, s, c float64) bool {
 }
 
 // sStepCols is the I-step of sStep by the column products cw: one pass
-// forms the weights t² and t²·r, the normal equations are inner products
-// (colWork.normal), and the residuals p vector updates followed by one pass
-// for the sums of rho (psiu and rhoW only when sw is not NaN, as for the
-// last I-step of a candidate). When every weight is zero the normal matrix is zero
-// and its solve fails, as sStep's does.
+// forms the weights t² and t²·r (bisqWeights), the normal equations are
+// inner products (colWork.normal), and one pass forms the new residuals
+// with their sums of rho (bisqResidualSums; psiu and rhoW are returned
+// only when sw is not NaN, as for the last I-step of a candidate). When
+// every weight is zero the normal matrix is zero and its solve fails, as
+// sStep's does.
 func (ws *Workspace) sStepCols(cw *colWork, c float64, x blas64.General, y, beta []float64, s, sw float64) (rho, psiu, rhoW float64, ok bool) {
 	n, p := ws.n, ws.p
 	r := ws.r[:n]
-	w, wr := cw.w[:n], cw.wr[:n]
-	w = w[:len(r)]
-	wr = wr[:len(r)]
 	inv := 1 / (s * c)
-	for i, ri := range r {
-		v := ri * inv
-		t := max(1-v*v, 0)
-		t2 := t * t
-		w[i] = t2
-		wr[i] = t2 * ri
-	}
-	cw.normal(w, wr, ws.m[:p*p], ws.delta[:p])
+	bisqWeights(r, cw.w, cw.wr, inv)
+	cw.normal(cw.w[:n], cw.wr[:n], ws.m[:p*p], ws.delta[:p])
 	if !ws.sSolve(x, beta, s, c) {
 		return 0, 0, 0, false
 	}
-	cw.residuals(y, beta, r)
+	rho, psiu, rhoW = bisqResidualSums(y[:n], cw.xt, beta[:p], r, inv, 1/(sw*c))
 	if math.IsNaN(sw) {
-		for _, ri := range r {
-			v := ri * inv
-			t := max(1-v*v, 0)
-			rho += 1 - t*t*t
-		}
 		return rho, 0, 0, true
-	}
-	invW := 1 / (sw * c)
-	for _, ri := range r {
-		v := ri * inv
-		v2 := v * v
-		t := max(1-v2, 0)
-		t2 := t * t
-		rho += 1 - t2*t
-		psiu += v2 * t2
-		u := ri * invW
-		tw := max(1-u*u, 0)
-		rhoW += 1 - tw*tw*tw
 	}
 	return rho, psiu, rhoW, true
 }
