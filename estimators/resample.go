@@ -97,28 +97,31 @@ func (ws *Workspace) elementalFit(x blas64.General, y, beta []float64, budget *i
 // third of the operations of a QR factorisation. elementalFit falls back
 // to QR where it reports false.
 func luSolve(a []float64, p int, y, b, colScale []float64) bool {
-	a, y, b = a[:p*p], y[:p], b[:p]
-	for j := 0; j < p; j++ {
+	a, y, b, colScale = a[:p*p], y[:p], b[:p], colScale[:p]
+	for j := range colScale {
 		col := a[j*p : (j+1)*p]
 		var s float64
 		for _, v := range col {
-			s = max(s, math.Abs(v)) // NaN propagates
+			if v := math.Abs(v); !(v <= s) {
+				s = v // NaN is kept, and fails the test below
+			}
 		}
 		if s == 0 || math.IsInf(s, 0) || math.IsNaN(s) {
 			return false
 		}
-		colScale[j] = s
 		inv := 1 / s
+		colScale[j] = inv
 		for i := range col {
 			col[i] *= inv
 		}
 	}
 	var umax float64
 	for k := 0; k < p; k++ {
+		ck := a[k*p : (k+1)*p]
 		// The pivot: the largest |a_ik| for i ≥ k.
-		piv, big := k, math.Abs(a[k*p+k])
+		piv, big := k, math.Abs(ck[k])
 		for i := k + 1; i < p; i++ {
-			if v := math.Abs(a[k*p+i]); v > big {
+			if v := math.Abs(ck[i]); v > big {
 				piv, big = i, v
 			}
 		}
@@ -132,30 +135,38 @@ func luSolve(a []float64, p int, y, b, colScale []float64) bool {
 			y[k], y[piv] = y[piv], y[k]
 		}
 		umax = math.Max(umax, big)
-		inv := 1 / a[k*p+k]
+		inv := 1 / ck[k]
+		ck[k] = inv // the diagonal is kept as its inverse
 		for i := k + 1; i < p; i++ {
-			l := a[k*p+i] * inv
-			a[k*p+i] = l
-			for j := k + 1; j < p; j++ {
-				a[j*p+i] -= l * a[j*p+k]
+			ck[i] *= inv
+		}
+		for j := k + 1; j < p; j++ {
+			cj := a[j*p : (j+1)*p]
+			u := cj[k]
+			for i := k + 1; i < p; i++ {
+				cj[i] -= ck[i] * u
 			}
-			y[i] -= l * y[k]
+		}
+		yk := y[k]
+		for i := k + 1; i < p; i++ {
+			y[i] -= ck[i] * yk
 		}
 	}
+	// |pivot| > tol, with the pivots held as inverses.
 	tol := float64(p) * epsilon * umax
 	for k := p - 1; k >= 0; k-- {
-		d := a[k*p+k]
-		if !(math.Abs(d) > tol) {
+		inv := a[k*p+k]
+		if !(math.Abs(inv)*tol < 1) {
 			return false
 		}
 		v := y[k]
 		for j := k + 1; j < p; j++ {
 			v -= a[j*p+k] * b[j]
 		}
-		b[k] = v / d
+		b[k] = v * inv
 	}
-	for j := range b {
-		b[j] /= colScale[j]
+	for j, inv := range colScale {
+		b[j] *= inv
 	}
 	return true
 }
