@@ -185,3 +185,174 @@ sdone:
 	VMOVSD X9, 16(R8)
 	VZEROUPPER
 	RET
+
+// func countBelowAVX(a *float64, n int, x float64) int
+//
+// The number of a_i < x (false for NaN).
+TEXT ·countBelowAVX(SB), NOSPLIT, $0-32
+	MOVQ         a+0(FP), SI
+	MOVQ         n+8(FP), CX
+	VBROADCASTSD x+16(FP), Y15
+	XORQ         R8, R8
+	XORQ         AX, AX
+	MOVQ         CX, DX
+	ANDQ         $-8, DX
+	JZ           ctail4
+
+cloop:
+	VCMPPD    $0x1e, (SI)(AX*8), Y15, Y0
+	VCMPPD    $0x1e, 32(SI)(AX*8), Y15, Y1
+	VMOVMSKPD Y0, BX
+	VMOVMSKPD Y1, R9
+	POPCNTQ   BX, BX
+	POPCNTQ   R9, R9
+	ADDQ      BX, R8
+	ADDQ      R9, R8
+	ADDQ      $8, AX
+	CMPQ      AX, DX
+	JL        cloop
+
+ctail4:
+	MOVQ CX, DX
+	SUBQ AX, DX
+	CMPQ DX, $4
+	JL   ctail
+	VCMPPD    $0x1e, (SI)(AX*8), Y15, Y0
+	VMOVMSKPD Y0, BX
+	POPCNTQ   BX, BX
+	ADDQ      BX, R8
+	ADDQ      $4, AX
+
+ctail:
+	CMPQ AX, CX
+	JGE  cdone
+
+ctailloop:
+	VMOVSD  (SI)(AX*8), X0
+	XORQ    BX, BX
+	VUCOMISD X0, X15
+	SETHI   BX
+	ADDQ    BX, R8
+	INCQ    AX
+	CMPQ    AX, CX
+	JL      ctailloop
+
+cdone:
+	MOVQ R8, ret+24(FP)
+	VZEROUPPER
+	RET
+
+DATA absMask<>+0(SB)/8, $0x7fffffffffffffff
+GLOBL absMask<>(SB), RODATA|NOPTR, $8
+
+// func absMaxSumAVX(r, a *float64, n int) (top, sum float64)
+//
+// a_i = |r_i|; top is the largest a_i (NaN is lost by the maximum, so the
+// caller checks sum, in which NaN and Inf survive), sum their sum in
+// lanes.
+TEXT ·absMaxSumAVX(SB), NOSPLIT, $0-40
+	MOVQ         r+0(FP), SI
+	MOVQ         a+8(FP), DI
+	MOVQ         n+16(FP), CX
+	VBROADCASTSD absMask<>(SB), Y15
+	VXORPD       Y0, Y0, Y0 // max
+	VXORPD       Y1, Y1, Y1 // sum
+	XORQ         AX, AX
+	MOVQ         CX, DX
+	ANDQ         $-4, DX
+	JZ           atail
+
+aloop:
+	VANDPD  (SI)(AX*8), Y15, Y2
+	VMOVUPD Y2, (DI)(AX*8)
+	VMAXPD  Y2, Y0, Y0
+	VADDPD  Y2, Y1, Y1
+	ADDQ    $4, AX
+	CMPQ    AX, DX
+	JL      aloop
+
+atail:
+	VEXTRACTF128 $1, Y0, X3
+	VMAXPD       X3, X0, X0
+	VPERMILPD    $1, X0, X3
+	VMAXSD       X3, X0, X0
+	VEXTRACTF128 $1, Y1, X4
+	VADDPD       X4, X1, X1
+	VHADDPD      X1, X1, X1
+	CMPQ         AX, CX
+	JGE          adone
+
+atailloop:
+	VMOVSD (SI)(AX*8), X2
+	VANDPD X15, X2, X2
+	VMOVSD X2, (DI)(AX*8)
+	VMAXSD X2, X0, X0
+	VADDSD X2, X1, X1
+	INCQ   AX
+	CMPQ   AX, CX
+	JL     atailloop
+
+adone:
+	VMOVSD X0, top+24(FP)
+	VMOVSD X1, sum+32(FP)
+	VZEROUPPER
+	RET
+
+// func splitAtAVX(a *float64, n int, x float64) (below, above float64)
+//
+// The largest a_i < x (0 if none) and the smallest a_i ≥ x (+Inf if
+// none), for a_i ≥ 0 and not NaN.
+TEXT ·splitAtAVX(SB), NOSPLIT, $0-40
+	MOVQ         a+0(FP), SI
+	MOVQ         n+8(FP), CX
+	VBROADCASTSD x+16(FP), Y15
+	VBROADCASTSD posInf<>(SB), Y14
+	VXORPD       Y0, Y0, Y0 // below
+	VMOVAPD      Y14, Y1    // above
+	XORQ         AX, AX
+	MOVQ         CX, DX
+	ANDQ         $-4, DX
+	JZ           ptail
+
+ploop:
+	VMOVUPD   (SI)(AX*8), Y2
+	VCMPPD    $0x1e, Y2, Y15, Y3 // x > a: below
+	VANDPD    Y2, Y3, Y4         // a where below, else 0
+	VMAXPD    Y4, Y0, Y0
+	VBLENDVPD Y3, Y14, Y2, Y5    // +Inf where below, else a
+	VMINPD    Y5, Y1, Y1
+	ADDQ      $4, AX
+	CMPQ      AX, DX
+	JL        ploop
+
+ptail:
+	VEXTRACTF128 $1, Y0, X3
+	VMAXPD       X3, X0, X0
+	VPERMILPD    $1, X0, X3
+	VMAXSD       X3, X0, X0
+	VEXTRACTF128 $1, Y1, X4
+	VMINPD       X4, X1, X1
+	VPERMILPD    $1, X1, X4
+	VMINSD       X4, X1, X1
+	CMPQ         AX, CX
+	JGE          pdone
+
+ptailloop:
+	VMOVSD    (SI)(AX*8), X2
+	VCMPSD    $0x1e, X2, X15, X3
+	VANDPD    X2, X3, X4
+	VMAXSD    X4, X0, X0
+	VBLENDVPD X3, X14, X2, X5
+	VMINSD    X5, X1, X1
+	INCQ      AX
+	CMPQ      AX, CX
+	JL        ptailloop
+
+pdone:
+	VMOVSD X0, below+24(FP)
+	VMOVSD X1, above+32(FP)
+	VZEROUPPER
+	RET
+
+DATA posInf<>+0(SB)/8, $0x7ff0000000000000
+GLOBL posInf<>(SB), RODATA|NOPTR, $8

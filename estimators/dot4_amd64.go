@@ -2,7 +2,11 @@
 
 package estimators
 
-import "golang.org/x/sys/cpu"
+import (
+	"math"
+
+	"golang.org/x/sys/cpu"
+)
 
 // useAVX reports whether the processor and the operating system support
 // AVX; it is read once, when the package is loaded, and never changed.
@@ -74,4 +78,56 @@ func bisqResidualSums(y, xt, beta, r []float64, inv, invW float64) (rho, psiu, r
 		return s[0], s[1], s[2]
 	}
 	return bisqResidualSumsGo(y, xt, beta, r, inv, invW)
+}
+
+// countBelowAVX is countBelow by AVX instructions (bisq_amd64.s).
+//
+//go:noescape
+func countBelowAVX(a *float64, n int, x float64) int
+
+// countBelow returns the number of a_i < x; NaN counts as not below.
+func countBelow(a []float64, x float64) int {
+	if len(a) == 0 {
+		return 0
+	}
+	if useAVX {
+		return countBelowAVX(&a[0], len(a), x)
+	}
+	return countBelowGo(a, x)
+}
+
+// absMaxSumAVX is absMaxSum by AVX instructions (bisq_amd64.s).
+//
+//go:noescape
+func absMaxSumAVX(r, a *float64, n int) (top, sum float64)
+
+// splitAtAVX is splitAt by AVX instructions (bisq_amd64.s).
+//
+//go:noescape
+func splitAtAVX(a *float64, n int, x float64) (below, above float64)
+
+// absMaxSum sets a_i = |r_i| (a at least len(r) long) and returns the
+// largest a_i and, in an order of its own, their sum: NaN and Inf in r
+// make the sum NaN or Inf, which the largest may not show.
+func absMaxSum(r, a []float64) (top, sum float64) {
+	if len(r) == 0 {
+		return 0, 0
+	}
+	_ = a[len(r)-1]
+	if useAVX {
+		return absMaxSumAVX(&r[0], &a[0], len(r))
+	}
+	return absMaxSumGo(r, a)
+}
+
+// splitAt returns the largest a_i < x (0 if none) and the smallest a_i ≥ x
+// (+Inf if none), for values a_i ≥ 0, none NaN.
+func splitAt(a []float64, x float64) (below, above float64) {
+	if len(a) == 0 {
+		return 0, math.Inf(1)
+	}
+	if useAVX {
+		return splitAtAVX(&a[0], len(a), x)
+	}
+	return splitAtGo(a, x)
 }

@@ -17,3 +17,14 @@ func bisqWeights(r, w, wr []float64, inv float64) { bisqWeightsGo(r, w, wr, inv)
 func bisqResidualSums(y, xt, beta, r []float64, inv, invW float64) (rho, psiu, rhoW float64) {
 	return bisqResidualSumsGo(y, xt, beta, r, inv, invW)
 }
+
+// countBelow returns the number of a_i < x; NaN counts as not below.
+func countBelow(a []float64, x float64) int { return countBelowGo(a, x) }
+
+// absMaxSum sets a_i = |r_i| and returns the largest and their sum
+// (absMaxSumGo).
+func absMaxSum(r, a []float64) (top, sum float64) { return absMaxSumGo(r, a) }
+
+// splitAt returns the largest a_i < x and the smallest a_i ≥ x
+// (splitAtGo).
+func splitAt(a []float64, x float64) (below, above float64) { return splitAtGo(a, x) }

@@ -278,12 +278,14 @@ func (ws *Workspace) sCandidates(x blas64.General, y, beta []float64, psi psi.Bi
 		if !ws.elementalFit(x, y, cur, &budget) {
 			break
 		}
+		var s float64
 		if cw != nil {
 			bisqResidualSums(y[:n], cw.xt, cur, ws.r[:n], 0, 0)
+			s = madCount(ws.r[:n], ws.buf, cw.w)
 		} else {
 			ws.residuals(x, y, cur)
+			s = madFast(ws.r, ws.buf)
 		}
-		s := madFast(ws.r, ws.buf)
 		if s <= sZeroTol*yMax {
 			// At least half the residuals are zero, or zero to rounding.
 			// If so many observations, and more than the p the subset was
