@@ -199,11 +199,11 @@ func sScale(r []float64, b, d, c, s0 float64) float64 {
 
 // sSolve solves the step system formed by sWeighted or colWork.normal for
 // ws.delta, and on success adds it to beta. Normal equations too
-// ill-conditioned for Cholesky are solved by QR of W^½X, as weightedStep
-// does.
+// ill-conditioned for the factorisation (ldlSolve) are solved by QR of
+// W^½X, as weightedStep does.
 func (ws *Workspace) sSolve(x blas64.General, beta []float64, s, c float64) bool {
 	p := ws.p
-	if !choleskySolve(ws.m, p, ws.delta, ws.pscale) {
+	if !ldlSolve(ws.m, p, ws.delta) {
 		if !ws.sWeightedQR(x, s, c) {
 			return false
 		}
@@ -255,4 +255,61 @@ func (ws *Workspace) sStepCols(cw *colWork, c float64, x blas64.General, y, beta
 		return rho, 0, 0, true
 	}
 	return rho, psiu, rhoW, true
+}
+
+// ldlSolve solves the symmetric system M·d = g (the upper triangle of the
+// p×p row-major m, p ≤ colMaxP; overwritten, as is g with d) by the
+// factorisation M = UᵀDU with U unit upper triangular: no square roots,
+// and one division per column. It reports false when a pivot d_j is not
+// above minCholeskyPivot·m_jj, the test choleskySolve makes after scaling
+// the diagonal to 1, so both refuse the same matrices up to rounding. The
+// I-steps of the resampling searches use it: their steps are refined
+// further, and the scaled Cholesky factorisation with its square roots
+// took a sixth of a fast-S fit.
+func ldlSolve(m []float64, p int, g []float64) bool {
+	if p > colMaxP {
+		return false
+	}
+	m, g = m[:p*p], g[:p]
+	var dd, dinv, w [colMaxP]float64
+	for j := 0; j < p; j++ {
+		// w_k = d_k·u_kj for the rows above.
+		for k := 0; k < j; k++ {
+			w[k] = m[k*p+j] * dd[k]
+		}
+		orig := m[j*p+j]
+		d := orig
+		for k := 0; k < j; k++ {
+			d -= w[k] * m[k*p+j]
+		}
+		if !(d > minCholeskyPivot*orig) || math.IsInf(orig, 0) {
+			return false
+		}
+		inv := 1 / d
+		dd[j], dinv[j] = d, inv
+		row := m[j*p : (j+1)*p]
+		for i := j + 1; i < p; i++ {
+			v := row[i]
+			for k := 0; k < j; k++ {
+				v -= w[k] * m[k*p+i]
+			}
+			row[i] = v * inv
+		}
+	}
+	// Uᵀz = g, then D y = z, then U d = y.
+	for i := 0; i < p; i++ {
+		v := g[i]
+		for k := 0; k < i; k++ {
+			v -= m[k*p+i] * g[k]
+		}
+		g[i] = v
+	}
+	for i := p - 1; i >= 0; i-- {
+		v := g[i] * dinv[i]
+		for k := i + 1; k < p; k++ {
+			v -= m[i*p+k] * g[k]
+		}
+		g[i] = v
+	}
+	return true
 }
