@@ -102,9 +102,7 @@ func luSolve(a []float64, p int, y, b, colScale []float64) bool {
 		col := a[j*p : (j+1)*p]
 		var s float64
 		for _, v := range col {
-			if v := math.Abs(v); !(v <= s) {
-				s = v // NaN is kept, and fails the test below
-			}
+			s = max(s, math.Abs(v)) // NaN is kept, and fails the test below
 		}
 		if s == 0 || math.IsInf(s, 0) || math.IsNaN(s) {
 			return false
@@ -121,9 +119,12 @@ func luSolve(a []float64, p int, y, b, colScale []float64) bool {
 		// The pivot: the largest |a_ik| for i ≥ k.
 		piv, big := k, math.Abs(ck[k])
 		for i := k + 1; i < p; i++ {
-			if v := math.Abs(ck[i]); v > big {
-				piv, big = i, v
-			}
+			v := math.Abs(ck[i])
+			// Without a data-dependent branch: the row moves to i when
+			// its value is larger.
+			gt := boolInt(v > big)
+			piv += (i - piv) * gt
+			big = max(big, v)
 		}
 		if !(big > 0) {
 			return false
