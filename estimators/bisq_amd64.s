@@ -356,3 +356,91 @@ pdone:
 
 DATA posInf<>+0(SB)/8, $0x7ff0000000000000
 GLOBL posInf<>(SB), RODATA|NOPTR, $8
+
+// func residualsAbsAVX(y, xt, beta *float64, p, n int, r, a *float64) (top, sum float64)
+//
+// r_i = y_i − Σ_k beta_k·xt[k·n + i], subtracting in order of k, as
+// bisqResidualSumsAVX does; a_i = |r_i|; top is the largest a_i and sum
+// their sum in lanes (see absMaxSumAVX).
+TEXT ·residualsAbsAVX(SB), NOSPLIT, $0-72
+	MOVQ         y+0(FP), SI
+	MOVQ         xt+8(FP), BX
+	MOVQ         beta+16(FP), R12
+	MOVQ         p+24(FP), R13
+	MOVQ         n+32(FP), CX
+	MOVQ         r+40(FP), DI
+	MOVQ         a+48(FP), R15
+	VBROADCASTSD absMask<>(SB), Y15
+	VXORPD       Y10, Y10, Y10 // max
+	VXORPD       Y11, Y11, Y11 // sum
+	MOVQ         CX, R14
+	SHLQ         $3, R14
+	XORQ         AX, AX
+	MOVQ         CX, DX
+	ANDQ         $-4, DX
+	JZ           rtail
+
+rloop:
+	VMOVUPD (SI)(AX*8), Y0
+	LEAQ    (BX)(AX*8), R9
+	MOVQ    R12, R10
+	MOVQ    R13, R11
+
+rkloop:
+	VBROADCASTSD (R10), Y1
+	VMULPD       (R9), Y1, Y1
+	VSUBPD       Y1, Y0, Y0
+	ADDQ         $8, R10
+	ADDQ         R14, R9
+	DECQ         R11
+	JNZ          rkloop
+
+	VMOVUPD Y0, (DI)(AX*8)
+	VANDPD  Y0, Y15, Y2
+	VMOVUPD Y2, (R15)(AX*8)
+	VMAXPD  Y2, Y10, Y10
+	VADDPD  Y2, Y11, Y11
+	ADDQ    $4, AX
+	CMPQ    AX, DX
+	JL      rloop
+
+rtail:
+	VEXTRACTF128 $1, Y10, X3
+	VMAXPD       X3, X10, X10
+	VPERMILPD    $1, X10, X3
+	VMAXSD       X3, X10, X10
+	VEXTRACTF128 $1, Y11, X4
+	VADDPD       X4, X11, X11
+	VHADDPD      X11, X11, X11
+	CMPQ         AX, CX
+	JGE          rdone
+
+rtailloop:
+	VMOVSD (SI)(AX*8), X0
+	LEAQ   (BX)(AX*8), R9
+	MOVQ   R12, R10
+	MOVQ   R13, R11
+
+rtkloop:
+	VMOVSD (R10), X1
+	VMULSD (R9), X1, X1
+	VSUBSD X1, X0, X0
+	ADDQ   $8, R10
+	ADDQ   R14, R9
+	DECQ   R11
+	JNZ    rtkloop
+
+	VMOVSD X0, (DI)(AX*8)
+	VANDPD X15, X0, X2
+	VMOVSD X2, (R15)(AX*8)
+	VMAXSD X2, X10, X10
+	VADDSD X2, X11, X11
+	INCQ   AX
+	CMPQ   AX, CX
+	JL     rtailloop
+
+rdone:
+	VMOVSD X10, top+56(FP)
+	VMOVSD X11, sum+64(FP)
+	VZEROUPPER
+	RET

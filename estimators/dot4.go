@@ -99,3 +99,17 @@ func bisqResidualSumsGo(y, xt, beta, r []float64, inv, invW float64) (rho, psiu,
 	}
 	return rho, psiu, rhoW
 }
+
+// residualsAbsGo is residualsAbs in Go: the residuals as
+// bisqResidualSumsGo forms them, then absMaxSumGo.
+func residualsAbsGo(y, xt, beta, r, a []float64) (top, sum float64) {
+	n := len(r)
+	for i := range r {
+		ri := y[i]
+		for k, bk := range beta {
+			ri -= bk * xt[k*n+i]
+		}
+		r[i] = ri
+	}
+	return absMaxSumGo(r, a)
+}

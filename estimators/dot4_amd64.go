@@ -131,3 +131,24 @@ func splitAt(a []float64, x float64) (below, above float64) {
 	}
 	return splitAtGo(a, x)
 }
+
+// residualsAbsAVX is residualsAbs by AVX instructions (bisq_amd64.s).
+//
+//go:noescape
+func residualsAbsAVX(y, xt, beta *float64, p, n int, r, a *float64) (top, sum float64)
+
+// residualsAbs sets r = y − Xβ from the columns of X (xt, as for
+// bisqResidualSums) and a_i = |r_i|, and returns the largest a_i and their
+// sum (see absMaxSum): the residuals of an elemental fit and what madCount
+// needs of them, in one pass.
+func residualsAbs(y, xt, beta, r, a []float64) (top, sum float64) {
+	n, p := len(r), len(beta)
+	if n == 0 || p == 0 {
+		return residualsAbsGo(y, xt, beta, r, a)
+	}
+	_, _, _ = y[n-1], xt[p*n-1], a[n-1]
+	if useAVX {
+		return residualsAbsAVX(&y[0], &xt[0], &beta[0], p, n, &r[0], &a[0])
+	}
+	return residualsAbsGo(y, xt, beta, r, a)
+}

@@ -28,3 +28,9 @@ func absMaxSum(r, a []float64) (top, sum float64) { return absMaxSumGo(r, a) }
 // splitAt returns the largest a_i < x and the smallest a_i ≥ x
 // (splitAtGo).
 func splitAt(a []float64, x float64) (below, above float64) { return splitAtGo(a, x) }
+
+// residualsAbs sets r = y − Xβ and a_i = |r_i| and returns the largest
+// a_i and their sum (residualsAbsGo).
+func residualsAbs(y, xt, beta, r, a []float64) (top, sum float64) {
+	return residualsAbsGo(y, xt, beta, r, a)
+}

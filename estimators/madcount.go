@@ -64,11 +64,18 @@ func madCount(r, buf, tmp []float64) float64 {
 	if n < 2*madCountGather {
 		return MAD(r, buf)
 	}
-	a := buf[:n]
-	top, sum := absMaxSum(r, a)
-	if math.IsNaN(sum) || math.IsInf(sum, 0) {
-		return MAD(r, buf) // NaN, or values too large to sum
+	top, sum := absMaxSum(r, buf[:n])
+	return madCountAbs(r, buf, tmp, top, sum)
+}
+
+// madCountAbs is madCount with buf already holding |r| and top and sum
+// their largest and their sum (absMaxSum or residualsAbs).
+func madCountAbs(r, buf, tmp []float64, top, sum float64) float64 {
+	n := len(r)
+	if n < 2*madCountGather || math.IsNaN(sum) || math.IsInf(sum, 0) {
+		return MAD(r, buf) // short, NaN, or values too large to sum
 	}
+	a := buf[:n]
 	// The order statistics wanted are a_(first) ≤ a_(k) (0-based); first
 	// = k for odd n. Invariants: cLo = #{a < lo} ≤ first, and cHi = #{a <
 	// hi} > k, so both lie in [lo, hi).

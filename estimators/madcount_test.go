@@ -137,3 +137,38 @@ func TestAbsMaxSumSplitAt(t *testing.T) {
 		}
 	}
 }
+
+// TestResidualsAbs: the kernel in use and residualsAbsGo agree, the
+// residuals bit for bit with bisqResidualSums', for lengths 0 to 41 and p
+// from 1 to 6.
+func TestResidualsAbs(t *testing.T) {
+	rng := rand.New(rand.NewPCG(4, 9))
+	for n := 0; n <= 41; n++ {
+		for p := 1; p <= 6; p++ {
+			y, xt, beta := make([]float64, n), make([]float64, p*n), make([]float64, p)
+			for i := range y {
+				y[i] = rng.NormFloat64()
+			}
+			for i := range xt {
+				xt[i] = rng.NormFloat64()
+			}
+			for j := range beta {
+				beta[j] = rng.NormFloat64()
+			}
+			r1, a1 := make([]float64, n), make([]float64, n)
+			r2, a2 := make([]float64, n), make([]float64, n)
+			r3 := make([]float64, n)
+			t1, s1 := residualsAbs(y, xt, beta, r1, a1)
+			t2, s2 := residualsAbsGo(y, xt, beta, r2, a2)
+			bisqResidualSums(y, xt, beta, r3, 1, 1)
+			if t1 != t2 || math.Abs(s1-s2) > 1e-13*float64(n+1) {
+				t.Errorf("n=%d p=%d: top, sum %v %v (kernel), %v %v (Go)", n, p, t1, s1, t2, s2)
+			}
+			for i := range r1 {
+				if r1[i] != r2[i] || r1[i] != r3[i] || a1[i] != math.Abs(r1[i]) {
+					t.Fatalf("n=%d p=%d: row %d: %v %v %v, |r| %v", n, p, i, r1[i], r2[i], r3[i], a1[i])
+				}
+			}
+		}
+	}
+}

@@ -280,8 +280,8 @@ func (ws *Workspace) sCandidates(x blas64.General, y, beta []float64, psi psi.Bi
 		}
 		var s float64
 		if cw != nil {
-			bisqResidualSums(y[:n], cw.xt, cur, ws.r[:n], 0, 0)
-			s = madCount(ws.r[:n], ws.buf, cw.w)
+			top, sum := residualsAbs(y[:n], cw.xt, cur, ws.r[:n], ws.buf[:n])
+			s = madCountAbs(ws.r[:n], ws.buf, cw.w, top, sum)
 		} else {
 			ws.residuals(x, y, cur)
 			s = madFast(ws.r, ws.buf)
