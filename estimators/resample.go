@@ -135,7 +135,7 @@ func luSolve(a []float64, p int, y, b, colScale []float64) bool {
 			}
 			y[k], y[piv] = y[piv], y[k]
 		}
-		umax = math.Max(umax, big)
+		umax = max(umax, big)
 		inv := 1 / ck[k]
 		ck[k] = inv // the diagonal is kept as its inverse
 		for i := k + 1; i < p; i++ {
