@@ -98,44 +98,45 @@ func (ws *Workspace) elementalFit(x blas64.General, y, beta []float64, budget *i
 // to QR where it reports false.
 func luSolve(a []float64, p int, y, b, colScale []float64) bool {
 	a, y, b, colScale = a[:p*p], y[:p], b[:p], colScale[:p]
+	// Magnitudes are compared by their bits, as unsigned integers, which
+	// order as the values do (NaN above +Inf): no data-dependent branch,
+	// and no floating-point maximum with its NaN rules.
+	const noSign = 1<<63 - 1
 	for j := range colScale {
 		col := a[j*p : (j+1)*p]
-		var s float64
+		var big uint64
 		for _, v := range col {
-			s = max(s, math.Abs(v)) // NaN is kept, and fails the test below
+			big = max(big, math.Float64bits(v)&noSign)
 		}
-		if s == 0 || math.IsInf(s, 0) || math.IsNaN(s) {
+		if big == 0 || big >= 0x7ff0000000000000 { // zero, Inf or NaN
 			return false
 		}
-		inv := 1 / s
+		inv := 1 / math.Float64frombits(big)
 		colScale[j] = inv
 		for i := range col {
 			col[i] *= inv
 		}
 	}
-	var umax float64
+	var umaxBits uint64
 	for k := 0; k < p; k++ {
 		ck := a[k*p : (k+1)*p]
 		// The pivot: the largest |a_ik| for i ≥ k.
-		piv, big := k, math.Abs(ck[k])
+		piv, big := k, math.Float64bits(ck[k])&noSign
 		for i := k + 1; i < p; i++ {
-			v := math.Abs(ck[i])
-			// Without a data-dependent branch: the row moves to i when
-			// its value is larger.
-			gt := boolInt(v > big)
-			piv += (i - piv) * gt
+			v := math.Float64bits(ck[i]) & noSign
+			piv += (i - piv) * boolInt(v > big)
 			big = max(big, v)
 		}
-		if !(big > 0) {
+		if big == 0 || big >= 0x7ff0000000000000 {
 			return false
 		}
-		if piv != k {
-			for j := k; j < p; j++ {
-				a[j*p+k], a[j*p+piv] = a[j*p+piv], a[j*p+k]
-			}
-			y[k], y[piv] = y[piv], y[k]
+		// The swap is made even when piv = k, which leaves the rows as
+		// they are: no branch to mispredict.
+		for j := k; j < p; j++ {
+			a[j*p+k], a[j*p+piv] = a[j*p+piv], a[j*p+k]
 		}
-		umax = max(umax, big)
+		y[k], y[piv] = y[piv], y[k]
+		umaxBits = max(umaxBits, big)
 		inv := 1 / ck[k]
 		ck[k] = inv // the diagonal is kept as its inverse
 		for i := k + 1; i < p; i++ {
@@ -154,7 +155,7 @@ func luSolve(a []float64, p int, y, b, colScale []float64) bool {
 		}
 	}
 	// |pivot| > tol, with the pivots held as inverses.
-	tol := float64(p) * epsilon * umax
+	tol := float64(p) * epsilon * math.Float64frombits(umaxBits)
 	for k := p - 1; k >= 0; k-- {
 		inv := a[k*p+k]
 		if !(math.Abs(inv)*tol < 1) {
