@@ -23,6 +23,7 @@ type colWork struct {
 	n, p int
 	xt   []float64 // p×n, column k is xt[k*n:(k+1)*n]
 	q    int       // p(p+1)/2
+	at   []int     // q, the place k·p + l in the p×p normal matrix of the product x_k∘x_l
 	prod []float64 // n×q, row i holds x_ik x_il for k ≤ l in row-major order of the upper triangle
 	w    []float64 // n, weights of a step
 	wr   []float64 // n, weights times residuals, or scratch
@@ -46,7 +47,7 @@ func (lw *ltsWork) columns(x blas64.General) *colWork {
 		}
 		*s = (*s)[:k]
 	}
-	cw.n, cw.p = n, p
+	cw.n, cw.p, cw.q = n, p, q
 	grow(&cw.xt, p*n)
 	grow(&cw.prod, q*n)
 	grow(&cw.w, n)
@@ -56,11 +57,10 @@ func (lw *ltsWork) columns(x blas64.General) *colWork {
 			cw.xt[k*n+i] = v
 		}
 	}
-	for i := 0; i < n; i++ {
-		for k, v := range row(x, i) {
-			cw.xt[k*n+i] = v
-		}
+	if cap(cw.at) < q {
+		cw.at = make([]int, q)
 	}
+	cw.at = cw.at[:q]
 	kl := 0
 	for k := 0; k < p; k++ {
 		xk := cw.col(k)
@@ -70,6 +70,7 @@ func (lw *ltsWork) columns(x blas64.General) *colWork {
 			for i, v := range xk {
 				dst[i] = v * xl[i]
 			}
+			cw.at[kl] = k*p + l
 			kl++
 		}
 	}
@@ -81,16 +82,29 @@ func (cw *colWork) col(k int) []float64 { return cw.xt[k*cw.n : (k+1)*cw.n] }
 
 // normal writes the upper triangle of Σ w_i x_i x_iᵀ to m (p×p row-major)
 // and Σ v_i x_i to g, for the weights w and the values v, as inner
-// products.
+// products taken four at a time (dot4).
 func (cw *colWork) normal(w, v, m, g []float64) {
-	n, p := cw.n, cw.p
-	kl := 0
-	for k := 0; k < p; k++ {
-		for l := k; l < p; l++ {
-			m[k*p+l] = floats.Dot(w, cw.prod[kl*n:(kl+1)*n])
-			kl++
+	n, p, q := cw.n, cw.p, cw.q
+	w, v = w[:n], v[:n]
+	m, g = m[:p*p], g[:p]
+	var out [4]float64
+	// The products x_k∘x_l against w, in the order of the upper
+	// triangle by rows; the last group of four repeats the last product
+	// where q is not a multiple of four.
+	at := cw.at[:q]
+	for kl := 0; kl < q; kl += 4 {
+		c1, c2, c3 := min(kl+1, q-1), min(kl+2, q-1), min(kl+3, q-1)
+		dot4(w, cw.prod[kl*n:], cw.prod[c1*n:], cw.prod[c2*n:], cw.prod[c3*n:], &out)
+		for j := 0; j < 4 && kl+j < q; j++ {
+			m[at[kl+j]] = out[j]
 		}
-		g[k] = floats.Dot(v, cw.col(k))
+	}
+	for k := 0; k < p; k += 4 {
+		c1, c2, c3 := min(k+1, p-1), min(k+2, p-1), min(k+3, p-1)
+		dot4(v, cw.xt[k*n:], cw.xt[c1*n:], cw.xt[c2*n:], cw.xt[c3*n:], &out)
+		for j := 0; j < 4 && k+j < p; j++ {
+			g[k+j] = out[j]
+		}
 	}
 }
 

@@ -45,6 +45,13 @@ const (
 	// reach it in some 35 steps where a change in coefficients below 1e-10
 	// takes some 60; Newton steps (sNewtonStep) reach it in 3 or 4.
 	sScaleTol = 1e-12
+	// sPolishTol and sPolishSteps bound the polish of the winning
+	// candidate (sPolish): it stops when a step changes the coefficients
+	// by at most the fraction sPolishTol, or after sPolishSteps steps.
+	// Newton steps from a settled scale take one or two.
+	sPolishTol   = 1e-12
+	sPolishSteps = 60
+	sPolishSlack = 1e-14
 	// sMaxRounds bounds the rounds of drawing: a round is drawn again,
 	// admitting only candidates with a larger scale than those dropped,
 	// when every kept candidate of the last round was dropped because its
@@ -271,8 +278,14 @@ func (ws *Workspace) sCandidates(x blas64.General, y, beta []float64, psi psi.Bi
 		if !ws.elementalFit(x, y, cur, &budget) {
 			break
 		}
-		ws.residuals(x, y, cur)
-		s := madFast(ws.r, ws.buf)
+		var s float64
+		if cw != nil {
+			top, sum := residualsAbs(y[:n], cw.xt, cur, ws.r[:n], ws.buf[:n])
+			s = madCountAbs(ws.r[:n], ws.buf, cw.w, top, sum)
+		} else {
+			ws.residuals(x, y, cur)
+			s = madFast(ws.r, ws.buf)
+		}
 		if s <= sZeroTol*yMax {
 			// At least half the residuals are zero, or zero to rounding.
 			// If so many observations, and more than the p the subset was
@@ -381,7 +394,7 @@ func (ws *Workspace) sRefine(x blas64.General, y, beta []float64, psi psi.Bisqua
 			if refused < sNewtonRefusals {
 				copy(back, cur)
 				if ws.sNewtonStep(psi, x, y, cur, s) {
-					if next := mScale(psi, ws.r, b, d, s); next < s {
+					if next := sScale(ws.r, b, d, psi.C, s); next < s {
 						s, newton = next, true
 					}
 				}
@@ -396,7 +409,7 @@ func (ws *Workspace) sRefine(x blas64.General, y, beta []float64, psi psi.Bisqua
 					kst = SingularDesign
 					break
 				}
-				s = mScale(psi, ws.r, b, d, s)
+				s = sScale(ws.r, b, d, psi.C, s)
 			}
 			steps++
 			if s == 0 {
@@ -418,10 +431,65 @@ func (ws *Workspace) sRefine(x blas64.General, y, beta []float64, psi psi.Bisqua
 			copy(beta, cur)
 		}
 	}
+	if out.status == ConvergedChange {
+		out = ws.sPolish(x, y, beta, psi, b, d, out, maxRefine)
+	}
 	if out.status != SingularDesign {
 		ws.residuals(x, y, beta)
 	}
 	return out, dropped
+}
+
+// sPolish continues the winning candidate beta, at M-scale out.scale, until
+// a step changes its coefficients by at most the fraction sPolishTol of
+// their norm, by at most sPolishSteps further steps (and within maxRefine
+// in all): a Newton step when it does not raise the M-scale, an I-step
+// otherwise. The refinement's own stopping rule lets a candidate stop
+// where its scale has settled to sScaleTol, which leaves the coefficients
+// settled only to about √sScaleTol after I-steps; the polish makes the
+// returned estimate a property of the minimum it lies in, not of the path
+// the arithmetic took to it, so two ways of computing the candidates that
+// reach the same minimum return the same estimate to about 1e-12. When
+// no step settles within the budget (a minimum at a kink of the scale,
+// where the steps converge sublinearly) the estimate is left as the
+// refinement returned it.
+func (ws *Workspace) sPolish(x blas64.General, y, beta []float64, psi psi.Bisquare, b, d float64, out sOutcome, maxRefine int) sOutcome {
+	p := ws.p
+	back := ws.trial[:p]
+	copy(back, beta)
+	ws.residuals(x, y, beta)
+	s := out.scale
+	for k := 0; k < sPolishSteps && out.steps < maxRefine; k++ {
+		old := math.Max(norm2(beta), math.SmallestNonzeroFloat64)
+		next := math.Inf(1)
+		if ws.sNewtonStep(psi, x, y, beta, s) {
+			next = sScale(ws.r, b, d, psi.C, s)
+		}
+		// At the minimum the scale is flat to rounding, so a step that
+		// raises it by a few units in the last place is taken.
+		if !(next <= s*(1+sPolishSlack)) {
+			copy(beta, back)
+			ws.residuals(x, y, beta)
+			if !ws.iStep(psi, x, y, beta, s) {
+				break
+			}
+			next = sScale(ws.r, b, d, psi.C, s)
+		}
+		if !(next <= s*(1+sPolishSlack)) || next == 0 {
+			// No step lowers the scale (or the fit became exact): keep
+			// the refinement's estimate.
+			copy(beta, back)
+			break
+		}
+		out.steps++
+		s = next
+		out.scale = s
+		copy(back, beta)
+		if norm2(ws.delta) <= sPolishTol*old {
+			break
+		}
+	}
+	return out
 }
 
 // roundingZeros counts the residuals r_i = y_i − x_iᵀβ that are zero to

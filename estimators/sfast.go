@@ -199,11 +199,11 @@ func sScale(r []float64, b, d, c, s0 float64) float64 {
 
 // sSolve solves the step system formed by sWeighted or colWork.normal for
 // ws.delta, and on success adds it to beta. Normal equations too
-// ill-conditioned for Cholesky are solved by QR of W^½X, as weightedStep
-// does.
+// ill-conditioned for the factorisation (ldlSolve) are solved by QR of
+// W^½X, as weightedStep does.
 func (ws *Workspace) sSolve(x blas64.General, beta []float64, s, c float64) bool {
 	p := ws.p
-	if !choleskySolve(ws.m, p, ws.delta, ws.pscale) {
+	if !ldlSolve(ws.m, p, ws.delta) {
 		if !ws.sWeightedQR(x, s, c) {
 			return false
 		}
@@ -235,49 +235,81 @@ func (ws *Workspace) sWeightedQR(x blas64.General, s, c float64) bool {
 }
 
 // sStepCols is the I-step of sStep by the column products cw: one pass
-// forms the weights t² and t²·r, the normal equations are inner products
-// (colWork.normal), and the residuals p vector updates followed by one pass
-// for the sums of rho (psiu and rhoW only when sw is not NaN, as for the
-// last I-step of a candidate). When every weight is zero the normal matrix is zero
-// and its solve fails, as sStep's does.
+// forms the weights t² and t²·r (bisqWeights), the normal equations are
+// inner products (colWork.normal), and one pass forms the new residuals
+// with their sums of rho (bisqResidualSums; psiu and rhoW are returned
+// only when sw is not NaN, as for the last I-step of a candidate). When
+// every weight is zero the normal matrix is zero and its solve fails, as
+// sStep's does.
 func (ws *Workspace) sStepCols(cw *colWork, c float64, x blas64.General, y, beta []float64, s, sw float64) (rho, psiu, rhoW float64, ok bool) {
 	n, p := ws.n, ws.p
 	r := ws.r[:n]
-	w, wr := cw.w[:n], cw.wr[:n]
-	w = w[:len(r)]
-	wr = wr[:len(r)]
 	inv := 1 / (s * c)
-	for i, ri := range r {
-		v := ri * inv
-		t := max(1-v*v, 0)
-		t2 := t * t
-		w[i] = t2
-		wr[i] = t2 * ri
-	}
-	cw.normal(w, wr, ws.m[:p*p], ws.delta[:p])
+	bisqWeights(r, cw.w, cw.wr, inv)
+	cw.normal(cw.w[:n], cw.wr[:n], ws.m[:p*p], ws.delta[:p])
 	if !ws.sSolve(x, beta, s, c) {
 		return 0, 0, 0, false
 	}
-	cw.residuals(y, beta, r)
+	rho, psiu, rhoW = bisqResidualSums(y[:n], cw.xt, beta[:p], r, inv, 1/(sw*c))
 	if math.IsNaN(sw) {
-		for _, ri := range r {
-			v := ri * inv
-			t := max(1-v*v, 0)
-			rho += 1 - t*t*t
-		}
 		return rho, 0, 0, true
 	}
-	invW := 1 / (sw * c)
-	for _, ri := range r {
-		v := ri * inv
-		v2 := v * v
-		t := max(1-v2, 0)
-		t2 := t * t
-		rho += 1 - t2*t
-		psiu += v2 * t2
-		u := ri * invW
-		tw := max(1-u*u, 0)
-		rhoW += 1 - tw*tw*tw
-	}
 	return rho, psiu, rhoW, true
+}
+
+// ldlSolve solves the symmetric system M·d = g (the upper triangle of the
+// p×p row-major m, p ≤ colMaxP; overwritten, as is g with d) by the
+// factorisation M = UᵀDU with U unit upper triangular: no square roots,
+// and one division per column. It reports false when a pivot d_j is not
+// above minCholeskyPivot·m_jj, the test choleskySolve makes after scaling
+// the diagonal to 1, so both refuse the same matrices up to rounding. The
+// I-steps of the resampling searches use it: their steps are refined
+// further, and the scaled Cholesky factorisation with its square roots
+// took a sixth of a fast-S fit.
+func ldlSolve(m []float64, p int, g []float64) bool {
+	if p > colMaxP {
+		return false
+	}
+	m, g = m[:p*p], g[:p]
+	var dd, dinv, w [colMaxP]float64
+	for j := 0; j < p; j++ {
+		// w_k = d_k·u_kj for the rows above.
+		for k := 0; k < j; k++ {
+			w[k] = m[k*p+j] * dd[k]
+		}
+		orig := m[j*p+j]
+		d := orig
+		for k := 0; k < j; k++ {
+			d -= w[k] * m[k*p+j]
+		}
+		if !(d > minCholeskyPivot*orig) || math.IsInf(orig, 0) {
+			return false
+		}
+		inv := 1 / d
+		dd[j], dinv[j] = d, inv
+		row := m[j*p : (j+1)*p]
+		for i := j + 1; i < p; i++ {
+			v := row[i]
+			for k := 0; k < j; k++ {
+				v -= w[k] * m[k*p+i]
+			}
+			row[i] = v * inv
+		}
+	}
+	// Uᵀz = g, then D y = z, then U d = y.
+	for i := 0; i < p; i++ {
+		v := g[i]
+		for k := 0; k < i; k++ {
+			v -= m[k*p+i] * g[k]
+		}
+		g[i] = v
+	}
+	for i := p - 1; i >= 0; i-- {
+		v := g[i] * dinv[i]
+		for k := i + 1; k < p; k++ {
+			v -= m[i*p+k] * g[k]
+		}
+		g[i] = v
+	}
+	return true
 }

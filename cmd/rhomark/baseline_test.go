@@ -39,7 +39,7 @@ func TestBaselines(t *testing.T) {
 			if code, _, errs := rhomark(t, "run", en.Name, "--replicates", strconv.Itoa(baselineReplicates), "--keep-replicates", "--out", baselineDir); code != exitOK {
 				t.Fatalf("%s: %s", en.Name, errs)
 			}
-			for _, ext := range []string{".csv", ".txt", "-bias.csv"} {
+			for _, ext := range []string{".csv", ".txt", "-bias.csv", "-tolerances.csv"} {
 				os.Remove(filepath.Join(baselineDir, en.Name+ext))
 			}
 		}
