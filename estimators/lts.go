@@ -142,6 +142,8 @@ type ltsWork struct {
 	nest *nestedWork // nested subsampling for large n, also for S (nested.go)
 	col  *colWork    // columns and their products for the searches (colkernel.go)
 	sc   *colWork    // col while starts runs on the design it holds, else nil
+
+	start ltsStartWork // C-steps of the starts by normal equations (ltsstart.go)
 }
 
 // reserve sizes the buffers for an n×p problem keeping h rows and up to keep
@@ -187,6 +189,7 @@ func (lw *ltsWork) reserve(n, p, h, keep int) {
 	lw.nKept = 0
 	lw.lastT = 0
 	lw.useGram, lw.gramOK = false, false
+	lw.start.redone, lw.start.refitted = 0, 0
 }
 
 // reserveGram sizes the buffers of refitGram and turns it on.
@@ -325,12 +328,21 @@ func (lw *ltsWork) fit(x blas64.General, y, beta []float64, rng *rand.Rand, s lt
 // of starts drawn and whether some start met a singular h-subset.
 func (lw *ltsWork) starts(x blas64.General, y []float64, rng *rand.Rand, subsets, csteps, keep int) (starts int, singular bool) {
 	lw.sc = lw.columns(x)
+	if lw.sc != nil {
+		lw.loadStart(lw.sc, y)
+	}
 	for attempts := 0; starts < subsets && attempts < ltsAttemptsPerSubset*subsets; attempts++ {
 		if lw.draw(x, y, rng) == 0 {
 			continue
 		}
 		starts++
-		if lw.offerSteps(x, y, lw.trial, csteps, keep) {
+		var sing bool
+		if lw.sc != nil && !lw.start.qrOnly {
+			sing = lw.startSteps(x, y, lw.trial, csteps, keep)
+		} else {
+			sing = lw.offerSteps(x, y, lw.trial, csteps, keep)
+		}
+		if sing {
 			singular = true
 		}
 	}

@@ -1,0 +1,509 @@
+package estimators
+
+import (
+	"math"
+
+	"gonum.org/v1/gonum/blas/blas64"
+)
+
+// The C-steps of the elemental starts by normal equations.
+//
+// A start's C-steps matter to the result only through the h-subsets they
+// select and through the coefficients and objective offered to the kept
+// list. startSteps therefore takes the intermediate refits by the normal
+// equations of the subset (their sums are inner products of the stored
+// columns, colkernel.go), which cost a fraction of a Householder QR, and
+// proves after each of them that the subset it selects is the one the QR
+// refit would have selected: the gap between the h-th and the (h+1)-th
+// smallest |residual| must exceed twice a bound on how far any residual of
+// the normal-equation fit can lie from the same residual of the QR fit (a
+// first-order error bound for both solutions, Higham (2002), Accuracy and
+// Stability of Numerical Algorithms, 2nd ed., SIAM, §20.4 and §19.3, from
+// memory, with a safety factor). The last refit is redone by QR, as before,
+// when the start can enter the kept list; the bound also proves when it
+// cannot. Whenever a proof fails (ties or near-ties at the boundary, an
+// ill-conditioned subset, a refused factorisation, values near overflow)
+// the start is redone from its elemental fit by the QR C-steps of
+// offerSteps. So the kept list, and with it the fit, is bit-identical to the
+// one of offerSteps alone.
+
+// ltsStartSafety multiplies the first-order error bounds.
+const ltsStartSafety = 4
+
+// ltsStartWork holds the buffers of startSteps.
+type ltsStartWork struct {
+	qp     int       // values of a row of prod: p(p+1)/2 + p, rounded up to a multiple of 4
+	prod   []float64 // n×qp, row i holds x_ik x_il (k ≤ l), then x_ik y_i, then zeros
+	total  []float64 // qp, the sums of prod over all rows
+	sums   []float64 // qp, the sums of prod over the rows marked in inSums
+	inSums []bool    // n, the rows summed in sums
+	valid  bool      // sums and inSums are set
+	terms  int       // rows added to or taken from sums since it was last cleared
+	list   []int     // 2n+2, rows of a subset and its complement, rows that changed
+	colNrm []float64 // p, ‖x_k‖₂ over all rows
+	m      []float64 // p×p, normal matrix, then its factor
+	g      []float64 // p, right-hand side, then the solution
+	scale  []float64 // p, equilibration scales
+	u      []float64 // p, scratch for the inverse of the factor
+	b0     []float64 // p, the elemental fit of the start
+	colMax []float64 // p, max_i |x_ik|
+	yMax   float64   // max_i |y_i|
+	yNorm  float64   // ‖y‖₂
+	bits   []uint64  // 2n, scratch of kthStart
+
+	qrOnly bool // take every C-step by QR (offerSteps), for tests
+	// Counts of the starts since the fit began, for tests: redone by QR
+	// from the elemental fit, and refitted by QR at the end.
+	redone, refitted int
+}
+
+// loadStart prepares startSteps for the design held in cw and the
+// response y.
+func (lw *ltsWork) loadStart(cw *colWork, y []float64) {
+	n, p := cw.n, cw.p
+	sw := &lw.start
+	grow := func(s *[]float64, k int) {
+		if cap(*s) < k {
+			*s = make([]float64, k)
+		}
+		*s = (*s)[:k]
+	}
+	q := p * (p + 1) / 2
+	qp := (q + p + 3) &^ 3
+	sw.qp = qp
+	grow(&sw.prod, n*qp)
+	grow(&sw.sums, qp)
+	grow(&sw.total, qp)
+	if cap(sw.inSums) < n {
+		sw.inSums = make([]bool, n)
+	}
+	sw.inSums = sw.inSums[:n]
+	clear(sw.inSums)
+	sw.valid = false
+	grow(&sw.m, p*p)
+	for _, s := range []*[]float64{&sw.g, &sw.scale, &sw.u, &sw.b0, &sw.colMax, &sw.colNrm} {
+		grow(s, p)
+	}
+	if cap(sw.list) < 2*n+2 {
+		sw.list = make([]int, 2*n+2)
+	}
+	sw.list = sw.list[:2*n+2]
+	y = y[:n]
+	for i, yi := range y {
+		dst := sw.prod[i*qp : (i+1)*qp]
+		kl := 0
+		for k := 0; k < p; k++ {
+			xk := cw.xt[k*n+i]
+			for l := k; l < p; l++ {
+				dst[kl] = xk * cw.xt[l*n+i]
+				kl++
+			}
+		}
+		for k := 0; k < p; k++ {
+			dst[q+k] = cw.xt[k*n+i] * yi
+		}
+		clear(dst[q+p:])
+	}
+	clear(sw.total)
+	for i := 0; i < n; i++ {
+		for j, v := range sw.prod[i*qp : (i+1)*qp] {
+			sw.total[j] += v
+		}
+	}
+	for k := 0; k < p; k++ {
+		var mx float64
+		for _, v := range cw.col(k) {
+			mx = math.Max(mx, math.Abs(v))
+		}
+		sw.colMax[k] = mx
+		sw.colNrm[k] = norm2(cw.col(k))
+	}
+	var ym float64
+	for _, v := range y {
+		ym = math.Max(ym, math.Abs(v))
+	}
+	sw.yMax, sw.yNorm = ym, norm2(y)
+}
+
+// startSteps is offerSteps for a start with coefficients b (overwritten)
+// while starts runs with the column products (lw.sc set). It returns what
+// offerSteps returns and leaves the kept list as offerSteps would.
+func (lw *ltsWork) startSteps(x blas64.General, y, b []float64, csteps, keep int) (singular bool) {
+	sw := &lw.start
+	p, h := lw.p, lw.h
+	copy(sw.b0, b[:p])
+	exact := func() bool {
+		sw.redone++
+		copy(b, sw.b0)
+		return lw.offerSteps(x, y, b, csteps, keep)
+	}
+	// The elemental fit is exact; its subset is the one offerSteps finds.
+	_, _, ok := lw.markFast(y, b)
+	if !ok {
+		return exact()
+	}
+	var delta float64
+	for k := 0; k < csteps; k++ {
+		if delta, ok = lw.normalSolve(b); !ok {
+			return exact()
+		}
+		if k == csteps-1 {
+			break
+		}
+		lw.cur, lw.prev = lw.prev, lw.cur
+		var gap float64
+		if _, gap, ok = lw.markFast(y, b); !ok || !(gap > 2*delta) {
+			return exact()
+		}
+	}
+	// lw.cur holds the subset of the last refit, the one offerSteps refits
+	// by QR, and b its normal-equation fit. The objective at the QR fit is
+	// at least (√Q(b) − √h·delta)², and Q(b) is at least lb.
+	if lw.nKept >= keep {
+		worse := func(q float64) bool {
+			r := math.Sqrt(q/(1+2*float64(lw.n)*epsilon)) - math.Sqrt(float64(h))*delta
+			return r > 0 && r*r*(1-2*float64(h)*epsilon) > lw.candObj[keep-1]
+		}
+		// A threshold of a few times the mean of the kept list's worst
+		// candidate's smallest squared residuals settles most starts
+		// without finding the h-th smallest.
+		tau := 4 * lw.candObj[keep-1] / float64(h)
+		if lb, ok := lw.objectiveBound(y, b, tau); ok && (worse(lb) || worse(lw.smallestSum())) {
+			return false
+		}
+	}
+	sw.refitted++
+	if !lw.refitQR(x, y, b) {
+		return true
+	}
+	if obj, ok := lw.evaluate(x, y, b); ok {
+		lw.offer(obj, b, keep)
+	}
+	return false
+}
+
+// smallestSum returns the sum of the h smallest values of lw.r2, in no
+// fixed order: every value below the h-th smallest and as many equal to it
+// as fill h.
+func (lw *ltsWork) smallestSum() float64 {
+	r2 := lw.r2[:lw.n]
+	t := lw.kthStart(r2)
+	var s0, s1 float64
+	below := 0
+	i := 0
+	for ; i+2 <= len(r2); i += 2 {
+		u, v := r2[i], r2[i+1]
+		s0 += ltsBelow(u, t)
+		s1 += ltsBelow(v, t)
+		below += lessInt(u, t) + lessInt(v, t)
+	}
+	if i < len(r2) {
+		s0 += ltsBelow(r2[i], t)
+		below += lessInt(r2[i], t)
+	}
+	return s0 + s1 + float64(lw.h-below)*t
+}
+
+// ltsBelow returns v if v < t and +0 otherwise, for v, t ≥ 0, without a
+// branch.
+func ltsBelow(v, t float64) float64 {
+	vb := math.Float64bits(v)
+	var m uint64
+	if vb < math.Float64bits(t) {
+		m = math.MaxUint64
+	}
+	return math.Float64frombits(vb & m)
+}
+
+// objectiveBound returns a lower bound on the objective Q(b), the sum of the
+// h smallest squared residuals at b, without finding them: for any
+// threshold tau, with c of the values below it summing to s, Q(b) ≥ s +
+// (h − c)·tau (the h − c further values are at least tau, or the c − h
+// values dropped are below it). It is exact at tau = the h-th smallest and
+// close for a tau near it. It reports false when a residual is NaN.
+func (lw *ltsWork) objectiveBound(y, b []float64, tau float64) (float64, bool) {
+	r := lw.r2[:lw.n]
+	lw.sc.residuals(y, b, r)
+	tb := math.Float64bits(tau)
+	var s0, s1 float64
+	c := 0
+	i := 0
+	for ; i+2 <= len(r); i += 2 {
+		u, v := r[i]*r[i], r[i+1]*r[i+1]
+		if u != u || v != v {
+			return 0, false
+		}
+		r[i], r[i+1] = u, v
+		ub, vb := math.Float64bits(u), math.Float64bits(v)
+		var mu, mv uint64
+		if ub < tb {
+			mu = math.MaxUint64
+		}
+		if vb < tb {
+			mv = math.MaxUint64
+		}
+		s0 += math.Float64frombits(ub & mu)
+		s1 += math.Float64frombits(vb & mv)
+		c += int(mu&1) + int(mv&1)
+	}
+	for ; i < len(r); i++ {
+		u := r[i] * r[i]
+		if u != u {
+			return 0, false
+		}
+		r[i] = u
+		if u < tau {
+			s0 += u
+			c++
+		}
+	}
+	return s0 + s1 + float64(lw.h-c)*tau, true
+}
+
+// markFast computes the squared residuals at b from the column products,
+// marks in lw.cur the h rows with the smallest, as evaluate does, and
+// returns the h-th smallest and the gap between the (h+1)-th and the h-th
+// smallest |residual| (0 on ties, +Inf when h = n). It reports false when a
+// residual is NaN, when the objective might overflow, or when the residuals
+// are too large for the error bounds of startSteps.
+func (lw *ltsWork) markFast(y, b []float64) (t, gap float64, ok bool) {
+	n, h := lw.n, lw.h
+	r2 := lw.r2[:n]
+	lw.sc.residuals(y, b, r2)
+	for i, r := range r2 {
+		if r != r {
+			return 0, 0, false
+		}
+		r2[i] = r * r
+	}
+	t = lw.kthStart(r2)
+	if !(t <= math.MaxFloat64/float64(2*h)) || lw.residualBound(b) > 1e300 {
+		return 0, 0, false
+	}
+	cur := lw.cur[:n]
+	tb := math.Float64bits(t)
+	next := uint64(math.MaxUint64)
+	atMost := 0
+	// Squares are not negative, so their bits order as they do.
+	for i, v := range r2 {
+		vb := math.Float64bits(v)
+		one := 0
+		if vb <= tb {
+			one = 1
+		}
+		cur[i] = one == 1
+		atMost += one
+		next = min(next, vb|-uint64(one))
+	}
+	if atMost != h {
+		lw.markTies(r2, t)
+		next = tb
+	}
+	switch {
+	case h == n:
+		gap = math.Inf(1)
+	case next == tb:
+		gap = 0
+	default:
+		gap = math.Sqrt(math.Float64frombits(next)) - math.Sqrt(t)
+	}
+	return t, gap, true
+}
+
+// markTies marks the subset as evaluate does when more than one row holds
+// the h-th smallest value t: every row below t, then rows equal to t in
+// row order up to h.
+func (lw *ltsWork) markTies(r2 []float64, t float64) {
+	cur := lw.cur[:lw.n]
+	below := 0
+	for i, v := range r2 {
+		cur[i] = v < t
+		if cur[i] {
+			below++
+		}
+	}
+	for i, v := range r2 {
+		if below == lw.h {
+			break
+		}
+		if v == t {
+			cur[i] = true
+			below++
+		}
+	}
+}
+
+// residualBound returns max_i |y_i| + Σ_k |b_k| max_i |x_ik|, a bound on
+// the terms of every residual at b.
+func (lw *ltsWork) residualBound(b []float64) float64 {
+	sw := &lw.start
+	m := sw.yMax
+	for k, v := range b[:lw.p] {
+		m += math.Abs(v) * sw.colMax[k]
+	}
+	return m
+}
+
+// ltsStartTerms bounds the rows added to or taken from the sums, in units
+// of n, before they are formed afresh; the error bound of normalSolve
+// grows with them.
+const ltsStartTerms = 4
+
+// normalSums brings the sums of the start work to the rows marked in
+// lw.cur by the cheapest of three ways: summing them afresh, taking the
+// other rows from the sums over all rows, or adding the rows that entered
+// and taking those that left since the sums were last formed.
+func (lw *ltsWork) normalSums() {
+	sw := &lw.start
+	n := lw.n
+	sub, chg := sw.list[:n+1], sw.list[n+1:2*n+2]
+	cur, in := lw.cur[:n], sw.inSums[:n]
+	// The rows of the subset from the front of sub, the others from the
+	// back; the rows that entered from the front of chg, those that left
+	// from the back.
+	k, o, e, l := 0, n, 0, n
+	for i, c := range cur {
+		ci, ii := boolInt(c), boolInt(in[i])
+		sub[k], sub[o] = i, i
+		chg[e], chg[l] = i, i
+		k += ci
+		o -= 1 - ci
+		e += ci &^ ii
+		l -= ii &^ ci
+		in[i] = c
+	}
+	changes := e + n - l
+	switch {
+	case sw.valid && changes <= min(k, n-k) && sw.terms+changes <= ltsStartTerms*n:
+		ltsAddRows(sw.sums, sw.prod, chg[:e], sw.qp, false)
+		ltsAddRows(sw.sums, sw.prod, chg[l+1:n+1], sw.qp, true)
+		sw.terms += changes
+	case k <= n-k:
+		clear(sw.sums)
+		ltsAddRows(sw.sums, sw.prod, sub[:k], sw.qp, false)
+		sw.terms = k
+	default:
+		copy(sw.sums, sw.total)
+		ltsAddRows(sw.sums, sw.prod, sub[o+1:n+1], sw.qp, true)
+		sw.terms = n + n - k
+	}
+	sw.valid = true
+}
+
+// ltsAddRows adds (or with sub set, subtracts) the rows listed of the
+// n×qp row-major prod to acc (length qp, a multiple of 4), four values and
+// two rows at a time.
+func ltsAddRows(acc, prod []float64, rows []int, qp int, sub bool) {
+	for c := 0; c < qp; c += 4 {
+		var a0, a1, a2, a3, b0, b1, b2, b3 float64
+		j := 0
+		for ; j+2 <= len(rows); j += 2 {
+			o, e := rows[j]*qp+c, rows[j+1]*qp+c
+			r, s := prod[o:o+4:o+4], prod[e:e+4:e+4]
+			a0 += r[0]
+			a1 += r[1]
+			a2 += r[2]
+			a3 += r[3]
+			b0 += s[0]
+			b1 += s[1]
+			b2 += s[2]
+			b3 += s[3]
+		}
+		if j < len(rows) {
+			o := rows[j]*qp + c
+			r := prod[o : o+4 : o+4]
+			a0 += r[0]
+			a1 += r[1]
+			a2 += r[2]
+			a3 += r[3]
+		}
+		d := acc[c : c+4 : c+4]
+		if sub {
+			d[0] -= a0 + b0
+			d[1] -= a1 + b1
+			d[2] -= a2 + b2
+			d[3] -= a3 + b3
+		} else {
+			d[0] += a0 + b0
+			d[1] += a1 + b1
+			d[2] += a2 + b2
+			d[3] += a3 + b3
+		}
+	}
+}
+
+// normalSolve brings the sums to the subset marked in lw.cur (normalSums)
+// and writes to b the least-squares fit to its rows by the normal
+// equations. It returns a bound on the distance of any residual at b from
+// the same residual at the Householder QR fit of refitQR, both as computed,
+// and reports false when the normal equations are refused or too
+// ill-conditioned for the bound.
+func (lw *ltsWork) normalSolve(b []float64) (delta float64, ok bool) {
+	p, h := lw.p, lw.h
+	sw := &lw.start
+	lw.normalSums()
+	m, g, s := sw.m[:p*p], sw.g[:p], sw.scale[:p]
+	q := p * (p + 1) / 2
+	kl := 0
+	for k := 0; k < p; k++ {
+		for l := k; l < p; l++ {
+			m[k*p+l] = sw.sums[kl]
+			kl++
+		}
+		g[k] = sw.sums[q+k]
+	}
+	if !choleskySolve(m, p, g, s) {
+		return 0, false
+	}
+	// m holds U with UᵀU = D M D, D = diag(s). ‖(UᵀU)⁻¹‖₂ ≤ ‖U⁻¹‖²_F.
+	var inv2 float64
+	u := sw.u[:p]
+	for j := 0; j < p; j++ {
+		// Column j of U⁻¹: solve U u = e_j (u_i = 0 for i > j).
+		for i := j; i >= 0; i-- {
+			var v float64
+			if i == j {
+				v = 1
+			}
+			for k := i + 1; k <= j; k++ {
+				v -= m[i*p+k] * u[k]
+			}
+			u[i] = v / m[i*p+i]
+			inv2 += u[i] * u[i]
+		}
+	}
+	var zn, xs, rho float64
+	for k, v := range g {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			return 0, false
+		}
+		z := v / s[k]
+		zn += z * z
+		c := s[k] * sw.colMax[k]
+		xs += c * c
+		c = s[k] * sw.colNrm[k]
+		rho += c * c
+	}
+	zn, xs = math.Sqrt(zn), math.Sqrt(xs)
+	fp, fh := float64(p), float64(h)
+	// The sums add and take away sw.terms rows: each is within gamma of
+	// the sum of the magnitudes over all rows, which is at most
+	// ‖x_k‖‖x_l‖ (or ‖x_k‖‖y‖); equilibrated, Σ_k (s_k‖x_k‖)² = rho
+	// bounds the Frobenius norm of the error of the matrix, √rho·‖y‖·gamma
+	// that of the right-hand side. The factorisation adds (p+1)·eps·p.
+	gamma := 1.01 * float64(sw.terms+1) * epsilon
+	eta := rho*gamma + fp*(fp+1)*epsilon
+	if !(inv2*eta < 0.1) {
+		return 0, false
+	}
+	// Distance of either solution from the exact least-squares solution,
+	// in equilibrated coordinates: the normal equations, then Householder
+	// QR (κ(XD) ≤ √(p·inv2); ‖residual‖ ≤ ‖y‖).
+	dNE := inv2 * (eta*zn + math.Sqrt(rho)*gamma*sw.yNorm) / (1 - inv2*eta)
+	kappa := math.Sqrt(fp * inv2)
+	dQR := fh * fp * epsilon * (kappa*zn + kappa*kappa*sw.yNorm)
+	copy(b, g)
+	// Rounding of the residuals themselves, at either fit.
+	dr := 2 * 1.01 * (fp + 1) * epsilon * lw.residualBound(b)
+	return ltsStartSafety * (xs*(dNE+dQR) + dr), true
+}
