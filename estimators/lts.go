@@ -189,7 +189,7 @@ func (lw *ltsWork) reserve(n, p, h, keep int) {
 	lw.nKept = 0
 	lw.lastT = 0
 	lw.useGram, lw.gramOK = false, false
-	lw.start.redone, lw.start.refitted = 0, 0
+	lw.start.redone, lw.start.refitted, lw.start.resolved = 0, 0, 0
 }
 
 // reserveGram sizes the buffers of refitGram and turns it on.
@@ -523,6 +523,15 @@ func (lw *ltsWork) draw(x blas64.General, y []float64, rng *rand.Rand) int {
 	}
 	clear(lw.gr)
 	clear(lw.gss)
+	// While starts runs with the column products, the response is
+	// rotated along, so that a start of p rows can be solved from the
+	// factor (startSteps then proves it good enough, ltsstart.go).
+	var qy []float64
+	if lw.sc != nil && !lw.start.qrOnly {
+		qy = lw.start.gqy[:p]
+		clear(qy)
+	}
+	lw.start.approx = false
 	for m := 0; m < h; m++ {
 		j := m + rng.IntN(n-m)
 		idx[m], idx[j] = idx[j], idx[m]
@@ -531,10 +540,13 @@ func (lw *ltsWork) draw(x blas64.General, y []float64, rng *rand.Rand) int {
 			lw.gz[k] = v
 			lw.gss[k] += v * v
 		}
-		ltsGivensAddRow(lw.gr, lw.gz, p)
+		ltsGivensAddRow(lw.gr, lw.gz, p, qy, y[idx[m]])
 		rows := m + 1
 		if rows < p || !lw.givensFullRank(rows) {
 			continue
+		}
+		if rows == p && qy != nil && lw.givensSolve() {
+			return rows
 		}
 		a := lw.qa[:rows*p]
 		for k, i := range idx[:rows] {
@@ -553,8 +565,9 @@ func (lw *ltsWork) draw(x blas64.General, y []float64, rng *rand.Rand) int {
 // ltsGivensAddRow updates the upper triangular p×p factor r (row-major,
 // upper triangle used) of a set of rows to include the row z, which it
 // overwrites: Givens rotations zero z against the diagonal of r from left to
-// right.
-func ltsGivensAddRow(r, z []float64, p int) {
+// right. Unless qy is nil, the same rotations apply to qy (Qᵀ times the
+// responses of the rows) and the response zy of the new row.
+func ltsGivensAddRow(r, z []float64, p int, qy []float64, zy float64) {
 	for k := 0; k < p; k++ {
 		zk := z[k]
 		if zk == 0 {
@@ -568,6 +581,11 @@ func ltsGivensAddRow(r, z []float64, p int) {
 			t := rk[j]
 			rk[j] = c*t + s*z[j]
 			z[j] = c*z[j] - s*t
+		}
+		if qy != nil {
+			t := qy[k]
+			qy[k] = c*t + s*zy
+			zy = c*zy - s*t
 		}
 	}
 }

@@ -35,11 +35,9 @@ type ltsStartWork struct {
 	qp     int       // values of a row of prod: p(p+1)/2 + p, rounded up to a multiple of 4
 	prod   []float64 // n×qp, row i holds x_ik x_il (k ≤ l), then x_ik y_i, then zeros
 	total  []float64 // qp, the sums of prod over all rows
-	sums   []float64 // qp, the sums of prod over the rows marked in inSums
-	inSums []bool    // n, the rows summed in sums
-	valid  bool      // sums and inSums are set
-	terms  int       // rows added to or taken from sums since it was last cleared
-	list   []int     // 2n+2, rows of a subset and its complement, rows that changed
+	sums   []float64 // qp, the sums of prod over the rows of the subset of the last refit
+	terms  int       // rows added to or taken from sums since they were formed afresh
+	list   []int     // n+1, rows of a subset, of its complement, or that changed
 	colNrm []float64 // p, ‖x_k‖₂ over all rows
 	m      []float64 // p×p, normal matrix, then its factor
 	g      []float64 // p, right-hand side, then the solution
@@ -50,11 +48,15 @@ type ltsStartWork struct {
 	yMax   float64   // max_i |y_i|
 	yNorm  float64   // ‖y‖₂
 	bits   []uint64  // 2n, scratch of kthStart
+	gqy    []float64 // p, Qᵀy of the rows of a draw, rotated along by draw
+	approx bool      // draw solved the start from its Givens factor (givensSolve)
+	delta0 float64   // then a bound on the distance of its residuals from the exact start's
 
 	qrOnly bool // take every C-step by QR (offerSteps), for tests
 	// Counts of the starts since the fit began, for tests: redone by QR
-	// from the elemental fit, and refitted by QR at the end.
-	redone, refitted int
+	// from the elemental fit, refitted by QR at the end, and solved from
+	// the Givens factor and then again by QR.
+	redone, refitted, resolved int
 }
 
 // loadStart prepares startSteps for the design held in cw and the
@@ -74,20 +76,14 @@ func (lw *ltsWork) loadStart(cw *colWork, y []float64) {
 	grow(&sw.prod, n*qp)
 	grow(&sw.sums, qp)
 	grow(&sw.total, qp)
-	if cap(sw.inSums) < n {
-		sw.inSums = make([]bool, n)
-	}
-	sw.inSums = sw.inSums[:n]
-	clear(sw.inSums)
-	sw.valid = false
 	grow(&sw.m, p*p)
-	for _, s := range []*[]float64{&sw.g, &sw.scale, &sw.u, &sw.b0, &sw.colMax, &sw.colNrm} {
+	for _, s := range []*[]float64{&sw.g, &sw.scale, &sw.u, &sw.b0, &sw.colMax, &sw.colNrm, &sw.gqy} {
 		grow(s, p)
 	}
-	if cap(sw.list) < 2*n+2 {
-		sw.list = make([]int, 2*n+2)
+	if cap(sw.list) < n+1 {
+		sw.list = make([]int, n+1)
 	}
-	sw.list = sw.list[:2*n+2]
+	sw.list = sw.list[:n+1]
 	y = y[:n]
 	for i, yi := range y {
 		dst := sw.prod[i*qp : (i+1)*qp]
@@ -134,17 +130,28 @@ func (lw *ltsWork) startSteps(x blas64.General, y, b []float64, csteps, keep int
 	copy(sw.b0, b[:p])
 	exact := func() bool {
 		sw.redone++
+		if sw.approx {
+			lw.elementalQR(x, y)
+		}
 		copy(b, sw.b0)
 		return lw.offerSteps(x, y, b, csteps, keep)
 	}
-	// The elemental fit is exact; its subset is the one offerSteps finds.
-	_, _, ok := lw.markFast(y, b)
+	// The subset of the elemental fit: the one offerSteps finds, when the
+	// start was solved by QR as draw does, or proved to be so.
+	_, gap, ok := lw.markFast(y, b)
 	if !ok {
 		return exact()
 	}
+	if sw.approx && !(gap > 2*sw.delta0) {
+		lw.elementalQR(x, y)
+		copy(b, sw.b0)
+		if _, _, ok = lw.markFast(y, b); !ok {
+			return exact()
+		}
+	}
 	var delta float64
 	for k := 0; k < csteps; k++ {
-		if delta, ok = lw.normalSolve(b); !ok {
+		if delta, ok = lw.normalSolve(b, k == 0); !ok {
 			return exact()
 		}
 		if k == csteps-1 {
@@ -350,44 +357,50 @@ func (lw *ltsWork) residualBound(b []float64) float64 {
 const ltsStartTerms = 4
 
 // normalSums brings the sums of the start work to the rows marked in
-// lw.cur by the cheapest of three ways: summing them afresh, taking the
-// other rows from the sums over all rows, or adding the rows that entered
-// and taking those that left since the sums were last formed.
-func (lw *ltsWork) normalSums() {
+// lw.cur. For the first refit of a start (first set) they are formed
+// afresh, from the rows of the subset or, when fewer, by taking the other
+// rows from the sums over all rows; for the next, the rows that entered
+// since lw.prev, the subset of the refit before, are added and those that
+// left are taken away.
+func (lw *ltsWork) normalSums(first bool) {
 	sw := &lw.start
-	n := lw.n
-	sub, chg := sw.list[:n+1], sw.list[n+1:2*n+2]
-	cur, in := lw.cur[:n], sw.inSums[:n]
-	// The rows of the subset from the front of sub, the others from the
-	// back; the rows that entered from the front of chg, those that left
-	// from the back.
-	k, o, e, l := 0, n, 0, n
-	for i, c := range cur {
-		ci, ii := boolInt(c), boolInt(in[i])
-		sub[k], sub[o] = i, i
-		chg[e], chg[l] = i, i
-		k += ci
-		o -= 1 - ci
-		e += ci &^ ii
-		l -= ii &^ ci
-		in[i] = c
+	n, h := lw.n, lw.h
+	list := sw.list[:n+1]
+	cur, prev := lw.cur[:n], lw.prev[:n]
+	if !first && sw.terms+n <= ltsStartTerms*n {
+		// The rows that entered from the front of list, those that left
+		// from the back.
+		e, l := 0, n
+		for i, c := range cur {
+			ci, pi := boolInt(c), boolInt(prev[i])
+			list[e], list[l] = i, i
+			e += ci &^ pi
+			l -= pi &^ ci
+		}
+		ltsAddRows(sw.sums, sw.prod, list[:e], sw.qp, false)
+		ltsAddRows(sw.sums, sw.prod, list[l+1:n+1], sw.qp, true)
+		sw.terms += e + n - l
+		return
 	}
-	changes := e + n - l
-	switch {
-	case sw.valid && changes <= min(k, n-k) && sw.terms+changes <= ltsStartTerms*n:
-		ltsAddRows(sw.sums, sw.prod, chg[:e], sw.qp, false)
-		ltsAddRows(sw.sums, sw.prod, chg[l+1:n+1], sw.qp, true)
-		sw.terms += changes
-	case k <= n-k:
+	if h <= n-h {
+		k := 0
+		for i, c := range cur {
+			list[k] = i
+			k += boolInt(c)
+		}
 		clear(sw.sums)
-		ltsAddRows(sw.sums, sw.prod, sub[:k], sw.qp, false)
+		ltsAddRows(sw.sums, sw.prod, list[:k], sw.qp, false)
 		sw.terms = k
-	default:
-		copy(sw.sums, sw.total)
-		ltsAddRows(sw.sums, sw.prod, sub[o+1:n+1], sw.qp, true)
-		sw.terms = n + n - k
+		return
 	}
-	sw.valid = true
+	k := 0
+	for i, c := range cur {
+		list[k] = i
+		k += 1 - boolInt(c)
+	}
+	copy(sw.sums, sw.total)
+	ltsAddRows(sw.sums, sw.prod, list[:k], sw.qp, true)
+	sw.terms = n + k
 }
 
 // ltsAddRows adds (or with sub set, subtracts) the rows listed of the
@@ -432,16 +445,17 @@ func ltsAddRows(acc, prod []float64, rows []int, qp int, sub bool) {
 	}
 }
 
-// normalSolve brings the sums to the subset marked in lw.cur (normalSums)
+// normalSolve brings the sums to the subset marked in lw.cur (normalSums,
+// with first)
 // and writes to b the least-squares fit to its rows by the normal
 // equations. It returns a bound on the distance of any residual at b from
 // the same residual at the Householder QR fit of refitQR, both as computed,
 // and reports false when the normal equations are refused or too
 // ill-conditioned for the bound.
-func (lw *ltsWork) normalSolve(b []float64) (delta float64, ok bool) {
+func (lw *ltsWork) normalSolve(b []float64, first bool) (delta float64, ok bool) {
 	p, h := lw.p, lw.h
 	sw := &lw.start
-	lw.normalSums()
+	lw.normalSums(first)
 	m, g, s := sw.m[:p*p], sw.g[:p], sw.scale[:p]
 	q := p * (p + 1) / 2
 	kl := 0
@@ -506,4 +520,96 @@ func (lw *ltsWork) normalSolve(b []float64) (delta float64, ok bool) {
 	// Rounding of the residuals themselves, at either fit.
 	dr := 2 * 1.01 * (fp + 1) * epsilon * lw.residualBound(b)
 	return ltsStartSafety * (xs*(dNE+dQR) + dr), true
+}
+
+// elementalQR puts into sw.b0 the fit through the p rows lw.idx[:p] by
+// Householder QR, as draw makes it, after givensSolve solved them. It
+// clears sw.approx.
+func (lw *ltsWork) elementalQR(x blas64.General, y []float64) {
+	p := lw.p
+	sw := &lw.start
+	a := lw.qa[:p*p]
+	for k, i := range lw.idx[:p] {
+		for j, v := range row(x, i) {
+			a[j*p+k] = v
+		}
+		lw.qy[k] = y[i]
+	}
+	// givensSolve accepts only rows whose factor passes the rank test of
+	// householderFactor by a wide margin (see there), so this succeeds.
+	householderSolve(a, p, p, lw.qy[:p], sw.b0, lw.rdiag, lw.cscale)
+	sw.approx = false
+	sw.resolved++
+}
+
+// givensSolve solves for the start of p rows whose factor draw holds in
+// lw.gr and sw.gqy, by back substitution, into lw.trial, and sets
+// sw.approx and sw.delta0, a bound on the distance of every residual at it
+// from the same residual at the Householder fit through the rows that draw
+// would otherwise make, both as computed. It reports false, changing
+// nothing, when the rows are too ill-conditioned for the bound.
+//
+// In coordinates scaled to unit column norms over the rows (R̃ = R·D, D =
+// diag(1/√gss)), both factorisations are backward stable: each solution
+// solves a problem within γ = 4p²·eps of the true one, relative to ‖X̃‖_F =
+// √p and ‖y‖ (Higham (2002), Accuracy and Stability of Numerical
+// Algorithms, 2nd ed., SIAM, §19.3 and §19.6, from memory, with a margin),
+// so each is within ‖R̃⁻¹‖·γ·(√p‖z‖ + ‖y‖)/(1 − ‖R̃⁻¹‖γ√p) of the exact
+// solution. Requiring ‖R̃⁻¹‖_F·γ·√p < 0.1 also keeps the diagonal of the
+// Householder factor (at least σ_min of the scaled rows less the
+// perturbation, so above 0.8/‖R̃⁻¹‖) far above the n·eps rank threshold of
+// householderFactor, so draw would have accepted the rows.
+func (lw *ltsWork) givensSolve() bool {
+	p := lw.p
+	sw := &lw.start
+	r, g := lw.gr[:p*p], lw.gss[:p]
+	// ‖R̃⁻¹‖²_F, column by column of R̃⁻¹ (R̃_ij = R_ij/√g_j).
+	var inv2 float64
+	u := sw.u[:p]
+	for j := 0; j < p; j++ {
+		for i := j; i >= 0; i-- {
+			var v float64
+			if i == j {
+				v = 1
+			}
+			for k := i + 1; k <= j; k++ {
+				v -= r[i*p+k] / math.Sqrt(g[k]) * u[k]
+			}
+			u[i] = v / (r[i*p+i] / math.Sqrt(g[i]))
+			inv2 += u[i] * u[i]
+		}
+	}
+	fp := float64(p)
+	gamma := 4.04 * fp * fp * epsilon
+	inv := math.Sqrt(inv2)
+	if !(inv*gamma*math.Sqrt(fp) < 0.1) {
+		return false
+	}
+	b := lw.trial[:p]
+	var yn float64
+	for k := p - 1; k >= 0; k-- {
+		s := sw.gqy[k]
+		yn += s * s
+		for j := k + 1; j < p; j++ {
+			s -= r[k*p+j] * b[j]
+		}
+		b[k] = s / r[k*p+k]
+	}
+	var zn, xs float64
+	for k, v := range b {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			return false
+		}
+		sg := math.Sqrt(g[k])
+		z := v * sg
+		zn += z * z
+		c := sw.colMax[k] / sg
+		xs += c * c
+	}
+	zn, xs, yn = math.Sqrt(zn), math.Sqrt(xs), math.Sqrt(yn)
+	dz := 2 * inv * gamma * (math.Sqrt(fp)*zn + yn) / (1 - inv*gamma*math.Sqrt(fp))
+	dr := 2 * 1.01 * (fp + 1) * epsilon * lw.residualBound(b)
+	sw.delta0 = ltsStartSafety * (xs*dz + dr)
+	sw.approx = true
+	return true
 }

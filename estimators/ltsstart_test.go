@@ -115,7 +115,7 @@ func ltsStartCases() []ltsStartCase {
 func TestLTSStartStepsExact(t *testing.T) {
 	var fast, slow ltsWork
 	slow.start.qrOnly = true
-	redone, refitted, starts := 0, 0, 0
+	redone, refitted, resolved, starts := 0, 0, 0, 0
 	for _, c := range ltsStartCases() {
 		raw := c.x.RawMatrix()
 		_, p := c.x.Dims()
@@ -139,14 +139,17 @@ func TestLTSStartStepsExact(t *testing.T) {
 					c.name, seed, b1, o1, s1, k1, st1, b2, o2, s2, k2, st2)
 			}
 			if seed == 1 {
-				t.Logf("%-28s %v: %4d starts redone by QR, %4d refitted by QR", c.name, st1, fast.start.redone, fast.start.refitted)
+				t.Logf("%-28s %v: %4d starts redone by QR, %4d refitted by QR, %4d solved again by QR",
+					c.name, st1, fast.start.redone, fast.start.refitted, fast.start.resolved)
 			}
+			resolved += fast.start.resolved
 			redone += fast.start.redone
 			refitted += fast.start.refitted
 			starts += c.s.withDefaults(c.x.Dims()).Subsets
 		}
 	}
-	t.Logf("all cases: %d of about %d starts redone by QR, %d refitted by QR at the end", redone, starts, refitted)
+	t.Logf("all cases: %d of about %d starts redone by QR, %d refitted by QR at the end, %d solved again by QR",
+		redone, starts, refitted, resolved)
 }
 
 // TestLTSSelectBits checks ltsSelectBits against a full sort, on values
