@@ -574,7 +574,7 @@ func ltsGivensAddRow(r, z []float64, p int, qy []float64, zy float64) {
 			continue
 		}
 		rk := r[k*p : (k+1)*p]
-		d := math.Hypot(rk[k], zk)
+		d := ltsHypot(rk[k], zk)
 		c, s := rk[k]/d, zk/d
 		rk[k] = d
 		for j := k + 1; j < p; j++ {
@@ -588,6 +588,27 @@ func ltsGivensAddRow(r, z []float64, p int, qy []float64, zy float64) {
 			zy = c*zy - s*t
 		}
 	}
+}
+
+// ltsHypot returns math.Hypot(p, q), bit for bit: the same special cases
+// and the same operations, max·√(1 + (min/max)²), as the standard library's
+// portable version and its amd64 assembly, but inlined into the rotations.
+func ltsHypot(p, q float64) float64 {
+	p, q = math.Abs(p), math.Abs(q)
+	if math.IsInf(p, 1) || math.IsInf(q, 1) {
+		return math.Inf(1)
+	}
+	if p != p || q != q {
+		return math.NaN()
+	}
+	if p < q {
+		p, q = q, p
+	}
+	if p == 0 {
+		return 0
+	}
+	q = q / p
+	return p * math.Sqrt(1+float64(q*q))
 }
 
 // givensFullRank applies the rank test of householderFactor to the factor in

@@ -57,20 +57,36 @@ func ltsSelectBits(a, buf []uint64, k int) uint64 {
 }
 
 // kthStart returns the h-th smallest of the squared residuals r2 (all ≥ 0
-// and not NaN), the value kth returns, by ltsSelectBits for the n below
+// and not NaN), the value kth returns: by ltsSelectBits for the n below
 // ltsWindowRows and by kth above.
 func (lw *ltsWork) kthStart(r2 []float64) float64 {
 	n := len(r2)
-	if n >= ltsWindowRows {
+	a := lw.startBits(n)
+	if a == nil {
 		return lw.kth(r2, lw.sel[:n])
+	}
+	for i, v := range r2 {
+		a[i] = math.Float64bits(v)
+	}
+	return lw.kthBits(n)
+}
+
+// startBits returns the buffer of kthBits for n values, or nil when n is
+// at least ltsWindowRows (kth then finds the value faster).
+func (lw *ltsWork) startBits(n int) []uint64 {
+	if n >= ltsWindowRows {
+		return nil
 	}
 	sw := &lw.start
 	if cap(sw.bits) < 2*n {
 		sw.bits = make([]uint64, 2*n)
 	}
-	a, buf := sw.bits[:n], sw.bits[n:2*n]
-	for i, v := range r2 {
-		a[i] = math.Float64bits(v)
-	}
-	return math.Float64frombits(ltsSelectBits(a, buf, lw.h-1))
+	return sw.bits[:n]
+}
+
+// kthBits returns the h-th smallest of the n values whose bits startBits'
+// buffer holds.
+func (lw *ltsWork) kthBits(n int) float64 {
+	bits := lw.start.bits
+	return math.Float64frombits(ltsSelectBits(bits[:n], bits[n:2*n], lw.h-1))
 }

@@ -277,13 +277,27 @@ func (lw *ltsWork) markFast(y, b []float64) (t, gap float64, ok bool) {
 	n, h := lw.n, lw.h
 	r2 := lw.r2[:n]
 	lw.sc.residuals(y, b, r2)
-	for i, r := range r2 {
-		if r != r {
-			return 0, 0, false
+	if a := lw.startBits(n); a != nil {
+		// The bits for the selection are written with the squares.
+		a = a[:n]
+		for i, r := range r2 {
+			if r != r {
+				return 0, 0, false
+			}
+			v := r * r
+			r2[i] = v
+			a[i] = math.Float64bits(v)
 		}
-		r2[i] = r * r
+		t = lw.kthBits(n)
+	} else {
+		for i, r := range r2 {
+			if r != r {
+				return 0, 0, false
+			}
+			r2[i] = r * r
+		}
+		t = lw.kth(r2, lw.sel[:n])
 	}
-	t = lw.kthStart(r2)
 	if !(t <= math.MaxFloat64/float64(2*h)) || lw.residualBound(b) > 1e300 {
 		return 0, 0, false
 	}
@@ -472,6 +486,9 @@ func (lw *ltsWork) normalSolve(b []float64, first bool) (delta float64, ok bool)
 	// m holds U with UᵀU = D M D, D = diag(s). ‖(UᵀU)⁻¹‖₂ ≤ ‖U⁻¹‖²_F.
 	var inv2 float64
 	u := sw.u[:p]
+	for i := 0; i < p; i++ {
+		m[i*p+i] = 1 / m[i*p+i]
+	}
 	for j := 0; j < p; j++ {
 		// Column j of U⁻¹: solve U u = e_j (u_i = 0 for i > j).
 		for i := j; i >= 0; i-- {
@@ -482,7 +499,7 @@ func (lw *ltsWork) normalSolve(b []float64, first bool) (delta float64, ok bool)
 			for k := i + 1; k <= j; k++ {
 				v -= m[i*p+k] * u[k]
 			}
-			u[i] = v / m[i*p+i]
+			u[i] = v * m[i*p+i]
 			inv2 += u[i] * u[i]
 		}
 	}
@@ -563,9 +580,23 @@ func (lw *ltsWork) givensSolve() bool {
 	p := lw.p
 	sw := &lw.start
 	r, g := lw.gr[:p*p], lw.gss[:p]
+	sg := sw.scale[:p]
+	for k, v := range g {
+		sg[k] = math.Sqrt(v)
+	}
 	// ‖R̃⁻¹‖²_F, column by column of R̃⁻¹ (R̃_ij = R_ij/√g_j).
 	var inv2 float64
-	u := sw.u[:p]
+	// sw.g holds 1/√g_k, sw.m R̃ with the reciprocals of its diagonal.
+	u, isg, rs := sw.u[:p], sw.g[:p], sw.m[:p*p]
+	for k, v := range sg {
+		isg[k] = 1 / v
+	}
+	for i := 0; i < p; i++ {
+		rs[i*p+i] = sg[i] / r[i*p+i]
+		for k := i + 1; k < p; k++ {
+			rs[i*p+k] = r[i*p+k] * isg[k]
+		}
+	}
 	for j := 0; j < p; j++ {
 		for i := j; i >= 0; i-- {
 			var v float64
@@ -573,9 +604,9 @@ func (lw *ltsWork) givensSolve() bool {
 				v = 1
 			}
 			for k := i + 1; k <= j; k++ {
-				v -= r[i*p+k] / math.Sqrt(g[k]) * u[k]
+				v -= rs[i*p+k] * u[k]
 			}
-			u[i] = v / (r[i*p+i] / math.Sqrt(g[i]))
+			u[i] = v * rs[i*p+i]
 			inv2 += u[i] * u[i]
 		}
 	}
@@ -600,10 +631,9 @@ func (lw *ltsWork) givensSolve() bool {
 		if math.IsNaN(v) || math.IsInf(v, 0) {
 			return false
 		}
-		sg := math.Sqrt(g[k])
-		z := v * sg
+		z := v * sg[k]
 		zn += z * z
-		c := sw.colMax[k] / sg
+		c := sw.colMax[k] / sg[k]
 		xs += c * c
 	}
 	zn, xs, yn = math.Sqrt(zn), math.Sqrt(xs), math.Sqrt(yn)

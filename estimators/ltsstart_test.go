@@ -177,3 +177,30 @@ func TestLTSSelectBits(t *testing.T) {
 		}
 	}
 }
+
+// TestLTSHypot: ltsHypot is math.Hypot bit for bit, on ordinary values,
+// values near underflow and overflow, zeros and the special values.
+func TestLTSHypot(t *testing.T) {
+	rng := rand.New(rand.NewPCG(10, 11))
+	special := []float64{0, math.Copysign(0, -1), 1, -1, math.SmallestNonzeroFloat64, math.MaxFloat64,
+		-math.MaxFloat64, math.Inf(1), math.Inf(-1), math.NaN(), 1e-300, 1e300}
+	check := func(p, q float64) {
+		got, want := ltsHypot(p, q), math.Hypot(p, q)
+		if math.Float64bits(got) != math.Float64bits(want) && !(math.IsNaN(got) && math.IsNaN(want)) {
+			t.Fatalf("ltsHypot(%v, %v) = %v, math.Hypot %v", p, q, got, want)
+		}
+	}
+	for _, p := range special {
+		for _, q := range special {
+			check(p, q)
+		}
+	}
+	for k := 0; k < 200000; k++ {
+		p := rng.NormFloat64() * math.Pow(10, float64(rng.IntN(601)-300))
+		q := rng.NormFloat64() * math.Pow(10, float64(rng.IntN(601)-300))
+		if k%2 == 0 {
+			q = p * (1 + rng.NormFloat64())
+		}
+		check(p, q)
+	}
+}
