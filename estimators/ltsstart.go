@@ -278,17 +278,33 @@ func (lw *ltsWork) markFast(y, b []float64) (t, gap float64, ok bool) {
 	r2 := lw.r2[:n]
 	lw.sc.residuals(y, b, r2)
 	if a := lw.startBits(n); a != nil {
-		// The bits for the selection are written with the squares.
-		a = a[:n]
+		// The first pass of ltsSelectBits is made with the squares: its
+		// pivot is the median of three of them, and each square goes to
+		// the side of the pivot it belongs to.
+		a, buf := a[:n], lw.start.bits[n:2*n]
+		x, y, z := r2[0], r2[n/2], r2[n-1]
+		xb, yb, zb := math.Float64bits(x*x), math.Float64bits(y*y), math.Float64bits(z*z)
+		piv := max(min(xb, yb), min(max(xb, yb), zb))
+		lo, hi := 0, n-1
 		for i, r := range r2 {
 			if r != r {
 				return 0, 0, false
 			}
 			v := r * r
 			r2[i] = v
-			a[i] = math.Float64bits(v)
+			vb := math.Float64bits(v)
+			buf[lo], buf[hi] = vb, vb
+			lo += boolInt(vb < piv)
+			hi -= boolInt(vb > piv)
 		}
-		t = lw.kthBits(n)
+		switch k := h - 1; {
+		case k < lo:
+			t = math.Float64frombits(ltsSelectBits(buf[:lo], a[:lo], k))
+		case k <= hi:
+			t = math.Float64frombits(piv)
+		default:
+			t = math.Float64frombits(ltsSelectBits(buf[hi+1:n], a[:n-hi-1], k-hi-1))
+		}
 	} else {
 		for i, r := range r2 {
 			if r != r {

@@ -105,6 +105,10 @@ func ltsStartCases() []ltsStartCase {
 	add("benchmark shape", bx, by, ltsSettings{})
 	lx, ly := simulated(36, 2000, 3, 0.15)
 	add("nested", lx, ly, ltsSettings{})
+	wx, wy := simulated(37, 1200, 3, 0.2)
+	add("windowed selection", wx, wy, ltsSettings{Subsets: 100})
+	ax, ay := simulated(38, 60, 4, 0.1)
+	add("all rows", ax, ay, ltsSettings{H: 60, Subsets: 100})
 	return cs
 }
 
