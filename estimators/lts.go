@@ -523,9 +523,10 @@ func (lw *ltsWork) draw(x blas64.General, y []float64, rng *rand.Rand) int {
 	}
 	clear(lw.gr)
 	clear(lw.gss)
-	// While starts runs with the column products, the response is
-	// rotated along, so that a start of p rows can be solved from the
-	// factor (startSteps then proves it good enough, ltsstart.go).
+	// While starts runs with the column products, a start of p rows is
+	// first solved by LU (luSolve), or else the response is rotated along,
+	// so that it can be solved from the factor (givensSolve); startSteps
+	// then proves either good enough (ltsstart.go).
 	var qy []float64
 	if lw.sc != nil && !lw.start.qrOnly {
 		qy = lw.start.gqy[:p]
@@ -540,8 +541,25 @@ func (lw *ltsWork) draw(x blas64.General, y []float64, rng *rand.Rand) int {
 			lw.gz[k] = v
 			lw.gss[k] += v * v
 		}
-		ltsGivensAddRow(lw.gr, lw.gz, p, qy, y[idx[m]])
 		rows := m + 1
+		switch {
+		case qy == nil || rows > p:
+			ltsGivensAddRow(lw.gr, lw.gz, p, qy, y[idx[m]])
+		case rows < p:
+			// The rotations wait: an LU factorisation of the first p
+			// rows may prove the rank test passed and solve the start.
+			continue
+		default:
+			if lw.luSolve(x, y) {
+				return rows
+			}
+			// Not proved: the p rows are rotated in, as they would have
+			// been one by one.
+			for _, i := range idx[:p] {
+				copy(lw.gz, row(x, i))
+				ltsGivensAddRow(lw.gr, lw.gz, p, qy, y[i])
+			}
+		}
 		if rows < p || !lw.givensFullRank(rows) {
 			continue
 		}

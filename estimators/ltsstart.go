@@ -49,6 +49,8 @@ type ltsStartWork struct {
 	yNorm  float64   // ‖y‖₂
 	bits   []uint64  // 2n, scratch of kthStart
 	gqy    []float64 // p, Qᵀy of the rows of a draw, rotated along by draw
+	lu     []float64 // p×p, the LU factors of luSolve
+	v      []float64 // p, scratch of luSolve
 	approx bool      // draw solved the start from its Givens factor (givensSolve)
 	delta0 float64   // then a bound on the distance of its residuals from the exact start's
 
@@ -77,7 +79,8 @@ func (lw *ltsWork) loadStart(cw *colWork, y []float64) {
 	grow(&sw.sums, qp)
 	grow(&sw.total, qp)
 	grow(&sw.m, p*p)
-	for _, s := range []*[]float64{&sw.g, &sw.scale, &sw.u, &sw.b0, &sw.colMax, &sw.colNrm, &sw.gqy} {
+	grow(&sw.lu, p*p)
+	for _, s := range []*[]float64{&sw.g, &sw.scale, &sw.u, &sw.b0, &sw.colMax, &sw.colNrm, &sw.gqy, &sw.v} {
 		grow(s, p)
 	}
 	if cap(sw.list) < n+1 {
@@ -654,6 +657,146 @@ func (lw *ltsWork) givensSolve() bool {
 	}
 	zn, xs, yn = math.Sqrt(zn), math.Sqrt(xs), math.Sqrt(yn)
 	dz := 2 * inv * gamma * (math.Sqrt(fp)*zn + yn) / (1 - inv*gamma*math.Sqrt(fp))
+	dr := 2 * 1.01 * (fp + 1) * epsilon * lw.residualBound(b)
+	sw.delta0 = ltsStartSafety * (xs*dz + dr)
+	sw.approx = true
+	return true
+}
+
+// luSolve solves for the start of the p rows lw.idx[:p] by LU with partial
+// pivoting of the rows with columns scaled to unit norm over them (Ã = X·D,
+// D = diag(1/√gss)), into lw.trial, and sets sw.approx and sw.delta0 as
+// givensSolve does. It reports false, changing nothing else, unless the
+// factors prove that the rank test of givensFullRank (and of
+// householderFactor) passes for these rows by a wide margin:
+//
+// Ã + E = LU with ‖E‖_F ≤ γ_LU·‖L‖_F‖U‖_F, γ_LU = (3p+1)·eps (Higham
+// (2002), Accuracy and Stability of Numerical Algorithms, 2nd ed., SIAM,
+// Thm 9.3, from memory, with the rounding of the scaling), so with
+// β = ‖U⁻¹‖_F‖L⁻¹‖_F ≥ ‖(LU)⁻¹‖₂, σ_min(Ã) ≥ 1/β − ‖E‖. The Givens factor
+// of the rows is that of Ã plus a perturbation of at most γ√p (γ = 4p²·eps,
+// as in givensSolve), so each of its scaled diagonal elements is at least
+// σ_min(Ã) − γ√p. Requiring β(γ_LU‖L‖‖U‖ + γ√p) < 0.1 keeps them above
+// 0.8/β, far above the rank threshold p·eps·max (the maximum is at most
+// about 1, the columns having unit norm). The LU solution is within
+// ‖Ã⁻¹‖‖E‖‖z‖ of the exact one, the Householder solution that draw would
+// make within ‖Ã⁻¹‖γ(√p‖z‖ + ‖y‖), with ‖Ã⁻¹‖ ≤ β/0.9.
+func (lw *ltsWork) luSolve(x blas64.General, y []float64) bool {
+	p := lw.p
+	sw := &lw.start
+	a, sc, yv := sw.lu[:p*p], sw.scale[:p], sw.v[:p]
+	for k, g := range lw.gss[:p] {
+		if !(g > 0) {
+			return false
+		}
+		sc[k] = 1 / math.Sqrt(g)
+	}
+	for r, i := range lw.idx[:p] {
+		for k, v := range row(x, i) {
+			a[r*p+k] = v * sc[k]
+		}
+		yv[r] = y[i]
+	}
+	// Elimination with row pivoting; L's multipliers below the diagonal.
+	for k := 0; k < p; k++ {
+		piv, big := k, math.Abs(a[k*p+k])
+		for r := k + 1; r < p; r++ {
+			if v := math.Abs(a[r*p+k]); v > big {
+				piv, big = r, v
+			}
+		}
+		if !(big > 0) {
+			return false
+		}
+		if piv != k {
+			for c := 0; c < p; c++ {
+				a[k*p+c], a[piv*p+c] = a[piv*p+c], a[k*p+c]
+			}
+			yv[k], yv[piv] = yv[piv], yv[k]
+		}
+		inv := 1 / a[k*p+k]
+		for r := k + 1; r < p; r++ {
+			l := a[r*p+k] * inv
+			a[r*p+k] = l
+			for c := k + 1; c < p; c++ {
+				a[r*p+c] -= l * a[k*p+c]
+			}
+		}
+	}
+	// ‖L‖_F, ‖U‖_F, and ‖L⁻¹‖²_F, ‖U⁻¹‖²_F column by column.
+	var ln, un, li, ui float64
+	u := sw.u[:p]
+	for j := 0; j < p; j++ {
+		for i := 0; i <= j; i++ {
+			un += a[i*p+j] * a[i*p+j]
+		}
+		ln++
+		for i := j + 1; i < p; i++ {
+			ln += a[i*p+j] * a[i*p+j]
+		}
+		// U⁻¹ e_j.
+		for i := j; i >= 0; i-- {
+			var v float64
+			if i == j {
+				v = 1
+			}
+			for k := i + 1; k <= j; k++ {
+				v -= a[i*p+k] * u[k]
+			}
+			u[i] = v / a[i*p+i]
+			ui += u[i] * u[i]
+		}
+		// L⁻¹ e_j (unit diagonal).
+		u[j] = 1
+		li++
+		for i := j + 1; i < p; i++ {
+			var v float64
+			for k := j; k < i; k++ {
+				v -= a[i*p+k] * u[k]
+			}
+			u[i] = v
+			li += v * v
+		}
+	}
+	fp := float64(p)
+	gLU := 1.01 * (3*fp + 1) * epsilon
+	gamma := 4.04 * fp * fp * epsilon
+	nLU := math.Sqrt(ln * un)
+	beta := math.Sqrt(li * ui)
+	if !(beta*(gLU*nLU+gamma*math.Sqrt(fp)) < 0.1) {
+		return false
+	}
+	// Solve L w = P y, U z = w; b = D z.
+	var yn float64
+	for i := 0; i < p; i++ {
+		yn += yv[i] * yv[i]
+		for k := 0; k < i; k++ {
+			yv[i] -= a[i*p+k] * yv[k]
+		}
+	}
+	b := lw.trial[:p]
+	var zn, xs float64
+	for i := p - 1; i >= 0; i-- {
+		s := yv[i]
+		for k := i + 1; k < p; k++ {
+			s -= a[i*p+k] * yv[k]
+		}
+		yv[i] = s / a[i*p+i]
+	}
+	for k, z := range yv {
+		if math.IsNaN(z) || math.IsInf(z, 0) {
+			return false
+		}
+		zn += z * z
+		c := sw.colMax[k] * sc[k]
+		xs += c * c
+	}
+	for k, z := range yv {
+		b[k] = z * sc[k]
+	}
+	zn, xs, yn = math.Sqrt(zn), math.Sqrt(xs), math.Sqrt(yn)
+	ainv := beta / 0.9
+	dz := ainv * (gLU*nLU*zn + gamma*(math.Sqrt(fp)*zn+yn))
 	dr := 2 * 1.01 * (fp + 1) * epsilon * lw.residualBound(b)
 	sw.delta0 = ltsStartSafety * (xs*dz + dr)
 	sw.approx = true

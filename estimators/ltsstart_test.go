@@ -208,3 +208,187 @@ func TestLTSHypot(t *testing.T) {
 		check(p, q)
 	}
 }
+
+// TestLTSElementalBounds checks the claims of luSolve and givensSolve on
+// random elemental subsets of well and badly conditioned designs: when
+// either accepts its rows, the rank tests of draw pass for them, the
+// Householder fit draw would make exists, and every residual at the
+// accepted fit lies within sw.delta0 of the same residual at the
+// Householder fit. It also requires both to accept most rows of a
+// well-conditioned design, or the fast paths would be dead code.
+func TestLTSElementalBounds(t *testing.T) {
+	rng := rand.New(rand.NewPCG(12, 13))
+	accepted, tried := [2]int{}, 0
+	var worst [2]float64 // largest residual difference over its bound
+	for trial := 0; trial < 3000; trial++ {
+		p := 1 + rng.IntN(colMaxP)
+		n := 3*p + rng.IntN(40)
+		x, y := simulated(uint64(trial), n, p, 0.2)
+		switch trial % 4 {
+		case 1: // near-collinear last column
+			if p > 2 {
+				e := math.Pow(10, -float64(rng.IntN(12)))
+				for i := 0; i < n; i++ {
+					x.Set(i, p-1, x.At(i, p-2)+e*rng.NormFloat64())
+				}
+			}
+		case 2: // badly scaled columns
+			for j := 0; j < p; j++ {
+				s := math.Pow(10, float64(rng.IntN(13)-6))
+				for i := 0; i < n; i++ {
+					x.Set(i, j, s*x.At(i, j))
+				}
+			}
+		case 3: // a column far from zero
+			off := math.Pow(10, float64(rng.IntN(9)))
+			for i := 0; i < n; i++ {
+				x.Set(i, p-1, off+x.At(i, p-1))
+			}
+		}
+		raw := x.RawMatrix()
+		var lw ltsWork
+		lw.reserve(n, p, (n+p+1)/2, 1)
+		lw.sc = lw.columns(raw)
+		lw.loadStart(lw.sc, y)
+		for i := range lw.idx {
+			lw.idx[i] = i
+		}
+		rng.Shuffle(n, func(a, b int) { lw.idx[a], lw.idx[b] = lw.idx[b], lw.idx[a] })
+		// The Givens factor and column sums as draw makes them.
+		clear(lw.gr)
+		clear(lw.gss)
+		qy := lw.start.gqy[:p]
+		clear(qy)
+		for _, i := range lw.idx[:p] {
+			for k, v := range row(raw, i) {
+				lw.gz[k] = v
+				lw.gss[k] += v * v
+			}
+			ltsGivensAddRow(lw.gr, lw.gz, p, qy, y[i])
+		}
+		rankOK := lw.givensFullRank(p)
+		a := make([]float64, p*p)
+		yy := make([]float64, p)
+		for k, i := range lw.idx[:p] {
+			for j, v := range row(raw, i) {
+				a[j*p+k] = v
+			}
+			yy[k] = y[i]
+		}
+		ref := make([]float64, p)
+		hhOK := householderSolve(a, p, p, yy, ref, make([]float64, p), make([]float64, p))
+		rRef := make([]float64, n)
+		lw.sc.residuals(y, ref, rRef)
+		tried++
+		for m, solve := range []func() bool{func() bool { return lw.luSolve(raw, y) }, lw.givensSolve} {
+			lw.start.approx = false
+			if !solve() {
+				continue
+			}
+			accepted[m]++
+			if !rankOK || !hhOK {
+				t.Fatalf("trial %d (p %d): method %d accepted rows that fail the rank test (Givens %v, Householder %v)", trial, p, m, rankOK, hhOK)
+			}
+			r := make([]float64, n)
+			lw.sc.residuals(y, lw.trial[:p], r)
+			for i := range r {
+				d := math.Abs(r[i] - rRef[i])
+				if !(d <= lw.start.delta0) {
+					t.Fatalf("trial %d (p %d): method %d residual %d off by %g, bound %g", trial, p, m, i, d, lw.start.delta0)
+				}
+				worst[m] = max(worst[m], d/lw.start.delta0)
+			}
+		}
+	}
+	t.Logf("of %d subsets, LU accepted %d, Givens %d; largest residual difference %.2g and %.2g of the bound",
+		tried, accepted[0], accepted[1], worst[0], worst[1])
+	if accepted[0] < tried/2 || accepted[1] < tried/2 {
+		t.Errorf("LU accepted %d and Givens %d of %d subsets, want most", accepted[0], accepted[1], tried)
+	}
+}
+
+// TestLTSNormalBound checks the claim of normalSolve on random h-subsets of
+// well and badly conditioned designs, with the sums formed afresh and
+// updated row by row: when it accepts a subset, refitQR fits it too, and
+// every residual at the normal-equation fit lies within the bound of the
+// same residual at the QR fit.
+func TestLTSNormalBound(t *testing.T) {
+	rng := rand.New(rand.NewPCG(14, 15))
+	accepted, tried := 0, 0
+	var worst float64
+	for trial := 0; trial < 600; trial++ {
+		p := 1 + rng.IntN(colMaxP)
+		n := 3*p + rng.IntN(200)
+		x, y := simulated(uint64(trial), n, p, 0.2)
+		switch trial % 4 {
+		case 1:
+			if p > 2 {
+				e := math.Pow(10, -float64(rng.IntN(8)))
+				for i := 0; i < n; i++ {
+					x.Set(i, p-1, x.At(i, p-2)+e*rng.NormFloat64())
+				}
+			}
+		case 2:
+			for j := 0; j < p; j++ {
+				s := math.Pow(10, float64(rng.IntN(13)-6))
+				for i := 0; i < n; i++ {
+					x.Set(i, j, s*x.At(i, j))
+				}
+			}
+		case 3:
+			off := math.Pow(10, float64(rng.IntN(7)))
+			for i := 0; i < n; i++ {
+				x.Set(i, p-1, off+x.At(i, p-1))
+			}
+		}
+		raw := x.RawMatrix()
+		var lw ltsWork
+		h := p + rng.IntN(n-p+1)
+		lw.reserve(n, p, h, 1)
+		lw.sc = lw.columns(raw)
+		lw.loadStart(lw.sc, y)
+		b, ref := make([]float64, p), make([]float64, p)
+		r, rRef := make([]float64, n), make([]float64, n)
+		for step := 0; step < 6; step++ {
+			// A random subset of h rows, or the last one with a few swapped.
+			lw.cur, lw.prev = lw.prev, lw.cur
+			if step == 0 || step%3 == 0 {
+				perm := rng.Perm(n)
+				clear(lw.cur[:n])
+				for _, i := range perm[:h] {
+					lw.cur[i] = true
+				}
+			} else {
+				copy(lw.cur[:n], lw.prev[:n])
+				for s := 0; s < 1+rng.IntN(5); s++ {
+					i, j := rng.IntN(n), rng.IntN(n)
+					if lw.cur[i] != lw.cur[j] {
+						lw.cur[i], lw.cur[j] = lw.cur[j], lw.cur[i]
+					}
+				}
+			}
+			tried++
+			delta, ok := lw.normalSolve(b, step == 0 || step%3 == 0)
+			if !ok {
+				continue
+			}
+			accepted++
+			if !lw.refitQR(raw, y, ref) {
+				t.Fatalf("trial %d step %d (n %d p %d h %d): normal equations accepted a subset QR finds singular", trial, step, n, p, h)
+			}
+			lw.sc.residuals(y, b, r)
+			lw.sc.residuals(y, ref, rRef)
+			for i := range r {
+				d := math.Abs(r[i] - rRef[i])
+				if !(d <= delta) {
+					t.Fatalf("trial %d step %d (n %d p %d h %d): residual %d off by %g, bound %g", trial, step, n, p, h, i, d, delta)
+				}
+				worst = max(worst, d/delta)
+			}
+		}
+	}
+	t.Logf("normal equations accepted %d of %d subsets; largest residual difference %.2g of the bound", accepted, tried, worst)
+	if accepted < tried/2 {
+		t.Errorf("normal equations accepted %d of %d subsets, want most", accepted, tried)
+	}
+}
