@@ -11,8 +11,9 @@ import (
 // A start's C-steps matter to the result only through the h-subsets they
 // select and through the coefficients and objective offered to the kept
 // list. startSteps therefore takes the intermediate refits by the normal
-// equations of the subset (their sums are inner products of the stored
-// columns, colkernel.go), which cost a fraction of a Householder QR, and
+// equations of the subset (sums over its rows of stored products x_i x_iᵀ
+// and x_i y_i, brought to the next subset by the rows that changed), which
+// cost a fraction of a Householder QR, and
 // proves after each of them that the subset it selects is the one the QR
 // refit would have selected: the gap between the h-th and the (h+1)-th
 // smallest |residual| must exceed twice a bound on how far any residual of
@@ -20,12 +21,17 @@ import (
 // first-order error bound for both solutions, Higham (2002), Accuracy and
 // Stability of Numerical Algorithms, 2nd ed., SIAM, §20.4 and §19.3, from
 // memory, with a safety factor). The last refit is redone by QR, as before,
-// when the start can enter the kept list; the bound also proves when it
-// cannot. Whenever a proof fails (ties or near-ties at the boundary, an
+// when the start can enter the kept list; the bound, with a lower bound on
+// the objective that needs no selection (objectiveBound), also proves when
+// it cannot. The elemental fit itself is solved by LU or from the Givens
+// factor of draw's rank test (luSolve, givensSolve) and proved in the same
+// way to select the subset of the Householder fit, or solved again by it.
+// Whenever a proof fails (ties or near-ties at the boundary, an
 // ill-conditioned subset, a refused factorisation, values near overflow)
 // the start is redone from its elemental fit by the QR C-steps of
 // offerSteps. So the kept list, and with it the fit, is bit-identical to the
-// one of offerSteps alone.
+// one of offerSteps alone (TestLTSStartStepsExact; TestLTSNormalBound and
+// TestLTSElementalBounds check the bounds).
 
 // ltsStartSafety multiplies the first-order error bounds.
 const ltsStartSafety = 4
@@ -51,13 +57,13 @@ type ltsStartWork struct {
 	gqy    []float64 // p, Qᵀy of the rows of a draw, rotated along by draw
 	lu     []float64 // p×p, the LU factors of luSolve
 	v      []float64 // p, scratch of luSolve
-	approx bool      // draw solved the start from its Givens factor (givensSolve)
+	approx bool      // draw solved the start by luSolve or givensSolve, not Householder QR
 	delta0 float64   // then a bound on the distance of its residuals from the exact start's
 
 	qrOnly bool // take every C-step by QR (offerSteps), for tests
 	// Counts of the starts since the fit began, for tests: redone by QR
-	// from the elemental fit, refitted by QR at the end, and solved from
-	// the Givens factor and then again by QR.
+	// from the elemental fit, refitted by QR at the end, and solved by
+	// luSolve or givensSolve and then again by Householder QR.
 	redone, refitted, resolved int
 }
 
