@@ -337,8 +337,9 @@ func (lw *ltsWork) starts(x blas64.General, y []float64, rng *rand.Rand, subsets
 		}
 		starts++
 		var sing bool
-		if lw.sc != nil && !lw.start.qrOnly {
+		if lw.startFast() {
 			sing = lw.startSteps(x, y, lw.trial, csteps, keep)
+			lw.start.giveUp(starts)
 		} else {
 			sing = lw.offerSteps(x, y, lw.trial, csteps, keep)
 		}
@@ -528,7 +529,7 @@ func (lw *ltsWork) draw(x blas64.General, y []float64, rng *rand.Rand) int {
 	// so that it can be solved from the factor (givensSolve); startSteps
 	// then proves either good enough (ltsstart.go).
 	var qy []float64
-	if lw.sc != nil && !lw.start.qrOnly {
+	if lw.startFast() {
 		qy = lw.start.gqy[:p]
 		clear(qy)
 	}

@@ -61,6 +61,8 @@ type ltsStartWork struct {
 	delta0 float64   // then a bound on the distance of its residuals from the exact start's
 
 	qrOnly bool // take every C-step by QR (offerSteps), for tests
+	off    bool // startSteps gave up on this design (giveUp)
+	never  bool // never give up, for tests
 	// Counts of the starts since the fit began, for tests: redone by QR
 	// from the elemental fit, refitted by QR at the end, and solved by
 	// luSolve or givensSolve and then again by Householder QR.
@@ -93,6 +95,7 @@ func (lw *ltsWork) loadStart(cw *colWork, y []float64) {
 		sw.list = make([]int, n+1)
 	}
 	sw.list = sw.list[:n+1]
+	sw.off = false
 	y = y[:n]
 	for i, yi := range y {
 		dst := sw.prod[i*qp : (i+1)*qp]
@@ -128,6 +131,30 @@ func (lw *ltsWork) loadStart(cw *colWork, y []float64) {
 		ym = math.Max(ym, math.Abs(v))
 	}
 	sw.yMax, sw.yNorm = ym, norm2(y)
+}
+
+// ltsStartTrial is the number of starts after which startSteps gives up on
+// a design when it had to redo most of them by QR.
+const ltsStartTrial = 16
+
+// startFast reports whether the starts take startSteps (and draw solves
+// them by luSolve or givensSolve): while starts runs with the column
+// products, unless startSteps gave up on the design.
+func (lw *ltsWork) startFast() bool {
+	return lw.sc != nil && !lw.start.qrOnly && !lw.start.off
+}
+
+// giveUp turns startSteps off for the rest of the starts on this design
+// when, after ltsStartTrial of them, more than half had to be redone by QR:
+// on designs whose subsets are too ill-conditioned for the normal
+// equations (a column far from zero beside the intercept, nearly collinear
+// columns), every start would pay for a proof that fails. The choice
+// depends only on the data and the draws, so the fit stays deterministic,
+// and either path gives the same fit.
+func (sw *ltsStartWork) giveUp(starts int) {
+	if starts == ltsStartTrial && 2*sw.redone > starts && !sw.never {
+		sw.off = true
+	}
 }
 
 // startSteps is offerSteps for a start with coefficients b (overwritten)

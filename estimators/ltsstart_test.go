@@ -117,8 +117,18 @@ func ltsStartCases() []ltsStartCase {
 // (offerSteps): coefficients, objective, scale, steps, status, and every
 // kept candidate with its objective and status.
 func TestLTSStartStepsExact(t *testing.T) {
+	for _, never := range []bool{false, true} {
+		t.Run(fmt.Sprintf("never give up %v", never), func(t *testing.T) { ltsStartStepsExact(t, never) })
+	}
+}
+
+// ltsStartStepsExact is TestLTSStartStepsExact, with startSteps giving up
+// on hard designs as it does in fits, or never (so that its proofs are
+// tried on every start of them).
+func ltsStartStepsExact(t *testing.T, never bool) {
 	var fast, slow ltsWork
 	slow.start.qrOnly = true
+	fast.start.never = never
 	redone, refitted, resolved, starts := 0, 0, 0, 0
 	for _, c := range ltsStartCases() {
 		raw := c.x.RawMatrix()
