@@ -142,6 +142,8 @@ type ltsWork struct {
 	nest *nestedWork // nested subsampling for large n, also for S (nested.go)
 	col  *colWork    // columns and their products for the searches (colkernel.go)
 	sc   *colWork    // col while starts runs on the design it holds, else nil
+
+	start ltsStartWork // C-steps of the starts by normal equations (ltsstart.go)
 }
 
 // reserve sizes the buffers for an n×p problem keeping h rows and up to keep
@@ -187,6 +189,7 @@ func (lw *ltsWork) reserve(n, p, h, keep int) {
 	lw.nKept = 0
 	lw.lastT = 0
 	lw.useGram, lw.gramOK = false, false
+	lw.start.redone, lw.start.refitted, lw.start.resolved = 0, 0, 0
 }
 
 // reserveGram sizes the buffers of refitGram and turns it on.
@@ -325,12 +328,22 @@ func (lw *ltsWork) fit(x blas64.General, y, beta []float64, rng *rand.Rand, s lt
 // of starts drawn and whether some start met a singular h-subset.
 func (lw *ltsWork) starts(x blas64.General, y []float64, rng *rand.Rand, subsets, csteps, keep int) (starts int, singular bool) {
 	lw.sc = lw.columns(x)
+	if lw.sc != nil {
+		lw.loadStart(lw.sc, y)
+	}
 	for attempts := 0; starts < subsets && attempts < ltsAttemptsPerSubset*subsets; attempts++ {
 		if lw.draw(x, y, rng) == 0 {
 			continue
 		}
 		starts++
-		if lw.offerSteps(x, y, lw.trial, csteps, keep) {
+		var sing bool
+		if lw.startFast() {
+			sing = lw.startSteps(x, y, lw.trial, csteps, keep)
+			lw.start.giveUp(starts)
+		} else {
+			sing = lw.offerSteps(x, y, lw.trial, csteps, keep)
+		}
+		if sing {
 			singular = true
 		}
 	}
@@ -511,6 +524,16 @@ func (lw *ltsWork) draw(x blas64.General, y []float64, rng *rand.Rand) int {
 	}
 	clear(lw.gr)
 	clear(lw.gss)
+	// While starts runs with the column products, a start of p rows is
+	// first solved by LU (luSolve), or else the response is rotated along,
+	// so that it can be solved from the factor (givensSolve); startSteps
+	// then proves either good enough (ltsstart.go).
+	var qy []float64
+	if lw.startFast() {
+		qy = lw.start.gqy[:p]
+		clear(qy)
+	}
+	lw.start.approx = false
 	for m := 0; m < h; m++ {
 		j := m + rng.IntN(n-m)
 		idx[m], idx[j] = idx[j], idx[m]
@@ -519,10 +542,30 @@ func (lw *ltsWork) draw(x blas64.General, y []float64, rng *rand.Rand) int {
 			lw.gz[k] = v
 			lw.gss[k] += v * v
 		}
-		ltsGivensAddRow(lw.gr, lw.gz, p)
 		rows := m + 1
+		switch {
+		case qy == nil || rows > p:
+			ltsGivensAddRow(lw.gr, lw.gz, p, qy, y[idx[m]])
+		case rows < p:
+			// The rotations wait: an LU factorisation of the first p
+			// rows may prove the rank test passed and solve the start.
+			continue
+		default:
+			if lw.luSolve(x, y) {
+				return rows
+			}
+			// Not proved: the p rows are rotated in, as they would have
+			// been one by one.
+			for _, i := range idx[:p] {
+				copy(lw.gz, row(x, i))
+				ltsGivensAddRow(lw.gr, lw.gz, p, qy, y[i])
+			}
+		}
 		if rows < p || !lw.givensFullRank(rows) {
 			continue
+		}
+		if rows == p && qy != nil && lw.givensSolve() {
+			return rows
 		}
 		a := lw.qa[:rows*p]
 		for k, i := range idx[:rows] {
@@ -541,15 +584,16 @@ func (lw *ltsWork) draw(x blas64.General, y []float64, rng *rand.Rand) int {
 // ltsGivensAddRow updates the upper triangular p×p factor r (row-major,
 // upper triangle used) of a set of rows to include the row z, which it
 // overwrites: Givens rotations zero z against the diagonal of r from left to
-// right.
-func ltsGivensAddRow(r, z []float64, p int) {
+// right. Unless qy is nil, the same rotations apply to qy (Qᵀ times the
+// responses of the rows) and the response zy of the new row.
+func ltsGivensAddRow(r, z []float64, p int, qy []float64, zy float64) {
 	for k := 0; k < p; k++ {
 		zk := z[k]
 		if zk == 0 {
 			continue
 		}
 		rk := r[k*p : (k+1)*p]
-		d := math.Hypot(rk[k], zk)
+		d := ltsHypot(rk[k], zk)
 		c, s := rk[k]/d, zk/d
 		rk[k] = d
 		for j := k + 1; j < p; j++ {
@@ -557,7 +601,33 @@ func ltsGivensAddRow(r, z []float64, p int) {
 			rk[j] = c*t + s*z[j]
 			z[j] = c*z[j] - s*t
 		}
+		if qy != nil {
+			t := qy[k]
+			qy[k] = c*t + s*zy
+			zy = c*zy - s*t
+		}
 	}
+}
+
+// ltsHypot returns math.Hypot(p, q), bit for bit: the same special cases
+// and the same operations, max·√(1 + (min/max)²), as the standard library's
+// portable version and its amd64 assembly, but inlined into the rotations.
+func ltsHypot(p, q float64) float64 {
+	p, q = math.Abs(p), math.Abs(q)
+	if math.IsInf(p, 1) || math.IsInf(q, 1) {
+		return math.Inf(1)
+	}
+	if p != p || q != q {
+		return math.NaN()
+	}
+	if p < q {
+		p, q = q, p
+	}
+	if p == 0 {
+		return 0
+	}
+	q = q / p
+	return p * math.Sqrt(1+float64(q*q))
 }
 
 // givensFullRank applies the rank test of householderFactor to the factor in

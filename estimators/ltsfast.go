@@ -44,19 +44,17 @@ func (lw *ltsWork) evaluate(x blas64.General, y, b []float64) (float64, bool) {
 	cur := lw.cur[:n]
 	// Usually one row holds t, and the subset is every row at most t: one
 	// pass marks it and adds the objective in row order.
-	// Written without a data-dependent branch: a row outside adds +0,
-	// which leaves the non-negative sum unchanged.
+	// Written without a data-dependent branch: a row outside adds +0 (the
+	// bits of its square masked off), which leaves the non-negative sum
+	// unchanged.
 	var q float64
 	atMost := 0
 	for i, v := range r2 {
 		in := v <= t
 		cur[i] = in
-		add, one := 0.0, 0
-		if in {
-			add, one = v, 1
-		}
+		one := boolInt(in)
 		atMost += one
-		q += add
+		q += math.Float64frombits(math.Float64bits(v) & -uint64(one))
 	}
 	if atMost == h {
 		return q, !math.IsInf(q, 0)
