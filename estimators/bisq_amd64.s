@@ -357,12 +357,13 @@ pdone:
 DATA posInf<>+0(SB)/8, $0x7ff0000000000000
 GLOBL posInf<>(SB), RODATA|NOPTR, $8
 
-// func residualsAbsAVX(y, xt, beta *float64, p, n int, r, a *float64) (top, sum float64)
+// func residualsAbsAVX(y, xt, beta *float64, p, n int, r, a *float64, square int) (top, sum float64)
 //
 // r_i = y_i − Σ_k beta_k·xt[k·n + i], subtracting in order of k, as
-// bisqResidualSumsAVX does; a_i = |r_i|; top is the largest a_i and sum
-// their sum in lanes (see absMaxSumAVX).
-TEXT ·residualsAbsAVX(SB), NOSPLIT, $0-72
+// bisqResidualSumsAVX does; a_i = |r_i|, or r_i² when square is not 0 (a
+// may then be r); top is the largest a_i and sum their sum in lanes (see
+// absMaxSumAVX).
+TEXT ·residualsAbsAVX(SB), NOSPLIT, $0-80
 	MOVQ         y+0(FP), SI
 	MOVQ         xt+8(FP), BX
 	MOVQ         beta+16(FP), R12
@@ -370,6 +371,7 @@ TEXT ·residualsAbsAVX(SB), NOSPLIT, $0-72
 	MOVQ         n+32(FP), CX
 	MOVQ         r+40(FP), DI
 	MOVQ         a+48(FP), R15
+	MOVQ         square+56(FP), R8
 	VBROADCASTSD absMask<>(SB), Y15
 	VXORPD       Y10, Y10, Y10 // max
 	VXORPD       Y11, Y11, Y11 // sum
@@ -397,6 +399,11 @@ rkloop:
 
 	VMOVUPD Y0, (DI)(AX*8)
 	VANDPD  Y0, Y15, Y2
+	CMPQ    R8, $0
+	JEQ     rabs
+	VMULPD  Y0, Y0, Y2
+
+rabs:
 	VMOVUPD Y2, (R15)(AX*8)
 	VMAXPD  Y2, Y10, Y10
 	VADDPD  Y2, Y11, Y11
@@ -432,6 +439,11 @@ rtkloop:
 
 	VMOVSD X0, (DI)(AX*8)
 	VANDPD X15, X0, X2
+	CMPQ   R8, $0
+	JEQ    rtabs
+	VMULSD X0, X0, X2
+
+rtabs:
 	VMOVSD X2, (R15)(AX*8)
 	VMAXSD X2, X10, X10
 	VADDSD X2, X11, X11
@@ -440,7 +452,7 @@ rtkloop:
 	JL     rtailloop
 
 rdone:
-	VMOVSD X10, top+56(FP)
-	VMOVSD X11, sum+64(FP)
+	VMOVSD X10, top+64(FP)
+	VMOVSD X11, sum+72(FP)
 	VZEROUPPER
 	RET

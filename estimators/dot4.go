@@ -113,3 +113,19 @@ func residualsAbsGo(y, xt, beta, r, a []float64) (top, sum float64) {
 	}
 	return absMaxSumGo(r, a)
 }
+
+// residualsSquaresGo is residualsSquares in Go.
+func residualsSquaresGo(y, xt, beta, r2 []float64) (top, sum float64) {
+	n := len(r2)
+	for i := range r2 {
+		ri := y[i]
+		for k, bk := range beta {
+			ri -= bk * xt[k*n+i]
+		}
+		v := ri * ri
+		r2[i] = v
+		top = max(top, v)
+		sum += v
+	}
+	return top, sum
+}

@@ -135,7 +135,7 @@ func splitAt(a []float64, x float64) (below, above float64) {
 // residualsAbsAVX is residualsAbs by AVX instructions (bisq_amd64.s).
 //
 //go:noescape
-func residualsAbsAVX(y, xt, beta *float64, p, n int, r, a *float64) (top, sum float64)
+func residualsAbsAVX(y, xt, beta *float64, p, n int, r, a *float64, square int) (top, sum float64)
 
 // residualsAbs sets r = y − Xβ from the columns of X (xt, as for
 // bisqResidualSums) and a_i = |r_i|, and returns the largest a_i and their
@@ -148,7 +148,23 @@ func residualsAbs(y, xt, beta, r, a []float64) (top, sum float64) {
 	}
 	_, _, _ = y[n-1], xt[p*n-1], a[n-1]
 	if useAVX {
-		return residualsAbsAVX(&y[0], &xt[0], &beta[0], p, n, &r[0], &a[0])
+		return residualsAbsAVX(&y[0], &xt[0], &beta[0], p, n, &r[0], &a[0], 0)
 	}
 	return residualsAbsGo(y, xt, beta, r, a)
+}
+
+// residualsSquares sets r2 to the squares of the residuals y − Xβ, formed
+// as residualsAbs forms them (the same bits as colWork.residuals), and
+// returns the largest square and the squares' sum, NaN or Inf when a
+// residual is NaN or a square overflows.
+func residualsSquares(y, xt, beta, r2 []float64) (top, sum float64) {
+	n, p := len(r2), len(beta)
+	if n == 0 || p == 0 {
+		return residualsSquaresGo(y, xt, beta, r2)
+	}
+	_, _ = y[n-1], xt[p*n-1]
+	if useAVX {
+		return residualsAbsAVX(&y[0], &xt[0], &beta[0], p, n, &r2[0], &r2[0], 1)
+	}
+	return residualsSquaresGo(y, xt, beta, r2)
 }

@@ -34,3 +34,9 @@ func splitAt(a []float64, x float64) (below, above float64) { return splitAtGo(a
 func residualsAbs(y, xt, beta, r, a []float64) (top, sum float64) {
 	return residualsAbsGo(y, xt, beta, r, a)
 }
+
+// residualsSquares sets r2 to the squared residuals y − Xβ and returns the
+// largest and their sum (residualsSquaresGo).
+func residualsSquares(y, xt, beta, r2 []float64) (top, sum float64) {
+	return residualsSquaresGo(y, xt, beta, r2)
+}

@@ -53,7 +53,6 @@ type ltsStartWork struct {
 	colMax []float64 // p, max_i |x_ik|
 	yMax   float64   // max_i |y_i|
 	yNorm  float64   // ‖y‖₂
-	bits   []uint64  // 2n, scratch of kthStart
 	gqy    []float64 // p, Qᵀy of the rows of a draw, rotated along by draw
 	lu     []float64 // p×p, the LU factors of luSolve
 	v      []float64 // p, scratch of luSolve
@@ -312,36 +311,16 @@ func (lw *ltsWork) objectiveBound(y, b []float64, tau float64) (float64, bool) {
 func (lw *ltsWork) markFast(y, b []float64) (t, gap float64, ok bool) {
 	n, h := lw.n, lw.h
 	r2 := lw.r2[:n]
-	lw.sc.residuals(y, b, r2)
-	if a := lw.startBits(n); a != nil {
-		// The first pass of ltsSelectBits is made with the squares: its
-		// pivot is the median of three of them, and each square goes to
-		// the side of the pivot it belongs to.
-		a, buf := a[:n], lw.start.bits[n:2*n]
-		x, y, z := r2[0], r2[n/2], r2[n-1]
-		xb, yb, zb := math.Float64bits(x*x), math.Float64bits(y*y), math.Float64bits(z*z)
-		piv := max(min(xb, yb), min(max(xb, yb), zb))
-		lo, hi := 0, n-1
-		for i, r := range r2 {
-			if r != r {
-				return 0, 0, false
-			}
-			v := r * r
-			r2[i] = v
-			vb := math.Float64bits(v)
-			buf[lo], buf[hi] = vb, vb
-			lo += boolInt(vb < piv)
-			hi -= boolInt(vb > piv)
+	if n < ltsWindowRows {
+		// The squares in one vector pass, with the same residuals as
+		// colWork.residuals; the h-th smallest by counting (orderPair).
+		top, sum := residualsSquares(y, lw.sc.xt, b, r2)
+		if math.IsNaN(sum) || math.IsInf(sum, 0) {
+			return 0, 0, false // a NaN residual, or squares too large
 		}
-		switch k := h - 1; {
-		case k < lo:
-			t = math.Float64frombits(ltsSelectBits(buf[:lo], a[:lo], k))
-		case k <= hi:
-			t = math.Float64frombits(piv)
-		default:
-			t = math.Float64frombits(ltsSelectBits(buf[hi+1:n], a[:n-hi-1], k-hi-1))
-		}
+		t, _ = orderPair(r2, lw.sel[:n], h-1, h-1, top)
 	} else {
+		lw.sc.residuals(y, b, r2)
 		for i, r := range r2 {
 			if r != r {
 				return 0, 0, false

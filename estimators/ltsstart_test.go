@@ -4,7 +4,6 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
-	"slices"
 	"testing"
 
 	"gonum.org/v1/gonum/mat"
@@ -164,32 +163,6 @@ func ltsStartStepsExact(t *testing.T, never bool) {
 	}
 	t.Logf("all cases: %d of about %d starts redone by QR, %d refitted by QR at the end, %d solved again by QR",
 		redone, starts, refitted, resolved)
-}
-
-// TestLTSSelectBits checks ltsSelectBits against a full sort, on values
-// with many ties and without.
-func TestLTSSelectBits(t *testing.T) {
-	rng := rand.New(rand.NewPCG(8, 9))
-	for trial := 0; trial < 2000; trial++ {
-		n := 1 + rng.IntN(300)
-		a := make([]uint64, n)
-		for i := range a {
-			switch trial % 3 {
-			case 0:
-				a[i] = math.Float64bits(rng.ExpFloat64())
-			case 1:
-				a[i] = uint64(rng.IntN(1 + n/4))
-			default:
-				a[i] = uint64(rng.IntN(3))
-			}
-		}
-		sorted := append([]uint64(nil), a...)
-		slices.Sort(sorted)
-		k := rng.IntN(n)
-		if got := ltsSelectBits(a, make([]uint64, n), k); got != sorted[k] {
-			t.Fatalf("n %d k %d: got %d, want %d", n, k, got, sorted[k])
-		}
-	}
 }
 
 // TestLTSHypot: ltsHypot is math.Hypot bit for bit, on ordinary values,

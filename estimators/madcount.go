@@ -47,16 +47,8 @@ const madCountRounds = 12
 const madCountGather = 12
 
 // madCount is MAD(r, buf), the same value, found mostly by counting rather
-// than by moving values: the middle order statistics of |r| are
-// bracketed by counting the values below trial points (countBelow, a
-// vector pass), each trial interpolated between the bracket's ends by
-// their counts (every third round halving the bracket instead, so that
-// progress is certain), until the bracket holds just the one or two
-// values wanted, which the smallest at or above its lower end and the
-// largest below its upper end then are (splitAt). A trial with exactly
-// n/2 values below it, for even n, settles both middle values at once.
-// Where ties keep the bracket from tightening, its values are gathered and
-// selected among. On the 100 residuals of an elemental fit it takes about
+// than by moving values: the middle order statistics of |r| come from
+// orderPair. On the 100 residuals of an elemental fit it takes about
 // five counts and half the time of madFast. buf and tmp must have at least
 // len(r) elements; both are overwritten. NaN in r gives MAD's result.
 func madCount(r, buf, tmp []float64) float64 {
@@ -75,25 +67,43 @@ func madCountAbs(r, buf, tmp []float64, top, sum float64) float64 {
 	if n < 2*madCountGather || math.IsNaN(sum) || math.IsInf(sum, 0) {
 		return MAD(r, buf) // short, NaN, or values too large to sum
 	}
-	a := buf[:n]
-	// The order statistics wanted are a_(first) ≤ a_(k) (0-based); first
-	// = k for odd n. Invariants: cLo = #{a < lo} ≤ first, and cHi = #{a <
-	// hi} > k, so both lie in [lo, hi).
 	k := n / 2
-	first := k
-	if n%2 == 0 {
-		first = k - 1
+	if n%2 == 1 {
+		v, _ := orderPair(buf[:n], tmp, k, k, top)
+		return v / MADConsistency
 	}
+	lo, hi := orderPair(buf[:n], tmp, k-1, k, top)
+	return (lo/2 + hi/2) / MADConsistency
+}
+
+// orderPair returns the first-th and last-th smallest (0-based; last is
+// first or first + 1) of the values a, none negative, infinite or NaN,
+// the largest of which is top; tmp, at least len(a) long, is scratch, and
+// a is left as it was. It brackets them by counting the values below
+// trial points (countBelow, a vector pass), each trial interpolated
+// between the bracket's ends by their counts (every third round halving
+// the bracket instead, so that progress is certain), until the bracket
+// holds just the values wanted, which the smallest at or above its lower
+// end and the largest below its upper end then are (splitAt). For last =
+// first + 1 a trial with last values below it settles both at once. Where
+// ties keep the bracket from tightening, its values are gathered and
+// selected among.
+func orderPair(a, tmp []float64, first, last int, top float64) (vFirst, vLast float64) {
+	n := len(a)
+	// Invariants: cLo = #{a < lo} ≤ first and cHi = #{a < hi} > last, so
+	// both lie in [lo, hi).
 	lo, cLo := 0.0, 0
 	hi, cHi := math.Nextafter(top, math.Inf(1)), n
-	// The first trial: the median of three spread values.
-	x := median3(a[n/4], a[n/2], a[3*n/4])
-	// want is the count below a trial that would settle the bracket: k
-	// for even n, between a_(k−1) and a_(k); k + ½ for odd n.
-	want := float64(k) + 0.5*float64(n%2)
-	// The bracket is tight when it holds only the values wanted: then the
-	// smallest at or above lo and the largest below hi are they.
-	tight := func() bool { return cLo == first && cHi == k+1 }
+	// The first trial: the median of three spread values, taken where
+	// the wanted values would sit in sorted order.
+	x := median3(a[first/2], a[first], a[min(first+(n-first)/2, n-1)])
+	// want is the count below a trial that would settle the bracket:
+	// last for a pair, between them; first + ½ for one value.
+	want := float64(first) + 0.5
+	if last > first {
+		want = float64(last)
+	}
+	tight := func() bool { return cLo == first && cHi == last+1 }
 	for round := 0; round < madCountRounds && !tight(); round++ {
 		if !(x > lo && x < hi) {
 			x = lo + (hi-lo)/2
@@ -103,32 +113,25 @@ func madCountAbs(r, buf, tmp []float64, top, sum float64) float64 {
 		case c <= first:
 			// At most first values lie below x: a_(first) ≥ x.
 			lo, cLo = x, c
-		case c > k:
-			// a_(k) < x.
+		case c > last:
+			// a_(last) < x.
 			hi, cHi = x, c
 		default:
-			// Even n and c = k: a_(k−1) < x ≤ a_(k), the largest value
-			// below x and the smallest at or above it.
-			below, above := splitAt(a, x)
-			return (below/2 + above/2) / MADConsistency
+			// last = first + 1 and c = last: a_(first) < x ≤ a_(last),
+			// the largest value below x and the smallest at or above it.
+			return splitAt(a, x)
 		}
-		// The next trial, interpolated on the counts; every third round
-		// halves the bracket instead, so that progress is certain.
 		x = lo + (hi-lo)*(want-float64(cLo))/float64(cHi-cLo)
 		if round%3 == 2 {
 			x = lo + (hi-lo)/2
 		}
 	}
 	if tight() {
-		_, loV := splitAt(a, lo)
-		hiV, _ := splitAt(a, hi)
-		if n%2 == 1 {
-			return hiV / MADConsistency
-		}
-		return (loV/2 + hiV/2) / MADConsistency
+		_, vFirst = splitAt(a, lo)
+		vLast, _ = splitAt(a, hi)
+		return vFirst, vLast
 	}
-	// Ties kept the bracket from tightening: gather [lo, hi), the cHi −
-	// cLo values there (cLo values lie below), and select among them.
+	// Gather [lo, hi): the cHi − cLo values there (cLo values lie below).
 	m := tmp[:n]
 	g := 0
 	for _, v := range a {
@@ -136,27 +139,22 @@ func madCountAbs(r, buf, tmp []float64, top, sum float64) float64 {
 		g += boolInt(v >= lo) & lessInt(v, hi)
 	}
 	m = m[:g]
-	var hiV, loV float64
 	if g <= madCountGather {
 		insertionSort(m)
-		hiV, loV = m[k-cLo], m[first-cLo]
-	} else {
-		// Many equal values kept the bracket wide.
-		hiV = selectFast(m, k-cLo)
-		loV = hiV
-		if first < k {
-			// cLo ≤ first, so m[:k−cLo] is not empty; it holds the
-			// values at most hiV.
-			loV = m[0]
-			for _, v := range m[1 : k-cLo] {
-				loV = math.Max(loV, v)
-			}
+		return m[first-cLo], m[last-cLo]
+	}
+	// Many equal values kept the bracket wide.
+	vLast = selectFast(m, last-cLo)
+	vFirst = vLast
+	if first < last {
+		// m[:last−cLo] holds the values at most vLast, and is not empty
+		// since cLo ≤ first.
+		vFirst = m[0]
+		for _, v := range m[1 : last-cLo] {
+			vFirst = math.Max(vFirst, v)
 		}
 	}
-	if n%2 == 1 {
-		return hiV / MADConsistency
-	}
-	return (loV/2 + hiV/2) / MADConsistency
+	return vFirst, vLast
 }
 
 // median3 returns the median of three values (none NaN).
