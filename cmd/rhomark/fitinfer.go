@@ -1,9 +1,9 @@
 package main
 
 import (
-	"bytes"
 	"encoding/csv"
 	"fmt"
+	"io"
 	"maps"
 	"math"
 	"slices"
@@ -21,18 +21,24 @@ import (
 // covariance estimate (Workspace.StandardErrors) and quantiles a run uses
 // for its coverage: Student's t on n−p degrees of freedom for least
 // squares, the normal quantile (Wald) for M-estimators. ws must hold the
-// fit just made. Where there is no covariance estimate it says why.
-func addInference(fj *fitJSON, est estimators.Estimator, x *mat.Dense, ws *estimators.Workspace, res *estimators.Result, names []string) {
+// fit just made. Where there is no covariance estimate it says why. The
+// maps and the scratch are buf's, which the next call reuses.
+func addInference(fj *fitJSON, est estimators.Estimator, x *mat.Dense, ws *estimators.Workspace, res *estimators.Result, names []string, buf *fitBuffers) {
 	n, p := x.Dims()
-	se := make([]float64, p)
+	se := grow(&buf.se, p)
+	clear(se)
 	if !ws.StandardErrors(est, x, res, se) {
 		fj.NoStandardErrors = est.NoStandardErrorsReason(res, n, p)
 		return
 	}
 	q, rule := est.Method.Info().Inference.Quantile(0.975, n, p)
 	fj.IntervalRule = rule
-	fj.StandardErrors = map[string]jsonFloat{}
-	fj.Intervals = map[string][2]jsonFloat{}
+	fj.StandardErrors = buf.numMap(&buf.standardErrors)
+	if buf.intervals == nil {
+		buf.intervals = map[string][2]jsonFloat{}
+	}
+	clear(buf.intervals)
+	fj.Intervals = buf.intervals
 	for k, name := range names {
 		b := res.Coefficients[k]
 		fj.StandardErrors[name] = jsonFloat(se[k])
@@ -42,7 +48,8 @@ func addInference(fj *fitJSON, est estimators.Estimator, x *mat.Dense, ws *estim
 
 // observations returns each row's residual, scaled residual, final weight
 // and outlier flag (|residual/scale| > cut) after a fit of est. Row and
-// Line are left for the caller. buf's r and w are scratch.
+// Line are left for the caller. buf's r and w are scratch, and the
+// observations are in buf's storage, which the next call reuses.
 func observations(est estimators.Estimator, x *mat.Dense, y []float64, res *estimators.Result, cut float64, buf *fitBuffers) []fitObservation {
 	n, p := x.Dims()
 	r := grow(&buf.r, n)
@@ -62,7 +69,7 @@ func observations(est estimators.Estimator, x *mat.Dense, y []float64, res *esti
 	}
 	w := grow(&buf.w, n)
 	est.Weights(r, sigma, p, w)
-	out := make([]fitObservation, n)
+	out := grow(&buf.obs, n)
 	for i, v := range r {
 		u := scaled(v)
 		out[i] = fitObservation{Resid: jsonFloat(v), Scaled: jsonFloat(u), Weight: jsonFloat(w[i]), Flag: math.Abs(u) > cut}
@@ -70,43 +77,43 @@ func observations(est estimators.Estimator, x *mat.Dense, y []float64, res *esti
 	return out
 }
 
-// weightsCSV renders every fitted row as CSV: group (with --group), row,
-// line, residual, scaled residual, weight and outlier flag. Numbers are in
-// the shortest form that reads back to the same float64; a missing value
-// (no weight, no scale) is empty.
-func weightsCSV(out fitOutput, withGroup bool) []byte {
-	var b bytes.Buffer
-	w := csv.NewWriter(&b)
+// weightsHeader returns the header of the --weights CSV: group (with
+// --group), row, line, residual, scaled residual, weight and outlier flag.
+func weightsHeader(withGroup bool) []string {
 	head := []string{"row", "line", "residual", "scaled_residual", "weight", "outlier"}
 	if withGroup {
 		head = append([]string{"group"}, head...)
 	}
-	w.Write(head)
+	return head
+}
+
+// writeWeightsCSV writes each fitted row of fit to w as CSV, in the
+// columns of weightsHeader. Numbers are in the shortest form that reads
+// back to the same float64; a missing value (no weight, no scale) is
+// empty.
+func writeWeightsCSV(w *csv.Writer, fit *fitJSON, withGroup bool) {
 	f := func(v jsonFloat) string {
 		if math.IsNaN(float64(v)) || math.IsInf(float64(v), 0) {
 			return ""
 		}
 		return strconv.FormatFloat(float64(v), 'g', -1, 64)
 	}
-	for _, fit := range out.Fits {
-		for _, o := range fit.Observations {
-			rec := []string{strconv.Itoa(o.Row), strconv.Itoa(o.Line), f(o.Resid), f(o.Scaled), f(o.Weight), strconv.FormatBool(o.Flag)}
-			if withGroup {
-				rec = append([]string{fit.Group}, rec...)
-			}
-			w.Write(rec)
+	for _, o := range fit.Observations {
+		rec := []string{strconv.Itoa(o.Row), strconv.Itoa(o.Line), f(o.Resid), f(o.Scaled), f(o.Weight), strconv.FormatBool(o.Flag)}
+		if withGroup {
+			rec = append([]string{fit.Group}, rec...)
 		}
+		w.Write(rec)
 	}
-	w.Flush()
-	return b.Bytes()
 }
 
-// writeFitTable prints fits for a terminal: the rules in a header, then per
-// fit the coefficients with their standard errors and 95% intervals, and
-// the flagged rows.
-func writeFitTable(e env, out fitOutput) {
-	w := e.stdout
-	es := out.Estimator
+// fit's table, for a terminal, is the rules in a header
+// (writeFitTableHead), then per fit the coefficients with their standard
+// errors and 95% intervals, and the flagged rows (writeFitTableFit), and a
+// closing line (writeFitTableTail).
+
+// writeFitTableHead prints the table's header: the estimator's rules.
+func writeFitTableHead(w io.Writer, es fitEstimator) {
 	title := es.Method
 	if es.psiDesc != "" {
 		title += " · " + es.psiDesc
@@ -116,11 +123,15 @@ func writeFitTable(e env, out fitOutput) {
 	fmt.Fprintf(w, "  scale    %s\n", es.ScaleRule)
 	fmt.Fprintf(w, "  weights  %s\n", es.Weights)
 	fmt.Fprintf(w, "  outliers rows with |residual / scale| > %s\n", strconv.FormatFloat(es.OutlierCut, 'g', -1, 64))
-	for _, f := range out.Fits {
+}
+
+// writeFitTableFit prints one fit of the table.
+func writeFitTableFit(w io.Writer, f *fitJSON) {
+	{
 		fmt.Fprintf(w, "\n ▸ group %s · %d rows · %s", f.Group, f.Rows, f.Status)
 		if f.Error != "" {
 			fmt.Fprintf(w, ": %s\n", f.Error)
-			continue
+			return
 		}
 		if f.Iterations > 0 {
 			fmt.Fprintf(w, " after %d iterations", f.Iterations)
@@ -168,6 +179,10 @@ func writeFitTable(e env, out fitOutput) {
 			fmt.Fprintf(w, "   outliers: %d of %d rows: %s\n", len(flagged), f.Rows, strings.Join(flagged, ", "))
 		}
 	}
+}
+
+// writeFitTableTail prints the table's closing line.
+func writeFitTableTail(w io.Writer) {
 	fmt.Fprintln(w, "\nEvery row's residual, weight and flag: --json, or --weights FILE.")
 }
 
@@ -196,10 +211,25 @@ func (j *jsonIndent) next() {
 }
 
 func (j *jsonIndent) newline() {
+	if n := 1 + 2*j.depth; n <= len(jsonIndents) {
+		j.b = append(j.b, jsonIndents[:n]...)
+		return
+	}
 	j.b = append(j.b, '\n')
 	for i := 0; i < j.depth; i++ {
 		j.b = append(j.b, ' ', ' ')
 	}
+}
+
+// jsonIndents starts the lines of the first levels: a new line and two
+// spaces a level.
+const jsonIndents = "\n                                                                "
+
+// member starts a member whose key needs no escaping, given quoted and
+// with its colon and space: `"key": `.
+func (j *jsonIndent) member(quoted string) {
+	j.next()
+	j.b = append(j.b, quoted...)
 }
 
 // key starts the member k.
@@ -432,12 +462,18 @@ func appendFitJSON(j *jsonIndent, f *fitJSON, sorted []string) {
 			o := &f.Observations[i]
 			j.next()
 			j.open('{')
-			j.int("row", o.Row)
-			j.int("line", o.Line)
-			j.num("residual", o.Resid)
-			j.num("scaled_residual", o.Scaled)
-			j.num("weight", o.Weight)
-			j.bool("outlier", o.Flag)
+			j.member(`"row": `)
+			j.b = strconv.AppendInt(j.b, int64(o.Row), 10)
+			j.member(`"line": `)
+			j.b = strconv.AppendInt(j.b, int64(o.Line), 10)
+			j.member(`"residual": `)
+			j.b = appendJSONNum(j.b, o.Resid)
+			j.member(`"scaled_residual": `)
+			j.b = appendJSONNum(j.b, o.Scaled)
+			j.member(`"weight": `)
+			j.b = appendJSONNum(j.b, o.Weight)
+			j.member(`"outlier": `)
+			j.b = strconv.AppendBool(j.b, o.Flag)
 			j.close('}')
 		}
 		j.close(']')
