@@ -167,50 +167,11 @@ func fitCmd(e env, args []string) error {
 	if intercept {
 		names = append([]string{"intercept"}, names...)
 	}
-	// Each group is written as soon as it is fitted: nothing of a group
-	// is kept past it, and one workspace, result, record and set of
-	// buffers serve every group (a fit depends only on its data and the
-	// seed given to the workspace).
 	out := newFitWriter(e.stdout, desc, names, *asJSON, *weightsOut != "", *group != "")
-	failed := 0
-	var ws estimators.Workspace
-	var res estimators.Result
-	var buf fitBuffers
-	var fj fitJSON
-	for _, g := range design.groups {
-		x, y, err := design.matricesInto(t, g.rows, intercept, &buf)
-		if err != nil {
-			return err
-		}
-		fj = fitJSON{Group: g.name, Rows: len(g.rows), Order: names}
-		ws.SeedRandom(seed.or(1), 0)
-		err = est.Fit(x, y, &ws, &res)
-		if err != nil {
-			fj.Status, fj.Error = "not-fitted", err.Error()
-			failed++
-		} else {
-			fj.Coefficients = buf.numMap(&buf.coefficients)
-			for k, n := range names {
-				fj.Coefficients[n] = jsonFloat(res.Coefficients[k])
-			}
-			fj.Scale, fj.Iterations, fj.Status = jsonFloat(res.Scale), res.Iterations, res.Status.String()
-			fj.Converged, fj.EquationNorm, fj.Objective = res.Status.Converged(), jsonFloat(res.EquationNorm), jsonFloat(res.Objective)
-			if res.SRefinement != estimators.RefinementNone {
-				fj.SRefinement, fj.SSteps = res.SRefinement.String(), res.SSteps
-			}
-			addInference(&fj, est, x, &ws, &res, names, &buf)
-			fj.Observations = observations(est, x, y, &res, *cut, &buf)
-			for i := range fj.Observations {
-				fj.Observations[i].Row = g.rows[i] + 1
-				fj.Observations[i].Line = t.Line(g.rows[i])
-				if fj.Observations[i].Flag {
-					fj.Outliers++
-				}
-			}
-		}
-		if err := out.fit(&fj); err != nil {
-			return err
-		}
+	fr := fitter{t: t, design: design, est: est, seed: seed.or(1), intercept: intercept, names: names, cut: *cut}
+	failed, err := fr.run(out)
+	if err != nil {
+		return err
 	}
 	if err := out.end(); err != nil {
 		return err
@@ -486,19 +447,6 @@ func (d design) check(t *csvdata.Table, intercept bool) error {
 // next.
 type fitBuffers struct {
 	x, y, r, w, se []float64
-	obs            []fitObservation
-	// The maps of a fit's record, by coefficient name.
-	coefficients, standardErrors map[string]jsonFloat
-	intervals                    map[string][2]jsonFloat
-}
-
-// numMap returns *m emptied, making it first if need be.
-func (buf *fitBuffers) numMap(m *map[string]jsonFloat) map[string]jsonFloat {
-	if *m == nil {
-		*m = map[string]jsonFloat{}
-	}
-	clear(*m)
-	return *m
 }
 
 // grow returns (*s)[:n], reallocating *s when it is too short.

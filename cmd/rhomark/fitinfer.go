@@ -22,8 +22,8 @@ import (
 // for its coverage: Student's t on n−p degrees of freedom for least
 // squares, the normal quantile (Wald) for M-estimators. ws must hold the
 // fit just made. Where there is no covariance estimate it says why. The
-// maps and the scratch are buf's, which the next call reuses.
-func addInference(fj *fitJSON, est estimators.Estimator, x *mat.Dense, ws *estimators.Workspace, res *estimators.Result, names []string, buf *fitBuffers) {
+// maps are rec's and the scratch buf's, which the next call reuses.
+func addInference(fj *fitJSON, est estimators.Estimator, x *mat.Dense, ws *estimators.Workspace, res *estimators.Result, names []string, buf *fitBuffers, rec *fitRecord) {
 	n, p := x.Dims()
 	se := grow(&buf.se, p)
 	clear(se)
@@ -33,12 +33,12 @@ func addInference(fj *fitJSON, est estimators.Estimator, x *mat.Dense, ws *estim
 	}
 	q, rule := est.Method.Info().Inference.Quantile(0.975, n, p)
 	fj.IntervalRule = rule
-	fj.StandardErrors = buf.numMap(&buf.standardErrors)
-	if buf.intervals == nil {
-		buf.intervals = map[string][2]jsonFloat{}
+	fj.StandardErrors = numMap(&rec.standardErrors)
+	if rec.intervals == nil {
+		rec.intervals = map[string][2]jsonFloat{}
 	}
-	clear(buf.intervals)
-	fj.Intervals = buf.intervals
+	clear(rec.intervals)
+	fj.Intervals = rec.intervals
 	for k, name := range names {
 		b := res.Coefficients[k]
 		fj.StandardErrors[name] = jsonFloat(se[k])
@@ -49,8 +49,8 @@ func addInference(fj *fitJSON, est estimators.Estimator, x *mat.Dense, ws *estim
 // observations returns each row's residual, scaled residual, final weight
 // and outlier flag (|residual/scale| > cut) after a fit of est. Row and
 // Line are left for the caller. buf's r and w are scratch, and the
-// observations are in buf's storage, which the next call reuses.
-func observations(est estimators.Estimator, x *mat.Dense, y []float64, res *estimators.Result, cut float64, buf *fitBuffers) []fitObservation {
+// observations are in *obs, reallocated if it is too short.
+func observations(est estimators.Estimator, x *mat.Dense, y []float64, res *estimators.Result, cut float64, buf *fitBuffers, obs *[]fitObservation) []fitObservation {
 	n, p := x.Dims()
 	r := grow(&buf.r, n)
 	raw := x.RawMatrix()
@@ -69,7 +69,7 @@ func observations(est estimators.Estimator, x *mat.Dense, y []float64, res *esti
 	}
 	w := grow(&buf.w, n)
 	est.Weights(r, sigma, p, w)
-	out := grow(&buf.obs, n)
+	out := grow(obs, n)
 	for i, v := range r {
 		u := scaled(v)
 		out[i] = fitObservation{Resid: jsonFloat(v), Scaled: jsonFloat(u), Weight: jsonFloat(w[i]), Flag: math.Abs(u) > cut}

@@ -1,6 +1,7 @@
 package main
 
 import (
+	"errors"
 	"fmt"
 	"os"
 	"path/filepath"
@@ -63,5 +64,41 @@ func TestFitBadCellInLaterGroup(t *testing.T) {
 	}
 	if code, out, errs := rhomark(t, "fit", path, "--y", "flow", "--group", "meter", "--json"); code != exitOK || strings.Count(out, `"group": "m`) != 3 {
 		t.Errorf("good file: exit %d, %s\n%s", code, errs, out)
+	}
+}
+
+// failAfter is a writer that takes n bytes, then fails.
+type failAfter struct{ n int }
+
+func (f *failAfter) Write(p []byte) (int, error) {
+	if len(p) > f.n {
+		k := f.n
+		f.n = 0
+		return k, errors.New("disk full")
+	}
+	f.n -= len(p)
+	return len(p), nil
+}
+
+// TestFitOutputFails: when the output fails part way, fit stops fitting
+// and says why, for the JSON and for the table, whatever the point of
+// failure.
+func TestFitOutputFails(t *testing.T) {
+	path := filepath.Join(t.TempDir(), "meters.csv")
+	writeGroupedW1(t, path, 40)
+	for _, format := range [][]string{{"--json"}, nil} {
+		// The table of 40 groups is about 40 kB, the JSON 900 kB.
+		ns := []int{0, 100, 20_000}
+		if format != nil {
+			ns = append(ns, 70_000, 300_000)
+		}
+		for _, n := range ns {
+			args := append([]string{"fit", path, "--y", "y", "--group", "meter"}, format...)
+			var errb strings.Builder
+			code := run(args, nil, &failAfter{n: n}, &errb)
+			if code != exitFailure || !strings.Contains(errb.String(), "disk full") {
+				t.Errorf("%v, failing after %d bytes: exit %d, %q", format, n, code, errb.String())
+			}
+		}
 	}
 }
