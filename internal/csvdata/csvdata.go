@@ -15,6 +15,7 @@ import (
 	"runtime/debug"
 	"strconv"
 	"strings"
+	"sync"
 	"unicode"
 	"unicode/utf8"
 )
@@ -97,23 +98,37 @@ func (t *Table) Close() error {
 
 // guard runs f, turning a fault in reading a mapped file (the file cut
 // short while it is read) into an error naming the file.
-func (t *Table) guard(f func()) (err error) {
+func (t *Table) guard(f func()) error {
 	if t.unmap == nil {
 		f()
 		return nil
 	}
+	return guarded(t.File, f)
+}
+
+// guarded runs f, turning a memory fault into an error naming file (and
+// an error that f panics with, a guarded fault of a goroutine of f's,
+// into that error).
+func guarded(file string, f func()) (err error) {
 	defer debug.SetPanicOnFault(debug.SetPanicOnFault(true))
 	defer func() {
 		if r := recover(); r != nil {
+			if e, ok := r.(faultError); ok {
+				err = e
+				return
+			}
 			if _, ok := r.(interface{ Addr() uintptr }); !ok {
 				panic(r)
 			}
-			err = fmt.Errorf("%s: the file changed while it was read (it is shorter now); read it again when nothing writes to it", t.File)
+			err = faultError{fmt.Errorf("%s: the file changed while it was read (it is shorter now); read it again when nothing writes to it", file)}
 		}
 	}()
 	f()
 	return nil
 }
+
+// faultError is the error of a fault in reading a mapped file.
+type faultError struct{ error }
 
 // Read reads a CSV table from r; file names it in errors. Lines may end in
 // LF, CRLF or a lone CR (as some spreadsheets write); a lone CR, also one
@@ -254,31 +269,128 @@ func newTable(file string, header []string) (*Table, error) {
 // row's number of fields differs from the header's or there are too many
 // rows: errors are encoding/csv's to word.
 func readPlain(file, data string) (*Table, bool, error) {
-	var t *Table
-	width := 0
+	return readPlainSplit(file, data, parallelBytes)
+}
+
+// readPlainSplit is readPlain with the rows read in two halves at once
+// when they hold split bytes or more.
+func readPlainSplit(file, data string, split int) (*Table, bool, error) {
 	sc := lineScanner{data: data}
+	text, headerLine, ok := sc.next()
+	if !ok {
+		return nil, true, errEmpty(file)
+	}
+	t, err := newTable(file, splitPlain(nil, text))
+	if err != nil {
+		return nil, true, err
+	}
+	t.data = data
+	width := len(t.Names)
+	// The rows are read in parts, each into its own stretch of nums, a
+	// large file's two halves at once on two cores.
+	rest := sc.data
+	parts := []plainPart{{data: rest, line: headerLine + 1}}
+	if len(rest) >= split {
+		mid := len(rest) / 2
+		if i := strings.IndexByte(rest[mid:], '\n'); i >= 0 {
+			mid += i + 1
+			parts = []plainPart{{data: rest[:mid], line: headerLine + 1}, {data: rest[mid:]}}
+			parts[1].line = parts[0].line + strings.Count(parts[0].data, "\n")
+		}
+	}
+	lines := 0 // the most rows each part may have: its lines
+	for k := range parts {
+		p := &parts[k]
+		p.start = lines * width
+		p.most = strings.Count(p.data, "\n") + 1
+		lines += p.most
+	}
+	nums := make([]float64, lines*width)
+	var wg sync.WaitGroup
+	for k := range parts {
+		p := &parts[k]
+		p.nums = nums[p.start:p.start:min(p.start+p.most*width, len(nums))]
+		if k == 0 {
+			continue // read below, by this goroutine
+		}
+		wg.Go(func() { p.err = guarded(file, func() { p.read(width) }) })
+	}
+	parts[0].read(width)
+	wg.Wait()
+	for _, p := range parts {
+		if p.err != nil {
+			panic(p.err) // a fault, for ReadFile's guard to report
+		}
+		if !p.ok {
+			return nil, false, nil
+		}
+	}
+	// Join the parts: their numbers close up, and their lines are kept
+	// unless every line after a header on line 1 is a row (row i on line
+	// i+2).
+	blank, next := false, 2
+	for _, p := range parts {
+		t.rows += p.rows
+		blank = blank || p.lines != nil || p.line != next
+		next = p.line + p.rows
+	}
+	if t.rows > maxRows {
+		return nil, false, nil
+	}
+	if t.rows == 0 {
+		return nil, true, errNoRows(file)
+	}
+	end := 0
+	for _, p := range parts {
+		end += copy(nums[end:], p.nums[:p.rows*width])
+		if blank {
+			for i := range p.rows {
+				if p.lines != nil {
+					t.lines = append(t.lines, p.lines[i])
+				} else {
+					t.lines = append(t.lines, p.line+i)
+				}
+			}
+		}
+	}
+	t.nums = nums[:end:end]
+	return t, true, nil
+}
+
+// parallelBytes is the size from which readPlain reads a file's halves
+// at once.
+const parallelBytes = 1 << 20
+
+// plainPart is a run of whole lines of a plain file and what reading it
+// found.
+type plainPart struct {
+	data string
+	line int // the file line data starts on
+	// start and most place the part's numbers in the table's: from
+	// index start, for at most most rows.
+	start, most int
+	nums        []float64
+	rows        int
+	lines       []int // the line of each row; nil while each line is a row
+	ok          bool  // false: a row's fields do not match the header's
+	err         error
+}
+
+// read reads the part's rows of width cells each.
+func (p *plainPart) read(width int) {
+	sc := lineScanner{data: p.data, line: p.line - 1}
 	for {
 		text, line, ok := sc.next()
 		if !ok {
 			break
 		}
-		if t == nil {
-			var err error
-			if t, err = newTable(file, splitPlain(nil, text)); err != nil {
-				return nil, true, err
-			}
-			t.data = data
-			width = len(t.Names)
-			t.nums = make([]float64, 0, width*(strings.Count(sc.data, "\n")+1))
-			continue
-		}
-		if t.rows >= maxRows {
-			return nil, false, nil
+		if p.rows >= maxRows {
+			return
 		}
 		fields := 0
 		for {
 			if fields++; fields > width {
-				return nil, false, nil
+				return
 			}
 			// The usual cell, a plain decimal that ends at the comma or
 			// the line's end, is read as it is found; any other is cut
@@ -304,34 +416,28 @@ func readPlain(file, data string) (*Table, bool, error) {
 					v = math.NaN()
 				}
 			}
-			t.nums = append(t.nums, v)
+			p.nums = append(p.nums, v)
 			if end < 0 {
 				break
 			}
 			text = text[end+1:]
 		}
 		if fields != width {
-			return nil, false, nil
+			return
 		}
-		if t.lines == nil && line != t.rows+2 {
+		if p.lines == nil && line != p.line+p.rows {
 			// A blank line came before: record every row's line.
-			t.lines = make([]int, t.rows, cap(t.nums)/max(width, 1))
-			for i := range t.lines {
-				t.lines[i] = i + 2
+			p.lines = make([]int, p.rows, p.most)
+			for i := range p.lines {
+				p.lines[i] = p.line + i
 			}
 		}
-		if t.lines != nil {
-			t.lines = append(t.lines, line)
+		if p.lines != nil {
+			p.lines = append(p.lines, line)
 		}
-		t.rows++
+		p.rows++
 	}
-	if t == nil {
-		return nil, true, errEmpty(file)
-	}
-	if t.rows == 0 {
-		return nil, true, errNoRows(file)
-	}
-	return t, true, nil
+	p.ok = true
 }
 
 // lineScanner yields the non-empty lines of a text without quotes or CRs,

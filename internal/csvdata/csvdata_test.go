@@ -140,8 +140,20 @@ func TestLineEndings(t *testing.T) {
 // encoding/csv.
 func samePlain(t *testing.T, data string) {
 	t.Helper()
-	got, ok, gerr := readPlain("p.csv", data)
+	for _, split := range []int{parallelBytes, 1} {
+		samePlainSplit(t, data, split)
+	}
+}
+
+// samePlainSplit is samePlain with the rows read in two halves when they
+// hold split bytes or more.
+func samePlainSplit(t *testing.T, data string, split int) {
+	t.Helper()
+	got, ok, gerr := readPlainSplit("p.csv", data, split)
 	if !ok {
+		if _, ok1, _ := readPlain("p.csv", data); ok1 {
+			t.Fatalf("%q: read in halves from %d bytes, left to encoding/csv; read whole, not", data, split)
+		}
 		return
 	}
 	want, werr := readCSV("p.csv", strings.NewReader(data))
