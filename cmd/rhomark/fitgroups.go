@@ -36,37 +36,52 @@ func numMap(m *map[string]jsonFloat) map[string]jsonFloat {
 	return *m
 }
 
-// fitRecords is how many records are in flight: one being fitted, one
-// being written and one waiting, so that neither side waits on the other
-// when their times per group vary.
-const fitRecords = 3
+// The fits are handed to the writer in batches of fitBatch records,
+// fitBatches batches in flight: one being fitted, one being written and
+// one waiting, so that neither side waits on the other when their times
+// per group vary, and the goroutines wake each other once a batch rather
+// than once a group.
+const (
+	fitBatch   = 8
+	fitBatches = 3
+)
 
-// run fits every group and gives each record to out as soon as it is
-// made, in group order, and returns how many groups could not be fitted.
-// The fits run in a goroutine of their own while the records before them
-// are written: a fit depends only on its data and the seed given to the
-// workspace, so the output is the same, byte for byte, as one loop's.
+// run fits every group and gives each record to out as soon as its batch
+// is made, in group order, and returns how many groups could not be
+// fitted. The fits run in a goroutine of their own while the records
+// before them are written: a fit depends only on its data and the seed
+// given to the workspace, so the output is the same, byte for byte, as
+// one loop's.
 func (fr *fitter) run(out *fitWriter) (failed int, err error) {
-	free := make(chan *fitRecord, fitRecords)
-	for range fitRecords {
-		free <- new(fitRecord)
+	free := make(chan []fitRecord, fitBatches)
+	for range fitBatches {
+		free <- make([]fitRecord, fitBatch)
 	}
-	ready := make(chan *fitRecord, fitRecords) // never full: fitRecords records exist
+	ready := make(chan []fitRecord, fitBatches) // never full: fitBatches batches exist
 	stop := make(chan struct{})
 	go func() {
 		defer close(ready)
 		var ws estimators.Workspace
 		var res estimators.Result
 		var buf fitBuffers
-		for _, g := range fr.design.groups {
-			var rec *fitRecord
+		groups := fr.design.groups
+		for len(groups) > 0 {
+			var batch []fitRecord
 			select {
-			case rec = <-free:
+			case batch = <-free:
 			case <-stop:
 				return
 			}
-			rec.err = fr.fit(g, rec, &ws, &res, &buf)
-			ready <- rec
+			batch = batch[:min(len(groups), cap(batch))]
+			for i := range batch {
+				batch[i].err = fr.fit(groups[i], &batch[i], &ws, &res, &buf)
+				if batch[i].err != nil {
+					batch = batch[:i+1]
+					break
+				}
+			}
+			groups = groups[len(batch):]
+			ready <- batch
 		}
 	}()
 	// end stops the fits and waits for their goroutine to finish.
@@ -75,19 +90,22 @@ func (fr *fitter) run(out *fitWriter) (failed int, err error) {
 		for range ready {
 		}
 	}
-	for rec := range ready {
-		if rec.err != nil {
-			end()
-			return failed, rec.err
+	for batch := range ready {
+		for i := range batch {
+			rec := &batch[i]
+			if rec.err != nil {
+				end()
+				return failed, rec.err
+			}
+			if rec.fj.Error != "" {
+				failed++
+			}
+			if err := out.fit(&rec.fj); err != nil {
+				end()
+				return failed, err
+			}
 		}
-		if rec.fj.Error != "" {
-			failed++
-		}
-		if err := out.fit(&rec.fj); err != nil {
-			end()
-			return failed, err
-		}
-		free <- rec
+		free <- batch
 	}
 	return failed, nil
 }

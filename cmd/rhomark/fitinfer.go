@@ -8,7 +8,6 @@ import (
 	"math"
 	"slices"
 	"strconv"
-	"strings"
 	"unicode/utf8"
 
 	"gonum.org/v1/gonum/blas/blas64"
@@ -125,60 +124,148 @@ func writeFitTableHead(w io.Writer, es fitEstimator) {
 	fmt.Fprintf(w, "  outliers rows with |residual / scale| > %s\n", strconv.FormatFloat(es.OutlierCut, 'g', -1, 64))
 }
 
-// writeFitTableFit prints one fit of the table.
-func writeFitTableFit(w io.Writer, f *fitJSON) {
-	{
-		fmt.Fprintf(w, "\n ▸ group %s · %d rows · %s", f.Group, f.Rows, f.Status)
-		if f.Error != "" {
-			fmt.Fprintf(w, ": %s\n", f.Error)
-			return
-		}
-		if f.Iterations > 0 {
-			fmt.Fprintf(w, " after %d iterations", f.Iterations)
-		}
-		fmt.Fprintf(w, " · scale %.6g", f.Scale)
-		if f.SRefinement != "" {
-			fmt.Fprintf(w, " · S refinement %s after %d steps", f.SRefinement, f.SSteps)
-		}
-		fmt.Fprintln(w)
-		width := len("coefficient")
-		for _, n := range f.Order {
-			width = max(width, len(n))
-		}
+// writeFitTableFit prints one fit of the table (appendFitTable).
+func writeFitTableFit(w io.Writer, f *fitJSON, scratch *[]byte) error {
+	*scratch = appendFitTable((*scratch)[:0], f)
+	_, err := w.Write(*scratch)
+	return err
+}
+
+// appendFitTable appends one fit of the table to b: the group's line, its
+// coefficients, with their standard errors and intervals when it has
+// them, and its flagged rows. Numbers are laid out as fmt's %g verbs with
+// the widths, precisions and flags named beside them (TestFitTableFmt
+// holds it to that), without fmt's allocations.
+func appendFitTable(b []byte, f *fitJSON) []byte {
+	b = append(b, "\n ▸ group "...)
+	b = append(b, f.Group...)
+	b = append(b, " · "...)
+	b = strconv.AppendInt(b, int64(f.Rows), 10)
+	b = append(b, " rows · "...)
+	b = append(b, f.Status...)
+	if f.Error != "" {
+		b = append(b, ": "...)
+		b = append(b, f.Error...)
+		return append(b, '\n')
+	}
+	if f.Iterations > 0 {
+		b = append(b, " after "...)
+		b = strconv.AppendInt(b, int64(f.Iterations), 10)
+		b = append(b, " iterations"...)
+	}
+	b = append(b, " · scale "...)
+	b = appendG(b, float64(f.Scale), 6, 0, false) // %.6g
+	if f.SRefinement != "" {
+		b = append(b, " · S refinement "...)
+		b = append(b, f.SRefinement...)
+		b = append(b, " after "...)
+		b = strconv.AppendInt(b, int64(f.SSteps), 10)
+		b = append(b, " steps"...)
+	}
+	b = append(b, '\n')
+	width := len("coefficient")
+	for _, n := range f.Order {
+		width = max(width, len(n))
+	}
+	b = append(b, "   "...)
+	b = appendLeft(b, "coefficient", width) // %-*s
+	if f.StandardErrors != nil {
+		b = append(b, "       estimate   std. error   95% interval\n"...) // " %14s %12s   %s"
+	} else {
+		b = append(b, "       estimate\n"...) // " %14s"
+	}
+	for _, n := range f.Order {
+		b = append(b, "   "...)
+		b = appendLeft(b, n, width)
+		b = append(b, ' ')
+		b = appendG(b, float64(f.Coefficients[n]), 8, 14, false) // %14.8g
 		if f.StandardErrors != nil {
-			fmt.Fprintf(w, "   %-*s %14s %12s   %s\n", width, "coefficient", "estimate", "std. error", "95% interval")
-		} else {
-			fmt.Fprintf(w, "   %-*s %14s\n", width, "coefficient", "estimate")
+			iv := f.Intervals[n]
+			b = append(b, ' ')
+			b = appendG(b, float64(f.StandardErrors[n]), 5, 12, false) // %12.5g
+			b = append(b, "   ["...)
+			b = appendG(b, float64(iv[0]), 6, 0, false) // %.6g
+			b = append(b, ", "...)
+			b = appendG(b, float64(iv[1]), 6, 0, false) // %.6g
+			b = append(b, ']')
 		}
-		for _, n := range f.Order {
-			fmt.Fprintf(w, "   %-*s %14.8g", width, n, f.Coefficients[n])
-			if f.StandardErrors != nil {
-				iv := f.Intervals[n]
-				fmt.Fprintf(w, " %12.5g   [%.6g, %.6g]", f.StandardErrors[n], iv[0], iv[1])
-			}
-			fmt.Fprintln(w)
-		}
-		if f.StandardErrors != nil {
-			fmt.Fprintf(w, "   intervals: %s\n", f.IntervalRule)
-		} else {
-			fmt.Fprintf(w, "   no standard errors or intervals: %s\n", f.NoStandardErrors)
-		}
-		var flagged []string
-		for _, o := range f.Observations {
-			if o.Flag {
-				s := fmt.Sprintf("row %d (r/σ %+.3g", o.Row, o.Scaled)
-				if !math.IsNaN(float64(o.Weight)) {
-					s += fmt.Sprintf(", weight %.3g", o.Weight)
-				}
-				flagged = append(flagged, s+")")
-			}
-		}
-		if len(flagged) == 0 {
-			fmt.Fprintf(w, "   outliers: none of %d rows\n", f.Rows)
-		} else {
-			fmt.Fprintf(w, "   outliers: %d of %d rows: %s\n", len(flagged), f.Rows, strings.Join(flagged, ", "))
+		b = append(b, '\n')
+	}
+	if f.StandardErrors != nil {
+		b = append(b, "   intervals: "...)
+		b = append(b, f.IntervalRule...)
+	} else {
+		b = append(b, "   no standard errors or intervals: "...)
+		b = append(b, f.NoStandardErrors...)
+	}
+	b = append(b, '\n')
+	flagged := 0
+	for _, o := range f.Observations {
+		if o.Flag {
+			flagged++
 		}
 	}
+	if flagged == 0 {
+		b = append(b, "   outliers: none of "...)
+		b = strconv.AppendInt(b, int64(f.Rows), 10)
+		return append(b, " rows\n"...)
+	}
+	b = append(b, "   outliers: "...)
+	b = strconv.AppendInt(b, int64(flagged), 10)
+	b = append(b, " of "...)
+	b = strconv.AppendInt(b, int64(f.Rows), 10)
+	b = append(b, " rows: "...)
+	first := true
+	for _, o := range f.Observations {
+		if !o.Flag {
+			continue
+		}
+		if !first {
+			b = append(b, ", "...)
+		}
+		first = false
+		b = append(b, "row "...)
+		b = strconv.AppendInt(b, int64(o.Row), 10)
+		b = append(b, " (r/σ "...)
+		b = appendG(b, float64(o.Scaled), 3, 0, true) // %+.3g
+		if !math.IsNaN(float64(o.Weight)) {
+			b = append(b, ", weight "...)
+			b = appendG(b, float64(o.Weight), 3, 0, false) // %.3g
+		}
+		b = append(b, ')')
+	}
+	return append(b, '\n')
+}
+
+// appendG appends v as fmt's %.{prec}g does, right-aligned in width
+// characters (%{width}.{prec}g), with a sign always when plus (%+.{prec}g).
+func appendG(b []byte, v float64, prec, width int, plus bool) []byte {
+	var buf [32]byte
+	num := strconv.AppendFloat(buf[:0], v, 'g', prec, 64)
+	// strconv signs infinities, as fmt shows them; a plus adds a sign to
+	// anything else not negative, NaN included.
+	sign := plus && num[0] != '+' && num[0] != '-'
+	n := len(num)
+	if sign {
+		n++
+	}
+	for ; n < width; n++ {
+		b = append(b, ' ')
+	}
+	if sign {
+		b = append(b, '+')
+	}
+	return append(b, num...)
+}
+
+// appendLeft appends s left-aligned in width characters (runes), as fmt's
+// %-*s does.
+func appendLeft(b []byte, s string, width int) []byte {
+	b = append(b, s...)
+	for n := utf8.RuneCountInString(s); n < width; n++ {
+		b = append(b, ' ')
+	}
+	return b
 }
 
 // writeFitTableTail prints the table's closing line.

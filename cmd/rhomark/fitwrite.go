@@ -20,8 +20,9 @@ type fitWriter struct {
 	// and the coefficients' names in encoding/json's order.
 	j      jsonIndent
 	sorted []string
-	// The table, buffered.
-	table *bufio.Writer
+	// The table, buffered, and one fit's lines.
+	table   *bufio.Writer
+	scratch []byte
 	// The weights CSV, nil without --weights.
 	weights    *csv.Writer
 	weightsBuf bytes.Buffer
@@ -55,8 +56,7 @@ func (fw *fitWriter) fit(f *fitJSON) error {
 		writeWeightsCSV(fw.weights, f, fw.withGroup)
 	}
 	if !fw.asJSON {
-		writeFitTableFit(fw.table, f)
-		return nil
+		return writeFitTableFit(fw.table, f, &fw.scratch)
 	}
 	appendFitJSON(&fw.j, f, fw.sorted)
 	if len(fw.j.b) < 1<<16 {
