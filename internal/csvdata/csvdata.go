@@ -255,7 +255,7 @@ func newTable(file string, header []string) (*Table, error) {
 			return nil, fmt.Errorf("%s:1: column name %s is used by columns %d and %d; names must be unique", file, quote(h), k+1, j+1)
 		}
 		seen[h] = j
-		t.Names = append(t.Names, h)
+		t.Names = append(t.Names, strings.Clone(h)) // not in a mapped file
 	}
 	return t, nil
 }
