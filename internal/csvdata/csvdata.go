@@ -629,18 +629,23 @@ type Group struct {
 // text, in the order of first appearance. The groups' Rows share one
 // array; their names are copies, valid after Close.
 func (t *Table) Groups(j int) ([]Group, error) {
-	of := make([]int32, t.rows) // each row's group
+	// rows holds each row's group while the rows are read; when every
+	// group's rows come together (the usual layout) it then becomes the
+	// rows in order, each group a stretch of it, and no other array is
+	// needed.
+	rows := make([]int, t.rows)
 	var groups []Group
 	var counts []int
+	together := true
 	err := t.guard(func() {
-		index := map[string]int32{}
+		index := map[string]int{}
 		var sc lineScanner
 		if t.records == nil {
 			sc.data = t.data
 			sc.next() // the header
 		}
-		prev, k := "", int32(-1)
-		for i := range of {
+		prev, k := "", -1
+		for i := range rows {
 			var s string
 			if t.records != nil {
 				s = t.records[i][j]
@@ -648,12 +653,13 @@ func (t *Table) Groups(j int) ([]Group, error) {
 				text, _, _ := sc.next()
 				s = plainField(text, j)
 			}
-			// Rows of a group mostly come together: the previous row's
-			// group is tried before the index.
+			// The previous row's group is tried before the index.
 			if k < 0 || s != prev {
 				var ok bool
-				if k, ok = index[s]; !ok {
-					k = int32(len(groups))
+				if k, ok = index[s]; ok {
+					together = false // a group met again after another
+				} else {
+					k = len(groups)
 					s = strings.Clone(s)
 					index[s] = k
 					groups = append(groups, Group{Name: s})
@@ -661,15 +667,20 @@ func (t *Table) Groups(j int) ([]Group, error) {
 				}
 				prev = s
 			}
-			of[i] = k
+			rows[i] = k
 			counts[k]++
 		}
 	})
 	if err != nil {
 		return nil, err
 	}
-	// Lay the groups' rows out in one array, in group order.
-	rows := make([]int, t.rows)
+	// Lay the groups' rows out in one array, in group order. When the
+	// groups came together, row i goes to index i, the index just read:
+	// the array can be rewritten in place.
+	of := rows
+	if !together {
+		rows = make([]int, t.rows)
+	}
 	start := 0
 	for k, n := range counts {
 		groups[k].Rows = rows[start : start : start+n]
