@@ -22,7 +22,8 @@ type dataError struct{ err error }
 func (d dataError) Error() string { return d.err.Error() }
 func (d dataError) Unwrap() error { return d.err }
 
-// fitOutput is the JSON form of fit's results.
+// fitOutput is the JSON form of fit's results, which fitWriter writes
+// group by group.
 type fitOutput struct {
 	Estimator fitEstimator `json:"estimator"`
 	Fits      []fitJSON    `json:"fits"`
