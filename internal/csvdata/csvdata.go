@@ -378,6 +378,7 @@ type plainPart struct {
 
 // read reads the part's rows of width cells each.
 func (p *plainPart) read(width int) {
+	prefault(p.nums[:cap(p.nums)])
 	sc := lineScanner{data: p.data, line: p.line - 1}
 	for {
 		text, line, ok := sc.next()
@@ -634,6 +635,7 @@ func (t *Table) Groups(j int) ([]Group, error) {
 	// rows in order, each group a stretch of it, and no other array is
 	// needed.
 	rows := make([]int, t.rows)
+	prefault(rows)
 	var groups []Group
 	var counts []int
 	together := true
