@@ -45,7 +45,10 @@ func scanDecimalPrefix(s string) (decimal, int, bool) {
 	}
 	digits := i - start
 	first := i
-	i = d.gather(s, i)
+	for i < len(s) && s[i]-'0' <= 9 {
+		d.mant = d.mant*10 + uint64(s[i]-'0')
+		i++
+	}
 	sig := i - first
 	if i < len(s) && s[i] == '.' {
 		i++
@@ -56,7 +59,10 @@ func scanDecimalPrefix(s string) (decimal, int, bool) {
 			}
 		}
 		first := i
-		i = d.gather(s, i)
+		for i < len(s) && s[i]-'0' <= 9 {
+			d.mant = d.mant*10 + uint64(s[i]-'0')
+			i++
+		}
 		digits += first - start
 		sig += i - first
 		d.exp -= i - start
@@ -93,47 +99,6 @@ func scanDecimalPrefix(s string) (decimal, int, bool) {
 		d.exp += e
 	}
 	return d, i, true
-}
-
-// gather appends the run of digits of s from i to d.mant, eight at a
-// time while it can, and returns where the run ends. mant wraps past 19
-// digits as ten steps of one digit would (d.mant*1e8 + v is the same
-// sum modulo 2^64), so that the caller need only count them.
-func (d *decimal) gather(s string, i int) int {
-	for i+8 <= len(s) {
-		v, ok := eightDigits(s[i : i+8])
-		if !ok {
-			break
-		}
-		d.mant = d.mant*100_000_000 + v
-		i += 8
-	}
-	for i < len(s) && s[i]-'0' <= 9 {
-		d.mant = d.mant*10 + uint64(s[i]-'0')
-		i++
-	}
-	return i
-}
-
-// eightDigits returns the value of s, 8 bytes, and true when they are all
-// decimal digits. The bytes are read as one little-endian word and tested
-// and combined in it (a known technique of fast number parsers: Lemire
-// (2021), Number parsing at a gigabyte per second, Software: Practice and
-// Experience 51(8)): a byte is a digit when its high nibble is 3 and
-// adding 6 leaves it so; pairs, then quads, then the two halves are
-// summed by multiplications whose wanted part lands in the top half.
-func eightDigits(s string) (uint64, bool) {
-	_ = s[7]
-	v := uint64(s[0]) | uint64(s[1])<<8 | uint64(s[2])<<16 | uint64(s[3])<<24 |
-		uint64(s[4])<<32 | uint64(s[5])<<40 | uint64(s[6])<<48 | uint64(s[7])<<56
-	const hi = 0xF0F0F0F0F0F0F0F0
-	if v&hi|(v+0x0606060606060606)&hi>>4 != 0x3333333333333333 {
-		return 0, false
-	}
-	v -= 0x3030303030303030
-	v = v*10 + v>>8 // each even byte: two digits
-	v = ((v&0x000000FF000000FF)*(100+1000000<<32) + (v>>16&0x000000FF000000FF)*(1+10000<<32)) >> 32
-	return v & 0xFFFFFFFF, true
 }
 
 // isDecimal reports whether s is [+-]digits[.digits][(e|E)[+-]digits],
@@ -212,11 +177,5 @@ func divPow10(m, p uint64) float64 {
 	if cut > half || (cut == half && (r != 0 || mant&1 == 1)) {
 		mant++
 	}
-	e := extra - lz - t
-	if mant == 1<<53 {
-		mant, e = mant>>1, e+1
-	}
-	// mant·2^e with mant in [2^52, 2^53), a normal float64: the biased
-	// exponent of mant's leading bit, and the 52 bits below it.
-	return math.Float64frombits(uint64(e+52+1023)<<52 | mant&(1<<52-1))
+	return math.Ldexp(float64(mant), extra-lz-t)
 }

@@ -125,36 +125,3 @@ func FuzzDecimal(f *testing.F) {
 		}
 	})
 }
-
-// TestEightDigits: the word-at-a-time reading of eight bytes agrees with
-// reading them one by one, on every mix of digits and the bytes next to
-// them ('/' and ':' either side of '0'-'9', and others).
-func TestEightDigits(t *testing.T) {
-	rng := rand.New(rand.NewPCG(8, 8))
-	pool := []byte("0123456789/:.e-+ \x00\xff\xb0\xc9")
-	for k := 0; k < 200000; k++ {
-		var b [8]byte
-		for i := range b {
-			if rng.IntN(4) == 0 {
-				b[i] = pool[rng.IntN(len(pool))]
-			} else {
-				b[i] = byte('0' + rng.IntN(10))
-			}
-		}
-		if k%7 == 0 {
-			b[rng.IntN(8)] = byte(rng.IntN(256))
-		}
-		want, wantOK := uint64(0), true
-		for _, c := range b {
-			if c < '0' || c > '9' {
-				wantOK = false
-				break
-			}
-			want = want*10 + uint64(c-'0')
-		}
-		got, ok := eightDigits(string(b[:]))
-		if ok != wantOK || (ok && got != want) {
-			t.Fatalf("%q: %d, %v; want %d, %v", b, got, ok, want, wantOK)
-		}
-	}
-}
