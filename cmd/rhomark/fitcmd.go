@@ -1,10 +1,8 @@
 package main
 
 import (
-	"bufio"
 	"errors"
 	"fmt"
-	"io"
 	"math"
 	"os"
 	"slices"
@@ -24,7 +22,8 @@ type dataError struct{ err error }
 func (d dataError) Error() string { return d.err.Error() }
 func (d dataError) Unwrap() error { return d.err }
 
-// fitOutput is the JSON form of fit's results.
+// fitOutput is the JSON form of fit's results, which fitWriter writes
+// group by group.
 type fitOutput struct {
 	Estimator fitEstimator `json:"estimator"`
 	Fits      []fitJSON    `json:"fits"`
@@ -150,76 +149,41 @@ func fitCmd(e env, args []string) error {
 		return err
 	}
 	defer f.Close()
-	t, err := csvdata.Read(pos[0], f)
+	t, err := csvdata.ReadFile(pos[0], f)
 	if err != nil {
 		return dataError{err}
 	}
+	defer t.Close()
 	design, err := chooseColumns(t, *yCol, *xCols, *group)
 	if err != nil {
 		return dataError{err}
 	}
+	intercept := !*noIntercept
+	// Every cell is checked before anything is written, so that bad data
+	// gives its error and no output.
+	if err := design.check(t, intercept); err != nil {
+		return err
+	}
 	names := design.names
-	if !*noIntercept {
+	if intercept {
 		names = append([]string{"intercept"}, names...)
 	}
-	out := fitOutput{Estimator: desc, Fits: make([]fitJSON, 0, len(design.groups))}
-	failed := 0
-	// One workspace, result and set of buffers serve every group: a fit
-	// depends only on its data and the seed given to the workspace.
-	var ws estimators.Workspace
-	var res estimators.Result
-	var buf fitBuffers
-	for _, g := range design.groups {
-		x, y, err := design.matricesInto(t, g.rows, !*noIntercept, &buf)
-		if err != nil {
-			return err
-		}
-		fj := fitJSON{Group: g.name, Rows: len(g.rows), Order: names}
-		ws.SeedRandom(seed.or(1), 0)
-		err = est.Fit(x, y, &ws, &res)
-		if err != nil {
-			fj.Status, fj.Error = "not-fitted", err.Error()
-			failed++
-		} else {
-			fj.Coefficients = map[string]jsonFloat{}
-			for k, n := range names {
-				fj.Coefficients[n] = jsonFloat(res.Coefficients[k])
-			}
-			fj.Scale, fj.Iterations, fj.Status = jsonFloat(res.Scale), res.Iterations, res.Status.String()
-			fj.Converged, fj.EquationNorm, fj.Objective = res.Status.Converged(), jsonFloat(res.EquationNorm), jsonFloat(res.Objective)
-			if res.SRefinement != estimators.RefinementNone {
-				fj.SRefinement, fj.SSteps = res.SRefinement.String(), res.SSteps
-			}
-			addInference(&fj, est, x, &ws, &res, names)
-			fj.Observations = observations(est, x, y, &res, *cut, &buf)
-			for i := range fj.Observations {
-				fj.Observations[i].Row = g.rows[i] + 1
-				fj.Observations[i].Line = t.Line(g.rows[i])
-				if fj.Observations[i].Flag {
-					fj.Outliers++
-				}
-			}
-		}
-		out.Fits = append(out.Fits, fj)
+	out := newFitWriter(e.stdout, desc, names, *asJSON, *weightsOut != "", *group != "")
+	fr := fitter{t: t, design: design, est: est, seed: seed.or(1), intercept: intercept, names: names, cut: *cut}
+	failed, err := fr.run(out)
+	if err != nil {
+		return err
+	}
+	if err := out.end(); err != nil {
+		return err
 	}
 	if *weightsOut != "" {
-		if err := atomicfile.WriteFile(*weightsOut, weightsCSV(out, *group != "")); err != nil {
-			return err
-		}
-	}
-	if *asJSON {
-		if err := writeFitJSON(e.stdout, out, names); err != nil {
-			return err
-		}
-	} else {
-		bw := bufio.NewWriterSize(e.stdout, 64<<10)
-		writeFitTable(env{stdin: e.stdin, stdout: bw, stderr: e.stderr}, out)
-		if err := bw.Flush(); err != nil {
+		if err := atomicfile.WriteFile(*weightsOut, out.weightsCSV()); err != nil {
 			return err
 		}
 	}
 	if failed > 0 {
-		return fmt.Errorf("%d of %d group(s) could not be fitted (see the error of each)", failed, len(out.Fits))
+		return fmt.Errorf("%d of %d group(s) could not be fitted (see the error of each)", failed, len(design.groups))
 	}
 	return nil
 }
@@ -441,64 +405,55 @@ func chooseColumns(t *csvdata.Table, yName, xList, groupName string) (design, er
 		}
 	}
 	if gcol < 0 {
-		rows := make([]int, len(t.Cells))
+		rows := make([]int, t.Rows())
 		for i := range rows {
 			rows[i] = i
 		}
 		d.groups = []fitGroup{{name: "all", rows: rows}}
 		return d, nil
 	}
-	index := map[string]int{}
-	for i, rec := range t.Cells {
-		g := rec[gcol]
-		k, ok := index[g]
-		if !ok {
-			k = len(d.groups)
-			index[g] = k
-			d.groups = append(d.groups, fitGroup{name: g})
-		}
-		d.groups[k].rows = append(d.groups[k].rows, i)
+	groups, err := t.Groups(gcol)
+	if err != nil {
+		return d, err
+	}
+	d.groups = make([]fitGroup, len(groups))
+	for k, g := range groups {
+		d.groups[k] = fitGroup{name: g.Name, rows: g.Rows}
 	}
 	return d, nil
 }
 
-// writeFitJSON writes out as JSON (see appendFitJSON), in pieces of about
-// 64 kB. names are the coefficients' names.
-func writeFitJSON(w io.Writer, out fitOutput, names []string) error {
-	sorted := slices.Clone(names)
-	slices.Sort(sorted)
-	j := jsonIndent{b: make([]byte, 0, 1<<17)}
-	appendFitJSONHead(&j, out.Estimator)
-	if out.Fits == nil {
-		j.b = append(j.b, "null"...)
-	} else {
-		j.open('[')
-		for i := range out.Fits {
-			appendFitJSON(&j, &out.Fits[i], sorted)
-			if len(j.b) >= 1<<16 {
-				if _, err := w.Write(j.b); err != nil {
-					return err
-				}
-				j.b = j.b[:0]
-			}
-		}
-		j.close(']')
+// check returns the error matrices would meet first, going through the
+// groups in order, or nil when every cell of the response and the
+// predictors is a number. The common case, all numbers, is a look at
+// each cell's number as the file was read.
+func (d design) check(t *csvdata.Table, intercept bool) error {
+	clean := t.Numeric(d.y)
+	for _, j := range d.x {
+		clean = clean && t.Numeric(j)
 	}
-	appendFitJSONTail(&j)
-	_, err := w.Write(j.b)
-	return err
+	if clean {
+		return nil
+	}
+	var buf fitBuffers
+	for _, g := range d.groups {
+		if _, _, err := d.matricesInto(t, g.rows, intercept, &buf); err != nil {
+			return err
+		}
+	}
+	return nil
 }
 
 // fitBuffers holds the scratch of fit's groups, reused from one to the
 // next.
 type fitBuffers struct {
-	x, y, r, w []float64
+	x, y, r, w, se []float64
 }
 
 // grow returns (*s)[:n], reallocating *s when it is too short.
-func grow(s *[]float64, n int) []float64 {
+func grow[T any](s *[]T, n int) []T {
 	if cap(*s) < n {
-		*s = make([]float64, n)
+		*s = make([]T, n)
 	}
 	*s = (*s)[:n]
 	return *s

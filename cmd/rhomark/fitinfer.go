@@ -1,14 +1,13 @@
 package main
 
 import (
-	"bytes"
 	"encoding/csv"
 	"fmt"
+	"io"
 	"maps"
 	"math"
 	"slices"
 	"strconv"
-	"strings"
 	"unicode/utf8"
 
 	"gonum.org/v1/gonum/blas/blas64"
@@ -21,18 +20,24 @@ import (
 // covariance estimate (Workspace.StandardErrors) and quantiles a run uses
 // for its coverage: Student's t on n−p degrees of freedom for least
 // squares, the normal quantile (Wald) for M-estimators. ws must hold the
-// fit just made. Where there is no covariance estimate it says why.
-func addInference(fj *fitJSON, est estimators.Estimator, x *mat.Dense, ws *estimators.Workspace, res *estimators.Result, names []string) {
+// fit just made. Where there is no covariance estimate it says why. The
+// maps are rec's and the scratch buf's, which the next call reuses.
+func addInference(fj *fitJSON, est estimators.Estimator, x *mat.Dense, ws *estimators.Workspace, res *estimators.Result, names []string, buf *fitBuffers, rec *fitRecord) {
 	n, p := x.Dims()
-	se := make([]float64, p)
+	se := grow(&buf.se, p)
+	clear(se)
 	if !ws.StandardErrors(est, x, res, se) {
 		fj.NoStandardErrors = est.NoStandardErrorsReason(res, n, p)
 		return
 	}
 	q, rule := est.Method.Info().Inference.Quantile(0.975, n, p)
 	fj.IntervalRule = rule
-	fj.StandardErrors = map[string]jsonFloat{}
-	fj.Intervals = map[string][2]jsonFloat{}
+	fj.StandardErrors = numMap(&rec.standardErrors)
+	if rec.intervals == nil {
+		rec.intervals = map[string][2]jsonFloat{}
+	}
+	clear(rec.intervals)
+	fj.Intervals = rec.intervals
 	for k, name := range names {
 		b := res.Coefficients[k]
 		fj.StandardErrors[name] = jsonFloat(se[k])
@@ -42,8 +47,9 @@ func addInference(fj *fitJSON, est estimators.Estimator, x *mat.Dense, ws *estim
 
 // observations returns each row's residual, scaled residual, final weight
 // and outlier flag (|residual/scale| > cut) after a fit of est. Row and
-// Line are left for the caller. buf's r and w are scratch.
-func observations(est estimators.Estimator, x *mat.Dense, y []float64, res *estimators.Result, cut float64, buf *fitBuffers) []fitObservation {
+// Line are left for the caller. buf's r and w are scratch, and the
+// observations are in *obs, reallocated if it is too short.
+func observations(est estimators.Estimator, x *mat.Dense, y []float64, res *estimators.Result, cut float64, buf *fitBuffers, obs *[]fitObservation) []fitObservation {
 	n, p := x.Dims()
 	r := grow(&buf.r, n)
 	raw := x.RawMatrix()
@@ -62,7 +68,7 @@ func observations(est estimators.Estimator, x *mat.Dense, y []float64, res *esti
 	}
 	w := grow(&buf.w, n)
 	est.Weights(r, sigma, p, w)
-	out := make([]fitObservation, n)
+	out := grow(obs, n)
 	for i, v := range r {
 		u := scaled(v)
 		out[i] = fitObservation{Resid: jsonFloat(v), Scaled: jsonFloat(u), Weight: jsonFloat(w[i]), Flag: math.Abs(u) > cut}
@@ -70,43 +76,43 @@ func observations(est estimators.Estimator, x *mat.Dense, y []float64, res *esti
 	return out
 }
 
-// weightsCSV renders every fitted row as CSV: group (with --group), row,
-// line, residual, scaled residual, weight and outlier flag. Numbers are in
-// the shortest form that reads back to the same float64; a missing value
-// (no weight, no scale) is empty.
-func weightsCSV(out fitOutput, withGroup bool) []byte {
-	var b bytes.Buffer
-	w := csv.NewWriter(&b)
+// weightsHeader returns the header of the --weights CSV: group (with
+// --group), row, line, residual, scaled residual, weight and outlier flag.
+func weightsHeader(withGroup bool) []string {
 	head := []string{"row", "line", "residual", "scaled_residual", "weight", "outlier"}
 	if withGroup {
 		head = append([]string{"group"}, head...)
 	}
-	w.Write(head)
+	return head
+}
+
+// writeWeightsCSV writes each fitted row of fit to w as CSV, in the
+// columns of weightsHeader. Numbers are in the shortest form that reads
+// back to the same float64; a missing value (no weight, no scale) is
+// empty.
+func writeWeightsCSV(w *csv.Writer, fit *fitJSON, withGroup bool) {
 	f := func(v jsonFloat) string {
 		if math.IsNaN(float64(v)) || math.IsInf(float64(v), 0) {
 			return ""
 		}
 		return strconv.FormatFloat(float64(v), 'g', -1, 64)
 	}
-	for _, fit := range out.Fits {
-		for _, o := range fit.Observations {
-			rec := []string{strconv.Itoa(o.Row), strconv.Itoa(o.Line), f(o.Resid), f(o.Scaled), f(o.Weight), strconv.FormatBool(o.Flag)}
-			if withGroup {
-				rec = append([]string{fit.Group}, rec...)
-			}
-			w.Write(rec)
+	for _, o := range fit.Observations {
+		rec := []string{strconv.Itoa(o.Row), strconv.Itoa(o.Line), f(o.Resid), f(o.Scaled), f(o.Weight), strconv.FormatBool(o.Flag)}
+		if withGroup {
+			rec = append([]string{fit.Group}, rec...)
 		}
+		w.Write(rec)
 	}
-	w.Flush()
-	return b.Bytes()
 }
 
-// writeFitTable prints fits for a terminal: the rules in a header, then per
-// fit the coefficients with their standard errors and 95% intervals, and
-// the flagged rows.
-func writeFitTable(e env, out fitOutput) {
-	w := e.stdout
-	es := out.Estimator
+// fit's table, for a terminal, is the rules in a header
+// (writeFitTableHead), then per fit the coefficients with their standard
+// errors and 95% intervals, and the flagged rows (writeFitTableFit), and a
+// closing line (writeFitTableTail).
+
+// writeFitTableHead prints the table's header: the estimator's rules.
+func writeFitTableHead(w io.Writer, es fitEstimator) {
 	title := es.Method
 	if es.psiDesc != "" {
 		title += " · " + es.psiDesc
@@ -116,58 +122,154 @@ func writeFitTable(e env, out fitOutput) {
 	fmt.Fprintf(w, "  scale    %s\n", es.ScaleRule)
 	fmt.Fprintf(w, "  weights  %s\n", es.Weights)
 	fmt.Fprintf(w, "  outliers rows with |residual / scale| > %s\n", strconv.FormatFloat(es.OutlierCut, 'g', -1, 64))
-	for _, f := range out.Fits {
-		fmt.Fprintf(w, "\n ▸ group %s · %d rows · %s", f.Group, f.Rows, f.Status)
-		if f.Error != "" {
-			fmt.Fprintf(w, ": %s\n", f.Error)
-			continue
-		}
-		if f.Iterations > 0 {
-			fmt.Fprintf(w, " after %d iterations", f.Iterations)
-		}
-		fmt.Fprintf(w, " · scale %.6g", f.Scale)
-		if f.SRefinement != "" {
-			fmt.Fprintf(w, " · S refinement %s after %d steps", f.SRefinement, f.SSteps)
-		}
-		fmt.Fprintln(w)
-		width := len("coefficient")
-		for _, n := range f.Order {
-			width = max(width, len(n))
-		}
+}
+
+// writeFitTableFit prints one fit of the table (appendFitTable).
+func writeFitTableFit(w io.Writer, f *fitJSON, scratch *[]byte) error {
+	*scratch = appendFitTable((*scratch)[:0], f)
+	_, err := w.Write(*scratch)
+	return err
+}
+
+// appendFitTable appends one fit of the table to b: the group's line, its
+// coefficients, with their standard errors and intervals when it has
+// them, and its flagged rows. Numbers are laid out as fmt's %g verbs with
+// the widths, precisions and flags named beside them (TestFitTableFmt
+// holds it to that), without fmt's allocations.
+func appendFitTable(b []byte, f *fitJSON) []byte {
+	b = append(b, "\n ▸ group "...)
+	b = append(b, f.Group...)
+	b = append(b, " · "...)
+	b = strconv.AppendInt(b, int64(f.Rows), 10)
+	b = append(b, " rows · "...)
+	b = append(b, f.Status...)
+	if f.Error != "" {
+		b = append(b, ": "...)
+		b = append(b, f.Error...)
+		return append(b, '\n')
+	}
+	if f.Iterations > 0 {
+		b = append(b, " after "...)
+		b = strconv.AppendInt(b, int64(f.Iterations), 10)
+		b = append(b, " iterations"...)
+	}
+	b = append(b, " · scale "...)
+	b = appendG(b, float64(f.Scale), 6, 0, false) // %.6g
+	if f.SRefinement != "" {
+		b = append(b, " · S refinement "...)
+		b = append(b, f.SRefinement...)
+		b = append(b, " after "...)
+		b = strconv.AppendInt(b, int64(f.SSteps), 10)
+		b = append(b, " steps"...)
+	}
+	b = append(b, '\n')
+	width := len("coefficient")
+	for _, n := range f.Order {
+		width = max(width, len(n))
+	}
+	b = append(b, "   "...)
+	b = appendLeft(b, "coefficient", width) // %-*s
+	if f.StandardErrors != nil {
+		b = append(b, "       estimate   std. error   95% interval\n"...) // " %14s %12s   %s"
+	} else {
+		b = append(b, "       estimate\n"...) // " %14s"
+	}
+	for _, n := range f.Order {
+		b = append(b, "   "...)
+		b = appendLeft(b, n, width)
+		b = append(b, ' ')
+		b = appendG(b, float64(f.Coefficients[n]), 8, 14, false) // %14.8g
 		if f.StandardErrors != nil {
-			fmt.Fprintf(w, "   %-*s %14s %12s   %s\n", width, "coefficient", "estimate", "std. error", "95% interval")
-		} else {
-			fmt.Fprintf(w, "   %-*s %14s\n", width, "coefficient", "estimate")
+			iv := f.Intervals[n]
+			b = append(b, ' ')
+			b = appendG(b, float64(f.StandardErrors[n]), 5, 12, false) // %12.5g
+			b = append(b, "   ["...)
+			b = appendG(b, float64(iv[0]), 6, 0, false) // %.6g
+			b = append(b, ", "...)
+			b = appendG(b, float64(iv[1]), 6, 0, false) // %.6g
+			b = append(b, ']')
 		}
-		for _, n := range f.Order {
-			fmt.Fprintf(w, "   %-*s %14.8g", width, n, f.Coefficients[n])
-			if f.StandardErrors != nil {
-				iv := f.Intervals[n]
-				fmt.Fprintf(w, " %12.5g   [%.6g, %.6g]", f.StandardErrors[n], iv[0], iv[1])
-			}
-			fmt.Fprintln(w)
-		}
-		if f.StandardErrors != nil {
-			fmt.Fprintf(w, "   intervals: %s\n", f.IntervalRule)
-		} else {
-			fmt.Fprintf(w, "   no standard errors or intervals: %s\n", f.NoStandardErrors)
-		}
-		var flagged []string
-		for _, o := range f.Observations {
-			if o.Flag {
-				s := fmt.Sprintf("row %d (r/σ %+.3g", o.Row, o.Scaled)
-				if !math.IsNaN(float64(o.Weight)) {
-					s += fmt.Sprintf(", weight %.3g", o.Weight)
-				}
-				flagged = append(flagged, s+")")
-			}
-		}
-		if len(flagged) == 0 {
-			fmt.Fprintf(w, "   outliers: none of %d rows\n", f.Rows)
-		} else {
-			fmt.Fprintf(w, "   outliers: %d of %d rows: %s\n", len(flagged), f.Rows, strings.Join(flagged, ", "))
+		b = append(b, '\n')
+	}
+	if f.StandardErrors != nil {
+		b = append(b, "   intervals: "...)
+		b = append(b, f.IntervalRule...)
+	} else {
+		b = append(b, "   no standard errors or intervals: "...)
+		b = append(b, f.NoStandardErrors...)
+	}
+	b = append(b, '\n')
+	flagged := 0
+	for _, o := range f.Observations {
+		if o.Flag {
+			flagged++
 		}
 	}
+	if flagged == 0 {
+		b = append(b, "   outliers: none of "...)
+		b = strconv.AppendInt(b, int64(f.Rows), 10)
+		return append(b, " rows\n"...)
+	}
+	b = append(b, "   outliers: "...)
+	b = strconv.AppendInt(b, int64(flagged), 10)
+	b = append(b, " of "...)
+	b = strconv.AppendInt(b, int64(f.Rows), 10)
+	b = append(b, " rows: "...)
+	first := true
+	for _, o := range f.Observations {
+		if !o.Flag {
+			continue
+		}
+		if !first {
+			b = append(b, ", "...)
+		}
+		first = false
+		b = append(b, "row "...)
+		b = strconv.AppendInt(b, int64(o.Row), 10)
+		b = append(b, " (r/σ "...)
+		b = appendG(b, float64(o.Scaled), 3, 0, true) // %+.3g
+		if !math.IsNaN(float64(o.Weight)) {
+			b = append(b, ", weight "...)
+			b = appendG(b, float64(o.Weight), 3, 0, false) // %.3g
+		}
+		b = append(b, ')')
+	}
+	return append(b, '\n')
+}
+
+// appendG appends v as fmt's %.{prec}g does, right-aligned in width
+// characters (%{width}.{prec}g), with a sign always when plus (%+.{prec}g).
+func appendG(b []byte, v float64, prec, width int, plus bool) []byte {
+	var buf [32]byte
+	num := strconv.AppendFloat(buf[:0], v, 'g', prec, 64)
+	// strconv signs infinities, as fmt shows them; a plus adds a sign to
+	// anything else not negative, NaN included.
+	sign := plus && num[0] != '+' && num[0] != '-'
+	n := len(num)
+	if sign {
+		n++
+	}
+	for ; n < width; n++ {
+		b = append(b, ' ')
+	}
+	if sign {
+		b = append(b, '+')
+	}
+	return append(b, num...)
+}
+
+// appendLeft appends s left-aligned in width characters (runes), as fmt's
+// %-*s does.
+func appendLeft(b []byte, s string, width int) []byte {
+	b = append(b, s...)
+	for n := utf8.RuneCountInString(s); n < width; n++ {
+		b = append(b, ' ')
+	}
+	return b
+}
+
+// writeFitTableTail prints the table's closing line.
+func writeFitTableTail(w io.Writer) {
 	fmt.Fprintln(w, "\nEvery row's residual, weight and flag: --json, or --weights FILE.")
 }
 
@@ -196,10 +298,25 @@ func (j *jsonIndent) next() {
 }
 
 func (j *jsonIndent) newline() {
+	if n := 1 + 2*j.depth; n <= len(jsonIndents) {
+		j.b = append(j.b, jsonIndents[:n]...)
+		return
+	}
 	j.b = append(j.b, '\n')
 	for i := 0; i < j.depth; i++ {
 		j.b = append(j.b, ' ', ' ')
 	}
+}
+
+// jsonIndents starts the lines of the first levels: a new line and two
+// spaces a level.
+const jsonIndents = "\n                                                                "
+
+// member starts a member whose key needs no escaping, given quoted and
+// with its colon and space: `"key": `.
+func (j *jsonIndent) member(quoted string) {
+	j.next()
+	j.b = append(j.b, quoted...)
 }
 
 // key starts the member k.
@@ -432,12 +549,18 @@ func appendFitJSON(j *jsonIndent, f *fitJSON, sorted []string) {
 			o := &f.Observations[i]
 			j.next()
 			j.open('{')
-			j.int("row", o.Row)
-			j.int("line", o.Line)
-			j.num("residual", o.Resid)
-			j.num("scaled_residual", o.Scaled)
-			j.num("weight", o.Weight)
-			j.bool("outlier", o.Flag)
+			j.member(`"row": `)
+			j.b = strconv.AppendInt(j.b, int64(o.Row), 10)
+			j.member(`"line": `)
+			j.b = strconv.AppendInt(j.b, int64(o.Line), 10)
+			j.member(`"residual": `)
+			j.b = appendJSONNum(j.b, o.Resid)
+			j.member(`"scaled_residual": `)
+			j.b = appendJSONNum(j.b, o.Scaled)
+			j.member(`"weight": `)
+			j.b = appendJSONNum(j.b, o.Weight)
+			j.member(`"outlier": `)
+			j.b = strconv.AppendBool(j.b, o.Flag)
 			j.close('}')
 		}
 		j.close(']')

@@ -11,8 +11,11 @@ import (
 	"io"
 	"io/fs"
 	"math"
+	"os"
+	"runtime/debug"
 	"strconv"
 	"strings"
+	"sync"
 	"unicode"
 	"unicode/utf8"
 )
@@ -23,23 +26,109 @@ const (
 	maxRows    = 10_000_000
 )
 
-// Table is a CSV file with its raw text cells.
+// Table is a CSV file: its column names, and its cells as text and as
+// numbers.
 type Table struct {
 	// File names the source in errors.
 	File string
 	// Names are the header's column names.
 	Names []string
-	// Cells holds the rows' text, row by row.
-	Cells [][]string
+	// rows is the number of data rows.
+	rows int
+	// data is the file's text, from which a table read directly
+	// (readPlain) cuts its cells when their text is asked for; it is
+	// empty for a table read by encoding/csv.
+	data string
+	// records holds the cells of a table read by encoding/csv, row by row.
+	records [][]string
 	// lines holds the file line on which each row starts (a quoted field
-	// may span lines, so it is not simply the row index plus two).
+	// may span lines, so it is not simply the row index plus two). It is
+	// nil when row i is on line i+2, every line after the header a row.
 	lines []int
 	// nums holds, row by row, each cell's number read as the file is
 	// split, while its text is in cache, or NaN where the cell is not a
 	// finite decimal (Float then reads the text again to word the error).
 	// It is nil when the table was read by encoding/csv.
 	nums []float64
+	// unmap releases data when it is the file mapped into memory; nil
+	// otherwise.
+	unmap func() error
 }
+
+// Rows returns the number of data rows.
+func (t *Table) Rows() int { return t.rows }
+
+// ReadFile reads the open file f as Read does; file names it in errors.
+// Where the system allows, the table maps the file into memory rather
+// than copying it, so that a large file costs no memory of the process's
+// own (only its numbers are kept): Close releases the mapping, after
+// which the table must not be used. A file that changes size while it is
+// mapped makes the table's methods return an error saying so.
+func ReadFile(file string, f *os.File) (*Table, error) {
+	data, unmap := mapFile(f)
+	if unmap == nil {
+		return Read(file, f)
+	}
+	t := &Table{File: file, unmap: unmap}
+	var err error
+	var r *Table
+	if ferr := t.guard(func() { r, err = readData(file, data) }); ferr != nil {
+		unmap()
+		return nil, ferr
+	}
+	if err != nil || r.data == "" {
+		// encoding/csv copied what it kept: the mapping is not needed.
+		unmap()
+		return r, err
+	}
+	r.unmap = unmap
+	return r, nil
+}
+
+// Close releases the memory a table of ReadFile maps; the table must not
+// be used after it. It does nothing for other tables.
+func (t *Table) Close() error {
+	if t.unmap == nil {
+		return nil
+	}
+	err := t.unmap()
+	t.unmap, t.data = nil, ""
+	return err
+}
+
+// guard runs f, turning a fault in reading a mapped file (the file cut
+// short while it is read) into an error naming the file.
+func (t *Table) guard(f func()) error {
+	if t.unmap == nil {
+		f()
+		return nil
+	}
+	return guarded(t.File, f)
+}
+
+// guarded runs f, turning a memory fault into an error naming file (and
+// an error that f panics with, a guarded fault of a goroutine of f's,
+// into that error).
+func guarded(file string, f func()) (err error) {
+	defer debug.SetPanicOnFault(debug.SetPanicOnFault(true))
+	defer func() {
+		if r := recover(); r != nil {
+			if e, ok := r.(faultError); ok {
+				err = e
+				return
+			}
+			if _, ok := r.(interface{ Addr() uintptr }); !ok {
+				panic(r)
+			}
+			err = faultError{fmt.Errorf("%s: the file changed while it was read (it is shorter now); read it again when nothing writes to it", file)}
+		}
+	}()
+	f()
+	return nil
+}
+
+// faultError is the error of a fault in reading a mapped file.
+type faultError struct{ error }
 
 // Read reads a CSV table from r; file names it in errors. Lines may end in
 // LF, CRLF or a lone CR (as some spreadsheets write); a lone CR, also one
@@ -55,6 +144,11 @@ func Read(file string, r io.Reader) (*Table, error) {
 		// Let encoding/csv meet the error where it happened in the stream.
 		return readCSV(file, io.MultiReader(strings.NewReader(data), errReader{err}))
 	}
+	return readData(file, data)
+}
+
+// readData reads a table from the whole text of a file.
+func readData(file, data string) (*Table, error) {
 	if strings.IndexByte(data, '"') < 0 && strings.IndexByte(data, '\r') < 0 {
 		if t, ok, err := readPlain(file, data); ok {
 			return t, err
@@ -120,14 +214,15 @@ func readCSV(file string, r io.Reader) (*Table, error) {
 		if err != nil {
 			return nil, csvError(file, err)
 		}
-		if len(t.Cells) >= maxRows {
+		if len(t.records) >= maxRows {
 			return nil, errTooLong(file)
 		}
 		line, _ := cr.FieldPos(0)
-		t.Cells = append(t.Cells, rec)
+		t.records = append(t.records, rec)
 		t.lines = append(t.lines, line)
 	}
-	if len(t.Cells) == 0 {
+	t.rows = len(t.records)
+	if t.rows == 0 {
 		return nil, errNoRows(file)
 	}
 	return t, nil
@@ -160,72 +255,215 @@ func newTable(file string, header []string) (*Table, error) {
 			return nil, fmt.Errorf("%s:1: column name %s is used by columns %d and %d; names must be unique", file, quote(h), k+1, j+1)
 		}
 		seen[h] = j
-		t.Names = append(t.Names, h)
+		t.Names = append(t.Names, strings.Clone(h)) // not in a mapped file
 	}
 	return t, nil
 }
 
 // readPlain reads a file that holds no quote and no CR as encoding/csv
 // (with TrimLeadingSpace) reads it: records are the non-empty lines, fields
-// are split at commas and lose their leading white space. Every cell is a
-// substring of data, and the rows share one backing array, so the table
-// costs a few allocations rather than two per row. It reports false, to
-// leave the file to encoding/csv, when a row's number of fields differs
-// from the header's or there are too many rows: errors are encoding/csv's
-// to word.
+// are split at commas and lose their leading white space. It keeps data
+// and each cell's number, not the cells' text, which cell cuts from data
+// when it is asked for; the table costs a few allocations rather than two
+// per row. It reports false, to leave the file to encoding/csv, when a
+// row's number of fields differs from the header's or there are too many
+// rows: errors are encoding/csv's to word.
 func readPlain(file, data string) (*Table, bool, error) {
-	var header []string
-	line := 0
-	rows := strings.Count(data, "\n") + 1
-	var flat []string
-	var t *Table
-	width := 0
-	for len(data) > 0 {
-		line++
-		text := data
-		if i := strings.IndexByte(data, '\n'); i >= 0 {
-			text, data = data[:i], data[i+1:]
-		} else {
-			data = ""
-		}
-		if text == "" {
-			continue // encoding/csv skips empty lines
-		}
-		if t == nil {
-			header = splitPlain(nil, text)
-			var err error
-			if t, err = newTable(file, header); err != nil {
-				return nil, true, err
-			}
-			width = len(header)
-			flat = make([]string, 0, width*rows)
-			t.nums = make([]float64, 0, width*rows)
-			t.Cells = make([][]string, 0, rows)
-			t.lines = make([]int, 0, rows)
-			continue
-		}
-		start := len(flat)
-		flat = splitPlain(flat, text)
-		if len(flat)-start != width || len(t.Cells) >= maxRows {
-			return nil, false, nil
-		}
-		for _, f := range flat[start:] {
-			v, ok := number(f)
-			if !ok {
-				v = math.NaN()
-			}
-			t.nums = append(t.nums, v)
-		}
-		t.Cells = append(t.Cells, flat[start:len(flat):len(flat)])
-		t.lines = append(t.lines, line)
-	}
-	if t == nil {
+	return readPlainSplit(file, data, parallelBytes)
+}
+
+// readPlainSplit is readPlain with the rows read in two halves at once
+// when they hold split bytes or more.
+func readPlainSplit(file, data string, split int) (*Table, bool, error) {
+	sc := lineScanner{data: data}
+	text, headerLine, ok := sc.next()
+	if !ok {
 		return nil, true, errEmpty(file)
 	}
-	if len(t.Cells) == 0 {
+	t, err := newTable(file, splitPlain(nil, text))
+	if err != nil {
+		return nil, true, err
+	}
+	t.data = data
+	width := len(t.Names)
+	// The rows are read in parts, each into its own stretch of nums, a
+	// large file's two halves at once on two cores.
+	rest := sc.data
+	parts := []plainPart{{data: rest, line: headerLine + 1}}
+	if len(rest) >= split {
+		mid := len(rest) / 2
+		if i := strings.IndexByte(rest[mid:], '\n'); i >= 0 {
+			mid += i + 1
+			parts = []plainPart{{data: rest[:mid], line: headerLine + 1}, {data: rest[mid:]}}
+			parts[1].line = parts[0].line + strings.Count(parts[0].data, "\n")
+		}
+	}
+	lines := 0 // the most rows each part may have: its lines
+	for k := range parts {
+		p := &parts[k]
+		p.start = lines * width
+		p.most = strings.Count(p.data, "\n") + 1
+		lines += p.most
+	}
+	nums := make([]float64, lines*width)
+	var wg sync.WaitGroup
+	for k := range parts {
+		p := &parts[k]
+		p.nums = nums[p.start:p.start:min(p.start+p.most*width, len(nums))]
+		if k == 0 {
+			continue // read below, by this goroutine
+		}
+		wg.Go(func() { p.err = guarded(file, func() { p.read(width) }) })
+	}
+	parts[0].read(width)
+	wg.Wait()
+	for _, p := range parts {
+		if p.err != nil {
+			panic(p.err) // a fault, for ReadFile's guard to report
+		}
+		if !p.ok {
+			return nil, false, nil
+		}
+	}
+	// Join the parts: their numbers close up, and their lines are kept
+	// unless every line after a header on line 1 is a row (row i on line
+	// i+2).
+	blank, next := false, 2
+	for _, p := range parts {
+		t.rows += p.rows
+		blank = blank || p.lines != nil || p.line != next
+		next = p.line + p.rows
+	}
+	if t.rows > maxRows {
+		return nil, false, nil
+	}
+	if t.rows == 0 {
 		return nil, true, errNoRows(file)
 	}
+	end := 0
+	for _, p := range parts {
+		end += copy(nums[end:], p.nums[:p.rows*width])
+		if blank {
+			for i := range p.rows {
+				if p.lines != nil {
+					t.lines = append(t.lines, p.lines[i])
+				} else {
+					t.lines = append(t.lines, p.line+i)
+				}
+			}
+		}
+	}
+	t.nums = nums[:end:end]
 	return t, true, nil
+}
+
+// parallelBytes is the size from which readPlain reads a file's halves
+// at once.
+const parallelBytes = 1 << 20
+
+// plainPart is a run of whole lines of a plain file and what reading it
+// found.
+type plainPart struct {
+	data string
+	line int // the file line data starts on
+	// start and most place the part's numbers in the table's: from
+	// index start, for at most most rows.
+	start, most int
+	nums        []float64
+	rows        int
+	lines       []int // the line of each row; nil while each line is a row
+	ok          bool  // false: a row's fields do not match the header's
+	err         error
+}
+
+// read reads the part's rows of width cells each.
+func (p *plainPart) read(width int) {
+	prefault(p.nums[:cap(p.nums)])
+	sc := lineScanner{data: p.data, line: p.line - 1}
+	for {
+		text, line, ok := sc.next()
+		if !ok {
+			break
+		}
+		if p.rows >= maxRows {
+			return
+		}
+		fields := 0
+		for {
+			if fields++; fields > width {
+				return
+			}
+			// The usual cell, a plain decimal that ends at the comma or
+			// the line's end, is read as it is found; any other is cut
+			// out and read by number, which trims white space.
+			d, n, ok := scanDecimalPrefix(text)
+			end := -1 // the comma after the field; -1 for the line's last
+			known := ok && (n == len(text) || text[n] == ',')
+			if known && n < len(text) {
+				end = n
+			} else if !known {
+				end = strings.IndexByte(text, ',')
+			}
+			var v float64
+			if known {
+				v, ok = d.float()
+			}
+			if !known || !ok {
+				field := text
+				if end >= 0 {
+					field = text[:end]
+				}
+				if v, ok = number(field); !ok {
+					v = math.NaN()
+				}
+			}
+			p.nums = append(p.nums, v)
+			if end < 0 {
+				break
+			}
+			text = text[end+1:]
+		}
+		if fields != width {
+			return
+		}
+		if p.lines == nil && line != p.line+p.rows {
+			// A blank line came before: record every row's line.
+			p.lines = make([]int, p.rows, p.most)
+			for i := range p.lines {
+				p.lines[i] = p.line + i
+			}
+		}
+		if p.lines != nil {
+			p.lines = append(p.lines, line)
+		}
+		p.rows++
+	}
+	p.ok = true
+}
+
+// lineScanner yields the non-empty lines of a text without quotes or CRs,
+// the records of readPlain, with their line numbers.
+type lineScanner struct {
+	data string
+	line int
+}
+
+// next returns the next non-empty line and its number, or false at the
+// end.
+func (s *lineScanner) next() (string, int, bool) {
+	for len(s.data) > 0 {
+		s.line++
+		text := s.data
+		if i := strings.IndexByte(s.data, '\n'); i >= 0 {
+			text, s.data = s.data[:i], s.data[i+1:]
+		} else {
+			s.data = ""
+		}
+		if text != "" {
+			return text, s.line, true
+		}
+	}
+	return "", 0, false
 }
 
 // splitPlain appends the fields of one unquoted line to dst, each without
@@ -237,15 +475,54 @@ func splitPlain(dst []string, text string) []string {
 		if i >= 0 {
 			field = text[:i]
 		}
-		if field != "" && (field[0] <= ' ' || field[0] >= utf8.RuneSelf) {
-			field = strings.TrimLeftFunc(field, unicode.IsSpace)
-		}
-		dst = append(dst, field)
+		dst = append(dst, trimLeft(field))
 		if i < 0 {
 			return dst
 		}
 		text = text[i+1:]
 	}
+}
+
+// plainField returns field j of an unquoted line, without its leading
+// white space.
+func plainField(text string, j int) string {
+	for ; j > 0; j-- {
+		text = text[strings.IndexByte(text, ',')+1:]
+	}
+	if i := strings.IndexByte(text, ','); i >= 0 {
+		text = text[:i]
+	}
+	return trimLeft(text)
+}
+
+// trimLeft removes a field's leading white space, as encoding/csv's
+// TrimLeadingSpace does.
+func trimLeft(field string) string {
+	if field != "" && (field[0] <= ' ' || field[0] >= utf8.RuneSelf) {
+		return strings.TrimLeftFunc(field, unicode.IsSpace)
+	}
+	return field
+}
+
+// rowText returns the line of data row i of a table read by readPlain.
+// It walks the file from the start: it serves error messages, not loops.
+func (t *Table) rowText(i int) string {
+	sc := lineScanner{data: t.data}
+	sc.next() // the header
+	for ; i > 0; i-- {
+		sc.next()
+	}
+	text, _, _ := sc.next()
+	return text
+}
+
+// cell returns the text of row i, column j. For a table of ReadFile it
+// may lie in the mapped file: callers copy what they keep.
+func (t *Table) cell(i, j int) string {
+	if t.records != nil {
+		return t.records[i][j]
+	}
+	return plainField(t.rowText(i), j)
 }
 
 // csvError reformats an encoding/csv error as file:line: message.
@@ -276,7 +553,7 @@ func (t *Table) Column(name string) (int, error) {
 
 // Numeric reports whether every cell of column j parses as a finite number.
 func (t *Table) Numeric(j int) bool {
-	for i := range t.Cells {
+	for i := 0; i < t.rows; i++ {
 		if !t.isNumber(i, j) {
 			return false
 		}
@@ -288,7 +565,7 @@ func (t *Table) Numeric(j int) bool {
 // a column meant to be numeric, in which a bad cell is an error to report
 // rather than a reason to drop the column.
 func (t *Table) HasNumber(j int) bool {
-	for i := range t.Cells {
+	for i := 0; i < t.rows; i++ {
 		if t.isNumber(i, j) {
 			return true
 		}
@@ -301,7 +578,7 @@ func (t *Table) isNumber(i, j int) bool {
 	if t.nums != nil {
 		return !math.IsNaN(t.nums[i*len(t.Names)+j])
 	}
-	_, ok := number(t.Cells[i][j])
+	_, ok := number(t.records[i][j])
 	return ok
 }
 
@@ -316,7 +593,7 @@ func cutName(s string) string {
 
 // Line returns the file line on which data row i (0-based) starts.
 func (t *Table) Line(i int) int {
-	if i < len(t.lines) {
+	if t.lines != nil {
 		return t.lines[i]
 	}
 	return i + 2
@@ -330,11 +607,91 @@ func (t *Table) Float(i, j int) (float64, error) {
 			return v, nil
 		}
 	}
-	v, err := parse(t.Cells[i][j])
+	var v float64
+	var err error
+	if ferr := t.guard(func() { v, err = parse(t.cell(i, j)) }); ferr != nil {
+		return 0, ferr
+	}
 	if err != nil {
 		return 0, fmt.Errorf("%s:%d: column %s: %v", t.File, t.Line(i), cutName(t.Names[j]), err)
 	}
 	return v, nil
+}
+
+// Group is the rows of a table that share one text in a column.
+type Group struct {
+	// Name is the text.
+	Name string
+	// Rows are the data rows (0-based) that hold it, in file order.
+	Rows []int
+}
+
+// Groups splits the rows by the text of column j: one group per distinct
+// text, in the order of first appearance. The groups' Rows share one
+// array; their names are copies, valid after Close.
+func (t *Table) Groups(j int) ([]Group, error) {
+	// rows holds each row's group while the rows are read; when every
+	// group's rows come together (the usual layout) it then becomes the
+	// rows in order, each group a stretch of it, and no other array is
+	// needed.
+	rows := make([]int, t.rows)
+	prefault(rows)
+	var groups []Group
+	var counts []int
+	together := true
+	err := t.guard(func() {
+		index := map[string]int{}
+		var sc lineScanner
+		if t.records == nil {
+			sc.data = t.data
+			sc.next() // the header
+		}
+		prev, k := "", -1
+		for i := range rows {
+			var s string
+			if t.records != nil {
+				s = t.records[i][j]
+			} else {
+				text, _, _ := sc.next()
+				s = plainField(text, j)
+			}
+			// The previous row's group is tried before the index.
+			if k < 0 || s != prev {
+				var ok bool
+				if k, ok = index[s]; ok {
+					together = false // a group met again after another
+				} else {
+					k = len(groups)
+					s = strings.Clone(s)
+					index[s] = k
+					groups = append(groups, Group{Name: s})
+					counts = append(counts, 0)
+				}
+				prev = s
+			}
+			rows[i] = k
+			counts[k]++
+		}
+	})
+	if err != nil {
+		return nil, err
+	}
+	// Lay the groups' rows out in one array, in group order. When the
+	// groups came together, row i goes to index i, the index just read:
+	// the array can be rewritten in place.
+	of := rows
+	if !together {
+		rows = make([]int, t.rows)
+	}
+	start := 0
+	for k, n := range counts {
+		groups[k].Rows = rows[start : start : start+n]
+		start += n
+	}
+	for i, k := range of {
+		groups[k].Rows = append(groups[k].Rows, i)
+	}
+	return groups, nil
 }
 
 // parse reads one numeric cell: a decimal number, such as 12, -0.5, 3.1e-4

@@ -66,11 +66,9 @@ func FuzzRead(f *testing.F) {
 			}
 			return
 		}
-		for i := range tab.Cells {
+		for i := 0; i < tab.Rows(); i++ {
 			for j := range tab.Names {
-				if j < len(tab.Cells[i]) {
-					tab.Float(i, j)
-				}
+				tab.Float(i, j)
 			}
 		}
 	})
@@ -119,8 +117,8 @@ func TestLineEndings(t *testing.T) {
 		if err != nil {
 			t.Fatalf("%s: %v", name, err)
 		}
-		if len(tab.Cells) != 3 {
-			t.Errorf("%s: %d rows, want 3", name, len(tab.Cells))
+		if tab.Rows() != 3 {
+			t.Errorf("%s: %d rows, want 3", name, tab.Rows())
 		}
 		if v, err := tab.Float(1, 0); err != nil || v != 10 {
 			t.Errorf("%s: row 2 = %v, %v", name, v, err)
@@ -142,8 +140,20 @@ func TestLineEndings(t *testing.T) {
 // encoding/csv.
 func samePlain(t *testing.T, data string) {
 	t.Helper()
-	got, ok, gerr := readPlain("p.csv", data)
+	for _, split := range []int{parallelBytes, 1} {
+		samePlainSplit(t, data, split)
+	}
+}
+
+// samePlainSplit is samePlain with the rows read in two halves when they
+// hold split bytes or more.
+func samePlainSplit(t *testing.T, data string, split int) {
+	t.Helper()
+	got, ok, gerr := readPlainSplit("p.csv", data, split)
 	if !ok {
+		if _, ok1, _ := readPlain("p.csv", data); ok1 {
+			t.Fatalf("%q: read in halves from %d bytes, left to encoding/csv; read whole, not", data, split)
+		}
 		return
 	}
 	want, werr := readCSV("p.csv", strings.NewReader(data))
@@ -153,12 +163,17 @@ func samePlain(t *testing.T, data string) {
 	if gerr != nil {
 		return
 	}
-	if !slices.Equal(got.Names, want.Names) || !slices.Equal(got.lines, want.lines) || len(got.Cells) != len(want.Cells) {
-		t.Fatalf("%q: plain %q %v %q, csv %q %v %q", data, got.Names, got.lines, got.Cells, want.Names, want.lines, want.Cells)
+	if !slices.Equal(got.Names, want.Names) || got.Rows() != want.Rows() {
+		t.Fatalf("%q: plain %q, %d rows; csv %q, %d rows", data, got.Names, got.Rows(), want.Names, want.Rows())
 	}
-	for i := range got.Cells {
-		if !slices.Equal(got.Cells[i], want.Cells[i]) {
-			t.Fatalf("%q row %d: plain %q, csv %q", data, i, got.Cells[i], want.Cells[i])
+	for i := 0; i < got.Rows(); i++ {
+		if got.Line(i) != want.Line(i) {
+			t.Fatalf("%q row %d: plain on line %d, csv on line %d", data, i, got.Line(i), want.Line(i))
+		}
+		for j := range got.Names {
+			if g, w := got.cell(i, j), want.cell(i, j); g != w {
+				t.Fatalf("%q row %d column %d: plain %q, csv %q", data, i, j, g, w)
+			}
 		}
 		// The numbers read as the file was split are the ones read from
 		// the text on demand, with the same errors.

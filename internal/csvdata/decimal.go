@@ -23,6 +23,14 @@ const maxExpDigits = 1 << 20
 // scanDecimal reads s if it is [+-]digits[.digits][(e|E)[+-]digits], with
 // at least one digit before the exponent, and reports whether it is.
 func scanDecimal(s string) (decimal, bool) {
+	d, i, ok := scanDecimalPrefix(s)
+	return d, ok && i == len(s)
+}
+
+// scanDecimalPrefix reads the longest start of s that scanDecimal takes,
+// and returns it and its length; false when s starts with no such number,
+// or with one whose exponent has no digits.
+func scanDecimalPrefix(s string) (decimal, int, bool) {
 	d := decimal{exact: true}
 	i := 0
 	if i < len(s) && (s[i] == '+' || s[i] == '-') {
@@ -64,7 +72,7 @@ func scanDecimal(s string) (decimal, bool) {
 		d.exact = false // too many digits for mant: strconv rounds
 	}
 	if digits == 0 {
-		return d, false
+		return d, i, false
 	}
 	if i < len(s) && (s[i] == 'e' || s[i] == 'E') {
 		i++
@@ -80,7 +88,7 @@ func scanDecimal(s string) (decimal, bool) {
 			}
 		}
 		if i == start {
-			return d, false
+			return d, i, false
 		}
 		if e >= maxExpDigits {
 			d.exact = false
@@ -90,7 +98,7 @@ func scanDecimal(s string) (decimal, bool) {
 		}
 		d.exp += e
 	}
-	return d, i == len(s)
+	return d, i, true
 }
 
 // isDecimal reports whether s is [+-]digits[.digits][(e|E)[+-]digits],
