@@ -1,8 +1,10 @@
 package estimators
 
 import (
+	"errors"
 	"math"
 	"math/rand/v2"
+	"strings"
 	"testing"
 
 	"gonum.org/v1/gonum/mat"
@@ -428,5 +430,40 @@ func TestMethodRoles(t *testing.T) {
 	}
 	if len(Methods()) != 7 {
 		t.Errorf("%d methods: add the new one to this table", len(Methods()))
+	}
+}
+
+// TestCheckNamesNonFinite: a fit refuses NaN and ±Inf in the response or
+// the design and names the first such value; the largest finite values
+// pass.
+func TestCheckNamesNonFinite(t *testing.T) {
+	for _, c := range []struct {
+		row, col int // col −1: the response
+		v        float64
+		want     string
+	}{
+		{2, -1, math.NaN(), "response row 3 is NaN"},
+		{0, -1, math.Inf(-1), "response row 1 is -Inf"},
+		{4, 1, math.Inf(1), "design row 5 column 2 is +Inf"},
+		{1, 0, math.NaN(), "design row 2 column 1 is NaN"},
+		{3, 1, math.MaxFloat64, ""},
+		{3, -1, -math.MaxFloat64, ""},
+	} {
+		x := mat.NewDense(6, 2, []float64{1, 0, 1, 1, 1, 2, 1, 3, 1, 4, 1, 5})
+		y := []float64{0, 1, 2, 3, 4, 5}
+		if c.col < 0 {
+			y[c.row] = c.v
+		} else {
+			x.Set(c.row, c.col, c.v)
+		}
+		var ws Workspace
+		var res Result
+		err := (Estimator{Method: MethodLS}).Fit(x, y, &ws, &res)
+		switch {
+		case c.want == "" && errors.Is(err, ErrNonFinite):
+			t.Errorf("%v at row %d col %d: refused: %v", c.v, c.row, c.col, err)
+		case c.want != "" && (err == nil || !errors.Is(err, ErrNonFinite) || !strings.Contains(err.Error(), c.want)):
+			t.Errorf("%v at row %d col %d: error %v, want one saying %q", c.v, c.row, c.col, err, c.want)
+		}
 	}
 }
