@@ -203,7 +203,13 @@ func sScale(r []float64, b, d, c, s0 float64) float64 {
 // W^½X, as weightedStep does.
 func (ws *Workspace) sSolve(x blas64.General, beta []float64, s, c float64) bool {
 	p := ws.p
-	if !ldlSolve(ws.m, p, ws.delta) {
+	var solved bool
+	if p <= colMaxP {
+		solved = ldlSolve(ws.m, p, ws.delta)
+	} else {
+		solved = choleskySolve(ws.m, p, ws.delta, ws.pscale)
+	}
+	if !solved {
 		if !ws.sWeightedQR(x, s, c) {
 			return false
 		}
@@ -265,7 +271,9 @@ func (ws *Workspace) sStepCols(cw *colWork, c float64, x blas64.General, y, beta
 // the diagonal to 1, so both refuse the same matrices up to rounding. The
 // I-steps of the resampling searches use it: their steps are refined
 // further, and the scaled Cholesky factorisation with its square roots
-// took a sixth of a fast-S fit.
+// took a sixth of a fast-S fit. Its scratch is on the stack, for at most
+// colMaxP columns; it reports false for more (sSolve uses choleskySolve
+// there).
 func ldlSolve(m []float64, p int, g []float64) bool {
 	if p > colMaxP {
 		return false
