@@ -505,3 +505,25 @@ func choleskySolve5(m, g, scale []float64) bool {
 	g[4] *= scale[4]
 	return true
 }
+
+// upperInverseNorm2 returns ‖U⁻¹‖²_F for the upper triangular p×p U held
+// row-major in t with each diagonal element replaced by its reciprocal,
+// finding U⁻¹ column by column (U u = e_j, u_i = 0 for i > j); u (p) is
+// scratch.
+func upperInverseNorm2(t []float64, p int, u []float64) float64 {
+	var s float64
+	for j := 0; j < p; j++ {
+		for i := j; i >= 0; i-- {
+			var v float64
+			if i == j {
+				v = 1
+			}
+			for k := i + 1; k <= j; k++ {
+				v -= t[i*p+k] * u[k]
+			}
+			u[i] = v * t[i*p+i]
+			s += u[i] * u[i]
+		}
+	}
+	return s
+}

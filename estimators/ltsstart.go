@@ -515,25 +515,10 @@ func (lw *ltsWork) normalSolve(b []float64, first bool) (delta float64, ok bool)
 		return 0, false
 	}
 	// m holds U with UᵀU = D M D, D = diag(s). ‖(UᵀU)⁻¹‖₂ ≤ ‖U⁻¹‖²_F.
-	var inv2 float64
-	u := sw.u[:p]
 	for i := 0; i < p; i++ {
 		m[i*p+i] = 1 / m[i*p+i]
 	}
-	for j := 0; j < p; j++ {
-		// Column j of U⁻¹: solve U u = e_j (u_i = 0 for i > j).
-		for i := j; i >= 0; i-- {
-			var v float64
-			if i == j {
-				v = 1
-			}
-			for k := i + 1; k <= j; k++ {
-				v -= m[i*p+k] * u[k]
-			}
-			u[i] = v * m[i*p+i]
-			inv2 += u[i] * u[i]
-		}
-	}
+	inv2 := upperInverseNorm2(m, p, sw.u[:p])
 	var zn, xs, rho float64
 	for k, v := range g {
 		if math.IsNaN(v) || math.IsInf(v, 0) {
@@ -616,9 +601,8 @@ func (lw *ltsWork) givensSolve() bool {
 		sg[k] = math.Sqrt(v)
 	}
 	// ‖R̃⁻¹‖²_F, column by column of R̃⁻¹ (R̃_ij = R_ij/√g_j).
-	var inv2 float64
 	// sw.g holds 1/√g_k, sw.m R̃ with the reciprocals of its diagonal.
-	u, isg, rs := sw.u[:p], sw.g[:p], sw.m[:p*p]
+	isg, rs := sw.g[:p], sw.m[:p*p]
 	for k, v := range sg {
 		isg[k] = 1 / v
 	}
@@ -628,19 +612,7 @@ func (lw *ltsWork) givensSolve() bool {
 			rs[i*p+k] = r[i*p+k] * isg[k]
 		}
 	}
-	for j := 0; j < p; j++ {
-		for i := j; i >= 0; i-- {
-			var v float64
-			if i == j {
-				v = 1
-			}
-			for k := i + 1; k <= j; k++ {
-				v -= rs[i*p+k] * u[k]
-			}
-			u[i] = v * rs[i*p+i]
-			inv2 += u[i] * u[i]
-		}
-	}
+	inv2 := upperInverseNorm2(rs, p, sw.u[:p])
 	fp := float64(p)
 	gamma := 4.04 * fp * fp * epsilon
 	inv := math.Sqrt(inv2)

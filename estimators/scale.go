@@ -158,8 +158,18 @@ func madFinishStats(r, buf []float64, below, mid int) (mad, lo, hi float64) {
 		}
 	}
 	k -= below
-	hi = selectFast(m, k)
-	if n%2 == 1 {
+	selectFast(m, k)
+	return madOf(m, k, n%2 == 1)
+}
+
+// madOf returns the MAD and the middle order statistics lo ≤ hi of |r|
+// from values m of which the k-th smallest is at m[k] with every smaller
+// one before it (as selectFast and median leave them), k being the upper
+// middle one's rank among them; for even n the lower middle one is the
+// largest of m[:k].
+func madOf(m []float64, k int, odd bool) (mad, lo, hi float64) {
+	hi = m[k]
+	if odd {
 		return hi / MADConsistency, hi, hi
 	}
 	lo = m[0]
@@ -186,17 +196,7 @@ func madStats(r, buf []float64) (mad, lo, hi float64) {
 		}
 	}
 	// median left the k-th smallest at buf[k] and the smaller ones before.
-	k := n / 2
-	hi = buf[k]
-	if n%2 == 1 {
-		return mad, hi, hi
-	}
-	lo = buf[0]
-	for _, v := range buf[1:k] {
-		if v > lo {
-			lo = v
-		}
-	}
+	_, lo, hi = madOf(buf, n/2, n%2 == 1)
 	return mad, lo, hi
 }
 
@@ -222,17 +222,8 @@ func madFirst(r, buf []float64) (mad, lo, hi float64) {
 		return madStats(r, buf)
 	}
 	k := n / 2
-	hi = selectFast(buf, k)
-	if n%2 == 1 {
-		return hi / MADConsistency, hi, hi
-	}
-	lo = buf[0]
-	for _, v := range buf[1:k] {
-		if v > lo {
-			lo = v
-		}
-	}
-	return (lo/2 + hi/2) / MADConsistency, lo, hi
+	selectFast(buf, k)
+	return madOf(buf, k, n%2 == 1)
 }
 
 // madTighten narrows the bracket [lo, hi] of the next iterate's MAD with

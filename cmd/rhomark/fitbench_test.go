@@ -49,6 +49,23 @@ func writeGroupedW1(tb testing.TB, path string, groups int) {
 	}
 }
 
+// fitGroupsRuns returns the runs the fit benchmarks time over the grouped
+// file at path: Huber by IRLS to 1e-10 per meter, written as JSON or as
+// the table.
+func fitGroupsRuns(path string) []struct {
+	name string
+	args []string
+} {
+	base := []string{"fit", path, "--y", "y", "--group", "meter", "--tol", "1e-10"}
+	return []struct {
+		name string
+		args []string
+	}{
+		{"json", append(append([]string(nil), base...), "--json")},
+		{"table", base},
+	}
+}
+
 // BenchmarkFitGroups measures `fit --group` over 1,000 groups of the W1
 // workload (Huber by IRLS, a 10 MB CSV), the whole command in process:
 // reading and parsing the file, the fits, their inference and the output
@@ -57,15 +74,9 @@ func BenchmarkFitGroups(b *testing.B) {
 	const groups = 1000
 	path := filepath.Join(b.TempDir(), "meters.csv")
 	writeGroupedW1(b, path, groups)
-	for _, c := range []struct {
-		name string
-		args []string
-	}{
-		{"json", []string{"--json"}},
-		{"table", nil},
-	} {
+	for _, c := range fitGroupsRuns(path) {
 		b.Run(c.name, func(b *testing.B) {
-			args := append([]string{"fit", path, "--y", "y", "--group", "meter", "--tol", "1e-10"}, c.args...)
+			args := c.args
 			b.ReportAllocs()
 			for i := 0; i < b.N; i++ {
 				if code := run(args, nil, io.Discard, io.Discard); code != exitOK {
@@ -107,15 +118,9 @@ func BenchmarkFitGroupsProcess(b *testing.B) {
 		b.Fatal(err)
 	}
 	defer null.Close()
-	for _, c := range []struct {
-		name string
-		args []string
-	}{
-		{"json", []string{"--json"}},
-		{"table", nil},
-	} {
+	for _, c := range fitGroupsRuns(path) {
 		b.Run(c.name, func(b *testing.B) {
-			args := append([]string{"fit", path, "--y", "y", "--group", "meter", "--tol", "1e-10"}, c.args...)
+			args := c.args
 			var faults float64
 			var cpu time.Duration
 			for i := 0; i < b.N; i++ {
