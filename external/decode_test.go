@@ -30,6 +30,9 @@ func TestDecodeReply(t *testing.T) {
 		{line: `{"coefficients":[],"converged":false}`, hasCoefs: true, badCoef: -1},
 		{line: `{}`, badCoef: -1, converged: true},
 		{line: `{"coefficients":null,"scale":null,"iterations":null,"converged":null,"status":null,"error":null}`, badCoef: -1, converged: true},
+		// Names are case-sensitive: this is another field, so there are no
+		// coefficients.
+		{line: `{"Coefficients":[1],"SCALE":2}`, badCoef: -1, converged: true},
 		{line: `{"coefficients":[1,NaN,3]}`, coefs: []float64{1, math.NaN(), 3}, hasCoefs: true, badCoef: 1, converged: true},
 		{line: `{"coefficients":[Infinity,-Infinity]}`, coefs: []float64{math.Inf(1), math.Inf(-1)}, hasCoefs: true, badCoef: 0, converged: true},
 		{line: `{"coefficients":[1,-1e400]}`, coefs: []float64{1, math.Inf(-1)}, hasCoefs: true, badCoef: 1, converged: true},
@@ -106,8 +109,10 @@ func TestDecodeReusesWire(t *testing.T) {
 }
 
 // FuzzDecodeReply checks that no line makes the decoder panic, and that
-// on lines the standard library reads as an object with a coefficients
-// array of numbers, both agree.
+// on lines the standard library reads as an object whose field named
+// exactly "coefficients" (the protocol's names are case-sensitive, where
+// encoding/json's struct fields are not) is an array of numbers, both
+// agree. As for a struct field, the last of repeated names counts.
 func FuzzDecodeReply(f *testing.F) {
 	for _, s := range []string{`{"coefficients":[1,2.5e-3],"scale":1}`, `{"error":"x"}`, `{"a":{"b":[null]}}`, `{"coefficients":[NaN]}`, `{"status":"\u00e9"}`} {
 		f.Add(s)
@@ -115,10 +120,13 @@ func FuzzDecodeReply(f *testing.F) {
 	f.Fuzz(func(t *testing.T, line string) {
 		var w wire
 		err := decodeReply([]byte(line), &w)
-		var std struct {
-			Coefficients []float64 `json:"coefficients"`
+		var fields map[string]json.RawMessage
+		if json.Unmarshal([]byte(line), &fields) != nil || strings.ContainsAny(line, "\n") {
+			return
 		}
-		if json.Unmarshal([]byte(line), &std) != nil || std.Coefficients == nil || strings.ContainsAny(line, "\n") {
+		var std struct{ Coefficients []float64 }
+		raw, ok := fields["coefficients"]
+		if !ok || json.Unmarshal(raw, &std.Coefficients) != nil || std.Coefficients == nil {
 			return
 		}
 		if err != nil {

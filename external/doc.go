@@ -58,8 +58,10 @@
 //	error         string   a message: the fit failed (status program-error);
 //	                       the other fields are then ignored
 //
-// Other fields are ignored, and null counts as absent (except inside
-// coefficients, where it is a missing value). Example:
+// Field names are matched exactly as written here (JSON keys are
+// case-sensitive: "Coefficients" is another field). Other fields are
+// ignored, and null counts as absent (except inside coefficients, where it
+// is a missing value). Example:
 //
 //	{"coefficients":[0.31,0.987],"scale":0.42,"iterations":9,"status":"converged"}
 //
