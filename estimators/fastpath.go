@@ -157,9 +157,9 @@ func (ws *Workspace) evaluateHuberSums5(hp psi.Huber, sigma float64, x blas64.Ge
 	return csum
 }
 
-// huberSums5 is the loop of evaluateHuberSums5, a function of its own
-// with few values live so that they stay in registers.
-func huberSums5(r, c, ps []float64, offs []int, data []float64, stride int, k, sigma float64, h *[5]float64) (csum float64, off int) {
+// huberSums5Go is the loop of evaluateHuberSums5 in Go, a function of its
+// own with few values live so that they stay in registers.
+func huberSums5Go(r, c, ps []float64, offs []int, data []float64, stride int, k, sigma float64, h *[5]float64) (csum float64, off int) {
 	c, ps, offs = c[:len(r)], ps[:len(r)], offs[:len(r)]
 	var h0, h1, h2, h3, h4 float64
 	row := 0
