@@ -2,8 +2,6 @@ package estimators
 
 import (
 	"math"
-	"math/bits"
-	"slices"
 
 	"github.com/rhomark/rhomark/psi"
 )
@@ -248,14 +246,20 @@ func madTighten(lo, hi, midLo, midHi, move float64) (float64, float64) {
 }
 
 // median returns the median of a, reordering a. For even length it is the
-// mean of the two middle order statistics. a must not contain NaN.
+// mean of the two middle order statistics. It is NaN when a is empty or
+// holds NaN, whose place in an order would otherwise decide the result.
 func median(a []float64) float64 {
 	n := len(a)
+	for _, v := range a {
+		if v != v {
+			return math.NaN()
+		}
+	}
 	if n == 0 {
 		return math.NaN()
 	}
 	k := n / 2
-	hi := selectKth(a, k)
+	hi := selectFast(a, k)
 	if n%2 == 1 {
 		return hi
 	}
@@ -266,62 +270,6 @@ func median(a []float64) float64 {
 		}
 	}
 	return lo/2 + hi/2
-}
-
-// selectKth partially sorts a so that a[k] holds the k-th smallest value
-// (0-based), every a[i] ≤ a[k] for i < k and every a[i] ≥ a[k] for i > k, and
-// returns a[k]. Quickselect with a median-of-three pivot; when a partition
-// goes badly too often it sorts the rest, so the worst case stays
-// O(n log n).
-func selectKth(a []float64, k int) float64 {
-	lo, hi := 0, len(a)-1
-	budget := 2 * bits.Len(uint(len(a)))
-	for hi > lo {
-		if hi-lo < 12 {
-			insertionSort(a[lo : hi+1])
-			return a[k]
-		}
-		if budget == 0 {
-			slices.Sort(a[lo : hi+1]) // pdqsort: O(n log n) worst case, no allocation
-			return a[k]
-		}
-		budget--
-		mid := lo + (hi-lo)/2
-		// Order a[lo], a[mid], a[hi]; the median goes to a[mid].
-		if a[mid] < a[lo] {
-			a[mid], a[lo] = a[lo], a[mid]
-		}
-		if a[hi] < a[lo] {
-			a[hi], a[lo] = a[lo], a[hi]
-		}
-		if a[hi] < a[mid] {
-			a[hi], a[mid] = a[mid], a[hi]
-		}
-		pivot := a[mid]
-		i, j := lo, hi
-		for i <= j {
-			for a[i] < pivot {
-				i++
-			}
-			for a[j] > pivot {
-				j--
-			}
-			if i <= j {
-				a[i], a[j] = a[j], a[i]
-				i++
-				j--
-			}
-		}
-		switch {
-		case k <= j:
-			hi = j
-		case k >= i:
-			lo = i
-		default:
-			return a[k]
-		}
-	}
-	return a[k]
 }
 
 // insertionSort sorts a small slice in place.

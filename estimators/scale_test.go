@@ -37,7 +37,7 @@ func TestMedianSelect(t *testing.T) {
 		}
 		for k := 0; k < n; k += max(1, n/7) {
 			work := append([]float64(nil), c...)
-			if got := selectKth(work, k); got != sorted[k] {
+			if got := selectFast(work, k); got != sorted[k] {
 				t.Errorf("case %d: select(%d) = %v, want %v", i, k, got, sorted[k])
 			}
 		}
@@ -62,5 +62,21 @@ func TestNorm2Range(t *testing.T) {
 	}
 	if got := norm2([]float64{1, math.NaN()}); !math.IsNaN(got) {
 		t.Errorf("norm2 with NaN = %v", got)
+	}
+}
+
+// TestMADWithNaN: a NaN anywhere in the residuals makes the MAD NaN, never
+// a finite value that depends on where the NaN sat (the selection's
+// comparisons with NaN are all false).
+func TestMADWithNaN(t *testing.T) {
+	for _, r := range [][]float64{
+		{1, math.NaN(), 3},
+		{math.NaN(), 1, 2, 3},
+		{1, 2, 3, 4, 5, math.NaN()},
+		{math.NaN(), math.NaN(), 1},
+	} {
+		if got := MAD(r, make([]float64, len(r))); !math.IsNaN(got) {
+			t.Errorf("MAD(%v) = %v, want NaN", r, got)
+		}
 	}
 }

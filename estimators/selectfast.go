@@ -8,14 +8,12 @@ import (
 
 // selectFast reorders a so that a[k] holds its k-th smallest value
 // (0-based), every a[i] ≤ a[k] for i < k and every a[i] ≥ a[k] for i > k,
-// and returns a[k]: the contract of selectKth, and so the same value, only
-// found faster on the residuals of the resampling searches. It partitions
-// by Lomuto's scheme written without a data-dependent branch (every element
-// is swapped, and the boundary moves by the outcome of the comparison),
-// around a median-of-three pivot, and finishes short ranges by insertion
-// sort. On fresh random data, where the branches of Hoare's scheme are
-// mispredicted about half the time, it takes about a fifth of the time at
-// n = 100 (BenchmarkSelectFresh). When partitions go badly too often (many
+// and returns a[k]. It partitions by Lomuto's scheme written without a
+// data-dependent branch (every element is swapped, and the boundary moves
+// by the outcome of the comparison), around a median-of-three pivot, and
+// finishes short ranges by insertion sort. On fresh random data, where the
+// branches of Hoare's scheme would be mispredicted about half the time,
+// that took about a fifth of the time at n = 100 (BenchmarkSelectFresh). When partitions go badly too often (many
 // equal values) it sorts the rest, so the worst case stays O(n log n). a
 // must not contain NaN.
 func selectFast(a []float64, k int) float64 {

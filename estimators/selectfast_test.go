@@ -68,7 +68,7 @@ func BenchmarkSelectFresh(b *testing.B) {
 	for _, f := range []struct {
 		name string
 		sel  func([]float64, int) float64
-	}{{"selectKth", selectKth}, {"selectFast", selectFast}} {
+	}{{"selectFast", selectFast}} {
 		b.Run(f.name, func(b *testing.B) {
 			for i := 0; i < b.N; i++ {
 				copy(buf, data[i%m])
