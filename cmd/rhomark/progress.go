@@ -24,10 +24,16 @@ type progress struct {
 	mu    sync.Mutex
 	bar   *progressbar.ProgressBar
 	last  int64
+	shown time.Time // when the bar was last drawn
 	label string
 	cells int    // the run's number of cells
 	where string // the cells the description shows
 }
+
+// redrawEvery is the shortest time between two drawings of the bar while
+// the cells it names stay the same; a change of cells is drawn at once, so
+// even a cell that takes a few milliseconds is named on the terminal.
+const redrawEvery = 100 * time.Millisecond
 
 // describe returns the bar's description for the cells of the unit last
 // finished: "cell 3" or, for cells that share their datasets (and so one
@@ -69,7 +75,7 @@ func newProgress(stderr io.Writer, quiet bool, label string, cells int) *progres
 		progressbar.OptionShowIts(),
 		progressbar.OptionSetItsString("replicates"),
 		progressbar.OptionSetPredictTime(true),
-		progressbar.OptionThrottle(100*time.Millisecond),
+		progressbar.OptionThrottle(0), // update throttles, see redrawEvery
 		progressbar.OptionSetWidth(30),
 		progressbar.OptionClearOnFinish(),
 	)
@@ -84,14 +90,21 @@ func (p *progress) update(r harness.ProgressReport) {
 	if p.bar.GetMax64() != r.Total {
 		p.bar.ChangeMax64(r.Total)
 	}
-	if r.Done > p.last {
-		p.last = r.Done
-		if d := p.describe(r.Cells); d != p.where {
-			p.where = d
-			p.bar.Describe(d)
-		}
-		p.bar.Set64(r.Done)
+	if r.Done <= p.last {
+		return
 	}
+	p.last = r.Done
+	d := p.describe(r.Cells)
+	now := time.Now()
+	if d == p.where && r.Done < r.Total && now.Sub(p.shown) < redrawEvery {
+		return
+	}
+	p.shown = now
+	if d != p.where {
+		p.where = d
+		p.bar.Describe(d)
+	}
+	p.bar.Set64(r.Done)
 }
 
 // finish removes the bar.
