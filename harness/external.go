@@ -70,8 +70,12 @@ func quoteCommand(args []string) string {
 }
 
 // CommandDir is the folder the programs of st's external estimators run
-// in: the scenario file's folder.
+// in: the scenario file's folder (Study.Dir, or File's folder from the
+// working directory when Dir is empty).
 func CommandDir(st *scenarios.Study) string {
+	if st.Dir != "" {
+		return st.Dir
+	}
 	dir, err := filepath.Abs(filepath.Dir(st.File))
 	if err != nil {
 		return filepath.Dir(st.File)

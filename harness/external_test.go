@@ -9,6 +9,7 @@ import (
 	"fmt"
 	"math"
 	"os"
+	"path/filepath"
 	"regexp"
 	"strconv"
 	"strings"
@@ -289,6 +290,87 @@ func TestExternalDeterministic(t *testing.T) {
 	}
 	if !bytes.Equal(csvOf(t, res), want) {
 		t.Error("a resumed run differs from one run")
+	}
+}
+
+// TestResumeElsewhereKeepsCommandFolder: a scenario whose program is named
+// relative to its own folder, loaded by a relative path and resumed through
+// its checkpoint file from another working directory, still runs the
+// program from the scenario's folder and gives the results of one run.
+func TestResumeElsewhereKeepsCommandFolder(t *testing.T) {
+	exe, err := os.Executable()
+	if err != nil {
+		t.Fatal(err)
+	}
+	root := t.TempDir()
+	bench := filepath.Join(root, "bench")
+	if err := os.Mkdir(bench, 0o755); err != nil {
+		t.Fatal(err)
+	}
+	if err := os.Symlink(exe, filepath.Join(bench, "prog")); err != nil {
+		t.Skipf("no symbolic link to the test program: %v", err)
+	}
+	src := fmt.Sprintf(`
+name: bench
+seed: 2026
+replicates: 16
+model:
+  n: 30
+  columns:
+    - {name: volume, slope: 0.98, dist: uniform, min: 1, max: 50}
+noise: {dist: normal, scale: 0.1}
+estimators:
+  - {label: prog, method: external, command: [./prog, %s, seeded], timeout: 20s}
+vary:
+  noise.scale: [0.1, 0.2]
+`, fakeMarker)
+	if err := os.WriteFile(filepath.Join(bench, "bench.yaml"), []byte(src), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	t.Chdir(root)
+	st, err := scenarios.Load(filepath.Join("bench", "bench.yaml"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	base := Options{AllowCommands: true, Stderr: &syncBuffer{}, Workers: 1}
+	whole, err := Run(context.Background(), st, base)
+	if err != nil {
+		t.Fatal(err)
+	}
+	ctx, cancel := context.WithCancel(context.Background())
+	defer cancel()
+	var last *Partial
+	opt := base
+	opt.Progress = func(ProgressReport) { cancel() }
+	opt.Checkpoint = func(p *Partial) error { last = p; return nil }
+	if _, _, err := RunPartial(ctx, st, opt); err == nil || last == nil || last.Complete() {
+		t.Fatalf("the run was not interrupted: %v", err)
+	}
+	var file bytes.Buffer
+	if err := WritePartial(&file, last); err != nil {
+		t.Fatal(err)
+	}
+
+	t.Chdir(t.TempDir())
+	cp, err := ReadPartial(&file)
+	if err != nil {
+		t.Fatal(err)
+	}
+	rst, err := StudyOf(cp, scenariosLimits())
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got := CommandDir(rst); got != bench {
+		t.Errorf("resumed from another folder, the program runs in %s, want %s", got, bench)
+	}
+	opt = base
+	opt.Resume = cp
+	res, err := Run(context.Background(), rst, opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !bytes.Equal(csvOf(t, res), csvOf(t, whole)) {
+		t.Errorf("the resumed run differs from one run:\n%s\nwant\n%s", csvOf(t, res), csvOf(t, whole))
 	}
 }
 

@@ -21,6 +21,7 @@ func StudyOf(p *Partial, limits scenarios.Limits) (*scenarios.Study, error) {
 	if st.Hash != p.Hash {
 		return nil, fmt.Errorf("the scenario carried by the partial results does not match its hash (written by another version?)")
 	}
+	st.Dir = p.Dir
 	return st, nil
 }
 

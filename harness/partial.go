@@ -37,6 +37,10 @@ type Partial struct {
 	File     string `json:"file"`   // file name the scenario was loaded from (Study.File)
 	Source   string `json:"source"` // full text of the scenario file
 	Hash     string `json:"hash"`   // scenario hash (Study.Hash); a resumed run must match it
+	// Dir is the absolute folder the scenario's external programs run in
+	// (CommandDir), recorded when it has any, so that a run resumed from
+	// another working directory runs them in the same place.
+	Dir string `json:"dir,omitempty"`
 	// Seed and Replicates are the run's.
 	Seed       uint64 `json:"seed"`
 	Replicates int    `json:"replicates"` // replicates per cell, after any override by Options
@@ -310,6 +314,9 @@ func newPartial(st *scenarios.Study, plans []cellPlan, total, size int, seed uin
 	p := &Partial{Tool: opt.Tool.Version, Build: build, Scenario: st.Base.Name, File: st.File, Source: string(st.Source), Hash: st.Hash,
 		Seed: seed, Replicates: reps, Shard: opt.Shard, Shards: opt.Shards, Units: total, UnitCells: size, done: new(big.Int),
 		AuditSolvers: opt.AuditSolvers || (opt.Resume != nil && opt.Resume.AuditSolvers)}
+	if CheckCommands(st) != nil {
+		p.Dir = CommandDir(st)
+	}
 	for _, pl := range plans {
 		p.cells = append(p.cells, pl.newTally())
 	}

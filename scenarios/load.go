@@ -22,6 +22,11 @@ import (
 type Study struct {
 	// File is the name the scenario was loaded from.
 	File string
+	// Dir is the absolute folder relative names in the scenario (an
+	// external estimator's program) are taken from: the folder of the file
+	// LoadWith read. Parse leaves it empty, and users of a Study then take
+	// File's folder from the working directory.
+	Dir string
 	// Source is the scenario file's text, kept so that checkpoints and
 	// shards can carry the scenario with them.
 	Source []byte
@@ -112,7 +117,14 @@ func LoadWith(path string, limits Limits) (*Study, error) {
 	if err != nil {
 		return nil, err
 	}
-	return Parse(path, data, limits)
+	st, err := Parse(path, data, limits)
+	if err != nil {
+		return nil, err
+	}
+	if dir, err := filepath.Abs(filepath.Dir(path)); err == nil {
+		st.Dir = dir
+	}
+	return st, nil
 }
 
 // Parse validates a scenario held in data; file names it in errors. Every
