@@ -79,6 +79,10 @@ func measureNames() []string {
 //
 // When both runs kept replicates of the same data (no data setting
 // differs, same seed), paired mode compares them replicate by replicate.
+//
+// Estimators with a solver study in both runs (solver audit, root search)
+// have its counts tested too (AuditReport); a study in one run only is
+// noted.
 func Compare(base, cand *Results, baseReps, candReps ReplicateSource, opt CompareOptions) (*Comparison, error) {
 	opt = opt.withDefaults()
 	c := &Comparison{Schema: CompareSchemaVersion, Baseline: runInfo(base), Candidate: runInfo(cand),
@@ -166,6 +170,7 @@ func Compare(base, cand *Results, baseReps, candReps ReplicateSource, opt Compar
 		}
 		return a.P < b.P
 	})
+	c.compareAudits(pairs, opt.FailureAlpha)
 	c.Replay = replayCommand(cand, c.Paired)
 	return c, nil
 }
@@ -336,23 +341,30 @@ func holm(d []Difference, alpha float64) int {
 // holmFailures applies Holm's procedure to the failure tests that can
 // reject and returns how many there were.
 func holmFailures(f []FailureTest, alpha float64, kind FailureTestKind) int {
+	informative := func(i int) bool { return f[i].BaselineFailed+f[i].CandidateFailed > 0 }
+	if kind == FailurePaired {
+		informative = func(i int) bool { return f[i].NewFailures+f[i].Recovered > 0 }
+	}
+	return holmExact(len(f), func(i int) float64 { return float64(f[i].P) }, informative, func(i int) { f[i].Flagged = true }, alpha)
+}
+
+// holmExact runs Holm's step-down procedure at family-wise level alpha over
+// the n tests (p-value p(i)) that could reject (informative), calling flag
+// for each rejected; it returns the number of tests in the family.
+func holmExact(n int, p func(int) float64, informative func(int) bool, flag func(int), alpha float64) int {
 	var idx []int
-	for i := range f {
-		informative := f[i].BaselineFailed+f[i].CandidateFailed > 0
-		if kind == FailurePaired {
-			informative = f[i].NewFailures+f[i].Recovered > 0
-		}
-		if informative {
+	for i := range n {
+		if informative(i) {
 			idx = append(idx, i)
 		}
 	}
-	sort.SliceStable(idx, func(a, b int) bool { return f[idx[a]].P < f[idx[b]].P })
+	sort.SliceStable(idx, func(a, b int) bool { return p(idx[a]) < p(idx[b]) })
 	m := len(idx)
 	for k, i := range idx {
-		if float64(f[i].P) > alpha/float64(m-k) {
+		if p(i) > alpha/float64(m-k) {
 			break
 		}
-		f[i].Flagged = true
+		flag(i)
 	}
 	return m
 }

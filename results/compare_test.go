@@ -40,6 +40,8 @@ func TestComparisonJSONRoundTrip(t *testing.T) {
 		Notes:     []string{"a note"},
 		Failures: FailureReport{Test: FailurePaired, Alpha: 0.05, Tested: 1, Tests: []FailureTest{{Cell: 1, Settings: []Setting{{"contamination.spikes.fraction", "0.1"}},
 			Estimator: "bisquare", BaselineFits: 200, CandidateFits: 200, CandidateFailed: 16, NewFailures: 16, P: Float(PairedExactP(16, 0)), Flagged: true}}},
+		Audit: &AuditReport{Alpha: 0.05, Tested: 1, Tests: []AuditTest{{Cell: 2, Estimator: "bisquare", Check: SeveralRoots, Baseline: 3, BaselineOf: 200, Candidate: 30, CandidateOf: 200,
+			BaselineMedian: nan, CandidateMedian: nan, P: Float(FisherExactP(3, 200, 30, 200)), Flagged: true}}},
 		Threshold: 4, Alpha: math.Erfc(4 / math.Sqrt2), Correction: "Holm", Tested: 2, CriticalZ: Float(holmCriticalZ(math.Erfc(4/math.Sqrt2), 2)),
 		Differences: []Difference{{Cell: 0, Estimator: "huber", Coefficient: "volume", Measure: "rel_eff", Baseline: 0.9, Candidate: nan, Diff: nan, MCSE: 0.01, Z: Float(math.Inf(1)), Flagged: true},
 			{Cell: 0, Estimator: "huber", Measure: "mean_iterations", Baseline: 7, Candidate: 7, Diff: 0, MCSE: nan, Z: nan}},
@@ -68,7 +70,7 @@ func TestComparisonJSONRoundTrip(t *testing.T) {
 	}
 	if len(back) != 1 || !math.IsInf(float64(back[0].Differences[0].Z), 1) || !math.IsNaN(float64(back[0].Differences[0].Candidate)) ||
 		!math.IsInf(float64(back[0].Paired.MaxAbsDiff), 1) || back[0].Failures.Test != FailurePaired || back[0].Settings[0].Kind != SettingSolver ||
-		back[0].Paired.StatusChanges[0].Kind != NewFailure || back[0].Paired.StatusChanges[0] != c.Paired.StatusChanges[0] {
+		back[0].Paired.StatusChanges[0].Kind != NewFailure || back[0].Audit == nil || back[0].Audit.Tests[0].Check != SeveralRoots || back[0].Paired.StatusChanges[0] != c.Paired.StatusChanges[0] {
 		t.Errorf("values lost in the round trip: %+v", back[0])
 	}
 	if _, err := ReadComparisonJSON(strings.NewReader(`[{"compare_schema": 2}]`)); err == nil {

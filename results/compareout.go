@@ -54,6 +54,7 @@ func (c *Comparison) verdict() string {
 	if nf > 0 {
 		why = append(why, fmt.Sprintf("fewer failures in %d cell × estimator", nf))
 	}
+	why = append(why, c.auditVerdict()...)
 	if p := c.Paired; p != nil {
 		if p.StatusChanged > 0 {
 			why = append(why, fmt.Sprintf("%d fit%s changed status", p.StatusChanged, plural(p.StatusChanged)))
@@ -212,6 +213,21 @@ func WriteComparison(w io.Writer, c *Comparison) error {
 		b.WriteString("  no failures in either run\n")
 	}
 
+	if c.Audit != nil {
+		fmt.Fprintf(b, "\nsolver studies, %s:\n", c.auditDetail())
+		if rows := c.auditRows(); len(rows) > 0 {
+			tw := tabwriter.NewWriter(b, 0, 0, 2, ' ', 0)
+			fmt.Fprintln(tw, "  cell\tsettings\testimator\tcounted\tbefore\tafter\tp\t")
+			for _, r := range rows {
+				before, after := auditCells(r)
+				fmt.Fprintf(tw, "  %d\t%s\t%s\t%s\t%s\t%s\t%.2g\t%s\n", r.Cell, shortSettings(r.Settings, "=", " "), r.Estimator, r.Check.what(), before, after, float64(r.P), auditNote(r))
+			}
+			tw.Flush()
+		} else {
+			b.WriteString("  " + auditNone + "\n")
+		}
+	}
+
 	if p := c.Paired; p != nil {
 		writeStatusChanges(b, c, p)
 		writeMoves(b, c, p)
@@ -363,6 +379,19 @@ func WriteComparisonMarkdown(w io.Writer, c *Comparison) error {
 			}
 		}
 		b.WriteString("\n")
+	}
+	if c.Audit != nil {
+		fmt.Fprintf(b, "**Solver studies**, %s.\n\n", c.auditDetail())
+		if rows := c.auditRows(); len(rows) > 0 {
+			b.WriteString("| cell | settings | estimator | counted | before | after | p | |\n|---:|---|---|---|---:|---:|---:|---|\n")
+			for _, r := range rows {
+				before, after := auditCells(r)
+				fmt.Fprintf(b, "| %d | %s | %s | %s | %s | %s | %.2g | %s |\n", r.Cell, shortSettings(r.Settings, "=", " "), r.Estimator, r.Check.what(), before, after, float64(r.P), auditNote(r))
+			}
+			b.WriteString("\n")
+		} else {
+			b.WriteString(strings.ToUpper(auditNone[:1]) + auditNone[1:] + ".\n\n")
+		}
 	}
 	if p := c.Paired; p != nil && len(p.StatusChanges) > 0 {
 		fmt.Fprintf(b, "**Status changes.** %d fits (%d new failures, %d recovered); %d listed, new failures first, largest move first.\n\n", p.StatusChanged, p.NewFailures, p.Recovered, len(p.StatusChanges))
@@ -538,6 +567,21 @@ func junitSuitesOf(c *Comparison, suite string) []junitSuite {
 		}
 		before, after := failureCounts(f)
 		g.fails = append(g.fails, fmt.Sprintf("cell %d %s failures: %s → %s (%s, p %.2g)", f.Cell, f.Estimator, before, after, failureNote(f), float64(f.P)))
+	}
+	if c.Audit != nil {
+		for _, a := range c.Audit.Tests {
+			if !a.Flagged {
+				continue
+			}
+			name := fmt.Sprintf("cell %d %s", a.Cell, a.Estimator)
+			g, ok := index[name]
+			if !ok {
+				g = &group{name: name}
+				index[name] = g
+				summary = append(summary, g)
+			}
+			g.fails = append(g.fails, auditJUnit(a))
+		}
 	}
 	s := junitSuite{Name: suite + " summary"}
 	for _, g := range summary {

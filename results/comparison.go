@@ -358,6 +358,9 @@ type Comparison struct {
 	Notes []string `json:"notes,omitempty"`
 	// Failures tests the failure rates, apart from the other measures.
 	Failures FailureReport `json:"failures"`
+	// Audit tests the solver studies of estimators audited or searched for
+	// roots in both runs; nil when there are none.
+	Audit *AuditReport `json:"audit,omitempty"`
 	// Threshold, Alpha and Correction describe the test of the other
 	// summary measures.
 	Threshold  float64 `json:"threshold"`
@@ -380,14 +383,17 @@ type Comparison struct {
 	Replay string `json:"replay,omitempty"`
 }
 
-// Flagged reports whether anything changed: a failure rate or another
-// measure beyond Monte Carlo error, or in paired mode an estimate beyond
-// the tolerance or a status.
+// Flagged reports whether anything changed: a failure rate, a count of a
+// solver study or another measure beyond Monte Carlo error, or in paired
+// mode an estimate beyond the tolerance or a status.
 func (c *Comparison) Flagged() bool {
 	for _, f := range c.Failures.Tests {
 		if f.Flagged {
 			return true
 		}
+	}
+	if c.auditFlagged() {
+		return true
 	}
 	return c.FlaggedCount() > 0 || c.Paired != nil && (c.Paired.Moved > 0 || c.Paired.StatusChanged > 0 || c.Paired.Missing > 0)
 }
