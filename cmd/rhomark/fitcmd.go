@@ -2,6 +2,7 @@ package main
 
 import (
 	"errors"
+	"flag"
 	"fmt"
 	"math"
 	"os"
@@ -100,21 +101,7 @@ func fitCmd(e env, args []string) error {
 	xCols := fs.String("x", "", "predictor `columns`, comma-separated (default: every other column holding numbers)")
 	group := fs.String("group", "", "fit once per value of this `column`")
 	noIntercept := fs.Bool("no-intercept", false, "fit without an intercept")
-	method := &methodFlag{m: estimators.MethodIRLS}
-	fs.Var(method, "method", "`method`: "+method.choices())
-	start := &methodFlag{m: estimators.MethodLS, starts: true}
-	fs.Var(start, "start", "`method` whose estimate starts "+
-		estimators.ListMethods(estimators.MethodsWhere(userStart), "or")+": "+start.choices())
-	pf := addPsiFlags(fs.FlagSet, "huber")
-	scale := new(scaleFlag)
-	fs.Var(scale, "scale", "scale `rule`: mad, start (held at the start's scale), or fixed:S for a known scale S")
-	seed := addSeedFlag(fs.FlagSet, "seed", "`seed` of the random subsets of "+
-		estimators.ListMethods(estimators.MethodsWhere(estimators.MethodInfo.Resamples), "and")+" (decimal digits; default 1)")
-	sDivisor := new(divisorFlag)
-	fs.Var(sDivisor, "s-divisor", "`divisor` d of the S-scale equation (1/d) Σ rho(r/s) = b: n or n-p ("+
-		strings.Join(methodNames(estimators.MethodsWhere(usesSScale)), ", ")+" and starts from them)")
-	tol := fs.Float64("tol", estimators.DefaultChangeTol, "stop when the relative change in coefficients is below `T`")
-	maxIter := fs.Int("max-iter", estimators.DefaultMaxIterations, "iteration cap `N`")
+	ef := addEstimatorFlags(fs.FlagSet)
 	asJSON := fs.Bool("json", false, "print JSON instead of a table")
 	weightsOut := fs.String("weights", "", "write each row's residual, scaled residual, weight and outlier flag to this CSV `file`")
 	cut := fs.Float64("outlier-cut", defaultOutlierCut, "flag rows whose |residual/scale| exceeds `C`")
@@ -128,16 +115,11 @@ func fitCmd(e env, args []string) error {
 	if *yCol == "" {
 		return usagef("--y is required: the name of the response column")
 	}
-	given := givenFlags(fs.FlagSet)
-	est, desc, err := buildFitEstimator(method.m, start.m, pf, scale.ScaleSpec, *tol, *maxIter, given)
+	est, desc, err := ef.build(givenFlags(fs.FlagSet))
 	if err != nil {
 		return err
 	}
-	if given["s-divisor"] && !usesSScale(est.Method.Info()) && !(!est.Method.Direct() && usesSScale(est.StartFrom.Info())) {
-		return usagef("--s-divisor is used only by %s (or a start from them)",
-			estimators.ListMethods(estimators.MethodsWhere(usesSScale), "and"))
-	}
-	est.Resampling.SDivisor = sDivisor.d
+	seed := ef.seed
 	if !(*cut > 0) || math.IsInf(*cut, 0) {
 		return usagef("--outlier-cut must be a positive number, got %v", *cut)
 	}
@@ -188,18 +170,67 @@ func fitCmd(e env, args []string) error {
 	return nil
 }
 
+// estimatorFlags are fit's options that choose the estimator.
+type estimatorFlags struct {
+	method, start *methodFlag
+	pf            *psiFlags
+	scale         *scaleFlag
+	seed          *seedFlag
+	sDivisor      *divisorFlag
+	tol           *float64
+	maxIter       *int
+}
+
+// addEstimatorFlags defines the options that choose fit's estimator.
+func addEstimatorFlags(fs *flag.FlagSet) *estimatorFlags {
+	f := &estimatorFlags{method: &methodFlag{m: estimators.MethodIRLS}, start: &methodFlag{m: estimators.MethodLS, starts: true}}
+	fs.Var(f.method, "method", "`method`: "+f.method.choices())
+	fs.Var(f.start, "start", "`method` whose estimate starts "+
+		estimators.ListMethods(estimators.MethodsWhere(userStart), "or")+": "+f.start.choices())
+	f.pf = addPsiFlags(fs, "huber")
+	f.scale = new(scaleFlag)
+	fs.Var(f.scale, "scale", "scale `rule`: mad, start (held at the start's scale), or fixed:S for a known scale S")
+	f.seed = addSeedFlag(fs, "seed", "`seed` of the random subsets of "+
+		estimators.ListMethods(estimators.MethodsWhere(estimators.MethodInfo.Resamples), "and")+" (decimal digits; default 1)")
+	f.sDivisor = new(divisorFlag)
+	fs.Var(f.sDivisor, "s-divisor", "`divisor` d of the S-scale equation (1/d) Σ rho(r/s) = b: n or n-p ("+
+		strings.Join(methodNames(estimators.MethodsWhere(usesSScale)), ", ")+" and starts from them)")
+	f.tol = fs.Float64("tol", estimators.DefaultChangeTol, "stop when the relative change in coefficients is below `T`")
+	f.maxIter = fs.Int("max-iter", estimators.DefaultMaxIterations, "iteration cap `N`")
+	return f
+}
+
+// build returns the estimator the options choose, given the names of those
+// set on the command line, and its description for the output.
+func (f *estimatorFlags) build(given map[string]bool) (estimators.Estimator, fitEstimator, error) {
+	est, desc, err := buildFitEstimator(f.method.m, f.start.m, f.pf, f.scale.ScaleSpec, *f.tol, *f.maxIter, f.sDivisor.d, given)
+	if err != nil {
+		return est, desc, err
+	}
+	if given["s-divisor"] && !usesSScale(est.Method.Info()) && !(!est.Method.Direct() && usesSScale(est.StartFrom.Info())) {
+		return est, desc, usagef("--s-divisor is used only by %s (or a start from them)",
+			estimators.ListMethods(estimators.MethodsWhere(usesSScale), "and"))
+	}
+	return est, desc, nil
+}
+
 // buildFitEstimator turns fit's options into an estimator: method m,
-// started (if it takes a start) from the estimate of from.
-func buildFitEstimator(m, from estimators.Method, pf *psiFlags, sc scenarios.ScaleSpec, tol float64, maxIter int, given map[string]bool) (estimators.Estimator, fitEstimator, error) {
+// started (if it takes a start) from the estimate of from. It writes them
+// as the scenario entry they stand for and builds that
+// (scenarios.EstimatorSpec.Build), so fit and run make the same estimator
+// of the same settings.
+func buildFitEstimator(m, from estimators.Method, pf *psiFlags, sc scenarios.ScaleSpec, tol float64, maxIter int, div estimators.ScaleDivisor, given map[string]bool) (estimators.Estimator, fitEstimator, error) {
 	info := m.Info()
 	desc := fitEstimator{Method: m.String()}
+	spec := scenarios.EstimatorSpec{Label: "fit", Method: m.String(), Resampling: &scenarios.Resampling{SDivisor: div.String()}}
 	if !info.TakesPsi {
 		for _, name := range append(psiFlagNames(), "scale", "tol", "max-iter", "start") {
 			if given[name] {
 				return estimators.Estimator{}, desc, usagef("--%s is not used with --method %s", name, m)
 			}
 		}
-		return estimators.Estimator{Method: m}, desc, nil
+		est, err := spec.Build()
+		return est, desc, err
 	}
 	if info.OwnStart != "" && (given["start"] || given["scale"]) {
 		return estimators.Estimator{}, desc, usagef("--start and --scale are not used with --method %s (its start and scale are %s)", m, info.OwnStart)
@@ -211,22 +242,20 @@ func buildFitEstimator(m, from estimators.Method, pf *psiFlags, sc scenarios.Sca
 	if err != nil {
 		return estimators.Estimator{}, desc, err
 	}
-	psi, tc := ch.psi, ch.tuning
 	if !(tol > 0) {
 		return estimators.Estimator{}, desc, usagef("--tol must be a positive number, got %v", tol)
 	}
 	if maxIter < 1 {
 		return estimators.Estimator{}, desc, usagef("--max-iter must be at least 1, got %d", maxIter)
 	}
-	est := estimators.Estimator{Method: m, Psi: psi, StartFrom: from,
-		Settings: estimators.Settings{Rules: estimators.RuleChange, ChangeTol: tol, MaxIterations: maxIter}}
-	switch {
-	case sc.Fixed:
-		est.Scale = estimators.Scale{Rule: estimators.ScaleFixed, Value: sc.Value}
-	case sc.Start:
-		est.Scale = estimators.Scale{Rule: estimators.ScaleStart}
+	spec.Psi, spec.Tuning, spec.Scale = ch.spec, ch.given, sc
+	spec.Start = scenarios.StartSpec{From: from.String()}
+	spec.Stop = scenarios.Stop{Change: &tol, MaxIter: &maxIter}
+	est, err := spec.Build()
+	if err != nil {
+		return estimators.Estimator{}, desc, err
 	}
-	desc.Psi, desc.Tuning, desc.Scale, desc.psiDesc = ch.name, tc, sc.String(), ch.desc
+	desc.Psi, desc.Tuning, desc.Scale, desc.psiDesc = ch.name, ch.tuning, sc.String(), ch.desc
 	if info.OwnScale != "" {
 		desc.Scale = info.OwnScale
 	}

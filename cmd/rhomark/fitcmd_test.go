@@ -2,10 +2,12 @@ package main
 
 import (
 	"encoding/json"
+	"flag"
 	"fmt"
 	"math"
 	"os"
 	"path/filepath"
+	"reflect"
 	"strconv"
 	"strings"
 	"testing"
@@ -13,6 +15,7 @@ import (
 	"github.com/rhomark/rhomark/estimators"
 	"github.com/rhomark/rhomark/internal/refdata"
 	"github.com/rhomark/rhomark/psi"
+	"github.com/rhomark/rhomark/scenarios"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -365,5 +368,53 @@ func TestFitHeaderRules(t *testing.T) {
 				t.Errorf("%v: header lacks %q:\n%s", tc.args, w, head)
 			}
 		}
+	}
+}
+
+// TestFitBuildsScenarioEstimator: fit's options make exactly the estimator
+// of the scenario entry they stand for, with the scenario's defaults where
+// an option is not given, so a fit of one dataset and a run of the same
+// settings use the same estimator.
+func TestFitBuildsScenarioEstimator(t *testing.T) {
+	for _, tc := range []struct {
+		args  string
+		entry string
+	}{
+		{"", "{method: irls, psi: huber}"},
+		{"--method newton --psi bisquare --tuning 4 --scale start --start s-estimate --tol 1e-6 --max-iter 50",
+			"{method: newton, psi: bisquare, tuning: 4, scale: start, start: s-estimate, stop: {change: 1e-6, max-iter: 50}}"},
+		{"--psi hampel --tuning 2,4,8 --scale fixed:0.5", "{method: irls, psi: hampel, tuning: [2, 4, 8], scale: fixed:0.5}"},
+		{"--method mm-estimate", "{method: mm-estimate}"},
+		{"--method mm-estimate --psi welsch --tuning 2.11", "{method: mm-estimate, psi: welsch, tuning: 2.11}"},
+		{"--method s-estimate --s-divisor n-p", "{method: s-estimate, resampling: {s-divisor: n-p}}"},
+		{"--method irls --start s-estimate --s-divisor n-p", "{method: irls, psi: huber, start: s-estimate, resampling: {s-divisor: n-p}}"},
+		{"--start lts --psi cauchy", "{method: irls, psi: cauchy, start: lts}"},
+		{"--method lts", "{method: lts}"},
+		{"--method lad", "{method: lad}"},
+		{"--method ls", "{method: ls}"},
+	} {
+		t.Run(tc.args, func(t *testing.T) {
+			fs := flag.NewFlagSet("fit", flag.ContinueOnError)
+			ef := addEstimatorFlags(fs)
+			if err := fs.Parse(strings.Fields(tc.args)); err != nil {
+				t.Fatal(err)
+			}
+			got, _, err := ef.build(givenFlags(fs))
+			if err != nil {
+				t.Fatal(err)
+			}
+			src := "name: bench\nmodel:\n  n: 30\n  columns:\n    - {name: volume, slope: 0.98, dist: uniform, min: 1, max: 50}\nnoise: {dist: normal, scale: 0.1}\nestimators:\n  - " + tc.entry + "\n"
+			st, err := scenarios.Parse("bench.yaml", []byte(src), scenarios.Limits{})
+			if err != nil {
+				t.Fatal(err)
+			}
+			want, err := st.Base.Estimators[0].Build()
+			if err != nil {
+				t.Fatal(err)
+			}
+			if !reflect.DeepEqual(got, want) {
+				t.Errorf("fit %s builds\n%+v\nthe scenario entry %s builds\n%+v", tc.args, got, tc.entry, want)
+			}
+		})
 	}
 }

@@ -8,6 +8,7 @@ import (
 	"strings"
 
 	"github.com/rhomark/rhomark/psi"
+	"github.com/rhomark/rhomark/scenarios"
 )
 
 // psiFlags are the options that choose a psi, shared by fit, theory, tune
@@ -66,6 +67,10 @@ type choice struct {
 	name   string    // family name or "custom"
 	tuning []float64 // the constants in use
 	desc   string    // one line for headings
+	// spec and given are the psi and its tuning constants as a scenario
+	// file would write them (given nil for the family's defaults).
+	spec  scenarios.PsiSpec
+	given scenarios.Numbers
 }
 
 // build resolves the psi options. given says which flags were set.
@@ -87,7 +92,11 @@ func (p *psiFlags) build(given map[string]bool) (choice, error) {
 		for _, k := range p.consts {
 			desc += fmt.Sprintf(", %s = %s", k.Name, constText(k.Value))
 		}
-		return choice{psi: c, family: fam, name: "custom", tuning: fam.Defaults, desc: desc}, nil
+		cp := &scenarios.CustomPsi{Expr: spec.Psi, Rho: spec.Rho, Deriv: spec.Deriv, Kinks: spec.Kinks}
+		for _, k := range spec.Constants {
+			cp.Constants = append(cp.Constants, scenarios.NamedNumber{Name: k.Name, Value: k.Value})
+		}
+		return choice{psi: c, family: fam, name: "custom", tuning: fam.Defaults, desc: desc, spec: scenarios.PsiSpec{Custom: cp}}, nil
 	}
 	for _, f := range exprFlagNames() {
 		if given[f] {
@@ -99,6 +108,7 @@ func (p *psiFlags) build(given map[string]bool) (choice, error) {
 		return choice{}, usagef("--psi %q: unknown family; valid: %s (or --psi-expr for your own)", p.family, strings.Join(psi.FamilyNames(), ", "))
 	}
 	tc := []float64(p.tuning)
+	tuning := scenarios.Numbers(tc)
 	psi, err := fam.New(tc)
 	if err != nil {
 		return choice{}, usageError{err}
@@ -110,7 +120,7 @@ func (p *psiFlags) build(given map[string]bool) (choice, error) {
 	for i, n := range fam.Params {
 		desc += fmt.Sprintf(" %s = %s", n, constText(tc[i]))
 	}
-	return choice{psi: psi, family: fam, name: fam.Name, tuning: tc, desc: desc}, nil
+	return choice{psi: psi, family: fam, name: fam.Name, tuning: tc, desc: desc, spec: scenarios.PsiSpec{Family: fam.Name}, given: tuning}, nil
 }
 
 // givenFlags returns the names of the flags set on the command line.
