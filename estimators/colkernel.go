@@ -11,12 +11,18 @@ import (
 // the columns x_k and their products x_k∘x_l (k ≤ l) stored once per
 // search, a step's normal equations are p(p+3)/2 inner products of length
 // n, which run as vector instructions (gonum's floats.Dot), and its
-// residuals y − Xβ are p vector updates. Below colMaxP columns the products
+// residuals y − Xβ are p vector updates. Up to colMaxP columns the products
 // take n·p(p+1)/2 values; above it the searches use the row kernels.
 
 // colMaxP is the largest number of columns for which the column products
-// are stored.
-const colMaxP = 8
+// are stored. A search runs on at most NestedMinRows rows (nested blocks
+// above), so the products take at most 1500·528 values (6.3 MB) at
+// p = 32. Against the row kernels they make a fit at n = 5000 about 3.5
+// times faster at p = 10 and p = 20 (S and MM; LTS about 2 times), and
+// about 2 times at p = 50, where they would take 15 MB; 32 keeps the
+// memory small and the proofs of the LTS starts tested
+// (TestLTSStartStepsExact draws p up to colMaxP).
+const colMaxP = 32
 
 // colWork holds the columns of a design and their products.
 type colWork struct {

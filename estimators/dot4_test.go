@@ -175,7 +175,7 @@ func TestLUSolveMatchesQR(t *testing.T) {
 }
 
 // TestLDLSolveMatchesCholesky: on random positive definite systems of
-// sizes 1 to 8, the square-root-free factorisation and choleskySolve give
+// sizes 1 to colMaxP, the square-root-free factorisation and choleskySolve give
 // the same solution to rounding, and both refuse a singular matrix.
 func TestLDLSolveMatchesCholesky(t *testing.T) {
 	rng := rand.New(rand.NewPCG(7, 7))

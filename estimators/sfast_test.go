@@ -105,8 +105,12 @@ func TestHouseholderPairsMatch(t *testing.T) {
 // sums to rounding, on clean data and with 20% outliers.
 func TestSStepKernelsAgree(t *testing.T) {
 	bi := psi.Bisquare{C: DefaultSTuning}
-	for _, out := range []float64{0, 0.2} {
-		xd, y := simulated(12, 60, 5, out)
+	for _, c := range []struct {
+		p   int
+		out float64
+	}{{5, 0}, {5, 0.2}, {10, 0.2}, {20, 0}, {colMaxP, 0.2}} {
+		out := c.out
+		xd, y := simulated(12, 60+2*c.p, c.p, out)
 		var ws Workspace
 		var res Result
 		if err := (Estimator{}).Fit(xd, y, &ws, &res); err != nil {
@@ -128,16 +132,16 @@ func TestSStepKernelsAgree(t *testing.T) {
 			g[k] = got{beta, rho, psiu, rhoW, ok}
 		}
 		if !g[0].ok || !g[1].ok {
-			t.Fatalf("outliers %v: steps ok %v (rows) %v (columns)", out, g[0].ok, g[1].ok)
+			t.Fatalf("p = %d, outliers %v: steps ok %v (rows) %v (columns)", c.p, out, g[0].ok, g[1].ok)
 		}
 		for j := range start {
 			if d := math.Abs(g[0].beta[j] - g[1].beta[j]); d > 1e-12*math.Max(1, math.Abs(g[0].beta[j])) {
-				t.Errorf("outliers %v: coefficient %d %v (rows), %v (columns)", out, j, g[0].beta[j], g[1].beta[j])
+				t.Errorf("p = %d, outliers %v: coefficient %d %v (rows), %v (columns)", c.p, out, j, g[0].beta[j], g[1].beta[j])
 			}
 		}
 		for _, pair := range [][2]float64{{g[0].rho, g[1].rho}, {g[0].psiu, g[1].psiu}, {g[0].rhoW, g[1].rhoW}} {
 			if math.Abs(pair[0]-pair[1]) > 1e-12*math.Max(1, math.Abs(pair[0])) {
-				t.Errorf("outliers %v: sums %v (rows), %v (columns)", out, pair[0], pair[1])
+				t.Errorf("p = %d, outliers %v: sums %v (rows), %v (columns)", c.p, out, pair[0], pair[1])
 			}
 		}
 	}
