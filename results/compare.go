@@ -4,6 +4,7 @@ import (
 	"encoding/json"
 	"fmt"
 	"io"
+	"iter"
 	"math"
 	"sort"
 	"strconv"
@@ -211,6 +212,22 @@ func cellKey(c Cell) string {
 	return strings.Join(parts, "\x00")
 }
 
+// estimatorPairs yields, for each paired cell, each baseline estimator
+// with the candidate's of the same label (estimators in one run only are
+// skipped).
+func estimatorPairs(pairs []cellPair) iter.Seq2[*Cell, [2]*Estimator] {
+	return func(yield func(*Cell, [2]*Estimator) bool) {
+		for _, cp := range pairs {
+			for bi := range cp.base.Estimators {
+				be := &cp.base.Estimators[bi]
+				if ce := estimatorIn(cp.cand, be.Label); ce != nil && !yield(cp.base, [2]*Estimator{be, ce}) {
+					return
+				}
+			}
+		}
+	}
+}
+
 // estimatorIn returns the estimator of the cell with the label, or nil.
 func estimatorIn(c *Cell, label string) *Estimator {
 	for k := range c.Estimators {
@@ -226,48 +243,41 @@ func estimatorIn(c *Cell, label string) *Estimator {
 // schemas does not record (schema) is left out rather than read as zero.
 func summaryDiffs(pairs []cellPair, reference string, schema int) []Difference {
 	var out []Difference
-	for _, cp := range pairs {
-		bc, cc := cp.base, cp.cand
-		for bi := range bc.Estimators {
-			be := &bc.Estimators[bi]
-			ce := estimatorIn(cc, be.Label)
-			if ce == nil {
-				continue
+	for bc, e := range estimatorPairs(pairs) {
+		be, ce := e[0], e[1]
+		add := func(coef, measure string, a, b Measure) {
+			av, bv := float64(a.Value), float64(b.Value)
+			if math.IsNaN(av) && math.IsNaN(bv) {
+				return
 			}
-			add := func(coef, measure string, a, b Measure) {
-				av, bv := float64(a.Value), float64(b.Value)
-				if math.IsNaN(av) && math.IsNaN(bv) {
-					return
-				}
-				diff := bv - av
-				se := math.Hypot(float64(a.MCSE), float64(b.MCSE))
-				z := diff / se
-				switch {
-				case diff == 0:
-					z = 0
-				case math.IsNaN(diff):
-					z = math.Inf(1) // a measure appeared or disappeared
-				}
-				out = append(out, Difference{Cell: bc.Index, Settings: bc.Settings, Estimator: be.Label, Coefficient: coef, Measure: measure,
-					Baseline: Float(av), Candidate: Float(bv), Diff: Float(diff), MCSE: Float(se), Z: Float(z)})
+			diff := bv - av
+			se := math.Hypot(float64(a.MCSE), float64(b.MCSE))
+			z := diff / se
+			switch {
+			case diff == 0:
+				z = 0
+			case math.IsNaN(diff):
+				z = math.Inf(1) // a measure appeared or disappeared
 			}
-			for ki := range be.Coefficients {
-				bk := &be.Coefficients[ki]
-				for kj := range ce.Coefficients {
-					ck := &ce.Coefficients[kj]
-					if ck.Name != bk.Name {
-						continue
-					}
-					for _, m := range coefficientMeasures() {
-						if m.since <= schema && (m.reference || be.Label != reference) {
-							add(bk.Name, m.name, m.get(bk), m.get(ck))
-						}
+			out = append(out, Difference{Cell: bc.Index, Settings: bc.Settings, Estimator: be.Label, Coefficient: coef, Measure: measure,
+				Baseline: Float(av), Candidate: Float(bv), Diff: Float(diff), MCSE: Float(se), Z: Float(z)})
+		}
+		for ki := range be.Coefficients {
+			bk := &be.Coefficients[ki]
+			for kj := range ce.Coefficients {
+				ck := &ce.Coefficients[kj]
+				if ck.Name != bk.Name {
+					continue
+				}
+				for _, m := range coefficientMeasures() {
+					if m.since <= schema && (m.reference || be.Label != reference) {
+						add(bk.Name, m.name, m.get(bk), m.get(ck))
 					}
 				}
 			}
-			for _, m := range estimatorMeasures() {
-				add("", m.name, m.get(be), m.get(ce))
-			}
+		}
+		for _, m := range estimatorMeasures() {
+			add("", m.name, m.get(be), m.get(ce))
 		}
 	}
 	return out
@@ -277,19 +287,12 @@ func summaryDiffs(pairs []cellPair, reference string, schema int) []Difference {
 // Fisher's exact test.
 func summaryFailureTests(pairs []cellPair) []FailureTest {
 	var out []FailureTest
-	for _, cp := range pairs {
-		for bi := range cp.base.Estimators {
-			be := &cp.base.Estimators[bi]
-			ce := estimatorIn(cp.cand, be.Label)
-			if ce == nil {
-				continue
-			}
-			b, c := be.Convergence, ce.Convergence
-			f := FailureTest{Cell: cp.base.Index, Settings: cp.base.Settings, Estimator: be.Label,
-				BaselineFits: b.Fits, BaselineFailed: b.Fits - b.Converged, CandidateFits: c.Fits, CandidateFailed: c.Fits - c.Converged}
-			f.P = Float(FisherExactP(f.BaselineFailed, f.BaselineFits, f.CandidateFailed, f.CandidateFits))
-			out = append(out, f)
-		}
+	for cell, e := range estimatorPairs(pairs) {
+		b, c := e[0].Convergence, e[1].Convergence
+		f := FailureTest{Cell: cell.Index, Settings: cell.Settings, Estimator: e[0].Label,
+			BaselineFits: b.Fits, BaselineFailed: b.Fits - b.Converged, CandidateFits: c.Fits, CandidateFailed: c.Fits - c.Converged}
+		f.P = Float(FisherExactP(f.BaselineFailed, f.BaselineFits, f.CandidateFailed, f.CandidateFits))
+		out = append(out, f)
 	}
 	return out
 }
@@ -341,11 +344,8 @@ func holm(d []Difference, alpha float64) int {
 // holmFailures applies Holm's procedure to the failure tests that can
 // reject and returns how many there were.
 func holmFailures(f []FailureTest, alpha float64, kind FailureTestKind) int {
-	informative := func(i int) bool { return f[i].BaselineFailed+f[i].CandidateFailed > 0 }
-	if kind == FailurePaired {
-		informative = func(i int) bool { return f[i].NewFailures+f[i].Recovered > 0 }
-	}
-	return holmExact(len(f), func(i int) float64 { return float64(f[i].P) }, informative, func(i int) { f[i].Flagged = true }, alpha)
+	return holmExact(len(f), func(i int) float64 { return float64(f[i].P) }, func(i int) bool { return f[i].informative(kind) },
+		func(i int) { f[i].Flagged = true }, alpha)
 }
 
 // holmExact runs Holm's step-down procedure at family-wise level alpha over

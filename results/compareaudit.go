@@ -3,9 +3,7 @@ package results
 import (
 	"fmt"
 	"math"
-	"slices"
 	"sort"
-	"strconv"
 	"strings"
 )
 
@@ -110,40 +108,34 @@ func auditTests(pairs []cellPair) (tests []AuditTest, oneSided []string) {
 			oneSided = append(oneSided, fmt.Sprintf("%s of %s (cell %d and perhaps others) only in the %s", check.noun(), label, cell, which))
 		}
 	}
-	for _, cp := range pairs {
-		for bi := range cp.base.Estimators {
-			be := &cp.base.Estimators[bi]
-			ce := estimatorIn(cp.cand, be.Label)
-			if ce == nil {
-				continue
-			}
-			t := AuditTest{Cell: cp.base.Index, Settings: cp.base.Settings, Estimator: be.Label}
-			b, c := be.Convergence.StopError, ce.Convergence.StopError
-			switch {
-			case b != nil && c != nil && !b.Direct && !c.Direct:
-				s := t
-				s.Check = StoppedEarly
-				s.Baseline, s.BaselineOf, s.Candidate, s.CandidateOf = b.OverCount, b.Audited, c.OverCount, c.Audited
-				s.BaselineMedian, s.CandidateMedian = Float(b.Median), Float(c.Median)
-				tests = append(tests, s)
-			case b != nil && c == nil:
-				side(be.Label, t.Cell, StoppedEarly, "baseline")
-			case b == nil && c != nil:
-				side(be.Label, t.Cell, StoppedEarly, "candidate")
-			}
-			br, cr := be.Convergence.Roots, ce.Convergence.Roots
-			switch {
-			case br != nil && cr != nil:
-				s := t
-				s.Check = SeveralRoots
-				s.Baseline, s.BaselineOf, s.Candidate, s.CandidateOf = br.MultipleCount, br.Searched, cr.MultipleCount, cr.Searched
-				s.BaselineMedian, s.CandidateMedian = Float(math.NaN()), Float(math.NaN())
-				tests = append(tests, s)
-			case br != nil:
-				side(be.Label, t.Cell, SeveralRoots, "baseline")
-			case cr != nil:
-				side(be.Label, t.Cell, SeveralRoots, "candidate")
-			}
+	for cell, e := range estimatorPairs(pairs) {
+		be, ce := e[0], e[1]
+		t := AuditTest{Cell: cell.Index, Settings: cell.Settings, Estimator: be.Label}
+		b, c := be.Convergence.StopError, ce.Convergence.StopError
+		switch {
+		case b != nil && c != nil && !b.Direct && !c.Direct:
+			s := t
+			s.Check = StoppedEarly
+			s.Baseline, s.BaselineOf, s.Candidate, s.CandidateOf = b.OverCount, b.Audited, c.OverCount, c.Audited
+			s.BaselineMedian, s.CandidateMedian = Float(b.Median), Float(c.Median)
+			tests = append(tests, s)
+		case b != nil && c == nil:
+			side(be.Label, t.Cell, StoppedEarly, "baseline")
+		case b == nil && c != nil:
+			side(be.Label, t.Cell, StoppedEarly, "candidate")
+		}
+		br, cr := be.Convergence.Roots, ce.Convergence.Roots
+		switch {
+		case br != nil && cr != nil:
+			s := t
+			s.Check = SeveralRoots
+			s.Baseline, s.BaselineOf, s.Candidate, s.CandidateOf = br.MultipleCount, br.Searched, cr.MultipleCount, cr.Searched
+			s.BaselineMedian, s.CandidateMedian = Float(math.NaN()), Float(math.NaN())
+			tests = append(tests, s)
+		case br != nil:
+			side(be.Label, t.Cell, SeveralRoots, "baseline")
+		case cr != nil:
+			side(be.Label, t.Cell, SeveralRoots, "candidate")
 		}
 	}
 	for i := range tests {
@@ -209,35 +201,19 @@ func (c *Comparison) auditVerdict() []string {
 	}
 	var out []string
 	for _, check := range []AuditCheck{StoppedEarly, SeveralRoots} {
-		added := map[string]int64{}
-		cells := map[string][]int{}
-		var order []string
+		var r rises
 		falls := 0
 		for _, a := range c.Audit.Tests {
-			if !a.Flagged || a.Check != check {
-				continue
-			}
-			if !a.Rise() {
+			switch {
+			case !a.Flagged || a.Check != check:
+			case a.Rise():
+				r.add(a.Estimator, a.Cell, a.Candidate-a.Baseline)
+			default:
 				falls++
-				continue
 			}
-			if _, ok := cells[a.Estimator]; !ok {
-				order = append(order, a.Estimator)
-			}
-			cells[a.Estimator] = append(cells[a.Estimator], a.Cell)
-			added[a.Estimator] += a.Candidate - a.Baseline
 		}
-		if len(order) > 0 {
-			var parts []string
-			for _, e := range order {
-				slices.Sort(cells[e])
-				ids := make([]string, len(cells[e]))
-				for i, k := range cells[e] {
-					ids[i] = strconv.Itoa(k)
-				}
-				parts = append(parts, fmt.Sprintf("%s: %+d in cell%s %s", e, added[e], plural(len(ids)), strings.Join(ids, ", ")))
-			}
-			out = append(out, "MORE "+strings.ToUpper(check.what())+" ("+strings.Join(parts, "; ")+")")
+		if len(r.order) > 0 {
+			out = append(out, "MORE "+strings.ToUpper(check.what())+" ("+r.phrase("")+")")
 		}
 		if falls > 0 {
 			out = append(out, fmt.Sprintf("fewer %s in %d cell × estimator", check.what(), falls))
@@ -249,25 +225,11 @@ func (c *Comparison) auditVerdict() []string {
 // auditRows returns the audit tests worth a row: flagged ones and those
 // that could reject.
 func (c *Comparison) auditRows() []AuditTest {
-	var out []AuditTest
-	for _, a := range c.Audit.Tests {
-		if a.Flagged || a.informative() {
-			out = append(out, a)
-		}
-	}
-	return out
+	return rowsWhere(c.Audit.Tests, func(a AuditTest) bool { return a.Flagged || a.informative() })
 }
 
 // auditNote is the verdict of one audit test for a table.
-func auditNote(a AuditTest) string {
-	switch {
-	case a.Flagged && a.Rise():
-		return "MORE"
-	case a.Flagged:
-		return "fewer"
-	}
-	return "not significant"
-}
+func auditNote(a AuditTest) string { return testNote(a.Flagged, a.Rise(), "") }
 
 // auditCells returns a row's before and after columns: the counts and,
 // for StoppedEarly, the median error in standard errors.

@@ -23,27 +23,12 @@ func (c *Comparison) verdict() string {
 		return "unchanged within Monte Carlo error"
 	}
 	var why []string
-	if rises := c.FailureRises(); len(rises) > 0 {
-		cells := map[string][]int{}
-		added := map[string]int64{}
-		var order []string
-		for _, f := range rises {
-			if _, ok := cells[f.Estimator]; !ok {
-				order = append(order, f.Estimator)
-			}
-			cells[f.Estimator] = append(cells[f.Estimator], f.Cell)
-			added[f.Estimator] += f.CandidateFailed - f.BaselineFailed
+	if rs := c.FailureRises(); len(rs) > 0 {
+		var r rises
+		for _, f := range rs {
+			r.add(f.Estimator, f.Cell, f.CandidateFailed-f.BaselineFailed)
 		}
-		var parts []string
-		for _, e := range order {
-			slices.Sort(cells[e])
-			ids := make([]string, len(cells[e]))
-			for i, k := range cells[e] {
-				ids[i] = strconv.Itoa(k)
-			}
-			parts = append(parts, fmt.Sprintf("%s: %+d failed fits in cell%s %s", e, added[e], plural(len(ids)), strings.Join(ids, ", ")))
-		}
-		why = append(why, "MORE FAILURES ("+strings.Join(parts, "; ")+")")
+		why = append(why, "MORE FAILURES ("+r.phrase("failed fits ")+")")
 	}
 	nf := 0
 	for _, f := range c.Failures.Tests {
@@ -70,6 +55,40 @@ func (c *Comparison) verdict() string {
 		why = append(why, fmt.Sprintf("%d measure%s changed beyond Monte Carlo error", n, plural(n)))
 	}
 	return "CHANGED: " + strings.Join(why, "; ")
+}
+
+// rises gathers the flagged rises of a count by estimator, in order of
+// first appearance, for the verdict.
+type rises struct {
+	order []string
+	cells map[string][]int
+	added map[string]int64
+}
+
+// add records a rise of by in one cell of an estimator.
+func (r *rises) add(estimator string, cell int, by int64) {
+	if r.cells == nil {
+		r.cells, r.added = map[string][]int{}, map[string]int64{}
+	}
+	if _, ok := r.cells[estimator]; !ok {
+		r.order = append(r.order, estimator)
+	}
+	r.cells[estimator] = append(r.cells[estimator], cell)
+	r.added[estimator] += by
+}
+
+// phrase writes the rises as "huber: +10 unit in cells 0, 3; ...".
+func (r *rises) phrase(unit string) string {
+	parts := make([]string, len(r.order))
+	for k, e := range r.order {
+		slices.Sort(r.cells[e])
+		ids := make([]string, len(r.cells[e]))
+		for i, c := range r.cells[e] {
+			ids[i] = strconv.Itoa(c)
+		}
+		parts[k] = fmt.Sprintf("%s: %+d %sin cell%s %s", e, r.added[e], unit, plural(len(ids)), strings.Join(ids, ", "))
+	}
+	return strings.Join(parts, "; ")
 }
 
 func plural(n int) string {
@@ -124,26 +143,31 @@ func (c *Comparison) settingsOf(kinds ...SettingKind) []SettingChange {
 // failureRows returns the failure tests worth a row: flagged ones and
 // those that could reject.
 func (c *Comparison) failureRows() []FailureTest {
-	var out []FailureTest
-	for _, f := range c.Failures.Tests {
-		informative := f.BaselineFailed+f.CandidateFailed > 0
-		if c.Failures.Test == FailurePaired {
-			informative = f.NewFailures+f.Recovered > 0
-		}
-		if f.Flagged || informative {
-			out = append(out, f)
+	return rowsWhere(c.Failures.Tests, func(f FailureTest) bool { return f.Flagged || f.informative(c.Failures.Test) })
+}
+
+// rowsWhere returns the tests a table shows.
+func rowsWhere[T any](tests []T, show func(T) bool) []T {
+	var out []T
+	for _, t := range tests {
+		if show(t) {
+			out = append(out, t)
 		}
 	}
 	return out
 }
 
 // failureNote is the verdict of one failure test for a table.
-func failureNote(f FailureTest) string {
+func failureNote(f FailureTest) string { return testNote(f.Flagged, f.Rise(), "failures") }
+
+// testNote is the verdict of an exact test of a count for a table: "MORE"
+// or "fewer" and what is counted when flagged, else "not significant".
+func testNote(flagged, rise bool, what string) string {
 	switch {
-	case f.Flagged && f.Rise():
-		return "MORE FAILURES"
-	case f.Flagged:
-		return "fewer failures"
+	case flagged && rise:
+		return strings.TrimSpace("MORE " + strings.ToUpper(what))
+	case flagged:
+		return strings.TrimSpace("fewer " + what)
 	}
 	return "not significant"
 }
@@ -542,45 +566,35 @@ func junitSuitesOf(c *Comparison, suite string) []junitSuite {
 	}
 	var summary []*group
 	index := map[string]*group{}
-	for _, d := range c.Differences {
-		name := fmt.Sprintf("cell %d %s", d.Cell, d.Estimator)
+	groupOf := func(cell int, estimator string) *group {
+		name := fmt.Sprintf("cell %d %s", cell, estimator)
 		g, ok := index[name]
 		if !ok {
 			g = &group{name: name}
 			index[name] = g
 			summary = append(summary, g)
 		}
+		return g
+	}
+	for _, d := range c.Differences {
+		g := groupOf(d.Cell, d.Estimator)
 		if d.Flagged {
 			g.fails = append(g.fails, fmt.Sprintf("%s: %s → %s (z %s)", differenceWhere(d), fmtNum(d.Baseline), fmtNum(d.Candidate), fmtNum(d.Z)))
 		}
 	}
 	for _, f := range c.Failures.Tests {
-		if !f.Flagged {
-			continue
+		if f.Flagged {
+			g := groupOf(f.Cell, f.Estimator)
+			before, after := failureCounts(f)
+			g.fails = append(g.fails, fmt.Sprintf("cell %d %s failures: %s → %s (%s, p %.2g)", f.Cell, f.Estimator, before, after, failureNote(f), float64(f.P)))
 		}
-		name := fmt.Sprintf("cell %d %s", f.Cell, f.Estimator)
-		g, ok := index[name]
-		if !ok {
-			g = &group{name: name}
-			index[name] = g
-			summary = append(summary, g)
-		}
-		before, after := failureCounts(f)
-		g.fails = append(g.fails, fmt.Sprintf("cell %d %s failures: %s → %s (%s, p %.2g)", f.Cell, f.Estimator, before, after, failureNote(f), float64(f.P)))
 	}
 	if c.Audit != nil {
 		for _, a := range c.Audit.Tests {
-			if !a.Flagged {
-				continue
+			if a.Flagged {
+				g := groupOf(a.Cell, a.Estimator)
+				g.fails = append(g.fails, auditJUnit(a))
 			}
-			name := fmt.Sprintf("cell %d %s", a.Cell, a.Estimator)
-			g, ok := index[name]
-			if !ok {
-				g = &group{name: name}
-				index[name] = g
-				summary = append(summary, g)
-			}
-			g.fails = append(g.fails, auditJUnit(a))
 		}
 	}
 	s := junitSuite{Name: suite + " summary"}

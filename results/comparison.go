@@ -214,6 +214,15 @@ func (f FailureTest) Rise() bool {
 	return f.CandidateFailed*f.BaselineFits > f.BaselineFailed*f.CandidateFits
 }
 
+// informative reports whether the test could reject: in paired mode a fit
+// whose outcome changed, otherwise a failure in either run.
+func (f FailureTest) informative(kind FailureTestKind) bool {
+	if kind == FailurePaired {
+		return f.NewFailures+f.Recovered > 0
+	}
+	return f.BaselineFailed+f.CandidateFailed > 0
+}
+
 // FailureReport tests every cell × estimator for a change of its failure
 // rate, apart from the other measures.
 type FailureReport struct {
