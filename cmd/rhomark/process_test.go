@@ -59,7 +59,7 @@ func waitFor(t *testing.T, path string, limit time.Duration) {
 }
 
 // killedRunArgs is a run long enough to be interrupted part-way.
-// About 4.5 s on a 2-core machine, against a first checkpoint after 50 ms
+// About 3 s on a 2-core machine, against a first checkpoint after 50 ms
 // and a kill within a few ms of it: a machine would need to be some 50
 // times faster for the run to finish first.
 var killedRunArgs = []string{"run", "clean-normal", "--replicates", "20000", "--workers", "2", "--checkpoint-every", "50ms", "--quiet"}
