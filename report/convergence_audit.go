@@ -48,28 +48,14 @@ func solverAudit(r *results.Results) *solverAuditView {
 		if len(c.Settings) > 0 {
 			sc.Heading += " (" + results.SettingsText(c.Settings) + ")"
 		}
-		for _, e := range c.Estimators {
-			if l := results.SolverStudyLine(r, c, e); l != "" {
-				sc.Lines = append(sc.Lines, l)
-			}
-			if l := results.RootsLine(e); l != "" {
-				sc.Lines = append(sc.Lines, l)
-			}
-			se := e.Convergence.StopError
-			if se == nil {
-				continue
-			}
-			row := solverAuditRow{Label: e.Label, Rule: results.StoppingRule(r, c, e.Label), Iterations: results.FormatSE(e.Convergence.MedianIterations),
-				Median: results.FormatSE(se.Median), Max: results.FormatSE(se.Max), Over: results.Percent(float64(se.Over)), Rate: "—",
-				OverFlag: se.OverCount > 0}
-			if row.Rule == "" {
-				row.Rule = "—"
-			}
-			if rt := e.Convergence.Rate; rt != nil && rt.Fits > 0 {
-				row.Rate = results.FormatSE(rt.Median) + " (" + rt.Kind + ")"
-				if rt.Note != "" && !notes[rt.Note] {
-					notes[rt.Note] = true
-					v.Notes = append(v.Notes, e.Label+": "+rt.Note+".")
+		sc.Lines = results.SolverStudyLines(r, c)
+		for _, w := range results.RuleRows(r, c) {
+			row := solverAuditRow{Label: w.Label, Rule: w.Rule, Iterations: w.Iterations, Median: w.Median, Max: w.Max, Over: w.Over, Rate: "—", OverFlag: w.OverFlag}
+			if w.RateKind != "" {
+				row.Rate = w.RateMedian + " (" + w.RateKind + ")"
+				if w.RateNote != "" && !notes[w.RateNote] {
+					notes[w.RateNote] = true
+					v.Notes = append(v.Notes, w.Label+": "+w.RateNote+".")
 				}
 			}
 			sc.Rows = append(sc.Rows, row)
@@ -113,10 +99,11 @@ func (fc *figureContext) auditedSeries(y func(results.ToleranceCost) float64) ([
 	return plots, all
 }
 
-// toleranceIterations draws the median iterations each change tolerance
-// needs, per cell and audited estimator.
-func (fc *figureContext) toleranceIterations() (*figureSpec, string, error) {
-	plots, all := fc.auditedSeries(func(row results.ToleranceCost) float64 { return float64(row.MedianIterations) })
+// toleranceFigure draws y(row) against the change tolerance for every
+// audited iterative estimator, a panel per cell; decorate finishes each
+// panel (axis, reference lines). nil when no estimator was audited.
+func (fc *figureContext) toleranceFigure(y func(results.ToleranceCost) float64, decorate func(*plot.Plot) error, title, caption string) (*figureSpec, string, error) {
+	plots, all := fc.auditedSeries(y)
 	if len(plots) == 0 {
 		return nil, "", nil
 	}
@@ -125,8 +112,9 @@ func (fc *figureContext) toleranceIterations() (*figureSpec, string, error) {
 		if _, err := fc.addSeries(p, all[i], 0, true); err != nil {
 			return nil, "", err
 		}
-		p.Y.Min = 0
-		p.Y.Label.Text = "median iterations"
+		if err := decorate(p); err != nil {
+			return nil, "", err
+		}
 		for _, s := range all[i] {
 			if len(s.pts) > 0 && !slices.Contains(labels, s.label) {
 				labels = append(labels, s.label)
@@ -136,40 +124,38 @@ func (fc *figureContext) toleranceIterations() (*figureSpec, string, error) {
 	leg := newLegend()
 	fc.legendEstimators(leg, labels, true)
 	grid, h := facets(plots)
-	caption := "Iterations needed against the stopping tolerance: for each audited fit, the first iteration whose relative change ‖Δβ‖/‖β‖ is at most 10^-x, counted along the fit's own iterations continued to the fixed point; the median over fits, per cell and estimator. Read it with the next figure to pick the loosest tolerance that leaves the estimate close enough."
-	return &figureSpec{title: fc.r.Scenario.Name + ": iterations needed against the change tolerance", caption: caption, panels: grid, legend: leg, height: h}, "", nil
+	return &figureSpec{title: fc.r.Scenario.Name + ": " + title, caption: caption, panels: grid, legend: leg, height: h}, "", nil
+}
+
+// toleranceIterations draws the median iterations each change tolerance
+// needs, per cell and audited estimator.
+func (fc *figureContext) toleranceIterations() (*figureSpec, string, error) {
+	return fc.toleranceFigure(func(row results.ToleranceCost) float64 { return float64(row.MedianIterations) },
+		func(p *plot.Plot) error {
+			p.Y.Min = 0
+			p.Y.Label.Text = "median iterations"
+			return nil
+		},
+		"iterations needed against the change tolerance",
+		"Iterations needed against the stopping tolerance: for each audited fit, the first iteration whose relative change ‖Δβ‖/‖β‖ is at most 10^-x, counted along the fit's own iterations continued to the fixed point; the median over fits, per cell and estimator. Read it with the next figure to pick the loosest tolerance that leaves the estimate close enough.")
 }
 
 // toleranceError draws the largest stopping-rule error each change
 // tolerance leaves, in standard errors (log10), with the 0.01 SE line.
 func (fc *figureContext) toleranceError() (*figureSpec, string, error) {
-	plots, all := fc.auditedSeries(func(row results.ToleranceCost) float64 {
+	return fc.toleranceFigure(func(row results.ToleranceCost) float64 {
 		if !(row.MaxErrorSE > 0) {
 			return math.NaN()
 		}
 		return math.Log10(float64(row.MaxErrorSE))
-	})
-	if len(plots) == 0 {
-		return nil, "", nil
-	}
-	var labels []string
-	for i, p := range plots {
-		if _, err := fc.addSeries(p, all[i], 0, true); err != nil {
-			return nil, "", err
-		}
-		if _, err := addHLine(p, math.Log10(results.StopErrorThreshold), 2, 14, referenceLine()); err != nil {
-			return nil, "", err
-		}
-		p.Y.Label.Text = "log10 largest error (SE)"
-		for _, s := range all[i] {
-			if len(s.pts) > 0 && !slices.Contains(labels, s.label) {
-				labels = append(labels, s.label)
+	},
+		func(p *plot.Plot) error {
+			if _, err := addHLine(p, math.Log10(results.StopErrorThreshold), 2, 14, referenceLine()); err != nil {
+				return err
 			}
-		}
-	}
-	leg := newLegend()
-	fc.legendEstimators(leg, labels, true)
-	grid, h := facets(plots)
-	caption := "Error left against the stopping tolerance: the largest distance over fits (worst coefficient) from the fixed point, in the coefficient's standard errors, on a log10 scale, if each fit had stopped at change tolerance 10^-x. The dotted line is 0.01 SE; a tolerance whose point lies below it leaves every fit within a hundredth of its standard error. A point missing means the error there was exactly 0."
-	return &figureSpec{title: fc.r.Scenario.Name + ": stopping-rule error against the change tolerance", caption: caption, panels: grid, legend: leg, height: h}, "", nil
+			p.Y.Label.Text = "log10 largest error (SE)"
+			return nil
+		},
+		"stopping-rule error against the change tolerance",
+		"Error left against the stopping tolerance: the largest distance over fits (worst coefficient) from the fixed point, in the coefficient's standard errors, on a log10 scale, if each fit had stopped at change tolerance 10^-x. The dotted line is 0.01 SE; a tolerance whose point lies below it leaves every fit within a hundredth of its standard error. A point is missing where no fit reached that tolerance, or where the error there was exactly 0.")
 }

@@ -486,6 +486,8 @@ func TestSaveFigures(t *testing.T) {
 	}
 }
 
+// TestNiceTicks: labels fall on round steps, about five of them, with the
+// same number of decimals, and never read "-0".
 func TestNiceTicks(t *testing.T) {
 	cases := []struct {
 		lo, hi float64

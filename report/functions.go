@@ -78,7 +78,7 @@ func (fc *figureContext) psiFunctions() (*figureSpec, string, error) {
 func functionDesc(r *results.Results, f results.FunctionCurve) string {
 	if len(r.Cells) > 0 {
 		c := r.Cells[0]
-		for _, e := range c.Estimators {
+		for i, e := range c.Estimators {
 			if e.Label != f.Estimator || e.Psi != "custom" {
 				continue
 			}
@@ -86,7 +86,7 @@ func functionDesc(r *results.Results, f results.FunctionCurve) string {
 			// Where the constants are swept, the description leaves them
 			// out; the curve is drawn at the first cell's.
 			for _, s := range c.Settings {
-				if t := s.Target(); t.Kind == results.SweepPsiConstant && t.Owner == e.Label {
+				if t := s.Target(); t.Kind == results.SweepPsiConstant && t.Owns(e.Label, i) {
 					desc += " " + t.Name + " = " + s.Value
 				}
 			}

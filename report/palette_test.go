@@ -174,6 +174,3 @@ func TestPaletteInGreyscale(t *testing.T) {
 		seen[key] = i
 	}
 }
-
-// TestNiceTicks: labels fall on round steps, about five of them, with the
-// same number of decimals, and never read "-0".

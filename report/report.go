@@ -491,7 +491,7 @@ func convergenceRows(r *results.Results) []convergenceRow {
 			}
 			if cv.MaxIterations > 0 {
 				row.Mean = results.PlusMinus(cv.MeanIterations, false)
-				row.Median = strconv.FormatFloat(float64(cv.MedianIterations), 'g', -1, 64)
+				row.Median = results.FormatIterations(cv.MedianIterations)
 				row.Max = strconv.FormatInt(cv.MaxIterations, 10)
 			}
 			var guards []string

@@ -313,45 +313,32 @@ func pairedFailureTests(p *PairedReport, base *Results) []FailureTest {
 	return out
 }
 
-// holm flags differences by Holm's step-down procedure: with p-values
-// p = P(|Z| > |z|) sorted ascending, the k-th smallest (k from 0) is
-// flagged while p ≤ α/(m−k) (Holm (1979), "A simple sequentially
-// rejective multiple test procedure", Scand. J. Statist. 6:65-70). It
-// returns m.
+// holm flags differences by Holm's step-down procedure (holmStepDown)
+// with p-values p = P(|Z| > |z|), and returns m.
 //
 // A difference whose z is NaN (its MCSE is undefined, for example an
 // efficiency from fewer than two fits) is not tested and does not count
 // in m; Uncomparable lists it.
 func holm(d []Difference, alpha float64) int {
-	idx := make([]int, 0, len(d))
-	for i := range d {
-		if !math.IsNaN(float64(d[i].Z)) {
-			idx = append(idx, i)
-		}
-	}
-	pval := func(i int) float64 { return math.Erfc(math.Abs(float64(d[i].Z)) / math.Sqrt2) }
-	sort.SliceStable(idx, func(a, b int) bool { return pval(idx[a]) < pval(idx[b]) })
-	m := len(idx)
-	for k, i := range idx {
-		if pval(i) > alpha/float64(m-k) {
-			break
-		}
-		d[i].Flagged = true
-	}
-	return m
+	return holmStepDown(len(d), func(i int) float64 { return math.Erfc(math.Abs(float64(d[i].Z)) / math.Sqrt2) },
+		func(i int) bool { return !math.IsNaN(float64(d[i].Z)) }, func(i int) { d[i].Flagged = true }, alpha)
 }
 
 // holmFailures applies Holm's procedure to the failure tests that can
 // reject and returns how many there were.
 func holmFailures(f []FailureTest, alpha float64, kind FailureTestKind) int {
-	return holmExact(len(f), func(i int) float64 { return float64(f[i].P) }, func(i int) bool { return f[i].informative(kind) },
+	return holmStepDown(len(f), func(i int) float64 { return float64(f[i].P) }, func(i int) bool { return f[i].informative(kind) },
 		func(i int) { f[i].Flagged = true }, alpha)
 }
 
-// holmExact runs Holm's step-down procedure at family-wise level alpha over
-// the n tests (p-value p(i)) that could reject (informative), calling flag
-// for each rejected; it returns the number of tests in the family.
-func holmExact(n int, p func(int) float64, informative func(int) bool, flag func(int), alpha float64) int {
+// holmStepDown runs Holm's step-down procedure at family-wise level alpha
+// over the n tests (p-value p(i)) that could reject (informative): with
+// their p-values sorted ascending, the k-th smallest (k from 0) is
+// rejected while p ≤ α/(m−k) (Holm (1979), "A simple sequentially
+// rejective multiple test procedure", Scand. J. Statist. 6:65-70). It
+// calls flag for each rejected test and returns m, the number of tests in
+// the family.
+func holmStepDown(n int, p func(int) float64, informative func(int) bool, flag func(int), alpha float64) int {
 	var idx []int
 	for i := range n {
 		if informative(i) {

@@ -80,8 +80,10 @@ type AuditTest struct {
 // Rise reports whether the count's rate is higher in the candidate.
 func (a AuditTest) Rise() bool { return a.Candidate*a.BaselineOf > a.Baseline*a.CandidateOf }
 
-// informative reports whether the test could reject: a count in either run.
-func (a AuditTest) informative() bool { return a.Baseline+a.Candidate > 0 }
+// informative reports whether the test could reject (see canDiffer).
+func (a AuditTest) informative() bool {
+	return canDiffer(a.Baseline, a.BaselineOf, a.Candidate, a.CandidateOf)
+}
 
 // AuditReport tests the solver studies of estimators audited (or searched
 // for roots) in both runs, per cell × estimator × check, by Fisher's exact
@@ -91,7 +93,8 @@ func (a AuditTest) informative() bool { return a.Baseline+a.Candidate > 0 }
 type AuditReport struct {
 	// Alpha is the family-wise level of Holm's procedure.
 	Alpha float64 `json:"alpha"`
-	// Tested counts the tests that could reject (a count in either run).
+	// Tested counts the tests that could reject: fits in both runs, and
+	// counted in some but not all of them.
 	Tested int `json:"tested"`
 	// Tests holds every test: flagged rises first, then other flagged
 	// changes, then by p-value.
@@ -165,7 +168,7 @@ func (c *Comparison) compareAudits(pairs []cellPair, alpha float64) {
 		return
 	}
 	a := &AuditReport{Alpha: alpha, Tests: tests}
-	a.Tested = holmExact(len(tests), func(i int) float64 { return float64(tests[i].P) }, func(i int) bool { return tests[i].informative() },
+	a.Tested = holmStepDown(len(tests), func(i int) float64 { return float64(tests[i].P) }, func(i int) bool { return tests[i].informative() },
 		func(i int) { tests[i].Flagged = true }, alpha)
 	sort.SliceStable(tests, func(i, j int) bool {
 		x, y := tests[i], tests[j]
@@ -222,10 +225,10 @@ func (c *Comparison) auditVerdict() []string {
 	return out
 }
 
-// auditRows returns the audit tests worth a row: flagged ones and those
-// that could reject.
+// auditRows returns the audit tests worth a row: those that counted
+// something in either run.
 func (c *Comparison) auditRows() []AuditTest {
-	return rowsWhere(c.Audit.Tests, func(a AuditTest) bool { return a.Flagged || a.informative() })
+	return rowsWhere(c.Audit.Tests, func(a AuditTest) bool { return a.Baseline+a.Candidate > 0 })
 }
 
 // auditNote is the verdict of one audit test for a table.
@@ -237,7 +240,7 @@ func auditCells(a AuditTest) (string, string) {
 	cell := func(k, of int64, med Float) string {
 		s := fmt.Sprintf("%d/%d", k, of)
 		if a.Check == StoppedEarly {
-			s += " (median " + fmtNum(med) + " SE)"
+			s += " (median " + FormatSE(Num(med)) + " SE)"
 		}
 		return s
 	}

@@ -95,7 +95,8 @@ func TestCompareAudits(t *testing.T) {
 
 // TestCompareAuditsHolm: the audit tests are one family under Holm's
 // procedure; a change significant alone (p about 0.03 by Fisher's exact
-// test) is not flagged among several tests that could reject.
+// test) is not flagged among several tests that could reject, and is
+// among tests that could not.
 func TestCompareAuditsHolm(t *testing.T) {
 	p := FisherExactP(0, 200, 6, 200)
 	if !(p < 0.05 && p > 0.05/2) {
@@ -114,6 +115,15 @@ func TestCompareAuditsHolm(t *testing.T) {
 	}
 	if two.Audit.Tested != 2 || two.Flagged() {
 		t.Errorf("with a second test that could reject: %+v, want unflagged in a family of 2", two.Audit)
+	}
+	// Every replicate with several roots in both runs: p is 1 whatever
+	// happens, so that test cannot reject and must not join the family.
+	all, err := Compare(auditRun(0, 200), auditRun(6, 200), nil, nil, CompareOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if all.Audit.Tested != 1 || !all.Flagged() {
+		t.Errorf("with a second test that cannot reject: %+v, want flagged in a family of 1", all.Audit)
 	}
 }
 

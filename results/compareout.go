@@ -141,9 +141,14 @@ func (c *Comparison) settingsOf(kinds ...SettingKind) []SettingChange {
 }
 
 // failureRows returns the failure tests worth a row: flagged ones and
-// those that could reject.
+// those with a failure (in paired mode, a fit whose outcome changed).
 func (c *Comparison) failureRows() []FailureTest {
-	return rowsWhere(c.Failures.Tests, func(f FailureTest) bool { return f.Flagged || f.informative(c.Failures.Test) })
+	return rowsWhere(c.Failures.Tests, func(f FailureTest) bool {
+		if c.Failures.Test == FailurePaired {
+			return f.Flagged || f.NewFailures+f.Recovered > 0
+		}
+		return f.Flagged || f.BaselineFailed+f.CandidateFailed > 0
+	})
 }
 
 // rowsWhere returns the tests a table shows.

@@ -215,12 +215,22 @@ func (f FailureTest) Rise() bool {
 }
 
 // informative reports whether the test could reject: in paired mode a fit
-// whose outcome changed, otherwise a failure in either run.
+// whose outcome changed, otherwise two failure rates that can differ
+// (canDiffer).
 func (f FailureTest) informative(kind FailureTestKind) bool {
 	if kind == FailurePaired {
 		return f.NewFailures+f.Recovered > 0
 	}
-	return f.BaselineFailed+f.CandidateFailed > 0
+	return canDiffer(f.BaselineFailed, f.BaselineFits, f.CandidateFailed, f.CandidateFits)
+}
+
+// canDiffer reports whether Fisher's exact test of k1 of n1 against k2 of
+// n2 can give a p-value below 1: both runs have fits, and some but not all
+// of them are counted. Otherwise every table with those margins is the
+// observed one, and p is 1 by construction.
+func canDiffer(k1, n1, k2, n2 int64) bool {
+	k := k1 + k2
+	return n1 > 0 && n2 > 0 && k > 0 && k < n1+n2
 }
 
 // FailureReport tests every cell × estimator for a change of its failure
@@ -230,9 +240,10 @@ type FailureReport struct {
 	// Alpha is the family-wise level of Holm's procedure over the tests.
 	Alpha float64 `json:"alpha"`
 	// Tested counts the tests that could reject: in paired mode those with
-	// a fit whose outcome changed, in summary mode those with a failure in
-	// either run (a test that cannot reject does not dilute the others;
-	// Tarone (1990), Biometrics 46:515-522, from memory).
+	// a fit whose outcome changed, in summary mode those with fits in both
+	// runs, some but not all of them failed (a test that cannot reject
+	// does not dilute the others; Tarone (1990), Biometrics 46:515-522,
+	// from memory).
 	Tested int `json:"tested"`
 	// Tests holds every cell × estimator: flagged rises first, then other
 	// flagged changes, then by p-value.

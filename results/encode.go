@@ -44,8 +44,10 @@ func csvFloat(f float64) string {
 // WriteCSV writes r as tidy CSV: one row per cell × estimator ×
 // coefficient, with one column per swept field. heavy_tails and
 // rel_eff_heavy_tails are true or false (see Coefficient); where they are
-// true the MCSEs they cover are NA. Provenance and timing are
-// left out, so two runs of the same scenario and seed give identical files.
+// true the MCSEs they cover are NA. A run with a solver study (solver
+// audit or root search) adds its columns (solverCSVHeader), NA where an
+// estimator has none. Provenance and timing are left out, so two runs of
+// the same scenario and seed give identical files.
 func WriteCSV(w io.Writer, r *Results) error {
 	cw := csv.NewWriter(w)
 	var paths []string
@@ -63,7 +65,8 @@ func WriteCSV(w io.Writer, r *Results) error {
 		"rel_eff", "rel_eff_mcse", "paired", "theory_efficiency", "theory_gap_mcse",
 		"heavy_tails", "rel_eff_heavy_tails", "intervals", "coverage", "coverage_mcse", "width", "width_mcse", "slope_bias", "slope_bias_mcse",
 		"failure_rate", "failure_low", "failure_high", "mean_iterations", "mean_iterations_mcse", "median_iterations", "max_iterations")
-	header = append(header, solverCSVHeader(r)...)
+	solver := solverCSVHeader(r)
+	header = append(header, solver...)
 	if err := cw.Write(header); err != nil {
 		return err
 	}
@@ -94,7 +97,7 @@ func WriteCSV(w io.Writer, r *Results) error {
 					csvFloat(float64(e.SlopeBias.Value)), csvFloat(float64(e.SlopeBias.MCSE)),
 					csvFloat(float64(cv.FailureRate.Value)), csvFloat(float64(cv.FailureRate.Low)), csvFloat(float64(cv.FailureRate.High)),
 					csvFloat(float64(cv.MeanIterations.Value)), csvFloat(float64(cv.MeanIterations.MCSE)), csvFloat(float64(cv.MedianIterations)), strconv.FormatInt(cv.MaxIterations, 10))
-				if len(header) > len(row) {
+				if solver != nil {
 					row = append(row, solverCSVRow(e, ki)...)
 				}
 				if err := cw.Write(row); err != nil {

@@ -38,9 +38,13 @@ func EstimatorDesc(r *Results, e Estimator) string {
 // psiSwept reports whether any cell sweeps a field of the psi of the
 // estimator labelled label.
 func psiSwept(r *Results, label string) bool {
+	index := -1 // cells list the estimators in the scenario's order
+	if len(r.Cells) > 0 {
+		index = estimatorIndex(r.Cells[0], label)
+	}
 	for _, c := range r.Cells {
 		for _, s := range c.Settings {
-			if t := s.Target(); t.Owner == label && (t.Kind == SweepPsi || t.Kind == SweepPsiConstant) {
+			if t := s.Target(); t.Owns(label, index) && (t.Kind == SweepPsi || t.Kind == SweepPsiConstant) {
 				return true
 			}
 		}

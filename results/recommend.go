@@ -67,9 +67,9 @@ func tunedPaths(r *Results) []tunedPath {
 	for _, s := range r.Cells[0].Settings {
 		switch t := s.Target(); {
 		case t.Kind == SweepTuning && t.Name == "":
-			out = append(out, tunedPath{s.Path, t.Owner, "tuning"})
+			out = append(out, tunedPath{s.Path, ownerLabel(r.Cells[0], t.Owner), "tuning"})
 		case t.Kind == SweepPsiConstant:
-			out = append(out, tunedPath{s.Path, t.Owner, t.Name})
+			out = append(out, tunedPath{s.Path, ownerLabel(r.Cells[0], t.Owner), t.Name})
 		}
 	}
 	return out
@@ -78,9 +78,9 @@ func tunedPaths(r *Results) []tunedPath {
 // relevant reports whether a swept setting can change the figures of the
 // estimator labelled label against the reference: anything but the
 // settings of other estimators.
-func relevant(s Setting, label, reference string) bool {
+func relevant(s Setting, c Cell, label, reference string) bool {
 	if t := s.Target(); t.OfEstimator() {
-		return t.Owner == label || t.Owner == reference
+		return t.Owns(label, estimatorIndex(c, label)) || t.Owns(reference, estimatorIndex(c, reference))
 	}
 	return true
 }
@@ -110,7 +110,7 @@ func study(r *Results, p tunedPath, base []baseContamination, target float64) Tu
 			switch {
 			case s.Path == p.path:
 				value = s.Value
-			case relevant(s, p.label, r.Reference):
+			case relevant(s, c, p.label, r.Reference):
 				rest = append(rest, s)
 			}
 		}
@@ -471,7 +471,7 @@ func clean(settings []Setting, base []baseContamination) bool {
 	for i, c := range base {
 		f := c.fraction
 		for _, s := range settings {
-			if t := s.Target(); t.Kind == SweepFraction && (t.Owner == c.label || t.Owner == strconv.Itoa(i)) {
+			if t := s.Target(); t.Kind == SweepFraction && t.Owns(c.label, i) {
 				if v, err := strconv.ParseFloat(strings.TrimSpace(s.Value), 64); err == nil {
 					f = v
 				}
@@ -535,6 +535,19 @@ func estimatorIndex(c Cell, label string) int {
 		}
 	}
 	return -1
+}
+
+// ownerLabel returns the label of the estimator a sweep path names by
+// owner, its label or its position in the scenario's list (c lists the
+// estimators in that order); owner itself when it names neither.
+func ownerLabel(c Cell, owner string) string {
+	if estimatorIndex(c, owner) >= 0 {
+		return owner
+	}
+	if i, err := strconv.Atoi(owner); err == nil && i >= 0 && i < len(c.Estimators) {
+		return c.Estimators[i].Label
+	}
+	return owner
 }
 
 // cellByIndex returns the cell whose Index is i.

@@ -4,6 +4,7 @@ import (
 	"encoding/json"
 	"fmt"
 	"math"
+	"slices"
 	"strconv"
 	"strings"
 )
@@ -37,6 +38,15 @@ func FormatSE(v Num) string {
 	return strconv.FormatFloat(f, 'g', 2, 64)
 }
 
+// FormatIterations formats a median of iteration counts exactly (11.5,
+// 100), "—" where there is none.
+func FormatIterations(v Num) string {
+	if f := float64(v); !math.IsNaN(f) && !math.IsInf(f, 0) {
+		return strconv.FormatFloat(f, 'g', -1, 64)
+	}
+	return "—"
+}
+
 // formatTol formats a tolerance as it would be written in a scenario:
 // 1e-6 (not 1e-06 or 0.000001).
 func formatTol(t float64) string {
@@ -59,9 +69,10 @@ func StoppingRule(r *Results, c Cell, label string) string {
 		return ""
 	}
 	var stop map[string]any
-	for _, e := range sc.Estimators {
+	index := -1
+	for i, e := range sc.Estimators {
 		if e.Label == label {
-			stop = e.Stop
+			stop, index = e.Stop, i
 		}
 	}
 	if stop == nil {
@@ -77,9 +88,12 @@ func StoppingRule(r *Results, c Cell, label string) string {
 		}
 	}
 	for _, s := range c.Settings {
-		for _, k := range []string{"change", "equations", "max_iter", "require"} {
-			yamlKey := strings.ReplaceAll(k, "_", "-")
-			if s.Path == "estimators."+label+".stop."+yamlKey {
+		t := s.Target()
+		if t.Kind != SweepEstimator || !t.Owns(label, index) {
+			continue
+		}
+		if key, ok := strings.CutPrefix(s.Path, "estimators."+t.Owner+".stop."); ok {
+			if k := strings.ReplaceAll(key, "-", "_"); slices.Contains([]string{"change", "equations", "max_iter", "require"}, k) {
 				text[k] = s.Value
 			}
 		}
@@ -107,8 +121,8 @@ func StoppingRule(r *Results, c Cell, label string) string {
 // StopAdvice is what the audit says about an estimator's stopping rule.
 type StopAdvice struct {
 	// Tolerance is the loosest audited change tolerance at which every
-	// audited fit was within StopErrorThreshold standard errors of its
-	// fixed point; NaN when none was.
+	// settled fit (see Unsettled) was within StopErrorThreshold standard
+	// errors of its fixed point; NaN when none was.
 	Tolerance float64
 	// Iterations is the median iterations it needs minus the median the
 	// fits took (positive: more iterations).
@@ -163,23 +177,24 @@ func SolverStudyLine(r *Results, c Cell, e Estimator) string {
 	}
 	line := fmt.Sprintf("%s: stopping rule leaves the estimate %s SE (median; max %s) from its fixed point; ",
 		head, FormatSE(se.Median), FormatSE(se.Max))
+	w := Wilson(se.OverCount, se.Audited)
 	if se.OverCount == 0 {
-		line += "no fit over 0.01 SE"
+		line += fmt.Sprintf("no fit over 0.01 SE (0 of %d; 95%% ≤ %s)", se.Audited, percent(float64(w.High)))
 	} else {
-		line += percent(float64(se.Over)) + " of fits over 0.01 SE"
+		line += fmt.Sprintf("%s of fits over 0.01 SE (%d of %d; 95%% %s–%s)", percent(float64(se.Over)), se.OverCount, se.Audited, percent(float64(w.Low)), percent(float64(w.High)))
 	}
 	if a, ok := AdviseStop(e); ok {
 		switch {
 		case a.Tighten && math.IsNaN(a.Tolerance):
 			line += " — no change tolerance down to 1e-14 brings every fit within 0.01 SE"
 		case a.Tighten:
-			line += fmt.Sprintf(" — tighten change to %s (needs %s more iterations, median)", formatTol(a.Tolerance), iterText(a.Iterations))
+			line += fmt.Sprintf(" — tighten change to %s (needs %s, median)", formatTol(a.Tolerance), iterText(a.Iterations, "more"))
 		case !math.IsNaN(a.Tolerance) && a.Iterations < 0:
-			line += fmt.Sprintf(" — change %s would do (saves %s iterations, median)", formatTol(a.Tolerance), iterText(-a.Iterations))
+			line += fmt.Sprintf(" — change %s would do (saves %s, median)", formatTol(a.Tolerance), iterText(-a.Iterations, ""))
 		}
-	}
-	if a, ok := AdviseStop(e); ok && a.Unsettled > 0 {
-		line += fmt.Sprintf(" [%s never settled: the change stayed above 1e-2 even when continued]", fits(a.Unsettled))
+		if a.Unsettled > 0 {
+			line += fmt.Sprintf(" [%s never settled: the change stayed above 1e-2 even when continued]", fits(a.Unsettled))
+		}
 	}
 	if se.Undefined > 0 {
 		line += fmt.Sprintf(" [%s without standard errors: %s]", fits(se.Undefined), orNone(se.UndefinedReason))
@@ -195,12 +210,20 @@ func fits(n int64) string {
 	return strconv.FormatInt(n, 10) + " fits"
 }
 
-// iterText formats a difference of median iterations.
-func iterText(n float64) string {
-	if n <= 0 || math.IsNaN(n) {
-		return "no"
+// iterText writes a difference of median iterations with its noun:
+// "1 more iteration", "2.5 fewer iterations".
+func iterText(n float64, adj string) string {
+	num := "no"
+	if n > 0 {
+		num = strconv.FormatFloat(n, 'f', -1, 64)
 	}
-	return strconv.FormatFloat(n, 'f', -1, 64)
+	if adj != "" {
+		num += " " + adj
+	}
+	if n == 1 {
+		return num + " iteration"
+	}
+	return num + " iterations"
 }
 
 func orNone(s string) string {
@@ -235,11 +258,25 @@ func RootsLine(e Estimator) string {
 	return line
 }
 
-// writeSolverStudy writes the solver study, answer first: per cell one
-// line per audited estimator, then the side-by-side table of the stopping
-// rules (iterations, error, rate), then each iterative estimator's
-// change-tolerance table, then the root searches.
-func writeSolverStudy(b *strings.Builder, r *Results, width int) {
+// SolverStudyLines returns the solver study's answer for each audited
+// or root-searched estimator of cell c (SolverStudyLine, RootsLine), in
+// the cell's order.
+func SolverStudyLines(r *Results, c Cell) []string {
+	var lines []string
+	for _, e := range c.Estimators {
+		for _, l := range []string{SolverStudyLine(r, c, e), RootsLine(e)} {
+			if l != "" {
+				lines = append(lines, l)
+			}
+		}
+	}
+	return lines
+}
+
+// writeSolverSummary writes the solver study's answer over all cells (one
+// line per audited estimator), after the verdicts; the cells' detail
+// comes with the other details (writeSolverCells).
+func writeSolverSummary(b *strings.Builder, r *Results, width int) {
 	if !HasSolverStudy(r) {
 		return
 	}
@@ -247,27 +284,30 @@ func writeSolverStudy(b *strings.Builder, r *Results, width int) {
 	rule := "── how close is converged? (solver audit) "
 	b.WriteString(rule + strings.Repeat("─", max(0, width-runeLen(rule))) + "\n")
 	wrap(b, "Stopping-rule error: the distance of each fit's estimate from the fixed point of the same iteration "+
-		"at machine precision, on its worst coefficient, in that coefficient's estimated standard errors.", "   ", "   ", width)
+		"at machine precision, on its worst coefficient, in that coefficient's estimated standard errors. "+
+		"Each cell's audit, the change tolerances and the root searches are in the details.", "   ", "   ", width)
 	if lines := ScenarioStopLines(r); len(lines) > 0 {
 		b.WriteString("\n")
 		for _, l := range lines {
 			wrap(b, l, "   ", "       ", width)
 		}
 	}
+}
+
+// writeSolverCells writes each cell's solver study: one line per audited
+// estimator, the side-by-side table of the stopping rules (iterations,
+// error, rate), each iterative estimator's change-tolerance table, then
+// the root searches.
+func writeSolverCells(b *strings.Builder, r *Results, width int) {
+	if !HasSolverStudy(r) {
+		return
+	}
 	for _, c := range r.Cells {
-		var lines []string
-		for _, e := range c.Estimators {
-			if l := SolverStudyLine(r, c, e); l != "" {
-				lines = append(lines, l)
-			}
-			if l := RootsLine(e); l != "" {
-				lines = append(lines, l)
-			}
-		}
+		lines := SolverStudyLines(r, c)
 		if len(lines) == 0 {
 			continue
 		}
-		head := fmt.Sprintf("cell %d", c.Index)
+		head := fmt.Sprintf("solver audit, cell %d", c.Index)
 		if len(c.Settings) > 0 {
 			head += " (" + shortSettings(c.Settings, " ", ", ") + ")"
 		}
@@ -281,58 +321,87 @@ func writeSolverStudy(b *strings.Builder, r *Results, width int) {
 	}
 }
 
-// writeRuleTable writes the audited estimators of cell c side by side.
-func writeRuleTable(b *strings.Builder, r *Results, c Cell, width int) {
-	type row struct{ cols [7]string }
-	var rows []row
+// RuleRow is one audited estimator of a cell as the side-by-side table of
+// stopping rules shows it, each value formatted.
+type RuleRow struct {
+	Label string
+	// Rule is the stopping rule as written (StoppingRule), "—" for none.
+	Rule string
+	// Iterations is the median iterations; Median, Max and Over the
+	// stopping-rule error (median and largest, in SE) and the share of
+	// fits over StopErrorThreshold, OverFlag set when any fit was.
+	Iterations, Median, Max, Over string
+	OverFlag                      bool
+	// RateMedian and RateKind are the observed convergence rate ("" when
+	// none), RateNote its explanation, if any.
+	RateMedian, RateKind, RateNote string
+}
+
+// RuleRows returns the audited estimators of cell c, in the cell's order.
+func RuleRows(r *Results, c Cell) []RuleRow {
+	var rows []RuleRow
 	for _, e := range c.Estimators {
 		se := e.Convergence.StopError
 		if se == nil {
 			continue
 		}
-		rule := StoppingRule(r, c, e.Label)
-		if rule == "" {
-			rule = "—"
+		row := RuleRow{Label: e.Label, Rule: StoppingRule(r, c, e.Label), Iterations: FormatIterations(e.Convergence.MedianIterations),
+			Median: FormatSE(se.Median), Max: FormatSE(se.Max), Over: percent(float64(se.Over)), OverFlag: se.OverCount > 0}
+		if row.Rule == "" {
+			row.Rule = "—"
 		}
-		rate := "—"
 		if rt := e.Convergence.Rate; rt != nil && rt.Fits > 0 {
-			rate = FormatSE(rt.Median) + " " + rt.Kind
-			if rt.Note != "" {
+			row.RateMedian, row.RateKind, row.RateNote = FormatSE(rt.Median), rt.Kind, rt.Note
+		}
+		rows = append(rows, row)
+	}
+	return rows
+}
+
+// writeRuleTable writes the audited estimators of cell c side by side.
+func writeRuleTable(b *strings.Builder, r *Results, c Cell, width int) {
+	rows := [][]string{{"estimator", "rule", "iter.", "error SE", "max SE", ">0.01 SE", "rate (median)"}}
+	var notes []string
+	for _, w := range RuleRows(r, c) {
+		rate := "—"
+		if w.RateKind != "" {
+			rate = w.RateMedian + " " + w.RateKind
+			if w.RateNote != "" {
 				rate += " *"
+				notes = append(notes, "* "+w.Label+": "+w.RateNote)
 			}
 		}
-		rows = append(rows, row{[7]string{e.Label, rule, FormatSE(e.Convergence.MedianIterations),
-			FormatSE(se.Median), FormatSE(se.Max), percent(float64(se.Over)), rate}})
+		rows = append(rows, []string{w.Label, w.Rule, w.Iterations, w.Median, w.Max, w.Over, rate})
 	}
-	if len(rows) == 0 {
+	if len(rows) == 1 {
 		return
 	}
-	head := [7]string{"estimator", "rule", "iter.", "error SE", "max SE", ">0.01 SE", "rate (median)"}
-	widths := [7]int{}
-	for i, h := range head {
-		widths[i] = runeLen(h)
+	b.WriteString("\n")
+	writeAligned(b, "   ", rows)
+	for _, n := range notes {
+		wrap(b, n, "   ", "     ", width)
 	}
-	for _, r := range rows {
-		for i, s := range r.cols {
+}
+
+// writeAligned writes rows of cells as columns left-aligned by their
+// widths in characters, two spaces apart, each line after indent and
+// without trailing spaces.
+func writeAligned(b *strings.Builder, indent string, rows [][]string) {
+	var widths []int
+	for _, row := range rows {
+		for i, s := range row {
+			if i == len(widths) {
+				widths = append(widths, 0)
+			}
 			widths[i] = max(widths[i], runeLen(s))
 		}
 	}
-	line := func(cols [7]string) {
+	for _, row := range rows {
 		var l strings.Builder
-		for i, s := range cols {
+		for i, s := range row {
 			l.WriteString(s + strings.Repeat(" ", widths[i]-runeLen(s)+2))
 		}
-		b.WriteString("   " + strings.TrimRight(l.String(), " ") + "\n")
-	}
-	b.WriteString("\n")
-	line(head)
-	for _, r := range rows {
-		line(r.cols)
-	}
-	for _, e := range c.Estimators {
-		if rt := e.Convergence.Rate; rt != nil && rt.Note != "" {
-			wrap(b, "* "+e.Label+": "+rt.Note, "   ", "     ", width)
-		}
+		b.WriteString(indent + strings.TrimRight(l.String(), " ") + "\n")
 	}
 }
 
@@ -388,6 +457,7 @@ func ScenarioStopLines(r *Results) []string {
 		rules            map[string]bool
 		over, max        float64
 		overCell, maxCel int
+		overK, overN     int64 // the worst cell's fits over the threshold, of those audited
 		tol, cost        float64
 		tolKnown         bool
 		unsettled        int64
@@ -409,7 +479,7 @@ func ScenarioStopLines(r *Results) []string {
 			g.unsettled += a.Unsettled
 			se := e.Convergence.StopError
 			if v := float64(se.Over); v > g.over {
-				g.over, g.overCell = v, c.Index
+				g.over, g.overCell, g.overK, g.overN = v, c.Index, se.OverCount, se.Audited
 			}
 			if v := float64(se.Max); v > g.max {
 				g.max, g.maxCel = v, c.Index
@@ -422,18 +492,26 @@ func ScenarioStopLines(r *Results) []string {
 		}
 	}
 	// The cost of the common tolerance in each cell: its median
-	// iterations there minus the fits' own.
+	// iterations there minus the fits' own. The tightest of the cells'
+	// own tolerances need not keep every fit of every other cell within
+	// the threshold (the error need not fall monotonically), so each cell
+	// is checked: every settled fit reached it, none over the threshold.
 	for _, c := range r.Cells {
 		for _, e := range c.Estimators {
 			g := by[e.Label]
 			if g == nil || !g.tolKnown {
 				continue
 			}
-			for _, row := range e.Convergence.Tolerances {
-				if row.Tolerance == g.tol {
-					g.cost = math.Max(g.cost, float64(row.MedianIterations)-float64(e.Convergence.MedianIterations))
-				}
+			if _, ok := AdviseStop(e); !ok {
+				continue
 			}
+			tols := e.Convergence.Tolerances
+			i := slices.IndexFunc(tols, func(t ToleranceCost) bool { return t.Tolerance == g.tol })
+			if i < 0 || tols[i].Reached < tols[0].Reached || float64(tols[i].Over) != 0 {
+				g.tolKnown = false
+				continue
+			}
+			g.cost = math.Max(g.cost, float64(tols[i].MedianIterations)-float64(e.Convergence.MedianIterations))
 		}
 	}
 	var out []string
@@ -447,8 +525,9 @@ func ScenarioStopLines(r *Results) []string {
 				}
 			}
 		}
-		line := fmt.Sprintf("%s: across the %d cells, at worst %s of fits over 0.01 SE (cell %d); largest error %s SE (cell %d)",
-			head, len(r.Cells), percent(g.over), g.overCell, FormatSE(Num(g.max)), g.maxCel)
+		w := Wilson(g.overK, g.overN)
+		line := fmt.Sprintf("%s: across the %d cells, at worst %s of fits over 0.01 SE (cell %d: %d of %d; 95%% %s–%s); largest error %s SE (cell %d)",
+			head, len(r.Cells), percent(g.over), g.overCell, g.overK, g.overN, percent(float64(w.Low)), percent(float64(w.High)), FormatSE(Num(g.max)), g.maxCel)
 		if g.over == 0 {
 			line = fmt.Sprintf("%s: across the %d cells, no fit over 0.01 SE; largest error %s SE (cell %d)",
 				head, len(r.Cells), FormatSE(Num(g.max)), g.maxCel)
@@ -457,9 +536,9 @@ func ScenarioStopLines(r *Results) []string {
 		case !g.tolKnown:
 			line += " — in some cell no change tolerance down to 1e-14 keeps every fit within 0.01 SE"
 		case g.cost > 0:
-			line += fmt.Sprintf(" — change %s keeps every fit of every cell within 0.01 SE (up to %s more iterations, median per cell)", formatTol(g.tol), iterText(g.cost))
+			line += fmt.Sprintf(" — change %s keeps every fit of every cell within 0.01 SE (up to %s, median per cell)", formatTol(g.tol), iterText(g.cost, "more"))
 		case g.cost < 0:
-			line += fmt.Sprintf(" — change %s would keep every fit of every cell within 0.01 SE (at least %s fewer iterations, median per cell)", formatTol(g.tol), iterText(-g.cost))
+			line += fmt.Sprintf(" — change %s would keep every fit of every cell within 0.01 SE (at least %s, median per cell)", formatTol(g.tol), iterText(-g.cost, "fewer"))
 		default:
 			line += fmt.Sprintf(" — change %s keeps every fit of every cell within 0.01 SE (as many iterations, median per cell)", formatTol(g.tol))
 		}
@@ -515,14 +594,7 @@ func writeSolverStudyMarkdown(b *strings.Builder, r *Results) {
 			fmt.Fprintf(b, "\n… and %d more cells (see the HTML report).\n", len(r.Cells)-markdownMaxCells)
 			break
 		}
-		var lines []string
-		for _, e := range c.Estimators {
-			for _, l := range []string{SolverStudyLine(r, c, e), RootsLine(e)} {
-				if l != "" {
-					lines = append(lines, l)
-				}
-			}
-		}
+		lines := SolverStudyLines(r, c)
 		if len(lines) == 0 {
 			continue
 		}

@@ -1,6 +1,9 @@
 package results
 
-import "strings"
+import (
+	"strconv"
+	"strings"
+)
 
 // SweepKind says what a swept setting sets, read from its path.
 type SweepKind int
@@ -68,6 +71,13 @@ type SweepTarget struct {
 	// element's index (SweepTuning of one element) or the psi field
 	// (SweepPsi); "" otherwise.
 	Name string
+}
+
+// Owns reports whether the target belongs to the estimator or
+// contamination labelled label at position index of the scenario's list:
+// a path may name it either way.
+func (t SweepTarget) Owns(label string, index int) bool {
+	return t.Owner != "" && (t.Owner == label || t.Owner == strconv.Itoa(index))
 }
 
 // OfEstimator reports whether the path sets a field of an estimator.

@@ -5,7 +5,6 @@ import (
 	"io"
 	"math"
 	"slices"
-	"strconv"
 	"strings"
 )
 
@@ -14,9 +13,10 @@ import (
 // estimator to choose and how sure that is (see Decide). Then, per cell, a
 // compact table with a row per estimator × coefficient: bias, SE, RMSE,
 // MSE ratio and variance efficiency against the reference, and coverage,
-// each to the digits its MCSE justifies. Last come the details: iterations,
-// failures by status, coverage with its MCSE, the gap to theory, and the
-// bias curves.
+// each to the digits its MCSE justifies. A run with a solver study puts
+// its answer over all cells after the verdicts. Last come the details:
+// iterations, failures by status, coverage with its MCSE, the gap to
+// theory, each cell's solver study, and the bias curves.
 func WriteTable(w io.Writer, r *Results, width int) error {
 	if width <= 0 {
 		width = 100
@@ -27,9 +27,9 @@ func WriteTable(w io.Writer, r *Results, width int) error {
 		status = "INCOMPLETE: stopped early"
 	}
 	fmt.Fprintf(b, "%s · seed %d · %d replicates per cell · %s\n", r.Scenario.Name, r.Seed, r.Replicates, status)
-	writeSolverStudy(b, r, width)
 	writeRecommendation(b, r, width)
 	writeVerdicts(b, r, width)
+	writeSolverSummary(b, r, width)
 	for _, c := range r.Cells {
 		writeCellTable(b, r, c, width)
 	}
@@ -39,6 +39,7 @@ func WriteTable(w io.Writer, r *Results, width int) error {
 	for _, c := range r.Cells {
 		writeCellDetails(b, r, c, width)
 	}
+	writeSolverCells(b, r, width)
 	writeBreakdown(b, r, width)
 	_, err := io.WriteString(w, b.String())
 	return err
@@ -348,7 +349,7 @@ func writeEstimator(b *strings.Builder, r *Results, e Estimator, width int) {
 	conv := fmt.Sprintf("converged %d/%d", cv.Converged, cv.Fits)
 	if cv.MaxIterations > 0 {
 		mean, _ := FormatMeasure(cv.MeanIterations, false)
-		conv += fmt.Sprintf(" · iterations %s (median %s, max %d)", mean, strconv.FormatFloat(float64(cv.MedianIterations), 'g', -1, 64), cv.MaxIterations)
+		conv += fmt.Sprintf(" · iterations %s (median %s, max %d)", mean, FormatIterations(cv.MedianIterations), cv.MaxIterations)
 	}
 	head := fmt.Sprintf(" ▸ %s (%s)", e.Label, desc)
 	if runeLen(head)+3+runeLen(conv) <= width {

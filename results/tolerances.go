@@ -40,8 +40,8 @@ func CheapestTolerance(e Estimator) (tol float64, ok bool) {
 	return a.Tolerance, true
 }
 
-// toleranceRows returns the indices of e's tolerance rows that the
-// terminal shows. All 13 rows of a full table would double the audit's
+// toleranceRows returns the indices of the tolerance rows that the
+// terminal shows, given the cheapest tolerance (NaN for none). All 13 rows of a full table would double the audit's
 // length for every estimator of every cell, and the rows far past the
 // answer say only that a tighter tolerance costs about one more iteration
 // per decade. So the table starts at the loosest tolerance that some fit
@@ -50,8 +50,7 @@ func CheapestTolerance(e Estimator) (tol float64, ok bool) {
 // tighter ones: enough to see the price of a safety margin. When no
 // tolerance keeps every fit within 0.01 SE, every reached row is shown,
 // since then the whole table is the answer.
-func toleranceRows(e Estimator) []int {
-	rows := e.Convergence.Tolerances
+func toleranceRows(rows []ToleranceCost, cheapest float64) []int {
 	first := -1
 	for i, row := range rows {
 		if row.Reached > 0 {
@@ -63,9 +62,9 @@ func toleranceRows(e Estimator) []int {
 		return nil
 	}
 	last := len(rows) - 1
-	if tol, ok := CheapestTolerance(e); ok {
+	if !math.IsNaN(cheapest) {
 		for i, row := range rows {
-			if row.Tolerance == tol {
+			if row.Tolerance == cheapest {
 				last = min(len(rows)-1, i+2)
 				break
 			}
@@ -110,46 +109,33 @@ func writeToleranceTables(b *strings.Builder, c Cell, width int) {
 // under their head; "" when there are none.
 func toleranceTable(e Estimator) string {
 	const mark = "◂ cheapest with every fit within 0.01 SE"
-	idx := toleranceRows(e)
+	a, audited := AdviseStop(e)
+	tol := math.NaN()
+	if audited {
+		tol = a.Tolerance
+	}
+	rows := e.Convergence.Tolerances
+	idx := toleranceRows(rows, tol)
 	if len(idx) == 0 {
 		return ""
 	}
-	head := [6]string{"change", "fits", "iter.", "error SE", "max SE", ">0.01 SE"}
-	rows := e.Convergence.Tolerances
-	tol, ok := CheapestTolerance(e)
-	cols := make([][6]string, len(idx))
-	widths := [6]int{}
-	for i, h := range head {
-		widths[i] = runeLen(h)
-	}
-	for j, i := range idx {
+	ok := !math.IsNaN(tol)
+	table := [][]string{{"change", "fits", "iter.", "error SE", "max SE", ">0.01 SE"}}
+	for _, i := range idx {
 		row := rows[i]
-		cols[j] = [6]string{formatTol(row.Tolerance), strconv.FormatInt(row.Reached, 10), FormatSE(row.MedianIterations),
+		line := []string{formatTol(row.Tolerance), strconv.FormatInt(row.Reached, 10), FormatIterations(row.MedianIterations),
 			FormatSE(row.MedianErrorSE), FormatSE(row.MaxErrorSE), percent(float64(row.Over))}
-		for k, s := range cols[j] {
-			widths[k] = max(widths[k], runeLen(s))
+		if ok && row.Tolerance == tol {
+			line = append(line, mark)
 		}
+		table = append(table, line)
 	}
 	var b strings.Builder
-	line := func(cs [6]string, tail string) {
-		var l strings.Builder
-		for k, s := range cs {
-			l.WriteString(s + strings.Repeat(" ", widths[k]-runeLen(s)+2))
-		}
-		b.WriteString("     " + strings.TrimRight(l.String()+tail, " ") + "\n")
-	}
-	line(head, "")
-	for j, i := range idx {
-		tail := ""
-		if ok && rows[i].Tolerance == tol {
-			tail = mark
-		}
-		line(cols[j], tail)
-	}
+	writeAligned(&b, "     ", table)
 	if !ok {
 		b.WriteString("     no change tolerance down to 1e-14 keeps every fit within 0.01 SE\n")
 	}
-	if a, audited := AdviseStop(e); audited && a.Unsettled > 0 {
+	if audited && a.Unsettled > 0 {
 		fmt.Fprintf(&b, "     (%s never settled below 1e-2 and %s not in this table)\n", fits(a.Unsettled), map[bool]string{true: "is", false: "are"}[a.Unsettled == 1])
 	}
 	return b.String()
@@ -187,12 +173,13 @@ func WriteTolerancesCSV(w io.Writer, r *Results) (bool, error) {
 				audited = strconv.FormatInt(se.Audited, 10)
 			}
 			tol, ok := CheapestTolerance(e)
+			rule := StoppingRule(r, c, e.Label)
 			for _, row := range e.Convergence.Tolerances {
 				rec := []string{r.Scenario.Name, strconv.Itoa(c.Index)}
 				for _, s := range c.Settings {
 					rec = append(rec, s.Value)
 				}
-				rec = append(rec, e.Label, StoppingRule(r, c, e.Label), audited, csvFloat(row.Tolerance),
+				rec = append(rec, e.Label, rule, audited, csvFloat(row.Tolerance),
 					strconv.FormatInt(row.Reached, 10), csvFloat(float64(row.MedianIterations)),
 					csvFloat(float64(row.MedianErrorSE)), csvFloat(float64(row.MaxErrorSE)),
 					csvFloat(float64(row.Over)), strconv.FormatBool(ok && row.Tolerance == tol))
