@@ -101,3 +101,34 @@ func TestTimeoutDuration(t *testing.T) {
 		}
 	}
 }
+
+// TestOutsidePsiNotSwept: a sweep of an outside estimator's psi, at any
+// depth, is refused at its line, since the swept value would not reach the
+// estimator's own code; the same sweep of an irls estimator loads.
+func TestOutsidePsiNotSwept(t *testing.T) {
+	const src = `model:
+  n: 20
+  columns: [{name: volume}]
+estimators:
+  - {label: ls, method: ls}
+  - label: bench-fit
+    method: METHOD
+    psi: {expr: r / (1 + abs(r)/c), constants: {c: 1.4}}
+vary:
+  estimators.bench-fit.psi.constants.c: [1, 2]
+`
+	for _, method := range []string{MethodGo, "irls"} {
+		_, err := Parse("sweep.yaml", []byte(strings.Replace(src, "METHOD", method, 1)), Limits{})
+		if method == "irls" {
+			if err != nil {
+				t.Errorf("irls: %v", err)
+			}
+			continue
+		}
+		var list ErrorList
+		if !errors.As(err, &list) || list[0].Line != 10 || list[0].Field != "vary.estimators.bench-fit.psi.constants.c" ||
+			!strings.Contains(list[0].Msg, "estimator bench-fit is run outside rhomark (method go)") {
+			t.Errorf("%s: error %v", method, err)
+		}
+	}
+}
