@@ -1,6 +1,7 @@
 package scenarios
 
 import (
+	"errors"
 	"fmt"
 	"math"
 	"regexp"
@@ -551,6 +552,15 @@ func (e EstimatorSpec) BuildPsi() (psi.Psi, error) {
 	return psi, nil
 }
 
+// customKey returns the scenario key of a psi.CustomSpec field, as named
+// by psi.SpecError.
+func customKey(field string) string {
+	if field == "Psi" {
+		return "expr"
+	}
+	return strings.ToLower(field) // rho, deriv, constants, kinks
+}
+
 // validatePsi checks the declared psi of estimator e at path, of any
 // method: a custom psi (its expressions and constants, and no tuning) or a
 // family (known, and its tuning constants). It reports false when the
@@ -562,15 +572,9 @@ func validatePsi(c checker, path string, e *EstimatorSpec) bool {
 		}
 		if _, err := psi.NewCustom(e.Psi.Custom.Spec()); err != nil {
 			field := path + ".psi"
-			switch msg := err.Error(); {
-			case strings.HasPrefix(msg, "psi expression"):
-				field += ".expr"
-			case strings.HasPrefix(msg, "rho expression"):
-				field += ".rho"
-			case strings.HasPrefix(msg, "psi' expression"):
-				field += ".deriv"
-			case strings.Contains(msg, "constant"):
-				field += ".constants"
+			var se *psi.SpecError
+			if errors.As(err, &se) && c.d.given(field+"."+customKey(se.Field)) {
+				field += "." + customKey(se.Field)
 			}
 			c.fail(field, "%v", err)
 		}

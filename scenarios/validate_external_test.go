@@ -52,6 +52,16 @@ estimators:
 			line:  10, field: "estimators[1].psi.constants", want: `constant name "r" is reserved`,
 		},
 		{
+			name:  "external custom psi with a negative kink",
+			entry: "    method: external\n    psi:\n      expr: r\n      kinks: [-1]\n" + external,
+			line:  10, field: "estimators[1].psi.kinks", want: "kink -1 must be a finite number ≥ 0",
+		},
+		{
+			name:  "go custom psi without expr",
+			entry: "    method: go\n    psi: {rho: r*r/2}\n",
+			line:  8, field: "estimators[1].psi", want: "a custom psi needs a psi expression in r",
+		},
+		{
 			name:  "external unknown family",
 			entry: "    method: external\n    psi: hubr\n" + external,
 			line:  8, field: "estimators[1].psi", want: `unknown psi family "hubr"; valid: andrews, `,
