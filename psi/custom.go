@@ -235,49 +235,67 @@ type evalState struct {
 	env map[string]any
 }
 
-// NewCustom compiles a custom psi. Errors name the expression and say what
-// is wrong.
+// SpecError is an error of NewCustom: what is wrong, and the field of the
+// CustomSpec at fault, so that a caller can point at its own name for it.
+// Its message is Err's.
+type SpecError struct {
+	// Field is the CustomSpec field at fault: Psi, Rho, Deriv, Constants
+	// or Kinks.
+	Field string
+	// Err says what is wrong.
+	Err error
+}
+
+// Error returns Err's message.
+func (e *SpecError) Error() string { return e.Err.Error() }
+
+// Unwrap returns Err.
+func (e *SpecError) Unwrap() error { return e.Err }
+
+// NewCustom compiles a custom psi. Errors are *SpecError, name the
+// expression and say what is wrong.
 func NewCustom(spec CustomSpec) (*Custom, error) {
+	bad := func(field string, err error) (*Custom, error) { return nil, &SpecError{Field: field, Err: err} }
 	if strings.TrimSpace(spec.Psi) == "" {
-		return nil, errors.New("a custom psi needs a psi expression in r")
+		return bad("Psi", errors.New("a custom psi needs a psi expression in r"))
 	}
 	env := map[string]any{"r": 0.0, "pi": math.Pi}
 	seen := map[string]bool{}
 	for _, c := range spec.Constants {
 		switch {
 		case !identPattern.MatchString(c.Name):
-			return nil, fmt.Errorf("constant name %q is not an identifier", c.Name)
+			return bad("Constants", fmt.Errorf("constant name %q is not an identifier", c.Name))
 		case c.Name == "r" || c.Name == "pi":
-			return nil, fmt.Errorf("constant name %q is reserved", c.Name)
+			return bad("Constants", fmt.Errorf("constant name %q is reserved", c.Name))
 		case seen[c.Name]:
-			return nil, fmt.Errorf("constant %q is declared twice", c.Name)
+			return bad("Constants", fmt.Errorf("constant %q is declared twice", c.Name))
 		case math.IsNaN(c.Value) || math.IsInf(c.Value, 0):
-			return nil, fmt.Errorf("constant %s = %v is not a finite number", c.Name, c.Value)
+			return bad("Constants", fmt.Errorf("constant %s = %v is not a finite number", c.Name, c.Value))
 		}
 		if _, ok := mathFunctions()[c.Name]; ok {
-			return nil, fmt.Errorf("constant name %q is a function name", c.Name)
+			return bad("Constants", fmt.Errorf("constant name %q is a function name", c.Name))
 		}
 		seen[c.Name] = true
 		env[c.Name] = c.Value
 	}
 	for _, k := range spec.Kinks {
 		if !(k >= 0) || math.IsInf(k, 0) {
-			return nil, fmt.Errorf("kink %v must be a finite number ≥ 0", k)
+			return bad("Kinks", fmt.Errorf("kink %v must be a finite number ≥ 0", k))
 		}
 	}
 	c := &Custom{spec: spec, env: env}
 	var err error
 	if c.psi, err = compileExpr("psi", spec.Psi, env); err != nil {
-		return nil, err
+		return bad("Psi", err)
 	}
 	if spec.Rho != "" {
 		if c.rho, err = compileExpr("rho", spec.Rho, env); err != nil {
-			return nil, err
+			return bad("Rho", err)
 		}
 	}
 	if spec.Deriv != "" {
 		if c.deriv, err = compileExpr("psi'", spec.Deriv, env); err != nil {
-			return nil, err
+			return bad("Deriv", err)
 		}
 	}
 	c.pool.New = func() any {
@@ -296,7 +314,7 @@ func NewCustom(spec CustomSpec) (*Custom, error) {
 // checkFinite evaluates each expression on a grid of residuals, and at the
 // declared kinks, and reports the first place one is not a finite number. A
 // psi that gives NaN or an infinity somewhere would otherwise surface only
-// as failed fits deep inside a run.
+// as failed fits deep inside a run. The error is a *SpecError.
 func (c *Custom) checkFinite() error {
 	const half, steps = 20.0, 800
 	grid := make([]float64, 0, steps+1+2*len(c.spec.Kinks))
@@ -307,16 +325,16 @@ func (c *Custom) checkFinite() error {
 		grid = append(grid, k, -k)
 	}
 	exprs := []struct {
-		what, src string
-		prog      *vm.Program
-	}{{"psi", c.spec.Psi, c.psi}, {"rho", c.spec.Rho, c.rho}, {"psi'", c.spec.Deriv, c.deriv}}
+		field, what, src string
+		prog             *vm.Program
+	}{{"Psi", "psi", c.spec.Psi, c.psi}, {"Rho", "rho", c.spec.Rho, c.rho}, {"Deriv", "psi'", c.spec.Deriv, c.deriv}}
 	for _, e := range exprs {
 		if e.prog == nil {
 			continue
 		}
 		for _, u := range grid {
 			if v := c.eval(e.prog, u); math.IsNaN(v) || math.IsInf(v, 0) {
-				return fmt.Errorf("%s expression %q gives %v at r = %v; it must be a finite number for every residual (checked on [%v, %v] and at the kinks)", e.what, e.src, v, u, -half, half)
+				return &SpecError{Field: e.field, Err: fmt.Errorf("%s expression %q gives %v at r = %v; it must be a finite number for every residual (checked on [%v, %v] and at the kinks)", e.what, e.src, v, u, -half, half)}
 			}
 		}
 	}

@@ -138,6 +138,37 @@ func TestCustomRejectsUnsafe(t *testing.T) {
 	}
 }
 
+// TestCustomSpecErrorField: each refusal is a *SpecError naming the field
+// of the spec at fault, with the message of the error it wraps.
+func TestCustomSpecErrorField(t *testing.T) {
+	cases := []struct {
+		spec  CustomSpec
+		field string
+	}{
+		{CustomSpec{Psi: " "}, "Psi"},
+		{CustomSpec{Psi: "r * q"}, "Psi"},
+		{CustomSpec{Psi: "r / abs(r)"}, "Psi"},
+		{CustomSpec{Psi: "r", Rho: "r +"}, "Rho"},
+		{CustomSpec{Psi: "r", Rho: "log(abs(r))"}, "Rho"},
+		{CustomSpec{Psi: "r", Deriv: "now()"}, "Deriv"},
+		{CustomSpec{Psi: "r", Deriv: "1/r"}, "Deriv"},
+		{CustomSpec{Psi: "r", Constants: []Constant{{"r", 1}}}, "Constants"},
+		{CustomSpec{Psi: "r * k", Constants: []Constant{{"k", 1}, {"k", 2}}}, "Constants"},
+		{CustomSpec{Psi: "r", Kinks: []float64{-1}}, "Kinks"},
+	}
+	for _, c := range cases {
+		_, err := NewCustom(c.spec)
+		se, ok := err.(*SpecError)
+		if !ok {
+			t.Errorf("%+v: error %v (%T), want a *SpecError", c.spec, err, err)
+			continue
+		}
+		if se.Field != c.field || se.Error() != se.Err.Error() || se.Unwrap() != se.Err {
+			t.Errorf("%+v: field %q message %q, want field %q", c.spec, se.Field, se.Error(), c.field)
+		}
+	}
+}
+
 // A psi, rho or derivative that is not finite somewhere is refused when
 // it is compiled, naming the expression and the residual.
 func TestCustomRejectsNonFinite(t *testing.T) {

@@ -201,6 +201,12 @@ func AnalyseUnder(psi Psi, m ErrorModel) (ModelTheory, error) {
 	return mt, nil
 }
 
+// Redescending reports whether psi is redescending by the rule Theory
+// uses for its field of that name: bounded, not identically zero, and
+// |psi(1e12)| at most 1e-6 times sup|psi| (see describeShape for the grid).
+// The estimating equations of a redescending psi can have several roots.
+func Redescending(psi Psi) bool { return describeShape(psi).redescending }
+
 // shape is the numerical description of psi on [0, ∞).
 type shape struct {
 	sup                             float64

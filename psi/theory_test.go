@@ -273,6 +273,52 @@ func TestRejectionPoints(t *testing.T) {
 	}
 }
 
+// TestRedescending: the psi that return to zero far out are redescending,
+// the monotone ones are not (common practice), and Redescending agrees with
+// Theory's field of that name. The custom psi r for |r| < c, then c²/r
+// (one of our own), redescends only as 1/r; the unbounded r·log(1 + |r|)
+// is not redescending.
+func TestRedescending(t *testing.T) {
+	custom := func(expr string) Psi {
+		c, err := NewCustom(CustomSpec{Psi: expr, Constants: []Constant{{Name: "c", Value: 3}}})
+		if err != nil {
+			t.Fatal(err)
+		}
+		return c
+	}
+	cases := []struct {
+		psi  Psi
+		want bool
+	}{
+		{Bisquare{C: 4.685}, true},
+		{Hampel{A: 2, B: 4, C: 8}, true},
+		{Andrews{A: 1.339}, true},
+		{Talwar{C: 2.795}, true},
+		{Welsch{C: 2.985}, true},
+		{Cauchy{C: 2.385}, true},
+		{Huber{K: 1.345}, false},
+		{Fair{C: 1.4}, false},
+		{Logistic{C: 1.205}, false},
+		{LAD{Eps: 1e-6}, false},
+		{LeastSquares{}, false},
+		{custom("abs(r) < c ? r : c*c/r"), true},
+		{custom("r * log(1 + abs(r))"), false},
+	}
+	for _, c := range cases {
+		got := Redescending(c.psi)
+		if got != c.want {
+			t.Errorf("%T %v: Redescending %v, want %v", c.psi, c.psi, got, c.want)
+		}
+		th, err := Analyse(c.psi)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if th.Redescending != got {
+			t.Errorf("%T %v: Theory says redescending %v, Redescending %v", c.psi, c.psi, th.Redescending, got)
+		}
+	}
+}
+
 func TestSweep(t *testing.T) {
 	f, _ := LookupFamily("huber")
 	rows, err := f.Sweep(0.5, 3, 6)

@@ -2,7 +2,6 @@ package scenarios
 
 import (
 	"fmt"
-	"math"
 
 	"github.com/rhomark/rhomark/estimators"
 	"github.com/rhomark/rhomark/psi"
@@ -47,20 +46,8 @@ func (s *Scenario) validateAudits(c checker) {
 		if err != nil {
 			continue // reported with the psi
 		}
-		if !Redescending(fn) {
+		if !psi.Redescending(fn) {
 			c.fail(path, "needs a redescending psi (bisquare, hampel, andrews, welsch, cauchy, talwar or one of your own that returns to 0): the estimating equations of a monotone psi such as %s have one root", e.Psi.Name())
 		}
 	}
-}
-
-// Redescending reports whether psi returns to zero far out: |psi(1e12)| is
-// at most 1e-6 times the largest |psi(u)| on a grid over [0, 50], the
-// rule psi.Theory uses for its shape.
-func Redescending(fn psi.Psi) bool {
-	sup := 0.0
-	for k := 1; k <= 2000; k++ {
-		sup = math.Max(sup, math.Abs(fn.Psi(float64(k)/40)))
-	}
-	far := math.Abs(fn.Psi(1e12))
-	return sup > 0 && far <= 1e-6*sup
 }

@@ -130,15 +130,12 @@ func normalDesignOf(g *Generator) *normalDesign {
 	if !ok || g.chol != nil || g.growCol >= 0 {
 		return nil
 	}
+	d := &normalDesign{mean: make([]float64, len(g.cols)), sd: make([]float64, len(g.cols)), noiseSD: noise.scale}
 	for i := range g.cols {
-		if _, ok := g.cols[i].model.(normalColumn); !ok {
+		c, ok := g.cols[i].model.(normalColumn)
+		if !ok {
 			return nil
 		}
-	}
-	k := len(g.cols)
-	d := &normalDesign{mean: make([]float64, k), sd: make([]float64, k), noiseSD: noise.scale}
-	for i := range g.cols {
-		c := g.cols[i].model.(normalColumn)
 		d.mean[i], d.sd[i] = c.mean, c.sd
 	}
 	return d

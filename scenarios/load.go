@@ -396,11 +396,10 @@ func checkSweepPath(e *errs, root *yaml.Node, sw Sweep) {
 		return
 	}
 	if len(segs) >= 3 && segs[0] == "estimators" && (segs[2] == "tuning" || segs[2] == "psi") {
-		if list, err := child(root, "estimators"); err == nil {
-			if est, err := child(list, segs[1]); err == nil {
-				if m, err := child(est, "method"); err == nil && (m.Value == MethodExternal || m.Value == MethodGo) {
-					fail("estimator %s is run outside rhomark (method %s): its declared psi only sets the theory beside it, and a swept value would not reach the program; list one estimator per value instead, each with its own command or label", segs[1], m.Value)
-				}
+		// The estimator's entry is the parent of its psi or tuning.
+		if est, err := locate(root, segs[:3]); err == nil {
+			if m, err := child(est, "method"); err == nil && (m.Value == MethodExternal || m.Value == MethodGo) {
+				fail("estimator %s is run outside rhomark (method %s): its declared psi only sets the theory beside it, and a swept value would not reach the program; list one estimator per value instead, each with its own command or label", segs[1], m.Value)
 			}
 		}
 	}

@@ -1,6 +1,7 @@
 package scenarios
 
 import (
+	"errors"
 	"fmt"
 	"math"
 	"regexp"
@@ -447,33 +448,8 @@ func (s *Scenario) validateEstimators(c checker) {
 			c.fail(path+".psi", "missing: method %s needs a psi family (%s) or a mapping with expr", e.Method, strings.Join(psi.FamilyNames(), ", "))
 			continue
 		}
-		if e.Psi.Custom != nil {
-			if len(e.Tuning) > 0 {
-				c.fail(path+".tuning", "is not used with a custom psi; give its constants under psi.constants")
-			}
-			if _, err := psi.NewCustom(e.Psi.Custom.Spec()); err != nil {
-				field := path + ".psi"
-				switch msg := err.Error(); {
-				case strings.HasPrefix(msg, "psi expression"):
-					field += ".expr"
-				case strings.HasPrefix(msg, "rho expression"):
-					field += ".rho"
-				case strings.HasPrefix(msg, "psi' expression"):
-					field += ".deriv"
-				case strings.Contains(msg, "constant"):
-					field += ".constants"
-				}
-				c.fail(field, "%v", err)
-			}
-		} else {
-			f, ok := psi.LookupFamily(e.Psi.Family)
-			if !ok {
-				c.fail(path+".psi", "unknown psi family %q; valid: %s, or a mapping with expr for a psi of your own", e.Psi.Family, strings.Join(psi.FamilyNames(), ", "))
-				continue
-			}
-			if _, err := f.New(e.Tuning); err != nil {
-				c.fail(path+".tuning", "%v", err)
-			}
+		if !validatePsi(c, path, e) {
+			continue
 		}
 		if e.Scale.Start && e.Start.Coefficients != nil {
 			c.fail(path+".scale", "scale: start needs a start method (s-estimate, lts, ...), not given coefficients")
@@ -574,6 +550,45 @@ func (e EstimatorSpec) BuildPsi() (psi.Psi, error) {
 		return nil, fmt.Errorf("estimator %s: %w", e.Label, err)
 	}
 	return psi, nil
+}
+
+// customKey returns the scenario key of a psi.CustomSpec field, as named
+// by psi.SpecError.
+func customKey(field string) string {
+	if field == "Psi" {
+		return "expr"
+	}
+	return strings.ToLower(field) // rho, deriv, constants, kinks
+}
+
+// validatePsi checks the declared psi of estimator e at path, of any
+// method: a custom psi (its expressions and constants, and no tuning) or a
+// family (known, and its tuning constants). It reports false when the
+// family is unknown, so that checks needing the psi are skipped.
+func validatePsi(c checker, path string, e *EstimatorSpec) bool {
+	if e.Psi.Custom != nil {
+		if len(e.Tuning) > 0 {
+			c.fail(path+".tuning", "is not used with a custom psi; give its constants under psi.constants")
+		}
+		if _, err := psi.NewCustom(e.Psi.Custom.Spec()); err != nil {
+			field := path + ".psi"
+			var se *psi.SpecError
+			if errors.As(err, &se) && c.d.given(field+"."+customKey(se.Field)) {
+				field += "." + customKey(se.Field)
+			}
+			c.fail(field, "%v", err)
+		}
+		return true
+	}
+	f, ok := psi.LookupFamily(e.Psi.Family)
+	if !ok {
+		c.fail(path+".psi", "unknown psi family %q; valid: %s, or a mapping with expr for a psi of your own", e.Psi.Family, strings.Join(psi.FamilyNames(), ", "))
+		return false
+	}
+	if _, err := f.New(e.Tuning); err != nil {
+		c.fail(path+".tuning", "%v", err)
+	}
+	return true
 }
 
 // methodsWhere names, in words, the methods whose properties satisfy keep.

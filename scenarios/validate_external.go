@@ -1,7 +1,6 @@
 package scenarios
 
 import (
-	"fmt"
 	"strings"
 	"time"
 
@@ -28,13 +27,14 @@ const DefaultExternalTimeout = "60s"
 func (e EstimatorSpec) Outside() bool { return e.Method == MethodExternal || e.Method == MethodGo }
 
 // TimeoutDuration returns the external estimator's timeout per fit: its
-// Timeout, or DefaultExternalTimeout. The spec must have been validated.
+// Timeout parsed as a duration. An empty Timeout, and one that is not a
+// positive duration (which validation refuses, so only an EstimatorSpec
+// built by hand can hold one), give DefaultExternalTimeout.
 func (e EstimatorSpec) TimeoutDuration() time.Duration {
-	t := e.Timeout
-	if t == "" {
-		t = DefaultExternalTimeout
+	if d, err := time.ParseDuration(e.Timeout); err == nil && d > 0 {
+		return d
 	}
-	d, _ := time.ParseDuration(t)
+	d, _ := time.ParseDuration(DefaultExternalTimeout)
 	return d
 }
 
@@ -65,17 +65,22 @@ func (e *EstimatorSpec) fillOutsideDefaults() {
 	}
 }
 
-// validateOutside checks the keys of estimator i that only outside
-// estimators take (command, timeout) and, for an outside estimator, the
-// rest of its entry. It reports whether the estimator is an outside one,
-// whose checks are then complete.
+// validateOutside checks the keys of estimator e at path that only
+// outside estimators take (command, timeout) and, for an outside
+// estimator, the rest of its entry. It reports whether the estimator is an
+// outside one, whose checks are then complete.
 func (s *Scenario) validateOutside(c checker, path string, e *EstimatorSpec) bool {
-	if !e.Outside() {
+	// refuse reports the keys only method external takes, given to
+	// another method.
+	refuse := func(why string, args ...any) {
 		for _, key := range []string{"command", "timeout"} {
 			if c.d.given(path + "." + key) {
-				c.fail(path+"."+key, "is used only by method %s (a program of your own), not by method %s", MethodExternal, e.Method)
+				c.fail(path+"."+key, why, args...)
 			}
 		}
+	}
+	if !e.Outside() {
+		refuse("is used only by method %s (a program of your own), not by method %s", MethodExternal, e.Method)
 		return false
 	}
 	for _, key := range []string{"scale", "start", "stop", "resampling"} {
@@ -84,11 +89,7 @@ func (s *Scenario) validateOutside(c checker, path string, e *EstimatorSpec) boo
 		}
 	}
 	if e.Method == MethodGo {
-		for _, key := range []string{"command", "timeout"} {
-			if c.d.given(path + "." + key) {
-				c.fail(path+"."+key, "is used only by method %s; a go estimator is registered by its label in the Go program that runs the scenario", MethodExternal)
-			}
-		}
+		refuse("is used only by method %s; a go estimator is registered by its label in the Go program that runs the scenario", MethodExternal)
 	} else {
 		switch {
 		case len(e.Command) == 0:
@@ -100,24 +101,13 @@ func (s *Scenario) validateOutside(c checker, path string, e *EstimatorSpec) boo
 			c.fail(path+".timeout", "want a positive duration such as 60s, 2m or 1m30s, got %q", e.Timeout)
 		}
 	}
+	// The psi is optional here: it only declares what the estimator uses.
 	if e.Psi.IsZero() {
 		if len(e.Tuning) > 0 {
 			c.fail(path+".tuning", "is used only with a declared psi (psi: huber, say)")
 		}
 		return true
 	}
-	if _, err := e.BuildPsi(); err != nil {
-		msg := err.Error()
-		if _, rest, ok := strings.Cut(msg, e.Label+": "); ok {
-			msg = rest
-		}
-		field := path + ".psi"
-		if _, ok := psi.LookupFamily(e.Psi.Family); ok && e.Psi.Custom == nil {
-			field = path + ".tuning"
-		} else if e.Psi.Custom == nil {
-			msg = fmt.Sprintf("unknown psi family %q; valid: %s, or a mapping with expr", e.Psi.Family, strings.Join(psi.FamilyNames(), ", "))
-		}
-		c.fail(field, "%s", msg)
-	}
+	validatePsi(c, path, e)
 	return true
 }
