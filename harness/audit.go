@@ -41,10 +41,14 @@ type cellAudit struct {
 	audit, roots []bool
 }
 
+// audits reports whether estimator j of the cell is audited.
+func (c *cellAudit) audits(j int) bool { return c.audit != nil && c.audit[j] }
+
+// searches reports whether estimator j of the cell is searched for roots.
+func (c *cellAudit) searches(j int) bool { return c.roots != nil && c.roots[j] }
+
 // studied reports whether estimator j of the cell is studied at all.
-func (c *cellAudit) studied(j int) bool {
-	return (c.audit != nil && c.audit[j]) || (c.roots != nil && c.roots[j])
-}
+func (c *cellAudit) studied(j int) bool { return c.audits(j) || c.searches(j) }
 
 // fitAudit says what a distinct fit of a group needs: an audit if any cell
 // that uses it audits it, a root search likewise.
@@ -54,8 +58,8 @@ type fitAudit struct {
 
 // add notes that the fit serves estimator j of a cell with audits a.
 func (f *fitAudit) add(a cellAudit, j int) {
-	f.audit = f.audit || (a.audit != nil && a.audit[j])
-	f.roots = f.roots || (a.roots != nil && a.roots[j])
+	f.audit = f.audit || a.audits(j)
+	f.roots = f.roots || a.searches(j)
 }
 
 // planAudits sets each cell's audits from its scenario (solver-audit,
@@ -107,8 +111,9 @@ type auditTally struct {
 // numSEReasons is the number of estimators.SEReason values counted.
 const numSEReasons = int(estimators.SENoFixedPoint) + 1
 
-// rootStarts is the most starts of a root search (ls, lad, S, truth).
-const rootStarts = 4
+// rootStarts is the most starts of a root search (ls, lad, S, truth):
+// estimators.RootStart numbers them from 0 to RootFromTruth.
+const rootStarts = int(estimators.RootFromTruth) + 1
 
 // rootTally accumulates the root searches of one estimator in one cell.
 type rootTally struct {
@@ -129,7 +134,7 @@ func newAuditTally(a cellAudit, j, p int) *auditTally {
 		return nil
 	}
 	t := &auditTally{p: p}
-	if a.roots != nil && a.roots[j] {
+	if a.searches(j) {
 		t.roots = &rootTally{}
 		for s := range t.roots.s1 {
 			t.roots.s1[s] = make([]exactsum.Sum, p)
@@ -326,7 +331,7 @@ func (w *workerAudit) study(rp *Replicator, fp *fitPlan, f int, x *mat.Dense, y 
 		}
 	}
 	if w.fits[f].roots {
-		w.roots[f], w.rootErr[f] = rp.findRoots(fp.key, &fp.est, &w.rootWS[f], estimators.RootOptions{Truth: w.truth})
+		w.rootErr[f] = rp.findRootsInto(fp.key, &fp.est, &w.rootWS[f], estimators.RootOptions{Truth: w.truth}, &w.roots[f])
 	}
 	return nil
 }
@@ -341,13 +346,18 @@ func (r *Replicator) FindRoots(label string, est *estimators.Estimator, ws *esti
 	if opts.Truth == nil {
 		opts.Truth = r.gen.Truth()
 	}
-	return r.findRoots(EstimatorKey(label), est, ws, opts)
+	var out estimators.Roots
+	if err := r.findRootsInto(EstimatorKey(label), est, ws, opts, &out); err != nil {
+		return estimators.Roots{}, err
+	}
+	return out, nil
 }
 
-// findRoots is FindRoots for an estimator whose key is known.
-func (r *Replicator) findRoots(estKey uint64, est *estimators.Estimator, ws *estimators.Workspace, opts estimators.RootOptions) (estimators.Roots, error) {
+// findRootsInto is FindRoots for an estimator whose key is known, into
+// out, whose storage it reuses (estimators.FindRootsInto).
+func (r *Replicator) findRootsInto(estKey uint64, est *estimators.Estimator, ws *estimators.Workspace, opts estimators.RootOptions, out *estimators.Roots) error {
 	ws.SeedRandom(EstimatorStream(r.seed, r.dataKey, r.rep, estKey))
-	return estimators.FindRoots(*est, r.x, r.y, opts, ws)
+	return estimators.FindRootsInto(*est, r.x, r.y, opts, ws, out)
 }
 
 // record adds the study of the replicate's fits to the cell's tally:
@@ -359,7 +369,7 @@ func (w *workerAudit) record(p *cellPlan, t *cellTally, use []int) {
 			continue
 		}
 		f := use[j]
-		if p.aud.audit != nil && p.aud.audit[j] {
+		if p.aud.audits(j) {
 			at.addAudit(&w.out[f])
 		}
 		if at.roots != nil {

@@ -270,3 +270,46 @@ func TestAuditBudget(t *testing.T) {
 		t.Errorf("got %v, want the audit refused for its size", err)
 	}
 }
+
+// TestRootsStudyAllocatesNothing: with roots: true, a replicate (its
+// draw, its fits, the root search and the tallies) allocates nothing once
+// the worker's buffers have grown, so the search can run on every
+// replicate. The warm-up fits the same replicates as the measured calls:
+// the workspaces and the exact sums grow with the data (a sum's digits
+// span the exponents of the values added), and only then is every
+// replicate's storage in place.
+func TestRootsStudyAllocatesNothing(t *testing.T) {
+	st := parse(t, strings.Replace(rootsScenario, ", solver-audit: true", "", 1))
+	plans, err := plan(st, 64)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := planAudits(plans, false); err != nil {
+		t.Fatal(err)
+	}
+	const runs = 20 // AllocsPerRun makes runs + 1 calls
+	groups := groupCells(plans, 1)
+	for g := range groups {
+		w := newWorker(plans, &groups[g], 16)
+		if w.aud == nil || w.aud.fits[len(w.aud.fits)-1].audit || !w.aud.fits[len(w.aud.fits)-1].roots {
+			t.Fatalf("group %d: the bisquare is not planned for a root search alone", g)
+		}
+		r := 0
+		step := func() {
+			w.replicate(r)
+			if w.err != nil {
+				t.Fatal(w.err)
+			}
+			r = (r + 1) % (runs + 1)
+		}
+		for range runs + 1 {
+			step()
+		}
+		if a := testing.AllocsPerRun(runs, step); a != 0 {
+			t.Errorf("group %d: %v allocations per replicate, want 0", g, a)
+		}
+		if rt := w.tallies[0].ests[1].aud.roots; rt.searched != 2*(runs+1) || rt.failed != 0 {
+			t.Errorf("group %d: %d searches (%d failed), want %d that ran", g, rt.searched, rt.failed, 2*(runs+1))
+		}
+	}
+}
