@@ -296,7 +296,8 @@ func (p *outsidePool) close() {
 }
 
 // outsideBatch holds a worker's batch of one unit for its group's
-// external fits: the unit's datasets, the requests and each fit's replies.
+// external fits: the unit's datasets (which the unit's replicates then
+// fit, see worker.dataset), the requests and each fit's replies.
 type outsideBatch struct {
 	lo      int
 	names   []string
@@ -396,6 +397,18 @@ func (w *worker) fetchOutside(ctx context.Context, lo, hi int) bool {
 		b.nanos[f] = int64(time.Since(t0)) / int64(len(reqs))
 	}
 	return true
+}
+
+// dataset makes replicate r's dataset the one w.rp holds and returns it:
+// when the unit went to programs, the copy fetchOutside drew for them
+// (the same dataset, bit for bit, without drawing it again), otherwise a
+// fresh draw.
+func (w *worker) dataset(r int) (*mat.Dense, []float64) {
+	if b := w.batch; b != nil {
+		i := r - b.lo
+		return w.rp.install(r, b.xs[i], b.ys[i])
+	}
+	return w.rp.Draw(r)
 }
 
 // takeReply records, for an external fit f, the reply to replicate r as

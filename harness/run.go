@@ -627,11 +627,12 @@ func (w *worker) runBlock(ctx context.Context, lo, hi int) bool {
 	return true
 }
 
-// replicate draws replicate r's dataset, computes each distinct fit of the
-// group once, and records in every cell the fits of its estimators.
+// replicate draws replicate r's dataset (or installs the copy fetchOutside
+// drew for the unit's programs), computes each distinct fit of the group
+// once, and records in every cell the fits of its estimators.
 func (w *worker) replicate(r int) {
 	g := w.group
-	x, y := w.rp.Draw(r)
+	x, y := w.dataset(r)
 	for f := range g.fits {
 		fp := &g.fits[f]
 		if w.takeReply(f, r) {
