@@ -169,11 +169,11 @@ func bindOutside(st *scenarios.Study, plans []cellPlan, groups []groupPlan, opt 
 			}
 			switch spec.Method {
 			case scenarios.MethodExternal:
-				fp.outside = &outsideFit{key: fp.label + "\x00" + outsideKey(spec), cmd: external.Command{
-					Label: spec.Label, Args: spec.Command, Dir: CommandDir(st),
-					// The first reply after each start may also wait for the
-					// program to load its libraries.
-					Timeout: spec.TimeoutDuration(), StartTimeout: spec.TimeoutDuration(), Stderr: opt.stderrOf()}}
+				cmd := commandOf(st, spec, opt.stderrOf())
+				if opt.startTimeout > 0 {
+					cmd.StartTimeout = opt.startTimeout
+				}
+				fp.outside = &outsideFit{key: fp.label + "\x00" + outsideKey(spec), cmd: cmd}
 			case scenarios.MethodGo:
 				fit := opt.Fitters[spec.Label]
 				if fit == nil {
@@ -184,6 +184,15 @@ func bindOutside(st *scenarios.Study, plans []cellPlan, groups []groupPlan, opt 
 		}
 	}
 	return nil
+}
+
+// commandOf is the command that runs the program of spec, an estimator of
+// method external of study st, in the study's folder, its standard error
+// going to stderr. The first reply after each start may also wait for the
+// program to load its libraries, so it is allowed the same timeout.
+func commandOf(st *scenarios.Study, spec scenarios.EstimatorSpec, stderr io.Writer) external.Command {
+	return external.Command{Label: spec.Label, Args: spec.Command, Dir: CommandDir(st),
+		Timeout: spec.TimeoutDuration(), StartTimeout: spec.TimeoutDuration(), Stderr: stderr}
 }
 
 // outsidePool holds one worker goroutine's running programs, started on

@@ -99,6 +99,10 @@ type Options struct {
 
 	// unitCells, if positive, replaces the default group size (tests).
 	unitCells int
+	// startTimeout, if positive, replaces the extra time each program
+	// has for its first reply after a start (tests: starting a test
+	// binary on a loaded machine must not pass for a hang).
+	startTimeout time.Duration
 }
 
 // blockSize is the number of consecutive replicates in a unit of work.
