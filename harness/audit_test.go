@@ -313,3 +313,39 @@ func TestRootsStudyAllocatesNothing(t *testing.T) {
 		}
 	}
 }
+
+// TestAuditDecodeNamesEstimator: a partial whose solver study does not
+// match the scenario is refused naming the cell and the estimator, by
+// index and label.
+func TestAuditDecodeNamesEstimator(t *testing.T) {
+	plansOf := func(src string) []cellPlan {
+		t.Helper()
+		plans, err := plan(parse(t, src), 32)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if err := planAudits(plans, false); err != nil {
+			t.Fatal(err)
+		}
+		return plans
+	}
+	studied := plansOf(rootsScenario)
+	plain := plansOf(strings.Replace(rootsScenario, ", roots: true, solver-audit: true", "", 1))
+	tests := []struct {
+		name     string
+		from, to []cellPlan
+	}{
+		{"study in the partial only", studied, plain},
+		{"study in the scenario only", plain, studied},
+	}
+	for _, tt := range tests {
+		p := &Partial{}
+		for i := range tt.from {
+			p.raw = append(p.raw, tt.from[i].newTally().encode())
+		}
+		err := attach(p, tt.to)
+		if err == nil || !strings.Contains(err.Error(), "cell 0: estimator 1 (bisquare): ") || !strings.Contains(err.Error(), "--audit-solvers") {
+			t.Errorf("%s: got %v, want an error naming cell 0 and estimator 1 (bisquare)", tt.name, err)
+		}
+	}
+}

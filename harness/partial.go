@@ -151,8 +151,10 @@ func (c *cellTally) encode() tallyJSON {
 }
 
 // decode restores a tally serialised by encode into c, which must have the
-// shape of the cell (estimators, coefficients, cross sums).
-func (c *cellTally) decode(j tallyJSON) error {
+// shape of the cell (estimators, coefficients, cross sums). labels, if not
+// nil, are the cell's estimator labels, which the errors of a solver
+// study's tally name beside the estimator's index.
+func (c *cellTally) decode(j tallyJSON, labels []string) error {
 	if len(j.Ests) != len(c.ests) {
 		return fmt.Errorf("%d estimators, the scenario has %d", len(j.Ests), len(c.ests))
 	}
@@ -188,7 +190,10 @@ func (c *cellTally) decode(j tallyJSON) error {
 			}
 		}
 		if err := e.aud.decode(ej.Audit); err != nil {
-			return err
+			if i < len(labels) {
+				return fmt.Errorf("estimator %d (%s): %w", i, labels[i], err)
+			}
+			return fmt.Errorf("estimator %d: %w", i, err)
 		}
 	}
 	return nil
