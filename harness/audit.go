@@ -21,10 +21,12 @@ import (
 //
 // The medians must be exact and the same for any number of workers,
 // shards or resumes, so every audited fit's values travel in the tallies
-// (and in the partial file), and the summary sorts them: memory and the
-// partial grow by 8·(p + 28) bytes per audited fit, and a run refuses an
-// audit of more than auditValueBudget values in all. The root searches
-// need only counts and exact sums, of fixed size.
+// (and in the partial file), and the summary sorts them: memory grows by
+// 8·(p + 28) bytes per audited fit of p coefficients (auditWidth float64
+// values), and the partial file by 4/3 of that, about 10.7·(p + 28) bytes,
+// as the values' bits are base64 encoded. A run refuses an audit of more
+// than auditValueBudget values in all. The root searches need only counts
+// and exact sums, of fixed size.
 
 // auditValueBudget bounds the values an audited run keeps: 2^25 float64
 // (256 MiB), about a million audited fits of three coefficients.

@@ -318,8 +318,8 @@ func newPartial(st *scenarios.Study, plans []cellPlan, total, size int, seed uin
 	build := opt.buildID()
 	p := &Partial{Tool: opt.Tool.Version, Build: build, Scenario: st.Base.Name, File: st.File, Source: string(st.Source), Hash: st.Hash,
 		Seed: seed, Replicates: reps, Shard: opt.Shard, Shards: opt.Shards, Units: total, UnitCells: size, done: new(big.Int),
-		AuditSolvers: opt.AuditSolvers || (opt.Resume != nil && opt.Resume.AuditSolvers)}
-	if CheckCommands(st) != nil {
+		AuditSolvers: opt.auditAll()}
+	if st.HasCommand() {
 		p.Dir = CommandDir(st)
 	}
 	for _, pl := range plans {
