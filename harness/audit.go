@@ -14,10 +14,10 @@ import (
 // reported). For an audited estimator each fit is made traced
 // (estimators.AuditWorkspace.Traced) and then audited; for an estimator
 // with roots: true each replicate is also refitted from several starts
-// (estimators.FindRoots), the S start drawing from the estimator's own
-// stream of the replicate, as the fit does. Neither changes the fit: its
-// time is measured before them and its estimate is recorded as without
-// them.
+// (estimators.FindRootsInto, into the worker's reused outcome), the S
+// start drawing from the estimator's own stream of the replicate, as the
+// fit does. Neither changes the fit: its time is measured before them and
+// its estimate is recorded as without them.
 //
 // The medians must be exact and the same for any number of workers,
 // shards or resumes, so every audited fit's values travel in the tallies
