@@ -119,6 +119,10 @@ type Roots struct {
 	// Best is the index in Roots of the converged refit with the smallest
 	// objective (the first on a tie), or −1 if none converged.
 	Best int
+
+	// FindRootsInto's starts and the result of its fits, kept for reuse.
+	begin []float64
+	fit   Result
 }
 
 // FindRoots refits x and y with the psi of e (its M-step psi for MM) from
@@ -131,42 +135,64 @@ type Roots struct {
 // a root near its start (common practice). The S-estimate draws its subsets
 // from ws's random stream (see Workspace.SeedRandom) with e.Resampling.
 //
-// FindRoots allocates its result; it is meant for studies of single
-// datasets rather than every replicate. It returns an error on misuse:
-// no psi, a truth of the wrong length, bad data, or no usable scale.
+// FindRoots allocates its result; a loop over many datasets should reuse
+// one with FindRootsInto. It returns an error on misuse: no psi, a truth
+// of the wrong length, bad data, or no usable scale.
 func FindRoots(e Estimator, x *mat.Dense, y []float64, opts RootOptions, ws *Workspace) (Roots, error) {
+	var out Roots
+	if err := FindRootsInto(e, x, y, opts, ws, &out); err != nil {
+		return Roots{}, err
+	}
+	return out, nil
+}
+
+// FindRootsInto is FindRoots writing its outcome to out, whose slices it
+// reuses: after a first search of a shape, with ws reused as well and
+// opts.Trace nil, it allocates nothing. Roots held by an earlier search
+// into out are overwritten. On an error out holds no roots.
+func FindRootsInto(e Estimator, x *mat.Dense, y []float64, opts RootOptions, ws *Workspace, out *Roots) error {
 	_, p := x.Dims()
+	out.Scale, out.ScaleSource, out.Distinct, out.Multiple, out.Best = 0, RootScaleS, 0, false, -1
+	out.Roots = out.Roots[:0]
 	fn := e.MStepPsi()
 	if fn == nil {
-		return Roots{}, errors.New("a root search needs a psi function")
+		return errors.New("a root search needs a psi function")
 	}
 	if opts.Truth != nil && len(opts.Truth) != p {
-		return Roots{}, fmt.Errorf("truth has %d coefficients, design has %d columns", len(opts.Truth), p)
+		return fmt.Errorf("truth has %d coefficients, design has %d columns", len(opts.Truth), p)
 	}
 	if opts.Scale < 0 || math.IsNaN(opts.Scale) || math.IsInf(opts.Scale, 0) {
-		return Roots{}, fmt.Errorf("scale %v must be zero (the S-scale) or a positive finite number", opts.Scale)
+		return fmt.Errorf("scale %v must be zero (the S-scale) or a positive finite number", opts.Scale)
 	}
 	settings := opts.Settings
 	if settings == (Settings{}) {
 		settings = Settings{Rules: RuleChange, ChangeTol: 1e-12, MaxIterations: 1000}
 	}
 
-	type start struct {
+	// begin holds the starts, one row of p per start, and res's
+	// coefficients are the row of the start being fitted.
+	if cap(out.begin) < numRootStarts*p {
+		out.begin = make([]float64, numRootStarts*p)
+	}
+	begin := func(i int) []float64 { return out.begin[i*p : (i+1)*p : (i+1)*p] }
+	starts := [...]struct {
 		from RootStart
 		est  Estimator
-	}
-	starts := []start{
+	}{
 		{RootFromLS, Estimator{Method: MethodLS}},
 		{RootFromLAD, Estimator{Method: MethodLAD}},
 		{RootFromS, Estimator{Method: MethodS, Resampling: e.Resampling}},
 	}
-	out := Roots{Best: -1}
-	var res Result
-	begins := make([][]float64, 0, 4)
+	fail := func(err error) error {
+		out.Scale, out.ScaleSource, out.Roots = 0, RootScaleS, out.Roots[:0]
+		return err
+	}
+	res := &out.fit
 	sFailed := Status(NotRun)
-	for _, s := range starts {
-		if err := s.est.Fit(x, y, ws, &res); err != nil {
-			return Roots{}, fmt.Errorf("%v start: %w", s.from, err)
+	for i, s := range starts {
+		res.Coefficients = begin(i)
+		if err := s.est.Fit(x, y, ws, res); err != nil {
+			return fail(fmt.Errorf("%v start: %w", s.from, err))
 		}
 		if s.from == RootFromS {
 			capped := res.Status == IterationLimit
@@ -176,21 +202,20 @@ func FindRoots(e Estimator, x *mat.Dense, y []float64, opts RootOptions, ws *Wor
 				out.Scale = res.Scale
 			}
 		}
-		begins = append(begins, append([]float64(nil), res.Coefficients...))
-		out.Roots = append(out.Roots, Root{Start: s.from, Status: res.Status})
+		out.addRoot(s.from, res.Status)
 	}
 	if opts.Truth != nil {
-		begins = append(begins, append([]float64(nil), opts.Truth...))
-		out.Roots = append(out.Roots, Root{Start: RootFromTruth, Status: Solved})
+		copy(begin(len(starts)), opts.Truth)
+		out.addRoot(RootFromTruth, Solved)
 	}
 	if opts.Scale > 0 {
 		out.Scale, out.ScaleSource = opts.Scale, RootScaleFixed
 	}
 	if !(out.Scale > 0) {
 		if sFailed != NotRun {
-			return Roots{}, fmt.Errorf("the S-estimate ended %v, so there is no S-scale: give a fixed scale", sFailed)
+			return fail(fmt.Errorf("the S-estimate ended %v, so there is no S-scale: give a fixed scale", sFailed))
 		}
-		return Roots{}, fmt.Errorf("the S-scale is %v (an exact fit?): give a positive fixed scale", out.Scale)
+		return fail(fmt.Errorf("the S-scale is %v (an exact fit?): give a positive fixed scale", out.Scale))
 	}
 
 	refit := Estimator{
@@ -202,33 +227,53 @@ func FindRoots(e Estimator, x *mat.Dense, y []float64, opts RootOptions, ws *Wor
 	for i := range out.Roots {
 		r := &out.Roots[i]
 		r.Group, r.Objective = -1, math.NaN()
+		if cap(r.Coefficients) < p {
+			r.Coefficients = make([]float64, p)
+		}
+		r.Coefficients = r.Coefficients[:p]
 		if !r.Status.Converged() && r.Status != IterationLimit {
 			// The start itself failed (an S-estimate without a subset of
 			// full rank, say): there is nothing to refit from.
-			r.Coefficients = begins[i]
+			copy(r.Coefficients, begin(i))
 			continue
 		}
-		refit.Start = begins[i]
+		refit.Start = begin(i)
 		if opts.Trace != nil {
 			from := r.Start
 			refit.Trace = func(it Iteration) { opts.Trace(from, it) }
 		}
-		var rr Result
-		if err := refit.Fit(x, y, ws, &rr); err != nil {
-			return Roots{}, fmt.Errorf("refit from the %v start: %w", r.Start, err)
+		res.Coefficients = r.Coefficients
+		if err := refit.Fit(x, y, ws, res); err != nil {
+			return fail(fmt.Errorf("refit from the %v start: %w", r.Start, err))
 		}
-		r.Coefficients, r.Status, r.Iterations = rr.Coefficients, rr.Status, rr.Iterations
-		if rr.Status.Converged() {
-			r.Objective = rr.Objective
+		r.Coefficients, r.Status, r.Iterations = res.Coefficients, res.Status, res.Iterations
+		if res.Status.Converged() {
+			r.Objective = res.Objective
 		}
 	}
 	out.group()
-	return out, nil
+	return nil
+}
+
+// numRootStarts is the most starts of a root search: LS, LAD, S, truth.
+const numRootStarts = int(RootFromTruth) + 1
+
+// addRoot appends the root of a start that ended with status, reusing
+// the storage of a root an earlier search left in rs.Roots.
+func (rs *Roots) addRoot(from RootStart, status Status) {
+	if len(rs.Roots) < cap(rs.Roots) {
+		rs.Roots = rs.Roots[:len(rs.Roots)+1]
+		r := &rs.Roots[len(rs.Roots)-1]
+		*r = Root{Start: from, Status: status, Coefficients: r.Coefficients[:0]}
+		return
+	}
+	rs.Roots = append(rs.Roots, Root{Start: from, Status: status})
 }
 
 // group numbers the distinct roots and finds the best.
 func (rs *Roots) group() {
-	var reps []int // index in rs.Roots of each group's first member
+	var first [numRootStarts]int
+	reps := first[:0] // index in rs.Roots of each group's first member
 	for i := range rs.Roots {
 		r := &rs.Roots[i]
 		if !r.Status.Converged() {

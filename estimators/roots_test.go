@@ -132,3 +132,90 @@ func TestFindRootsMisuse(t *testing.T) {
 		}
 	}
 }
+
+// sameRoots reports whether a and b are the same outcome bit for bit.
+func sameRoots(a, b *estimators.Roots) bool {
+	same := func(u, v float64) bool { return math.Float64bits(u) == math.Float64bits(v) }
+	if !same(a.Scale, b.Scale) || a.ScaleSource != b.ScaleSource || a.Distinct != b.Distinct ||
+		a.Multiple != b.Multiple || a.Best != b.Best || len(a.Roots) != len(b.Roots) {
+		return false
+	}
+	for i, r := range a.Roots {
+		s := b.Roots[i]
+		if r.Start != s.Start || r.Status != s.Status || r.Iterations != s.Iterations || r.Group != s.Group ||
+			!same(r.Objective, s.Objective) || len(r.Coefficients) != len(s.Coefficients) {
+			return false
+		}
+		for k := range r.Coefficients {
+			if !same(r.Coefficients[k], s.Coefficients[k]) {
+				return false
+			}
+		}
+	}
+	return true
+}
+
+// TestFindRootsIntoReuse checks that FindRootsInto, reusing one outcome
+// across datasets and options, gives FindRoots' outcome bit for bit, and
+// that a failed search leaves no roots behind.
+func TestFindRootsIntoReuse(t *testing.T) {
+	bisquare := estimators.Estimator{Method: estimators.MethodIRLS, Psi: psi.Bisquare{C: 4.685}}
+	clusterX, clusterY := twoClusters()
+	type search struct {
+		name string
+		x    *mat.Dense
+		y    []float64
+		opts estimators.RootOptions
+	}
+	var searches []search
+	for s := range uint64(4) {
+		x, y := auditData(100, s+1)
+		searches = append(searches, search{"audit data", x, y, estimators.RootOptions{Truth: []float64{20, 2, -1}}})
+	}
+	searches = append(searches,
+		search{"two clusters", clusterX, clusterY, estimators.RootOptions{Truth: []float64{0}, Scale: 1}},
+		search{"no truth", clusterX, clusterY, estimators.RootOptions{}},
+		search{"bad truth", clusterX, clusterY, estimators.RootOptions{Truth: []float64{0, 1}}},
+	)
+	searches = append(searches, searches[0])
+	var ws, fresh estimators.Workspace
+	var into estimators.Roots
+	for i, s := range searches {
+		fresh.SeedRandom(uint64(i), 3)
+		want, wantErr := estimators.FindRoots(bisquare, s.x, s.y, s.opts, &fresh)
+		ws.SeedRandom(uint64(i), 3)
+		err := estimators.FindRootsInto(bisquare, s.x, s.y, s.opts, &ws, &into)
+		if (err == nil) != (wantErr == nil) {
+			t.Fatalf("%d %s: error %v, FindRoots %v", i, s.name, err, wantErr)
+		}
+		if err != nil {
+			if len(into.Roots) != 0 || into.Best != -1 {
+				t.Errorf("%d %s: a failed search left %d roots, best %d", i, s.name, len(into.Roots), into.Best)
+			}
+			continue
+		}
+		if !sameRoots(&into, &want) {
+			t.Errorf("%d %s: FindRootsInto %+v, FindRoots %+v", i, s.name, into, want)
+		}
+	}
+}
+
+// TestFindRootsIntoAllocs checks that a root search into a reused outcome
+// and workspace allocates nothing once they have grown to the shape.
+func TestFindRootsIntoAllocs(t *testing.T) {
+	x, y := auditData(100, 8)
+	e := estimators.Estimator{Method: estimators.MethodIRLS, Psi: psi.Bisquare{C: 4.685}}
+	opts := estimators.RootOptions{Truth: []float64{20, 2, -1}}
+	var ws estimators.Workspace
+	var out estimators.Roots
+	search := func() {
+		ws.SeedRandom(1, 2)
+		if err := estimators.FindRootsInto(e, x, y, opts, &ws, &out); err != nil {
+			t.Fatal(err)
+		}
+	}
+	search() // warm-up: the workspace and the outcome grow to the shape
+	if got := testing.AllocsPerRun(20, search); got != 0 {
+		t.Errorf("%v allocations per search, want 0", got)
+	}
+}

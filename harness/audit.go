@@ -14,17 +14,19 @@ import (
 // reported). For an audited estimator each fit is made traced
 // (estimators.AuditWorkspace.Traced) and then audited; for an estimator
 // with roots: true each replicate is also refitted from several starts
-// (estimators.FindRoots), the S start drawing from the estimator's own
-// stream of the replicate, as the fit does. Neither changes the fit: its
-// time is measured before them and its estimate is recorded as without
-// them.
+// (estimators.FindRootsInto, into the worker's reused outcome), the S
+// start drawing from the estimator's own stream of the replicate, as the
+// fit does. Neither changes the fit: its time is measured before them and
+// its estimate is recorded as without them.
 //
 // The medians must be exact and the same for any number of workers,
 // shards or resumes, so every audited fit's values travel in the tallies
-// (and in the partial file), and the summary sorts them: memory and the
-// partial grow by 8·(p + 28) bytes per audited fit, and a run refuses an
-// audit of more than auditValueBudget values in all. The root searches
-// need only counts and exact sums, of fixed size.
+// (and in the partial file), and the summary sorts them: memory grows by
+// 8·(p + 28) bytes per audited fit of p coefficients (auditWidth float64
+// values), and the partial file by 4/3 of that, about 10.7·(p + 28) bytes,
+// as the values' bits are base64 encoded. A run refuses an audit of more
+// than auditValueBudget values in all. The root searches need only counts
+// and exact sums, of fixed size.
 
 // auditValueBudget bounds the values an audited run keeps: 2^25 float64
 // (256 MiB), about a million audited fits of three coefficients.
@@ -41,10 +43,14 @@ type cellAudit struct {
 	audit, roots []bool
 }
 
+// audits reports whether estimator j of the cell is audited.
+func (c *cellAudit) audits(j int) bool { return c.audit != nil && c.audit[j] }
+
+// searches reports whether estimator j of the cell is searched for roots.
+func (c *cellAudit) searches(j int) bool { return c.roots != nil && c.roots[j] }
+
 // studied reports whether estimator j of the cell is studied at all.
-func (c *cellAudit) studied(j int) bool {
-	return (c.audit != nil && c.audit[j]) || (c.roots != nil && c.roots[j])
-}
+func (c *cellAudit) studied(j int) bool { return c.audits(j) || c.searches(j) }
 
 // fitAudit says what a distinct fit of a group needs: an audit if any cell
 // that uses it audits it, a root search likewise.
@@ -54,8 +60,8 @@ type fitAudit struct {
 
 // add notes that the fit serves estimator j of a cell with audits a.
 func (f *fitAudit) add(a cellAudit, j int) {
-	f.audit = f.audit || (a.audit != nil && a.audit[j])
-	f.roots = f.roots || (a.roots != nil && a.roots[j])
+	f.audit = f.audit || a.audits(j)
+	f.roots = f.roots || a.searches(j)
 }
 
 // planAudits sets each cell's audits from its scenario (solver-audit,
@@ -107,8 +113,9 @@ type auditTally struct {
 // numSEReasons is the number of estimators.SEReason values counted.
 const numSEReasons = int(estimators.SENoFixedPoint) + 1
 
-// rootStarts is the most starts of a root search (ls, lad, S, truth).
-const rootStarts = 4
+// rootStarts is the most starts of a root search (ls, lad, S, truth):
+// estimators.RootStart numbers them from 0 to RootFromTruth.
+const rootStarts = int(estimators.RootFromTruth) + 1
 
 // rootTally accumulates the root searches of one estimator in one cell.
 type rootTally struct {
@@ -129,7 +136,7 @@ func newAuditTally(a cellAudit, j, p int) *auditTally {
 		return nil
 	}
 	t := &auditTally{p: p}
-	if a.roots != nil && a.roots[j] {
+	if a.searches(j) {
 		t.roots = &rootTally{}
 		for s := range t.roots.s1 {
 			t.roots.s1[s] = make([]exactsum.Sum, p)
@@ -326,7 +333,7 @@ func (w *workerAudit) study(rp *Replicator, fp *fitPlan, f int, x *mat.Dense, y 
 		}
 	}
 	if w.fits[f].roots {
-		w.roots[f], w.rootErr[f] = rp.findRoots(fp.key, &fp.est, &w.rootWS[f], estimators.RootOptions{Truth: w.truth})
+		w.rootErr[f] = rp.findRootsInto(fp.key, &fp.est, &w.rootWS[f], estimators.RootOptions{Truth: w.truth}, &w.roots[f])
 	}
 	return nil
 }
@@ -341,13 +348,18 @@ func (r *Replicator) FindRoots(label string, est *estimators.Estimator, ws *esti
 	if opts.Truth == nil {
 		opts.Truth = r.gen.Truth()
 	}
-	return r.findRoots(EstimatorKey(label), est, ws, opts)
+	var out estimators.Roots
+	if err := r.findRootsInto(EstimatorKey(label), est, ws, opts, &out); err != nil {
+		return estimators.Roots{}, err
+	}
+	return out, nil
 }
 
-// findRoots is FindRoots for an estimator whose key is known.
-func (r *Replicator) findRoots(estKey uint64, est *estimators.Estimator, ws *estimators.Workspace, opts estimators.RootOptions) (estimators.Roots, error) {
+// findRootsInto is FindRoots for an estimator whose key is known, into
+// out, whose storage it reuses (estimators.FindRootsInto).
+func (r *Replicator) findRootsInto(estKey uint64, est *estimators.Estimator, ws *estimators.Workspace, opts estimators.RootOptions, out *estimators.Roots) error {
 	ws.SeedRandom(EstimatorStream(r.seed, r.dataKey, r.rep, estKey))
-	return estimators.FindRoots(*est, r.x, r.y, opts, ws)
+	return estimators.FindRootsInto(*est, r.x, r.y, opts, ws, out)
 }
 
 // record adds the study of the replicate's fits to the cell's tally:
@@ -359,7 +371,7 @@ func (w *workerAudit) record(p *cellPlan, t *cellTally, use []int) {
 			continue
 		}
 		f := use[j]
-		if p.aud.audit != nil && p.aud.audit[j] {
+		if p.aud.audits(j) {
 			at.addAudit(&w.out[f])
 		}
 		if at.roots != nil {

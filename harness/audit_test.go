@@ -8,6 +8,8 @@ import (
 	"strings"
 	"testing"
 
+	"gonum.org/v1/gonum/stat/distuv"
+
 	"github.com/rhomark/rhomark/results"
 )
 
@@ -61,12 +63,22 @@ func TestAuditThroughRun(t *testing.T) {
 		t.Errorf("ls: stop error %+v, want direct and exactly 0 on all 40 fits", ls)
 	}
 	loose := estimatorOf(t, c, "huber-loose").Convergence.StopError
-	t.Logf("huber 1e-3: median %v, max %v SE; over 0.01 SE %v", loose.Median, loose.Max, loose.Over)
-	// "Clearly above": the worst fit is three times past 0.01 SE, and
-	// more than a quarter of the fits are past it.
-	if loose == nil || !(loose.Max > 0.03) || !(float64(loose.OverCount) > 0.25*float64(loose.Audited)) {
-		t.Errorf("huber 1e-3: stop error %+v, want a max above 0.03 SE and over a quarter of fits past 0.01 SE", loose)
+	if loose == nil {
+		t.Fatal("huber 1e-3: no stop error")
 	}
+	t.Logf("huber 1e-3: median %v, max %v SE; over 0.01 SE %v", loose.Median, loose.Max, loose.Over)
+	// "Clearly above": the worst fit is three times past 0.01 SE (the
+	// largest of these 40 fixed-seed fits: an order statistic, checked as
+	// a property of these datasets, with no MCSE), and more than a quarter
+	// of the fits are past it. OverCount is binomial over the fits: it
+	// must reach the count that a rate of a quarter reaches with
+	// probability below 0.001.
+	_, over := binomialBounds(int(loose.Audited), 0.25, 0.001)
+	if !(loose.Max > 0.03) || loose.OverCount < int64(over) {
+		t.Errorf("huber 1e-3: stop error %+v, want a max above 0.03 SE and at least %d of %d fits past 0.01 SE", loose, over, loose.Audited)
+	}
+	// Every fit converged to a change of 1e-12, so each one's error is
+	// far below 1e-6 SE: a property of every fit, not a rate.
 	tight := estimatorOf(t, c, "huber-tight").Convergence.StopError
 	if tight == nil || tight.Audited != 40 || !(tight.Max < 1e-6) {
 		t.Errorf("huber 1e-12: stop error %+v, want every fit below 1e-6 SE", tight)
@@ -79,8 +91,11 @@ func TestAuditThroughRun(t *testing.T) {
 	// The tolerance table agrees with the fits actually made: at the
 	// loose rule's own tolerance it takes the iterations the loose fits
 	// took (IRLS is deterministic and the tight fits pass the same
-	// iterates).
+	// iterates): deterministic.
 	hc := estimatorOf(t, c, "huber-tight").Convergence
+	if len(hc.Tolerances) < 2 {
+		t.Fatalf("huber 1e-12: %d tolerance rows, want the row of 1e-3 among them", len(hc.Tolerances))
+	}
 	if row := hc.Tolerances[1]; row.Tolerance != 1e-3 || row.MedianIterations != estimatorOf(t, c, "huber-loose").Convergence.MedianIterations {
 		t.Errorf("tolerance row %+v: want 1e-3 at the loose fits' median iterations %v", row, estimatorOf(t, c, "huber-loose").Convergence.MedianIterations)
 	}
@@ -89,7 +104,11 @@ func TestAuditThroughRun(t *testing.T) {
 	// nearest the root, q +
 	// ln C / ln Δ (estimators.Rate); the estimators package's test bounds
 	// that bias by 3/|ln Δ| < 0.5 on these data, so the median over fits
-	// lies within 0.5 of 2.
+	// lies within 0.5 of 2. These bounds, here and for the MAD and IRLS
+	// below, are numerical properties of each fit, not estimates of a
+	// rate or a mean: no MCSE enters, and the median of the 40 fixed-seed
+	// fits is held to the bound each fit meets in the estimators package's
+	// tests (order in (0.5, 1.5) with the MAD, a linear rate in (0, 1)).
 	nw := estimatorOf(t, c, "logistic-newton").Convergence.Rate
 	if nw == nil || nw.Kind != "order" || !(math.Abs(float64(nw.Median)-2) < 0.5) || nw.Note != "" {
 		t.Errorf("newton, fixed scale: rate %+v, want an order within 0.5 of 2", nw)
@@ -138,20 +157,40 @@ func TestRootsThroughRun(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
+	// The counts of searches with several roots are binomial over the 32
+	// replicates. "Rare" on clean data: at most the count below which a
+	// rate of a quarter falls with probability under 0.001 (here 0).
+	// "Most" with bad leverage: at least the count above which a rate of a
+	// half rises with probability under 0.001.
+	rare, _ := binomialBounds(32, 0.25, 0.001)
+	_, most := binomialBounds(32, 0.5, 0.001)
 	clean := estimatorOf(t, res.Cells[0], "bisquare").Convergence.Roots
-	if clean == nil || clean.Searched != 32 || clean.MultipleCount != 0 {
-		t.Errorf("clean cell: %+v, want 32 searches and a single root in each", clean)
+	if clean == nil || clean.Searched != 32 || clean.MultipleCount > int64(rare) {
+		t.Errorf("clean cell: %+v, want 32 searches and several roots in at most %d", clean, rare)
 	}
 	bad := estimatorOf(t, res.Cells[1], "bisquare").Convergence.Roots
-	if bad == nil || bad.Searched != 32 || bad.MultipleCount < 16 {
-		t.Fatalf("bad leverage: %+v, want several roots in most replicates", bad)
+	if bad == nil || bad.Searched != 32 || bad.MultipleCount < int64(most) || len(bad.Starts) < 3 {
+		t.Fatalf("bad leverage: %+v, want several roots in at least %d of 32 replicates", bad, most)
 	}
 	lad, s := bad.Starts[1], bad.Starts[2]
-	// The mislabelled runs put y ≈ 19.9 at x = 200, where the meter would
-	// read 196: a root that fits them has a gain far below 0.98.
-	if !(math.Abs(float64(s.Bias[1].Value)) < 0.01) || !(math.Abs(float64(lad.Bias[1].Value)) > 0.5) {
-		t.Errorf("gain bias from S %v, from LAD %v: want S near the truth and LAD at the other root", s.Bias[1], lad.Bias[1])
+	if len(s.Bias) < 2 || len(lad.Bias) < 2 {
+		t.Fatalf("gain bias missing: S %+v, LAD %+v", s, lad)
 	}
+	// The mislabelled runs put y ≈ 19.9 at x = 200, where the meter would
+	// read 196: a root that fits them has a gain near 19.9/200, a bias of
+	// about −0.88, far below 0.98. At the root near the truth those rows
+	// have residuals of hundreds of σ and bisquare weight 0, so the
+	// estimate is the M-estimate of the clean rows, whose normal errors
+	// and odd psi make it unbiased (common practice): S's mean gain error
+	// is 0 within 3 MCSE. LAD's must lie on the other root's side of the
+	// midpoint between the roots, by 3 MCSE.
+	mid := (19.9/200 - 0.98) / 2
+	sb, lb := s.Bias[1], lad.Bias[1]
+	if !(math.Abs(float64(sb.Value)) < 3*float64(sb.MCSE)) || !(float64(lb.Value)+3*float64(lb.MCSE) < mid) {
+		t.Errorf("gain bias from S %v, from LAD %v: want S within 3 MCSE of 0 and LAD below %.3g by 3 MCSE", sb, lb, mid)
+	}
+	// Where there are several roots, the S start reaches the best one in
+	// every replicate: a property of each such dataset, not a rate.
 	if s.Best != bad.MultipleCount {
 		t.Errorf("S start reached the best root in %d of %d replicates with several roots", s.Best, bad.MultipleCount)
 	}
@@ -260,13 +299,137 @@ func TestAuditOffLeavesResultsAlone(t *testing.T) {
 }
 
 // TestAuditBudget: an audit too large to keep every fit's values is
-// refused before any work, naming what to reduce.
+// refused before any work, naming what to reduce. The context is
+// cancelled from the start, so that if the refusal were lost the run
+// would stop at once with context.Canceled rather than fit 300,000
+// replicates.
 func TestAuditBudget(t *testing.T) {
 	st := parse(t, flowMeterLike)
+	ctx, cancel := context.WithCancel(context.Background())
+	cancel()
 	// 4 estimators × 2 coefficients: 4·(2 + 2 + 26) values per replicate,
 	// so 300,000 replicates pass 2^25.
-	_, err := Run(context.Background(), st, Options{Replicates: 300_000, AuditSolvers: true})
+	_, err := Run(ctx, st, Options{Replicates: 300_000, AuditSolvers: true})
 	if err == nil || !strings.Contains(err.Error(), "fewer replicates") {
 		t.Errorf("got %v, want the audit refused for its size", err)
+	}
+}
+
+// TestRootsStudyAllocatesNothing: with roots: true, a replicate (its
+// draw, its fits, the root search and the tallies) allocates nothing once
+// the worker's buffers have grown, so the search can run on every
+// replicate. The warm-up fits the same replicates as the measured calls:
+// the workspaces and the exact sums grow with the data (a sum's digits
+// span the exponents of the values added), and only then is every
+// replicate's storage in place.
+func TestRootsStudyAllocatesNothing(t *testing.T) {
+	st := parse(t, strings.Replace(rootsScenario, ", solver-audit: true", "", 1))
+	plans, err := plan(st, 64)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := planAudits(plans, false); err != nil {
+		t.Fatal(err)
+	}
+	const runs = 20 // AllocsPerRun makes runs + 1 calls
+	groups := groupCells(plans, 1)
+	for g := range groups {
+		w := newWorker(plans, &groups[g], 16)
+		if w.aud == nil || w.aud.fits[len(w.aud.fits)-1].audit || !w.aud.fits[len(w.aud.fits)-1].roots {
+			t.Fatalf("group %d: the bisquare is not planned for a root search alone", g)
+		}
+		r := 0
+		step := func() {
+			w.replicate(r)
+			if w.err != nil {
+				t.Fatal(w.err)
+			}
+			r = (r + 1) % (runs + 1)
+		}
+		for range runs + 1 {
+			step()
+		}
+		if a := testing.AllocsPerRun(runs, step); a != 0 {
+			t.Errorf("group %d: %v allocations per replicate, want 0", g, a)
+		}
+		if rt := w.tallies[0].ests[1].aud.roots; rt.searched != 2*(runs+1) || rt.failed != 0 {
+			t.Errorf("group %d: %d searches (%d failed), want %d that ran", g, rt.searched, rt.failed, 2*(runs+1))
+		}
+	}
+}
+
+// TestAuditDecodeNamesEstimator: a partial whose solver study does not
+// match the scenario is refused naming the cell and the estimator, by
+// index and label.
+func TestAuditDecodeNamesEstimator(t *testing.T) {
+	plansOf := func(src string) []cellPlan {
+		t.Helper()
+		plans, err := plan(parse(t, src), 32)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if err := planAudits(plans, false); err != nil {
+			t.Fatal(err)
+		}
+		return plans
+	}
+	studied := plansOf(rootsScenario)
+	plain := plansOf(strings.Replace(rootsScenario, ", roots: true, solver-audit: true", "", 1))
+	tests := []struct {
+		name     string
+		from, to []cellPlan
+	}{
+		{"study in the partial only", studied, plain},
+		{"study in the scenario only", plain, studied},
+	}
+	for _, tt := range tests {
+		p := &Partial{}
+		for i := range tt.from {
+			p.raw = append(p.raw, tt.from[i].newTally().encode())
+		}
+		err := attach(p, tt.to)
+		if err == nil || !strings.Contains(err.Error(), "cell 0: estimator 1 (bisquare): ") || !strings.Contains(err.Error(), "--audit-solvers") {
+			t.Errorf("%s: got %v, want an error naming cell 0 and estimator 1 (bisquare)", tt.name, err)
+		}
+	}
+}
+
+// binomialBounds returns, for a count K of n trials with rate p, the
+// largest count lo with P(K ≤ lo) < alpha and the smallest count hi with
+// P(K ≥ hi) < alpha (exact binomial tails; lo is −1 and hi n + 1 when
+// there is none): a count at most lo, or at least hi, rejects the rate p
+// at level alpha, one-sided (common practice).
+func binomialBounds(n int, p, alpha float64) (lo, hi int) {
+	b := distuv.Binomial{N: float64(n), P: p}
+	lo, hi = -1, n+1
+	for k := 0; k <= n && b.CDF(float64(k)) < alpha; k++ {
+		lo = k
+	}
+	for k := n; k >= 0 && 1-b.CDF(float64(k-1)) < alpha; k-- {
+		hi = k
+	}
+	return lo, hi
+}
+
+// TestBinomialBounds checks the helper against tails summed term by term
+// from the binomial probabilities, C(n, k) p^k (1 − p)^(n−k) (common
+// practice): for n = 32, p = 1/2, P(K ≥ 26) ≈ 2.7e-4 while P(K ≥ 25) ≈
+// 1.05e-3, and P(K ≤ 6) ≈ 2.7e-4 while P(K ≤ 7) ≈ 1.05e-3.
+func TestBinomialBounds(t *testing.T) {
+	tests := []struct {
+		n      int
+		p      float64
+		lo, hi int
+	}{
+		{40, 0.25, 1, 20},
+		{32, 0.25, 0, 17},
+		{32, 0.5, 6, 26},
+		{10, 0.5, 0, 10},
+		{5, 0.5, -1, 6}, // no count of 5 fair trials is that rare
+	}
+	for _, tt := range tests {
+		if lo, hi := binomialBounds(tt.n, tt.p, 0.001); lo != tt.lo || hi != tt.hi {
+			t.Errorf("n %d, p %g: bounds %d, %d, want %d, %d", tt.n, tt.p, lo, hi, tt.lo, tt.hi)
+		}
 	}
 }

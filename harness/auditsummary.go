@@ -15,7 +15,7 @@ func auditSummary(c *results.Convergence, p *cellPlan, j int, et *estTally, name
 	if t == nil {
 		return
 	}
-	if p.aud.audit != nil && p.aud.audit[j] {
+	if p.aud.audits(j) {
 		c.StopError, c.Rate, c.Tolerances = t.summarise(p.ests[j], names)
 	}
 	if t.roots != nil {

@@ -5,7 +5,9 @@ import (
 	"fmt"
 	"math"
 	"slices"
+	"sync"
 
+	"gonum.org/v1/gonum/floats"
 	"gonum.org/v1/gonum/mat"
 
 	"github.com/rhomark/rhomark/estimators"
@@ -15,34 +17,63 @@ import (
 
 // rejectAndRefit is an estimator of the user's own: least squares, then
 // least squares again on the readings whose residual is within 3
-// normalised MADs of zero. It is safe for concurrent use (it keeps no
-// state), as Options.Fitters requires.
-type rejectAndRefit struct{}
+// normalised MADs of zero. Options.Fitters requires it to be safe for
+// concurrent use: its buffers wait in a sync.Pool between fits, so each
+// worker's fit takes a set of its own, and after the first fits a fit
+// allocates nothing.
+type rejectAndRefit struct {
+	buffers sync.Pool // of *rejectBuffers
+}
+
+// rejectBuffers are the buffers of one fit of n readings and p
+// coefficients: absolute residuals, their sorted copy, and the design and
+// response with the rejected readings zeroed.
+type rejectBuffers struct {
+	r, sorted, yk []float64
+	xk            *mat.Dense
+}
+
+// reserve sizes the buffers for n readings and p coefficients.
+func (b *rejectBuffers) reserve(n, p int) {
+	if b.xk != nil {
+		if r, c := b.xk.Dims(); r == n && c == p {
+			return
+		}
+	}
+	b.r, b.sorted, b.yk = make([]float64, n), make([]float64, n), make([]float64, n)
+	b.xk = mat.NewDense(n, p, nil)
+}
 
 // Fit implements estimators.Fitter. Rejected readings are zeroed, which
 // takes them out of the least-squares fit while keeping the shape, so ws
 // is reused.
-func (rejectAndRefit) Fit(x *mat.Dense, y []float64, ws *estimators.Workspace, res *estimators.Result) error {
+func (f *rejectAndRefit) Fit(x *mat.Dense, y []float64, ws *estimators.Workspace, res *estimators.Result) error {
 	var ls estimators.Estimator // the zero Estimator is least squares
 	if err := ls.Fit(x, y, ws, res); err != nil || !res.Status.Converged() {
 		return err
 	}
-	n, _ := x.Dims()
-	r := make([]float64, n)
-	for i := range r {
-		r[i] = math.Abs(y[i] - mat.Dot(x.RowView(i), mat.NewVecDense(len(res.Coefficients), res.Coefficients)))
+	b, _ := f.buffers.Get().(*rejectBuffers)
+	if b == nil {
+		b = new(rejectBuffers)
 	}
-	sorted := slices.Clone(r)
-	slices.Sort(sorted)
-	mad := sorted[n/2] / 0.6744897501960817 // Φ⁻¹(3/4) (common practice)
-	xk, yk := mat.DenseCopyOf(x), slices.Clone(y)
-	for i, ri := range r {
+	defer f.buffers.Put(b)
+	n, p := x.Dims()
+	b.reserve(n, p)
+	for i := range b.r {
+		b.r[i] = math.Abs(y[i] - floats.Dot(x.RawRowView(i), res.Coefficients))
+	}
+	copy(b.sorted, b.r)
+	slices.Sort(b.sorted)
+	mad := b.sorted[n/2] / 0.6744897501960817 // Φ⁻¹(3/4) (common practice)
+	b.xk.Copy(x)
+	copy(b.yk, y)
+	for i, ri := range b.r {
 		if ri > 3*mad {
-			xk.SetRow(i, make([]float64, len(res.Coefficients)))
-			yk[i] = 0
+			clear(b.xk.RawRowView(i))
+			b.yk[i] = 0
 		}
 	}
-	return ls.Fit(xk, yk, ws, res)
+	return ls.Fit(b.xk, b.yk, ws, res)
 }
 
 // Benchmarking an estimator written in Go beside the built-in ones: the
@@ -72,7 +103,7 @@ estimators:
 		fmt.Println(err)
 		return
 	}
-	opt := harness.Options{Fitters: map[string]estimators.Fitter{"reject3": rejectAndRefit{}}}
+	opt := harness.Options{Fitters: map[string]estimators.Fitter{"reject3": &rejectAndRefit{}}}
 	res, err := harness.Run(context.Background(), st, opt)
 	if err != nil {
 		fmt.Println(err)

@@ -169,11 +169,11 @@ func bindOutside(st *scenarios.Study, plans []cellPlan, groups []groupPlan, opt 
 			}
 			switch spec.Method {
 			case scenarios.MethodExternal:
-				fp.outside = &outsideFit{key: fp.label + "\x00" + outsideKey(spec), cmd: external.Command{
-					Label: spec.Label, Args: spec.Command, Dir: CommandDir(st),
-					// The first reply after each start may also wait for the
-					// program to load its libraries.
-					Timeout: spec.TimeoutDuration(), StartTimeout: spec.TimeoutDuration(), Stderr: opt.stderrOf()}}
+				cmd := commandOf(st, spec, opt.stderrOf())
+				if opt.startTimeout > 0 {
+					cmd.StartTimeout = opt.startTimeout
+				}
+				fp.outside = &outsideFit{key: fp.label + "\x00" + outsideKey(spec), cmd: cmd}
 			case scenarios.MethodGo:
 				fit := opt.Fitters[spec.Label]
 				if fit == nil {
@@ -184,6 +184,15 @@ func bindOutside(st *scenarios.Study, plans []cellPlan, groups []groupPlan, opt 
 		}
 	}
 	return nil
+}
+
+// commandOf is the command that runs the program of spec, an estimator of
+// method external of study st, in the study's folder, its standard error
+// going to stderr. The first reply after each start may also wait for the
+// program to load its libraries, so it is allowed the same timeout.
+func commandOf(st *scenarios.Study, spec scenarios.EstimatorSpec, stderr io.Writer) external.Command {
+	return external.Command{Label: spec.Label, Args: spec.Command, Dir: CommandDir(st),
+		Timeout: spec.TimeoutDuration(), StartTimeout: spec.TimeoutDuration(), Stderr: stderr}
 }
 
 // outsidePool holds one worker goroutine's running programs, started on
@@ -296,7 +305,8 @@ func (p *outsidePool) close() {
 }
 
 // outsideBatch holds a worker's batch of one unit for its group's
-// external fits: the unit's datasets, the requests and each fit's replies.
+// external fits: the unit's datasets (which the unit's replicates then
+// fit, see worker.dataset), the requests and each fit's replies.
 type outsideBatch struct {
 	lo      int
 	names   []string
@@ -396,6 +406,18 @@ func (w *worker) fetchOutside(ctx context.Context, lo, hi int) bool {
 		b.nanos[f] = int64(time.Since(t0)) / int64(len(reqs))
 	}
 	return true
+}
+
+// dataset makes replicate r's dataset the one w.rp holds and returns it:
+// when the unit went to programs, the copy fetchOutside drew for them
+// (the same dataset, bit for bit, without drawing it again), otherwise a
+// fresh draw.
+func (w *worker) dataset(r int) (*mat.Dense, []float64) {
+	if b := w.batch; b != nil {
+		i := r - b.lo
+		return w.rp.install(r, b.xs[i], b.ys[i])
+	}
+	return w.rp.Draw(r)
 }
 
 // takeReply records, for an external fit f, the reply to replicate r as

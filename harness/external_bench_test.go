@@ -13,8 +13,8 @@ import (
 // BenchmarkExternalOverhead measures what an external estimator costs a
 // run per fit beyond the fit itself: the fake program in mode instant
 // answers every request at once without reading it, so the time is the
-// protocol's (drawing the dataset a second time for the batch, encoding,
-// the pipes, decoding) plus the harness's own work per replicate. The
+// protocol's (copying the dataset for the batch, encoding, the pipes,
+// decoding) plus the harness's own work per replicate. The
 // built-in least squares on the same datasets is the yardstick for that
 // own work. One worker; one op is one replicate, that is one fit; the
 // program is started once per run.
@@ -55,7 +55,6 @@ estimators:
 				if c := res.Cells[0].Estimators[0].Convergence; c.Converged != int64(b.N) {
 					b.Fatalf("%d of %d fits converged", c.Converged, b.N)
 				}
-				b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(b.N), "ns/fit")
 			})
 		}
 	}

@@ -378,10 +378,18 @@ vary:
 // its own fit, with its status, counted exactly; the run goes on, each
 // failure is reported naming the estimator and the replicate, and no
 // program outlives the run.
+//
+// The hanging fits must each cost the timeout, so it is short; a reply of
+// the running fake takes microseconds, far inside it. Only the first reply
+// after a start waits for the test binary to start again, which on a
+// loaded machine can take longer than any short timeout: the start
+// allowance is generous, so that no start passes for a hang. A hang is
+// never the first request after a start (replicate 13 follows 12, which
+// the same program answers), so the allowance does not lengthen the test.
 func TestExternalFailuresAreStatuses(t *testing.T) {
 	st := fakeScenario(t, "flaky", "300ms")
 	var stderr syncBuffer
-	res, err := Run(context.Background(), st, Options{Workers: 2, AllowCommands: true, Stderr: &stderr})
+	res, err := Run(context.Background(), st, Options{Workers: 2, AllowCommands: true, Stderr: &stderr, startTimeout: time.Minute})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -514,6 +522,31 @@ func TestProgramFitterReplaysRun(t *testing.T) {
 		want := recs[[2]int{1, r}]["prog"]
 		if res.Status.String() != want.Status || fmt.Sprint(res.Coefficients) != fmt.Sprint(want.Coefficients) {
 			t.Errorf("replicate %d: replay %v %v, run %v %v", r, res.Status, res.Coefficients, want.Status, want.Coefficients)
+		}
+	}
+}
+
+// TestFitWithNoFitter: FitWith refuses a nil Fitter, and a nil
+// *ProgramFitter (a non-nil Fitter) as well, with an error, not a panic.
+func TestFitWithNoFitter(t *testing.T) {
+	sc := fakeScenario(t, "ls", "20s").Cells[0].Scenario
+	rp, err := NewReplicator(sc, sc.Seed)
+	if err != nil {
+		t.Fatal(err)
+	}
+	rp.Draw(0)
+	var nilProgram *ProgramFitter
+	for _, tt := range []struct {
+		name string
+		fit  estimators.Fitter
+	}{
+		{"nil Fitter", nil},
+		{"nil *ProgramFitter", nilProgram},
+	} {
+		var ws estimators.Workspace
+		var res estimators.Result
+		if err := rp.FitWith("prog", tt.fit, &ws, &res); err == nil || !strings.Contains(err.Error(), "no estimator") {
+			t.Errorf("%s: got %v, want the error for no estimator", tt.name, err)
 		}
 	}
 }

@@ -229,7 +229,7 @@ func TestIterationHistogramExact(t *testing.T) {
 		ct := newCellTally(1, 1, 0)
 		ct.ests[0].merge(&e)
 		back := newCellTally(1, 1, 0)
-		if err := back.decode(ct.encode()); err != nil {
+		if err := back.decode(ct.encode(), nil); err != nil {
 			t.Fatalf("%v: %v", tc.iters, err)
 		}
 		if m := histMedian(back.ests[0].iterHist, back.ests[0].fits); m != tc.median {

@@ -337,7 +337,7 @@ func TestOldPartialTalliesRefused(t *testing.T) {
 	for k := range j.Ests[0].Coefs {
 		j.Ests[0].Coefs[k].Sums = j.Ests[0].Coefs[k].Sums[:10]
 	}
-	if err := newCellTally(1, 2, 1).decode(j); err == nil {
+	if err := newCellTally(1, 2, 1).decode(j, nil); err == nil {
 		t.Error("a tally with ten sums per coefficient was accepted")
 	}
 }

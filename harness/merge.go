@@ -41,7 +41,11 @@ func attach(p *Partial, plans []cellPlan) error {
 	cells := make([]*cellTally, len(plans))
 	for i, pl := range plans {
 		cells[i] = pl.newTally()
-		if err := cells[i].decode(p.raw[i]); err != nil {
+		labels := make([]string, len(pl.cell.Scenario.Estimators))
+		for j, e := range pl.cell.Scenario.Estimators {
+			labels[j] = e.Label
+		}
+		if err := cells[i].decode(p.raw[i], labels); err != nil {
 			return fmt.Errorf("cell %d: %w", i, err)
 		}
 	}

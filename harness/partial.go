@@ -151,8 +151,10 @@ func (c *cellTally) encode() tallyJSON {
 }
 
 // decode restores a tally serialised by encode into c, which must have the
-// shape of the cell (estimators, coefficients, cross sums).
-func (c *cellTally) decode(j tallyJSON) error {
+// shape of the cell (estimators, coefficients, cross sums). labels, if not
+// nil, are the cell's estimator labels, which the errors of a solver
+// study's tally name beside the estimator's index.
+func (c *cellTally) decode(j tallyJSON, labels []string) error {
 	if len(j.Ests) != len(c.ests) {
 		return fmt.Errorf("%d estimators, the scenario has %d", len(j.Ests), len(c.ests))
 	}
@@ -188,7 +190,10 @@ func (c *cellTally) decode(j tallyJSON) error {
 			}
 		}
 		if err := e.aud.decode(ej.Audit); err != nil {
-			return err
+			if i < len(labels) {
+				return fmt.Errorf("estimator %d (%s): %w", i, labels[i], err)
+			}
+			return fmt.Errorf("estimator %d: %w", i, err)
 		}
 	}
 	return nil
@@ -313,8 +318,8 @@ func newPartial(st *scenarios.Study, plans []cellPlan, total, size int, seed uin
 	build := opt.buildID()
 	p := &Partial{Tool: opt.Tool.Version, Build: build, Scenario: st.Base.Name, File: st.File, Source: string(st.Source), Hash: st.Hash,
 		Seed: seed, Replicates: reps, Shard: opt.Shard, Shards: opt.Shards, Units: total, UnitCells: size, done: new(big.Int),
-		AuditSolvers: opt.AuditSolvers || (opt.Resume != nil && opt.Resume.AuditSolvers)}
-	if CheckCommands(st) != nil {
+		AuditSolvers: opt.auditAll()}
+	if st.HasCommand() {
 		p.Dir = CommandDir(st)
 	}
 	for _, pl := range plans {

@@ -41,8 +41,7 @@ func StartProgram(st *scenarios.Study, spec scenarios.EstimatorSpec, names []str
 		return nil, fmt.Errorf("estimator %q has method %s, not %s", spec.Label, spec.Method, scenarios.MethodExternal)
 	}
 	stderr = Options{Stderr: stderr}.stderrOf()
-	proc, err := external.Start(external.Command{Label: spec.Label, Args: spec.Command, Dir: CommandDir(st),
-		Timeout: spec.TimeoutDuration(), StartTimeout: spec.TimeoutDuration(), Stderr: stderr})
+	proc, err := external.Start(commandOf(st, spec, stderr))
 	if err != nil {
 		return nil, err
 	}
@@ -67,12 +66,6 @@ func (f *ProgramFitter) Fit(x *mat.Dense, y []float64, _ *estimators.Workspace, 
 	return nil
 }
 
-// Err returns the message of the last fit's failure, nil if it succeeded.
-func (f *ProgramFitter) Err() error { return f.replies[0].Err }
-
-// ProgramStatus returns the program's own status word for the last fit.
-func (f *ProgramFitter) ProgramStatus() string { return f.replies[0].ProgramStatus }
-
 // Close stops the program.
 func (f *ProgramFitter) Close() error { return f.proc.Close() }
 
@@ -80,12 +73,15 @@ func (f *ProgramFitter) Close() error { return f.proc.Close() }
 // estimator's stream, and gives a *ProgramFitter the seed and replicate
 // that a run sends its program, so that the fit is the run's.
 func (r *Replicator) FitWith(label string, fit estimators.Fitter, ws *estimators.Workspace, res *estimators.Result) error {
-	key := EstimatorKey(label)
-	if pf, ok := fit.(*ProgramFitter); ok {
-		pf.Replicate, pf.Seed = r.rep, outsideSeed(r.seed, r.dataKey, r.rep, key)
-	}
-	if fit == nil {
+	// A nil *ProgramFitter is a non-nil Fitter: check for it before
+	// setting its fields.
+	pf, isProgram := fit.(*ProgramFitter)
+	if fit == nil || (isProgram && pf == nil) {
 		return errors.New("no estimator to fit")
+	}
+	key := EstimatorKey(label)
+	if isProgram {
+		pf.Replicate, pf.Seed = r.rep, outsideSeed(r.seed, r.dataKey, r.rep, key)
 	}
 	return r.fit(key, fit, ws, res)
 }

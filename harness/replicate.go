@@ -62,6 +62,16 @@ func (r *Replicator) Draw(rep int) (*mat.Dense, []float64) {
 	return r.x, r.y
 }
 
+// install makes x and y, a copy of the dataset Draw(rep) returned, the
+// replicate last drawn, without drawing it again, and returns the
+// Replicator's buffers as Draw does.
+func (r *Replicator) install(rep int, x *mat.Dense, y []float64) (*mat.Dense, []float64) {
+	r.rep = rep
+	r.x.Copy(x)
+	copy(r.y, y)
+	return r.x, r.y
+}
+
 // Fit fits est, labelled label in the scenario, to the dataset of the
 // replicate last drawn, seeding ws with the estimator's own stream for
 // that replicate, and fills res. A dataset that overflowed float64 (an

@@ -92,13 +92,25 @@ type Options struct {
 	// means os.Stderr.
 	Stderr io.Writer
 
-	// AuditSolvers audits every estimator's fits as if each had
-	// solver-audit: true (see results.StopError); a resumed run keeps its
-	// checkpoint's setting.
+	// AuditSolvers audits the fits of every estimator rhomark fits itself
+	// as if each had solver-audit: true (see results.StopError); the
+	// estimators of methods external and go are not audited, as their
+	// iterations are not rhomark's. A resumed run keeps its checkpoint's
+	// setting.
 	AuditSolvers bool
 
 	// unitCells, if positive, replaces the default group size (tests).
 	unitCells int
+	// startTimeout, if positive, replaces the extra time each program
+	// has for its first reply after a start (tests: starting a test
+	// binary on a loaded machine must not pass for a hang).
+	startTimeout time.Duration
+}
+
+// auditAll reports whether the run audits every estimator: AuditSolvers,
+// or a resumed checkpoint's setting.
+func (o Options) auditAll() bool {
+	return o.AuditSolvers || (o.Resume != nil && o.Resume.AuditSolvers)
 }
 
 // blockSize is the number of consecutive replicates in a unit of work.
@@ -301,7 +313,7 @@ func RunPartial(ctx context.Context, st *scenarios.Study, opt Options) (*results
 	if err != nil {
 		return nil, nil, err
 	}
-	if err := planAudits(plans, opt.AuditSolvers || (opt.Resume != nil && opt.Resume.AuditSolvers)); err != nil {
+	if err := planAudits(plans, opt.auditAll()); err != nil {
 		return nil, nil, err
 	}
 	if opt.Adjust != nil {
@@ -627,11 +639,12 @@ func (w *worker) runBlock(ctx context.Context, lo, hi int) bool {
 	return true
 }
 
-// replicate draws replicate r's dataset, computes each distinct fit of the
-// group once, and records in every cell the fits of its estimators.
+// replicate draws replicate r's dataset (or installs the copy fetchOutside
+// drew for the unit's programs), computes each distinct fit of the group
+// once, and records in every cell the fits of its estimators.
 func (w *worker) replicate(r int) {
 	g := w.group
-	x, y := w.rp.Draw(r)
+	x, y := w.dataset(r)
 	for f := range g.fits {
 		fp := &g.fits[f]
 		if w.takeReply(f, r) {
