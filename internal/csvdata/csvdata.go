@@ -226,11 +226,17 @@ func readPlainSplit(file, data string, split int) (*Table, bool, error) {
 			parts[1].line = parts[0].line + strings.Count(parts[0].data, "\n")
 		}
 	}
-	lines := 0 // the most rows each part may have: its lines
+	// The most rows each part may have: its lines, and no more than its
+	// bytes allow, a row of width fields taking at least width bytes
+	// (its commas and its line end; two for one field), less one for a
+	// last row without a line end. The second bound keeps a file of many
+	// columns and many blank lines from reserving room for rows it does
+	// not have.
+	lines := 0
 	for k := range parts {
 		p := &parts[k]
 		p.start = lines * width
-		p.most = strings.Count(p.data, "\n") + 1
+		p.most = min(strings.Count(p.data, "\n")+1, len(p.data)/max(width, 2)+1)
 		lines += p.most
 	}
 	nums := make([]float64, lines*width)
