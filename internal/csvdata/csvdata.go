@@ -139,6 +139,9 @@ func readCSV(file string, r io.Reader) (*Table, error) {
 		if errors.Is(err, io.EOF) {
 			break
 		}
+		if pe := (*csv.ParseError)(nil); errors.As(err, &pe) && errors.Is(err, csv.ErrFieldCount) {
+			return nil, fmt.Errorf("%s:%d: row has %s; the header has %d (check quoting and the commas on that row)", file, pe.StartLine, plural(len(rec), "field"), len(header))
+		}
 		if err != nil {
 			return nil, csvError(file, err)
 		}
@@ -453,6 +456,14 @@ func (t *Table) cell(i, j int) string {
 	return plainField(t.rowText(i), j)
 }
 
+// plural returns n and noun, with an s unless n is 1.
+func plural(n int, noun string) string {
+	if n == 1 {
+		return "1 " + noun
+	}
+	return fmt.Sprintf("%d %ss", n, noun)
+}
+
 // csvError reformats an encoding/csv error as file:line: message.
 func csvError(file string, err error) error {
 	var pe *csv.ParseError
@@ -629,17 +640,9 @@ func parse(s string) (float64, error) {
 		}
 		return 0, fmt.Errorf("%s is not a number (want a decimal number such as 12, -0.5 or 3.1e-4)", quote(s))
 	}
-	v, err := strconv.ParseFloat(s, 64)
-	if errors.Is(err, strconv.ErrRange) {
-		return 0, fmt.Errorf("%s is beyond the range of a float64 (about ±1.8e308, smallest 4.9e-324)", quote(s))
-	}
-	if err != nil {
-		return 0, fmt.Errorf("%s is not a number (want a decimal number such as 12, -0.5 or 3.1e-4)", quote(s))
-	}
-	if math.IsInf(v, 0) || math.IsNaN(v) {
-		return 0, fmt.Errorf("%s is not a finite number", quote(s))
-	}
-	return v, nil
+	// number refuses a decimal number only when it is too large for a
+	// float64 (strconv rounds one too small to zero, or to a subnormal).
+	return 0, fmt.Errorf("%s is beyond the range of a float64 (magnitudes up to about 1.8e308; rescale the column)", quote(s))
 }
 
 // number reads one cell as parse does, without wording an error: the

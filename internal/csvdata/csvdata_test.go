@@ -271,3 +271,20 @@ func TestReadWideHeaderBlankLines(t *testing.T) {
 		}
 	}
 }
+
+// TestFieldCountError: a row of more or fewer fields than the header is
+// reported with both counts and the line the row starts on, whether the
+// file is split directly or read by encoding/csv (quotes, CRs).
+func TestFieldCountError(t *testing.T) {
+	for _, c := range []struct{ data, want string }{
+		{"volume,reading\n5,5.2\n10\n", "data.csv:3: row has 1 field; the header has 2"},
+		{"volume,reading\n5,5.2\n\n10,1,2\n", "data.csv:4: row has 3 fields; the header has 2"},
+		{"volume,reading\r\n5,5.2\r\n10,1,2\r\n", "data.csv:3: row has 3 fields; the header has 2"},
+		{"note,volume\n\"a\nb\",1\n\"c\nd\",2,3\n", "data.csv:4: row has 3 fields; the header has 2"},
+	} {
+		_, err := Read("data.csv", strings.NewReader(c.data))
+		if err == nil || !strings.HasPrefix(err.Error(), c.want) {
+			t.Errorf("%q: error %v, want %q", c.data, err, c.want)
+		}
+	}
+}
