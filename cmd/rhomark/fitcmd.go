@@ -241,8 +241,8 @@ func buildFitEstimator(m, from estimators.Method, pf *psiFlags, sc scenarios.Sca
 	if err != nil {
 		return estimators.Estimator{}, desc, err
 	}
-	if !(tol > 0) {
-		return estimators.Estimator{}, desc, usagef("--tol must be a positive number, got %v", tol)
+	if !(tol > 0) || math.IsInf(tol, 0) {
+		return estimators.Estimator{}, desc, usagef("--tol must be a positive finite number, got %v", tol)
 	}
 	if maxIter < 1 {
 		return estimators.Estimator{}, desc, usagef("--max-iter must be at least 1, got %d", maxIter)
@@ -399,6 +399,9 @@ func chooseColumns(t *csvdata.Table, yName, xList, groupName string) (design, er
 	if groupName != "" {
 		if gcol, err = t.Column(groupName); err != nil {
 			return d, err
+		}
+		if gcol == d.y {
+			return d, fmt.Errorf("%s: column %q cannot be both the response (--y) and the group (--group); group by another column", t.File, groupName)
 		}
 	}
 	if xList != "" {
