@@ -151,7 +151,7 @@ func fitCmd(e env, args []string) error {
 	}
 	out := newFitWriter(e.stdout, desc, names, *asJSON, *weightsOut != "", *group != "")
 	fr := fitter{t: t, design: design, est: est, seed: seed.or(1), intercept: intercept, names: names, cut: *cut}
-	failed, err := fr.run(out)
+	failed, nonFinite, err := fr.run(out)
 	if err != nil {
 		return err
 	}
@@ -163,8 +163,15 @@ func fitCmd(e env, args []string) error {
 			return err
 		}
 	}
+	var problems []string
 	if failed > 0 {
-		return fmt.Errorf("%d of %d group(s) could not be fitted (see the error of each)", failed, len(design.groups))
+		problems = append(problems, fmt.Sprintf("%d of %d group(s) could not be fitted (see the error of each)", failed, len(design.groups)))
+	}
+	if nonFinite > 0 {
+		problems = append(problems, fmt.Sprintf("%d of %d group(s) ended with coefficients or a scale that are not finite (status non-finite): the values are likely too large for float64 arithmetic; rescale the columns (other units) and fit again", nonFinite, len(design.groups)))
+	}
+	if len(problems) > 0 {
+		return errors.New(strings.Join(problems, "; "))
 	}
 	return nil
 }
