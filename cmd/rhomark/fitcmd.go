@@ -23,13 +23,6 @@ type dataError struct{ err error }
 func (d dataError) Error() string { return d.err.Error() }
 func (d dataError) Unwrap() error { return d.err }
 
-// fitOutput is the JSON form of fit's results, which fitWriter writes
-// group by group.
-type fitOutput struct {
-	Estimator fitEstimator `json:"estimator"`
-	Fits      []fitJSON    `json:"fits"`
-}
-
 type fitEstimator struct {
 	Method string    `json:"method"`
 	Psi    string    `json:"psi,omitempty"`
