@@ -1,6 +1,8 @@
 package main
 
 import (
+	"os"
+	"path/filepath"
 	"strings"
 	"testing"
 
@@ -34,6 +36,40 @@ func TestDescribeBreakdown(t *testing.T) {
 			if strings.Contains(got, w) {
 				t.Errorf("%s: %q has %q", tc.r.Outcome, got, w)
 			}
+		}
+	}
+}
+
+// TestSweptGoEstimatorRefused: a sweep may turn an estimator's method to
+// go in some cells only, which checkCommands (it reads the file's own
+// estimators) lets through; replay and breakdown of such a cell are then
+// refused by outsideFitter as a usage error naming the estimator.
+func TestSweptGoEstimatorRefused(t *testing.T) {
+	dir := t.TempDir()
+	path := filepath.Join(dir, "bench.yaml")
+	os.WriteFile(path, []byte(`name: bench
+seed: 5
+replicates: 10
+model:
+  n: 30
+  intercept: 0
+  columns:
+    - {name: volume, slope: 1, dist: normal}
+noise: {dist: normal, scale: 1}
+estimators:
+  - {label: ls, method: ls}
+  - {label: huber, method: irls, psi: huber, tuning: 1.345}
+vary:
+  estimators.huber.method: [irls, go]
+`), 0o644)
+	for _, args := range [][]string{
+		{"replay", path, "--cell", "1", "--data-out", filepath.Join(dir, "cell1.csv")},
+		{"breakdown", path, "--cell", "1"},
+	} {
+		cmd := args[0]
+		code, _, errs := rhomark(t, args...)
+		if code != exitUsage || !strings.Contains(errs, `estimator "huber" has method go`) {
+			t.Errorf("%s of the go cell: exit %d, stderr %q", cmd, code, errs)
 		}
 	}
 }

@@ -213,11 +213,26 @@ func TestFitGroupsAndBadData(t *testing.T) {
 	if code != exitUsage || !strings.Contains(errs, "listed twice") {
 		t.Errorf("duplicated predictor: exit %d, stderr %q", code, errs)
 	}
-	ragged := "volume,reading\n5,5.2\n10\n"
-	os.WriteFile(path, []byte(ragged), 0o644)
-	code, _, errs = rhomark(t, "fit", path, "--y", "reading")
-	if code != exitUsage || !strings.Contains(errs, "bench.csv:3") {
-		t.Errorf("ragged data: exit %d, stderr %q", code, errs)
+	code, _, errs = rhomark(t, "fit", path, "--y", "reading", "--group", "reading")
+	if code != exitUsage || !strings.Contains(errs, `column "reading" cannot be both the response (--y) and the group (--group)`) {
+		t.Errorf("--group the same as --y: exit %d, stderr %q", code, errs)
+	}
+	for _, tol := range []string{"inf", "+Inf", "NaN", "0", "-1"} {
+		code, _, errs = rhomark(t, "fit", path, "--y", "reading", "--x", "volume", "--tol", tol)
+		if code != exitUsage || !strings.Contains(errs, "--tol must be a positive finite number") {
+			t.Errorf("--tol %s: exit %d, stderr %q", tol, code, errs)
+		}
+	}
+	for _, c := range []struct{ data, want string }{
+		{"volume,reading\n5,5.2\n10\n", "bench.csv:3: row has 1 field; the header has 2"},
+		{"volume,reading\n5,5.2\n10,1,2\n", "bench.csv:3: row has 3 fields; the header has 2"},
+		{"volume,\"reading\"\n5,5.2\n10,1,2\n", "bench.csv:3: row has 3 fields; the header has 2"},
+	} {
+		os.WriteFile(path, []byte(c.data), 0o644)
+		code, _, errs = rhomark(t, "fit", path, "--y", "reading")
+		if code != exitUsage || !strings.Contains(errs, c.want) {
+			t.Errorf("ragged data %q: exit %d, stderr %q, want %q", c.data, code, errs, c.want)
+		}
 	}
 }
 

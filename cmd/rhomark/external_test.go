@@ -196,18 +196,21 @@ func TestExampleProgramsMatchIRLS(t *testing.T) {
 		t.Fatal(err)
 	}
 	// The tools found may not be first in PATH: name them in full, in a
-	// copy of the scenario beside the original (commands run in the
-	// scenario file's folder).
+	// copy of the scenario in a copy of its folder (commands run in the
+	// scenario file's folder), so that the source tree is not written.
 	text := strings.Replace(string(src), "command: [python3,", fmt.Sprintf("command: [%q,", python), 1)
 	text = strings.Replace(text, "command: [Rscript,", fmt.Sprintf("command: [%q,", rscript), 1)
 	if text == string(src) {
 		t.Fatal("the example scenario no longer runs python3 and Rscript")
 	}
-	scenario := filepath.Join(examples, fmt.Sprintf(".meter-bench-test-%d.yaml", os.Getpid()))
+	copied := filepath.Join(t.TempDir(), "external")
+	if err := os.CopyFS(copied, os.DirFS(examples)); err != nil {
+		t.Fatal(err)
+	}
+	scenario := filepath.Join(copied, "meter-bench.yaml")
 	if err := os.WriteFile(scenario, []byte(text), 0o644); err != nil {
 		t.Fatal(err)
 	}
-	defer os.Remove(scenario)
 	out := t.TempDir()
 	code, _, errs := rhomark(t, "run", scenario, "--allow-commands", "--replicates", "32", "--workers", "2", "--quiet", "--out", out)
 	if code != exitOK {

@@ -96,10 +96,8 @@ func BenchmarkFitGroups(b *testing.B) {
 // time (user and system) per group, steadier than the wall time on a
 // shared machine, and faults/op the process's page faults as the system
 // counts them, where it does: on a machine whose faults are dear, memory
-// touched is time. (Linux counts the pages that one call prefaults as
-// faults too, though they cost far less than a fault each. The largest
-// resident set cannot be read here: a child's maximum counts its
-// parent's from before the exec.)
+// touched is time. (The largest resident set cannot be read here: a
+// child's maximum counts its parent's from before the exec.)
 func BenchmarkFitGroupsProcess(b *testing.B) {
 	const groups = 1000
 	goTool, err := exec.LookPath("go")

@@ -23,13 +23,6 @@ type dataError struct{ err error }
 func (d dataError) Error() string { return d.err.Error() }
 func (d dataError) Unwrap() error { return d.err }
 
-// fitOutput is the JSON form of fit's results, which fitWriter writes
-// group by group.
-type fitOutput struct {
-	Estimator fitEstimator `json:"estimator"`
-	Fits      []fitJSON    `json:"fits"`
-}
-
 type fitEstimator struct {
 	Method string    `json:"method"`
 	Psi    string    `json:"psi,omitempty"`
@@ -131,11 +124,10 @@ func fitCmd(e env, args []string) error {
 		return err
 	}
 	defer f.Close()
-	t, err := csvdata.ReadFile(pos[0], f)
+	t, err := csvdata.Read(pos[0], f)
 	if err != nil {
 		return dataError{err}
 	}
-	defer t.Close()
 	design, err := chooseColumns(t, *yCol, *xCols, *group)
 	if err != nil {
 		return dataError{err}
@@ -152,7 +144,7 @@ func fitCmd(e env, args []string) error {
 	}
 	out := newFitWriter(e.stdout, desc, names, *asJSON, *weightsOut != "", *group != "")
 	fr := fitter{t: t, design: design, est: est, seed: seed.or(1), intercept: intercept, names: names, cut: *cut}
-	failed, err := fr.run(out)
+	failed, nonFinite, err := fr.run(out)
 	if err != nil {
 		return err
 	}
@@ -164,8 +156,15 @@ func fitCmd(e env, args []string) error {
 			return err
 		}
 	}
+	var problems []string
 	if failed > 0 {
-		return fmt.Errorf("%d of %d group(s) could not be fitted (see the error of each)", failed, len(design.groups))
+		problems = append(problems, fmt.Sprintf("%d of %d group(s) could not be fitted (see the error of each)", failed, len(design.groups)))
+	}
+	if nonFinite > 0 {
+		problems = append(problems, fmt.Sprintf("%d of %d group(s) ended with coefficients or a scale that are not finite (status non-finite): the values are likely too large for float64 arithmetic; rescale the columns (other units) and fit again", nonFinite, len(design.groups)))
+	}
+	if len(problems) > 0 {
+		return errors.New(strings.Join(problems, "; "))
 	}
 	return nil
 }
@@ -242,8 +241,8 @@ func buildFitEstimator(m, from estimators.Method, pf *psiFlags, sc scenarios.Sca
 	if err != nil {
 		return estimators.Estimator{}, desc, err
 	}
-	if !(tol > 0) {
-		return estimators.Estimator{}, desc, usagef("--tol must be a positive number, got %v", tol)
+	if !(tol > 0) || math.IsInf(tol, 0) {
+		return estimators.Estimator{}, desc, usagef("--tol must be a positive finite number, got %v", tol)
 	}
 	if maxIter < 1 {
 		return estimators.Estimator{}, desc, usagef("--max-iter must be at least 1, got %d", maxIter)
@@ -400,6 +399,9 @@ func chooseColumns(t *csvdata.Table, yName, xList, groupName string) (design, er
 	if groupName != "" {
 		if gcol, err = t.Column(groupName); err != nil {
 			return d, err
+		}
+		if gcol == d.y {
+			return d, fmt.Errorf("%s: column %q cannot be both the response (--y) and the group (--group); group by another column", t.File, groupName)
 		}
 	}
 	if xList != "" {

@@ -418,3 +418,35 @@ func TestFitBuildsScenarioEstimator(t *testing.T) {
 		})
 	}
 }
+
+// TestFitNonFiniteFails: a group whose values are near the float64 limit
+// ends non-finite; fit then exits 1 saying so and suggesting a rescale,
+// and writes the other group's fit exactly as a file of it alone gives.
+func TestFitNonFiniteFails(t *testing.T) {
+	dir := t.TempDir()
+	good := "A,1,1.1\nA,2,2.0\nA,3,2.9\nA,4,4.2\nA,5,5.1\nA,6,5.8\n"
+	huge := "B,1,1.5e308\nB,2,1.7e308\nB,3,-1.6e308\nB,4,1.75e308\nB,5,-1.4e308\nB,6,1e308\n"
+	both := filepath.Join(dir, "both.csv")
+	alone := filepath.Join(dir, "alone.csv")
+	os.WriteFile(both, []byte("meter,volume,reading\n"+good+huge), 0o644)
+	os.WriteFile(alone, []byte("meter,volume,reading\n"+good), 0o644)
+	for _, method := range []string{"irls", "ls"} {
+		code, out, errs := rhomark(t, "fit", both, "--y", "reading", "--group", "meter", "--method", method, "--json")
+		if code != 1 || !strings.Contains(errs, "1 of 2 group(s) ended with coefficients or a scale that are not finite (status non-finite)") ||
+			!strings.Contains(errs, "rescale the columns") {
+			t.Errorf("%s: exit %d, stderr %q; want exit 1 naming the non-finite group", method, code, errs)
+		}
+		var got fitOutput
+		if err := json.Unmarshal([]byte(out), &got); err != nil || len(got.Fits) != 2 || got.Fits[1].Status != "non-finite" {
+			t.Fatalf("%s: %v, %+v", method, err, got.Fits)
+		}
+		_, wantOut, _ := rhomark(t, "fit", alone, "--y", "reading", "--group", "meter", "--method", method, "--json")
+		var want fitOutput
+		json.Unmarshal([]byte(wantOut), &want)
+		a, _ := json.Marshal(got.Fits[0])
+		b, _ := json.Marshal(want.Fits[0])
+		if string(a) != string(b) || len(want.Fits) != 1 {
+			t.Errorf("%s: group A with B beside it:\n%s\nalone:\n%s", method, a, b)
+		}
+	}
+}

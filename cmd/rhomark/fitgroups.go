@@ -1,6 +1,8 @@
 package main
 
 import (
+	"math"
+
 	"github.com/rhomark/rhomark/estimators"
 	"github.com/rhomark/rhomark/internal/csvdata"
 )
@@ -21,7 +23,10 @@ type fitter struct {
 type fitRecord struct {
 	fj  fitJSON
 	err error // a problem with the data, which ends the command
-	obs []fitObservation
+	// nonFinite: the fit ended with coefficients or a scale that are not
+	// finite (status non-finite), as data near the float64 limit give.
+	nonFinite bool
+	obs       []fitObservation
 	// The maps of the record, by coefficient name.
 	coefficients, standardErrors map[string]jsonFloat
 	intervals                    map[string][2]jsonFloat
@@ -48,11 +53,11 @@ const (
 
 // run fits every group and gives each record to out as soon as its batch
 // is made, in group order, and returns how many groups could not be
-// fitted. The fits run in a goroutine of their own while the records
+// fitted and how many fits ended with numbers that are not finite. The fits run in a goroutine of their own while the records
 // before them are written: a fit depends only on its data and the seed
 // given to the workspace, so the output is the same, byte for byte, as
 // one loop's.
-func (fr *fitter) run(out *fitWriter) (failed int, err error) {
+func (fr *fitter) run(out *fitWriter) (failed, nonFinite int, err error) {
 	free := make(chan []fitRecord, fitBatches)
 	for range fitBatches {
 		free <- make([]fitRecord, fitBatch)
@@ -95,19 +100,22 @@ func (fr *fitter) run(out *fitWriter) (failed int, err error) {
 			rec := &batch[i]
 			if rec.err != nil {
 				end()
-				return failed, rec.err
+				return failed, nonFinite, rec.err
 			}
 			if rec.fj.Error != "" {
 				failed++
 			}
+			if rec.nonFinite {
+				nonFinite++
+			}
 			if err := out.fit(&rec.fj); err != nil {
 				end()
-				return failed, err
+				return failed, nonFinite, err
 			}
 		}
 		free <- batch
 	}
-	return failed, nil
+	return failed, nonFinite, nil
 }
 
 // fit fits group g into rec, with ws, res and buf as scratch. An error is
@@ -119,14 +127,17 @@ func (fr *fitter) fit(g fitGroup, rec *fitRecord, ws *estimators.Workspace, res 
 	}
 	fj := &rec.fj
 	*fj = fitJSON{Group: g.name, Rows: len(g.rows), Order: fr.names}
+	rec.nonFinite = false
 	ws.SeedRandom(fr.seed, 0)
 	if err := fr.est.Fit(x, y, ws, res); err != nil {
 		fj.Status, fj.Error = "not-fitted", err.Error()
 		return nil
 	}
 	fj.Coefficients = numMap(&rec.coefficients)
+	rec.nonFinite = res.Status == estimators.NonFinite || !finite(res.Scale)
 	for k, n := range fr.names {
 		fj.Coefficients[n] = jsonFloat(res.Coefficients[k])
+		rec.nonFinite = rec.nonFinite || !finite(res.Coefficients[k])
 	}
 	fj.Scale, fj.Iterations, fj.Status = jsonFloat(res.Scale), res.Iterations, res.Status.String()
 	fj.Converged, fj.EquationNorm, fj.Objective = res.Status.Converged(), jsonFloat(res.EquationNorm), jsonFloat(res.Objective)
@@ -144,3 +155,6 @@ func (fr *fitter) fit(g fitGroup, rec *fitRecord, ws *estimators.Workspace, res 
 	}
 	return nil
 }
+
+// finite reports whether v is neither infinite nor NaN.
+func finite(v float64) bool { return !math.IsInf(v, 0) && !math.IsNaN(v) }

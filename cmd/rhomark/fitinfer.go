@@ -165,7 +165,7 @@ func appendFitTable(b []byte, f *fitJSON) []byte {
 	b = append(b, '\n')
 	width := len("coefficient")
 	for _, n := range f.Order {
-		width = max(width, len(n))
+		width = max(width, utf8.RuneCountInString(n)) // padded by runes
 	}
 	b = append(b, "   "...)
 	b = appendLeft(b, "coefficient", width) // %-*s

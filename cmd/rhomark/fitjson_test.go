@@ -9,6 +9,13 @@ import (
 	"testing"
 )
 
+// fitOutput is the JSON form of fit's results, which fitWriter writes
+// group by group (it never holds them all): the tests read it back.
+type fitOutput struct {
+	Estimator fitEstimator `json:"estimator"`
+	Fits      []fitJSON    `json:"fits"`
+}
+
 // encoderJSON is fit's JSON as encoding/json writes it, the form the
 // hand-written encoder must reproduce byte for byte.
 func encoderJSON(t *testing.T, out fitOutput) string {

@@ -30,8 +30,8 @@ func TestFitBadCellInLaterGroup(t *testing.T) {
 		edit func([]string)
 		want string
 	}{
-		// Line 20 is the fifth row of m2; line 7 (m0) holds a bad
-		// response, line 22 a bad predictor: m0 is fitted first.
+		// Line 7 (the sixth row of m0) holds a bad response, line 22
+		// (the fifth row of m2) a bad predictor: m0 is fitted first.
 		{"response", func(l []string) { l[6] = "m0,NA,5"; l[21] = "m2,1,x" }, `meters.csv:7: column flow: "NA" is a missing value`},
 		{"predictor", func(l []string) { l[21] = "m2,1e999,x" }, `meters.csv:22: column ref: "x" is not a number`},
 		{"group order", func(l []string) {
@@ -80,9 +80,10 @@ func (f *failAfter) Write(p []byte) (int, error) {
 	return len(p), nil
 }
 
-// TestFitOutputFails: when the output fails part way, fit stops fitting
-// and says why, for the JSON and for the table, whatever the point of
-// failure.
+// TestFitOutputFails: when the output fails part way, fit exits 1 with
+// the write's error, for the JSON and for the table, whatever the point
+// of failure. (That it then stops fitting, rather than fitting the
+// remaining groups for nothing, is not observed here.)
 func TestFitOutputFails(t *testing.T) {
 	path := filepath.Join(t.TempDir(), "meters.csv")
 	writeGroupedW1(t, path, 40)

@@ -8,6 +8,7 @@ import (
 	"math/rand/v2"
 	"strings"
 	"testing"
+	"unicode/utf8"
 )
 
 // fmtFitTable prints one fit of the table with fmt, as fit did before
@@ -29,7 +30,7 @@ func fmtFitTable(w io.Writer, f *fitJSON) {
 		fmt.Fprintln(w)
 		width := len("coefficient")
 		for _, n := range f.Order {
-			width = max(width, len(n))
+			width = max(width, utf8.RuneCountInString(n))
 		}
 		if f.StandardErrors != nil {
 			fmt.Fprintf(w, "   %-*s %14s %12s   %s\n", width, "coefficient", "estimate", "std. error", "95% interval")
@@ -117,6 +118,35 @@ func TestFitTableFmt(t *testing.T) {
 		fmtFitTable(&want, &f)
 		if got := appendFitTable(nil, &f); string(got) != want.String() {
 			t.Fatalf("record %d:\n%s\nwant\n%s", k, got, want.String())
+		}
+	}
+}
+
+// TestFitTableRuneWidth: the coefficient column is as wide as its widest
+// name in characters, not bytes: a non-ASCII name gets no extra padding.
+func TestFitTableRuneWidth(t *testing.T) {
+	f := fitJSON{Group: "bench", Rows: 6, Status: "solved", Order: []string{"intercept", "débit_réf"},
+		Coefficients: map[string]jsonFloat{"intercept": 0.5, "débit_réf": 2}, NoStandardErrors: "the method has none"}
+	got := string(appendFitTable(nil, &f))
+	// "débit_réf" is 9 characters (11 bytes): the column is "coefficient"'s 11.
+	for _, want := range []string{
+		"\n   coefficient       estimate\n",
+		"\n   intercept              0.5\n",
+		"\n   débit_réf                2\n",
+	} {
+		if !strings.Contains(got, want) {
+			t.Errorf("table lacks %q:\n%s", want, got)
+		}
+	}
+	f.Order[1] = "débit_mètre_réf" // 15 characters, 18 bytes
+	f.Coefficients = map[string]jsonFloat{"intercept": 0.5, "débit_mètre_réf": 2}
+	got = string(appendFitTable(nil, &f))
+	for _, want := range []string{
+		"\n   coefficient           estimate\n",
+		"\n   débit_mètre_réf              2\n",
+	} {
+		if !strings.Contains(got, want) {
+			t.Errorf("table lacks %q:\n%s", want, got)
 		}
 	}
 }

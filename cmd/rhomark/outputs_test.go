@@ -146,6 +146,8 @@ func TestResumeRefusesDifferences(t *testing.T) {
 		{[]string{"--seed", "2"}, []string{"--seed 2", "seed 1"}},
 		{[]string{"--replicates", "100"}, []string{"--replicates 100", "200 replicates"}},
 		{[]string{editedFile}, []string{editedFile + ":", "differs", cp}},
+		// The checkpoint was written without the solver audit.
+		{[]string{"--audit-solvers"}, []string{"--audit-solvers", cp, "run without it"}},
 	}
 	for _, c := range cases {
 		code, _, errs := rhomark(t, append([]string{"run", "--resume", out, "--quiet"}, c.args...)...)

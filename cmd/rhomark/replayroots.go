@@ -35,9 +35,9 @@ func replayRoots(rp *harness.Replicator, label string, est *estimators.Estimator
 		return nil, 0, fmt.Errorf("estimator %s: root search: %w", label, err)
 	}
 	var out []replayRoot
-	for i, r := range rs.Roots {
+	for _, r := range rs.Roots {
 		out = append(out, replayRoot{Start: r.Start.String(), Status: r.Status.String(), Iterations: r.Iterations,
-			Objective: jsonFloat(r.Objective), Root: r.Group, Best: i == rs.Best || (rs.Best >= 0 && r.Group >= 0 && r.Group == rs.Roots[rs.Best].Group),
+			Objective: jsonFloat(r.Objective), Root: r.Group, Best: rs.Best >= 0 && r.Group >= 0 && r.Group == rs.Roots[rs.Best].Group,
 			Coefficients: r.Coefficients, Trace: traces[r.Start]})
 	}
 	return out, rs.Scale, nil

@@ -95,6 +95,9 @@ func runCmd(e env, args []string) error {
 		if *reps != 0 && *reps != cp.Replicates {
 			return usagef("--replicates %d differs from the checkpoint's %d replicates (%s); resume with --replicates %d or without it, or start afresh in another directory", *reps, cp.Replicates, cp.Path, cp.Replicates)
 		}
+		if *audit && !cp.AuditSolvers {
+			return usagef("--audit-solvers: the checkpoint %s was run without it, so its finished fits were not audited; resume without --audit-solvers, or start afresh in another directory", cp.Path)
+		}
 		limits.Replicates = cp.Replicates
 		if st, err = harness.StudyOf(cp, limits); err != nil {
 			return err

@@ -11,13 +11,12 @@ import (
 	"io"
 	"io/fs"
 	"math"
-	"os"
-	"runtime/debug"
 	"strconv"
 	"strings"
 	"sync"
 	"unicode"
 	"unicode/utf8"
+	"unsafe"
 )
 
 // Limits on what a data file may hold.
@@ -50,85 +49,10 @@ type Table struct {
 	// finite decimal (Float then reads the text again to word the error).
 	// It is nil when the table was read by encoding/csv.
 	nums []float64
-	// unmap releases data when it is the file mapped into memory; nil
-	// otherwise.
-	unmap func() error
 }
 
 // Rows returns the number of data rows.
 func (t *Table) Rows() int { return t.rows }
-
-// ReadFile reads the open file f as Read does; file names it in errors.
-// Where the system allows, the table maps the file into memory rather
-// than copying it, so that a large file costs no memory of the process's
-// own (only its numbers are kept): Close releases the mapping, after
-// which the table must not be used. A file that changes size while it is
-// mapped makes the table's methods return an error saying so.
-func ReadFile(file string, f *os.File) (*Table, error) {
-	data, unmap := mapFile(f)
-	if unmap == nil {
-		return Read(file, f)
-	}
-	t := &Table{File: file, unmap: unmap}
-	var err error
-	var r *Table
-	if ferr := t.guard(func() { r, err = readData(file, data) }); ferr != nil {
-		unmap()
-		return nil, ferr
-	}
-	if err != nil || r.data == "" {
-		// encoding/csv copied what it kept: the mapping is not needed.
-		unmap()
-		return r, err
-	}
-	r.unmap = unmap
-	return r, nil
-}
-
-// Close releases the memory a table of ReadFile maps; the table must not
-// be used after it. It does nothing for other tables.
-func (t *Table) Close() error {
-	if t.unmap == nil {
-		return nil
-	}
-	err := t.unmap()
-	t.unmap, t.data = nil, ""
-	return err
-}
-
-// guard runs f, turning a fault in reading a mapped file (the file cut
-// short while it is read) into an error naming the file.
-func (t *Table) guard(f func()) error {
-	if t.unmap == nil {
-		f()
-		return nil
-	}
-	return guarded(t.File, f)
-}
-
-// guarded runs f, turning a memory fault into an error naming file (and
-// an error that f panics with, a guarded fault of a goroutine of f's,
-// into that error).
-func guarded(file string, f func()) (err error) {
-	defer debug.SetPanicOnFault(debug.SetPanicOnFault(true))
-	defer func() {
-		if r := recover(); r != nil {
-			if e, ok := r.(faultError); ok {
-				err = e
-				return
-			}
-			if _, ok := r.(interface{ Addr() uintptr }); !ok {
-				panic(r)
-			}
-			err = faultError{fmt.Errorf("%s: the file changed while it was read (it is shorter now); read it again when nothing writes to it", file)}
-		}
-	}()
-	f()
-	return nil
-}
-
-// faultError is the error of a fault in reading a mapped file.
-type faultError struct{ error }
 
 // Read reads a CSV table from r; file names it in errors. Lines may end in
 // LF, CRLF or a lone CR (as some spreadsheets write); a lone CR, also one
@@ -158,29 +82,33 @@ func readData(file, data string) (*Table, error) {
 }
 
 // readAll reads r whole into a string, which readPlain's cells share:
-// the file is held once, not as bytes and again as a string. A file of
-// known size is read into one buffer of that size rather than a growing
-// one.
+// the bytes are read once into one buffer, which becomes the string
+// without a copy (nothing writes to it after). A file of known size is
+// read into a buffer of its size plus one byte, so that the read that
+// finds its end needs no larger one.
 func readAll(r io.Reader) (string, error) {
-	var sb strings.Builder
-	st, ok := r.(interface{ Stat() (fs.FileInfo, error) })
-	if !ok {
-		_, err := io.Copy(&sb, r)
-		return sb.String(), err
+	size := 512
+	if st, ok := r.(interface{ Stat() (fs.FileInfo, error) }); ok {
+		if info, err := st.Stat(); err == nil && info.Mode().IsRegular() && info.Size() > 0 &&
+			info.Size() < 1<<40 && int64(int(info.Size())) == info.Size() {
+			size = int(info.Size()) + 1
+		}
 	}
-	if info, err := st.Stat(); err == nil && info.Mode().IsRegular() && info.Size() > 0 &&
-		info.Size() <= 1<<40 && int64(int(info.Size())) == info.Size() {
-		sb.Grow(int(info.Size()))
-	}
-	buf := make([]byte, 64<<10)
+	buf := make([]byte, 0, size)
 	for {
-		n, err := r.Read(buf)
-		sb.Write(buf[:n])
+		if len(buf) == cap(buf) {
+			buf = append(buf, 0)[:len(buf)] // grow
+		}
+		n, err := r.Read(buf[len(buf):cap(buf)])
+		buf = buf[:len(buf)+n]
 		if err != nil {
 			if errors.Is(err, io.EOF) {
-				return sb.String(), nil
+				err = nil
 			}
-			return sb.String(), err
+			if len(buf) == 0 {
+				return "", err
+			}
+			return unsafe.String(&buf[0], len(buf)), err
 		}
 	}
 }
@@ -210,6 +138,9 @@ func readCSV(file string, r io.Reader) (*Table, error) {
 		rec, err := cr.Read()
 		if errors.Is(err, io.EOF) {
 			break
+		}
+		if pe := (*csv.ParseError)(nil); errors.As(err, &pe) && errors.Is(err, csv.ErrFieldCount) {
+			return nil, fmt.Errorf("%s:%d: row has %s; the header has %d (check quoting and the commas on that row)", file, pe.StartLine, plural(len(rec), "field"), len(header))
 		}
 		if err != nil {
 			return nil, csvError(file, err)
@@ -255,7 +186,7 @@ func newTable(file string, header []string) (*Table, error) {
 			return nil, fmt.Errorf("%s:1: column name %s is used by columns %d and %d; names must be unique", file, quote(h), k+1, j+1)
 		}
 		seen[h] = j
-		t.Names = append(t.Names, strings.Clone(h)) // not in a mapped file
+		t.Names = append(t.Names, h)
 	}
 	return t, nil
 }
@@ -298,11 +229,17 @@ func readPlainSplit(file, data string, split int) (*Table, bool, error) {
 			parts[1].line = parts[0].line + strings.Count(parts[0].data, "\n")
 		}
 	}
-	lines := 0 // the most rows each part may have: its lines
+	// The most rows each part may have: its lines, and no more than its
+	// bytes allow, a row of width fields taking at least width bytes
+	// (its commas and its line end; two for one field), less one for a
+	// last row without a line end. The second bound keeps a file of many
+	// columns and many blank lines from reserving room for rows it does
+	// not have.
+	lines := 0
 	for k := range parts {
 		p := &parts[k]
 		p.start = lines * width
-		p.most = strings.Count(p.data, "\n") + 1
+		p.most = min(strings.Count(p.data, "\n")+1, len(p.data)/max(width, 2)+1)
 		lines += p.most
 	}
 	nums := make([]float64, lines*width)
@@ -313,14 +250,11 @@ func readPlainSplit(file, data string, split int) (*Table, bool, error) {
 		if k == 0 {
 			continue // read below, by this goroutine
 		}
-		wg.Go(func() { p.err = guarded(file, func() { p.read(width) }) })
+		wg.Go(func() { p.read(width) })
 	}
 	parts[0].read(width)
 	wg.Wait()
 	for _, p := range parts {
-		if p.err != nil {
-			panic(p.err) // a fault, for ReadFile's guard to report
-		}
 		if !p.ok {
 			return nil, false, nil
 		}
@@ -373,12 +307,10 @@ type plainPart struct {
 	rows        int
 	lines       []int // the line of each row; nil while each line is a row
 	ok          bool  // false: a row's fields do not match the header's
-	err         error
 }
 
 // read reads the part's rows of width cells each.
 func (p *plainPart) read(width int) {
-	prefault(p.nums[:cap(p.nums)])
 	sc := lineScanner{data: p.data, line: p.line - 1}
 	for {
 		text, line, ok := sc.next()
@@ -516,13 +448,20 @@ func (t *Table) rowText(i int) string {
 	return text
 }
 
-// cell returns the text of row i, column j. For a table of ReadFile it
-// may lie in the mapped file: callers copy what they keep.
+// cell returns the text of row i, column j.
 func (t *Table) cell(i, j int) string {
 	if t.records != nil {
 		return t.records[i][j]
 	}
 	return plainField(t.rowText(i), j)
+}
+
+// plural returns n and noun, with an s unless n is 1.
+func plural(n int, noun string) string {
+	if n == 1 {
+		return "1 " + noun
+	}
+	return fmt.Sprintf("%d %ss", n, noun)
 }
 
 // csvError reformats an encoding/csv error as file:line: message.
@@ -607,11 +546,7 @@ func (t *Table) Float(i, j int) (float64, error) {
 			return v, nil
 		}
 	}
-	var v float64
-	var err error
-	if ferr := t.guard(func() { v, err = parse(t.cell(i, j)) }); ferr != nil {
-		return 0, ferr
-	}
+	v, err := parse(t.cell(i, j))
 	if err != nil {
 		return 0, fmt.Errorf("%s:%d: column %s: %v", t.File, t.Line(i), cutName(t.Names[j]), err)
 	}
@@ -628,53 +563,47 @@ type Group struct {
 
 // Groups splits the rows by the text of column j: one group per distinct
 // text, in the order of first appearance. The groups' Rows share one
-// array; their names are copies, valid after Close.
+// array.
 func (t *Table) Groups(j int) ([]Group, error) {
 	// rows holds each row's group while the rows are read; when every
 	// group's rows come together (the usual layout) it then becomes the
 	// rows in order, each group a stretch of it, and no other array is
 	// needed.
 	rows := make([]int, t.rows)
-	prefault(rows)
 	var groups []Group
 	var counts []int
 	together := true
-	err := t.guard(func() {
-		index := map[string]int{}
-		var sc lineScanner
-		if t.records == nil {
-			sc.data = t.data
-			sc.next() // the header
+	index := map[string]int{}
+	var sc lineScanner
+	if t.records == nil {
+		sc.data = t.data
+		sc.next() // the header
+	}
+	prev, k := "", -1
+	for i := range rows {
+		var s string
+		if t.records != nil {
+			s = t.records[i][j]
+		} else {
+			text, _, _ := sc.next()
+			s = plainField(text, j)
 		}
-		prev, k := "", -1
-		for i := range rows {
-			var s string
-			if t.records != nil {
-				s = t.records[i][j]
+		// The previous row's group is tried before the index.
+		if k < 0 || s != prev {
+			var ok bool
+			if k, ok = index[s]; ok {
+				together = false // a group met again after another
 			} else {
-				text, _, _ := sc.next()
-				s = plainField(text, j)
+				k = len(groups)
+				s = strings.Clone(s)
+				index[s] = k
+				groups = append(groups, Group{Name: s})
+				counts = append(counts, 0)
 			}
-			// The previous row's group is tried before the index.
-			if k < 0 || s != prev {
-				var ok bool
-				if k, ok = index[s]; ok {
-					together = false // a group met again after another
-				} else {
-					k = len(groups)
-					s = strings.Clone(s)
-					index[s] = k
-					groups = append(groups, Group{Name: s})
-					counts = append(counts, 0)
-				}
-				prev = s
-			}
-			rows[i] = k
-			counts[k]++
+			prev = s
 		}
-	})
-	if err != nil {
-		return nil, err
+		rows[i] = k
+		counts[k]++
 	}
 	// Lay the groups' rows out in one array, in group order. When the
 	// groups came together, row i goes to index i, the index just read:
@@ -711,17 +640,9 @@ func parse(s string) (float64, error) {
 		}
 		return 0, fmt.Errorf("%s is not a number (want a decimal number such as 12, -0.5 or 3.1e-4)", quote(s))
 	}
-	v, err := strconv.ParseFloat(s, 64)
-	if errors.Is(err, strconv.ErrRange) {
-		return 0, fmt.Errorf("%s is beyond the range of a float64 (about ±1.8e308, smallest 4.9e-324)", quote(s))
-	}
-	if err != nil {
-		return 0, fmt.Errorf("%s is not a number (want a decimal number such as 12, -0.5 or 3.1e-4)", quote(s))
-	}
-	if math.IsInf(v, 0) || math.IsNaN(v) {
-		return 0, fmt.Errorf("%s is not a finite number", quote(s))
-	}
-	return v, nil
+	// number refuses a decimal number only when it is too large for a
+	// float64 (strconv rounds one too small to zero, or to a subnormal).
+	return 0, fmt.Errorf("%s is beyond the range of a float64 (magnitudes up to about 1.8e308; rescale the column)", quote(s))
 }
 
 // number reads one cell as parse does, without wording an error: the

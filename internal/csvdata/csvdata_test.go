@@ -2,9 +2,11 @@ package csvdata
 
 import (
 	"bufio"
+	"fmt"
 	"io"
 	"math"
 	"math/rand/v2"
+	"runtime"
 	"slices"
 	"strings"
 	"testing"
@@ -220,5 +222,69 @@ func TestPlainMatchesCSV(t *testing.T) {
 			b.WriteString([]string{"\n", "\n", "\n\n", ""}[rng.IntN(4)])
 		}
 		samePlain(t, b.String())
+	}
+}
+
+// TestReadWideHeaderBlankLines: a file of many columns and many blank
+// lines reserves room for the rows its bytes can hold, not for one row
+// per line: 1.5 million blank lines under a 3,000-column header once
+// asked for 36 GB. The file (a little over 1.5 MB, read in two halves)
+// must give its one row, or no rows, allocating no more than 16 bytes
+// for each of its bytes and 4 MB besides: the numbers of the rows its
+// bytes allow take at most 8 bytes for each byte, the text read from a
+// reader of unknown size up to about 3 more (the buffer doubles as it
+// grows), the header's names and index the rest.
+func TestReadWideHeaderBlankLines(t *testing.T) {
+	const width, blank = 3000, 1_500_000
+	var b strings.Builder
+	for j := range width {
+		if j > 0 {
+			b.WriteByte(',')
+		}
+		fmt.Fprintf(&b, "c%d", j)
+	}
+	b.WriteString(strings.Repeat("\n", blank+1))
+	header := b.String()
+	row := strings.Repeat("1,", width-1) + "2\n"
+	for _, c := range []struct {
+		name, data string
+		rows       int
+	}{
+		{"blank lines only", header, 0},
+		{"one row at the end", header + row, 1},
+	} {
+		var before, after runtime.MemStats
+		runtime.ReadMemStats(&before)
+		tab, err := Read("wide.csv", strings.NewReader(c.data))
+		runtime.ReadMemStats(&after)
+		if c.rows == 0 {
+			if err == nil || !strings.Contains(err.Error(), "wide.csv: no data rows") {
+				t.Errorf("%s: error %v, want no data rows", c.name, err)
+			}
+		} else if err != nil || tab.Rows() != c.rows || tab.Line(0) != blank+2 {
+			t.Errorf("%s: %v", c.name, err)
+		} else if v, err := tab.Float(0, width-1); err != nil || v != 2 {
+			t.Errorf("%s: last cell %v, %v", c.name, v, err)
+		}
+		if got, most := after.TotalAlloc-before.TotalAlloc, uint64(16*len(c.data)+4<<20); got > most {
+			t.Errorf("%s: allocated %d bytes reading %d; want at most %d", c.name, got, len(c.data), most)
+		}
+	}
+}
+
+// TestFieldCountError: a row of more or fewer fields than the header is
+// reported with both counts and the line the row starts on, whether the
+// file is split directly or read by encoding/csv (quotes, CRs).
+func TestFieldCountError(t *testing.T) {
+	for _, c := range []struct{ data, want string }{
+		{"volume,reading\n5,5.2\n10\n", "data.csv:3: row has 1 field; the header has 2"},
+		{"volume,reading\n5,5.2\n\n10,1,2\n", "data.csv:4: row has 3 fields; the header has 2"},
+		{"volume,reading\r\n5,5.2\r\n10,1,2\r\n", "data.csv:3: row has 3 fields; the header has 2"},
+		{"note,volume\n\"a\nb\",1\n\"c\nd\",2,3\n", "data.csv:4: row has 3 fields; the header has 2"},
+	} {
+		_, err := Read("data.csv", strings.NewReader(c.data))
+		if err == nil || !strings.HasPrefix(err.Error(), c.want) {
+			t.Errorf("%q: error %v, want %q", c.data, err, c.want)
+		}
 	}
 }

@@ -16,9 +16,9 @@ type decimal struct {
 	exact bool
 }
 
-// maxExpDigits bounds the exponent read into decimal.exp; beyond it the
+// maxExp bounds the value of the exponent read into decimal.exp; beyond it the
 // number is left to strconv, which reports the range error.
-const maxExpDigits = 1 << 20
+const maxExp = 1 << 20
 
 // scanDecimal reads s if it is [+-]digits[.digits][(e|E)[+-]digits], with
 // at least one digit before the exponent, and reports whether it is.
@@ -83,14 +83,14 @@ func scanDecimalPrefix(s string) (decimal, int, bool) {
 		}
 		start, e := i, 0
 		for ; i < len(s) && s[i] >= '0' && s[i] <= '9'; i++ {
-			if e < maxExpDigits {
+			if e < maxExp {
 				e = e*10 + int(s[i]-'0')
 			}
 		}
 		if i == start {
 			return d, i, false
 		}
-		if e >= maxExpDigits {
+		if e >= maxExp {
 			d.exact = false
 		}
 		if neg {

@@ -125,3 +125,19 @@ func FuzzDecimal(f *testing.F) {
 		}
 	})
 }
+
+// TestParseRange: a decimal too large for a float64 is refused as out of
+// range, with a hint to rescale; one too small reads as the nearest
+// float64, zero or subnormal (strconv.ParseFloat's rounding).
+func TestParseRange(t *testing.T) {
+	for _, s := range []string{"1e400", "-1.8e308", "1e1048577"} {
+		if _, err := parse(s); err == nil || !strings.Contains(err.Error(), "beyond the range of a float64 (magnitudes up to about 1.8e308; rescale the column)") {
+			t.Errorf("%s: %v", s, err)
+		}
+	}
+	for s, want := range map[string]float64{"1e-400": 0, "-1e-400": math.Copysign(0, -1), "4.9e-324": 5e-324, "1e-1048577": 0} {
+		if v, err := parse(s); err != nil || math.Float64bits(v) != math.Float64bits(want) {
+			t.Errorf("%s: %v, %v; want %v", s, v, err, want)
+		}
+	}
+}
