@@ -39,7 +39,7 @@ const ltsStartSafety = 4
 // ltsStartWork holds the buffers of startSteps.
 type ltsStartWork struct {
 	qp     int       // values of a row of prod: p(p+1)/2 + p, rounded up to a multiple of 4
-	prod   []float64 // n×qp, row i holds x_ik x_il (k ≤ l), then x_ik y_i, then zeros
+	prod   []float64 // n×qp, row i holds x_ik x_il (k ≤ l, colWork.prod's), then x_ik y_i, then zeros
 	total  []float64 // qp, the sums of prod over all rows
 	sums   []float64 // qp, the sums of prod over the rows of the subset of the last refit
 	terms  int       // rows added to or taken from sums since they were formed afresh
@@ -96,16 +96,14 @@ func (lw *ltsWork) loadStart(cw *colWork, y []float64) {
 	sw.list = sw.list[:n+1]
 	sw.off = false
 	y = y[:n]
+	// The products x_ik x_il are cw's, taken row by row.
+	for kl := 0; kl < q; kl++ {
+		for i, v := range cw.prod[kl*n : (kl+1)*n] {
+			sw.prod[i*qp+kl] = v
+		}
+	}
 	for i, yi := range y {
 		dst := sw.prod[i*qp : (i+1)*qp]
-		kl := 0
-		for k := 0; k < p; k++ {
-			xk := cw.xt[k*n+i]
-			for l := k; l < p; l++ {
-				dst[kl] = xk * cw.xt[l*n+i]
-				kl++
-			}
-		}
 		for k := 0; k < p; k++ {
 			dst[q+k] = cw.xt[k*n+i] * yi
 		}

@@ -258,3 +258,58 @@ func TestNestedExactFit(t *testing.T) {
 		}
 	}
 }
+
+// TestFallbackNoColumnProducts: the searches on all rows that the nested
+// searches fall back to do not store the column products of a large
+// design, which would take n·p(p+1)/2 values (colMaxP): the S fit of
+// TestNestedExactFit falls back to sFitPlain on all 3000 rows, and LTS's
+// fallback is starts on all rows. Only the merged set's products, of
+// nestedRows rows, are kept.
+func TestFallbackNoColumnProducts(t *testing.T) {
+	const n, p = 3000, 3
+	x, y := simulated(12, n, p, 0)
+	for i := range y {
+		y[i] = 2 + 0.5*x.At(i, 1) - x.At(i, 2)
+		if i%10 < 3 {
+			y[i] += 4 + float64(i%17)
+		}
+	}
+	bounded := func(name string, cw *colWork) {
+		t.Helper()
+		if cw == nil {
+			return
+		}
+		if c, most := cap(cw.prod), nestedRows*p*(p+1)/2; c > most {
+			t.Errorf("%s: column products hold %d values, want at most %d", name, c, most)
+		}
+		if c := cap(cw.xt); c > nestedRows*p {
+			t.Errorf("%s: columns hold %d values, want at most %d", name, c, nestedRows*p)
+		}
+	}
+	var ws Workspace
+	var res Result
+	if err := (Estimator{Method: MethodS}).Fit(x, y, &ws, &res); err != nil {
+		t.Fatal(err)
+	}
+	if res.Status != ExactFit {
+		t.Fatalf("S: status %v, want exact-fit (the fallback to all rows)", res.Status)
+	}
+	if ws.lts.col != nil {
+		t.Errorf("S: the search on all %d rows stored column products", n)
+	}
+	if ws.lts.nest != nil {
+		bounded("S merged set", ws.lts.nest.sub.lts.col)
+	}
+
+	var lw ltsWork
+	xg := x.RawMatrix()
+	s := ltsSettings{}.withDefaults(n, p)
+	lw.reserve(n, p, s.H, s.Keep)
+	starts, _ := lw.starts(xg, y, rand.New(rand.NewPCG(1, 2)), s.Subsets, s.CSteps, s.Keep)
+	if starts == 0 || lw.nKept == 0 {
+		t.Fatalf("LTS starts on all rows: %d starts, %d kept", starts, lw.nKept)
+	}
+	if lw.col != nil || cap(lw.start.prod) != 0 {
+		t.Errorf("LTS starts on all %d rows stored column products (%d values by rows)", n, cap(lw.start.prod))
+	}
+}
