@@ -87,9 +87,9 @@ func BenchmarkMADResiduals(b *testing.B) {
 		}
 	}
 	buf, tmp := make([]float64, 100), make([]float64, 100)
-	b.Run("madFast", func(b *testing.B) {
+	b.Run("madFirst", func(b *testing.B) {
 		for i := 0; i < b.N; i++ {
-			madFast(data[i%m], buf)
+			madFirst(data[i%m], buf)
 		}
 	})
 	b.Run("madCount", func(b *testing.B) {

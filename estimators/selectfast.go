@@ -1,7 +1,6 @@
 package estimators
 
 import (
-	"math"
 	"math/bits"
 	"slices"
 )
@@ -67,29 +66,4 @@ func lessInt(a, b float64) int {
 		r = 1
 	}
 	return r
-}
-
-// madFast returns MAD(r, buf), the same value, by selectFast. buf must have
-// at least len(r) elements; it is overwritten.
-func madFast(r, buf []float64) float64 {
-	buf = buf[:len(r)]
-	for i, v := range r {
-		buf[i] = math.Abs(v)
-	}
-	n := len(buf)
-	if n == 0 {
-		return math.NaN() / MADConsistency
-	}
-	k := n / 2
-	hi := selectFast(buf, k)
-	if n%2 == 1 {
-		return hi / MADConsistency
-	}
-	lo := buf[0]
-	for _, v := range buf[1:k] {
-		if v > lo {
-			lo = v
-		}
-	}
-	return (lo/2 + hi/2) / MADConsistency
 }

@@ -284,7 +284,7 @@ func (ws *Workspace) sCandidates(x blas64.General, y, beta []float64, psi psi.Bi
 			s = madCountAbs(ws.r[:n], ws.buf, cw.w, top, sum)
 		} else {
 			ws.residuals(x, y, cur)
-			s = madFast(ws.r, ws.buf)
+			s, _, _ = madFirst(ws.r, ws.buf)
 		}
 		if s <= sZeroTol*yMax {
 			// At least half the residuals are zero, or zero to rounding.

@@ -118,7 +118,7 @@ func TestSStepKernelsAgree(t *testing.T) {
 		}
 		x := xd.RawMatrix()
 		start := append([]float64(nil), res.Coefficients...)
-		s := madFast(ws.r, ws.buf)
+		s, _, _ := madFirst(ws.r, ws.buf)
 		type got struct {
 			beta            []float64
 			rho, psiu, rhoW float64
