@@ -156,15 +156,17 @@ func (sw *ltsStartWork) giveUp(starts int) {
 
 // startSteps is offerSteps for a start with coefficients b (overwritten)
 // while starts runs with the column products (lw.sc set). It returns what
-// offerSteps returns and leaves the kept list as offerSteps would.
+// offerSteps returns and leaves the kept list as offerSteps would, unless
+// elementalQR refuses the rows of the start (then it drops the start and
+// reports it singular).
 func (lw *ltsWork) startSteps(x blas64.General, y, b []float64, csteps, keep int) (singular bool) {
 	sw := &lw.start
 	p, h := lw.p, lw.h
 	copy(sw.b0, b[:p])
 	exact := func() bool {
 		sw.redone++
-		if sw.approx {
-			lw.elementalQR(x, y)
+		if sw.approx && !lw.elementalQR(x, y) {
+			return true
 		}
 		copy(b, sw.b0)
 		return lw.offerSteps(x, y, b, csteps, keep)
@@ -176,7 +178,9 @@ func (lw *ltsWork) startSteps(x blas64.General, y, b []float64, csteps, keep int
 		return exact()
 	}
 	if sw.approx && !(gap > 2*sw.delta0) {
-		lw.elementalQR(x, y)
+		if !lw.elementalQR(x, y) {
+			return true
+		}
 		copy(b, sw.b0)
 		if _, _, ok = lw.markFast(y, b); !ok {
 			return exact()
@@ -554,9 +558,11 @@ func (lw *ltsWork) normalSolve(b []float64, first bool) (delta float64, ok bool)
 }
 
 // elementalQR puts into sw.b0 the fit through the p rows lw.idx[:p] by
-// Householder QR, as draw makes it, after givensSolve solved them. It
-// clears sw.approx.
-func (lw *ltsWork) elementalQR(x blas64.General, y []float64) {
+// Householder QR, as draw makes it, after luSolve or givensSolve solved
+// them. It clears sw.approx. It reports false, leaving sw.b0 unchanged,
+// when Householder QR refuses the rows; startSteps then drops the start as
+// singular.
+func (lw *ltsWork) elementalQR(x blas64.General, y []float64) bool {
 	p := lw.p
 	sw := &lw.start
 	a := lw.qa[:p*p]
@@ -566,11 +572,15 @@ func (lw *ltsWork) elementalQR(x blas64.General, y []float64) {
 		}
 		lw.qy[k] = y[i]
 	}
-	// givensSolve accepts only rows whose factor passes the rank test of
-	// householderFactor by a wide margin (see there), so this succeeds.
-	householderSolve(a, p, p, lw.qy[:p], sw.b0, lw.rdiag, lw.cscale)
+	// luSolve and givensSolve accept only rows that pass the rank test of
+	// householderFactor by a wide margin (see there), so this succeeds
+	// unless their bounds fail. Should it fail, the search without them
+	// would have drawn further rows for this start, which cannot be
+	// recovered here; the start is dropped as singular instead.
+	ok := householderSolve(a, p, p, lw.qy[:p], sw.b0, lw.rdiag, lw.cscale)
 	sw.approx = false
 	sw.resolved++
+	return ok
 }
 
 // givensSolve solves for the start of p rows whose factor draw holds in
