@@ -53,12 +53,6 @@ func (lw *ltsWork) columns(x blas64.General) *colWork {
 	}
 	cw := lw.col
 	q := p * (p + 1) / 2
-	grow := func(s *[]float64, k int) {
-		if cap(*s) < k {
-			*s = make([]float64, k)
-		}
-		*s = (*s)[:k]
-	}
 	cw.n, cw.p, cw.q = n, p, q
 	grow(&cw.xt, p*n)
 	grow(&cw.prod, q*n)
@@ -69,10 +63,7 @@ func (lw *ltsWork) columns(x blas64.General) *colWork {
 			cw.xt[k*n+i] = v
 		}
 	}
-	if cap(cw.at) < q {
-		cw.at = make([]int, q)
-	}
-	cw.at = cw.at[:q]
+	grow(&cw.at, q)
 	kl := 0
 	for k := 0; k < p; k++ {
 		xk := cw.col(k)

@@ -24,7 +24,7 @@ import (
 // when the start can enter the kept list; the bound, with a lower bound on
 // the objective that needs no selection (objectiveBound), also proves when
 // it cannot. The elemental fit itself is solved by LU or from the Givens
-// factor of draw's rank test (luSolve, givensSolve) and proved in the same
+// factor of draw's rank test (luStart, givensSolve) and proved in the same
 // way to select the subset of the Householder fit, or solved again by it.
 // Whenever a proof fails (ties or near-ties at the boundary, an
 // ill-conditioned subset, a refused factorisation, values near overflow)
@@ -54,9 +54,9 @@ type ltsStartWork struct {
 	yMax   float64   // max_i |y_i|
 	yNorm  float64   // ‖y‖₂
 	gqy    []float64 // p, Qᵀy of the rows of a draw, rotated along by draw
-	lu     []float64 // p×p, the LU factors of luSolve
-	v      []float64 // p, scratch of luSolve
-	approx bool      // draw solved the start by luSolve or givensSolve, not Householder QR
+	lu     []float64 // p×p, the LU factors of luStart
+	v      []float64 // p, scratch of luStart
+	approx bool      // draw solved the start by luStart or givensSolve, not Householder QR
 	delta0 float64   // then a bound on the distance of its residuals from the exact start's
 
 	qrOnly bool // take every C-step by QR (offerSteps), for tests
@@ -64,7 +64,7 @@ type ltsStartWork struct {
 	never  bool // never give up, for tests
 	// Counts of the starts since the fit began, for tests: redone by QR
 	// from the elemental fit, refitted by QR at the end, and solved by
-	// luSolve or givensSolve and then again by Householder QR.
+	// luStart or givensSolve and then again by Householder QR.
 	redone, refitted, resolved int
 }
 
@@ -73,12 +73,6 @@ type ltsStartWork struct {
 func (lw *ltsWork) loadStart(cw *colWork, y []float64) {
 	n, p := cw.n, cw.p
 	sw := &lw.start
-	grow := func(s *[]float64, k int) {
-		if cap(*s) < k {
-			*s = make([]float64, k)
-		}
-		*s = (*s)[:k]
-	}
 	q := p * (p + 1) / 2
 	qp := (q + p + 3) &^ 3
 	sw.qp = qp
@@ -90,10 +84,7 @@ func (lw *ltsWork) loadStart(cw *colWork, y []float64) {
 	for _, s := range []*[]float64{&sw.g, &sw.scale, &sw.u, &sw.b0, &sw.colMax, &sw.colNrm, &sw.gqy, &sw.v} {
 		grow(s, p)
 	}
-	if cap(sw.list) < n+1 {
-		sw.list = make([]int, n+1)
-	}
-	sw.list = sw.list[:n+1]
+	grow(&sw.list, n+1)
 	sw.off = false
 	y = y[:n]
 	// The products x_ik x_il are cw's, taken row by row.
@@ -135,7 +126,7 @@ func (lw *ltsWork) loadStart(cw *colWork, y []float64) {
 const ltsStartTrial = 16
 
 // startFast reports whether the starts take startSteps (and draw solves
-// them by luSolve or givensSolve): while starts runs with the column
+// them by luStart or givensSolve): while starts runs with the column
 // products, unless startSteps gave up on the design.
 func (lw *ltsWork) startFast() bool {
 	return lw.sc != nil && !lw.start.qrOnly && !lw.start.off
@@ -239,11 +230,11 @@ func (lw *ltsWork) smallestSum() float64 {
 		u, v := r2[i], r2[i+1]
 		s0 += ltsBelow(u, t)
 		s1 += ltsBelow(v, t)
-		below += lessInt(u, t) + lessInt(v, t)
+		below += b2i(u < t) + b2i(v < t)
 	}
 	if i < len(r2) {
 		s0 += ltsBelow(r2[i], t)
-		below += lessInt(r2[i], t)
+		below += b2i(r2[i] < t)
 	}
 	return s0 + s1 + float64(lw.h-below)*t
 }
@@ -268,7 +259,6 @@ func ltsBelow(v, t float64) float64 {
 func (lw *ltsWork) objectiveBound(y, b []float64, tau float64) (float64, bool) {
 	r := lw.r2[:lw.n]
 	lw.sc.residuals(y, b, r)
-	tb := math.Float64bits(tau)
 	var s0, s1 float64
 	c := 0
 	i := 0
@@ -278,17 +268,9 @@ func (lw *ltsWork) objectiveBound(y, b []float64, tau float64) (float64, bool) {
 			return 0, false
 		}
 		r[i], r[i+1] = u, v
-		ub, vb := math.Float64bits(u), math.Float64bits(v)
-		var mu, mv uint64
-		if ub < tb {
-			mu = math.MaxUint64
-		}
-		if vb < tb {
-			mv = math.MaxUint64
-		}
-		s0 += math.Float64frombits(ub & mu)
-		s1 += math.Float64frombits(vb & mv)
-		c += int(mu&1) + int(mv&1)
+		s0 += ltsBelow(u, tau)
+		s1 += ltsBelow(v, tau)
+		c += b2i(u < tau) + b2i(v < tau)
 	}
 	for ; i < len(r); i++ {
 		u := r[i] * r[i]
@@ -364,9 +346,9 @@ func (lw *ltsWork) markFast(y, b []float64) (t, gap float64, ok bool) {
 	return t, gap, true
 }
 
-// markTies marks the subset as evaluate does when more than one row holds
-// the h-th smallest value t: every row below t, then rows equal to t in
-// row order up to h.
+// markTies marks in lw.cur the subset of evaluate and markFast when more
+// than one row holds the h-th smallest value t: every row below t, then
+// rows equal to t in row order up to h.
 func (lw *ltsWork) markTies(r2 []float64, t float64) {
 	cur := lw.cur[:lw.n]
 	below := 0
@@ -419,7 +401,7 @@ func (lw *ltsWork) normalSums(first bool) {
 		// from the back.
 		e, l := 0, n
 		for i, c := range cur {
-			ci, pi := boolInt(c), boolInt(prev[i])
+			ci, pi := b2i(c), b2i(prev[i])
 			list[e], list[l] = i, i
 			e += ci &^ pi
 			l -= pi &^ ci
@@ -433,7 +415,7 @@ func (lw *ltsWork) normalSums(first bool) {
 		k := 0
 		for i, c := range cur {
 			list[k] = i
-			k += boolInt(c)
+			k += b2i(c)
 		}
 		clear(sw.sums)
 		ltsAddRows(sw.sums, sw.prod, list[:k], sw.qp, false)
@@ -443,7 +425,7 @@ func (lw *ltsWork) normalSums(first bool) {
 	k := 0
 	for i, c := range cur {
 		list[k] = i
-		k += 1 - boolInt(c)
+		k += 1 - b2i(c)
 	}
 	copy(sw.sums, sw.total)
 	ltsAddRows(sw.sums, sw.prod, list[:k], sw.qp, true)
@@ -558,7 +540,7 @@ func (lw *ltsWork) normalSolve(b []float64, first bool) (delta float64, ok bool)
 }
 
 // elementalQR puts into sw.b0 the fit through the p rows lw.idx[:p] by
-// Householder QR, as draw makes it, after luSolve or givensSolve solved
+// Householder QR, as draw makes it, after luStart or givensSolve solved
 // them. It clears sw.approx. It reports false, leaving sw.b0 unchanged,
 // when Householder QR refuses the rows; startSteps then drops the start as
 // singular.
@@ -572,7 +554,7 @@ func (lw *ltsWork) elementalQR(x blas64.General, y []float64) bool {
 		}
 		lw.qy[k] = y[i]
 	}
-	// luSolve and givensSolve accept only rows that pass the rank test of
+	// luStart and givensSolve accept only rows that pass the rank test of
 	// householderFactor by a wide margin (see there), so this succeeds
 	// unless their bounds fail. Should it fail, the search without them
 	// would have drawn further rows for this start, which cannot be
@@ -655,7 +637,7 @@ func (lw *ltsWork) givensSolve() bool {
 	return true
 }
 
-// luSolve solves for the start of the p rows lw.idx[:p] by LU with partial
+// luStart solves for the start of the p rows lw.idx[:p] by LU with partial
 // pivoting of the rows with columns scaled to unit norm over them (Ã = X·D,
 // D = diag(1/√gss)), into lw.trial, and sets sw.approx and sw.delta0 as
 // givensSolve does. It reports false, changing nothing else, unless the
@@ -673,7 +655,7 @@ func (lw *ltsWork) givensSolve() bool {
 // about 1, the columns having unit norm). The LU solution is within
 // ‖Ã⁻¹‖‖E‖‖z‖ of the exact one, the Householder solution that draw would
 // make within ‖Ã⁻¹‖γ(√p‖z‖ + ‖y‖), with ‖Ã⁻¹‖ ≤ β/0.9.
-func (lw *ltsWork) luSolve(x blas64.General, y []float64) bool {
+func (lw *ltsWork) luStart(x blas64.General, y []float64) bool {
 	p := lw.p
 	sw := &lw.start
 	a, sc, yv := sw.lu[:p*p], sw.scale[:p], sw.v[:p]

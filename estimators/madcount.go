@@ -8,7 +8,7 @@ import (
 func countBelowGo(a []float64, x float64) int {
 	c := 0
 	for _, v := range a {
-		c += lessInt(v, x)
+		c += b2i(v < x)
 	}
 	return c
 }
@@ -136,7 +136,7 @@ func orderPair(a, tmp []float64, first, last int, top float64) (vFirst, vLast fl
 	g := 0
 	for _, v := range a {
 		m[g] = v
-		g += boolInt(v >= lo) & lessInt(v, hi)
+		g += b2i(v >= lo) & b2i(v < hi)
 	}
 	m = m[:g]
 	if g <= madCountGather {

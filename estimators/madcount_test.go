@@ -15,10 +15,10 @@ func TestMadCountMatchesMAD(t *testing.T) {
 	rng := rand.New(rand.NewPCG(9, 9))
 	gens := map[string]func(i int) float64{
 		"normal":   func(int) float64 { return rng.NormFloat64() },
-		"outliers": func(i int) float64 { return rng.NormFloat64() + 50*float64(boolInt(i%7 == 0)) },
+		"outliers": func(i int) float64 { return rng.NormFloat64() + 50*float64(b2i(i%7 == 0)) },
 		"cauchy":   func(int) float64 { return rng.NormFloat64() / rng.NormFloat64() },
 		"ties":     func(int) float64 { return float64(rng.IntN(5) - 2) },
-		"zeros":    func(i int) float64 { return float64(boolInt(i%3 == 0)) * rng.NormFloat64() },
+		"zeros":    func(i int) float64 { return float64(b2i(i%3 == 0)) * rng.NormFloat64() },
 		"sorted":   func(i int) float64 { return float64(i) },
 		"tiny":     func(int) float64 { return rng.NormFloat64() * 1e-300 },
 	}

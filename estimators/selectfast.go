@@ -42,7 +42,7 @@ func selectFast(a []float64, k int) float64 {
 		for i, v := range part {
 			part[i] = a[s]
 			a[s] = v
-			s += lessInt(v, pivot)
+			s += b2i(v < pivot)
 		}
 		a[hi], a[s] = a[s], a[hi]
 		switch {
@@ -56,14 +56,4 @@ func selectFast(a []float64, k int) float64 {
 	}
 	insertionSort(a[lo : hi+1])
 	return a[k]
-}
-
-// lessInt returns 1 if a < b and 0 otherwise; the compiler makes it a
-// conditional move, not a branch.
-func lessInt(a, b float64) int {
-	var r int
-	if a < b {
-		r = 1
-	}
-	return r
 }

@@ -216,20 +216,27 @@ func (ws *Workspace) sFitCapped(x blas64.General, y, beta []float64, rs Resampli
 	return ws.sFitPlain(x, y, beta, rs, maxRefine)
 }
 
+// sCounts returns the elemental subsets of an S search on p columns and the
+// candidates it refines to convergence, with rs's zero values replaced by
+// their defaults (ElementalSubsets(p) and sDefaultKeep).
+func (rs Resampling) sCounts(p int) (subsets, keep int) {
+	subsets, keep = rs.Subsets, rs.Keep
+	if subsets == 0 {
+		subsets = ElementalSubsets(p)
+	}
+	if keep == 0 {
+		keep = sDefaultKeep
+	}
+	return subsets, keep
+}
+
 // sFitPlain is sFitCapped drawing every candidate from all the rows.
 func (ws *Workspace) sFitPlain(x blas64.General, y, beta []float64, rs Resampling, maxRefine int) sOutcome {
 	p := ws.p
 	psi := rs.SScale()
 	b := ws.sConsistency(psi.C)
 	d := rs.SDivisor.divisor(ws.n, p)
-	subsets := rs.Subsets
-	if subsets == 0 {
-		subsets = ElementalSubsets(p)
-	}
-	keep := rs.Keep
-	if keep == 0 {
-		keep = sDefaultKeep
-	}
+	subsets, keep := rs.sCounts(p)
 	ws.reserveCandidates(keep, p)
 	floor := 0.0
 	drawn := false
