@@ -24,10 +24,12 @@ func (ws *Workspace) iterate(e Estimator, x blas64.General, y []float64, res *Re
 	// smallest equation norm, or needing the IRLS fallback.
 	handedOver := false
 	bestEq, stalls, fallbacks := math.Inf(1), 0, 0
-	// The MAD of the last iterate, near which the next one lies: madNear
-	// looks for the median of |r| within a relative distance madDelta of
-	// it (none at the first iterate). After a step, residualsBracket does
-	// madNear's pass with the residuals (sorted set), leaving its counts.
+	// The MAD of the last iterate, near which the next one lies: the
+	// median of |r| is looked for within a relative distance madDelta of
+	// it (madBracket, then madBetweenStats; madFirst at the first
+	// iterate). After a step, residualsBracket does madBetweenStats's pass
+	// with the residuals (sorted set), leaving the counts madFinishStats
+	// takes.
 	// The bracket is narrowed with the middle order statistics of |r| at
 	// the last iterate (midLo, midHi) and how far a step of move can shift
 	// a residual (madTighten).

@@ -280,8 +280,8 @@ func (ws *Workspace) equationNorm(x blas64.General) float64 {
 }
 
 // residualsBracket sets ws.r = y − Xβ with the bits of residuals, and in
-// the same pass does madNear's sorting of |r_i| against [lo, hi] into
-// ws.buf, returning the counts madFinish takes.
+// the same pass does madBetweenStats's sorting of |r_i| against [lo, hi]
+// into ws.buf, returning the counts madFinishStats takes.
 func (ws *Workspace) residualsBracket(x blas64.General, y, beta []float64, lo, hi float64) (below, mid int) {
 	n, p := ws.n, ws.p
 	if p == 5 {
