@@ -168,8 +168,8 @@ func (ws *Workspace) sNewtonStep(psi psi.Bisquare, x blas64.General, y, beta []f
 // sStep takes one fast-S I-step from beta, whose residuals are in ws.r, at
 // scale s: an IRLS step with bisquare weights. It then sets ws.r to the new
 // residuals and returns their sums rho and psiu at s and rhoW at sw
-// (sResiduals; with the column products psiu and rhoW are 0 when sw is
-// NaN). It reports false, leaving beta and ws.r unchanged, when the step
+// (sResiduals, or bisqResidualSums with the column products; rhoW is NaN
+// when sw is NaN). It reports false, leaving beta and ws.r unchanged, when the step
 // has no solution (every weight is zero, or the weighted design is
 // singular; the candidate is then dropped). Because rho(√t) is concave in
 // t for the bisquare, the step does not raise Σ rho(r_i/s), so the
