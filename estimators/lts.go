@@ -273,7 +273,10 @@ func (lw *ltsWork) fit(x blas64.General, y, beta []float64, rng *rand.Rand, s lt
 		starts, firstSteps, singular = lw.nestedStarts(x, y, rng, s)
 	}
 	if lw.nKept == 0 {
-		starts, singular = lw.starts(x, y, rng, s.Subsets, s.CSteps, s.Keep)
+		// The nested starts kept nothing: starts on all rows, counted
+		// with the nested ones for the status.
+		more, sing := lw.starts(x, y, rng, s.Subsets, s.CSteps, s.Keep)
+		starts, singular = starts+more, singular || sing
 		firstSteps = s.CSteps
 	}
 	switch {
@@ -524,7 +527,9 @@ func (lw *ltsWork) draw(x blas64.General, y []float64, rng *rand.Rand) int {
 		rows := m + 1
 		switch {
 		case qy == nil || rows > p:
-			ltsGivensAddRow(lw.gr, lw.gz, p, qy, y[idx[m]])
+			// givensSolve solves only starts of p rows, so the response
+			// is not rotated along here.
+			ltsGivensAddRow(lw.gr, lw.gz, p, nil, 0)
 		case rows < p:
 			// The rotations wait: an LU factorisation of the first p
 			// rows may prove the rank test passed and solve the start.

@@ -53,7 +53,7 @@ type ltsStartWork struct {
 	colMax []float64 // p, max_i |x_ik|
 	yMax   float64   // max_i |y_i|
 	yNorm  float64   // ‖y‖₂
-	gqy    []float64 // p, Qᵀy of the rows of a draw, rotated along by draw
+	gqy    []float64 // p, Qᵀy of the first p rows of a draw, rotated along by draw
 	lu     []float64 // p×p, the LU factors of luStart
 	v      []float64 // p, scratch of luStart
 	approx bool      // draw solved the start by luStart or givensSolve, not Householder QR
@@ -164,7 +164,7 @@ func (lw *ltsWork) startSteps(x blas64.General, y, b []float64, csteps, keep int
 	}
 	// The subset of the elemental fit: the one offerSteps finds, when the
 	// start was solved by QR as draw does, or proved to be so.
-	_, gap, ok := lw.markFast(y, b)
+	gap, ok := lw.markFast(y, b)
 	if !ok {
 		return exact()
 	}
@@ -173,7 +173,7 @@ func (lw *ltsWork) startSteps(x blas64.General, y, b []float64, csteps, keep int
 			return true
 		}
 		copy(b, sw.b0)
-		if _, _, ok = lw.markFast(y, b); !ok {
+		if _, ok = lw.markFast(y, b); !ok {
 			return exact()
 		}
 	}
@@ -187,7 +187,7 @@ func (lw *ltsWork) startSteps(x blas64.General, y, b []float64, csteps, keep int
 		}
 		lw.cur, lw.prev = lw.prev, lw.cur
 		var gap float64
-		if _, gap, ok = lw.markFast(y, b); !ok || !(gap > 2*delta) {
+		if gap, ok = lw.markFast(y, b); !ok || !(gap > 2*delta) {
 			return exact()
 		}
 	}
@@ -288,33 +288,34 @@ func (lw *ltsWork) objectiveBound(y, b []float64, tau float64) (float64, bool) {
 
 // markFast computes the squared residuals at b from the column products,
 // marks in lw.cur the h rows with the smallest, as evaluate does, and
-// returns the h-th smallest and the gap between the (h+1)-th and the h-th
-// smallest |residual| (0 on ties, +Inf when h = n). It reports false when a
+// returns the gap between the (h+1)-th and the h-th smallest |residual|
+// (0 on ties, +Inf when h = n). It reports false when a
 // residual is NaN, when the objective might overflow, or when the residuals
 // are too large for the error bounds of startSteps.
-func (lw *ltsWork) markFast(y, b []float64) (t, gap float64, ok bool) {
+func (lw *ltsWork) markFast(y, b []float64) (gap float64, ok bool) {
 	n, h := lw.n, lw.h
 	r2 := lw.r2[:n]
+	var t float64
 	if n < ltsWindowRows {
 		// The squares in one vector pass, with the same residuals as
 		// colWork.residuals; the h-th smallest by counting (orderPair).
 		top, sum := residualsSquares(y, lw.sc.xt, b, r2)
 		if math.IsNaN(sum) || math.IsInf(sum, 0) {
-			return 0, 0, false // a NaN residual, or squares too large
+			return 0, false // a NaN residual, or squares too large
 		}
 		t, _ = orderPair(r2, lw.sel[:n], h-1, h-1, top)
 	} else {
 		lw.sc.residuals(y, b, r2)
 		for i, r := range r2 {
 			if r != r {
-				return 0, 0, false
+				return 0, false
 			}
 			r2[i] = r * r
 		}
 		t = lw.kth(r2, lw.sel[:n])
 	}
 	if !(t <= math.MaxFloat64/float64(2*h)) || lw.residualBound(b) > 1e300 {
-		return 0, 0, false
+		return 0, false
 	}
 	cur := lw.cur[:n]
 	tb := math.Float64bits(t)
@@ -343,7 +344,7 @@ func (lw *ltsWork) markFast(y, b []float64) (t, gap float64, ok bool) {
 	default:
 		gap = math.Sqrt(math.Float64frombits(next)) - math.Sqrt(t)
 	}
-	return t, gap, true
+	return gap, true
 }
 
 // markTies marks in lw.cur the subset of evaluate and markFast when more
