@@ -10,11 +10,12 @@ import (
 // and returns a[k]. It partitions by Lomuto's scheme written without a
 // data-dependent branch (every element is swapped, and the boundary moves
 // by the outcome of the comparison), around a median-of-three pivot, and
-// finishes short ranges by insertion sort. On fresh random data, where the
-// branches of Hoare's scheme would be mispredicted about half the time,
-// that took about a fifth of the time at n = 100 (BenchmarkSelectFresh). When partitions go badly too often (many
-// equal values) it sorts the rest, so the worst case stays O(n log n). a
-// must not contain NaN.
+// finishes short ranges by insertion sort. On fresh random data the
+// branches of a partition by comparisons would be mispredicted about half
+// the time; this one has none to mispredict (BenchmarkSelectFresh times it
+// on such data). When partitions go badly too often (many equal values) it
+// sorts the rest, so the worst case stays O(n log n). a must not contain
+// NaN.
 func selectFast(a []float64, k int) float64 {
 	lo, hi := 0, len(a)-1
 	budget := 2 * bits.Len(uint(len(a)))

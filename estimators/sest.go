@@ -48,7 +48,9 @@ const (
 	// sPolishTol and sPolishSteps bound the polish of the winning
 	// candidate (sPolish): it stops when a step changes the coefficients
 	// by at most the fraction sPolishTol, or after sPolishSteps steps.
-	// Newton steps from a settled scale take one or two.
+	// Newton steps from a settled scale take one or two. sPolishSlack is
+	// the relative rise of the M-scale a polish step may make and still be
+	// taken: at the minimum the scale is flat to rounding.
 	sPolishTol   = 1e-12
 	sPolishSteps = 60
 	sPolishSlack = 1e-14
