@@ -11,15 +11,20 @@ import (
 // the columns x_k and their products x_k∘x_l (k ≤ l) stored once per
 // search, a step's normal equations are p(p+3)/2 inner products of length
 // n, which run as vector instructions (gonum's floats.Dot), and its
-// residuals y − Xβ are p vector updates. Up to colMaxP columns the products
-// take n·p(p+1)/2 values; above it the searches use the row kernels.
+// residuals y − Xβ are p vector updates. Up to colMaxP columns and
+// NestedMinRows rows the products take n·p(p+1)/2 values; beyond either
+// the searches use the row kernels.
 
 // colMaxP is the largest number of columns for which the column products
-// are stored. A search runs on at most NestedMinRows rows (nested blocks
-// above), so the products take at most 1500·528 values (6.3 MB) at
-// p = 32. Against the row kernels they make a fit at n = 5000 about 3.5
-// times faster at p = 10 and p = 20 (S and MM; LTS about 2 times), and
-// about 2 times at p = 50, where they would take 15 MB; 32 keeps the
+// are stored. columns stores them for at most NestedMinRows rows (larger
+// designs search in nested blocks of that many rows, and the fallbacks to
+// a search on all rows take the row kernels), so at p = 32 they take at
+// most 1500·528 values (6.3 MB) and the columns 1500·32 (0.4 MB). LTS
+// also keeps the same products by rows, with the x_ik y_i, in
+// ltsStartWork.prod (1500·560 values, 6.7 MB): about 13.4 MB in all.
+// Against the row kernels they make a fit at n = 5000 about 3.5 times
+// faster at p = 10 and p = 20 (S and MM; LTS about 2 times), and about 2
+// times at p = 50, where the two tables would take 31 MB; 32 keeps the
 // memory small and the proofs of the LTS starts tested
 // (TestLTSStartStepsExact draws p up to colMaxP).
 const colMaxP = 32
@@ -30,16 +35,17 @@ type colWork struct {
 	xt   []float64 // p×n, column k is xt[k*n:(k+1)*n]
 	q    int       // p(p+1)/2
 	at   []int     // q, the place k·p + l in the p×p normal matrix of the product x_k∘x_l
-	prod []float64 // n×q, row i holds x_ik x_il for k ≤ l in row-major order of the upper triangle
-	w    []float64 // n, weights of a step
+	prod []float64 // q×n, row kl holds the product x_k∘x_l, the pairs k ≤ l in row-major order of the upper triangle
+	w    []float64 // n, weights of a step, or scratch (madCountAbs)
 	wr   []float64 // n, weights times residuals, or scratch
 }
 
 // columns returns lw.col loaded with the columns of x and their products,
-// or nil when x has more than colMaxP columns.
+// or nil when x has more than colMaxP columns or more than NestedMinRows
+// rows (see colMaxP).
 func (lw *ltsWork) columns(x blas64.General) *colWork {
 	n, p := x.Rows, x.Cols
-	if p > colMaxP {
+	if p > colMaxP || n > NestedMinRows {
 		return nil
 	}
 	if lw.col == nil {
@@ -47,12 +53,6 @@ func (lw *ltsWork) columns(x blas64.General) *colWork {
 	}
 	cw := lw.col
 	q := p * (p + 1) / 2
-	grow := func(s *[]float64, k int) {
-		if cap(*s) < k {
-			*s = make([]float64, k)
-		}
-		*s = (*s)[:k]
-	}
 	cw.n, cw.p, cw.q = n, p, q
 	grow(&cw.xt, p*n)
 	grow(&cw.prod, q*n)
@@ -63,10 +63,7 @@ func (lw *ltsWork) columns(x blas64.General) *colWork {
 			cw.xt[k*n+i] = v
 		}
 	}
-	if cap(cw.at) < q {
-		cw.at = make([]int, q)
-	}
-	cw.at = cw.at[:q]
+	grow(&cw.at, q)
 	kl := 0
 	for k := 0; k < p; k++ {
 		xk := cw.col(k)

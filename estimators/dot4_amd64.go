@@ -139,8 +139,8 @@ func residualsAbsAVX(y, xt, beta *float64, p, n int, r, a *float64, square int) 
 
 // residualsAbs sets r = y − Xβ from the columns of X (xt, as for
 // bisqResidualSums) and a_i = |r_i|, and returns the largest a_i and their
-// sum (see absMaxSum): the residuals of an elemental fit and what madCount
-// needs of them, in one pass.
+// sum (see absMaxSum): the residuals of an elemental fit and what
+// madCountAbs needs of them, in one pass.
 func residualsAbs(y, xt, beta, r, a []float64) (top, sum float64) {
 	n, p := len(r), len(beta)
 	if n == 0 || p == 0 {

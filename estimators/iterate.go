@@ -24,10 +24,12 @@ func (ws *Workspace) iterate(e Estimator, x blas64.General, y []float64, res *Re
 	// smallest equation norm, or needing the IRLS fallback.
 	handedOver := false
 	bestEq, stalls, fallbacks := math.Inf(1), 0, 0
-	// The MAD of the last iterate, near which the next one lies: madNear
-	// looks for the median of |r| within a relative distance madDelta of
-	// it (none at the first iterate). After a step, residualsBracket does
-	// madNear's pass with the residuals (sorted set), leaving its counts.
+	// The MAD of the last iterate, near which the next one lies: the
+	// median of |r| is looked for within a relative distance madDelta of
+	// it (madBracket, then madBetweenStats; madFirst at the first
+	// iterate). After a step, residualsBracket does madBetweenStats's pass
+	// with the residuals (sorted set), leaving the counts madFinishStats
+	// takes.
 	// The bracket is narrowed with the middle order statistics of |r| at
 	// the last iterate (midLo, midHi) and how far a step of move can shift
 	// a residual (madTighten).
@@ -278,8 +280,9 @@ const gemvOrder = runtime.GOARCH == "amd64"
 
 // fuseGemv reports whether the fused loops serve p columns: on amd64 and
 // for narrow designs, where a call of gonum's kernel costs more than its
-// vector instructions save; the scalar fused loops were measured only for
-// p = 5, so wide designs keep the kernels.
+// vector instructions save. The scalar fused loops were timed only at
+// p = 5; p = 6 takes them too without having been timed, and wider
+// designs keep the kernels.
 func fuseGemv(p int) bool { return gemvOrder && p <= 6 }
 
 // evaluateSums is evaluate followed by psiSums, in one pass for Huber's

@@ -73,11 +73,13 @@ func TestFusedKernelsMatch(t *testing.T) {
 						t.Fatalf("n=%d p=%d row %d: fused residual %v, gemv %v", n, p, i, a.r[i], b.r[i])
 					}
 				}
-				if got := madFinish(a.r, a.buf, below, mid); !same(got, mad) {
+				if got, _, _ := madFinishStats(a.r, a.buf, below, mid); !same(got, mad) {
 					t.Errorf("n=%d p=%d delta=%v: MAD %v from the bracket, %v in full", n, p, delta, got, mad)
 				}
-				if got := madNear(a.r, a.buf, mad*MADConsistency*0.97, delta); !same(got, mad) {
-					t.Errorf("n=%d p=%d delta=%v: madNear %v, MAD %v", n, p, delta, got, mad)
+				if lo, hi, ok := madBracket(n, mad*MADConsistency*0.97, delta); ok {
+					if got, _, _ := madBetweenStats(a.r, a.buf, lo, hi); !same(got, mad) {
+						t.Errorf("n=%d p=%d delta=%v: madBetweenStats %v, MAD %v", n, p, delta, got, mad)
+					}
 				}
 			}
 			for _, h := range []psi.Huber{{K: 1.345}, {K: 0.3}} {
@@ -126,14 +128,14 @@ func TestFusedKernelsMatch(t *testing.T) {
 	}
 }
 
-// TestMADNearNaN: a NaN residual sends madNear to MAD, whatever MAD makes
-// of it.
-func TestMADNearNaN(t *testing.T) {
+// TestMADBetweenNaN: a NaN residual sends madBetweenStats to MAD,
+// whatever MAD makes of it.
+func TestMADBetweenNaN(t *testing.T) {
 	r := []float64{1, -2, math.NaN(), 0.5, 3, -0.25}
 	buf := make([]float64, len(r))
 	want := MAD(r, buf)
-	if got := madNear(r, buf, 1, 0.5); !same(got, want) {
-		t.Errorf("madNear %v, MAD %v", got, want)
+	if got, _, _ := madBetweenStats(r, buf, 0.5, 1.5); !same(got, want) {
+		t.Errorf("madBetweenStats %v, MAD %v", got, want)
 	}
 }
 
@@ -163,40 +165,6 @@ func equationNormColumns(ws *Workspace, x blas64.General) float64 {
 		}
 	}
 	return worst
-}
-
-// TestMADSampled: the MAD found from a sampled bracket is MAD's, for
-// normal, heavy-tailed, sorted, tied and zero-heavy residuals.
-func TestMADSampled(t *testing.T) {
-	rng := rand.New(rand.NewPCG(5, 6))
-	for _, n := range []int{1, 10, 63, 64, 65, 100, 101, 1000, 4097} {
-		for kind := 0; kind < 5; kind++ {
-			for trial := 0; trial < 20; trial++ {
-				r := make([]float64, n)
-				for i := range r {
-					switch kind {
-					case 0:
-						r[i] = rng.NormFloat64()
-					case 1:
-						r[i] = rng.NormFloat64() / (rng.Float64() + 1e-3)
-					case 2:
-						r[i] = float64(i) - float64(n)/3
-					case 3:
-						r[i] = float64(rng.IntN(3))
-					case 4:
-						if rng.IntN(4) == 0 {
-							r[i] = rng.NormFloat64()
-						}
-					}
-				}
-				buf := make([]float64, n)
-				want := MAD(r, buf)
-				if got := madSampled(r, buf); !same(got, want) {
-					t.Fatalf("n=%d kind %d: sampled MAD %v, MAD %v", n, kind, got, want)
-				}
-			}
-		}
-	}
 }
 
 // choleskySolveLoops is choleskySolve's general path, which the unrolled

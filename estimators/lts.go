@@ -149,43 +149,22 @@ type ltsWork struct {
 // reserve sizes the buffers for an n×p problem keeping h rows and up to keep
 // candidates.
 func (lw *ltsWork) reserve(n, p, h, keep int) {
-	growF := func(s *[]float64, k int) {
-		if cap(*s) < k {
-			*s = make([]float64, k)
-		}
-		*s = (*s)[:k]
-	}
-	growI := func(s *[]int, k int) {
-		if cap(*s) < k {
-			*s = make([]int, k)
-		}
-		*s = (*s)[:k]
-	}
-	growB := func(s *[]bool, k int) {
-		if cap(*s) < k {
-			*s = make([]bool, k)
-		}
-		*s = (*s)[:k]
-	}
 	lw.n, lw.p, lw.h = n, p, h
-	growI(&lw.idx, n)
-	growI(&lw.rows, n+1)
-	growB(&lw.cur, n)
-	growB(&lw.prev, n)
-	growF(&lw.r2, n)
-	growF(&lw.sel, n)
-	growF(&lw.qa, n*p)
-	growF(&lw.qy, n)
+	grow(&lw.idx, n)
+	grow(&lw.rows, n+1)
+	grow(&lw.cur, n)
+	grow(&lw.prev, n)
+	grow(&lw.r2, n)
+	grow(&lw.sel, n)
+	grow(&lw.qa, n*p)
+	grow(&lw.qy, n)
 	for _, s := range []*[]float64{&lw.rdiag, &lw.cscale, &lw.gz, &lw.gss, &lw.trial} {
-		growF(s, p)
+		grow(s, p)
 	}
-	growF(&lw.gr, p*p)
-	growF(&lw.candObj, keep)
-	growF(&lw.candBeta, keep*p)
-	if cap(lw.candSt) < keep {
-		lw.candSt = make([]Status, keep)
-	}
-	lw.candSt = lw.candSt[:keep]
+	grow(&lw.gr, p*p)
+	grow(&lw.candObj, keep)
+	grow(&lw.candBeta, keep*p)
+	grow(&lw.candSt, keep)
 	lw.nKept = 0
 	lw.lastT = 0
 	lw.useGram, lw.gramOK = false, false
@@ -294,7 +273,10 @@ func (lw *ltsWork) fit(x blas64.General, y, beta []float64, rng *rand.Rand, s lt
 		starts, firstSteps, singular = lw.nestedStarts(x, y, rng, s)
 	}
 	if lw.nKept == 0 {
-		starts, singular = lw.starts(x, y, rng, s.Subsets, s.CSteps, s.Keep)
+		// The nested starts kept nothing: starts on all rows, counted
+		// with the nested ones for the status.
+		more, sing := lw.starts(x, y, rng, s.Subsets, s.CSteps, s.Keep)
+		starts, singular = starts+more, singular || sing
 		firstSteps = s.CSteps
 	}
 	switch {
@@ -525,7 +507,7 @@ func (lw *ltsWork) draw(x blas64.General, y []float64, rng *rand.Rand) int {
 	clear(lw.gr)
 	clear(lw.gss)
 	// While starts runs with the column products, a start of p rows is
-	// first solved by LU (luSolve), or else the response is rotated along,
+	// first solved by LU (luStart), or else the response is rotated along,
 	// so that it can be solved from the factor (givensSolve); startSteps
 	// then proves either good enough (ltsstart.go).
 	var qy []float64
@@ -545,13 +527,15 @@ func (lw *ltsWork) draw(x blas64.General, y []float64, rng *rand.Rand) int {
 		rows := m + 1
 		switch {
 		case qy == nil || rows > p:
-			ltsGivensAddRow(lw.gr, lw.gz, p, qy, y[idx[m]])
+			// givensSolve solves only starts of p rows, so the response
+			// is not rotated along here.
+			ltsGivensAddRow(lw.gr, lw.gz, p, nil, 0)
 		case rows < p:
 			// The rotations wait: an LU factorisation of the first p
 			// rows may prove the rank test passed and solve the start.
 			continue
 		default:
-			if lw.luSolve(x, y) {
+			if lw.luStart(x, y) {
 				return rows
 			}
 			// Not proved: the p rows are rotated in, as they would have
@@ -678,7 +662,7 @@ func (lw *ltsWork) kth(r2, sel []float64) float64 {
 			// window moves in on, so the loop has no data-dependent
 			// branch.
 			sel[in] = v
-			isBelow, isAbove := lessInt(v, lo), lessInt(hi, v)
+			isBelow, isAbove := b2i(v < lo), b2i(hi < v)
 			below += isBelow
 			in += 1 - isBelow - isAbove
 		}

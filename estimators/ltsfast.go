@@ -52,30 +52,14 @@ func (lw *ltsWork) evaluate(x blas64.General, y, b []float64) (float64, bool) {
 	for i, v := range r2 {
 		in := v <= t
 		cur[i] = in
-		one := boolInt(in)
+		one := b2i(in)
 		atMost += one
 		q += math.Float64frombits(math.Float64bits(v) & -uint64(one))
 	}
 	if atMost == h {
 		return q, !math.IsInf(q, 0)
 	}
-	below := 0
-	for i, v := range r2 {
-		in := v < t
-		cur[i] = in
-		if in {
-			below++
-		}
-	}
-	for i, v := range r2 {
-		if below == h {
-			break
-		}
-		if v == t {
-			cur[i] = true
-			below++
-		}
-	}
+	lw.markTies(r2, t)
 	q = 0
 	for i, in := range cur {
 		if in {
@@ -112,16 +96,7 @@ func (lw *ltsWork) subsetRows() []int {
 	k := 0
 	for i, in := range lw.cur[:lw.n] {
 		rows[k] = i
-		k += boolInt(in)
+		k += b2i(in)
 	}
 	return rows[:min(k, lw.h)]
-}
-
-// boolInt returns 1 for true and 0 for false, without a branch.
-func boolInt(b bool) int {
-	var i int
-	if b {
-		i = 1
-	}
-	return i
 }

@@ -24,7 +24,7 @@ import (
 // when the start can enter the kept list; the bound, with a lower bound on
 // the objective that needs no selection (objectiveBound), also proves when
 // it cannot. The elemental fit itself is solved by LU or from the Givens
-// factor of draw's rank test (luSolve, givensSolve) and proved in the same
+// factor of draw's rank test (luStart, givensSolve) and proved in the same
 // way to select the subset of the Householder fit, or solved again by it.
 // Whenever a proof fails (ties or near-ties at the boundary, an
 // ill-conditioned subset, a refused factorisation, values near overflow)
@@ -39,7 +39,7 @@ const ltsStartSafety = 4
 // ltsStartWork holds the buffers of startSteps.
 type ltsStartWork struct {
 	qp     int       // values of a row of prod: p(p+1)/2 + p, rounded up to a multiple of 4
-	prod   []float64 // n×qp, row i holds x_ik x_il (k ≤ l), then x_ik y_i, then zeros
+	prod   []float64 // n×qp, row i holds x_ik x_il (k ≤ l, colWork.prod's), then x_ik y_i, then zeros
 	total  []float64 // qp, the sums of prod over all rows
 	sums   []float64 // qp, the sums of prod over the rows of the subset of the last refit
 	terms  int       // rows added to or taken from sums since they were formed afresh
@@ -53,10 +53,10 @@ type ltsStartWork struct {
 	colMax []float64 // p, max_i |x_ik|
 	yMax   float64   // max_i |y_i|
 	yNorm  float64   // ‖y‖₂
-	gqy    []float64 // p, Qᵀy of the rows of a draw, rotated along by draw
-	lu     []float64 // p×p, the LU factors of luSolve
-	v      []float64 // p, scratch of luSolve
-	approx bool      // draw solved the start by luSolve or givensSolve, not Householder QR
+	gqy    []float64 // p, Qᵀy of the first p rows of a draw, rotated along by draw
+	lu     []float64 // p×p, the LU factors of luStart
+	v      []float64 // p, scratch of luStart
+	approx bool      // draw solved the start by luStart or givensSolve, not Householder QR
 	delta0 float64   // then a bound on the distance of its residuals from the exact start's
 
 	qrOnly bool // take every C-step by QR (offerSteps), for tests
@@ -64,7 +64,7 @@ type ltsStartWork struct {
 	never  bool // never give up, for tests
 	// Counts of the starts since the fit began, for tests: redone by QR
 	// from the elemental fit, refitted by QR at the end, and solved by
-	// luSolve or givensSolve and then again by Householder QR.
+	// luStart or givensSolve and then again by Householder QR.
 	redone, refitted, resolved int
 }
 
@@ -73,12 +73,6 @@ type ltsStartWork struct {
 func (lw *ltsWork) loadStart(cw *colWork, y []float64) {
 	n, p := cw.n, cw.p
 	sw := &lw.start
-	grow := func(s *[]float64, k int) {
-		if cap(*s) < k {
-			*s = make([]float64, k)
-		}
-		*s = (*s)[:k]
-	}
 	q := p * (p + 1) / 2
 	qp := (q + p + 3) &^ 3
 	sw.qp = qp
@@ -90,22 +84,17 @@ func (lw *ltsWork) loadStart(cw *colWork, y []float64) {
 	for _, s := range []*[]float64{&sw.g, &sw.scale, &sw.u, &sw.b0, &sw.colMax, &sw.colNrm, &sw.gqy, &sw.v} {
 		grow(s, p)
 	}
-	if cap(sw.list) < n+1 {
-		sw.list = make([]int, n+1)
-	}
-	sw.list = sw.list[:n+1]
+	grow(&sw.list, n+1)
 	sw.off = false
 	y = y[:n]
+	// The products x_ik x_il are cw's, taken row by row.
+	for kl := 0; kl < q; kl++ {
+		for i, v := range cw.prod[kl*n : (kl+1)*n] {
+			sw.prod[i*qp+kl] = v
+		}
+	}
 	for i, yi := range y {
 		dst := sw.prod[i*qp : (i+1)*qp]
-		kl := 0
-		for k := 0; k < p; k++ {
-			xk := cw.xt[k*n+i]
-			for l := k; l < p; l++ {
-				dst[kl] = xk * cw.xt[l*n+i]
-				kl++
-			}
-		}
 		for k := 0; k < p; k++ {
 			dst[q+k] = cw.xt[k*n+i] * yi
 		}
@@ -137,7 +126,7 @@ func (lw *ltsWork) loadStart(cw *colWork, y []float64) {
 const ltsStartTrial = 16
 
 // startFast reports whether the starts take startSteps (and draw solves
-// them by luSolve or givensSolve): while starts runs with the column
+// them by luStart or givensSolve): while starts runs with the column
 // products, unless startSteps gave up on the design.
 func (lw *ltsWork) startFast() bool {
 	return lw.sc != nil && !lw.start.qrOnly && !lw.start.off
@@ -158,29 +147,33 @@ func (sw *ltsStartWork) giveUp(starts int) {
 
 // startSteps is offerSteps for a start with coefficients b (overwritten)
 // while starts runs with the column products (lw.sc set). It returns what
-// offerSteps returns and leaves the kept list as offerSteps would.
+// offerSteps returns and leaves the kept list as offerSteps would, unless
+// elementalQR refuses the rows of the start (then it drops the start and
+// reports it singular).
 func (lw *ltsWork) startSteps(x blas64.General, y, b []float64, csteps, keep int) (singular bool) {
 	sw := &lw.start
 	p, h := lw.p, lw.h
 	copy(sw.b0, b[:p])
 	exact := func() bool {
 		sw.redone++
-		if sw.approx {
-			lw.elementalQR(x, y)
+		if sw.approx && !lw.elementalQR(x, y) {
+			return true
 		}
 		copy(b, sw.b0)
 		return lw.offerSteps(x, y, b, csteps, keep)
 	}
 	// The subset of the elemental fit: the one offerSteps finds, when the
 	// start was solved by QR as draw does, or proved to be so.
-	_, gap, ok := lw.markFast(y, b)
+	gap, ok := lw.markFast(y, b)
 	if !ok {
 		return exact()
 	}
 	if sw.approx && !(gap > 2*sw.delta0) {
-		lw.elementalQR(x, y)
+		if !lw.elementalQR(x, y) {
+			return true
+		}
 		copy(b, sw.b0)
-		if _, _, ok = lw.markFast(y, b); !ok {
+		if _, ok = lw.markFast(y, b); !ok {
 			return exact()
 		}
 	}
@@ -194,7 +187,7 @@ func (lw *ltsWork) startSteps(x blas64.General, y, b []float64, csteps, keep int
 		}
 		lw.cur, lw.prev = lw.prev, lw.cur
 		var gap float64
-		if _, gap, ok = lw.markFast(y, b); !ok || !(gap > 2*delta) {
+		if gap, ok = lw.markFast(y, b); !ok || !(gap > 2*delta) {
 			return exact()
 		}
 	}
@@ -237,11 +230,11 @@ func (lw *ltsWork) smallestSum() float64 {
 		u, v := r2[i], r2[i+1]
 		s0 += ltsBelow(u, t)
 		s1 += ltsBelow(v, t)
-		below += lessInt(u, t) + lessInt(v, t)
+		below += b2i(u < t) + b2i(v < t)
 	}
 	if i < len(r2) {
 		s0 += ltsBelow(r2[i], t)
-		below += lessInt(r2[i], t)
+		below += b2i(r2[i] < t)
 	}
 	return s0 + s1 + float64(lw.h-below)*t
 }
@@ -266,7 +259,6 @@ func ltsBelow(v, t float64) float64 {
 func (lw *ltsWork) objectiveBound(y, b []float64, tau float64) (float64, bool) {
 	r := lw.r2[:lw.n]
 	lw.sc.residuals(y, b, r)
-	tb := math.Float64bits(tau)
 	var s0, s1 float64
 	c := 0
 	i := 0
@@ -276,17 +268,9 @@ func (lw *ltsWork) objectiveBound(y, b []float64, tau float64) (float64, bool) {
 			return 0, false
 		}
 		r[i], r[i+1] = u, v
-		ub, vb := math.Float64bits(u), math.Float64bits(v)
-		var mu, mv uint64
-		if ub < tb {
-			mu = math.MaxUint64
-		}
-		if vb < tb {
-			mv = math.MaxUint64
-		}
-		s0 += math.Float64frombits(ub & mu)
-		s1 += math.Float64frombits(vb & mv)
-		c += int(mu&1) + int(mv&1)
+		s0 += ltsBelow(u, tau)
+		s1 += ltsBelow(v, tau)
+		c += b2i(u < tau) + b2i(v < tau)
 	}
 	for ; i < len(r); i++ {
 		u := r[i] * r[i]
@@ -304,33 +288,34 @@ func (lw *ltsWork) objectiveBound(y, b []float64, tau float64) (float64, bool) {
 
 // markFast computes the squared residuals at b from the column products,
 // marks in lw.cur the h rows with the smallest, as evaluate does, and
-// returns the h-th smallest and the gap between the (h+1)-th and the h-th
-// smallest |residual| (0 on ties, +Inf when h = n). It reports false when a
+// returns the gap between the (h+1)-th and the h-th smallest |residual|
+// (0 on ties, +Inf when h = n). It reports false when a
 // residual is NaN, when the objective might overflow, or when the residuals
 // are too large for the error bounds of startSteps.
-func (lw *ltsWork) markFast(y, b []float64) (t, gap float64, ok bool) {
+func (lw *ltsWork) markFast(y, b []float64) (gap float64, ok bool) {
 	n, h := lw.n, lw.h
 	r2 := lw.r2[:n]
+	var t float64
 	if n < ltsWindowRows {
 		// The squares in one vector pass, with the same residuals as
 		// colWork.residuals; the h-th smallest by counting (orderPair).
 		top, sum := residualsSquares(y, lw.sc.xt, b, r2)
 		if math.IsNaN(sum) || math.IsInf(sum, 0) {
-			return 0, 0, false // a NaN residual, or squares too large
+			return 0, false // a NaN residual, or squares too large
 		}
 		t, _ = orderPair(r2, lw.sel[:n], h-1, h-1, top)
 	} else {
 		lw.sc.residuals(y, b, r2)
 		for i, r := range r2 {
 			if r != r {
-				return 0, 0, false
+				return 0, false
 			}
 			r2[i] = r * r
 		}
 		t = lw.kth(r2, lw.sel[:n])
 	}
 	if !(t <= math.MaxFloat64/float64(2*h)) || lw.residualBound(b) > 1e300 {
-		return 0, 0, false
+		return 0, false
 	}
 	cur := lw.cur[:n]
 	tb := math.Float64bits(t)
@@ -359,12 +344,12 @@ func (lw *ltsWork) markFast(y, b []float64) (t, gap float64, ok bool) {
 	default:
 		gap = math.Sqrt(math.Float64frombits(next)) - math.Sqrt(t)
 	}
-	return t, gap, true
+	return gap, true
 }
 
-// markTies marks the subset as evaluate does when more than one row holds
-// the h-th smallest value t: every row below t, then rows equal to t in
-// row order up to h.
+// markTies marks in lw.cur the subset of evaluate and markFast when more
+// than one row holds the h-th smallest value t: every row below t, then
+// rows equal to t in row order up to h.
 func (lw *ltsWork) markTies(r2 []float64, t float64) {
 	cur := lw.cur[:lw.n]
 	below := 0
@@ -417,7 +402,7 @@ func (lw *ltsWork) normalSums(first bool) {
 		// from the back.
 		e, l := 0, n
 		for i, c := range cur {
-			ci, pi := boolInt(c), boolInt(prev[i])
+			ci, pi := b2i(c), b2i(prev[i])
 			list[e], list[l] = i, i
 			e += ci &^ pi
 			l -= pi &^ ci
@@ -431,7 +416,7 @@ func (lw *ltsWork) normalSums(first bool) {
 		k := 0
 		for i, c := range cur {
 			list[k] = i
-			k += boolInt(c)
+			k += b2i(c)
 		}
 		clear(sw.sums)
 		ltsAddRows(sw.sums, sw.prod, list[:k], sw.qp, false)
@@ -441,7 +426,7 @@ func (lw *ltsWork) normalSums(first bool) {
 	k := 0
 	for i, c := range cur {
 		list[k] = i
-		k += 1 - boolInt(c)
+		k += 1 - b2i(c)
 	}
 	copy(sw.sums, sw.total)
 	ltsAddRows(sw.sums, sw.prod, list[:k], sw.qp, true)
@@ -556,9 +541,11 @@ func (lw *ltsWork) normalSolve(b []float64, first bool) (delta float64, ok bool)
 }
 
 // elementalQR puts into sw.b0 the fit through the p rows lw.idx[:p] by
-// Householder QR, as draw makes it, after givensSolve solved them. It
-// clears sw.approx.
-func (lw *ltsWork) elementalQR(x blas64.General, y []float64) {
+// Householder QR, as draw makes it, after luStart or givensSolve solved
+// them. It clears sw.approx. It reports false, leaving sw.b0 unchanged,
+// when Householder QR refuses the rows; startSteps then drops the start as
+// singular.
+func (lw *ltsWork) elementalQR(x blas64.General, y []float64) bool {
 	p := lw.p
 	sw := &lw.start
 	a := lw.qa[:p*p]
@@ -568,11 +555,15 @@ func (lw *ltsWork) elementalQR(x blas64.General, y []float64) {
 		}
 		lw.qy[k] = y[i]
 	}
-	// givensSolve accepts only rows whose factor passes the rank test of
-	// householderFactor by a wide margin (see there), so this succeeds.
-	householderSolve(a, p, p, lw.qy[:p], sw.b0, lw.rdiag, lw.cscale)
+	// luStart and givensSolve accept only rows that pass the rank test of
+	// householderFactor by a wide margin (see there), so this succeeds
+	// unless their bounds fail. Should it fail, the search without them
+	// would have drawn further rows for this start, which cannot be
+	// recovered here; the start is dropped as singular instead.
+	ok := householderSolve(a, p, p, lw.qy[:p], sw.b0, lw.rdiag, lw.cscale)
 	sw.approx = false
 	sw.resolved++
+	return ok
 }
 
 // givensSolve solves for the start of p rows whose factor draw holds in
@@ -647,7 +638,7 @@ func (lw *ltsWork) givensSolve() bool {
 	return true
 }
 
-// luSolve solves for the start of the p rows lw.idx[:p] by LU with partial
+// luStart solves for the start of the p rows lw.idx[:p] by LU with partial
 // pivoting of the rows with columns scaled to unit norm over them (Ã = X·D,
 // D = diag(1/√gss)), into lw.trial, and sets sw.approx and sw.delta0 as
 // givensSolve does. It reports false, changing nothing else, unless the
@@ -665,7 +656,7 @@ func (lw *ltsWork) givensSolve() bool {
 // about 1, the columns having unit norm). The LU solution is within
 // ‖Ã⁻¹‖‖E‖‖z‖ of the exact one, the Householder solution that draw would
 // make within ‖Ã⁻¹‖γ(√p‖z‖ + ‖y‖), with ‖Ã⁻¹‖ ≤ β/0.9.
-func (lw *ltsWork) luSolve(x blas64.General, y []float64) bool {
+func (lw *ltsWork) luStart(x blas64.General, y []float64) bool {
 	p := lw.p
 	sw := &lw.start
 	a, sc, yv := sw.lu[:p*p], sw.scale[:p], sw.v[:p]

@@ -192,7 +192,7 @@ func TestLTSHypot(t *testing.T) {
 	}
 }
 
-// TestLTSElementalBounds checks the claims of luSolve and givensSolve on
+// TestLTSElementalBounds checks the claims of luStart and givensSolve on
 // random elemental subsets of well and badly conditioned designs: when
 // either accepts its rows, the rank tests of draw pass for them, the
 // Householder fit draw would make exists, and every residual at the
@@ -263,7 +263,7 @@ func TestLTSElementalBounds(t *testing.T) {
 		rRef := make([]float64, n)
 		lw.sc.residuals(y, ref, rRef)
 		tried++
-		for m, solve := range []func() bool{func() bool { return lw.luSolve(raw, y) }, lw.givensSolve} {
+		for m, solve := range []func() bool{func() bool { return lw.luStart(raw, y) }, lw.givensSolve} {
 			lw.start.approx = false
 			if !solve() {
 				continue

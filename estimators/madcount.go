@@ -8,7 +8,7 @@ import (
 func countBelowGo(a []float64, x float64) int {
 	c := 0
 	for _, v := range a {
-		c += lessInt(v, x)
+		c += b2i(v < x)
 	}
 	return c
 }
@@ -38,30 +38,21 @@ func splitAtGo(a []float64, x float64) (below, above float64) {
 	return below, above
 }
 
-// madCountRounds bounds the rounds of madCount's bracketing; the values
+// madCountRounds bounds the rounds of orderPair's bracketing; the values
 // left in the bracket then are gathered and selected among.
 const madCountRounds = 12
 
-// madCountGather is the most gathered values madCount orders by
+// madCountGather is the most gathered values orderPair orders by
 // insertion sort; more are selected among by selectFast.
 const madCountGather = 12
 
-// madCount is MAD(r, buf), the same value, found mostly by counting rather
-// than by moving values: the middle order statistics of |r| come from
-// orderPair. On the 100 residuals of an elemental fit it takes about
-// five counts and half the time of madFast. buf and tmp must have at least
-// len(r) elements; both are overwritten. NaN in r gives MAD's result.
-func madCount(r, buf, tmp []float64) float64 {
-	n := len(r)
-	if n < 2*madCountGather {
-		return MAD(r, buf)
-	}
-	top, sum := absMaxSum(r, buf[:n])
-	return madCountAbs(r, buf, tmp, top, sum)
-}
-
-// madCountAbs is madCount with buf already holding |r| and top and sum
-// their largest and their sum (absMaxSum or residualsAbs).
+// madCountAbs is MAD(r, buf), the same value, found mostly by counting
+// rather than by moving values, with buf already holding |r| and top and
+// sum their largest and their sum (absMaxSum or residualsAbs): the middle
+// order statistics of |r| come from orderPair. On the 100 residuals of an
+// elemental fit it takes about five counts (BenchmarkMADResiduals compares
+// it with madFirst). buf and tmp must have at least len(r) elements; both
+// are overwritten. NaN in r, or values too large to sum, give MAD's result.
 func madCountAbs(r, buf, tmp []float64, top, sum float64) float64 {
 	n := len(r)
 	if n < 2*madCountGather || math.IsNaN(sum) || math.IsInf(sum, 0) {
@@ -136,7 +127,7 @@ func orderPair(a, tmp []float64, first, last int, top float64) (vFirst, vLast fl
 	g := 0
 	for _, v := range a {
 		m[g] = v
-		g += boolInt(v >= lo) & lessInt(v, hi)
+		g += b2i(v >= lo) & b2i(v < hi)
 	}
 	m = m[:g]
 	if g <= madCountGather {

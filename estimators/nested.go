@@ -99,16 +99,10 @@ func (nw *nestedWork) draw(x blas64.General, y []float64, rng *rand.Rand, per in
 	for i := range idx {
 		idx[i] = i
 	}
-	growF := func(s *[]float64, k int) {
-		if cap(*s) < k {
-			*s = make([]float64, k)
-		}
-		*s = (*s)[:k]
-	}
-	growF(&nw.xm, nestedRows*p)
-	growF(&nw.ym, nestedRows)
-	growF(&nw.cand, nestedBlocks*per*p)
-	growF(&nw.score, nestedBlocks*per)
+	grow(&nw.xm, nestedRows*p)
+	grow(&nw.ym, nestedRows)
+	grow(&nw.cand, nestedBlocks*per*p)
+	grow(&nw.score, nestedBlocks*per)
 	nw.count = 0
 	for m := 0; m < nestedRows; m++ {
 		j := m + rng.IntN(n-m)
@@ -204,14 +198,7 @@ func (ws *Workspace) sFitNested(x blas64.General, y, beta []float64, rs Resampli
 	p, n := ws.p, ws.n
 	psi := rs.SScale()
 	b := ws.sConsistency(psi.C)
-	subsets := rs.Subsets
-	if subsets == 0 {
-		subsets = ElementalSubsets(p)
-	}
-	keep := rs.Keep
-	if keep == 0 {
-		keep = sDefaultKeep
-	}
+	subsets, keep := rs.sCounts(p)
 	nw := ws.lts.nested()
 	nw.draw(x, y, ws.rng, keep)
 	sub := &nw.sub

@@ -91,24 +91,29 @@ func maxError(beta []float64) float64 {
 
 // TestNestedDeterministic: the nested search draws only from the
 // workspace's stream, so the same seed gives the same bits and another seed
-// another search.
+// another search (another merged set of rows; the estimate itself may
+// agree, the minimum being the same).
 func TestNestedDeterministic(t *testing.T) {
 	x, y := simulated(3, 4000, 4, 0.1)
 	for _, m := range []Method{MethodS, MethodLTS} {
-		fit := func(seed uint64, ws *Workspace) []float64 {
+		fit := func(seed uint64, ws *Workspace) (beta []float64, merged []int) {
 			ws.SeedRandom(seed, 1)
 			var res Result
 			if err := (Estimator{Method: m}).Fit(x, y, ws, &res); err != nil {
 				t.Fatal(err)
 			}
-			return slices.Clone(res.Coefficients)
+			return slices.Clone(res.Coefficients), slices.Clone(ws.lts.nest.idx[:nestedRows])
 		}
 		var ws1, ws2 Workspace
-		a, b := fit(7, &ws1), fit(7, &ws2)
-		fit(8, &ws1)
-		c := fit(7, &ws1) // a reused workspace after another fit
-		if !slices.Equal(a, b) || !slices.Equal(a, c) {
+		a, rowsA := fit(7, &ws1)
+		b, _ := fit(7, &ws2)
+		_, rowsOther := fit(8, &ws1)
+		c, rowsC := fit(7, &ws1) // a reused workspace after another fit
+		if !slices.Equal(a, b) || !slices.Equal(a, c) || !slices.Equal(rowsA, rowsC) {
 			t.Errorf("%v: same seed, different fits %v %v %v", m, a, b, c)
+		}
+		if slices.Equal(rowsA, rowsOther) {
+			t.Errorf("%v: seeds 7 and 8 drew the same merged set", m)
 		}
 	}
 }
@@ -256,5 +261,60 @@ func TestNestedExactFit(t *testing.T) {
 				t.Errorf("%v: coefficient %d = %v, want %v", m, j, res.Coefficients[j], w)
 			}
 		}
+	}
+}
+
+// TestFallbackNoColumnProducts: the searches on all rows that the nested
+// searches fall back to do not store the column products of a large
+// design, which would take n·p(p+1)/2 values (colMaxP): the S fit of
+// TestNestedExactFit falls back to sFitPlain on all 3000 rows, and LTS's
+// fallback is starts on all rows. Only the merged set's products, of
+// nestedRows rows, are kept.
+func TestFallbackNoColumnProducts(t *testing.T) {
+	const n, p = 3000, 3
+	x, y := simulated(12, n, p, 0)
+	for i := range y {
+		y[i] = 2 + 0.5*x.At(i, 1) - x.At(i, 2)
+		if i%10 < 3 {
+			y[i] += 4 + float64(i%17)
+		}
+	}
+	bounded := func(name string, cw *colWork) {
+		t.Helper()
+		if cw == nil {
+			return
+		}
+		if c, most := cap(cw.prod), nestedRows*p*(p+1)/2; c > most {
+			t.Errorf("%s: column products hold %d values, want at most %d", name, c, most)
+		}
+		if c := cap(cw.xt); c > nestedRows*p {
+			t.Errorf("%s: columns hold %d values, want at most %d", name, c, nestedRows*p)
+		}
+	}
+	var ws Workspace
+	var res Result
+	if err := (Estimator{Method: MethodS}).Fit(x, y, &ws, &res); err != nil {
+		t.Fatal(err)
+	}
+	if res.Status != ExactFit {
+		t.Fatalf("S: status %v, want exact-fit (the fallback to all rows)", res.Status)
+	}
+	if ws.lts.col != nil {
+		t.Errorf("S: the search on all %d rows stored column products", n)
+	}
+	if ws.lts.nest != nil {
+		bounded("S merged set", ws.lts.nest.sub.lts.col)
+	}
+
+	var lw ltsWork
+	xg := x.RawMatrix()
+	s := ltsSettings{}.withDefaults(n, p)
+	lw.reserve(n, p, s.H, s.Keep)
+	starts, _ := lw.starts(xg, y, rand.New(rand.NewPCG(1, 2)), s.Subsets, s.CSteps, s.Keep)
+	if starts == 0 || lw.nKept == 0 {
+		t.Fatalf("LTS starts on all rows: %d starts, %d kept", starts, lw.nKept)
+	}
+	if lw.col != nil || cap(lw.start.prod) != 0 {
+		t.Errorf("LTS starts on all %d rows stored column products (%d values by rows)", n, cap(lw.start.prod))
 	}
 }

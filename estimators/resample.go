@@ -124,7 +124,7 @@ func luSolve(a []float64, p int, y, b, colScale []float64) bool {
 		piv, big := k, math.Float64bits(ck[k])&noSign
 		for i := k + 1; i < p; i++ {
 			v := math.Float64bits(ck[i]) & noSign
-			piv += (i - piv) * boolInt(v > big)
+			piv += (i - piv) * b2i(v > big)
 			big = max(big, v)
 		}
 		if big == 0 || big >= 0x7ff0000000000000 {

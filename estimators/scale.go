@@ -55,50 +55,12 @@ func MAD(r, buf []float64) float64 {
 	return median(buf) / MADConsistency
 }
 
-// madNear is MAD(r, buf), found faster when the median of |r| is known to
-// lie near guess: one pass keeps in buf only the values within a relative
-// distance delta of guess, counting those below, and the middle order
-// statistics are selected among the few kept (madFinish). The value is the
-// same order statistic either way, so the result is bit for bit MAD's.
-func madNear(r, buf []float64, guess, delta float64) float64 {
-	lo, hi, ok := madBracket(len(r), guess, delta)
-	if !ok {
-		return madSampled(r, buf)
-	}
-	return madBetween(r, buf, lo, hi)
-}
-
-// madSampled is MAD(r, buf) for want of a guess: the bracket of
-// madBetween is cut from a sample of 31 evenly spaced |r_i|, between its
-// 9th and 23rd smallest, which hold the median of all n between them
-// unless the sample is most unusual (about 1% of samples, a binomial
-// tail), and then madBetween falls back to MAD. Below 64 values it is MAD.
-func madSampled(r, buf []float64) float64 {
-	const m = 31
-	n := len(r)
-	if n < 64 {
-		return MAD(r, buf)
-	}
-	var s [m]float64
-	for j := range s {
-		s[j] = math.Abs(r[(2*j+1)*n/(2*m)])
-	}
-	insertionSort(s[:])
-	if !(s[8] <= s[22]) { // NaN in the sample
-		return MAD(r, buf)
-	}
-	return madBetween(r, buf, s[8], s[22])
-}
-
-// madBetween is MAD(r, buf) found by selecting among the |r_i| in [lo, hi]
-// (see madNear).
-func madBetween(r, buf []float64, lo, hi float64) float64 {
-	mad, _, _ := madBetweenStats(r, buf, lo, hi)
-	return mad
-}
-
-// madBetweenStats is madBetween that also returns the middle order
-// statistics of |r|, as madFinishStats.
+// madBetweenStats is MAD(r, buf), found faster when the median of |r| is
+// known to lie in [lo, hi] (madBracket, madTighten): one pass keeps in buf
+// only the values within it, counting those below, and the middle order
+// statistics are selected among the few kept (madFinishStats), which it
+// also returns. The value is the same order statistic either way, so the
+// result is bit for bit MAD's.
 func madBetweenStats(r, buf []float64, lo, hi float64) (mad, midLo, midHi float64) {
 	buf = buf[:len(r)]
 	// Branch-free counting: which side a value falls on is a coin toss
@@ -117,8 +79,8 @@ func madBetweenStats(r, buf []float64, lo, hi float64) (mad, midLo, midHi float6
 }
 
 // madBracket returns the interval [guess(1 − delta), guess(1 + delta)] in
-// which madNear looks for the median of n absolute values, or false when
-// there is no usable guess.
+// which madBetweenStats looks for the median of n absolute values, or
+// false when there is no usable guess.
 func madBracket(n int, guess, delta float64) (lo, hi float64, ok bool) {
 	if n < 2 || !(guess > 0) || math.IsInf(guess, 0) || !(delta > 0 && delta < 1) {
 		return 0, 0, false
@@ -126,19 +88,14 @@ func madBracket(n int, guess, delta float64) (lo, hi float64, ok bool) {
 	return guess * (1 - delta), guess * (1 + delta), true
 }
 
-// madFinish completes madNear after a pass that found below values of |r|
-// under the bracket and kept the mid values within it, and any NaN, in
-// buf[:mid]. When the middle order statistics are not among the kept
-// values (the guess was too far off) or r holds NaN, it returns MAD(r, buf).
-func madFinish(r, buf []float64, below, mid int) float64 {
-	mad, _, _ := madFinishStats(r, buf, below, mid)
-	return mad
-}
-
-// madFinishStats is madFinish that also returns the middle order
-// statistics of |r| the MAD was made of, lo ≤ hi (equal for odd n), from
-// which the next iterate's bracket is cut (madTighten). After a NaN or an
-// empty r they are NaN.
+// madFinishStats completes madBetweenStats (or residualsBracket) after a
+// pass that found below values of |r| under the bracket and kept the mid
+// values within it, and any NaN, in buf[:mid]. When the middle order
+// statistics are not among the kept values (the bracket was too far off)
+// or r holds NaN, it returns madFirst's result. It also returns the
+// middle order statistics of |r| the MAD was made of, lo ≤ hi (equal for
+// odd n), from which the next iterate's bracket is cut (madTighten); after
+// a NaN or an empty r they are NaN.
 func madFinishStats(r, buf []float64, below, mid int) (mad, lo, hi float64) {
 	n := len(r)
 	k := n / 2
@@ -184,26 +141,21 @@ func madOf(m []float64, k int, odd bool) (mad, lo, hi float64) {
 func madStats(r, buf []float64) (mad, lo, hi float64) {
 	mad = MAD(r, buf)
 	n := len(r)
+	// MAD is NaN when r holds NaN (median), so buf holds none below.
 	if n == 0 || mad != mad {
 		return mad, math.NaN(), math.NaN()
 	}
 	buf = buf[:n]
-	for _, v := range buf {
-		if v != v {
-			return mad, math.NaN(), math.NaN()
-		}
-	}
 	// median left the k-th smallest at buf[k] and the smaller ones before.
 	_, lo, hi = madOf(buf, n/2, n%2 == 1)
 	return mad, lo, hi
 }
 
-// madFirst is madSampled for the first iterate of a fit, with the middle
-// order statistics as madStats: the median of all |r_i| is selected by
-// selectFast, whose partitions have no data-dependent branches, which at
-// the sizes of a regression (n = 100) takes less time than sampling a
-// bracket and selecting within it. The value is the same order statistic,
-// so the result is bit for bit MAD's; r holding NaN goes to madStats.
+// madFirst is MAD(r, buf) with the middle order statistics as madStats,
+// for the first iterate of a fit, where no bracket is known: the median of
+// all |r_i| is selected by selectFast, whose partitions have no
+// data-dependent branches. The value is the same order statistic, so the
+// result is bit for bit MAD's; r holding NaN goes to madStats.
 func madFirst(r, buf []float64) (mad, lo, hi float64) {
 	n := len(r)
 	if n == 0 {
@@ -230,7 +182,7 @@ func madFirst(r, buf []float64) (mad, lo, hi float64) {
 // order statistic of |r| moves no further than the values do, so the new
 // middle order statistics lie in [midLo − move, midHi + move]. A small
 // relative margin covers rounding. The bracket only speeds the selection
-// up: a wrong one sends madFinish to MAD, with the same result. The
+// up: a wrong one sends madFinishStats to madFirst, with the same result. The
 // bracket returned is never inverted.
 func madTighten(lo, hi, midLo, midHi, move float64) (float64, float64) {
 	if !(midLo <= midHi) || !(move >= 0) || math.IsInf(move, 0) {

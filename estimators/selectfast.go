@@ -1,7 +1,6 @@
 package estimators
 
 import (
-	"math"
 	"math/bits"
 	"slices"
 )
@@ -11,11 +10,12 @@ import (
 // and returns a[k]. It partitions by Lomuto's scheme written without a
 // data-dependent branch (every element is swapped, and the boundary moves
 // by the outcome of the comparison), around a median-of-three pivot, and
-// finishes short ranges by insertion sort. On fresh random data, where the
-// branches of Hoare's scheme would be mispredicted about half the time,
-// that took about a fifth of the time at n = 100 (BenchmarkSelectFresh). When partitions go badly too often (many
-// equal values) it sorts the rest, so the worst case stays O(n log n). a
-// must not contain NaN.
+// finishes short ranges by insertion sort. On fresh random data the
+// branches of a partition by comparisons would be mispredicted about half
+// the time; this one has none to mispredict (BenchmarkSelectFresh times it
+// on such data). When partitions go badly too often (many equal values) it
+// sorts the rest, so the worst case stays O(n log n). a must not contain
+// NaN.
 func selectFast(a []float64, k int) float64 {
 	lo, hi := 0, len(a)-1
 	budget := 2 * bits.Len(uint(len(a)))
@@ -43,7 +43,7 @@ func selectFast(a []float64, k int) float64 {
 		for i, v := range part {
 			part[i] = a[s]
 			a[s] = v
-			s += lessInt(v, pivot)
+			s += b2i(v < pivot)
 		}
 		a[hi], a[s] = a[s], a[hi]
 		switch {
@@ -57,39 +57,4 @@ func selectFast(a []float64, k int) float64 {
 	}
 	insertionSort(a[lo : hi+1])
 	return a[k]
-}
-
-// lessInt returns 1 if a < b and 0 otherwise; the compiler makes it a
-// conditional move, not a branch.
-func lessInt(a, b float64) int {
-	var r int
-	if a < b {
-		r = 1
-	}
-	return r
-}
-
-// madFast returns MAD(r, buf), the same value, by selectFast. buf must have
-// at least len(r) elements; it is overwritten.
-func madFast(r, buf []float64) float64 {
-	buf = buf[:len(r)]
-	for i, v := range r {
-		buf[i] = math.Abs(v)
-	}
-	n := len(buf)
-	if n == 0 {
-		return math.NaN() / MADConsistency
-	}
-	k := n / 2
-	hi := selectFast(buf, k)
-	if n%2 == 1 {
-		return hi / MADConsistency
-	}
-	lo := buf[0]
-	for _, v := range buf[1:k] {
-		if v > lo {
-			lo = v
-		}
-	}
-	return (lo/2 + hi/2) / MADConsistency
 }

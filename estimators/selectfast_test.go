@@ -7,9 +7,10 @@ import (
 	"testing"
 )
 
-// TestSelectFast compares selectFast with sorting, and madFast with MAD
+// TestSelectFast compares selectFast with sorting, and madFirst with MAD
 // bit for bit, on random, tied, constant and ordered data of odd and even
-// lengths, for every k.
+// lengths, for every k; with a NaN put in any place madFirst is NaN, as
+// MAD is.
 func TestSelectFast(t *testing.T) {
 	rng := rand.New(rand.NewPCG(11, 12))
 	for _, tc := range []struct {
@@ -44,8 +45,15 @@ func TestSelectFast(t *testing.T) {
 			}
 			buf := make([]float64, n)
 			want := MAD(a, buf)
-			if got := madFast(a, buf); got != want && !(math.IsNaN(got) && math.IsNaN(want)) {
-				t.Errorf("%s n=%d: madFast = %v, MAD = %v", tc.name, n, got, want)
+			if got, _, _ := madFirst(a, buf); got != want && !(math.IsNaN(got) && math.IsNaN(want)) {
+				t.Errorf("%s n=%d: madFirst = %v, MAD = %v", tc.name, n, got, want)
+			}
+			for _, at := range []int{0, n / 2, n - 1} {
+				b := slices.Clone(a)
+				b[at] = math.NaN()
+				if got, _, _ := madFirst(b, buf); !math.IsNaN(got) {
+					t.Errorf("%s n=%d: NaN at %d, madFirst = %v, want NaN", tc.name, n, at, got)
+				}
 			}
 		}
 	}

@@ -48,7 +48,9 @@ const (
 	// sPolishTol and sPolishSteps bound the polish of the winning
 	// candidate (sPolish): it stops when a step changes the coefficients
 	// by at most the fraction sPolishTol, or after sPolishSteps steps.
-	// Newton steps from a settled scale take one or two.
+	// Newton steps from a settled scale take one or two. sPolishSlack is
+	// the relative rise of the M-scale a polish step may make and still be
+	// taken: at the minimum the scale is flat to rounding.
 	sPolishTol   = 1e-12
 	sPolishSteps = 60
 	sPolishSlack = 1e-14
@@ -168,8 +170,8 @@ func (ws *Workspace) sNewtonStep(psi psi.Bisquare, x blas64.General, y, beta []f
 // sStep takes one fast-S I-step from beta, whose residuals are in ws.r, at
 // scale s: an IRLS step with bisquare weights. It then sets ws.r to the new
 // residuals and returns their sums rho and psiu at s and rhoW at sw
-// (sResiduals; with the column products psiu and rhoW are 0 when sw is
-// NaN). It reports false, leaving beta and ws.r unchanged, when the step
+// (sResiduals, or bisqResidualSums with the column products; rhoW is NaN
+// when sw is NaN). It reports false, leaving beta and ws.r unchanged, when the step
 // has no solution (every weight is zero, or the weighted design is
 // singular; the candidate is then dropped). Because rho(√t) is concave in
 // t for the bisquare, the step does not raise Σ rho(r_i/s), so the
@@ -216,20 +218,27 @@ func (ws *Workspace) sFitCapped(x blas64.General, y, beta []float64, rs Resampli
 	return ws.sFitPlain(x, y, beta, rs, maxRefine)
 }
 
+// sCounts returns the elemental subsets of an S search on p columns and the
+// candidates it refines to convergence, with rs's zero values replaced by
+// their defaults (ElementalSubsets(p) and sDefaultKeep).
+func (rs Resampling) sCounts(p int) (subsets, keep int) {
+	subsets, keep = rs.Subsets, rs.Keep
+	if subsets == 0 {
+		subsets = ElementalSubsets(p)
+	}
+	if keep == 0 {
+		keep = sDefaultKeep
+	}
+	return subsets, keep
+}
+
 // sFitPlain is sFitCapped drawing every candidate from all the rows.
 func (ws *Workspace) sFitPlain(x blas64.General, y, beta []float64, rs Resampling, maxRefine int) sOutcome {
 	p := ws.p
 	psi := rs.SScale()
 	b := ws.sConsistency(psi.C)
 	d := rs.SDivisor.divisor(ws.n, p)
-	subsets := rs.Subsets
-	if subsets == 0 {
-		subsets = ElementalSubsets(p)
-	}
-	keep := rs.Keep
-	if keep == 0 {
-		keep = sDefaultKeep
-	}
+	subsets, keep := rs.sCounts(p)
 	ws.reserveCandidates(keep, p)
 	floor := 0.0
 	drawn := false
@@ -284,7 +293,7 @@ func (ws *Workspace) sCandidates(x blas64.General, y, beta []float64, psi psi.Bi
 			s = madCountAbs(ws.r[:n], ws.buf, cw.w, top, sum)
 		} else {
 			ws.residuals(x, y, cur)
-			s = madFast(ws.r, ws.buf)
+			s, _, _ = madFirst(ws.r, ws.buf)
 		}
 		if s <= sZeroTol*yMax {
 			// At least half the residuals are zero, or zero to rounding.

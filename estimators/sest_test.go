@@ -299,3 +299,28 @@ func TestBisquareDerivLoop(t *testing.T) {
 		}
 	}
 }
+
+// TestMeanRhoMatchesRho: meanRho, psi.Bisquare.Rho written out, sums bit
+// for bit what calling Rho does, inside, at and beyond the rejection
+// point, for several constants and scales.
+func TestMeanRhoMatchesRho(t *testing.T) {
+	rng := rand.New(rand.NewPCG(3, 4))
+	r := make([]float64, 101)
+	for i := range r {
+		r[i] = 3 * rng.NormFloat64()
+	}
+	r[0], r[1], r[2] = 0, 1.54764, -4.685
+	for _, c := range []struct {
+		c, s, d float64
+	}{{1.54764, 1, 101}, {1.54764, 2.5, 98}, {4.685, 0.7, 101}, {4.685, 1, 99}} {
+		bs := psi.Bisquare{C: c.c}
+		var sum float64
+		for _, v := range r {
+			sum += bs.Rho(v / c.s)
+		}
+		want := sum / c.d
+		if got := meanRho(bs, r, c.s, c.d); got != want {
+			t.Errorf("c=%v s=%v d=%v: meanRho %v, sum of Rho %v", c.c, c.s, c.d, got, want)
+		}
+	}
+}

@@ -243,8 +243,8 @@ func (ws *Workspace) sWeightedQR(x blas64.General, s, c float64) bool {
 // sStepCols is the I-step of sStep by the column products cw: one pass
 // forms the weights t² and t²·r (bisqWeights), the normal equations are
 // inner products (colWork.normal), and one pass forms the new residuals
-// with their sums of rho (bisqResidualSums; psiu and rhoW are returned
-// only when sw is not NaN, as for the last I-step of a candidate). When
+// with their sums of rho (bisqResidualSums, whose rhoW is NaN when sw is
+// NaN, as sResiduals's is). When
 // every weight is zero the normal matrix is zero and its solve fails, as
 // sStep's does.
 func (ws *Workspace) sStepCols(cw *colWork, c float64, x blas64.General, y, beta []float64, s, sw float64) (rho, psiu, rhoW float64, ok bool) {
@@ -257,9 +257,6 @@ func (ws *Workspace) sStepCols(cw *colWork, c float64, x blas64.General, y, beta
 		return 0, 0, 0, false
 	}
 	rho, psiu, rhoW = bisqResidualSums(y[:n], cw.xt, beta[:p], r, inv, 1/(sw*c))
-	if math.IsNaN(sw) {
-		return rho, 0, 0, true
-	}
 	return rho, psiu, rhoW, true
 }
 

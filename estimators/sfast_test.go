@@ -118,30 +118,39 @@ func TestSStepKernelsAgree(t *testing.T) {
 		}
 		x := xd.RawMatrix()
 		start := append([]float64(nil), res.Coefficients...)
-		s := madFast(ws.r, ws.buf)
+		s, _, _ := madFirst(ws.r, ws.buf)
 		type got struct {
 			beta            []float64
 			rho, psiu, rhoW float64
 			ok              bool
 		}
-		var g [2]got
-		for k, cw := range []*colWork{nil, ws.lts.columns(x)} {
-			beta := append([]float64(nil), start...)
-			ws.residuals(x, y, beta)
-			rho, psiu, rhoW, ok := ws.sStep(cw, bi, x, y, beta, s, 2*s)
-			g[k] = got{beta, rho, psiu, rhoW, ok}
-		}
-		if !g[0].ok || !g[1].ok {
-			t.Fatalf("p = %d, outliers %v: steps ok %v (rows) %v (columns)", c.p, out, g[0].ok, g[1].ok)
-		}
-		for j := range start {
-			if d := math.Abs(g[0].beta[j] - g[1].beta[j]); d > 1e-12*math.Max(1, math.Abs(g[0].beta[j])) {
-				t.Errorf("p = %d, outliers %v: coefficient %d %v (rows), %v (columns)", c.p, out, j, g[0].beta[j], g[1].beta[j])
+		// sw NaN: no worst scale, and rhoW NaN on either path.
+		for _, sw := range []float64{2 * s, math.NaN()} {
+			var g [2]got
+			for k, cw := range []*colWork{nil, ws.lts.columns(x)} {
+				beta := append([]float64(nil), start...)
+				ws.residuals(x, y, beta)
+				rho, psiu, rhoW, ok := ws.sStep(cw, bi, x, y, beta, s, sw)
+				g[k] = got{beta, rho, psiu, rhoW, ok}
 			}
-		}
-		for _, pair := range [][2]float64{{g[0].rho, g[1].rho}, {g[0].psiu, g[1].psiu}, {g[0].rhoW, g[1].rhoW}} {
-			if math.Abs(pair[0]-pair[1]) > 1e-12*math.Max(1, math.Abs(pair[0])) {
-				t.Errorf("p = %d, outliers %v: sums %v (rows), %v (columns)", c.p, out, pair[0], pair[1])
+			if !g[0].ok || !g[1].ok {
+				t.Fatalf("p = %d, outliers %v: steps ok %v (rows) %v (columns)", c.p, out, g[0].ok, g[1].ok)
+			}
+			for j := range start {
+				if d := math.Abs(g[0].beta[j] - g[1].beta[j]); d > 1e-12*math.Max(1, math.Abs(g[0].beta[j])) {
+					t.Errorf("p = %d, outliers %v: coefficient %d %v (rows), %v (columns)", c.p, out, j, g[0].beta[j], g[1].beta[j])
+				}
+			}
+			for i, pair := range [][2]float64{{g[0].rho, g[1].rho}, {g[0].psiu, g[1].psiu}, {g[0].rhoW, g[1].rhoW}} {
+				if math.IsNaN(sw) && i == 2 {
+					if !math.IsNaN(pair[0]) || !math.IsNaN(pair[1]) {
+						t.Errorf("p = %d, outliers %v, sw NaN: rhoW %v (rows), %v (columns), want NaN", c.p, out, pair[0], pair[1])
+					}
+					continue
+				}
+				if math.Abs(pair[0]-pair[1]) > 1e-12*math.Max(1, math.Abs(pair[0])) {
+					t.Errorf("p = %d, outliers %v, sw %v: sums %v (rows), %v (columns)", c.p, out, sw, pair[0], pair[1])
+				}
 			}
 		}
 	}

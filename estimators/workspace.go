@@ -74,14 +74,17 @@ func (ws *Workspace) reserveCandidates(keep, p int) {
 	ws.cand, ws.candScale = ws.cand[:keep*p], ws.candScale[:keep]
 }
 
+// grow sets *s to length k, allocating only when its capacity is short of
+// k (the contents are then zero; otherwise they are kept).
+func grow[T any](s *[]T, k int) {
+	if cap(*s) < k {
+		*s = make([]T, k)
+	}
+	*s = (*s)[:k]
+}
+
 // reserve sizes the buffers for an n×p problem.
 func (ws *Workspace) reserve(n, p int) {
-	grow := func(s *[]float64, k int) {
-		if cap(*s) < k {
-			*s = make([]float64, k)
-		}
-		*s = (*s)[:k]
-	}
 	ws.n, ws.p = n, p
 	grow(&ws.qa, n*p)
 	for _, s := range []*[]float64{&ws.qy, &ws.r, &ws.q, &ws.psi, &ws.c, &ws.buf} {
@@ -90,14 +93,8 @@ func (ws *Workspace) reserve(n, p int) {
 	if ws.pcg == nil {
 		ws.SeedRandom(0x5eed, 0xfeed)
 	}
-	if cap(ws.subset) < p {
-		ws.subset = make([]int, p)
-	}
-	ws.subset = ws.subset[:p]
-	if cap(ws.off) < n {
-		ws.off = make([]int, n)
-	}
-	ws.off = ws.off[:n]
+	grow(&ws.subset, p)
+	grow(&ws.off, n)
 	grow(&ws.m, p*p)
 	grow(&ws.base, p*p)
 	ws.baseOK, ws.rmsOK = false, false
@@ -283,8 +280,8 @@ func (ws *Workspace) equationNorm(x blas64.General) float64 {
 }
 
 // residualsBracket sets ws.r = y − Xβ with the bits of residuals, and in
-// the same pass does madNear's sorting of |r_i| against [lo, hi] into
-// ws.buf, returning the counts madFinish takes.
+// the same pass does madBetweenStats's sorting of |r_i| against [lo, hi]
+// into ws.buf, returning the counts madFinishStats takes.
 func (ws *Workspace) residualsBracket(x blas64.General, y, beta []float64, lo, hi float64) (below, mid int) {
 	n, p := ws.n, ws.p
 	if p == 5 {
