@@ -124,10 +124,11 @@ func fitCmd(e env, args []string) error {
 		return err
 	}
 	defer f.Close()
-	t, err := csvdata.Read(pos[0], f)
+	t, err := csvdata.ReadFile(pos[0], f)
 	if err != nil {
 		return dataError{err}
 	}
+	defer t.Close()
 	design, err := chooseColumns(t, *yCol, *xCols, *group)
 	if err != nil {
 		return dataError{err}

@@ -11,12 +11,13 @@ import (
 	"io"
 	"io/fs"
 	"math"
+	"os"
+	"runtime/debug"
 	"strconv"
 	"strings"
 	"sync"
 	"unicode"
 	"unicode/utf8"
-	"unsafe"
 )
 
 // Limits on what a data file may hold.
@@ -49,10 +50,85 @@ type Table struct {
 	// finite decimal (Float then reads the text again to word the error).
 	// It is nil when the table was read by encoding/csv.
 	nums []float64
+	// unmap releases data when it is the file mapped into memory; nil
+	// otherwise.
+	unmap func() error
 }
 
 // Rows returns the number of data rows.
 func (t *Table) Rows() int { return t.rows }
+
+// ReadFile reads the open file f as Read does; file names it in errors.
+// Where the system allows, the table maps the file into memory rather
+// than copying it, so that a large file costs no memory of the process's
+// own (only its numbers are kept): Close releases the mapping, after
+// which the table must not be used. A file that changes size while it is
+// mapped makes the table's methods return an error saying so.
+func ReadFile(file string, f *os.File) (*Table, error) {
+	data, unmap := mapFile(f)
+	if unmap == nil {
+		return Read(file, f)
+	}
+	t := &Table{File: file, unmap: unmap}
+	var err error
+	var r *Table
+	if ferr := t.guard(func() { r, err = readData(file, data) }); ferr != nil {
+		unmap()
+		return nil, ferr
+	}
+	if err != nil || r.data == "" {
+		// encoding/csv copied what it kept: the mapping is not needed.
+		unmap()
+		return r, err
+	}
+	r.unmap = unmap
+	return r, nil
+}
+
+// Close releases the memory a table of ReadFile maps; the table must not
+// be used after it. It does nothing for other tables.
+func (t *Table) Close() error {
+	if t.unmap == nil {
+		return nil
+	}
+	err := t.unmap()
+	t.unmap, t.data = nil, ""
+	return err
+}
+
+// guard runs f, turning a fault in reading a mapped file (the file cut
+// short while it is read) into an error naming the file.
+func (t *Table) guard(f func()) error {
+	if t.unmap == nil {
+		f()
+		return nil
+	}
+	return guarded(t.File, f)
+}
+
+// guarded runs f, turning a memory fault into an error naming file (and
+// an error that f panics with, a guarded fault of a goroutine of f's,
+// into that error).
+func guarded(file string, f func()) (err error) {
+	defer debug.SetPanicOnFault(debug.SetPanicOnFault(true))
+	defer func() {
+		if r := recover(); r != nil {
+			if e, ok := r.(faultError); ok {
+				err = e
+				return
+			}
+			if _, ok := r.(interface{ Addr() uintptr }); !ok {
+				panic(r)
+			}
+			err = faultError{fmt.Errorf("%s: the file changed while it was read (it is shorter now); read it again when nothing writes to it", file)}
+		}
+	}()
+	f()
+	return nil
+}
+
+// faultError is the error of a fault in reading a mapped file.
+type faultError struct{ error }
 
 // Read reads a CSV table from r; file names it in errors. Lines may end in
 // LF, CRLF or a lone CR (as some spreadsheets write); a lone CR, also one
@@ -82,33 +158,29 @@ func readData(file, data string) (*Table, error) {
 }
 
 // readAll reads r whole into a string, which readPlain's cells share:
-// the bytes are read once into one buffer, which becomes the string
-// without a copy (nothing writes to it after). A file of known size is
-// read into a buffer of its size plus one byte, so that the read that
-// finds its end needs no larger one.
+// the file is held once, not as bytes and again as a string. A file of
+// known size is read into one buffer of that size rather than a growing
+// one.
 func readAll(r io.Reader) (string, error) {
-	size := 512
-	if st, ok := r.(interface{ Stat() (fs.FileInfo, error) }); ok {
-		if info, err := st.Stat(); err == nil && info.Mode().IsRegular() && info.Size() > 0 &&
-			info.Size() < 1<<40 && int64(int(info.Size())) == info.Size() {
-			size = int(info.Size()) + 1
-		}
+	var sb strings.Builder
+	st, ok := r.(interface{ Stat() (fs.FileInfo, error) })
+	if !ok {
+		_, err := io.Copy(&sb, r)
+		return sb.String(), err
 	}
-	buf := make([]byte, 0, size)
+	if info, err := st.Stat(); err == nil && info.Mode().IsRegular() && info.Size() > 0 &&
+		info.Size() <= 1<<40 && int64(int(info.Size())) == info.Size() {
+		sb.Grow(int(info.Size()))
+	}
+	buf := make([]byte, 64<<10)
 	for {
-		if len(buf) == cap(buf) {
-			buf = append(buf, 0)[:len(buf)] // grow
-		}
-		n, err := r.Read(buf[len(buf):cap(buf)])
-		buf = buf[:len(buf)+n]
+		n, err := r.Read(buf)
+		sb.Write(buf[:n])
 		if err != nil {
 			if errors.Is(err, io.EOF) {
-				err = nil
+				return sb.String(), nil
 			}
-			if len(buf) == 0 {
-				return "", err
-			}
-			return unsafe.String(&buf[0], len(buf)), err
+			return sb.String(), err
 		}
 	}
 }
@@ -186,7 +258,7 @@ func newTable(file string, header []string) (*Table, error) {
 			return nil, fmt.Errorf("%s:1: column name %s is used by columns %d and %d; names must be unique", file, quote(h), k+1, j+1)
 		}
 		seen[h] = j
-		t.Names = append(t.Names, h)
+		t.Names = append(t.Names, strings.Clone(h)) // not in a mapped file
 	}
 	return t, nil
 }
@@ -250,11 +322,14 @@ func readPlainSplit(file, data string, split int) (*Table, bool, error) {
 		if k == 0 {
 			continue // read below, by this goroutine
 		}
-		wg.Go(func() { p.read(width) })
+		wg.Go(func() { p.err = guarded(file, func() { p.read(width) }) })
 	}
 	parts[0].read(width)
 	wg.Wait()
 	for _, p := range parts {
+		if p.err != nil {
+			panic(p.err) // a fault, for ReadFile's guard to report
+		}
 		if !p.ok {
 			return nil, false, nil
 		}
@@ -307,10 +382,12 @@ type plainPart struct {
 	rows        int
 	lines       []int // the line of each row; nil while each line is a row
 	ok          bool  // false: a row's fields do not match the header's
+	err         error
 }
 
 // read reads the part's rows of width cells each.
 func (p *plainPart) read(width int) {
+	prefault(p.nums[:cap(p.nums)])
 	sc := lineScanner{data: p.data, line: p.line - 1}
 	for {
 		text, line, ok := sc.next()
@@ -448,7 +525,8 @@ func (t *Table) rowText(i int) string {
 	return text
 }
 
-// cell returns the text of row i, column j.
+// cell returns the text of row i, column j. For a table of ReadFile it
+// may lie in the mapped file: callers copy what they keep.
 func (t *Table) cell(i, j int) string {
 	if t.records != nil {
 		return t.records[i][j]
@@ -546,7 +624,11 @@ func (t *Table) Float(i, j int) (float64, error) {
 			return v, nil
 		}
 	}
-	v, err := parse(t.cell(i, j))
+	var v float64
+	var err error
+	if ferr := t.guard(func() { v, err = parse(t.cell(i, j)) }); ferr != nil {
+		return 0, ferr
+	}
 	if err != nil {
 		return 0, fmt.Errorf("%s:%d: column %s: %v", t.File, t.Line(i), cutName(t.Names[j]), err)
 	}
@@ -563,47 +645,53 @@ type Group struct {
 
 // Groups splits the rows by the text of column j: one group per distinct
 // text, in the order of first appearance. The groups' Rows share one
-// array.
+// array; their names are copies, valid after Close.
 func (t *Table) Groups(j int) ([]Group, error) {
 	// rows holds each row's group while the rows are read; when every
 	// group's rows come together (the usual layout) it then becomes the
 	// rows in order, each group a stretch of it, and no other array is
 	// needed.
 	rows := make([]int, t.rows)
+	prefault(rows)
 	var groups []Group
 	var counts []int
 	together := true
-	index := map[string]int{}
-	var sc lineScanner
-	if t.records == nil {
-		sc.data = t.data
-		sc.next() // the header
-	}
-	prev, k := "", -1
-	for i := range rows {
-		var s string
-		if t.records != nil {
-			s = t.records[i][j]
-		} else {
-			text, _, _ := sc.next()
-			s = plainField(text, j)
+	err := t.guard(func() {
+		index := map[string]int{}
+		var sc lineScanner
+		if t.records == nil {
+			sc.data = t.data
+			sc.next() // the header
 		}
-		// The previous row's group is tried before the index.
-		if k < 0 || s != prev {
-			var ok bool
-			if k, ok = index[s]; ok {
-				together = false // a group met again after another
+		prev, k := "", -1
+		for i := range rows {
+			var s string
+			if t.records != nil {
+				s = t.records[i][j]
 			} else {
-				k = len(groups)
-				s = strings.Clone(s)
-				index[s] = k
-				groups = append(groups, Group{Name: s})
-				counts = append(counts, 0)
+				text, _, _ := sc.next()
+				s = plainField(text, j)
 			}
-			prev = s
+			// The previous row's group is tried before the index.
+			if k < 0 || s != prev {
+				var ok bool
+				if k, ok = index[s]; ok {
+					together = false // a group met again after another
+				} else {
+					k = len(groups)
+					s = strings.Clone(s)
+					index[s] = k
+					groups = append(groups, Group{Name: s})
+					counts = append(counts, 0)
+				}
+				prev = s
+			}
+			rows[i] = k
+			counts[k]++
 		}
-		rows[i] = k
-		counts[k]++
+	})
+	if err != nil {
+		return nil, err
 	}
 	// Lay the groups' rows out in one array, in group order. When the
 	// groups came together, row i goes to index i, the index just read:

@@ -28,7 +28,8 @@ func meterFile() []byte {
 }
 
 // BenchmarkRead measures reading the 10 MB file of meterFile: from
-// memory (the parse alone), its groups, and from a file (Read).
+// memory (the parse alone), and from a file, mapped (ReadFile) or read
+// (Read).
 func BenchmarkRead(b *testing.B) {
 	data := meterFile()
 	path := filepath.Join(b.TempDir(), "meters.csv")
@@ -54,18 +55,28 @@ func BenchmarkRead(b *testing.B) {
 			}
 		}
 	})
-	b.Run("read", func(b *testing.B) {
-		b.SetBytes(int64(len(data)))
-		b.ReportAllocs()
-		for i := 0; i < b.N; i++ {
-			f, err := os.Open(path)
-			if err != nil {
-				b.Fatal(err)
+	for _, c := range []struct {
+		name string
+		read func(*os.File) (*Table, error)
+	}{
+		{"mapped", func(f *os.File) (*Table, error) { return ReadFile(path, f) }},
+		{"read", func(f *os.File) (*Table, error) { return Read(path, f) }},
+	} {
+		b.Run(c.name, func(b *testing.B) {
+			b.SetBytes(int64(len(data)))
+			b.ReportAllocs()
+			for i := 0; i < b.N; i++ {
+				f, err := os.Open(path)
+				if err != nil {
+					b.Fatal(err)
+				}
+				t, err := c.read(f)
+				if err != nil {
+					b.Fatal(err)
+				}
+				t.Close()
+				f.Close()
 			}
-			if _, err := Read(path, f); err != nil {
-				b.Fatal(err)
-			}
-			f.Close()
-		}
-	})
+		})
+	}
 }
