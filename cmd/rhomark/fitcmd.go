@@ -152,6 +152,11 @@ func fitCmd(e env, args []string) error {
 	if err := out.end(); err != nil {
 		return err
 	}
+	// Names and error texts were read from the file as the fits were
+	// written: a file changed meanwhile is reported, not trusted.
+	if err := t.Close(); err != nil {
+		return dataError{err}
+	}
 	if *weightsOut != "" {
 		if err := atomicfile.WriteFile(*weightsOut, out.weightsCSV()); err != nil {
 			return err

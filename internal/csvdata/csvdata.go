@@ -61,13 +61,28 @@ func (t *Table) Rows() int { return t.rows }
 // ReadFile reads the open file f as Read does; file names it in errors.
 // Where the system allows, the table maps the file into memory rather
 // than copying it, so that a large file costs no memory of the process's
-// own (only its numbers are kept): Close releases the mapping, after
-// which the table must not be used. A file that changes size while it is
-// mapped makes the table's methods return an error saying so.
+// own (only its numbers are kept, and a cell's text is read from the file
+// when asked for): Close releases the mapping, after which the table must
+// not be used. The file must not change until Close. A file cut short
+// while it is mapped makes the table's methods return an error saying so;
+// a file changed in any other way (its size or modification time) makes
+// Close, called while f is still open, return that error, so a caller
+// that checks it knows that names and numbers it read may come from
+// different versions of the file.
 func ReadFile(file string, f *os.File) (*Table, error) {
 	data, unmap := mapFile(f)
 	if unmap == nil {
 		return Read(file, f)
+	}
+	if before, err := f.Stat(); err == nil {
+		release := unmap
+		unmap = func() error {
+			err := release()
+			if after, serr := f.Stat(); serr == nil && (after.Size() != before.Size() || !after.ModTime().Equal(before.ModTime())) {
+				return errChanged(file)
+			}
+			return err
+		}
 	}
 	t := &Table{File: file, unmap: unmap}
 	var err error
@@ -106,29 +121,25 @@ func (t *Table) guard(f func()) error {
 	return guarded(t.File, f)
 }
 
-// guarded runs f, turning a memory fault into an error naming file (and
-// an error that f panics with, a guarded fault of a goroutine of f's,
-// into that error).
+// guarded runs f, turning a memory fault into an error naming file.
 func guarded(file string, f func()) (err error) {
 	defer debug.SetPanicOnFault(debug.SetPanicOnFault(true))
 	defer func() {
 		if r := recover(); r != nil {
-			if e, ok := r.(faultError); ok {
-				err = e
-				return
-			}
 			if _, ok := r.(interface{ Addr() uintptr }); !ok {
 				panic(r)
 			}
-			err = faultError{fmt.Errorf("%s: the file changed while it was read (it is shorter now); read it again when nothing writes to it", file)}
+			err = errChanged(file)
 		}
 	}()
 	f()
 	return nil
 }
 
-// faultError is the error of a fault in reading a mapped file.
-type faultError struct{ error }
+// errChanged is the error of a file that changed while it was read.
+func errChanged(file string) error {
+	return fmt.Errorf("%s: the file changed while it was read; read it again when nothing writes to it", file)
+}
 
 // Read reads a CSV table from r; file names it in errors. Lines may end in
 // LF, CRLF or a lone CR (as some spreadsheets write); a lone CR, also one
@@ -328,7 +339,7 @@ func readPlainSplit(file, data string, split int) (*Table, bool, error) {
 	wg.Wait()
 	for _, p := range parts {
 		if p.err != nil {
-			panic(p.err) // a fault, for ReadFile's guard to report
+			return nil, true, p.err // the file was cut short while read
 		}
 		if !p.ok {
 			return nil, false, nil

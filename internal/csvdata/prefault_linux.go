@@ -22,6 +22,6 @@ func prefault[T any](s []T) {
 	page := uintptr(syscall.Getpagesize())
 	start := uintptr(unsafe.Pointer(&s[0]))
 	end := start + uintptr(len(s))*unsafe.Sizeof(s[0])
-	start &^= page - 1 // the page of s's first byte, wholly in s's span
+	start &^= page - 1 // the start of the page holding s's first byte, which a write to s faults in anyway
 	syscall.Syscall(syscall.SYS_MADVISE, start, end-start, madvPopulateWrite)
 }

@@ -8,6 +8,7 @@ import (
 	"slices"
 	"strings"
 	"testing"
+	"time"
 )
 
 // readBoth reads data as a file with ReadFile and from memory with Read.
@@ -138,5 +139,57 @@ func TestReadFileCutShort(t *testing.T) {
 	}
 	if _, err := tab.Float(19999, 1); err == nil || !strings.HasPrefix(err.Error(), want) {
 		t.Errorf("a cell of a cut file: %v, want %q", err, want)
+	}
+}
+
+// TestReadFileChangedInPlace: a file rewritten while its table is in use,
+// whether to another length or in place to the same length, makes Close
+// report it, since names read from it may now come from another version;
+// a file left alone closes cleanly.
+func TestReadFileChangedInPlace(t *testing.T) {
+	const text = "meter,flow\nA,1\nB,2\n"
+	for _, tc := range []struct {
+		name    string
+		rewrite string // "" leaves the file alone
+	}{
+		{"left alone", ""},
+		{"same length", "meter,flow\nZ,1\nY,2\n"},
+		{"longer", "meter,flow\nA,1\nB,2\nC,3\n"},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			path := filepath.Join(t.TempDir(), "bench.csv")
+			if err := os.WriteFile(path, []byte(text), 0o644); err != nil {
+				t.Fatal(err)
+			}
+			old := time.Now().Add(-time.Hour) // so a rewrite's time differs
+			if err := os.Chtimes(path, old, old); err != nil {
+				t.Fatal(err)
+			}
+			f, err := os.Open(path)
+			if err != nil {
+				t.Fatal(err)
+			}
+			defer f.Close()
+			tab, err := ReadFile("bench.csv", f)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if tab.unmap == nil {
+				t.Skip("the file was read, not mapped")
+			}
+			if tc.rewrite != "" {
+				if err := os.WriteFile(path, []byte(tc.rewrite), 0o644); err != nil {
+					t.Fatal(err)
+				}
+			}
+			err = tab.Close()
+			const want = "bench.csv: the file changed while it was read"
+			switch {
+			case tc.rewrite == "" && err != nil:
+				t.Errorf("unchanged file: Close %v", err)
+			case tc.rewrite != "" && (err == nil || !strings.HasPrefix(err.Error(), want)):
+				t.Errorf("rewritten file: Close %v, want %q", err, want)
+			}
+		})
 	}
 }
