@@ -229,20 +229,26 @@ func TestRefitGram(t *testing.T) {
 	}
 }
 
-// TestNestedExactFit: when 70% of n = 3000 rows lie exactly on a plane, the
-// nested searches still return it, S and MM with ExactFit (a block meets
-// the exact fit and the search falls back to all rows) and LTS with
-// objective 0 to rounding (the exact fit property; Rousseeuw & Leroy
-// (1987), Robust Regression and Outlier Detection, from memory).
-func TestNestedExactFit(t *testing.T) {
-	const n, p = 3000, 3
-	x, y := simulated(12, n, p, 0)
+// exactPlane returns n = 3000 rows of p = 3 columns, 70% of them exactly
+// on the plane y = 2 + 0.5·x1 − x2 and the rest above it.
+func exactPlane() (*mat.Dense, []float64) {
+	x, y := simulated(12, 3000, 3, 0)
 	for i := range y {
 		y[i] = 2 + 0.5*x.At(i, 1) - x.At(i, 2)
 		if i%10 < 3 {
 			y[i] += 4 + float64(i%17)
 		}
 	}
+	return x, y
+}
+
+// TestNestedExactFit: when 70% of n = 3000 rows lie exactly on a plane, the
+// nested searches still return it, S and MM with ExactFit (a block meets
+// the exact fit and the search falls back to all rows) and LTS with
+// objective 0 to rounding (the exact fit property; Rousseeuw & Leroy
+// (1987), Robust Regression and Outlier Detection, from memory).
+func TestNestedExactFit(t *testing.T) {
+	x, y := exactPlane()
 	want := []float64{2, 0.5, -1}
 	for _, m := range []Method{MethodS, MethodMM, MethodLTS} {
 		var ws Workspace
@@ -271,14 +277,8 @@ func TestNestedExactFit(t *testing.T) {
 // fallback is starts on all rows. Only the merged set's products, of
 // nestedRows rows, are kept.
 func TestFallbackNoColumnProducts(t *testing.T) {
-	const n, p = 3000, 3
-	x, y := simulated(12, n, p, 0)
-	for i := range y {
-		y[i] = 2 + 0.5*x.At(i, 1) - x.At(i, 2)
-		if i%10 < 3 {
-			y[i] += 4 + float64(i%17)
-		}
-	}
+	const n, p = 3000, 3 // exactPlane's
+	x, y := exactPlane()
 	bounded := func(name string, cw *colWork) {
 		t.Helper()
 		if cw == nil {
